@@ -1,0 +1,2 @@
+// fringetally core: pure signal processing (typed arrays and Math only, no Node built-ins, no packages).
+export {};

@@ -1,0 +1,2 @@
+// fringetally io layer: capture files, serial link, network feeds.
+export {};

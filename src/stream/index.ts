@@ -1,0 +1,2 @@
+// fringetally stream layer: rxjs operators over the core stages.
+export {};
