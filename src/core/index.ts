@@ -1,3 +1,11 @@
 // fringetally core: pure signal processing (typed arrays and Math only, no Node built-ins, no packages).
-export {};
 export * from './alarms.js';
+export * from './correction.js';
+export * from './displacement.js';
+export * from './ellipse.js';
+export * from './monitor.js';
+export * from './options.js';
+export * from './phase.js';
+export * from './pipeline.js';
+export * from './tracker.js';
+export * from './synthesis.js';

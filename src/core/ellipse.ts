@@ -1,0 +1,452 @@
+// Ellipse (Heydemann 1981) fit of quadrature samples in accumulator form: running sums of the monomials
+// x^i y^j (i + j <= 4) are all the least-squares conic fit needs, so a fit needs no stored samples and two
+// accumulators merge exactly. P. L. M. Heydemann, Applied Optics 20(19), 3382-3384 (1981).
+
+import { integerInRange, numberInRange, OptionError } from './options.js';
+
+/**
+ * The ellipse of a pair of quadrature signals, in the one convention fringetally uses everywhere:
+ *
+ *     x = amplitudeX · cos φ + offsetX
+ *     y = amplitudeY · sin(φ + phaseErrorRad) + offsetY
+ *
+ * φ is the interference phase; positive displacement advances φ. Offsets and amplitudes are in the input's
+ * own units (ADC counts for integer captures).
+ *
+ * Heydemann writes `x = R cos δ + p`, `y = (R/G) sin(δ − α) + q`. The mapping (see `fromHeydemann`):
+ * offsetX = p, offsetY = q, amplitudeX = R, amplitudeY = R/G, phaseErrorRad = −α, φ = δ.
+ */
+export interface EllipseCalibration {
+  readonly offsetX: number;
+  readonly offsetY: number;
+  readonly amplitudeX: number;
+  readonly amplitudeY: number;
+  readonly phaseErrorRad: number;
+}
+
+/** Heydemann's own parameters: `x = R cos δ + p`, `y = (R/G) sin(δ − α) + q`. */
+export interface HeydemannParameters {
+  readonly p: number;
+  readonly q: number;
+  readonly R: number;
+  readonly G: number;
+  readonly alphaRad: number;
+}
+
+export function fromHeydemann(h: HeydemannParameters): EllipseCalibration {
+  return { offsetX: h.p, offsetY: h.q, amplitudeX: h.R, amplitudeY: h.R / h.G, phaseErrorRad: -h.alphaRad };
+}
+
+export function toHeydemann(c: EllipseCalibration): HeydemannParameters {
+  return { p: c.offsetX, q: c.offsetY, R: c.amplitudeX, G: c.amplitudeX / c.amplitudeY, alphaRad: -c.phaseErrorRad };
+}
+
+/** Coefficients of the conic `A x² + B y² + C xy + D x + E y = 1`. */
+export interface Conic {
+  readonly A: number;
+  readonly B: number;
+  readonly C: number;
+  readonly D: number;
+  readonly E: number;
+}
+
+/**
+ * Heydemann's closed form from the conic to the ellipse parameters, or null when the conic is not an
+ * ellipse (the fit must then be rejected): requires A > 0, B > 0 and 4AB − C² > 0.
+ *   p = (2BD − EC)/(C² − 4AB),  q = (2AE − DC)/(C² − 4AB),  G = √(B/A),  α = asin(C/√(4AB)),
+ *   R = √(4B(1 + Ap² + Bq² + Cpq)/(4AB − C²)).
+ */
+export function heydemannFromConic(conic: Conic): HeydemannParameters | null {
+  const { A, B, C, D, E } = conic;
+  const discriminant = 4 * A * B - C * C;
+  if (!(A > 0 && B > 0 && discriminant > 0)) return null;
+  const p = (2 * B * D - E * C) / -discriminant;
+  const q = (2 * A * E - D * C) / -discriminant;
+  const radiusSquared = (4 * B * (1 + A * p * p + B * q * q + C * p * q)) / discriminant;
+  if (!(radiusSquared > 0)) return null;
+  return { p, q, R: Math.sqrt(radiusSquared), G: Math.sqrt(B / A), alphaRad: Math.asin(C / Math.sqrt(4 * A * B)) };
+}
+
+export type EllipseFitFailure = 'too-few-samples' | 'degenerate' | 'not-an-ellipse' | 'implausible' | 'low-coverage';
+
+/** Where the fit was solved: coordinates `a = (x − centreX)/scale`, `b = (y − centreY)/scale`. */
+export interface FitFrame {
+  readonly centreX: number;
+  readonly centreY: number;
+  readonly scale: number;
+}
+
+export type EllipseFitResult =
+  | {
+      readonly ok: true;
+      readonly calibration: EllipseCalibration;
+      /** RMS of (corrected radius − 1): the fit residual relative to the radius. */
+      readonly residualRms: number;
+      /** Equivalent uniform phase coverage in [0, 1] of a fringe (see `EllipseAccumulator.solve`). */
+      readonly coverage: number;
+      readonly samples: number;
+      /** The least-squares conic in the conditioned frame, for cross-checks. */
+      readonly conic: Conic;
+      readonly frame: FitFrame;
+    }
+  | {
+      readonly ok: false;
+      readonly reason: EllipseFitFailure;
+      readonly message: string;
+      readonly samples: number;
+      /** Coverage when it could be computed, else NaN. */
+      readonly coverage: number;
+    };
+
+export interface EllipseFitOptions {
+  /** Fewest samples a fit accepts. Default 32; integer in 6..2^53. */
+  readonly minSamples?: number;
+  /**
+   * Least equivalent phase coverage accepted, as a fraction of one fringe. Default 0.75 (common practice:
+   * about one full fringe of motion is needed for a well-conditioned fit); range [0, 1].
+   */
+  readonly minCoverage?: number;
+  /** Largest accepted amplitude ratio max(aX/aY, aY/aX); beyond it the optics, not the fit, need fixing. Default 4. */
+  readonly maxAmplitudeRatio?: number;
+  /** Largest accepted |phaseErrorRad|. Default π/4 (45°). Range (0, π/2). */
+  readonly maxPhaseErrorRad?: number;
+}
+
+/** Monomial exponents (i, j) of x^i y^j, i + j <= 4, and their index in the moment array. */
+const MONOMIAL_COUNT = 15;
+function monomialIndex(i: number, j: number): number {
+  const degree = i + j;
+  return (degree * (degree + 1)) / 2 + j;
+}
+const BINOMIAL = [
+  [1, 0, 0, 0, 0],
+  [1, 1, 0, 0, 0],
+  [1, 2, 1, 0, 0],
+  [1, 3, 3, 1, 0],
+  [1, 4, 6, 4, 1],
+];
+
+/** Rewrites sums of u^i v^j as sums of (u + du)^i (v + dv)^j, in place. */
+function shiftMoments(moments: Float64Array, du: number, dv: number, scratch: Float64Array): void {
+  for (let i = 0; i <= 4; i++) {
+    for (let j = 0; i + j <= 4; j++) {
+      let sum = 0;
+      for (let k = 0; k <= i; k++) {
+        for (let l = 0; l <= j; l++) {
+          sum += BINOMIAL[i]![k]! * BINOMIAL[j]![l]! * du ** (i - k) * dv ** (j - l) * moments[monomialIndex(k, l)]!;
+        }
+      }
+      scratch[monomialIndex(i, j)] = sum;
+    }
+  }
+  moments.set(scratch);
+}
+
+/** Features of the conic fit: a², b², ab, a, b. */
+const FEATURES: ReadonlyArray<readonly [number, number]> = [
+  [2, 0],
+  [0, 2],
+  [1, 1],
+  [1, 0],
+  [0, 1],
+];
+
+/** Solves the 5×5 system in place by Gaussian elimination with partial pivoting; false when singular. */
+function solve5(matrix: Float64Array, rhs: Float64Array): boolean {
+  const n = 5;
+  let largest = 0;
+  for (let k = 0; k < n * n; k++) largest = Math.max(largest, Math.abs(matrix[k]!));
+  const tiny = largest * 1e-13;
+  for (let col = 0; col < n; col++) {
+    let pivotRow = col;
+    for (let row = col + 1; row < n; row++) {
+      if (Math.abs(matrix[row * n + col]!) > Math.abs(matrix[pivotRow * n + col]!)) pivotRow = row;
+    }
+    if (!(Math.abs(matrix[pivotRow * n + col]!) > tiny)) return false;
+    if (pivotRow !== col) {
+      for (let k = 0; k < n; k++) {
+        const held = matrix[col * n + k]!;
+        matrix[col * n + k] = matrix[pivotRow * n + k]!;
+        matrix[pivotRow * n + k] = held;
+      }
+      const held = rhs[col]!;
+      rhs[col] = rhs[pivotRow]!;
+      rhs[pivotRow] = held;
+    }
+    for (let row = col + 1; row < n; row++) {
+      const factor = matrix[row * n + col]! / matrix[col * n + col]!;
+      for (let k = col; k < n; k++) matrix[row * n + k] = matrix[row * n + k]! - factor * matrix[col * n + k]!;
+      rhs[row] = rhs[row]! - factor * rhs[col]!;
+    }
+  }
+  for (let row = n - 1; row >= 0; row--) {
+    let sum = rhs[row]!;
+    for (let k = row + 1; k < n; k++) sum -= matrix[row * n + k]! * rhs[k]!;
+    rhs[row] = sum / matrix[row * n + row]!;
+  }
+  return true;
+}
+
+/** Inverse of sin(πf)/(πf) = m on f ∈ [0, 1] (monotone there), by bisection. */
+function equivalentArc(m: number): number {
+  if (m >= 1) return 0;
+  if (m <= 0) return 1;
+  let low = 0;
+  let high = 1;
+  for (let step = 0; step < 60; step++) {
+    const mid = 0.5 * (low + high);
+    const value = Math.sin(Math.PI * mid) / (Math.PI * mid);
+    if (value > m) low = mid;
+    else high = mid;
+  }
+  return 0.5 * (low + high);
+}
+
+export interface EllipseAccumulator {
+  /** Adds `length` sample pairs; non-finite pairs are skipped and counted. Never allocates. */
+  add(x: ArrayLike<number>, y: ArrayLike<number>, length: number): void;
+  /** Adds another accumulator's samples, as if they had been added here. */
+  merge(other: EllipseAccumulator): void;
+  reset(): void;
+  readonly samples: number;
+  readonly skippedNonFinite: number;
+  /**
+   * Solves the least-squares conic fit in a conditioned frame (centred on the samples' centroid, scaled by
+   * their RMS distance from it, so int16 counts and unit floats fit equally well), converts it with
+   * Heydemann's closed form and checks it.
+   *
+   * Coverage is exact from the moments: in corrected coordinates the samples' first and second circular
+   * moments m1 = |E e^{iφ}| and m2 = |E e^{2iφ}| are linear and quadratic in (x, y). A uniformly covered arc
+   * of f fringes has m1 = sinc(πf) and m2 = sinc(2πf); coverage is min(f1, 2·f2) with f1, f2 the arcs
+   * matching m1 and m2 (f2 ≤ 1/2), so one short arc and two opposite short arcs both read as short.
+   */
+  solve(): EllipseFitResult;
+  /** The raw sums, for merging: sums of (x − shiftX)^i (y − shiftY)^j. */
+  readonly state: { readonly shiftX: number; readonly shiftY: number; readonly moments: Float64Array };
+}
+
+export function createEllipseAccumulator(options: EllipseFitOptions = {}): EllipseAccumulator {
+  const minSamples = integerInRange('minSamples', options.minSamples ?? 32, 6, Number.MAX_SAFE_INTEGER);
+  const minCoverage = numberInRange('minCoverage', options.minCoverage ?? 0.75, 0, 1);
+  const maxAmplitudeRatio = options.maxAmplitudeRatio ?? 4;
+  if (!(maxAmplitudeRatio >= 1 && Number.isFinite(maxAmplitudeRatio))) {
+    throw new OptionError('maxAmplitudeRatio', 'a finite number >= 1', maxAmplitudeRatio);
+  }
+  const maxPhaseErrorRad = options.maxPhaseErrorRad ?? Math.PI / 4;
+  if (!(maxPhaseErrorRad > 0 && maxPhaseErrorRad < Math.PI / 2)) {
+    throw new OptionError('maxPhaseErrorRad', 'a number in (0, π/2)', maxPhaseErrorRad);
+  }
+
+  const moments = new Float64Array(MONOMIAL_COUNT);
+  const scratch = new Float64Array(MONOMIAL_COUNT);
+  const matrix = new Float64Array(25);
+  const rhs = new Float64Array(5);
+  // Sums are kept about the first sample seen, so the powers stay near the signal's own size.
+  let shiftX = 0;
+  let shiftY = 0;
+  let hasShift = false;
+  let skippedNonFinite = 0;
+
+  function add(x: ArrayLike<number>, y: ArrayLike<number>, length: number): void {
+    let s00 = 0, s10 = 0, s01 = 0, s20 = 0, s11 = 0, s02 = 0, s30 = 0, s21 = 0, s12 = 0, s03 = 0;
+    let s40 = 0, s31 = 0, s22 = 0, s13 = 0, s04 = 0;
+    for (let i = 0; i < length; i++) {
+      const xi = x[i]!;
+      const yi = y[i]!;
+      if (!(Number.isFinite(xi) && Number.isFinite(yi))) {
+        skippedNonFinite++;
+        continue;
+      }
+      if (!hasShift) {
+        shiftX = xi;
+        shiftY = yi;
+        hasShift = true;
+      }
+      const u = xi - shiftX;
+      const v = yi - shiftY;
+      const uu = u * u;
+      const uv = u * v;
+      const vv = v * v;
+      s00 += 1;
+      s10 += u;
+      s01 += v;
+      s20 += uu;
+      s11 += uv;
+      s02 += vv;
+      s30 += uu * u;
+      s21 += uu * v;
+      s12 += u * vv;
+      s03 += vv * v;
+      s40 += uu * uu;
+      s31 += uu * uv;
+      s22 += uu * vv;
+      s13 += uv * vv;
+      s04 += vv * vv;
+    }
+    moments[0] = moments[0]! + s00;
+    moments[1] = moments[1]! + s10;
+    moments[2] = moments[2]! + s01;
+    moments[3] = moments[3]! + s20;
+    moments[4] = moments[4]! + s11;
+    moments[5] = moments[5]! + s02;
+    moments[6] = moments[6]! + s30;
+    moments[7] = moments[7]! + s21;
+    moments[8] = moments[8]! + s12;
+    moments[9] = moments[9]! + s03;
+    moments[10] = moments[10]! + s40;
+    moments[11] = moments[11]! + s31;
+    moments[12] = moments[12]! + s22;
+    moments[13] = moments[13]! + s13;
+    moments[14] = moments[14]! + s04;
+  }
+
+  function merge(other: EllipseAccumulator): void {
+    const theirs = other.state;
+    skippedNonFinite += other.skippedNonFinite;
+    if (theirs.moments[0] === 0) return;
+    const incoming = Float64Array.from(theirs.moments);
+    if (!hasShift) {
+      shiftX = theirs.shiftX;
+      shiftY = theirs.shiftY;
+      hasShift = true;
+    } else {
+      shiftMoments(incoming, theirs.shiftX - shiftX, theirs.shiftY - shiftY, scratch);
+    }
+    for (let k = 0; k < MONOMIAL_COUNT; k++) moments[k] = moments[k]! + incoming[k]!;
+  }
+
+  function fail(reason: EllipseFitFailure, message: string, coverage = Number.NaN): EllipseFitResult {
+    return { ok: false, reason, message, samples: moments[0]!, coverage };
+  }
+
+  function solve(): EllipseFitResult {
+    const n = moments[0]!;
+    if (n < minSamples) return fail('too-few-samples', `the fit needs at least ${minSamples} samples (got ${n})`);
+    // Condition: centre on the centroid, scale by the RMS distance from it; work with averages.
+    const centred = Float64Array.from(moments);
+    const meanU = centred[1]! / n;
+    const meanV = centred[2]! / n;
+    shiftMoments(centred, -meanU, -meanV, scratch);
+    const scale = Math.sqrt((centred[3]! + centred[5]!) / n);
+    if (!(scale > 0) || !Number.isFinite(scale)) {
+      return fail('degenerate', 'all samples are at one point: no signal modulation to fit');
+    }
+    for (let i = 0; i <= 4; i++) {
+      for (let j = 0; i + j <= 4; j++) centred[monomialIndex(i, j)] = centred[monomialIndex(i, j)]! / (n * scale ** (i + j));
+    }
+    const average = (i: number, j: number): number => centred[monomialIndex(i, j)]!;
+    for (let row = 0; row < 5; row++) {
+      const [ri, rj] = FEATURES[row]!;
+      for (let col = 0; col < 5; col++) {
+        const [ci, cj] = FEATURES[col]!;
+        matrix[row * 5 + col] = average(ri + ci, rj + cj);
+      }
+      rhs[row] = average(ri, rj);
+    }
+    if (!solve5(matrix, rhs)) {
+      return fail('degenerate', 'the samples lie on a line or a point: the conic fit is singular');
+    }
+    const conic: Conic = { A: rhs[0]!, B: rhs[1]!, C: rhs[2]!, D: rhs[3]!, E: rhs[4]! };
+    const h = heydemannFromConic(conic);
+    if (h === null) {
+      return fail(
+        'not-an-ellipse',
+        `the least-squares conic is not an ellipse (A=${conic.A.toPrecision(4)}, B=${conic.B.toPrecision(4)}, ` +
+          `4AB−C²=${(4 * conic.A * conic.B - conic.C * conic.C).toPrecision(4)}): too little of the ellipse is covered or the signal is not quadrature`,
+      );
+    }
+
+    // Corrected coordinates are cu = k1·a + k0, cv = l1·a + l2·b + l0 (Heydemann's correction, unit radius).
+    const cosAlpha = Math.cos(h.alphaRad);
+    const k1 = 1 / h.R;
+    const k0 = -h.p / h.R;
+    const l1 = Math.tan(h.alphaRad) / h.R;
+    const l2 = h.G / (h.R * cosAlpha);
+    const l0 = -(h.p * Math.tan(h.alphaRad) + h.G * h.q / cosAlpha) / h.R;
+    const aa = average(2, 0);
+    const ab = average(1, 1);
+    const bb = average(0, 2);
+    const meanCu = k0; // E[a] = E[b] = 0 in the centred frame
+    const meanCv = l0;
+    const cuCu = k1 * k1 * aa + k0 * k0;
+    const cvCv = l1 * l1 * aa + 2 * l1 * l2 * ab + l2 * l2 * bb + l0 * l0;
+    const cuCv = k1 * (l1 * aa + l2 * ab) + k0 * l0;
+    const m1 = Math.hypot(meanCu, meanCv);
+    const m2 = Math.hypot(cuCu - cvCv, 2 * cuCv);
+    // sinc(2πf) = m2 is solved by 2f = equivalentArc(m2), so that is 2·f2 directly.
+    const coverage = Math.min(equivalentArc(m1), equivalentArc(m2));
+
+    // r² − 1 = λ·(conic(a, b) − 1) with λ = 1/(A R² cos²α): both vanish on the ellipse and share the a² term.
+    // E[(conic − 1)²] = θᵀMθ − 2θᵀb + 1 over the same averages; θ = rhs holds the solution.
+    let quadratic = 1;
+    for (let row = 0; row < 5; row++) {
+      const [ri, rj] = FEATURES[row]!;
+      quadratic -= 2 * rhs[row]! * average(ri, rj);
+      for (let col = 0; col < 5; col++) {
+        const [ci, cj] = FEATURES[col]!;
+        quadratic += rhs[row]! * rhs[col]! * average(ri + ci, rj + cj);
+      }
+    }
+    const lambda = 1 / (conic.A * h.R * h.R * cosAlpha * cosAlpha);
+    const residualRms = (Math.abs(lambda) * Math.sqrt(Math.max(0, quadratic))) / 2;
+
+    const calibration = fromHeydemann({
+      p: shiftX + meanU + scale * h.p,
+      q: shiftY + meanV + scale * h.q,
+      R: scale * h.R,
+      G: h.G,
+      alphaRad: h.alphaRad,
+    });
+    const ratio = Math.max(h.G, 1 / h.G);
+    if (ratio > maxAmplitudeRatio || Math.abs(h.alphaRad) > maxPhaseErrorRad) {
+      return fail(
+        'implausible',
+        `fitted ellipse is implausible for quadrature detectors (amplitude ratio ${ratio.toFixed(3)}, limit ${maxAmplitudeRatio}; ` +
+          `phase error ${calibration.phaseErrorRad.toFixed(4)} rad, limit ±${maxPhaseErrorRad.toFixed(4)} rad)`,
+        coverage,
+      );
+    }
+    if (coverage < minCoverage) {
+      return fail(
+        'low-coverage',
+        `phase coverage ${coverage.toFixed(3)} of a fringe is below the minimum ${minCoverage} ` +
+          '(equivalent uniform arc): record at least one full fringe of motion for calibration',
+        coverage,
+      );
+    }
+    return {
+      ok: true,
+      calibration,
+      residualRms,
+      coverage,
+      samples: n,
+      conic,
+      frame: { centreX: shiftX + meanU, centreY: shiftY + meanV, scale },
+    };
+  }
+
+  function reset(): void {
+    moments.fill(0);
+    hasShift = false;
+    shiftX = 0;
+    shiftY = 0;
+    skippedNonFinite = 0;
+  }
+
+  reset();
+  return {
+    add,
+    merge,
+    reset,
+    solve,
+    get samples() {
+      return moments[0]!;
+    },
+    get skippedNonFinite() {
+      return skippedNonFinite;
+    },
+    get state() {
+      return { shiftX, shiftY, moments };
+    },
+  };
+}

@@ -1,0 +1,166 @@
+// Signal monitor: normalised level, and the low-signal, saturation and bad-sample alarms with hysteresis.
+
+import { AlarmBit, type AlarmEvent, type AlarmKind } from './alarms.js';
+import { integerInRange, numberInRange, OptionError, positiveFinite } from './options.js';
+
+/** How the ADC codes its samples; it sets where saturation begins. */
+export type AdcFormat =
+  /** Signed 16-bit two's complement: saturated at -32768 and 32767. */
+  | { readonly kind: 'int16' }
+  /** Offset-binary unsigned of `bits` bits (e.g. 12, 14, 16): saturated at 0 and 2^bits − 1. */
+  | { readonly kind: 'unsigned'; readonly bits: number }
+  /** Floating point with a stated full scale: saturated at or beyond ±fullScale. */
+  | { readonly kind: 'float'; readonly fullScale: number };
+
+export interface SignalMonitorOptions {
+  /** ADC format of the raw samples. Default `{ kind: 'int16' }`. */
+  readonly adc?: AdcFormat;
+  /** Low-signal alarm raised when the level falls below this (fraction of the calibrated radius). Default 0.3; range (0, 1). */
+  readonly lowSignalLevel?: number;
+  /** Low-signal alarm clears only once the level is back at or above this. Default 0.4; range [lowSignalLevel, 1]. */
+  readonly lowSignalClearLevel?: number;
+  /** An alarm clears after this many consecutive good samples (hysteresis in time). Default 32; integer 1..2^31. */
+  readonly clearHoldSamples?: number;
+}
+
+export interface SignalMonitor {
+  /**
+   * For `length` samples: writes `level` (corrected radius over calibrated radius, NaN for non-finite raw
+   * samples), ORs the alarm bits active on each sample into `flags`, and pushes state changes onto `events`
+   * with absolute indices starting at `firstIndex`. Never throws; allocates only when an alarm changes.
+   */
+  process(
+    x: ArrayLike<number>,
+    y: ArrayLike<number>,
+    u: Float64Array,
+    v: Float64Array,
+    length: number,
+    firstIndex: number,
+    level: Float32Array,
+    flags: Uint8Array,
+    events: AlarmEvent[],
+  ): number;
+  reset(): void;
+  readonly options: Readonly<Required<SignalMonitorOptions>>;
+}
+
+export function adcLimits(adc: AdcFormat): { low: number; high: number } {
+  switch (adc.kind) {
+    case 'int16':
+      return { low: -32768, high: 32767 };
+    case 'unsigned':
+      integerInRange('adc.bits', adc.bits, 2, 32);
+      return { low: 0, high: 2 ** adc.bits - 1 };
+    case 'float':
+      positiveFinite('adc.fullScale', adc.fullScale);
+      return { low: -adc.fullScale, high: adc.fullScale };
+    default:
+      throw new OptionError('adc.kind', 'one of "int16", "unsigned", "float"', (adc as { kind: unknown }).kind);
+  }
+}
+
+export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalMonitor {
+  const adc = options.adc ?? { kind: 'int16' };
+  const { low, high } = adcLimits(adc);
+  const lowSignalLevel = numberInRange('lowSignalLevel', options.lowSignalLevel ?? 0.3, 0, 1, true);
+  const lowSignalClearLevel = numberInRange(
+    'lowSignalClearLevel',
+    options.lowSignalClearLevel ?? Math.max(0.4, lowSignalLevel),
+    lowSignalLevel,
+    1,
+  );
+  const clearHoldSamples = integerInRange('clearHoldSamples', options.clearHoldSamples ?? 32, 1, 2 ** 31);
+  const resolved = Object.freeze({ adc, lowSignalLevel, lowSignalClearLevel, clearHoldSamples });
+
+  let lowActive = false;
+  let lowRun = 0;
+  let saturationActive = false;
+  let saturationRun = 0;
+  let badActive = false;
+  let badRun = 0;
+
+  function event(events: AlarmEvent[], sampleIndex: number, kind: AlarmKind, raised: boolean, value: number): void {
+    events.push({ sampleIndex, kind, state: raised ? 'raised' : 'cleared', value });
+  }
+
+  function process(
+    x: ArrayLike<number>,
+    y: ArrayLike<number>,
+    u: Float64Array,
+    v: Float64Array,
+    length: number,
+    firstIndex: number,
+    level: Float32Array,
+    flags: Uint8Array,
+    events: AlarmEvent[],
+  ): number {
+    const lowLevel = lowSignalLevel, clearLevel = lowSignalClearLevel, hold = clearHoldSamples;
+    const lo = low, hi = high;
+    for (let i = 0; i < length; i++) {
+      const xi = x[i]!;
+      const yi = y[i]!;
+      // x − x is 0 for finite x and NaN for NaN and ±Infinity.
+      const finite = xi - xi === 0 && yi - yi === 0;
+      const ui = u[i]!;
+      const vi = v[i]!;
+      const lev = finite ? Math.sqrt(ui * ui + vi * vi) : Number.NaN;
+      level[i] = lev;
+      let bits = 0;
+
+      if (!finite) {
+        badRun = 0;
+        if (!badActive) {
+          badActive = true;
+          event(events, firstIndex + i, 'badSample', true, Number.NaN);
+        }
+      } else if (badActive && ++badRun >= hold) {
+        badActive = false;
+        event(events, firstIndex + i, 'badSample', false, Number.NaN);
+      }
+      if (badActive) bits |= AlarmBit.badSample;
+
+      if (finite && (xi <= lo || xi >= hi || yi <= lo || yi >= hi)) {
+        saturationRun = 0;
+        if (!saturationActive) {
+          saturationActive = true;
+          event(events, firstIndex + i, 'saturation', true, xi <= lo || xi >= hi ? xi : yi);
+        }
+      } else if (saturationActive && ++saturationRun >= hold) {
+        saturationActive = false;
+        event(events, firstIndex + i, 'saturation', false, Number.NaN);
+      }
+      if (saturationActive) bits |= AlarmBit.saturation;
+
+      if (finite) {
+        if (lev < lowLevel) {
+          lowRun = 0;
+          if (!lowActive) {
+            lowActive = true;
+            event(events, firstIndex + i, 'lowSignal', true, lev);
+          }
+        } else if (lowActive) {
+          if (lev < clearLevel) lowRun = 0;
+          else if (++lowRun >= hold) {
+            lowActive = false;
+            event(events, firstIndex + i, 'lowSignal', false, lev);
+          }
+        }
+      }
+      if (lowActive) bits |= AlarmBit.lowSignal;
+      flags[i] = flags[i]! | bits;
+    }
+    return length;
+  }
+
+  function reset(): void {
+    lowActive = false;
+    lowRun = 0;
+    saturationActive = false;
+    saturationRun = 0;
+    badActive = false;
+    badRun = 0;
+  }
+
+  reset();
+  return { process, reset, options: resolved };
+}

@@ -1,0 +1,56 @@
+// Validation of stage options: done once at construction, with errors that name the option, the rule and the value.
+
+/** A stage option broke its rule. `option`, `rule` and `value` let callers report it precisely. */
+export class OptionError extends RangeError {
+  override readonly name = 'OptionError';
+  constructor(
+    readonly option: string,
+    readonly rule: string,
+    readonly value: unknown,
+  ) {
+    super(`${option} must be ${rule} (got ${describe(value)})`);
+  }
+}
+
+function describe(value: unknown): string {
+  if (typeof value === 'string') return JSON.stringify(value);
+  if (typeof value === 'number' || typeof value === 'boolean' || value === undefined || value === null) return String(value);
+  try {
+    return JSON.stringify(value);
+  } catch {
+    return typeof value;
+  }
+}
+
+export function positiveFinite(option: string, value: unknown): number {
+  if (typeof value !== 'number' || !Number.isFinite(value) || value <= 0) {
+    throw new OptionError(option, 'a positive finite number', value);
+  }
+  return value;
+}
+
+export function finiteNumber(option: string, value: unknown): number {
+  if (typeof value !== 'number' || !Number.isFinite(value)) throw new OptionError(option, 'a finite number', value);
+  return value;
+}
+
+export function numberInRange(option: string, value: unknown, min: number, max: number, openMin = false): number {
+  if (typeof value !== 'number' || !Number.isFinite(value) || value > max || (openMin ? value <= min : value < min)) {
+    throw new OptionError(option, `a number in ${openMin ? '(' : '['}${min}, ${max}]`, value);
+  }
+  return value;
+}
+
+export function integerInRange(option: string, value: unknown, min: number, max: number): number {
+  if (typeof value !== 'number' || !Number.isInteger(value) || value < min || value > max) {
+    throw new OptionError(option, `an integer in ${min}..${max}`, value);
+  }
+  return value;
+}
+
+export function oneOf<T extends string>(option: string, value: unknown, choices: readonly T[]): T {
+  if (typeof value !== 'string' || !(choices as readonly string[]).includes(value)) {
+    throw new OptionError(option, `one of ${choices.map((choice) => JSON.stringify(choice)).join(', ')}`, value);
+  }
+  return value as T;
+}

@@ -1,0 +1,218 @@
+// The whole signal chain over blocks: correction → monitor → phase tracker → displacement.
+
+import type { AlarmEvent } from './alarms.js';
+import { createCorrection, type Correction } from './correction.js';
+import { createDisplacement, type Displacement } from './displacement.js';
+import type { EllipseCalibration } from './ellipse.js';
+import { createSignalMonitor, type AdcFormat, type SignalMonitor } from './monitor.js';
+import { integerInRange } from './options.js';
+import { TWO_PI } from './phase.js';
+import { createPhaseTracker, type PhaseTracker } from './tracker.js';
+
+/** Raw sample blocks the pipeline accepts: ADC integers or floats. */
+export type SampleArray = Int16Array | Uint16Array | Int32Array | Uint32Array | Float32Array | Float64Array;
+
+export interface PipelineOptions {
+  /** Sample rate in Hz. Required. */
+  readonly rateHz: number;
+  /** Vacuum wavelength in metres. Required. */
+  readonly wavelengthM: number;
+  /** Optical fold (2 single pass, 4 double-pass plane mirror, any positive number). Required. */
+  readonly fold: number;
+  /** Refractive index of air on the path. Default 1: the vacuum wavelength is used as is. */
+  readonly refractiveIndex?: number;
+  /** Ellipse correction. Default none (identity): the level is then the raw radius in input units. */
+  readonly calibration?: EllipseCalibration | null;
+  /** ADC format, for saturation. Default `{ kind: 'int16' }`. */
+  readonly adc?: AdcFormat;
+  /** Velocity loop natural frequency in Hz. Default rateHz/100. */
+  readonly bandwidthHz?: number;
+  /** Low-signal threshold, also the level below which the phase is held. Default 0.3. */
+  readonly lowSignalLevel?: number;
+  /** Low-signal clear level. Default 0.4. */
+  readonly lowSignalClearLevel?: number;
+  /** Overspeed threshold in rad per sample. Default π/2 (a quarter fringe per sample, common practice margin). */
+  readonly overspeedStepRad?: number;
+  /** Step beyond which the count may be aliased, in rad per sample. Default 3π/4. */
+  readonly countLostStepRad?: number;
+  /** Unseen motion while the phase is held beyond which the count may be lost, rad. Default π/2. */
+  readonly heldTravelRad?: number;
+  /** Consecutive good samples before an alarm clears. Default 32. */
+  readonly clearHoldSamples?: number;
+  /** Initial size of the internal block buffers in samples; they grow once to the largest block seen. Default 4096. */
+  readonly blockCapacity?: number;
+}
+
+/** Caller-owned output arrays, each at least as long as the input block. */
+export interface PipelineOutput {
+  /** Position in metres relative to the reference sample. */
+  readonly positionM: Float64Array;
+  /** Velocity in m/s. */
+  readonly velocityMS: Float64Array;
+  /** Normalised signal level (1 on the calibrated ellipse). */
+  readonly level: Float32Array;
+  /** Alarm bits (`AlarmBit`) active on each sample. */
+  readonly flags: Uint8Array;
+}
+
+export interface SpeedLimits {
+  /** Unambiguous limit, half a fringe per sample: v_max = λ·f_s / (2·fold·n), m/s. */
+  readonly unambiguousMS: number;
+  /** Speed at which the overspeed alarm is raised, m/s. */
+  readonly overspeedMS: number;
+}
+
+export interface Pipeline {
+  /**
+   * Processes `length` samples of x and y, writing the outputs and pushing alarm events (absolute sample
+   * indices, in index order) onto `events`. Results are identical for any split of the same input into
+   * blocks. Never throws on signal content; allocates only for alarm events and when a block is larger
+   * than any seen before.
+   */
+  process(x: SampleArray, y: SampleArray, length: number, output: PipelineOutput, events: AlarmEvent[]): number;
+  /** `lostSamples` samples were lost in transport before the next sample: input gap, count lost. */
+  markGap(lostSamples: number): void;
+  /**
+   * Makes sample `atSampleIndex` (default: the next sample) the new zero of position and clears the
+   * count-lost latch there. The index must not be in the past.
+   */
+  reReference(atSampleIndex?: number): void;
+  setCalibration(calibration: EllipseCalibration | null): void;
+  setRefractiveIndex(refractiveIndex: number): void;
+  /** Back to the state after construction; options and calibration are kept. */
+  reset(): void;
+  /** Absolute index of the next sample (samples processed plus samples lost in gaps). */
+  readonly nextSampleIndex: number;
+  readonly speedLimits: SpeedLimits;
+  readonly countLost: boolean;
+  readonly stages: {
+    readonly correction: Correction;
+    readonly monitor: SignalMonitor;
+    readonly tracker: PhaseTracker;
+    readonly displacement: Displacement;
+  };
+}
+
+export function createPipeline(options: PipelineOptions): Pipeline {
+  const correction = createCorrection({ calibration: options.calibration ?? null });
+  const monitor = createSignalMonitor({
+    adc: options.adc,
+    lowSignalLevel: options.lowSignalLevel,
+    lowSignalClearLevel: options.lowSignalClearLevel,
+    clearHoldSamples: options.clearHoldSamples,
+  });
+  const tracker = createPhaseTracker({
+    rateHz: options.rateHz,
+    bandwidthHz: options.bandwidthHz,
+    minLevel: monitor.options.lowSignalLevel,
+    overspeedStepRad: options.overspeedStepRad,
+    countLostStepRad: options.countLostStepRad,
+    heldTravelRad: options.heldTravelRad,
+    clearHoldSamples: options.clearHoldSamples,
+  });
+  const displacement = createDisplacement({
+    wavelengthM: options.wavelengthM,
+    fold: options.fold,
+    refractiveIndex: options.refractiveIndex,
+    rateHz: options.rateHz,
+  });
+  let capacity = integerInRange('blockCapacity', options.blockCapacity ?? 4096, 1, 2 ** 28);
+  let u = new Float64Array(capacity);
+  let v = new Float64Array(capacity);
+  let turns = new Float64Array(capacity);
+  let phaseRad = new Float64Array(capacity);
+  let stepRad = new Float64Array(capacity);
+  let nextIndex = 0;
+  let referenceIndex = -1; // pending re-reference, or −1
+
+  function grow(length: number): void {
+    capacity = length;
+    u = new Float64Array(capacity);
+    v = new Float64Array(capacity);
+    turns = new Float64Array(capacity);
+    phaseRad = new Float64Array(capacity);
+    stepRad = new Float64Array(capacity);
+  }
+
+  function run(x: SampleArray, y: SampleArray, length: number, output: PipelineOutput, events: AlarmEvent[]): void {
+    const firstEvent = events.length;
+    output.flags.fill(0, 0, length);
+    correction.process(x, y, u, v, length);
+    monitor.process(x, y, u, v, length, nextIndex, output.level, output.flags, events);
+    tracker.process(u, v, output.level, length, nextIndex, { turns, phaseRad, stepRad, flags: output.flags }, events);
+    displacement.process(turns, phaseRad, stepRad, length, output.positionM, output.velocityMS);
+    nextIndex += length;
+    if (events.length - firstEvent > 1) {
+      const added = events.splice(firstEvent);
+      added.sort((a, b) => a.sampleIndex - b.sampleIndex);
+      for (const event of added) events.push(event);
+    }
+  }
+
+  function process(x: SampleArray, y: SampleArray, length: number, output: PipelineOutput, events: AlarmEvent[]): number {
+    if (length > capacity) grow(length);
+    let done = 0;
+    while (done < length) {
+      if (referenceIndex === nextIndex) {
+        referenceIndex = -1;
+        displacement.referenceAtNext();
+        tracker.clearCountLostAtNext();
+      }
+      let chunk = length - done;
+      if (referenceIndex > nextIndex && referenceIndex < nextIndex + chunk) chunk = referenceIndex - nextIndex;
+      if (done === 0 && chunk === length) {
+        run(x, y, length, output, events);
+      } else {
+        // A pending re-reference splits the block; the views cost an allocation only then.
+        const end = done + chunk;
+        run(x.subarray(done, end), y.subarray(done, end), chunk, {
+          positionM: output.positionM.subarray(done, end),
+          velocityMS: output.velocityMS.subarray(done, end),
+          level: output.level.subarray(done, end),
+          flags: output.flags.subarray(done, end),
+        }, events);
+      }
+      done += chunk;
+    }
+    return length;
+  }
+
+  function speedLimits(): SpeedLimits {
+    const perFringe = displacement.metresPerFringe;
+    return {
+      unambiguousMS: (perFringe * options.rateHz) / 2,
+      overspeedMS: (tracker.options.overspeedStepRad / TWO_PI) * perFringe * options.rateHz,
+    };
+  }
+
+  return {
+    process,
+    markGap(lostSamples: number) {
+      tracker.markGap(lostSamples);
+      nextIndex += lostSamples;
+    },
+    reReference(atSampleIndex = nextIndex) {
+      integerInRange('atSampleIndex', atSampleIndex, nextIndex, Number.MAX_SAFE_INTEGER);
+      referenceIndex = atSampleIndex;
+    },
+    setCalibration: (calibration) => correction.setCalibration(calibration),
+    setRefractiveIndex: (refractiveIndex) => displacement.setRefractiveIndex(refractiveIndex),
+    reset() {
+      monitor.reset();
+      tracker.reset();
+      displacement.reset();
+      nextIndex = 0;
+      referenceIndex = -1;
+    },
+    get nextSampleIndex() {
+      return nextIndex;
+    },
+    get speedLimits() {
+      return speedLimits();
+    },
+    get countLost() {
+      return tracker.countLost;
+    },
+    stages: { correction, monitor, tracker, displacement },
+  };
+}

@@ -1,0 +1,243 @@
+// Phase tracker: arctangent phase, unwrapping into an integer fringe count plus a fractional phase, a
+// second-order tracking loop for velocity, the overspeed alarm and the count-integrity latch.
+//
+// The count is kept as whole turns (an integer-valued double, exact to 2^53 fringes) beside the wrapped phase,
+// so the fraction keeps its full precision however many fringes have passed. The unwrap takes the step
+// closest to the loop's prediction of the next step; the plain unwrapper used here predicts zero, and a
+// velocity-aided unwrapper only changes that prediction, not the outputs or the pipeline around it.
+
+import { AlarmBit, type AlarmEvent, type AlarmKind } from './alarms.js';
+import { integerInRange, numberInRange, positiveFinite } from './options.js';
+import { fastAtan2, TWO_PI } from './phase.js';
+
+export interface PhaseTrackerOptions {
+  /** Sample rate in Hz (needed to turn the loop bandwidth into gains). Required. */
+  readonly rateHz: number;
+  /** Natural frequency of the velocity loop in Hz (critically damped, ζ = 1/√2). Default rateHz/100; range (0, rateHz/10]. */
+  readonly bandwidthHz?: number;
+  /** Samples whose level is below this (or NaN) do not move the phase: it is held. Default 0.3; range (0, 1). */
+  readonly minLevel?: number;
+  /**
+   * Overspeed alarm when a phase step exceeds this, in rad per sample. Default π/2, a quarter fringe per
+   * sample: half the unambiguous limit of π (common practice design margin). Range (0, countLostStepRad).
+   */
+  readonly overspeedStepRad?: number;
+  /**
+   * A step this large may already be an aliased step of more than π: the count-lost latch is set.
+   * Default 3π/4; range (overspeedStepRad, π).
+   */
+  readonly countLostStepRad?: number;
+  /**
+   * While the phase is held, the loop's speed times the held time is the motion that went unseen; past this
+   * (rad) a fringe may have been missed and the count-lost latch is set. Default π/2; range (0, π).
+   */
+  readonly heldTravelRad?: number;
+  /** The overspeed alarm clears after this many consecutive steps under 0.9 × overspeedStepRad. Default 32. */
+  readonly clearHoldSamples?: number;
+}
+
+export interface PhaseTrackerOutput {
+  /** Whole turns (integer-valued). Position in fringes is turns + phaseRad/2π. */
+  readonly turns: Float64Array;
+  /** Wrapped phase in (−π, π]. */
+  readonly phaseRad: Float64Array;
+  /** Loop velocity estimate in rad per sample. */
+  readonly stepRad: Float64Array;
+  /** Alarm bits; this stage ORs in overspeed, input gap and count lost. */
+  readonly flags: Uint8Array;
+}
+
+export interface PhaseTracker {
+  process(
+    u: Float64Array,
+    v: Float64Array,
+    level: Float32Array,
+    length: number,
+    firstIndex: number,
+    output: PhaseTrackerOutput,
+    events: AlarmEvent[],
+  ): number;
+  /** Samples were lost before the next sample: it carries the input-gap alarm and sets the count-lost latch. */
+  markGap(lostSamples: number): void;
+  /** Clears the count-lost latch at the next sample (the caller re-references the position there). */
+  clearCountLostAtNext(): void;
+  reset(): void;
+  readonly countLost: boolean;
+  readonly turns: number;
+  readonly phaseRad: number;
+  readonly stepRad: number;
+  readonly options: Readonly<Required<PhaseTrackerOptions>>;
+}
+
+export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
+  const rateHz = positiveFinite('rateHz', options.rateHz);
+  const bandwidthHz = numberInRange('bandwidthHz', options.bandwidthHz ?? rateHz / 100, 0, rateHz / 10, true);
+  const minLevel = numberInRange('minLevel', options.minLevel ?? 0.3, 0, 1, true);
+  const countLostStepRad = numberInRange('countLostStepRad', options.countLostStepRad ?? (3 * Math.PI) / 4, 0, Math.PI, true);
+  const overspeedStepRad = numberInRange('overspeedStepRad', options.overspeedStepRad ?? Math.PI / 2, 0, countLostStepRad, true);
+  const heldTravelRad = numberInRange('heldTravelRad', options.heldTravelRad ?? Math.PI / 2, 0, Math.PI, true);
+  const clearHoldSamples = integerInRange('clearHoldSamples', options.clearHoldSamples ?? 32, 1, 2 ** 31);
+  const resolved = Object.freeze({ rateHz, bandwidthHz, minLevel, overspeedStepRad, countLostStepRad, heldTravelRad, clearHoldSamples });
+
+  // Alpha-beta form of a type-2 loop: zero steady-state error at constant velocity.
+  const omegaT = (TWO_PI * bandwidthHz) / rateHz;
+  const alpha = Math.SQRT2 * omegaT;
+  const beta = omegaT * omegaT;
+
+  let started = false;
+  let turns = 0;
+  let lastPhase = 0;
+  let step = 0; // loop velocity, rad/sample
+  let lag = 0; // loop phase estimate minus last measured phase, rad
+  let heldTravel = 0;
+  let resuming = false; // the next usable sample follows held ones
+  let countLost = false;
+  let clearPending = false;
+  let overspeedActive = false;
+  let overspeedRun = 0;
+  let gapPendingSamples = 0;
+  let gapActive = false;
+
+  function event(events: AlarmEvent[], sampleIndex: number, kind: AlarmKind, raised: boolean, value: number): void {
+    events.push({ sampleIndex, kind, state: raised ? 'raised' : 'cleared', value });
+  }
+
+  function process(
+    u: Float64Array,
+    v: Float64Array,
+    level: Float32Array,
+    length: number,
+    firstIndex: number,
+    output: PhaseTrackerOutput,
+    events: AlarmEvent[],
+  ): number {
+    const { turns: turnsOut, phaseRad: phaseOut, stepRad: stepOut, flags } = output;
+    const a = alpha, b = beta, minLev = minLevel, lostStep = countLostStepRad, overStep = overspeedStepRad;
+    const overClear = 0.9 * overspeedStepRad, hold = clearHoldSamples, travelLimit = heldTravelRad;
+    for (let i = 0; i < length; i++) {
+      let bits = 0;
+      if (clearPending) {
+        clearPending = false;
+        if (countLost) {
+          countLost = false;
+          event(events, firstIndex + i, 'countLost', false, Number.NaN);
+        }
+      }
+      if (gapActive) {
+        gapActive = false;
+        event(events, firstIndex + i, 'inputGap', false, Number.NaN);
+      }
+      if (gapPendingSamples > 0) {
+        bits |= AlarmBit.inputGap;
+        gapActive = true;
+        event(events, firstIndex + i, 'inputGap', true, gapPendingSamples);
+        if (!countLost) {
+          countLost = true;
+          event(events, firstIndex + i, 'countLost', true, gapPendingSamples);
+        }
+        gapPendingSamples = 0;
+      }
+
+      const lev = level[i]!;
+      if (lev >= minLev) {
+        const theta = fastAtan2(v[i]!, u[i]!);
+        if (!started) {
+          started = true;
+          lastPhase = theta;
+        }
+        let d = theta - lastPhase;
+        if (d > Math.PI) {
+          d -= TWO_PI;
+          turns -= 1;
+        } else if (d <= -Math.PI) {
+          d += TWO_PI;
+          turns += 1;
+        }
+        lastPhase = theta;
+        const absStep = d < 0 ? -d : d;
+        if (absStep > lostStep && !countLost) {
+          countLost = true;
+          event(events, firstIndex + i, 'countLost', true, absStep);
+        }
+        if (resuming) {
+          // The step across a hold spans many samples and says nothing of speed: re-acquire the phase and
+          // keep the velocity the loop had.
+          resuming = false;
+          heldTravel = 0;
+          lag = 0;
+        } else {
+          if (absStep > overStep) {
+            overspeedRun = 0;
+            if (!overspeedActive) {
+              overspeedActive = true;
+              event(events, firstIndex + i, 'overspeed', true, absStep);
+            }
+          } else if (overspeedActive && absStep < overClear && ++overspeedRun >= hold) {
+            overspeedActive = false;
+            event(events, firstIndex + i, 'overspeed', false, absStep);
+          }
+          const residual = d - lag - step;
+          step += b * residual;
+          lag = (a - 1) * residual;
+        }
+      } else {
+        // Held: the phase is unusable (low or non-finite signal). Motion the loop expects goes unseen.
+        heldTravel += step < 0 ? -step : step;
+        resuming = started;
+        if (!countLost && (lev !== lev || heldTravel > travelLimit)) {
+          countLost = true;
+          event(events, firstIndex + i, 'countLost', true, lev !== lev ? Number.NaN : heldTravel);
+        }
+      }
+      turnsOut[i] = turns;
+      phaseOut[i] = lastPhase;
+      stepOut[i] = step;
+      if (overspeedActive) bits |= AlarmBit.overspeed;
+      if (countLost) bits |= AlarmBit.countLost;
+      flags[i] = flags[i]! | bits;
+    }
+    return length;
+  }
+
+  function reset(): void {
+    started = false;
+    turns = 0;
+    lastPhase = 0;
+    step = 0;
+    lag = 0;
+    heldTravel = 0;
+    resuming = false;
+    countLost = false;
+    clearPending = false;
+    overspeedActive = false;
+    overspeedRun = 0;
+    gapPendingSamples = 0;
+    gapActive = false;
+  }
+
+  reset();
+  return {
+    process,
+    markGap(lostSamples: number) {
+      integerInRange('lostSamples', lostSamples, 1, Number.MAX_SAFE_INTEGER);
+      gapPendingSamples += lostSamples;
+    },
+    clearCountLostAtNext() {
+      clearPending = true;
+    },
+    reset,
+    get countLost() {
+      return countLost;
+    },
+    get turns() {
+      return turns;
+    },
+    get phaseRad() {
+      return lastPhase;
+    },
+    get stepRad() {
+      return step;
+    },
+    options: resolved,
+  };
+}
