@@ -111,91 +111,109 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
     output: PhaseTrackerOutput,
     events: AlarmEvent[],
   ): number {
+    if (length <= 0) return 0;
     const { turns: turnsOut, phaseRad: phaseOut, stepRad: stepOut, flags } = output;
+    // Gaps and latch clearing are requested between blocks, so they fall on the block's first sample.
+    let firstBits = 0;
+    if (clearPending) {
+      clearPending = false;
+      if (countLost) {
+        countLost = false;
+        event(events, firstIndex, 'countLost', false, Number.NaN);
+      }
+    }
+    if (gapActive) {
+      gapActive = false;
+      event(events, firstIndex, 'inputGap', false, Number.NaN);
+    }
+    if (gapPendingSamples > 0) {
+      firstBits = AlarmBit.inputGap;
+      event(events, firstIndex, 'inputGap', true, gapPendingSamples);
+      if (!countLost) {
+        countLost = true;
+        event(events, firstIndex, 'countLost', true, gapPendingSamples);
+      }
+      gapPendingSamples = 0;
+      if (length > 1) event(events, firstIndex + 1, 'inputGap', false, Number.NaN);
+      else gapActive = true;
+    }
+
+    // State in locals for the loop: V8 keeps them in registers rather than in the closure's context.
     const a = alpha, b = beta, minLev = minLevel, lostStep = countLostStepRad, overStep = overspeedStepRad;
     const overClear = 0.9 * overspeedStepRad, hold = clearHoldSamples, travelLimit = heldTravelRad;
+    const pi = Math.PI, twoPi = TWO_PI, overspeedBit = 8, countLostBit = 32; // AlarmBit.overspeed, AlarmBit.countLost
+    let turnsNow = turns, last = lastPhase, w = step, lagNow = lag, travel = heldTravel, resume = resuming;
+    let lost = countLost, over = overspeedActive, overRun = overspeedRun, isStarted = started;
+    // The arctangent pass first: a short loop with no carried state, which V8 keeps tight.
+    for (let i = 0; i < length; i++) phaseOut[i] = fastAtan2(v[i]!, u[i]!);
     for (let i = 0; i < length; i++) {
-      let bits = 0;
-      if (clearPending) {
-        clearPending = false;
-        if (countLost) {
-          countLost = false;
-          event(events, firstIndex + i, 'countLost', false, Number.NaN);
-        }
-      }
-      if (gapActive) {
-        gapActive = false;
-        event(events, firstIndex + i, 'inputGap', false, Number.NaN);
-      }
-      if (gapPendingSamples > 0) {
-        bits |= AlarmBit.inputGap;
-        gapActive = true;
-        event(events, firstIndex + i, 'inputGap', true, gapPendingSamples);
-        if (!countLost) {
-          countLost = true;
-          event(events, firstIndex + i, 'countLost', true, gapPendingSamples);
-        }
-        gapPendingSamples = 0;
-      }
-
       const lev = level[i]!;
       if (lev >= minLev) {
-        const theta = fastAtan2(v[i]!, u[i]!);
-        if (!started) {
-          started = true;
-          lastPhase = theta;
+        const theta = phaseOut[i]!;
+        if (!isStarted) {
+          isStarted = true;
+          last = theta;
         }
-        let d = theta - lastPhase;
-        if (d > Math.PI) {
-          d -= TWO_PI;
-          turns -= 1;
-        } else if (d <= -Math.PI) {
-          d += TWO_PI;
-          turns += 1;
+        let d = theta - last;
+        if (d > pi) {
+          d -= twoPi;
+          turnsNow -= 1;
+        } else if (d <= -pi) {
+          d += twoPi;
+          turnsNow += 1;
         }
-        lastPhase = theta;
+        last = theta;
         const absStep = d < 0 ? -d : d;
-        if (absStep > lostStep && !countLost) {
-          countLost = true;
+        if (absStep > lostStep && !lost) {
+          lost = true;
           event(events, firstIndex + i, 'countLost', true, absStep);
         }
-        if (resuming) {
+        if (resume) {
           // The step across a hold spans many samples and says nothing of speed: re-acquire the phase and
           // keep the velocity the loop had.
-          resuming = false;
-          heldTravel = 0;
-          lag = 0;
+          resume = false;
+          travel = 0;
+          lagNow = 0;
         } else {
           if (absStep > overStep) {
-            overspeedRun = 0;
-            if (!overspeedActive) {
-              overspeedActive = true;
+            overRun = 0;
+            if (!over) {
+              over = true;
               event(events, firstIndex + i, 'overspeed', true, absStep);
             }
-          } else if (overspeedActive && absStep < overClear && ++overspeedRun >= hold) {
-            overspeedActive = false;
+          } else if (over && absStep < overClear && ++overRun >= hold) {
+            over = false;
             event(events, firstIndex + i, 'overspeed', false, absStep);
           }
-          const residual = d - lag - step;
-          step += b * residual;
-          lag = (a - 1) * residual;
+          const residual = d - lagNow - w;
+          w += b * residual;
+          lagNow = (a - 1) * residual;
         }
       } else {
         // Held: the phase is unusable (low or non-finite signal). Motion the loop expects goes unseen.
-        heldTravel += step < 0 ? -step : step;
-        resuming = started;
-        if (!countLost && (lev !== lev || heldTravel > travelLimit)) {
-          countLost = true;
-          event(events, firstIndex + i, 'countLost', true, lev !== lev ? Number.NaN : heldTravel);
+        travel += w < 0 ? -w : w;
+        resume = isStarted;
+        if (!lost && (lev !== lev || travel > travelLimit)) {
+          lost = true;
+          event(events, firstIndex + i, 'countLost', true, lev !== lev ? Number.NaN : travel);
         }
       }
-      turnsOut[i] = turns;
-      phaseOut[i] = lastPhase;
-      stepOut[i] = step;
-      if (overspeedActive) bits |= AlarmBit.overspeed;
-      if (countLost) bits |= AlarmBit.countLost;
-      flags[i] = flags[i]! | bits;
+      turnsOut[i] = turnsNow;
+      phaseOut[i] = last;
+      stepOut[i] = w;
+      flags[i] = flags[i]! | (over ? overspeedBit : 0) | (lost ? countLostBit : 0);
     }
+    flags[0] = flags[0]! | firstBits;
+    turns = turnsNow;
+    lastPhase = last;
+    step = w;
+    lag = lagNow;
+    heldTravel = travel;
+    resuming = resume;
+    countLost = lost;
+    overspeedActive = over;
+    overspeedRun = overRun;
+    started = isStarted;
     return length;
   }
 
