@@ -9,3 +9,4 @@ export * from './phase.js';
 export * from './pipeline.js';
 export * from './tracker.js';
 export * from './synthesis.js';
+export * from './metrology/index.js';
