@@ -10,3 +10,5 @@ export * from './pipeline.js';
 export * from './tracker.js';
 export * from './synthesis.js';
 export * from './metrology/index.js';
+export * from './motion.js';
+export * from './periodic-error.js';

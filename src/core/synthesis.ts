@@ -48,8 +48,17 @@ export interface QuadratureSynthesizerOptions {
 }
 
 export interface QuadratureSynthesizer {
-  /** x = aX cos φ + oX + noise, y = aY sin(φ + e) + oY + noise, for the phases given (rad). */
-  process(phaseRad: ArrayLike<number>, x: { [i: number]: number }, y: { [i: number]: number }, length: number): number;
+  /**
+   * x = g·aX cos φ + oX + noise, y = g·aY sin(φ + e) + oY + noise, for the phases given (rad); the optional
+   * gain g per sample (default 1) models beam interruptions and intensity changes.
+   */
+  process(
+    phaseRad: ArrayLike<number>,
+    x: { [i: number]: number },
+    y: { [i: number]: number },
+    length: number,
+    gain?: ArrayLike<number>,
+  ): number;
   reset(): void;
 }
 
@@ -69,12 +78,19 @@ export function createQuadratureSynthesizer(options: QuadratureSynthesizerOption
     return coded < limits.low ? limits.low : coded > limits.high ? limits.high : coded;
   }
 
-  function process(phaseRad: ArrayLike<number>, x: { [i: number]: number }, y: { [i: number]: number }, length: number): number {
+  function process(
+    phaseRad: ArrayLike<number>,
+    x: { [i: number]: number },
+    y: { [i: number]: number },
+    length: number,
+    gain?: ArrayLike<number>,
+  ): number {
     const { offsetX, offsetY, amplitudeX, amplitudeY, phaseErrorRad } = ellipse;
     for (let i = 0; i < length; i++) {
       const phase = phaseRad[i]!;
-      let xi = amplitudeX * Math.cos(phase) + offsetX;
-      let yi = amplitudeY * Math.sin(phase + phaseErrorRad) + offsetY;
+      const g = gain === undefined ? 1 : gain[i]!;
+      let xi = g * amplitudeX * Math.cos(phase) + offsetX;
+      let yi = g * amplitudeY * Math.sin(phase + phaseErrorRad) + offsetY;
       if (noiseRms > 0) {
         xi += noiseRms * random.gaussian();
         yi += noiseRms * random.gaussian();
