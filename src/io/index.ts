@@ -1,2 +1,3 @@
 // fringetally io layer: capture files, serial link, network feeds.
-export {};
+export * from './wire/index.js';
+export * from './serial/index.js';

@@ -1,0 +1,12 @@
+// Byte sources: the interface, the serial-port implementation with reconnection, and a manual double for tests.
+export { isLinkEvent, type ByteSource, type ByteSourceEvent, type LinkEvent } from './byte-source.js';
+export {
+  createSerialByteSource,
+  resolveSerialSourceOptions,
+  retryDelayFor,
+  type SerialByteSource,
+  type SerialPortHandle,
+  type SerialSourceConfig,
+  type SerialSourceOptions,
+} from './serial-source.js';
+export { createManualByteSource, type ManualByteSource } from './manual-source.js';

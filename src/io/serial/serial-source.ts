@@ -1,0 +1,190 @@
+// Byte source over a serial port (serialport 13). Reconnects with exponential backoff and reports link changes.
+// A vanished device shows up only as `close` with `disconnected: true` (no `error`, no `end`), so the port's
+// own events are watched, not a parser's; while the device is missing `open()` fails at once (ENOENT).
+
+import { Observable } from 'rxjs';
+import { SerialPort } from 'serialport';
+import type { ByteSource, ByteSourceEvent, LinkEvent } from './byte-source.js';
+
+/** The part of a serialport port object this source uses; lets tests pass serialport's mock or a double. */
+export interface SerialPortHandle {
+  readonly isOpen: boolean;
+  open(callback: (error: Error | null) => void): void;
+  close(callback: (error: Error | null) => void): void;
+  on(event: 'data', listener: (chunk: Buffer) => void): unknown;
+  on(event: 'close', listener: (error?: (Error & { disconnected?: boolean }) | null) => void): unknown;
+  on(event: 'error', listener: (error: Error) => void): unknown;
+}
+
+export interface SerialSourceOptions {
+  /** Device path, e.g. `/dev/ttyUSB0` or a pty link. Required, non-empty. */
+  readonly path: string;
+  /** Baud rate in Bd; integer 1..20 000 000. Default 921600. */
+  readonly baudRate?: number;
+  /** Delay before the first reopen attempt after a failure or disconnect, ms; 1..600 000. Default 200. */
+  readonly retryDelayMs?: number;
+  /** Ceiling of the growing delay, ms; retryDelayMs..600 000. Default 5000. */
+  readonly maxRetryDelayMs?: number;
+  /** Each failed attempt multiplies the delay by this; 1..10. Default 2. */
+  readonly backoffFactor?: number;
+  /**
+   * Consecutive failed open attempts tolerated before the observable errors; integer ≥ 0 or Infinity.
+   * Default Infinity (keep waiting for the device).
+   */
+  readonly maxRetries?: number;
+  /** Makes the port object (closed; the source opens it). Default: `new SerialPort({ path, baudRate, autoOpen: false })`. */
+  readonly openPort?: (settings: { readonly path: string; readonly baudRate: number }) => SerialPortHandle;
+}
+
+export interface SerialSourceConfig {
+  readonly path: string;
+  readonly baudRate: number;
+  readonly retryDelayMs: number;
+  readonly maxRetryDelayMs: number;
+  readonly backoffFactor: number;
+  readonly maxRetries: number;
+}
+
+function numberIn(name: string, value: number, min: number, max: number, integer: boolean): number {
+  if (typeof value !== 'number' || Number.isNaN(value) || value < min || value > max || (integer && !Number.isInteger(value))) {
+    throw new RangeError(`${name} must be ${integer ? 'an integer' : 'a number'} in ${min}..${max} (got ${value})`);
+  }
+  return value;
+}
+
+export function resolveSerialSourceOptions(options: SerialSourceOptions): SerialSourceConfig {
+  if (typeof options.path !== 'string' || options.path === '') {
+    throw new RangeError(`path must be a non-empty string (got ${JSON.stringify(options.path)})`);
+  }
+  const baudRate = numberIn('baudRate', options.baudRate ?? 921600, 1, 20_000_000, true);
+  const retryDelayMs = numberIn('retryDelayMs', options.retryDelayMs ?? 200, 1, 600_000, false);
+  const maxRetryDelayMs = numberIn('maxRetryDelayMs', options.maxRetryDelayMs ?? Math.max(5000, retryDelayMs), retryDelayMs, 600_000, false);
+  const backoffFactor = numberIn('backoffFactor', options.backoffFactor ?? 2, 1, 10, false);
+  const maxRetries = options.maxRetries ?? Number.POSITIVE_INFINITY;
+  if (!(maxRetries === Number.POSITIVE_INFINITY || (Number.isInteger(maxRetries) && maxRetries >= 0))) {
+    throw new RangeError(`maxRetries must be an integer >= 0 or Infinity (got ${maxRetries})`);
+  }
+  return Object.freeze({ path: options.path, baudRate, retryDelayMs, maxRetryDelayMs, backoffFactor, maxRetries });
+}
+
+function defaultOpenPort(settings: { readonly path: string; readonly baudRate: number }): SerialPortHandle {
+  return new SerialPort({ path: settings.path, baudRate: settings.baudRate, autoOpen: false });
+}
+
+/** Delay before reopen attempt `attempt` (1 = first retry), ms. */
+export function retryDelayFor(config: SerialSourceConfig, attempt: number): number {
+  return Math.min(config.retryDelayMs * config.backoffFactor ** (attempt - 1), config.maxRetryDelayMs);
+}
+
+export interface SerialByteSource extends ByteSource {
+  readonly config: SerialSourceConfig;
+}
+
+export function createSerialByteSource(options: SerialSourceOptions): SerialByteSource {
+  const config = resolveSerialSourceOptions(options);
+  const openPort = options.openPort ?? defaultOpenPort;
+  const name = `${config.path} @ ${config.baudRate} Bd`;
+
+  function open(): Observable<ByteSourceEvent> {
+    return new Observable<ByteSourceEvent>((subscriber) => {
+      let port: SerialPortHandle | null = null;
+      let retryTimer: ReturnType<typeof setTimeout> | null = null;
+      let stopped = false;
+      let everUp = false;
+      let linkState: 'unknown' | 'up' | 'down' = 'unknown';
+      let failures = 0;
+      let lastDownReason = '';
+
+      function link(state: 'up' | 'down', reason: string, gap: boolean): void {
+        const event: LinkEvent = { kind: 'link', state, timeMs: Date.now(), reason, gap, attempt: failures };
+        subscriber.next(event);
+      }
+
+      function reportDown(reason: string): void {
+        // One event per outage, plus one whenever the cause changes (e.g. ENOENT turns into EACCES).
+        if (linkState === 'down' && reason === lastDownReason) return;
+        linkState = 'down';
+        lastDownReason = reason;
+        link('down', reason, false);
+      }
+
+      function scheduleRetry(): void {
+        retryTimer = setTimeout(() => {
+          retryTimer = null;
+          connect();
+        }, retryDelayFor(config, Math.max(failures, 1)));
+      }
+
+      function openFailed(error: Error): void {
+        failures++;
+        reportDown(`open failed: ${error.message}`);
+        if (failures > config.maxRetries) {
+          stopped = true;
+          subscriber.error(new Error(`${name}: gave up after ${failures} failed open attempts; last error: ${error.message}`));
+          return;
+        }
+        scheduleRetry();
+      }
+
+      function lost(candidate: SerialPortHandle, reason: string): void {
+        // Events of a port already given up (or of a stopped source) are stale.
+        if (stopped || candidate !== port) return;
+        port = null;
+        if (candidate.isOpen) {
+          candidate.close((error) => {
+            if (error !== null && !stopped) reportDown(`close failed: ${error.message}`);
+          });
+        }
+        reportDown(reason);
+        scheduleRetry();
+      }
+
+      function connect(): void {
+        if (stopped) return;
+        let candidate: SerialPortHandle;
+        try {
+          candidate = openPort({ path: config.path, baudRate: config.baudRate });
+        } catch (error) {
+          openFailed(error as Error);
+          return;
+        }
+        port = candidate;
+        candidate.on('data', (chunk) => {
+          if (!stopped && candidate === port) subscriber.next(chunk);
+        });
+        candidate.on('error', (error) => lost(candidate, `error: ${error.message}`));
+        candidate.on('close', (error) => lost(candidate, error?.disconnected ? 'disconnected' : 'closed'));
+        candidate.open((error) => {
+          if (stopped) {
+            // Unsubscribed while opening: close what just opened; nobody is listening for a failure any more.
+            if (error === null) candidate.close(() => undefined);
+            return;
+          }
+          if (candidate !== port) return;
+          if (error !== null) {
+            port = null;
+            openFailed(error);
+            return;
+          }
+          const gap = everUp;
+          everUp = true;
+          linkState = 'up';
+          link('up', 'opened', gap);
+          failures = 0;
+        });
+      }
+
+      connect();
+      return () => {
+        stopped = true;
+        if (retryTimer !== null) clearTimeout(retryTimer);
+        const current = port;
+        port = null;
+        // After unsubscribe there is no subscriber to report a close failure to.
+        if (current !== null && current.isOpen) current.close(() => undefined);
+      };
+    });
+  }
+
+  return { name, config, open };
+}

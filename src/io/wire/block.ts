@@ -1,0 +1,63 @@
+// The sample block both decoders hand out, the input-gap record, and the per-axis split the pipeline needs.
+
+/**
+ * A block of interleaved int16 samples: `samples[s * channelCount + c]` is sample s of channel c.
+ * Channel 2k is x and channel 2k + 1 is y of axis k.
+ * The object and its `samples` view are reused: read them inside the callback, copy what must outlive it.
+ */
+export interface SampleBlock {
+  /** Interleaved values, length channelCount × samplesPerFrame. */
+  readonly samples: Int16Array;
+  /** Even, 2..16. */
+  readonly channelCount: number;
+  /** Samples per channel in this block. */
+  readonly samplesPerFrame: number;
+  /** Wire frames: the frame's u16 sequence counter. Text lines: the block counter (mod 65536). */
+  readonly sequence: number;
+  /** Absolute index of the block's first sample: samples delivered since start or reset (lost ones not counted). */
+  readonly sampleIndex: number;
+  /** Sample rate sent with the frame in Hz, or NaN when absent. */
+  readonly sampleRateHz: number;
+  /** Device time of the first sample in µs (u32, wraps), or NaN when absent. */
+  readonly timestampUs: number;
+}
+
+/** Samples lost in transport, found from a jump of the sequence counter. */
+export interface InputGap {
+  /** Absolute index of the first sample after the gap (same count as `SampleBlock.sampleIndex`). */
+  readonly sampleIndex: number;
+  /** Frames missing: (received − expected) mod 65536. */
+  readonly lostFrames: number;
+  /** lostFrames × samplesPerFrame of the frame after the gap. */
+  readonly lostSamples: number;
+  readonly expectedSequence: number;
+  readonly receivedSequence: number;
+}
+
+/** Any writable numeric array the pipeline may use for x and y blocks. */
+export type SampleArray = Float64Array | Float32Array | Int32Array | Int16Array;
+
+/**
+ * Copies axis `axis` of a block into `x` (channel 2·axis) and `y` (channel 2·axis + 1) from index 0.
+ * Returns the samples written (`block.samplesPerFrame`). Throws a RangeError for an axis the block lacks or
+ * arrays too short for the block, since either is a wiring mistake of the caller, not bad input.
+ */
+export function splitAxis(block: SampleBlock, axis: number, x: SampleArray, y: SampleArray): number {
+  const axisCount = block.channelCount >> 1;
+  if (!Number.isInteger(axis) || axis < 0 || axis >= axisCount) {
+    throw new RangeError(`axis must be an integer in 0..${axisCount - 1} (got ${axis})`);
+  }
+  const n = block.samplesPerFrame;
+  if (x.length < n || y.length < n) {
+    throw new RangeError(`x and y must hold samplesPerFrame = ${n} values (got ${x.length} and ${y.length})`);
+  }
+  const stride = block.channelCount;
+  const samples = block.samples;
+  let at = 2 * axis;
+  for (let s = 0; s < n; s++) {
+    x[s] = samples[at]!;
+    y[s] = samples[at + 1]!;
+    at += stride;
+  }
+  return n;
+}

@@ -1,0 +1,37 @@
+// Test helper: a decoder that copies every frame and gap it reports into plain records.
+import { createWireDecoder, type InputGap, type SampleBlock, type WireDecoder, type WireDecoderOptions } from '../../src/io/wire/index.js';
+
+export interface CopiedBlock {
+  sequence: number;
+  channelCount: number;
+  samplesPerFrame: number;
+  sampleIndex: number;
+  sampleRateHz: number;
+  timestampUs: number;
+  samples: number[];
+}
+
+export function copyBlock(block: SampleBlock): CopiedBlock {
+  return {
+    sequence: block.sequence,
+    channelCount: block.channelCount,
+    samplesPerFrame: block.samplesPerFrame,
+    sampleIndex: block.sampleIndex,
+    sampleRateHz: block.sampleRateHz,
+    timestampUs: block.timestampUs,
+    samples: Array.from(block.samples),
+  };
+}
+
+export interface Collector {
+  decoder: WireDecoder;
+  frames: CopiedBlock[];
+  gaps: InputGap[];
+}
+
+export function collectingDecoder(options: Omit<WireDecoderOptions, 'onFrame' | 'onGap'> = {}): Collector {
+  const frames: CopiedBlock[] = [];
+  const gaps: InputGap[] = [];
+  const decoder = createWireDecoder({ ...options, onFrame: (block) => frames.push(copyBlock(block)), onGap: (gap) => gaps.push(gap) });
+  return { decoder, frames, gaps };
+}

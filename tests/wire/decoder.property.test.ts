@@ -1,0 +1,216 @@
+// Property tests of the wire decoder against random bytes, random chunking and damage (fast-check).
+import fc from 'fast-check';
+import { describe, expect, it } from 'vitest';
+import { WIRE_SYNC_0, type WireFrameHeader } from '../../src/io/wire/index.js';
+import { collectingDecoder, type CopiedBlock } from './collect.js';
+import { concat, frameBytes } from './frames.js';
+
+const LIMITS = { maxChannels: 4, maxSamplesPerFrame: 8 } as const;
+
+interface SentFrame {
+  header: WireFrameHeader;
+  samples: number[];
+  bytes: Uint8Array;
+}
+
+const frameArbitrary = (sequence: number) =>
+  fc
+    .record({
+      channelCount: fc.constantFrom(2, 4),
+      samplesPerFrame: fc.integer({ min: 1, max: LIMITS.maxSamplesPerFrame }),
+      sampleRateHz: fc.option(fc.integer({ min: 1, max: 0xffffffff }), { nil: undefined }),
+      timestampUs: fc.option(fc.integer({ min: 0, max: 0xffffffff }), { nil: undefined }),
+    })
+    .chain((shape) =>
+      fc.array(fc.integer({ min: -32768, max: 32767 }), {
+        minLength: shape.channelCount * shape.samplesPerFrame,
+        maxLength: shape.channelCount * shape.samplesPerFrame,
+      }).map((samples): SentFrame => {
+        const header = { sequence, ...shape };
+        return { header, samples, bytes: frameBytes(header, samples) };
+      }),
+    );
+
+/** Consecutive frames from a random start sequence (so some runs cross the 65535 → 0 wrap). */
+const framesArbitrary = (minLength: number, maxLength: number) =>
+  fc
+    .tuple(fc.integer({ min: 0, max: 65535 }), fc.integer({ min: minLength, max: maxLength }))
+    .chain(([start, count]) => fc.tuple(...Array.from({ length: count }, (_, i) => frameArbitrary((start + i) % 65536))));
+
+/** Cuts `bytes` at the given fractions into chunks (some may be empty). */
+function split(bytes: Uint8Array, cuts: readonly number[]): Uint8Array[] {
+  const points = [...new Set(cuts.map((c) => Math.floor(c * (bytes.length + 1))))].sort((a, b) => a - b);
+  const chunks: Uint8Array[] = [];
+  let previous = 0;
+  for (const point of points) {
+    chunks.push(bytes.slice(previous, point));
+    previous = point;
+  }
+  chunks.push(bytes.slice(previous));
+  return chunks;
+}
+const cutsArbitrary = fc.array(fc.double({ min: 0, max: 1, maxExcluded: true, noNaN: true }), { maxLength: 12 });
+
+function matches(frame: CopiedBlock, sent: SentFrame): boolean {
+  return (
+    frame.sequence === sent.header.sequence &&
+    frame.channelCount === sent.header.channelCount &&
+    frame.samplesPerFrame === sent.header.samplesPerFrame &&
+    Object.is(frame.sampleRateHz, sent.header.sampleRateHz ?? Number.NaN) &&
+    Object.is(frame.timestampUs, sent.header.timestampUs ?? Number.NaN) &&
+    frame.samples.length === sent.samples.length &&
+    frame.samples.every((value, i) => value === sent.samples[i])
+  );
+}
+
+/** Each decoded frame equals a sent frame, in sending order. */
+function isSubsequence(decoded: readonly CopiedBlock[], sent: readonly SentFrame[]): boolean {
+  let at = 0;
+  for (const frame of decoded) {
+    while (at < sent.length && !matches(frame, sent[at]!)) at++;
+    if (at === sent.length) return false;
+    at++;
+  }
+  return true;
+}
+
+function decodeChunks(chunks: readonly Uint8Array[]) {
+  const collector = collectingDecoder(LIMITS);
+  for (const chunk of chunks) collector.decoder.push(chunk);
+  return collector;
+}
+
+describe('wire decoder properties', () => {
+  it('random bytes in random chunks never throw and never yield a frame', () => {
+    fc.assert(
+      fc.property(fc.uint8Array({ maxLength: 2000 }), cutsArbitrary, (bytes, cuts) => {
+        const { decoder, frames } = decodeChunks(split(bytes, cuts));
+        expect(frames).toEqual([]);
+        expect(decoder.counters.bytesIn).toBe(bytes.length);
+        expect(decoder.counters.bytesSkipped).toBeLessThanOrEqual(bytes.length);
+      }),
+      { numRuns: 300 },
+    );
+  });
+
+  it('frames mixed with random garbage, randomly chunked, yield only frames that were sent, in order', () => {
+    fc.assert(
+      fc.property(
+        framesArbitrary(1, 6),
+        fc.array(fc.uint8Array({ maxLength: 40 }), { minLength: 7, maxLength: 7 }),
+        cutsArbitrary,
+        (sent, garbage, cuts) => {
+          const parts: Uint8Array[] = [];
+          sent.forEach((frame, i) => parts.push(garbage[i]!, frame.bytes));
+          parts.push(garbage[6]!);
+          const { frames } = decodeChunks(split(concat(parts), cuts));
+          expect(isSubsequence(frames, sent)).toBe(true);
+        },
+      ),
+      { numRuns: 300 },
+    );
+  });
+
+  it('with garbage free of the first sync byte, every frame comes through and no gap is reported', () => {
+    fc.assert(
+      fc.property(
+        framesArbitrary(1, 6),
+        fc.array(fc.uint8Array({ maxLength: 40 }).map((g) => g.map((b) => (b === WIRE_SYNC_0 ? 0 : b))), {
+          minLength: 6,
+          maxLength: 6,
+        }),
+        cutsArbitrary,
+        (sent, garbage, cuts) => {
+          const parts = sent.flatMap((frame, i) => [garbage[i]!, frame.bytes]);
+          const { frames, gaps, decoder } = decodeChunks(split(concat(parts), cuts));
+          expect(frames).toHaveLength(sent.length);
+          frames.forEach((frame, i) => expect(matches(frame, sent[i]!)).toBe(true));
+          expect(gaps).toEqual([]);
+          expect(decoder.counters.bytesSkipped).toBe(garbage.slice(0, sent.length).reduce((sum, g) => sum + g.length, 0));
+        },
+      ),
+      { numRuns: 300 },
+    );
+  });
+
+  // The first frame is never damaged: without a frame before it, nothing can tell that one is missing.
+  it('one damaged byte loses exactly its frame and reports one frame lost', () => {
+    fc.assert(
+      fc.property(
+        framesArbitrary(2, 5),
+        fc.nat(),
+        fc.nat(),
+        fc.integer({ min: 1, max: 255 }),
+        (sent, frameChoice, byteChoice, flip) => {
+          const damagedIndex = 1 + (frameChoice % (sent.length - 1));
+          const damaged = sent[damagedIndex]!.bytes.slice();
+          damaged[byteChoice % damaged.length] ^= flip;
+          // Two largest-size frames behind the damage: a false length read from it ends inside the stream.
+          const last = sent[sent.length - 1]!.header.sequence;
+          const tail = [1, 2].map((k) => {
+            const header = { sequence: (last + k) % 65536, channelCount: 4, samplesPerFrame: 8 };
+            const samples = Array.from({ length: 32 }, (_, i) => i - k * 100);
+            return { header, samples, bytes: frameBytes(header, samples) };
+          });
+          const all = [...sent, ...tail];
+          const stream = concat(all.map((frame, i) => (i === damagedIndex ? damaged : frame.bytes)));
+          const { frames, gaps } = decodeChunks([stream]);
+          const expected = all.filter((_, i) => i !== damagedIndex);
+          expect(frames).toHaveLength(expected.length);
+          frames.forEach((frame, i) => expect(matches(frame, expected[i]!)).toBe(true));
+          expect(gaps).toHaveLength(1);
+          expect(gaps[0]!.lostFrames).toBe(1);
+          expect(gaps[0]!.lostSamples).toBe(all[damagedIndex + 1]!.header.samplesPerFrame);
+        },
+      ),
+      { numRuns: 300 },
+    );
+  });
+
+  it('same frames, gaps and counters whether the stream comes in one chunk or random chunks', () => {
+    fc.assert(
+      fc.property(framesArbitrary(1, 5), fc.uint8Array({ maxLength: 30 }), cutsArbitrary, (sent, noise, cuts) => {
+        const stream = concat([noise, ...sent.map((f) => f.bytes), noise]);
+        const whole = decodeChunks([stream]);
+        const chunked = decodeChunks(split(stream, cuts));
+        expect(chunked.frames).toEqual(whole.frames);
+        expect(chunked.gaps).toEqual(whole.gaps);
+        expect({ ...chunked.decoder.counters }).toEqual({ ...whole.decoder.counters });
+      }),
+      { numRuns: 300 },
+    );
+  });
+});
+
+describe('frames split at every boundary', () => {
+  const stream = concat([
+    frameBytes({ sequence: 65535, channelCount: 2, samplesPerFrame: 3, sampleRateHz: 250000 }, [1, -1, 2, -2, 3, -3]),
+    frameBytes({ sequence: 0, channelCount: 4, samplesPerFrame: 2, timestampUs: 0xfffffffe }, [5, 6, 7, 8, -5, -6, -7, -8]),
+    Uint8Array.of(0xa5, 0x5a, 0x01),
+    frameBytes({ sequence: 2, channelCount: 2, samplesPerFrame: 1 }, [-32768, 32767]),
+  ]);
+  const reference = decodeChunks([stream]);
+
+  it('the reference decode sees all three frames and one gap', () => {
+    expect(reference.frames.map((f) => f.sequence)).toEqual([65535, 0, 2]);
+    expect(reference.gaps).toHaveLength(1);
+  });
+
+  it('decodes the same for every single cut', () => {
+    for (let cut = 0; cut <= stream.length; cut++) {
+      const result = decodeChunks([stream.subarray(0, cut), stream.subarray(cut)]);
+      expect(result.frames, `cut at ${cut}`).toEqual(reference.frames);
+      expect(result.gaps, `cut at ${cut}`).toEqual(reference.gaps);
+    }
+  });
+
+  it('decodes the same for every pair of cuts', () => {
+    for (let first = 0; first <= stream.length; first++) {
+      for (let second = first; second <= stream.length; second++) {
+        const result = decodeChunks([stream.subarray(0, first), stream.subarray(first, second), stream.subarray(second)]);
+        expect(result.frames.length).toBe(3);
+        expect(result.frames).toEqual(reference.frames);
+      }
+    }
+  });
+});
