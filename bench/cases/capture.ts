@@ -8,6 +8,7 @@ import { join } from 'node:path';
 import { createInterface } from 'node:readline';
 import { pathToFileURL } from 'node:url';
 import { createCaptureWriter, openCapture, type SampleEncoding } from '../../src/io/capture/index.js';
+import { createResultWriter, type ResultFormat } from '../../src/io/results/index.js';
 import { median, type BenchResult } from '../harness.js';
 
 export interface CaptureBenchOptions {
@@ -27,8 +28,11 @@ interface Generated {
   readonly bytes: number;
 }
 
-/** Writes an invented quadrature test signal (a sine pair with drifting frequency) with our own writer. */
-async function generate(path: string, format: 'csv' | 'wav', encoding: SampleEncoding, samples: number): Promise<Generated> {
+/**
+ * Writes an invented quadrature test signal (a sine pair with drifting frequency) with our own writer. `decimals`
+ * rounds decimal text (6 is typical of acquisition exports; undefined keeps the shortest round-trip text, 16-17 digits).
+ */
+async function generate(path: string, format: 'csv' | 'wav', encoding: SampleEncoding, samples: number, decimals?: number): Promise<Generated> {
   const writer = await createCaptureWriter(path, { format, rateHz: 1_000_000, encoding, metadata: { source: 'invented benchmark signal' } });
   const x = new Float64Array(WRITE_BLOCK);
   const y = new Float64Array(WRITE_BLOCK);
@@ -41,8 +45,8 @@ async function generate(path: string, format: 'csv' | 'wav', encoding: SampleEnc
         const phase = 2 * Math.PI * 0.01 * (start + i) * (1 + 1e-9 * (start + i));
         const xv = amplitude * Math.cos(phase);
         const yv = amplitude * 0.8 * Math.sin(phase + 0.05);
-        x[i] = integer ? Math.round(xv) : xv;
-        y[i] = integer ? Math.round(yv) : yv;
+        x[i] = integer ? Math.round(xv) : decimals === undefined ? xv : Number(xv.toFixed(decimals));
+        y[i] = integer ? Math.round(yv) : decimals === undefined ? yv : Number(yv.toFixed(decimals));
       }
       await writer.write(x, y, length);
     }
@@ -118,6 +122,30 @@ async function time(
   };
 }
 
+/** One pass of the result writer over `samples` rows of an invented motion, to a file that is then removed. */
+async function writeResults(path: string, format: ResultFormat, samples: number): Promise<number> {
+  const length = BLOCK_SIZE;
+  const positionM = new Float64Array(length);
+  const velocityMS = new Float64Array(length);
+  const level = new Float32Array(length);
+  const flags = new Uint8Array(length);
+  const writer = await createResultWriter(path, { format, rateHz: 1_000_000 });
+  for (let firstIndex = 0; firstIndex < samples; firstIndex += length) {
+    for (let i = 0; i < length; i++) {
+      const n = firstIndex + i;
+      positionM[i] = 0.05 * Math.sin(n * 1e-6);
+      velocityMS[i] = 0.05e-6 * Math.cos(n * 1e-6) * 1e6;
+      level[i] = 0.9 + 0.01 * Math.sin(n * 1e-3);
+      flags[i] = n % 1000 === 0 ? 1 : 0;
+    }
+    await writer.write({ firstIndex, length: Math.min(length, samples - firstIndex), positionM, velocityMS, level, flags });
+  }
+  await writer.close();
+  const bytes = (await stat(path)).size;
+  await rm(path);
+  return bytes;
+}
+
 const gc = (globalThis as { gc?: () => void }).gc;
 
 /**
@@ -172,9 +200,13 @@ export async function captureCases(options: CaptureBenchOptions = {}): Promise<B
     const csvInteger = await generate(join(directory, 'integer.csv'), 'csv', 'integer-text', samples);
     results.push(await time(`capture/csv/integer-text/read/block${BLOCK_SIZE}`, samples, csvInteger.bytes, () => readCapture(csvInteger.path), passes));
     results.push(await time('capture/csv/integer-text/baseline-readline-split', samples, csvInteger.bytes, () => readCsvWithReadline(csvInteger.path), passes));
-    const csvDecimal = await generate(join(directory, 'decimal.csv'), 'csv', 'decimal-text', samples);
-    results.push(await time(`capture/csv/decimal-text/read/block${BLOCK_SIZE}`, samples, csvDecimal.bytes, () => readCapture(csvDecimal.path), passes));
-    results.push(await time('capture/csv/decimal-text/baseline-readline-split', samples, csvDecimal.bytes, () => readCsvWithReadline(csvDecimal.path), passes));
+    for (const decimals of [6, undefined]) {
+      const label = decimals === undefined ? 'decimal-text-17digit' : `decimal-text-${decimals}dp`;
+      const csvDecimal = await generate(join(directory, `${label}.csv`), 'csv', 'decimal-text', samples, decimals);
+      results.push(await time(`capture/csv/${label}/read/block${BLOCK_SIZE}`, samples, csvDecimal.bytes, () => readCapture(csvDecimal.path), passes));
+      results.push(await time(`capture/csv/${label}/baseline-readline-split`, samples, csvDecimal.bytes, () => readCsvWithReadline(csvDecimal.path), passes));
+      await rm(csvDecimal.path);
+    }
     for (const encoding of ['int16', 'int24', 'float32'] as const) {
       const wav = await generate(join(directory, `${encoding}.wav`), 'wav', encoding, samples);
       results.push(await time(`capture/wav/${encoding}/read/block${BLOCK_SIZE}`, samples, wav.bytes, () => readCapture(wav.path), passes));
@@ -182,7 +214,11 @@ export async function captureCases(options: CaptureBenchOptions = {}): Promise<B
       await rm(wav.path);
     }
     await rm(csvInteger.path);
-    await rm(csvDecimal.path);
+    for (const format of ['csv', 'jsonl'] as const) {
+      const path = join(directory, `results.${format}`);
+      const bytes = await writeResults(path, format, samples);
+      results.push(await time(`results/${format}/write/every1`, samples, bytes, () => writeResults(path, format, samples), passes));
+    }
     for (const [format, encoding] of [
       ['wav', 'int16'],
       ['csv', 'integer-text'],

@@ -82,7 +82,7 @@ export type EllipseFitResult =
       readonly calibration: EllipseCalibration;
       /** RMS of (corrected radius − 1): the fit residual relative to the radius. */
       readonly residualRms: number;
-      /** Equivalent uniform phase coverage in [0, 1] of a fringe (see `EllipseAccumulator.solve`). */
+      /** Share of the fringe's phase reached, in [0, 1], in 10° bins (see `EllipseAccumulator.solve`). */
       readonly coverage: number;
       readonly samples: number;
       /** The least-squares conic in the conditioned frame, for cross-checks. */
@@ -114,6 +114,9 @@ export interface EllipseFitOptions {
 
 /** Monomial exponents (i, j) of x^i y^j, i + j <= 4, and their index in the moment array. */
 const MONOMIAL_COUNT = 15;
+/** Cells per side of the coverage grid, and the phase bins coverage is counted in (10° each). */
+const GRID = 64;
+const COVERAGE_BINS = 36;
 function monomialIndex(i: number, j: number): number {
   const degree = i + j;
   return (degree * (degree + 1)) / 2 + j;
@@ -187,21 +190,6 @@ function solve5(matrix: Float64Array, rhs: Float64Array): boolean {
   return true;
 }
 
-/** Inverse of sin(πf)/(πf) = m on f ∈ [0, 1] (monotone there), by bisection. */
-function equivalentArc(m: number): number {
-  if (m >= 1) return 0;
-  if (m <= 0) return 1;
-  let low = 0;
-  let high = 1;
-  for (let step = 0; step < 60; step++) {
-    const mid = 0.5 * (low + high);
-    const value = Math.sin(Math.PI * mid) / (Math.PI * mid);
-    if (value > m) low = mid;
-    else high = mid;
-  }
-  return 0.5 * (low + high);
-}
-
 export interface EllipseAccumulator {
   /** Adds `length` sample pairs; non-finite pairs are skipped and counted. Never allocates. */
   add(x: ArrayLike<number>, y: ArrayLike<number>, length: number): void;
@@ -215,14 +203,20 @@ export interface EllipseAccumulator {
    * their RMS distance from it, so int16 counts and unit floats fit equally well), converts it with
    * Heydemann's closed form and checks it.
    *
-   * Coverage is exact from the moments: in corrected coordinates the samples' first and second circular
-   * moments m1 = |E e^{iφ}| and m2 = |E e^{2iφ}| are linear and quadratic in (x, y). A uniformly covered arc
-   * of f fringes has m1 = sinc(πf) and m2 = sinc(2πf); coverage is min(f1, 2·f2) with f1, f2 the arcs
-   * matching m1 and m2 (f2 ≤ 1/2), so one short arc and two opposite short arcs both read as short.
+   * Coverage is the share of 36 phase bins (10° each, corrected phase) reached by the cells of a 64×64
+   * occupancy grid of the figure that lie on the fitted ellipse: dwelling at one phase neither adds nor
+   * removes coverage.
    */
   solve(): EllipseFitResult;
   /** The raw sums, for merging: sums of (x − shiftX)^i (y − shiftY)^j. */
-  readonly state: { readonly shiftX: number; readonly shiftY: number; readonly moments: Float64Array };
+  readonly state: {
+    readonly shiftX: number;
+    readonly shiftY: number;
+    readonly moments: Float64Array;
+    /** The coverage grid: GRID×GRID cells over [−gridHalfWidth, gridHalfWidth]² about the shift (row = v). */
+    readonly occupancy: Uint8Array;
+    readonly gridHalfWidth: number;
+  };
 }
 
 export function createEllipseAccumulator(options: EllipseFitOptions = {}): EllipseAccumulator {
@@ -246,6 +240,36 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
   let shiftY = 0;
   let hasShift = false;
   let skippedNonFinite = 0;
+  // Coverage comes from an occupancy grid of the figure: GRID×GRID cells over a square about the shift, which
+  // doubles in size (merging 2×2 cells) whenever a sample falls outside it. A cell is marked however long the
+  // signal stays in it, so dwelling neither adds nor removes coverage, and memory stays fixed.
+  const occupancy = new Uint8Array(GRID * GRID);
+  let gridHalfWidth = 0;
+
+  function zoomOut(): void {
+    const merged = new Uint8Array(GRID * GRID);
+    for (let row = 0; row < GRID; row++) {
+      for (let col = 0; col < GRID; col++) {
+        if (occupancy[row * GRID + col]) merged[(GRID / 4 + (row >> 1)) * GRID + GRID / 4 + (col >> 1)] = 1;
+      }
+    }
+    occupancy.set(merged);
+    gridHalfWidth *= 2;
+  }
+
+  function mark(u: number, v: number): void {
+    if (gridHalfWidth === 0) {
+      const reach = Math.max(Math.abs(u), Math.abs(v));
+      if (reach === 0) return;
+      gridHalfWidth = 2 * reach;
+      mark(0, 0); // the first sample, at the shift
+    }
+    while (!(Math.abs(u) < gridHalfWidth && Math.abs(v) < gridHalfWidth)) zoomOut();
+    const cellsPerUnit = GRID / (2 * gridHalfWidth);
+    const col = Math.floor((u + gridHalfWidth) * cellsPerUnit);
+    const row = Math.floor((v + gridHalfWidth) * cellsPerUnit);
+    occupancy[Math.min(GRID - 1, row) * GRID + Math.min(GRID - 1, col)] = 1;
+  }
 
   function add(x: ArrayLike<number>, y: ArrayLike<number>, length: number): void {
     let s00 = 0, s10 = 0, s01 = 0, s20 = 0, s11 = 0, s02 = 0, s30 = 0, s21 = 0, s12 = 0, s03 = 0;
@@ -282,6 +306,7 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
       s22 += uu * vv;
       s13 += uv * vv;
       s04 += vv * vv;
+      mark(u, v);
     }
     moments[0] = moments[0]! + s00;
     moments[1] = moments[1]! + s10;
@@ -313,6 +338,16 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
       shiftMoments(incoming, theirs.shiftX - shiftX, theirs.shiftY - shiftY, scratch);
     }
     for (let k = 0; k < MONOMIAL_COUNT; k++) moments[k] = moments[k]! + incoming[k]!;
+    const d = theirs.shiftX - shiftX;
+    const e = theirs.shiftY - shiftY;
+    const cell = (2 * theirs.gridHalfWidth) / GRID;
+    for (let row = 0; row < GRID; row++) {
+      for (let col = 0; col < GRID; col++) {
+        if (theirs.occupancy[row * GRID + col]) {
+          mark(-theirs.gridHalfWidth + (col + 0.5) * cell + d, -theirs.gridHalfWidth + (row + 0.5) * cell + e);
+        }
+      }
+    }
   }
 
   function fail(reason: EllipseFitFailure, message: string, coverage = Number.NaN): EllipseFitResult {
@@ -363,18 +398,25 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
     const l1 = Math.tan(h.alphaRad) / h.R;
     const l2 = h.G / (h.R * cosAlpha);
     const l0 = -(h.p * Math.tan(h.alphaRad) + h.G * h.q / cosAlpha) / h.R;
-    const aa = average(2, 0);
-    const ab = average(1, 1);
-    const bb = average(0, 2);
-    const meanCu = k0; // E[a] = E[b] = 0 in the centred frame
-    const meanCv = l0;
-    const cuCu = k1 * k1 * aa + k0 * k0;
-    const cvCv = l1 * l1 * aa + 2 * l1 * l2 * ab + l2 * l2 * bb + l0 * l0;
-    const cuCv = k1 * (l1 * aa + l2 * ab) + k0 * l0;
-    const m1 = Math.hypot(meanCu, meanCv);
-    const m2 = Math.hypot(cuCu - cvCv, 2 * cuCv);
-    // sinc(2πf) = m2 is solved by 2f = equivalentArc(m2), so that is 2·f2 directly.
-    const coverage = Math.min(equivalentArc(m1), equivalentArc(m2));
+    // Coverage: the share of COVERAGE_BINS equal phase bins (corrected phase) reached by occupied cells that lie
+    // on the fitted figure (cells inside it, e.g. from a blocked beam, say nothing of the phase).
+    const hit = new Uint8Array(COVERAGE_BINS);
+    const cell = (2 * gridHalfWidth) / GRID;
+    for (let row = 0; row < GRID; row++) {
+      for (let col = 0; col < GRID; col++) {
+        if (!occupancy[row * GRID + col]) continue;
+        const a = (-gridHalfWidth + (col + 0.5) * cell - meanU) / scale;
+        const b = (-gridHalfWidth + (row + 0.5) * cell - meanV) / scale;
+        const cu = k1 * a + k0;
+        const cv = l1 * a + l2 * b + l0;
+        if (Math.abs(Math.hypot(cu, cv) - 1) > 0.3) continue;
+        const phase = Math.atan2(cv, cu) + Math.PI;
+        hit[Math.min(COVERAGE_BINS - 1, Math.floor((phase / (2 * Math.PI)) * COVERAGE_BINS))] = 1;
+      }
+    }
+    let hits = 0;
+    for (let bin = 0; bin < COVERAGE_BINS; bin++) hits += hit[bin]!;
+    const coverage = hits / COVERAGE_BINS;
 
     // r² − 1 = λ·(conic(a, b) − 1) with λ = 1/(A R² cos²α): both vanish on the ellipse and share the a² term.
     // E[(conic − 1)²] = θᵀMθ − 2θᵀb + 1 over the same averages; θ = rhs holds the solution.
@@ -410,7 +452,7 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
       return fail(
         'low-coverage',
         `phase coverage ${coverage.toFixed(3)} of a fringe is below the minimum ${minCoverage} ` +
-          '(equivalent uniform arc): record at least one full fringe of motion for calibration',
+          '(share of 10° phase bins reached): record at least one full fringe of motion for calibration',
         coverage,
       );
     }
@@ -427,6 +469,8 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
 
   function reset(): void {
     moments.fill(0);
+    occupancy.fill(0);
+    gridHalfWidth = 0;
     hasShift = false;
     shiftX = 0;
     shiftY = 0;
@@ -446,7 +490,7 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
       return skippedNonFinite;
     },
     get state() {
-      return { shiftX, shiftY, moments };
+      return { shiftX, shiftY, moments, occupancy, gridHalfWidth };
     },
   };
 }

@@ -22,6 +22,8 @@ export interface PeriodicErrorAnalyzer {
   /** Adds errors (rad) at the given fringe phases (rad, any range); samples with weight 0 or non-finite values are left out. */
   add(phaseRad: ArrayLike<number>, errorRad: ArrayLike<number>, length: number, use?: ArrayLike<number>): void;
   summary(): PeriodicErrorSummary;
+  /** Mean error per phase bin (rad), bin b covering [2πb/bins, 2π(b+1)/bins); NaN where empty. */
+  binnedMeanRad(): Float64Array;
   reset(): void;
 }
 
@@ -89,6 +91,9 @@ export function createPeriodicErrorAnalyzer(options: { readonly bins?: number } 
   return {
     add,
     summary,
+    binnedMeanRad() {
+      return sums.map((sum, b) => (counts[b]! > 0 ? sum / counts[b]! : Number.NaN));
+    },
     reset() {
       sums.fill(0);
       counts.fill(0);
@@ -96,58 +101,107 @@ export function createPeriodicErrorAnalyzer(options: { readonly bins?: number } 
   };
 }
 
-export interface TrendRemoverOptions {
-  readonly rateHz: number;
-  /** Bandwidth of the loop that follows the motion, Hz. Default rateHz/2000; range (0, rateHz/20]. */
-  readonly bandwidthHz?: number;
+export interface WindowDetrenderOptions {
+  /** Samples per window. Default 256; integer 16..65536. */
+  readonly windowSamples?: number;
+  /** A window is used only if the motion spans at least this many fringes in it. Default 3. */
+  readonly minFringes?: number;
+  /**
+   * A window is used only if smooth motion explains it to within this RMS residual, rad: a move that starts
+   * or stops inside the window does not pass. Default 0.05 (about 2.5 nm at 633 nm, fold 2).
+   */
+  readonly maxResidualRad?: number;
 }
 
-export interface TrendRemover {
+export interface WindowDetrender {
   /**
-   * From the unwrapped phase (rad) writes what the smooth motion does not explain (rad), and 1 in `use` where
-   * the fringe rate is at least 10× the loop bandwidth and the loop has settled, so the periodic error passes
-   * through unattenuated; else 0.
+   * Takes the unwrapped phase (rad) and a 0/1 mask of trustworthy samples; each full window of steady motion with
+   * no masked sample is fitted with a cubic in time, and its residuals (what smooth motion does not explain:
+   * the periodic error and noise) go into the analyzer at their phases.
    */
-  process(unwrappedPhaseRad: ArrayLike<number>, residualRad: Float64Array, use: Uint8Array, length: number): number;
+  process(unwrappedPhaseRad: ArrayLike<number>, valid: ArrayLike<number>, length: number): void;
+  /** Windows fitted and windows used. */
+  readonly windows: { readonly fitted: number; readonly used: number };
   reset(): void;
 }
 
-export function createTrendRemover(options: TrendRemoverOptions): TrendRemover {
-  const rateHz = positiveFinite('rateHz', options.rateHz);
-  const bandwidthHz = numberInRange('bandwidthHz', options.bandwidthHz ?? rateHz / 2000, 0, rateHz / 20, true);
-  const omegaT = (TWO_PI * bandwidthHz) / rateHz;
-  const alpha = Math.SQRT2 * omegaT;
-  const beta = omegaT * omegaT;
-  const minStep = 10 * omegaT;
-  const settleSamples = Math.ceil(10 / omegaT);
-  let started = false;
-  let estimate = 0;
-  let step = 0;
-  let seen = 0;
+/**
+ * Residual periodic error from the data alone, on the common-practice assumption that the stage moves smoothly:
+ * a cubic in time over a window of several fringes follows the motion (even vibration) but not the fringe-rate error.
+ */
+export function createWindowDetrender(analyzer: PeriodicErrorAnalyzer, options: WindowDetrenderOptions = {}): WindowDetrender {
+  const size = integerInRange('windowSamples', options.windowSamples ?? 256, 16, 65536);
+  const minTravelRad = TWO_PI * numberInRange('minFringes', options.minFringes ?? 3, 0, 1e9);
+  const maxResidualRad = positiveFinite('maxResidualRad', options.maxResidualRad ?? 0.05);
+  const phase = new Float64Array(size);
+  const residual = new Float64Array(size);
+  let filled = 0;
+  let clean = true;
+  let fitted = 0;
+  let used = 0;
+  // Sums of t^k over t = j − (size − 1)/2: the odd ones vanish, so even and odd coefficients solve apart.
+  let s2 = 0;
+  let s4 = 0;
+  let s6 = 0;
+  for (let j = 0; j < size; j++) {
+    const t = j - (size - 1) / 2;
+    s2 += t ** 2;
+    s4 += t ** 4;
+    s6 += t ** 6;
+  }
+  const half = (size - 1) / 2;
+  const evenDeterminant = size * s4 - s2 * s2;
+  const oddDeterminant = s2 * s6 - s4 * s4;
+
+  function fitWindow(): void {
+    fitted++;
+    const origin = phase[0]!;
+    let p0 = 0, p1 = 0, p2 = 0, p3 = 0;
+    for (let j = 0; j < size; j++) {
+      const t = j - half;
+      const value = phase[j]! - origin;
+      p0 += value;
+      p1 += value * t;
+      p2 += value * t * t;
+      p3 += value * t * t * t;
+    }
+    const c0 = (p0 * s4 - p2 * s2) / evenDeterminant;
+    const c2 = (size * p2 - s2 * p0) / evenDeterminant;
+    const c1 = (p1 * s6 - p3 * s4) / oddDeterminant;
+    const c3 = (s2 * p3 - s4 * p1) / oddDeterminant;
+    if (Math.abs(c1) * size < minTravelRad) return;
+    let squares = 0;
+    for (let j = 0; j < size; j++) {
+      const t = j - half;
+      const r = phase[j]! - origin - (c0 + t * (c1 + t * (c2 + t * c3)));
+      residual[j] = r;
+      squares += r * r;
+    }
+    if (Math.sqrt(squares / size) > maxResidualRad) return;
+    used++;
+    analyzer.add(phase, residual, size);
+  }
 
   return {
-    process(unwrappedPhaseRad, residualRad, use, length) {
+    process(unwrappedPhaseRad, valid, length) {
       for (let i = 0; i < length; i++) {
-        const phase = unwrappedPhaseRad[i]!;
-        if (!started) {
-          started = true;
-          estimate = phase;
+        phase[filled] = unwrappedPhaseRad[i]!;
+        if (!valid[i]) clean = false;
+        if (++filled === size) {
+          if (clean) fitWindow();
+          filled = 0;
+          clean = true;
         }
-        const predicted = estimate + step;
-        const residual = phase - predicted;
-        estimate = predicted + alpha * residual;
-        step += beta * residual;
-        residualRad[i] = phase - estimate;
-        seen++;
-        use[i] = seen > settleSamples && Math.abs(step) >= minStep ? 1 : 0;
       }
-      return length;
+    },
+    get windows() {
+      return { fitted, used };
     },
     reset() {
-      started = false;
-      estimate = 0;
-      step = 0;
-      seen = 0;
+      filled = 0;
+      clean = true;
+      fitted = 0;
+      used = 0;
     },
   };
 }

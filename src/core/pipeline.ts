@@ -53,6 +53,11 @@ export interface PipelineOutput {
   readonly level: Float32Array;
   /** Alarm bits (`AlarmBit`) active on each sample. */
   readonly flags: Uint8Array;
+  /**
+   * Optional: the unwrapped corrected phase, 2π·turns + phase (rad), for analysis tools. Being one double it
+   * keeps about 1e-16 of its size: fine within a capture, not a substitute for the count at billions of fringes.
+   */
+  readonly unwrappedPhaseRad?: Float64Array;
 }
 
 export interface SpeedLimits {
@@ -141,6 +146,8 @@ export function createPipeline(options: PipelineOptions): Pipeline {
     monitor.process(x, y, u, v, length, nextIndex, output.level, output.flags, events);
     tracker.process(u, v, output.level, length, nextIndex, { turns, phaseRad, stepRad, flags: output.flags }, events);
     displacement.process(turns, phaseRad, stepRad, length, output.positionM, output.velocityMS);
+    const unwrapped = output.unwrappedPhaseRad;
+    if (unwrapped !== undefined) for (let i = 0; i < length; i++) unwrapped[i] = TWO_PI * turns[i]! + phaseRad[i]!;
     nextIndex += length;
     if (events.length - firstEvent > 1) {
       const added = events.splice(firstEvent);
@@ -170,6 +177,7 @@ export function createPipeline(options: PipelineOptions): Pipeline {
           velocityMS: output.velocityMS.subarray(done, end),
           level: output.level.subarray(done, end),
           flags: output.flags.subarray(done, end),
+          unwrappedPhaseRad: output.unwrappedPhaseRad?.subarray(done, end),
         }, events);
       }
       done += chunk;

@@ -2,7 +2,7 @@
 // harmonic error must be measured back (amplitudes exact for a pure sinusoid; peak-to-peak of a sine is 2×).
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { createMotionProfile, createPeriodicErrorAnalyzer, createTrendRemover } from '../../src/core/index.js';
+import { createMotionProfile, createPeriodicErrorAnalyzer, createWindowDetrender } from '../../src/core/index.js';
 
 describe('periodic error analyzer', () => {
   it('measures known first and second harmonics, peak-to-peak and RMS', () => {
@@ -21,21 +21,34 @@ describe('periodic error analyzer', () => {
     expect(single.summary().rmsRad).toBeCloseTo(0.02 / Math.SQRT2, 4);
   });
 
-  it('the trend remover passes the fringe-rate error through at constant velocity', () => {
-    const rateHz = 1e6;
-    const n = 400_000;
-    const stepRad = 0.05; // 8 kHz fringe rate, far above the 500 Hz loop
-    const truth = Float64Array.from({ length: n }, (_, i) => stepRad * i);
+  it('the window detrender measures the fringe-rate error under accelerating motion, and only on steady stretches', () => {
+    const n = 200_000;
+    // Constant acceleration from 0.08 to 0.28 rad per sample (over 3 fringes per window), then a kink to constant velocity inside a window.
+    const truth = new Float64Array(n);
+    let step = 0.08;
+    for (let i = 1; i < n; i++) {
+      if (i < n / 2 + 128) step += 0.2 / (n / 2);
+      truth[i] = truth[i - 1]! + step;
+    }
     const measured = truth.map((p) => p + 0.01 * Math.sin(p) + 0.003 * Math.cos(2 * p));
-    const residual = new Float64Array(n);
-    const use = new Uint8Array(n);
-    createTrendRemover({ rateHz }).process(measured, residual, use, n);
     const analyzer = createPeriodicErrorAnalyzer();
-    analyzer.add(measured, residual, n, use);
+    const detrender = createWindowDetrender(analyzer);
+    const valid = new Uint8Array(n).fill(1);
+    valid[150_000] = 0; // one window left out for a flagged sample
+    detrender.process(measured, valid, n);
     const summary = analyzer.summary();
-    expect(summary.samples).toBeGreaterThan(n / 2);
     expect(summary.firstHarmonicRad).toBeCloseTo(0.01, 3);
     expect(summary.secondHarmonicRad).toBeCloseTo(0.003, 3);
+    expect(detrender.windows.fitted).toBe(Math.floor(n / 256) - 1); // the window with the flagged sample is not fitted
+    expect(detrender.windows.used).toBe(detrender.windows.fitted); // a gentle kink is still smooth enough
+    // A stage that stops dead at sample 1000: windows 0-2 are steady, window 3 holds the stop, the rest stand still.
+    const crash = Float64Array.from({ length: 2048 }, (_, i) => 0.2 * Math.min(i, 1000));
+    const crashDetrender = createWindowDetrender(createPeriodicErrorAnalyzer());
+    crashDetrender.process(crash, new Uint8Array(2048).fill(1), 2048);
+    expect(crashDetrender.windows).toEqual({ fitted: 8, used: 3 });
+    const still = createPeriodicErrorAnalyzer();
+    createWindowDetrender(still).process(new Float64Array(10_000).fill(1), new Uint8Array(10_000).fill(1), 10_000);
+    expect(still.summary().samples).toBe(0); // no motion: nothing to measure
   });
 });
 

@@ -150,24 +150,33 @@ describe('ellipse fit', () => {
     expect(result.residualRms).toBeLessThan(0.011);
   });
 
-  it('measures coverage as an equivalent uniform arc', () => {
+  it('measures coverage as the share of 10° phase bins reached, blind to dwelling', () => {
     const truth = { offsetX: 0.2, offsetY: -0.1, amplitudeX: 1, amplitudeY: 1.1, phaseErrorRad: 0.1 };
+    const bin = 1 / 36;
     const coverageOf = (span: number) => {
       const { x, y } = ellipsePoints(truth, 4000, 1, span);
       const fit = createEllipseAccumulator({ minCoverage: 0 });
       fit.add(x, y, x.length);
       return fit.solve().coverage;
     };
-    expect(coverageOf(2 * Math.PI)).toBeGreaterThan(0.999);
-    expect(coverageOf(1.5 * Math.PI)).toBeCloseTo(0.75, 2);
-    expect(coverageOf(Math.PI)).toBeCloseTo(0.5, 2);
-    // Two opposite quarter arcs: the mean cancels, the second moment does not.
+    expect(coverageOf(2 * Math.PI)).toBe(1);
+    expect(Math.abs(coverageOf(1.5 * Math.PI) - 0.75)).toBeLessThanOrEqual(2.01 * bin);
+    expect(Math.abs(coverageOf(Math.PI) - 0.5)).toBeLessThanOrEqual(2.01 * bin);
+    // Two opposite quarter arcs cover half the bins.
     const a = ellipsePoints(truth, 2000, 0, Math.PI / 2);
     const b = ellipsePoints(truth, 2000, Math.PI, Math.PI / 2);
     const fit = createEllipseAccumulator({ minCoverage: 0 });
     fit.add(a.x, a.y, 2000);
     fit.add(b.x, b.y, 2000);
-    expect(fit.solve().coverage).toBeCloseTo(0.5, 2);
+    expect(Math.abs(fit.solve().coverage - 0.5)).toBeLessThanOrEqual(2.01 * bin);
+    // A stage that dwells for 90 % of the capture at one phase, with noise, and moves one fringe.
+    const dwell = ellipsePoints(truth, 36_000, 0.3, 0, 0.002, 5);
+    const move = ellipsePoints(truth, 4000, 0.3, 2 * Math.PI, 0.002, 6);
+    const dwelling = createEllipseAccumulator();
+    dwelling.add(dwell.x, dwell.y, 18_000);
+    dwelling.add(move.x, move.y, 4000);
+    dwelling.add(dwell.x.subarray(18_000), dwell.y.subarray(18_000), 18_000);
+    expect(dwelling.solve()).toMatchObject({ ok: true, coverage: 1 });
   });
 
   it('refuses too little coverage, with the coverage in the reason', () => {
@@ -180,6 +189,7 @@ describe('ellipse fit', () => {
     if (result.ok) return;
     expect(result.reason).toBe('low-coverage');
     expect(result.message).toMatch(/phase coverage 0\.5\d\d of a fringe is below the minimum 0\.75/);
+    expect(result.coverage).toBeLessThan(0.56);
   });
 
   it('rejects non-ellipse and degenerate data with a specific reason', () => {

@@ -1,0 +1,406 @@
+// Streaming CSV capture reader: a header line, `# key: value` metadata, numeric columns, read in fixed-size chunks.
+import type { FileHandle } from 'node:fs/promises';
+import { CaptureFormatError } from './errors.js';
+import { parseAdcMetadata, parseMetadataLine, parseRateMetadata, RATE_KEY } from './metadata.js';
+import { createParsedNumber, parseNumberBytes, type ParsedNumber } from './parse-number.js';
+import type { ResolvedCaptureOptions } from './resolved-options.js';
+import type { Capture, CaptureBlock, CaptureInfo, ChannelSelector, RateSource } from './types.js';
+
+/** Longest line the reader accepts; a longer one is reported, so memory stays bounded on a file without newlines. */
+export const MAX_CSV_LINE_BYTES = 65_536;
+/** Bytes of data rows looked at when the file is opened, to judge the encoding and estimate the rate from `t`. */
+const PEEK_BYTES = 65_536;
+const PEEK_ROWS = 64;
+
+const LF = 0x0a;
+const CR = 0x0d;
+const COMMA = 0x2c;
+const HASH = 0x23;
+
+const enum RowStatus {
+  Ok,
+  Skip,
+  ColumnCount,
+  NotNumber,
+}
+
+/** Column layout of a file and the 0-based columns picked from it. */
+interface ColumnPlan {
+  readonly names: readonly string[];
+  readonly x: number;
+  readonly y: number;
+  /** -1 when no time column is used. */
+  readonly t: number;
+}
+
+export async function openCsvCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions): Promise<Capture> {
+  const capacity = options.readChunkBytes + MAX_CSV_LINE_BYTES;
+  const buffer = Buffer.allocUnsafe(capacity);
+  let bufferStart = 0;
+  let bufferEnd = 0;
+  /** File offset of `buffer[bufferEnd]`. */
+  let filePosition = 0;
+  let endOfFile = false;
+  /** 1-based number of the line that starts at `bufferStart`. */
+  let lineNumber = 1;
+
+  /** Keeps the unconsumed tail, reads the next chunk after it; false at the end of the file. */
+  async function refill(): Promise<boolean> {
+    if (endOfFile) return false;
+    const carried = bufferEnd - bufferStart;
+    if (carried >= MAX_CSV_LINE_BYTES) {
+      throw new CaptureFormatError({
+        file,
+        line: lineNumber,
+        expected: `a line of at most ${MAX_CSV_LINE_BYTES} bytes ending in a newline`,
+        got: buffer.toString('latin1', bufferStart, bufferStart + 60),
+      });
+    }
+    if (bufferStart > 0) {
+      buffer.copy(buffer, 0, bufferStart, bufferEnd);
+      bufferStart = 0;
+      bufferEnd = carried;
+    }
+    const { bytesRead } = await handle.read(buffer, bufferEnd, Math.min(options.readChunkBytes, capacity - bufferEnd), filePosition);
+    if (bytesRead === 0) {
+      endOfFile = true;
+      return false;
+    }
+    bufferEnd += bytesRead;
+    filePosition += bytesRead;
+    return true;
+  }
+
+  /** Index of the newline ending the line at `bufferStart`, bufferEnd for a last line without one, -1 at the end. */
+  async function nextLineEnd(): Promise<number> {
+    for (;;) {
+      const newline = buffer.indexOf(LF, bufferStart);
+      if (newline !== -1 && newline < bufferEnd) return newline;
+      if (!(await refill())) return bufferStart < bufferEnd ? bufferEnd : -1;
+    }
+  }
+
+  function lineText(start: number, newline: number): string {
+    return buffer.toString('utf8', start, contentEnd(buffer, start, newline));
+  }
+
+  // Preamble: metadata and comment lines, blank lines, the header; stops at the first data row without consuming it.
+  const metadata = new Map<string, string>();
+  const metadataLines = new Map<string, number>();
+  let header: string[] | null = null;
+  let headerLine = 0;
+  for (;;) {
+    const newline = await nextLineEnd();
+    if (newline === -1) break;
+    if (lineNumber === 1 && buffer[bufferStart] === 0xef && buffer[bufferStart + 1] === 0xbb && buffer[bufferStart + 2] === 0xbf) {
+      bufferStart += 3;
+    }
+    const text = lineText(bufferStart, newline);
+    const blank = text.trim() === '';
+    if (!blank && text.startsWith('#')) {
+      const entry = parseMetadataLine(text);
+      if (entry !== null) {
+        metadata.set(entry[0], entry[1]);
+        metadataLines.set(entry[0], lineNumber);
+      }
+    } else if (!blank && header === null) {
+      header = parseHeader(file, lineNumber, text);
+      headerLine = lineNumber;
+    } else if (!blank) {
+      break;
+    }
+    bufferStart = Math.min(newline + 1, bufferEnd);
+    lineNumber++;
+  }
+  if (header === null) {
+    throw new CaptureFormatError({ file, line: lineNumber, expected: 'a header line naming the columns (e.g. "t,x,y") before the end of the file' });
+  }
+  const plan = planColumns(file, headerLine, header, options);
+  const rowParser = new CsvRowParser(plan);
+
+  function rowError(status: RowStatus, text: string, line: number): CaptureFormatError {
+    const columns = `(${plan.names.join(',')})`;
+    if (status === RowStatus.ColumnCount) {
+      return new CaptureFormatError({ file, line, expected: `${plan.names.length} columns ${columns}`, got: text });
+    }
+    return new CaptureFormatError({
+      file,
+      line,
+      expected: `a number in column "${plan.names[rowParser.badField]}" (column ${rowParser.badField + 1} of ${plan.names.join(',')})`,
+      got: text,
+    });
+  }
+
+  /**
+   * Looks at the first data rows through a separate fixed-size read, so what is judged from them does not depend on
+   * the read chunk size. A malformed row ends the look; the main pass reports it in order.
+   */
+  async function peekRows(offset: number): Promise<PeekResult> {
+    const bytes = Buffer.alloc(PEEK_BYTES);
+    const { bytesRead } = await handle.read(bytes, 0, PEEK_BYTES, offset);
+    const x = new Float64Array(PEEK_ROWS);
+    const y = new Float64Array(PEEK_ROWS);
+    const t = plan.t === -1 ? null : new Float64Array(PEEK_ROWS);
+    let allInteger = true;
+    let rows = 0;
+    let start = 0;
+    while (rows < PEEK_ROWS && start < bytesRead) {
+      const newline = rowParser.parse(bytes, start, bytesRead, bytesRead < PEEK_BYTES, rows, x, y, t);
+      if (newline === -1) break;
+      if (rowParser.status === RowStatus.Ok) {
+        allInteger &&= rowParser.rowIsInteger;
+        rows++;
+      } else if (rowParser.status !== RowStatus.Skip) break;
+      start = newline + 1;
+    }
+    return { allInteger: rows > 0 && allInteger, rows, firstTime: t?.[0] ?? Number.NaN, lastTime: t?.[rows - 1] ?? Number.NaN };
+  }
+
+  const peek = await peekRows(filePosition - (bufferEnd - bufferStart));
+  const { rateHz, rateSource } = resolveRate(file, options.rateHz, metadata, metadataLines, plan, peek, headerLine);
+  const info: CaptureInfo = Object.freeze({
+    file,
+    format: 'csv',
+    rateHz,
+    rateSource,
+    channelNames: Object.freeze([...plan.names]),
+    xChannel: plan.names[plan.x]!,
+    yChannel: plan.names[plan.y]!,
+    timeColumn: plan.t === -1 ? null : plan.names[plan.t]!,
+    sampleEncoding: peek.allInteger ? 'integer-text' : 'decimal-text',
+    totalSamples: null,
+    metadata,
+    adc: parseAdcMetadata(metadata, { file, line: metadataLines.get('adc') ?? headerLine }),
+  });
+
+  const blockSize = options.blockSize;
+  const xBuffer = new Float64Array(blockSize);
+  const yBuffer = new Float64Array(blockSize);
+  const tBuffer = plan.t === -1 ? null : new Float64Array(blockSize);
+  const block = { x: xBuffer, y: yBuffer, t: tBuffer, length: 0, firstIndex: 0 };
+  let samplesDelivered = 0;
+  let pendingError: Error | null = null;
+
+  async function fillBlock(): Promise<number> {
+    if (pendingError !== null) throw pendingError;
+    let count = 0;
+    try {
+      while (count < blockSize) {
+        if (bufferStart === bufferEnd && !(await refill())) break;
+        const newline = rowParser.parse(buffer, bufferStart, bufferEnd, endOfFile, count, xBuffer, yBuffer, tBuffer);
+        if (newline === -1) {
+          await refill();
+          continue;
+        }
+        const status = rowParser.status;
+        if (status === RowStatus.Ok) count++;
+        else if (status !== RowStatus.Skip) throw rowError(status, lineText(bufferStart, newline), lineNumber);
+        bufferStart = Math.min(newline + 1, bufferEnd);
+        lineNumber++;
+      }
+    } catch (error) {
+      if (count === 0) throw error;
+      pendingError = error as Error;
+    }
+    return count;
+  }
+
+  let closed = false;
+  async function close(): Promise<void> {
+    if (closed) return;
+    closed = true;
+    await handle.close();
+  }
+
+  let started = false;
+  async function* blocks(): AsyncGenerator<CaptureBlock> {
+    try {
+      for (;;) {
+        const count = await fillBlock();
+        if (count === 0) return;
+        if (count < blockSize) {
+          block.x = xBuffer.subarray(0, count);
+          block.y = yBuffer.subarray(0, count);
+          block.t = tBuffer === null ? null : tBuffer.subarray(0, count);
+        }
+        block.length = count;
+        block.firstIndex = samplesDelivered;
+        samplesDelivered += count;
+        yield block;
+      }
+    } finally {
+      await close();
+    }
+  }
+
+  const capture: Capture = {
+    info,
+    blocks() {
+      if (started) throw new Error(`${file}: blocks() can be called once per openCapture`);
+      started = true;
+      return blocks();
+    },
+    [Symbol.asyncIterator]() {
+      return capture.blocks();
+    },
+    close,
+  };
+  return capture;
+}
+
+/** End of a line's content: before the newline and an optional carriage return. */
+function contentEnd(bytes: Uint8Array, start: number, newline: number): number {
+  return newline > start && bytes[newline - 1] === CR ? newline - 1 : newline;
+}
+
+function isBlank(bytes: Uint8Array, start: number, end: number): boolean {
+  for (let i = start; i < end; i++) if (bytes[i] !== 0x20 && bytes[i] !== 0x09) return false;
+  return true;
+}
+
+/** Parses data rows of one column layout; a class so that every capture calls the same method (one call target for the optimiser). */
+class CsvRowParser {
+  /** x and y of the last row parsed were plain integers. */
+  rowIsInteger = true;
+  /** 0-based column of the first non-number in the last row reported as NotNumber. */
+  badField = 0;
+  /** Outcome of the last `parse`. */
+  status: RowStatus = RowStatus.Skip;
+  private readonly parsed: ParsedNumber = createParsedNumber();
+  private readonly columns: number;
+  private readonly xColumn: number;
+  private readonly yColumn: number;
+  private readonly tColumn: number;
+
+  constructor(plan: ColumnPlan) {
+    this.columns = plan.names.length;
+    this.xColumn = plan.x;
+    this.yColumn = plan.y;
+    this.tColumn = plan.t;
+  }
+
+  /**
+   * Parses the line starting at `start` into slot `index` of the arrays, scanning for its newline as it goes.
+   * Returns the index of the newline, `limit` for a last line without one (when `atEnd`), or -1 when the line runs
+   * past `limit` and more bytes are needed. The outcome is left in `status`.
+   */
+  parse(bytes: Buffer, start: number, limit: number, atEnd: boolean, index: number, x: Float64Array, y: Float64Array, t: Float64Array | null): number {
+    if (start < limit && bytes[start] === HASH) {
+      const newline = bytes.indexOf(LF, start);
+      this.status = RowStatus.Skip;
+      return newline !== -1 && newline < limit ? newline : atEnd ? limit : -1;
+    }
+    const parsed = this.parsed;
+    let field = 0;
+    let fieldStart = start;
+    let notNumber = -1;
+    let integer = true;
+    let i = start;
+    for (;;) {
+      let fieldEnd: number;
+      if (i === limit) {
+        if (!atEnd) return -1;
+        fieldEnd = i > fieldStart && bytes[i - 1] === CR ? i - 1 : i;
+      } else {
+        const byte = bytes[i];
+        if (byte === LF) fieldEnd = i > fieldStart && bytes[i - 1] === CR ? i - 1 : i;
+        else if (byte === COMMA) fieldEnd = i;
+        else {
+          i++;
+          continue;
+        }
+      }
+      if (field === this.xColumn || field === this.yColumn || field === this.tColumn) {
+        parseNumberBytes(bytes, fieldStart, fieldEnd, parsed);
+        if (!parsed.ok) {
+          if (notNumber === -1) notNumber = field;
+        } else {
+          if (field === this.xColumn) x[index] = parsed.value;
+          if (field === this.yColumn) y[index] = parsed.value;
+          if (field === this.tColumn && t !== null) t[index] = parsed.value;
+          if (field !== this.tColumn && !parsed.integer) integer = false;
+        }
+      }
+      field++;
+      if (i === limit || bytes[i] === LF) break;
+      i++;
+      fieldStart = i;
+    }
+    this.rowIsInteger = integer;
+    if ((field !== this.columns || notNumber !== -1) && isBlank(bytes, start, contentEnd(bytes, start, i))) {
+      this.status = RowStatus.Skip;
+    } else if (field !== this.columns) {
+      this.status = RowStatus.ColumnCount;
+    } else if (notNumber !== -1) {
+      this.badField = notNumber;
+      this.status = RowStatus.NotNumber;
+    } else this.status = RowStatus.Ok;
+    return i;
+  }
+}
+
+function parseHeader(file: string, line: number, text: string): string[] {
+  const names = text.split(',').map((name) => name.trim().replace(/^"(.*)"$/, '$1').trim());
+  const numeric = names.every((name) => name !== '' && Number.isFinite(Number(name)));
+  if (numeric || names.some((name) => name === '')) {
+    throw new CaptureFormatError({ file, line, expected: 'a header line of non-empty column names (e.g. "t,x,y")', got: text });
+  }
+  const duplicate = names.find((name, index) => names.indexOf(name) !== index);
+  if (duplicate !== undefined) {
+    throw new CaptureFormatError({ file, line, expected: `distinct column names (column "${duplicate}" appears twice)`, got: text });
+  }
+  return names;
+}
+
+function planColumns(file: string, line: number, names: readonly string[], options: ResolvedCaptureOptions): ColumnPlan {
+  const find = (option: string, selector: ChannelSelector): number => {
+    const index = typeof selector === 'number' ? selector - 1 : names.indexOf(selector);
+    if (index < 0 || index >= names.length) {
+      const wanted = typeof selector === 'number' ? `a column number ${selector} (1-based)` : `a column named "${selector}"`;
+      throw new CaptureFormatError({ file, line, expected: `${wanted} for option ${option}, in header`, got: names.join(',') });
+    }
+    return index;
+  };
+  const x = find('xChannel', options.xChannel ?? 'x');
+  const y = find('yChannel', options.yChannel ?? 'y');
+  let t = -1;
+  if (options.timeColumn === undefined) t = names.indexOf('t');
+  else if (options.timeColumn !== null) t = find('timeColumn', options.timeColumn);
+  return { names, x, y, t };
+}
+
+interface PeekResult {
+  /** x and y of every looked-at row were plain integers (false when no row was seen). */
+  readonly allInteger: boolean;
+  readonly rows: number;
+  readonly firstTime: number;
+  readonly lastTime: number;
+}
+
+function resolveRate(
+  file: string,
+  optionRateHz: number | null,
+  metadata: ReadonlyMap<string, string>,
+  metadataLines: ReadonlyMap<string, number>,
+  plan: ColumnPlan,
+  peek: PeekResult,
+  headerLine: number,
+): { rateHz: number; rateSource: RateSource } {
+  if (optionRateHz !== null) return { rateHz: optionRateHz, rateSource: 'option' };
+  const stated = metadata.get(RATE_KEY);
+  if (stated !== undefined) {
+    return { rateHz: parseRateMetadata(stated, { file, line: metadataLines.get(RATE_KEY)! }), rateSource: 'metadata' };
+  }
+  const span = peek.lastTime - peek.firstTime;
+  if (plan.t !== -1 && peek.rows >= 2 && Number.isFinite(span) && span > 0) {
+    return { rateHz: (peek.rows - 1) / span, rateSource: 't-column' };
+  }
+  throw new CaptureFormatError({
+    file,
+    line: headerLine,
+    expected:
+      plan.t === -1
+        ? `a sample rate: a "t" column, a "# ${RATE_KEY}: <Hz>" line or the rateHz option`
+        : `a sample rate: increasing times in the first rows of column "${plan.names[plan.t]}", a "# ${RATE_KEY}: <Hz>" line or the rateHz option`,
+  });
+}

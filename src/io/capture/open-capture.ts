@@ -1,0 +1,50 @@
+// Opens a capture file, CSV or WAV, told apart by its first bytes (then its extension), for one streaming pass.
+import { open } from 'node:fs/promises';
+import { extname } from 'node:path';
+import { openCsvCapture } from './csv-reader.js';
+import { CaptureFormatError } from './errors.js';
+import { resolveCaptureOptions } from './resolved-options.js';
+import type { Capture, CaptureFormat, OpenCaptureOptions } from './types.js';
+import { openWavCapture } from './wav-reader.js';
+
+const SNIFF_BYTES = 4096;
+
+/**
+ * Opens `path` and reads its header (and, for CSV, a look at the first rows) so that `info` is complete; samples
+ * follow from `blocks()`. Option errors throw RangeError; file content errors reject with CaptureFormatError.
+ */
+export async function openCapture(path: string, options: OpenCaptureOptions = {}): Promise<Capture> {
+  const resolved = resolveCaptureOptions(options);
+  const handle = await open(path, 'r');
+  try {
+    const format = resolved.format ?? (await sniffFormat(path, handle));
+    return format === 'wav' ? await openWavCapture(path, handle, resolved) : await openCsvCapture(path, handle, resolved);
+  } catch (error) {
+    await handle.close();
+    throw error;
+  }
+}
+
+/** RIFF/WAVE magic means WAV; otherwise text (no control bytes but tab, CR, LF) means CSV unless the name says WAV. */
+async function sniffFormat(path: string, handle: Awaited<ReturnType<typeof open>>): Promise<CaptureFormat> {
+  const head = Buffer.alloc(SNIFF_BYTES);
+  const { bytesRead } = await handle.read(head, 0, SNIFF_BYTES, 0);
+  if (bytesRead >= 12 && head.toString('latin1', 0, 4) === 'RIFF' && head.toString('latin1', 8, 12) === 'WAVE') return 'wav';
+  const extension = extname(path).toLowerCase();
+  if (extension === '.wav' || extension === '.wave') return 'wav';
+  for (let i = 0; i < bytesRead; i++) {
+    const byte = head[i]!;
+    if (byte < 0x20 && byte !== 0x09 && byte !== 0x0a && byte !== 0x0d) {
+      throw new CaptureFormatError({
+        file: path,
+        byteOffset: i,
+        expected: 'a RIFF/WAVE file (starting "RIFF", form "WAVE") or CSV text',
+        got: `byte 0x${byte.toString(16).padStart(2, '0')}; the file starts with ${head.subarray(0, Math.min(bytesRead, 12)).toString('hex')}`,
+      });
+    }
+  }
+  if (bytesRead === 0) {
+    throw new CaptureFormatError({ file: path, byteOffset: 0, expected: 'a RIFF/WAVE file or CSV text, not an empty file' });
+  }
+  return 'csv';
+}

@@ -1,0 +1,43 @@
+// Options of openCapture after validation, with defaults filled in; shared by the CSV and WAV readers.
+import { checkInteger, checkPositiveFinite } from './options.js';
+import type { CaptureFormat, ChannelSelector, OpenCaptureOptions } from './types.js';
+
+export const DEFAULT_BLOCK_SIZE = 4096;
+export const MAX_BLOCK_SIZE = 1_048_576;
+export const DEFAULT_READ_CHUNK_BYTES = 262_144;
+export const MAX_READ_CHUNK_BYTES = 67_108_864;
+
+export interface ResolvedCaptureOptions {
+  readonly format: CaptureFormat | null;
+  readonly xChannel: ChannelSelector | null;
+  readonly yChannel: ChannelSelector | null;
+  /** undefined: use `t` when present; null: use none. */
+  readonly timeColumn: ChannelSelector | null | undefined;
+  readonly rateHz: number | null;
+  readonly blockSize: number;
+  readonly readChunkBytes: number;
+}
+
+export function resolveCaptureOptions(options: OpenCaptureOptions): ResolvedCaptureOptions {
+  if (options.format !== undefined && options.format !== 'csv' && options.format !== 'wav') {
+    throw new RangeError(`format must be "csv" or "wav" (got ${JSON.stringify(options.format)})`);
+  }
+  return Object.freeze({
+    format: options.format ?? null,
+    xChannel: checkSelector('xChannel', options.xChannel),
+    yChannel: checkSelector('yChannel', options.yChannel),
+    timeColumn: options.timeColumn === null ? null : (checkSelector('timeColumn', options.timeColumn) ?? undefined),
+    rateHz: options.rateHz === undefined ? null : checkPositiveFinite('rateHz', options.rateHz),
+    blockSize: checkInteger('blockSize', options.blockSize ?? DEFAULT_BLOCK_SIZE, 1, MAX_BLOCK_SIZE),
+    readChunkBytes: checkInteger('readChunkBytes', options.readChunkBytes ?? DEFAULT_READ_CHUNK_BYTES, 1, MAX_READ_CHUNK_BYTES),
+  });
+}
+
+function checkSelector(name: string, value: ChannelSelector | undefined): ChannelSelector | null {
+  if (value === undefined) return null;
+  if (typeof value === 'number') return checkInteger(name, value, 1, 65535);
+  if (typeof value !== 'string' || value === '') {
+    throw new RangeError(`${name} must be a column name or a 1-based column number (got ${JSON.stringify(value)})`);
+  }
+  return value;
+}

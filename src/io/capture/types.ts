@@ -1,0 +1,90 @@
+// Shapes shared by the capture readers and writers: options, file description and the sample block.
+
+/** How the samples are stored in the file. */
+export type SampleEncoding = 'int16' | 'int24' | 'float32' | 'integer-text' | 'decimal-text';
+
+export type CaptureFormat = 'csv' | 'wav';
+
+/** A channel picked by name (`"x"`, `"ch2"`) or by 1-based position (column 1 is the first CSV column, channel 1 the first WAV channel). */
+export type ChannelSelector = string | number;
+
+/**
+ * The converter's code range, so the pipeline can tell a clipped sample. `min`/`max` are the extreme values a sample
+ * can take in the units delivered (ADC counts for integers, the stored value for float).
+ */
+export interface AdcFormat {
+  readonly kind: 'signed' | 'unsigned' | 'float';
+  /** Bits per sample for integer kinds; 32 for float32 WAV; NaN for text floats of unknown width. */
+  readonly bits: number;
+  readonly min: number;
+  readonly max: number;
+}
+
+/** Where `rateHz` came from. */
+export type RateSource = 'option' | 'header' | 'metadata' | 't-column';
+
+export interface CaptureInfo {
+  /** The path as given to `openCapture`. */
+  readonly file: string;
+  readonly format: CaptureFormat;
+  /** Sample rate in Hz. With a CSV `t` column and no other source it is estimated from the first rows. */
+  readonly rateHz: number;
+  readonly rateSource: RateSource;
+  /** Names of every column (CSV header) or channel (`ch1`, `ch2`, ... for WAV), in file order. */
+  readonly channelNames: readonly string[];
+  /** The names of the channels delivered as `x` and `y`, and of the time column (null when none is used). */
+  readonly xChannel: string;
+  readonly yChannel: string;
+  readonly timeColumn: string | null;
+  readonly sampleEncoding: SampleEncoding;
+  /** Sample frames in the file when the header states it (WAV); null for CSV, which is not counted ahead. */
+  readonly totalSamples: number | null;
+  /** Key/value pairs from `# key: value` lines (CSV) or the LIST/INFO comment (WAV), in file order. */
+  readonly metadata: ReadonlyMap<string, string>;
+  /** Code range from the WAV header or the `adc` metadata key; null when the file does not say. */
+  readonly adc: AdcFormat | null;
+}
+
+/**
+ * One block of samples. The reader reuses the same block object and arrays for every block: copy what you keep
+ * before asking for the next one. `x.length === y.length === length` always (the last, shorter block is a view).
+ */
+export interface CaptureBlock {
+  /** Channel values: ADC counts for integer encodings, stored values for float and text. */
+  readonly x: Float64Array;
+  readonly y: Float64Array;
+  /** Times in seconds from the CSV `t` column, or null when the file has none (then t = index / rateHz). */
+  readonly t: Float64Array | null;
+  readonly length: number;
+  /** Absolute index of the block's first sample: 0 for the first sample of the file. */
+  readonly firstIndex: number;
+}
+
+export interface OpenCaptureOptions {
+  /** File format; default sniffed from the content (RIFF/WAVE magic, else text), then the extension. */
+  format?: CaptureFormat;
+  /** Channel delivered as x; default `"x"` for CSV, channel 1 for WAV. Numbers are 1-based. */
+  xChannel?: ChannelSelector;
+  /** Channel delivered as y; default `"y"` for CSV, channel 2 for WAV. Numbers are 1-based. */
+  yChannel?: ChannelSelector;
+  /** CSV time column in seconds; default `"t"` when the header has one; null ignores any time column. */
+  timeColumn?: ChannelSelector | null;
+  /** Sample rate in Hz, positive finite; overrides the header, metadata and `t` estimate. Required for CSV without any of them. */
+  rateHz?: number;
+  /** Largest number of samples per block, integer in 1..1048576; default 4096. */
+  blockSize?: number;
+  /** Bytes read from the file per read call, integer in 1..67108864; default 262144. Does not change the samples delivered. */
+  readChunkBytes?: number;
+}
+
+/** An open capture: its description and a single pass over its samples. */
+export interface Capture extends AsyncIterable<CaptureBlock> {
+  readonly info: CaptureInfo;
+  /**
+   * The blocks in file order. Callable once. A CaptureFormatError rejects the iteration at the bad place, after every
+   * good block before it. Ending the loop early (break/return) or reaching the end closes the file.
+   */
+  blocks(): AsyncIterableIterator<CaptureBlock>;
+  /** Releases the file; safe to call more than once, and after the iteration has ended. */
+  close(): Promise<void>;
+}

@@ -1,0 +1,208 @@
+// Streaming WAV capture reader: sample frames decoded chunk by chunk into x/y blocks; integer samples stay ADC counts.
+import type { FileHandle } from 'node:fs/promises';
+import { endianness } from 'node:os';
+import { CaptureFormatError } from './errors.js';
+import { integerAdc } from './metadata.js';
+import type { ResolvedCaptureOptions } from './resolved-options.js';
+import type { AdcFormat, Capture, CaptureBlock, CaptureInfo, ChannelSelector } from './types.js';
+import { readWavLayout, type WavLayout } from './wav-header.js';
+
+export async function openWavCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions): Promise<Capture> {
+  const layout = await readWavLayout(file, handle);
+  if (options.timeColumn !== undefined && options.timeColumn !== null) {
+    throw new RangeError(`timeColumn applies to CSV files only; ${file} is WAV, its times follow from the header's sample rate`);
+  }
+  const channelNames = Array.from({ length: layout.channels }, (_, index) => `ch${index + 1}`);
+  const xChannel = pickChannel(file, layout, channelNames, 'xChannel', options.xChannel ?? 1);
+  const yChannel = pickChannel(file, layout, channelNames, 'yChannel', options.yChannel ?? 2);
+  const info: CaptureInfo = Object.freeze({
+    file,
+    format: 'wav',
+    rateHz: options.rateHz ?? layout.rateHz,
+    rateSource: options.rateHz === null ? 'header' : 'option',
+    channelNames: Object.freeze(channelNames),
+    xChannel: channelNames[xChannel]!,
+    yChannel: channelNames[yChannel]!,
+    timeColumn: null,
+    sampleEncoding: layout.encoding,
+    totalSamples: Math.floor(layout.dataBytes / layout.blockAlign),
+    metadata: layout.metadata,
+    adc: adcOf(layout),
+  });
+
+  const { blockAlign, dataOffset } = layout;
+  const dataEnd = dataOffset + layout.dataBytes;
+  const bytesPerSample = blockAlign / layout.channels;
+  const xByte = xChannel * bytesPerSample;
+  const yByte = yChannel * bytesPerSample;
+  // Own ArrayBuffer (not the shared pool) so that frames, which always start at a multiple of blockAlign from 0,
+  // are aligned for the Int16Array/Float32Array views on little-endian machines.
+  const storage = new ArrayBuffer(options.readChunkBytes + blockAlign);
+  const buffer = Buffer.from(storage);
+  const littleEndian = endianness() === 'LE';
+  const int16View = littleEndian && layout.encoding === 'int16' ? new Int16Array(storage, 0, storage.byteLength >> 1) : null;
+  const float32View = littleEndian && layout.encoding === 'float32' ? new Float32Array(storage, 0, storage.byteLength >> 2) : null;
+  let bufferStart = 0;
+  let bufferEnd = 0;
+  let filePosition = dataOffset;
+  let reachedEnd = false;
+
+  const blockSize = options.blockSize;
+  const xBuffer = new Float64Array(blockSize);
+  const yBuffer = new Float64Array(blockSize);
+  const block = { x: xBuffer, y: yBuffer, t: null, length: 0, firstIndex: 0 };
+  let samplesDelivered = 0;
+  let pendingError: Error | null = null;
+
+  /** Keeps a partial frame, reads the next chunk after it; false when the data chunk is used up. */
+  async function refill(): Promise<boolean> {
+    if (reachedEnd) return false;
+    const carried = bufferEnd - bufferStart;
+    buffer.copy(buffer, 0, bufferStart, bufferEnd);
+    bufferStart = 0;
+    bufferEnd = carried;
+    const wanted = Math.min(options.readChunkBytes, dataEnd - filePosition);
+    const { bytesRead } = wanted === 0 ? { bytesRead: 0 } : await handle.read(buffer, bufferEnd, wanted, filePosition);
+    bufferEnd += bytesRead;
+    filePosition += bytesRead;
+    if (bytesRead === 0) {
+      reachedEnd = true;
+      if (filePosition < dataEnd) {
+        throw new CaptureFormatError({
+          file,
+          byteOffset: filePosition,
+          expected: `${dataEnd - filePosition} more bytes of sample data before the end of the file (the data chunk at byte ${layout.dataChunkOffset} declares ${layout.dataBytes} bytes)`,
+        });
+      }
+      if (carried > 0) {
+        throw new CaptureFormatError({
+          file,
+          byteOffset: filePosition - carried,
+          expected: `whole sample frames of ${blockAlign} bytes (the data chunk ends ${carried} bytes into a frame)`,
+        });
+      }
+      return false;
+    }
+    return true;
+  }
+
+  function decode(count: number, frames: number): void {
+    let at = bufferStart;
+    if (int16View !== null) {
+      const stride = blockAlign >> 1;
+      let xAt = (at + xByte) >> 1;
+      let yAt = (at + yByte) >> 1;
+      for (let i = count; i < count + frames; i++, xAt += stride, yAt += stride) {
+        xBuffer[i] = int16View[xAt]!;
+        yBuffer[i] = int16View[yAt]!;
+      }
+      at += frames * blockAlign;
+    } else if (float32View !== null) {
+      const stride = blockAlign >> 2;
+      let xAt = (at + xByte) >> 2;
+      let yAt = (at + yByte) >> 2;
+      for (let i = count; i < count + frames; i++, xAt += stride, yAt += stride) {
+        xBuffer[i] = float32View[xAt]!;
+        yBuffer[i] = float32View[yAt]!;
+      }
+      at += frames * blockAlign;
+    } else if (layout.encoding === 'int16') {
+      for (let i = count; i < count + frames; i++, at += blockAlign) {
+        xBuffer[i] = ((buffer[at + xByte]! | (buffer[at + xByte + 1]! << 8)) << 16) >> 16;
+        yBuffer[i] = ((buffer[at + yByte]! | (buffer[at + yByte + 1]! << 8)) << 16) >> 16;
+      }
+    } else if (layout.encoding === 'int24') {
+      for (let i = count; i < count + frames; i++, at += blockAlign) {
+        xBuffer[i] = ((buffer[at + xByte]! | (buffer[at + xByte + 1]! << 8) | (buffer[at + xByte + 2]! << 16)) << 8) >> 8;
+        yBuffer[i] = ((buffer[at + yByte]! | (buffer[at + yByte + 1]! << 8) | (buffer[at + yByte + 2]! << 16)) << 8) >> 8;
+      }
+    } else {
+      for (let i = count; i < count + frames; i++, at += blockAlign) {
+        xBuffer[i] = buffer.readFloatLE(at + xByte);
+        yBuffer[i] = buffer.readFloatLE(at + yByte);
+      }
+    }
+    bufferStart = at;
+  }
+
+  async function fillBlock(): Promise<number> {
+    if (pendingError !== null) throw pendingError;
+    let count = 0;
+    try {
+      while (count < blockSize) {
+        let frames = Math.floor((bufferEnd - bufferStart) / blockAlign);
+        if (frames === 0) {
+          if (!(await refill())) break;
+          frames = Math.floor((bufferEnd - bufferStart) / blockAlign);
+          if (frames === 0) continue;
+        }
+        frames = Math.min(frames, blockSize - count);
+        decode(count, frames);
+        count += frames;
+      }
+    } catch (error) {
+      if (count === 0) throw error;
+      pendingError = error as Error;
+    }
+    return count;
+  }
+
+  let closed = false;
+  async function close(): Promise<void> {
+    if (closed) return;
+    closed = true;
+    await handle.close();
+  }
+
+  let started = false;
+  async function* blocks(): AsyncGenerator<CaptureBlock> {
+    try {
+      for (;;) {
+        const count = await fillBlock();
+        if (count === 0) return;
+        if (count < blockSize) {
+          block.x = xBuffer.subarray(0, count);
+          block.y = yBuffer.subarray(0, count);
+        }
+        block.length = count;
+        block.firstIndex = samplesDelivered;
+        samplesDelivered += count;
+        yield block;
+      }
+    } finally {
+      await close();
+    }
+  }
+
+  const capture: Capture = {
+    info,
+    blocks() {
+      if (started) throw new Error(`${file}: blocks() can be called once per openCapture`);
+      started = true;
+      return blocks();
+    },
+    [Symbol.asyncIterator]() {
+      return capture.blocks();
+    },
+    close,
+  };
+  return capture;
+}
+
+function pickChannel(file: string, layout: WavLayout, names: readonly string[], option: string, selector: ChannelSelector): number {
+  const index = typeof selector === 'number' ? selector - 1 : names.indexOf(selector);
+  if (index < 0 || index >= layout.channels) {
+    throw new CaptureFormatError({
+      file,
+      byteOffset: layout.dataChunkOffset,
+      expected: `channel ${typeof selector === 'number' ? `number ${selector} (1-based)` : `"${selector}"`} for option ${option}, among ${names.join(', ')}`,
+    });
+  }
+  return index;
+}
+
+function adcOf(layout: WavLayout): AdcFormat {
+  if (layout.encoding === 'int16') return integerAdc('signed', 16);
+  if (layout.encoding === 'int24') return integerAdc('signed', 24);
+  return { kind: 'float', bits: 32, min: -1, max: 1 };
+}

@@ -1,0 +1,189 @@
+// Writer of replay/listen result rows (t, position, velocity, level, alarms) as CSV or JSON Lines, every Nth sample.
+import { alarmText } from '../../core/index.js';
+import { checkInteger, checkPositiveFinite } from '../capture/options.js';
+import { openFileSink, openStreamSink, type OutputSink } from '../capture/output-file.js';
+import { writeAscii, writeFixedAscii } from '../capture/text-encode.js';
+
+export type ResultFormat = 'csv' | 'jsonl';
+
+/** The columns, in order; the CSV header line and the JSONL keys. */
+export const RESULT_COLUMNS = ['t', 'position_m', 'velocity_m_s', 'level', 'alarms'] as const;
+
+/** Decimal places written: t to 1 ns, position to 1 pm, velocity to 1 nm/s, level to 1e-6 of its scale. */
+export const RESULT_DECIMALS = { t: 9, positionM: 12, velocityMS: 9, level: 6 } as const;
+
+export interface ResultWriterOptions {
+  /** `csv` (header line, comma-separated) or `jsonl` (one JSON object per line); required. */
+  format: ResultFormat;
+  /** Write the rows whose absolute sample index is a multiple of `every`; integer in 1..1e9, default 1 (every row). */
+  every?: number;
+  /** Sample rate in Hz, for t = index / rateHz when a block has neither `t` nor `rateHz`; positive finite. */
+  rateHz?: number;
+  /** Stream used when the path is `-`; default process.stdout. */
+  stdout?: NodeJS.WritableStream;
+}
+
+/** One block of pipeline output; arrays hold at least `length` values. */
+export interface ResultBlock {
+  /** Absolute index of the block's first sample (0 = first sample of the capture). */
+  readonly firstIndex: number;
+  readonly length: number;
+  /** Times in seconds; when absent or null, t = index / rateHz. */
+  readonly t?: Float64Array | null;
+  /** Sample rate in Hz for t = index / rateHz; overrides the writer's `rateHz` option for this block. */
+  readonly rateHz?: number;
+  readonly positionM: Float64Array;
+  readonly velocityMS: Float64Array;
+  readonly level: Float32Array;
+  /** Alarm flag bits per sample (AlarmBit in src/core/alarms.ts). */
+  readonly flags: Uint8Array;
+}
+
+export interface ResultWriter {
+  readonly path: string;
+  readonly rowsWritten: number;
+  write(block: ResultBlock): Promise<void>;
+  /** Flushes; a file is renamed from its temporary name to `path`. */
+  close(): Promise<void>;
+  /** A file: removes the temporary file. Standard output: stops writing (what was written stays; see docs). */
+  abort(): Promise<void>;
+}
+
+const ENCODE_BUFFER_BYTES = 65_536;
+/** Room kept for one row: four numbers (toFixed gives at most ~45 chars below 1e21, more above), keys and all alarm names. */
+const MAX_ROW_BYTES = 1024;
+
+/** Alarm text of every flag byte, as bytes, built once so that rows cost no string building. */
+const ALARM_CSV: readonly Buffer[] = Array.from({ length: 256 }, (_, flags) => Buffer.from(`${alarmText(flags)}\n`, 'latin1'));
+const ALARM_JSON: readonly Buffer[] = Array.from({ length: 256 }, (_, flags) => Buffer.from(`"alarms":${JSON.stringify(alarmText(flags))}}\n`, 'latin1'));
+const JSON_KEYS = ['{"t":', ',"position_m":', ',"velocity_m_s":', ',"level":', ','].map((text) => Buffer.from(text, 'latin1'));
+const COMMA = 0x2c;
+
+/** Opens `path` (`-` for standard output) for result rows; the header (CSV) is written with the first rows or at close. */
+export async function createResultWriter(path: string, options: ResultWriterOptions): Promise<ResultWriter> {
+  const format = options.format;
+  if (format !== 'csv' && format !== 'jsonl') throw new RangeError(`format must be "csv" or "jsonl" (got ${JSON.stringify(format)})`);
+  const every = checkInteger('every', options.every ?? 1, 1, 1_000_000_000);
+  const rateHz = options.rateHz === undefined ? null : checkPositiveFinite('rateHz', options.rateHz);
+  const sink: OutputSink = path === '-' ? openStreamSink(options.stdout ?? process.stdout) : await openFileSink(path);
+  const buffer = Buffer.allocUnsafe(ENCODE_BUFFER_BYTES);
+  let used = 0;
+  let headerWritten = format === 'jsonl';
+  let rowsWritten = 0;
+  let failed = false;
+  let finished = false;
+
+  async function flush(): Promise<void> {
+    if (used > 0) await sink.write(buffer, used);
+    used = 0;
+  }
+
+  function checkUsable(): void {
+    if (finished) throw new Error(`${path}: the result writer is closed`);
+    if (failed) throw new Error(`${path}: an earlier write failed; call abort()`);
+  }
+
+  function writeHeader(): void {
+    used = writeAscii(buffer, used, RESULT_COLUMNS.join(',') + '\n');
+    headerWritten = true;
+  }
+
+  function checkBlock(block: ResultBlock): void {
+    const { length } = block;
+    if (!Number.isInteger(length) || length < 0) throw new RangeError(`block.length must be a non-negative integer (got ${length})`);
+    if (!Number.isSafeInteger(block.firstIndex) || block.firstIndex < 0) {
+      throw new RangeError(`block.firstIndex must be a non-negative integer (got ${block.firstIndex})`);
+    }
+    const arrays = { positionM: block.positionM, velocityMS: block.velocityMS, level: block.level, flags: block.flags, t: block.t ?? null };
+    for (const [name, array] of Object.entries(arrays)) {
+      if (array !== null && array.length < length) throw new RangeError(`block.${name} holds ${array.length} values, fewer than length ${length}`);
+    }
+    if (block.rateHz !== undefined) checkPositiveFinite('block.rateHz', block.rateHz);
+    else if ((block.t === undefined || block.t === null) && rateHz === null) {
+      throw new RangeError(`${path}: a block without t needs a rate (block.rateHz or the rateHz option) to compute t = index / rateHz`);
+    }
+  }
+
+  return {
+    path,
+    get rowsWritten() {
+      return rowsWritten;
+    },
+    async write(block) {
+      checkUsable();
+      checkBlock(block);
+      try {
+        if (!headerWritten) writeHeader();
+        const { firstIndex, length, positionM, velocityMS, level, flags } = block;
+        const times = block.t ?? null;
+        const blockRateHz = block.rateHz ?? rateHz!;
+        // Rows are chosen on the absolute index, so the same rows come out however the stream is cut into blocks.
+        const firstRow = Math.ceil(firstIndex / every) * every - firstIndex;
+        for (let i = firstRow; i < length; i += every) {
+          if (used > ENCODE_BUFFER_BYTES - MAX_ROW_BYTES) await flush();
+          const t = times === null ? (firstIndex + i) / blockRateHz : times[i]!;
+          const flagByte = flags[i]!;
+          if (format === 'csv') {
+            used = writeNumber(buffer, used, t, RESULT_DECIMALS.t, format);
+            buffer[used++] = COMMA;
+            used = writeNumber(buffer, used, positionM[i]!, RESULT_DECIMALS.positionM, format);
+            buffer[used++] = COMMA;
+            used = writeNumber(buffer, used, velocityMS[i]!, RESULT_DECIMALS.velocityMS, format);
+            buffer[used++] = COMMA;
+            used = writeNumber(buffer, used, level[i]!, RESULT_DECIMALS.level, format);
+            buffer[used++] = COMMA;
+            const alarms = ALARM_CSV[flagByte]!;
+            buffer.set(alarms, used);
+            used += alarms.length;
+          } else {
+            used = copy(buffer, used, JSON_KEYS[0]!);
+            used = writeNumber(buffer, used, t, RESULT_DECIMALS.t, format);
+            used = copy(buffer, used, JSON_KEYS[1]!);
+            used = writeNumber(buffer, used, positionM[i]!, RESULT_DECIMALS.positionM, format);
+            used = copy(buffer, used, JSON_KEYS[2]!);
+            used = writeNumber(buffer, used, velocityMS[i]!, RESULT_DECIMALS.velocityMS, format);
+            used = copy(buffer, used, JSON_KEYS[3]!);
+            used = writeNumber(buffer, used, level[i]!, RESULT_DECIMALS.level, format);
+            used = copy(buffer, used, JSON_KEYS[4]!);
+            used = copy(buffer, used, ALARM_JSON[flagByte]!);
+          }
+          rowsWritten++;
+        }
+      } catch (error) {
+        failed = true;
+        throw error;
+      }
+    },
+    async close() {
+      checkUsable();
+      try {
+        if (!headerWritten) writeHeader();
+        await flush();
+        finished = true;
+        await sink.commit();
+      } catch (error) {
+        failed = true;
+        finished = false;
+        throw error;
+      }
+    },
+    async abort() {
+      finished = true;
+      await sink.discard();
+    },
+  };
+}
+
+/**
+ * Fixed-point text with `decimals` places, as ECMAScript toFixed writes it. Non-finite values: CSV writes `NaN`,
+ * `Infinity`, `-Infinity`; JSON has no such numbers, so JSONL writes `null`.
+ */
+function writeNumber(bytes: Buffer, at: number, value: number, decimals: number, format: ResultFormat): number {
+  if (Number.isFinite(value)) return writeFixedAscii(bytes, at, value, decimals);
+  return writeAscii(bytes, at, format === 'csv' ? String(value) : 'null');
+}
+
+function copy(bytes: Buffer, at: number, text: Buffer): number {
+  bytes.set(text, at);
+  return at + text.length;
+}

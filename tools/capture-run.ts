@@ -1,0 +1,331 @@
+// Shared passes over a capture file for calibrate and replay: the ellipse fit, and the pipeline run with its
+// periodic-error analysis and the decimated series the report draws. Constant memory for any file length.
+
+import {
+  AlarmBit,
+  createCorrection,
+  createEllipseAccumulator,
+  createPeriodicErrorAnalyzer,
+  createPipeline,
+  createWindowDetrender,
+  fastAtan2,
+  wrapPhase,
+  type AdcFormat,
+  type AlarmEvent,
+  type AlarmKind,
+  type EllipseCalibration,
+  type EllipseFitOptions,
+  type EllipseFitResult,
+  type PeriodicErrorSummary,
+  type SpeedLimits,
+} from '../src/core/index.js';
+import { openCapture, type CaptureInfo, type OpenCaptureOptions } from '../src/io/capture/index.js';
+import type { ResultWriter } from '../src/io/results/index.js';
+import type { Progress } from './progress.js';
+
+const BLOCK = 4096;
+
+/** The core's ADC format for a capture: from the file (header or `adc` metadata), else int16 for int16 WAV, else none stated. */
+export function adcOf(info: CaptureInfo): { adc: AdcFormat; stated: boolean } {
+  const adc = info.adc;
+  if (adc === null) return { adc: { kind: 'float', fullScale: Number.MAX_VALUE }, stated: false };
+  if (adc.kind === 'signed' && adc.bits === 16) return { adc: { kind: 'int16' }, stated: true };
+  if (adc.kind === 'unsigned') return { adc: { kind: 'unsigned', bits: adc.bits }, stated: true };
+  // Other signed widths and float: saturated at or beyond the largest code.
+  return { adc: { kind: 'float', fullScale: adc.max }, stated: true };
+}
+
+/** The code of a zero signal: mid-scale of offset-binary converters, else 0. */
+export function midScaleOf(adc: AdcFormat): number {
+  return adc.kind === 'unsigned' ? 2 ** (adc.bits - 1) : 0;
+}
+
+/**
+ * Fits the ellipse in two passes: all finite samples first, then again with only the samples whose corrected
+ * radius lies within [0.5, 1.5] of the first fit, so that a blocked beam (samples near the centre) or a
+ * glitch does not pull the fit.
+ */
+export async function fitCapture(
+  path: string,
+  open: OpenCaptureOptions,
+  fitOptions: EllipseFitOptions,
+  progress: Progress,
+): Promise<{ fit: EllipseFitResult; info: CaptureInfo }> {
+  const first = await fitPass(path, open, fitOptions, progress, null);
+  if (!first.fit.ok) return first;
+  return fitPass(path, open, fitOptions, progress, first.fit.calibration);
+}
+
+async function fitPass(
+  path: string,
+  open: OpenCaptureOptions,
+  fitOptions: EllipseFitOptions,
+  progress: Progress,
+  gate: EllipseCalibration | null,
+): Promise<{ fit: EllipseFitResult; info: CaptureInfo }> {
+  const capture = await openCapture(path, { ...open, blockSize: BLOCK });
+  const accumulator = createEllipseAccumulator(fitOptions);
+  const correction = createCorrection({ calibration: gate });
+  const u = new Float64Array(BLOCK);
+  const v = new Float64Array(BLOCK);
+  const keptX = new Float64Array(BLOCK);
+  const keptY = new Float64Array(BLOCK);
+  progress.start(`fit ${path}${gate === null ? '' : ' (refined)'}`, capture.info.totalSamples);
+  try {
+    for await (const block of capture.blocks()) {
+      if (gate === null) {
+        accumulator.add(block.x, block.y, block.length);
+      } else {
+        correction.process(block.x, block.y, u, v, block.length);
+        let kept = 0;
+        for (let i = 0; i < block.length; i++) {
+          const radius = Math.hypot(u[i]!, v[i]!);
+          if (radius >= 0.5 && radius <= 1.5) {
+            keptX[kept] = block.x[i]!;
+            keptY[kept] = block.y[i]!;
+            kept++;
+          }
+        }
+        accumulator.add(keptX, keptY, kept);
+      }
+      progress.update(block.firstIndex + block.length);
+    }
+  } finally {
+    progress.stop();
+    await capture.close();
+  }
+  return { fit: accumulator.solve(), info: capture.info };
+}
+
+export interface MeasureSettings {
+  readonly wavelengthM: number;
+  readonly fold: number;
+  readonly refractiveIndex: number;
+  readonly bandwidthHz?: number;
+}
+
+/** A decimated time series: min and max of each bucket, with the bucket doubling when the store is full. */
+export interface Envelope {
+  readonly t: number[];
+  readonly min: number[];
+  readonly max: number[];
+}
+
+function createEnvelope(maxPoints: number) {
+  let stride = 1;
+  let inBucket = 0;
+  let bucketMin = Infinity;
+  let bucketMax = -Infinity;
+  let bucketT = 0;
+  const series: Envelope = { t: [], min: [], max: [] };
+  function halve(): void {
+    const { t, min, max } = series;
+    const half = Math.floor(t.length / 2);
+    for (let k = 0; k < half; k++) {
+      t[k] = t[2 * k]!;
+      min[k] = Math.min(min[2 * k]!, min[2 * k + 1]!);
+      max[k] = Math.max(max[2 * k]!, max[2 * k + 1]!);
+    }
+    t.length = min.length = max.length = half;
+    stride *= 2;
+  }
+  return {
+    series,
+    add(t: number, value: number): void {
+      if (inBucket === 0) bucketT = t;
+      if (value < bucketMin) bucketMin = value;
+      if (value > bucketMax) bucketMax = value;
+      if (++inBucket >= stride) {
+        series.t.push(bucketT);
+        series.min.push(bucketMin);
+        series.max.push(bucketMax);
+        inBucket = 0;
+        bucketMin = Infinity;
+        bucketMax = -Infinity;
+        if (series.t.length >= maxPoints) halve();
+      }
+    },
+  };
+}
+
+/** Every stride-th point, the stride doubling when the store is full, so points spread over the whole capture. */
+function createPointSampler(maxPoints: number) {
+  let stride = 1;
+  let seen = 0;
+  const points: { x: number[]; y: number[] } = { x: [], y: [] };
+  return {
+    points,
+    add(x: number, y: number): void {
+      if (seen++ % stride !== 0) return;
+      points.x.push(x);
+      points.y.push(y);
+      if (points.x.length >= maxPoints) {
+        points.x = points.x.filter((_, k) => k % 2 === 0);
+        points.y = points.y.filter((_, k) => k % 2 === 0);
+        stride *= 2;
+      }
+    },
+  };
+}
+
+export interface AlarmSpan {
+  readonly kind: AlarmKind;
+  readonly startS: number;
+  /** NaN while still active at the end of the capture. */
+  readonly endS: number;
+}
+
+export interface PeriodicErrorResult {
+  readonly summary: PeriodicErrorSummary;
+  /** Mean error per phase bin, metres. */
+  readonly binnedM: Float64Array;
+}
+
+export interface RunResult {
+  readonly info: CaptureInfo;
+  readonly samples: number;
+  readonly metresPerRad: number;
+  readonly speedLimits: SpeedLimits;
+  readonly finalPositionM: number;
+  readonly countLostAtEnd: boolean;
+  /** Whether the ADC format (and so saturation detection) came from the capture or the caller. */
+  readonly adcStated: boolean;
+  readonly alarmCounts: Readonly<Record<AlarmKind, number>>;
+  readonly alarmSpans: readonly AlarmSpan[];
+  /** The error of the uncorrected phase (ADC mid-scale removed only) against the corrected phase. */
+  readonly before: PeriodicErrorResult;
+  /** The corrected phase's residual about smooth motion (windows of steady motion only, see createWindowDetrender). */
+  readonly after: PeriodicErrorResult;
+  readonly report: {
+    readonly position: Envelope;
+    readonly velocity: Envelope;
+    readonly raw: { x: number[]; y: number[] };
+    readonly corrected: { x: number[]; y: number[] };
+  };
+}
+
+export interface RunOptions {
+  readonly open: OpenCaptureOptions;
+  readonly calibration: EllipseCalibration;
+  readonly settings: MeasureSettings;
+  /** ADC format for saturation; default from the capture (see `adcOf`). */
+  readonly adc?: AdcFormat;
+  readonly writer?: ResultWriter;
+  readonly progress: Progress;
+  /** Upper bound of points kept per plotted series. */
+  readonly maxPlotPoints?: number;
+}
+
+const MAX_SPANS = 1000;
+/** Samples whose signal itself is in doubt stay out of the periodic-error analysis. */
+const SIGNAL_TROUBLE = AlarmBit.lowSignal | AlarmBit.saturation | AlarmBit.badSample | AlarmBit.inputGap;
+
+/** Runs the whole pipeline over a capture, writing rows to the writer if one is given. */
+export async function runCapture(path: string, options: RunOptions): Promise<RunResult> {
+  const { calibration, settings, writer, progress } = options;
+  const capture = await openCapture(path, { ...options.open, blockSize: BLOCK });
+  const info = capture.info;
+  const fromFile = adcOf(info);
+  const adc = options.adc ?? fromFile.adc;
+  const adcStated = options.adc !== undefined || fromFile.stated;
+  const pipeline = createPipeline({
+    rateHz: info.rateHz,
+    wavelengthM: settings.wavelengthM,
+    fold: settings.fold,
+    refractiveIndex: settings.refractiveIndex,
+    bandwidthHz: settings.bandwidthHz,
+    calibration,
+    adc,
+  });
+  const output = {
+    positionM: new Float64Array(BLOCK),
+    velocityMS: new Float64Array(BLOCK),
+    level: new Float32Array(BLOCK),
+    flags: new Uint8Array(BLOCK),
+    unwrappedPhaseRad: new Float64Array(BLOCK),
+  };
+  const beforeError = new Float64Array(BLOCK);
+  const valid = new Uint8Array(BLOCK);
+  const before = createPeriodicErrorAnalyzer();
+  const after = createPeriodicErrorAnalyzer();
+  const detrender = createWindowDetrender(after);
+  const maxPoints = options.maxPlotPoints ?? 2000;
+  const position = createEnvelope(maxPoints);
+  const velocity = createEnvelope(maxPoints);
+  const raw = createPointSampler(maxPoints);
+  const corrected = createPointSampler(maxPoints);
+  const events: AlarmEvent[] = [];
+  const alarmCounts: Record<AlarmKind, number> = { lowSignal: 0, saturation: 0, badSample: 0, overspeed: 0, inputGap: 0, countLost: 0 };
+  const spans: AlarmSpan[] = [];
+  const open = new Map<AlarmKind, number>();
+  const mid = midScaleOf(adc);
+  const { offsetX, offsetY, amplitudeX, amplitudeY, phaseErrorRad } = calibration;
+  const metresPerRad = pipeline.stages.displacement.metresPerFringe / (2 * Math.PI);
+  let samples = 0;
+  let finalPositionM = 0;
+
+  progress.start(`replay ${path}`, info.totalSamples);
+  try {
+    for await (const block of capture.blocks()) {
+      const n = block.length;
+      events.length = 0;
+      pipeline.process(block.x, block.y, n, output, events);
+      if (writer !== undefined) {
+        await writer.write({ firstIndex: block.firstIndex, length: n, t: block.t, rateHz: info.rateHz, ...output });
+      }
+      for (const event of events) {
+        const t = event.sampleIndex / info.rateHz;
+        if (event.state === 'raised') {
+          alarmCounts[event.kind]++;
+          open.set(event.kind, t);
+        } else {
+          const start = open.get(event.kind);
+          open.delete(event.kind);
+          if (start !== undefined && spans.length < MAX_SPANS) spans.push({ kind: event.kind, startS: start, endS: t });
+        }
+      }
+      for (let i = 0; i < n; i++) {
+        const x = block.x[i]!;
+        const y = block.y[i]!;
+        const phase = output.unwrappedPhaseRad[i]!;
+        valid[i] = (output.flags[i]! & SIGNAL_TROUBLE) === 0 ? 1 : 0;
+        beforeError[i] = wrapPhase(fastAtan2(y - mid, x - mid) - phase);
+        const t = block.t === null ? (block.firstIndex + i) / info.rateHz : block.t[i]!;
+        position.add(t, output.positionM[i]!);
+        velocity.add(t, output.velocityMS[i]!);
+        if (x - x === 0 && y - y === 0) {
+          raw.add(x, y);
+          const cu = (x - offsetX) / amplitudeX;
+          corrected.add(cu, ((y - offsetY) / amplitudeY - cu * Math.sin(phaseErrorRad)) / Math.cos(phaseErrorRad));
+        }
+      }
+      before.add(output.unwrappedPhaseRad, beforeError, n, valid);
+      detrender.process(output.unwrappedPhaseRad, valid, n);
+      samples += n;
+      finalPositionM = output.positionM[n - 1]!;
+      progress.update(block.firstIndex + n);
+    }
+  } finally {
+    progress.stop();
+    await capture.close();
+  }
+  for (const [kind, start] of open) if (spans.length < MAX_SPANS) spans.push({ kind, startS: start, endS: Number.NaN });
+  const toMetres = (analyzer: typeof before): PeriodicErrorResult => ({
+    summary: analyzer.summary(),
+    binnedM: analyzer.binnedMeanRad().map((rad) => rad * metresPerRad),
+  });
+  return {
+    info,
+    samples,
+    metresPerRad,
+    speedLimits: pipeline.speedLimits,
+    finalPositionM,
+    countLostAtEnd: pipeline.countLost,
+    adcStated,
+    alarmCounts,
+    alarmSpans: spans,
+    before: toMetres(before),
+    after: toMetres(after),
+    report: { position: position.series, velocity: velocity.series, raw: raw.points, corrected: corrected.points },
+  };
+}

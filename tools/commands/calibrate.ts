@@ -1,0 +1,79 @@
+// `fringetally calibrate`: fits the Heydemann correction to a capture and writes the calibration file.
+import { writeFile, rename } from 'node:fs/promises';
+import { parseCommandLine, numberOption, UsageError, type Command } from '../cli-kit.js';
+import { fitCapture, runCapture } from '../capture-run.js';
+import { calibrationFileOf } from '../calibration-file.js';
+import { captureOptionHelp, captureOptionSpecs, captureOptionsOf, lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
+import { createProgress } from '../progress.js';
+import { formatCalibration, formatPeriodicError, writeReportFile } from '../report.js';
+
+const help = `Usage: fringetally calibrate <capture.csv|capture.wav> --out cal.json [options]
+
+Fits the ellipse (Heydemann correction) to the whole capture, prints its parameters, the fit quality, the
+phase coverage and the periodic error before and after correction, and writes the calibration file
+(versioned JSON, offsets and amplitudes in the capture's own units: ADC counts for integer captures).
+Refuses (exit 1) when the capture covers too little of the ellipse: record at least one full fringe of motion.
+
+Options:
+  --out FILE             calibration file to write (JSON)
+  --min-coverage F       least phase coverage accepted, fraction of a fringe (default 0.75)
+  --report FILE          also write a self-contained HTML report (Lissajous figure, periodic error)
+  --quiet                no progress bar and no summary
+${measureOptionHelp}
+  (calibrate uses them only to express the periodic error in nm; defaults 632.9908 nm and fold 2)
+${captureOptionHelp}
+
+Periodic error "before" is the phase error of the uncorrected signals (ADC mid-scale removed only) against
+the corrected phase; "after" is the corrected phase's deviation from smooth motion, measured on stretches of
+steady motion (fringe rate at least 10x the smoothing bandwidth).`;
+
+async function run(argv: readonly string[]): Promise<number> {
+  const { values, positionals } = parseCommandLine(
+    argv,
+    {
+      out: { type: 'string' },
+      'min-coverage': { type: 'string' },
+      report: { type: 'string' },
+      quiet: { type: 'boolean' },
+      ...measureOptionSpecs,
+      ...captureOptionSpecs,
+    },
+    true,
+  );
+  if (positionals.length !== 1) throw new UsageError('give exactly one capture file');
+  const path = positionals[0]!;
+  if (values.out === undefined) throw new UsageError('--out is required');
+  const quiet = values.quiet === true;
+  const scale = lengthScaleOf(values, { wavelengthNm: 632.9908, fold: 2 });
+  const open = captureOptionsOf(values);
+  const minCoverage = numberOption('min-coverage', values['min-coverage']);
+  const progress = createProgress(quiet);
+
+  const { fit, info } = await fitCapture(path, open, minCoverage === undefined ? {} : { minCoverage }, progress);
+  if (!fit.ok) {
+    process.stderr.write(`fringetally calibrate: ${path}: calibration refused: ${fit.message}\n`);
+    return 1;
+  }
+  const result = await runCapture(path, { open, calibration: fit.calibration, settings: scale, progress });
+  const file = calibrationFileOf(fit, info);
+  const temporary = `${values.out}.partial-${process.pid}`;
+  await writeFile(temporary, JSON.stringify(file, null, 2) + '\n');
+  await rename(temporary, values.out);
+  if (values.report !== undefined) {
+    await writeReportFile(values.report, { title: `Calibration of ${path}`, calibration: fit.calibration, fit, run: result, scale, notes: scale.notes });
+  }
+  if (!quiet) {
+    const lines = [
+      `capture     ${path} (${info.format}, ${result.samples} samples at ${info.rateHz} Hz, ${info.sampleEncoding})`,
+      ...formatCalibration(fit.calibration, file.units),
+      `fit         residual ${(fit.residualRms * 100).toFixed(3)} % of the radius, phase coverage ${fit.coverage.toFixed(3)} of a fringe, ${fit.samples} samples`,
+      ...formatPeriodicError(result),
+      ...scale.notes.map((note) => `note        ${note}`),
+      `wrote       ${values.out}${values.report === undefined ? '' : ` and report ${values.report}`}`,
+    ];
+    process.stdout.write(lines.join('\n') + '\n');
+  }
+  return 0;
+}
+
+export const calibrate: Command = { name: 'calibrate', summary: 'fit the ellipse correction to a capture and write cal.json', help, run };

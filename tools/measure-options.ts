@@ -1,0 +1,80 @@
+// Options shared by the commands that read captures and measure: channel selection and the length scale.
+import type { OpenCaptureOptions } from '../src/io/capture/index.js';
+import { numberOption, UsageError } from './cli-kit.js';
+
+export const captureOptionSpecs = {
+  'x-channel': { type: 'string' },
+  'y-channel': { type: 'string' },
+  'time-column': { type: 'string' },
+  'rate-hz': { type: 'string' },
+} as const;
+
+export const captureOptionHelp = `Capture options:
+  --x-channel NAME|N    column (CSV) or channel (WAV) of x, by name or 1-based number (default: x / channel 1)
+  --y-channel NAME|N    column or channel of y (default: y / channel 2)
+  --time-column NAME|N  CSV time column in seconds (default: t when present); "none" ignores it
+  --rate-hz R           sample rate, Hz, for CSV files without a t column or rate_hz metadata`;
+
+export const measureOptionSpecs = {
+  'wavelength-nm': { type: 'string' },
+  fold: { type: 'string' },
+  'refractive-index': { type: 'string' },
+  'bandwidth-hz': { type: 'string' },
+} as const;
+
+export const measureOptionHelp = `Measurement options:
+  --wavelength-nm L      vacuum wavelength, nm (e.g. 632.9908, unstabilised He-Ne)
+  --fold N               optical fold: 2 single pass (retroreflector), 4 double-pass plane mirror
+  --refractive-index n   refractive index of air on the path (default 1: the vacuum wavelength is used as is)
+  --bandwidth-hz B       velocity loop bandwidth, Hz (default rate/100)`;
+
+function selector(text: string): string | number {
+  return /^[0-9]+$/.test(text) ? Number(text) : text;
+}
+
+export function captureOptionsOf(values: Record<string, string | boolean | undefined>): OpenCaptureOptions {
+  const text = (name: string) => values[name] as string | undefined;
+  const timeColumn = text('time-column');
+  const rateHz = numberOption('rate-hz', text('rate-hz'));
+  return {
+    ...(text('x-channel') === undefined ? {} : { xChannel: selector(text('x-channel')!) }),
+    ...(text('y-channel') === undefined ? {} : { yChannel: selector(text('y-channel')!) }),
+    ...(timeColumn === undefined ? {} : { timeColumn: timeColumn === 'none' ? null : selector(timeColumn) }),
+    ...(rateHz === undefined ? {} : { rateHz }),
+  };
+}
+
+export interface LengthScale {
+  readonly wavelengthM: number;
+  readonly fold: number;
+  readonly refractiveIndex: number;
+  readonly bandwidthHz?: number;
+  /** Lines telling the user which defaults were used. */
+  readonly notes: readonly string[];
+}
+
+/** The length scale from the options; `required` lists the options that have no default for this command. */
+export function lengthScaleOf(
+  values: Record<string, string | boolean | undefined>,
+  defaults: { wavelengthNm?: number; fold?: number },
+): LengthScale {
+  const notes: string[] = [];
+  const wavelengthNm = numberOption('wavelength-nm', values['wavelength-nm'] as string | undefined);
+  const fold = numberOption('fold', values.fold as string | undefined);
+  const refractiveIndex = numberOption('refractive-index', values['refractive-index'] as string | undefined);
+  const bandwidthHz = numberOption('bandwidth-hz', values['bandwidth-hz'] as string | undefined);
+  const resolvedWavelength = wavelengthNm ?? defaults.wavelengthNm;
+  const resolvedFold = fold ?? defaults.fold;
+  if (resolvedWavelength === undefined) throw new UsageError('--wavelength-nm is required');
+  if (resolvedFold === undefined) throw new UsageError('--fold is required');
+  if (wavelengthNm === undefined) notes.push(`vacuum wavelength not given: using ${resolvedWavelength} nm (unstabilised He-Ne)`);
+  if (fold === undefined) notes.push(`fold not given: using ${resolvedFold}`);
+  if (refractiveIndex === undefined) notes.push('no refractive index or environment given: the vacuum wavelength is used (n = 1)');
+  return {
+    wavelengthM: resolvedWavelength * 1e-9,
+    fold: resolvedFold,
+    refractiveIndex: refractiveIndex ?? 1,
+    ...(bandwidthHz === undefined ? {} : { bandwidthHz }),
+    notes,
+  };
+}

@@ -1,0 +1,257 @@
+// Text summaries and the self-contained HTML report (plain inline SVG, no scripts, no network) of calibrate and replay.
+import { writeFile, rename } from 'node:fs/promises';
+import { alarmNames, alarmKinds, type AlarmKind, type EllipseCalibration, type EllipseFitResult } from '../src/core/index.js';
+import type { Envelope, PeriodicErrorResult, RunResult } from './capture-run.js';
+import type { LengthScale } from './measure-options.js';
+import { LASER_CAUTION } from './cli-kit.js';
+
+const nm = (metres: number) => (metres * 1e9).toFixed(3);
+
+export function formatCalibration(c: EllipseCalibration, units: string): string[] {
+  return [
+    `offsetX     ${c.offsetX.toFixed(4)} ${units}`,
+    `offsetY     ${c.offsetY.toFixed(4)} ${units}`,
+    `amplitudeX  ${c.amplitudeX.toFixed(4)} ${units}`,
+    `amplitudeY  ${c.amplitudeY.toFixed(4)} ${units}`,
+    `phaseError  ${c.phaseErrorRad.toFixed(6)} rad (${((c.phaseErrorRad * 180) / Math.PI).toFixed(4)}°)`,
+  ];
+}
+
+function periodicRow(label: string, result: PeriodicErrorResult, metresPerRad: number): string {
+  const s = result.summary;
+  if (s.samples === 0) return `${label}  no samples of steady motion to measure it`;
+  return (
+    `${label}  p-p ${nm(s.peakToPeakRad * metresPerRad)} nm, RMS ${nm(s.rmsRad * metresPerRad)} nm, ` +
+    `1st harmonic ${nm(s.firstHarmonicRad * metresPerRad)} nm, 2nd harmonic ${nm(s.secondHarmonicRad * metresPerRad)} nm ` +
+    `(${s.samples} samples, ${(s.binCoverage * 100).toFixed(0)} % of the phase bins)`
+  );
+}
+
+export function formatPeriodicError(run: RunResult): string[] {
+  return [
+    'periodic error (amplitudes of the harmonics; p-p and RMS of the phase-binned mean):',
+    periodicRow('  before', run.before, run.metresPerRad),
+    periodicRow('  after ', run.after, run.metresPerRad),
+  ];
+}
+
+export interface ReportInput {
+  readonly title: string;
+  readonly calibration: EllipseCalibration;
+  readonly fit: EllipseFitResult | null;
+  readonly run: RunResult;
+  readonly scale: LengthScale;
+  readonly notes: readonly string[];
+}
+
+const escape = (text: string) => text.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
+
+function niceRange(values: readonly number[]): [number, number] {
+  let low = Infinity;
+  let high = -Infinity;
+  for (const value of values) {
+    if (!Number.isFinite(value)) continue;
+    if (value < low) low = value;
+    if (value > high) high = value;
+  }
+  if (!Number.isFinite(low)) return [0, 1];
+  if (low === high) return [low - 1, high + 1];
+  const pad = (high - low) * 0.05;
+  return [low - pad, high + pad];
+}
+
+interface Frame {
+  readonly width: number;
+  readonly height: number;
+  readonly left: number;
+  readonly bottom: number;
+  readonly x: [number, number];
+  readonly y: [number, number];
+}
+
+const px = (frame: Frame, value: number) =>
+  frame.left + ((value - frame.x[0]) / (frame.x[1] - frame.x[0])) * (frame.width - frame.left - 10);
+const py = (frame: Frame, value: number) =>
+  frame.height - frame.bottom - ((value - frame.y[0]) / (frame.y[1] - frame.y[0])) * (frame.height - frame.bottom - 10);
+
+function axes(frame: Frame, xLabel: string, yLabel: string): string {
+  const ticks = (range: [number, number]) => [0, 0.25, 0.5, 0.75, 1].map((f) => range[0] + f * (range[1] - range[0]));
+  const xTicks = ticks(frame.x)
+    .map((v) => `<text x="${px(frame, v).toFixed(1)}" y="${frame.height - frame.bottom + 14}" text-anchor="middle">${v.toPrecision(3)}</text>`)
+    .join('');
+  const yTicks = ticks(frame.y)
+    .map((v) => `<text x="${frame.left - 4}" y="${(py(frame, v) + 4).toFixed(1)}" text-anchor="end">${v.toPrecision(3)}</text>`)
+    .join('');
+  return (
+    `<rect x="${frame.left}" y="10" width="${frame.width - frame.left - 10}" height="${frame.height - frame.bottom - 10}" class="plot-area"/>` +
+    xTicks +
+    yTicks +
+    `<text x="${(frame.left + frame.width) / 2}" y="${frame.height - 4}" text-anchor="middle">${escape(xLabel)}</text>` +
+    `<text x="10" y="${(frame.height - frame.bottom) / 2}" transform="rotate(-90 10 ${(frame.height - frame.bottom) / 2})" text-anchor="middle">${escape(yLabel)}</text>`
+  );
+}
+
+function svg(frame: Frame, body: string, label: string): string {
+  return `<svg class="plot" role="img" aria-label="${escape(label)}" viewBox="0 0 ${frame.width} ${frame.height}" width="${frame.width}" height="${frame.height}">${body}</svg>`;
+}
+
+function scatter(title: string, xs: readonly number[], ys: readonly number[], curve: Array<[number, number]>, xLabel: string, yLabel: string): string {
+  const [x0, x1] = niceRange([...xs, ...curve.map((p) => p[0])]);
+  const [y0, y1] = niceRange([...ys, ...curve.map((p) => p[1])]);
+  // Equal scales on both axes: a circle must look like one.
+  const span = Math.max(x1 - x0, y1 - y0);
+  const cx = (x0 + x1) / 2;
+  const cy = (y0 + y1) / 2;
+  const frame: Frame = { width: 390, height: 380, left: 66, bottom: 34, x: [cx - span / 2, cx + span / 2], y: [cy - span / 2, cy + span / 2] };
+  const dots = xs.map((x, k) => `M${px(frame, x).toFixed(1)} ${py(frame, ys[k]!).toFixed(1)}h0.1`).join('');
+  const line = curve.map(([x, y], k) => `${k === 0 ? 'M' : 'L'}${px(frame, x).toFixed(1)} ${py(frame, y).toFixed(1)}`).join('') + 'Z';
+  return svg(frame, axes(frame, xLabel, yLabel) + `<path class="samples" d="${dots}"/><path class="model" d="${line}"/>`, title);
+}
+
+function ellipseCurve(c: EllipseCalibration): Array<[number, number]> {
+  return Array.from({ length: 121 }, (_, k) => {
+    const phi = (k / 120) * 2 * Math.PI;
+    return [c.amplitudeX * Math.cos(phi) + c.offsetX, c.amplitudeY * Math.sin(phi + c.phaseErrorRad) + c.offsetY] as [number, number];
+  });
+}
+
+const unitCircle = Array.from({ length: 121 }, (_, k) => [Math.cos((k / 120) * 2 * Math.PI), Math.sin((k / 120) * 2 * Math.PI)] as [number, number]);
+
+function periodicPlot(before: PeriodicErrorResult, after: PeriodicErrorResult): string {
+  const bins = before.binnedM.length;
+  const centre = (b: number) => ((b + 0.5) / bins) * 360;
+  const toNm = (values: Float64Array) => {
+    const finite = Array.from(values).filter(Number.isFinite);
+    const mean = finite.reduce((a, b) => a + b, 0) / Math.max(1, finite.length);
+    return Array.from(values, (v) => (v - mean) * 1e9);
+  };
+  const b = toNm(before.binnedM);
+  const a = toNm(after.binnedM);
+  const frame: Frame = { width: 560, height: 300, left: 60, bottom: 34, x: [0, 360], y: niceRange([...b, ...a]) };
+  const path = (values: number[]) =>
+    values
+      .map((v, k) => (Number.isFinite(v) ? `${k === 0 || !Number.isFinite(values[k - 1]!) ? 'M' : 'L'}${px(frame, centre(k)).toFixed(1)} ${py(frame, v).toFixed(1)}` : ''))
+      .join('');
+  return svg(
+    frame,
+    axes(frame, 'fringe phase (degrees)', 'periodic error (nm)') +
+      `<path class="before" d="${path(b)}"/><path class="after" d="${path(a)}"/>` +
+      `<text x="${frame.width - 150}" y="28" class="before-label">before correction</text>` +
+      `<text x="${frame.width - 150}" y="44" class="after-label">after correction</text>`,
+    'periodic error against phase',
+  );
+}
+
+/** Span colours, shared by the SVG fills and the legend. */
+const ALARM_COLOUR: Record<AlarmKind, string> = {
+  lowSignal: '#ecc94b66',
+  saturation: '#ed893666',
+  badSample: '#80808066',
+  overspeed: '#9f7aea66',
+  inputGap: '#4a556866',
+  countLost: '#e53e3e55',
+};
+
+const ALARM_CLASS: Record<AlarmKind, string> = {
+  lowSignal: 'span-low',
+  saturation: 'span-sat',
+  badSample: 'span-bad',
+  overspeed: 'span-over',
+  inputGap: 'span-gap',
+  countLost: 'span-lost',
+};
+
+function timePlot(series: Envelope, scale: number, yLabel: string, run: RunResult, label: string): string {
+  const endS = series.t.length > 0 ? series.t[series.t.length - 1]! : 1;
+  const frame: Frame = {
+    width: 760,
+    height: 260,
+    left: 70,
+    bottom: 34,
+    x: [0, Math.max(endS, 1e-9)],
+    y: niceRange([...series.min.map((v) => v * scale), ...series.max.map((v) => v * scale)]),
+  };
+  const spans = run.alarmSpans
+    .map((span) => {
+      const start = px(frame, span.startS);
+      const end = px(frame, Number.isNaN(span.endS) ? endS : span.endS);
+      return `<rect class="${ALARM_CLASS[span.kind]}" x="${start.toFixed(1)}" y="10" width="${Math.max(1, end - start).toFixed(1)}" height="${frame.height - frame.bottom - 10}"><title>${alarmNames[span.kind]}</title></rect>`;
+    })
+    .join('');
+  const upper = series.t.map((t, k) => `${k === 0 ? 'M' : 'L'}${px(frame, t).toFixed(1)} ${py(frame, series.max[k]! * scale).toFixed(1)}`).join('');
+  const lower = series.t
+    .map((t, k) => `L${px(frame, t).toFixed(1)} ${py(frame, series.min[k]! * scale).toFixed(1)}`)
+    .reverse()
+    .join('');
+  return svg(frame, axes(frame, 'time (s)', yLabel) + spans + `<path class="trace" d="${upper}${lower}Z"/>`, label);
+}
+
+export function reportHtml(input: ReportInput): string {
+  const { run, calibration, fit, scale } = input;
+  const rows: Array<[string, string]> = [
+    ['capture', `${run.info.file} (${run.info.format}, ${run.samples} samples at ${run.info.rateHz} Hz, ${run.info.sampleEncoding})`],
+    ['vacuum wavelength', `${(scale.wavelengthM * 1e9).toFixed(4)} nm`],
+    ['fold', String(scale.fold)],
+    ['refractive index', `${scale.refractiveIndex}${scale.notes.some((n) => n.includes('n = 1')) ? ' (default: vacuum wavelength used)' : ''}`],
+    ['offsetX, offsetY', `${calibration.offsetX.toFixed(3)}, ${calibration.offsetY.toFixed(3)}`],
+    ['amplitudeX, amplitudeY', `${calibration.amplitudeX.toFixed(3)}, ${calibration.amplitudeY.toFixed(3)}`],
+    ['phaseErrorRad', calibration.phaseErrorRad.toFixed(6)],
+  ];
+  if (fit !== null && fit.ok) {
+    rows.push(['fit residual', `${(fit.residualRms * 100).toFixed(3)} % of the radius`]);
+    rows.push(['phase coverage', `${fit.coverage.toFixed(3)} of a fringe`]);
+  }
+  const pe = (label: string, r: PeriodicErrorResult) => {
+    const s = r.summary;
+    rows.push([
+      `periodic error ${label}`,
+      s.samples === 0
+        ? 'not measured (no steady motion)'
+        : `p-p ${nm(s.peakToPeakRad * run.metresPerRad)} nm, RMS ${nm(s.rmsRad * run.metresPerRad)} nm, 1st ${nm(s.firstHarmonicRad * run.metresPerRad)} nm, 2nd ${nm(s.secondHarmonicRad * run.metresPerRad)} nm`,
+    ]);
+  };
+  pe('before', run.before);
+  pe('after', run.after);
+  rows.push(['final position', `${(run.finalPositionM * 1e6).toFixed(6)} µm${run.countLostAtEnd ? ' — COUNT LOST: not trustworthy' : ''}`]);
+  rows.push(['unambiguous speed limit', `${run.speedLimits.unambiguousMS.toPrecision(4)} m/s (overspeed alarm at ${run.speedLimits.overspeedMS.toPrecision(4)} m/s)`]);
+  rows.push(['alarms raised', alarmKinds.map((kind) => `${alarmNames[kind]} ${run.alarmCounts[kind]}`).join(', ')]);
+  const table = rows.map(([k, v]) => `<tr><th>${escape(k)}</th><td>${escape(v)}</td></tr>`).join('');
+  const legend = alarmKinds.map((kind) => `<span class="key ${ALARM_CLASS[kind]}"></span>${alarmNames[kind]}`).join(' ');
+  return `<!doctype html>
+<html lang="en"><head><meta charset="utf-8"><title>${escape(input.title)}</title>
+<style>
+body { font: 14px/1.4 system-ui, sans-serif; margin: 24px; color: #1c1c1c; background: #fafafa; }
+h1 { font-size: 20px; } h2 { font-size: 16px; margin-top: 28px; }
+table { border-collapse: collapse; } th, td { text-align: left; padding: 3px 12px 3px 0; vertical-align: top; } th { font-weight: 600; }
+.plot { background: #fff; margin: 6px 12px 6px 0; } .plot text { font-size: 11px; fill: #333; }
+.plot-area { fill: none; stroke: #999; }
+.samples { stroke: #2b6cb0; stroke-width: 3; stroke-linecap: round; } .model { fill: none; stroke: #c05621; stroke-width: 1; stroke-dasharray: 4 3; }
+.before { fill: none; stroke: #c05621; stroke-width: 2; } .after { fill: none; stroke: #2f855a; stroke-width: 2; }
+.before-label { fill: #c05621 !important; } .after-label { fill: #2f855a !important; }
+.trace { fill: #2b6cb0; stroke: #2b6cb0; stroke-width: 1; }
+${alarmKinds.map((kind) => `.${ALARM_CLASS[kind]} { fill: ${ALARM_COLOUR[kind]}; background: ${ALARM_COLOUR[kind]}; }`).join(' ')}
+.key { display: inline-block; width: 12px; height: 12px; margin: 0 4px 0 10px; vertical-align: middle; }
+.caution { border-left: 4px solid #c05621; padding: 6px 12px; background: #fff; max-width: 760px; }
+</style></head><body>
+<h1>${escape(input.title)}</h1>
+<table>${table}</table>
+${input.notes.length > 0 ? `<p>${input.notes.map(escape).join('<br>')}</p>` : ''}
+<h2>Lissajous figure</h2>
+<div>${scatter('Lissajous figure before correction', run.report.raw.x, run.report.raw.y, ellipseCurve(calibration), 'x (capture units)', 'y (capture units)')}${scatter('Lissajous figure after correction', run.report.corrected.x, run.report.corrected.y, unitCircle, 'u = cos φ', 'v = sin φ')}</div>
+<p>Left: raw samples with the fitted ellipse. Right: corrected samples with the unit circle.</p>
+<h2>Periodic error against phase</h2>
+${periodicPlot(run.before, run.after)}
+<h2>Position and velocity</h2>
+<p>Shaded spans: ${legend}</p>
+${timePlot(run.report.position, 1e6, 'position (µm)', run, 'position against time')}
+${timePlot(run.report.velocity, 1e3, 'velocity (mm/s)', run, 'velocity against time')}
+<p class="caution">${escape(LASER_CAUTION).replace(/\n/g, '<br>')}</p>
+</body></html>
+`;
+}
+
+export async function writeReportFile(path: string, input: ReportInput): Promise<void> {
+  const temporary = `${path}.partial-${process.pid}`;
+  await writeFile(temporary, reportHtml(input));
+  await rename(temporary, path);
+}
