@@ -102,6 +102,8 @@ export interface MeasureSettings {
   readonly fold: number;
   readonly refractiveIndex: number;
   readonly bandwidthHz?: number;
+  /** Factor applied to positions and velocities, e.g. the normalisation to 20 °C; default 1. */
+  readonly positionScale?: number;
 }
 
 /** A decimated time series: min and max of each bucket, with the bucket doubling when the store is full. */
@@ -223,6 +225,7 @@ const SIGNAL_TROUBLE = AlarmBit.lowSignal | AlarmBit.saturation | AlarmBit.badSa
 /** Runs the whole pipeline over a capture, writing rows to the writer if one is given. */
 export async function runCapture(path: string, options: RunOptions): Promise<RunResult> {
   const { calibration, settings, writer, progress } = options;
+  const positionScale = settings.positionScale ?? 1;
   const capture = await openCapture(path, { ...options.open, blockSize: BLOCK });
   const info = capture.info;
   const fromFile = adcOf(info);
@@ -270,6 +273,12 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
       const n = block.length;
       events.length = 0;
       pipeline.process(block.x, block.y, n, output, events);
+      if (positionScale !== 1) {
+        for (let i = 0; i < n; i++) {
+          output.positionM[i] = output.positionM[i]! * positionScale;
+          output.velocityMS[i] = output.velocityMS[i]! * positionScale;
+        }
+      }
       if (writer !== undefined) {
         await writer.write({ firstIndex: block.firstIndex, length: n, t: block.t, rateHz: info.rateHz, ...output });
       }

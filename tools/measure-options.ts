@@ -47,7 +47,8 @@ export function captureOptionsOf(values: Record<string, string | boolean | undef
 export interface LengthScale {
   readonly wavelengthM: number;
   readonly fold: number;
-  readonly refractiveIndex: number;
+  /** As given on the command line; undefined when the environment (or the default n = 1) decides. */
+  readonly refractiveIndex: number | undefined;
   readonly bandwidthHz?: number;
   /** Lines telling the user which defaults were used. */
   readonly notes: readonly string[];
@@ -69,11 +70,10 @@ export function lengthScaleOf(
   if (resolvedFold === undefined) throw new UsageError('--fold is required');
   if (wavelengthNm === undefined) notes.push(`vacuum wavelength not given: using ${resolvedWavelength} nm (unstabilised He-Ne)`);
   if (fold === undefined) notes.push(`fold not given: using ${resolvedFold}`);
-  if (refractiveIndex === undefined) notes.push('no refractive index or environment given: the vacuum wavelength is used (n = 1)');
   return {
     wavelengthM: resolvedWavelength * 1e-9,
     fold: resolvedFold,
-    refractiveIndex: refractiveIndex ?? 1,
+    refractiveIndex,
     ...(bandwidthHz === undefined ? {} : { bandwidthHz }),
     notes,
   };

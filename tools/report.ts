@@ -2,7 +2,8 @@
 import { writeFile, rename } from 'node:fs/promises';
 import { alarmNames, alarmKinds, type AlarmKind, type EllipseCalibration, type EllipseFitResult } from '../src/core/index.js';
 import type { Envelope, PeriodicErrorResult, RunResult } from './capture-run.js';
-import type { LengthScale } from './measure-options.js';
+import type { MeasureSettings } from './capture-run.js';
+import type { UncertaintyBudget } from '../src/core/index.js';
 import { LASER_CAUTION } from './cli-kit.js';
 
 const nm = (metres: number) => (metres * 1e9).toFixed(3);
@@ -40,8 +41,10 @@ export interface ReportInput {
   readonly calibration: EllipseCalibration;
   readonly fit: EllipseFitResult | null;
   readonly run: RunResult;
-  readonly scale: LengthScale;
+  readonly settings: MeasureSettings;
   readonly notes: readonly string[];
+  /** The GUM budget of the final reading, or null when no environment was given. */
+  readonly budget: UncertaintyBudget | null;
 }
 
 const escape = (text: string) => text.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
@@ -187,12 +190,12 @@ function timePlot(series: Envelope, scale: number, yLabel: string, run: RunResul
 }
 
 export function reportHtml(input: ReportInput): string {
-  const { run, calibration, fit, scale } = input;
+  const { run, calibration, fit, settings: scale } = input;
   const rows: Array<[string, string]> = [
     ['capture', `${run.info.file} (${run.info.format}, ${run.samples} samples at ${run.info.rateHz} Hz, ${run.info.sampleEncoding})`],
     ['vacuum wavelength', `${(scale.wavelengthM * 1e9).toFixed(4)} nm`],
     ['fold', String(scale.fold)],
-    ['refractive index', `${scale.refractiveIndex}${scale.notes.some((n) => n.includes('n = 1')) ? ' (default: vacuum wavelength used)' : ''}`],
+    ['refractive index', `${scale.refractiveIndex}${input.notes.some((n) => n.includes('n = 1')) ? ' (default: vacuum wavelength used)' : ''}`],
     ['offsetX, offsetY', `${calibration.offsetX.toFixed(3)}, ${calibration.offsetY.toFixed(3)}`],
     ['amplitudeX, amplitudeY', `${calibration.amplitudeX.toFixed(3)}, ${calibration.amplitudeY.toFixed(3)}`],
     ['phaseErrorRad', calibration.phaseErrorRad.toFixed(6)],
@@ -215,6 +218,12 @@ export function reportHtml(input: ReportInput): string {
   rows.push(['final position', `${(run.finalPositionM * 1e6).toFixed(6)} µm${run.countLostAtEnd ? ' — COUNT LOST: not trustworthy' : ''}`]);
   rows.push(['unambiguous speed limit', `${run.speedLimits.unambiguousMS.toPrecision(4)} m/s (overspeed alarm at ${run.speedLimits.overspeedMS.toPrecision(4)} m/s)`]);
   rows.push(['alarms raised', alarmKinds.map((kind) => `${alarmNames[kind]} ${run.alarmCounts[kind]}`).join(', ')]);
+  if (input.budget !== null) {
+    rows.push([
+      'uncertainty of the final reading',
+      `u = ${nm(input.budget.combinedStandardUncertaintyM)} nm, U = ${nm(input.budget.expandedUncertaintyM)} nm (k = ${input.budget.coverageFactor})`,
+    ]);
+  }
   const table = rows.map(([k, v]) => `<tr><th>${escape(k)}</th><td>${escape(v)}</td></tr>`).join('');
   const legend = alarmKinds.map((kind) => `<span class="key ${ALARM_CLASS[kind]}"></span>${alarmNames[kind]}`).join(' ');
   return `<!doctype html>
@@ -236,6 +245,7 @@ ${alarmKinds.map((kind) => `.${ALARM_CLASS[kind]} { fill: ${ALARM_COLOUR[kind]};
 <h1>${escape(input.title)}</h1>
 <table>${table}</table>
 ${input.notes.length > 0 ? `<p>${input.notes.map(escape).join('<br>')}</p>` : ''}
+${input.budget === null ? '<p>No environment given: no uncertainty budget (the reading uses the vacuum wavelength; in air it reads about 270 ppm long).</p>' : budgetTable(input.budget)}
 <h2>Lissajous figure</h2>
 <div>${scatter('Lissajous figure before correction', run.report.raw.x, run.report.raw.y, ellipseCurve(calibration), 'x (capture units)', 'y (capture units)')}${scatter('Lissajous figure after correction', run.report.corrected.x, run.report.corrected.y, unitCircle, 'u = cos φ', 'v = sin φ')}</div>
 <p>Left: raw samples with the fitted ellipse. Right: corrected samples with the unit circle.</p>
@@ -248,6 +258,21 @@ ${timePlot(run.report.velocity, 1e3, 'velocity (mm/s)', run, 'velocity against t
 <p class="caution">${escape(LASER_CAUTION).replace(/\n/g, '<br>')}</p>
 </body></html>
 `;
+}
+
+/** The GUM budget as a table: the law of propagation with uncorrelated inputs. */
+function budgetTable(budget: UncertaintyBudget): string {
+  const rows = budget.contributions
+    .map(
+      (row) =>
+        `<tr><td>${escape(row.name)}</td><td>${row.standardUncertainty.toPrecision(3)} ${escape(row.unit)}</td>` +
+        `<td>${row.sensitivity.toPrecision(3)} ${escape(row.sensitivityUnit)}</td><td>${nm(row.contributionM)}</td></tr>`,
+    )
+    .join('');
+  return `<h2>Uncertainty budget of the final reading (GUM, inputs uncorrelated)</h2>
+<table class="budget"><tr><th>input</th><th>standard uncertainty</th><th>sensitivity</th><th>contribution (nm)</th></tr>${rows}
+<tr><th>combined standard uncertainty</th><td></td><td></td><th>${nm(budget.combinedStandardUncertaintyM)}</th></tr>
+<tr><th>expanded uncertainty (k = ${budget.coverageFactor})</th><td></td><td></td><th>${nm(budget.expandedUncertaintyM)}</th></tr></table>`;
 }
 
 export async function writeReportFile(path: string, input: ReportInput): Promise<void> {

@@ -54,13 +54,16 @@ async function run(argv: readonly string[]): Promise<number> {
     process.stderr.write(`fringetally calibrate: ${path}: calibration refused: ${fit.message}\n`);
     return 1;
   }
-  const result = await runCapture(path, { open, calibration: fit.calibration, settings: scale, progress });
+  // The index only scales the nm figures here; the calibration itself does not depend on it.
+  const settings = { ...scale, refractiveIndex: scale.refractiveIndex ?? 1 };
+  const notes = [...scale.notes, ...(scale.refractiveIndex === undefined ? ['periodic error in nm at n = 1 (vacuum wavelength)'] : [])];
+  const result = await runCapture(path, { open, calibration: fit.calibration, settings, progress });
   const file = calibrationFileOf(fit, info);
   const temporary = `${values.out}.partial-${process.pid}`;
   await writeFile(temporary, JSON.stringify(file, null, 2) + '\n');
   await rename(temporary, values.out);
   if (values.report !== undefined) {
-    await writeReportFile(values.report, { title: `Calibration of ${path}`, calibration: fit.calibration, fit, run: result, scale, notes: scale.notes });
+    await writeReportFile(values.report, { title: `Calibration of ${path}`, calibration: fit.calibration, fit, run: result, settings, notes, budget: null });
   }
   if (!quiet) {
     const lines = [
@@ -68,7 +71,7 @@ async function run(argv: readonly string[]): Promise<number> {
       ...formatCalibration(fit.calibration, file.units),
       `fit         residual ${(fit.residualRms * 100).toFixed(3)} % of the radius, phase coverage ${fit.coverage.toFixed(3)} of a fringe, ${fit.samples} samples`,
       ...formatPeriodicError(result),
-      ...scale.notes.map((note) => `note        ${note}`),
+      ...notes.map((note) => `note        ${note}`),
       `wrote       ${values.out}${values.report === undefined ? '' : ` and report ${values.report}`}`,
     ];
     process.stdout.write(lines.join('\n') + '\n');

@@ -8,6 +8,7 @@ import { readCalibrationFile } from '../calibration-file.js';
 import { captureOptionHelp, captureOptionSpecs, captureOptionsOf, lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
 import { createProgress } from '../progress.js';
 import { formatPeriodicError, writeReportFile } from '../report.js';
+import { budgetOf, environmentOf, environmentOptionHelp, environmentOptionSpecs, withConfig } from '../environment-options.js';
 
 const help = `Usage: fringetally replay <capture.csv|capture.wav> --wavelength-nm L --fold N --out result.csv|result.jsonl
                           [--calibration cal.json] [--every N] [--report report.html] [options]
@@ -26,12 +27,16 @@ Options:
   --report FILE          also write a self-contained HTML report
   --quiet                no progress bar and no summary
 ${measureOptionHelp}
+${environmentOptionHelp}
 ${captureOptionHelp}
+
+The summary gives the final reading with its combined and expanded uncertainty (GUM) when the environment is
+given; the report holds the whole budget.
 
 ${LASER_CAUTION}`;
 
 async function run(argv: readonly string[]): Promise<number> {
-  const { values, positionals } = parseCommandLine(
+  const parsed = parseCommandLine(
     argv,
     {
       out: { type: 'string' },
@@ -41,31 +46,42 @@ async function run(argv: readonly string[]): Promise<number> {
       report: { type: 'string' },
       quiet: { type: 'boolean' },
       ...measureOptionSpecs,
+      ...environmentOptionSpecs,
       ...captureOptionSpecs,
     },
     true,
   );
-  if (positionals.length !== 1) throw new UsageError('give exactly one capture file');
-  const path = positionals[0]!;
-  const out = values.out;
+  const values = withConfig(parsed.values);
+  if (parsed.positionals.length !== 1) throw new UsageError('give exactly one capture file');
+  const path = parsed.positionals[0]!;
+  const out = values.out as string | undefined;
   if (out === undefined) throw new UsageError('--out is required');
   const extension = extname(out).toLowerCase();
   const formatText = values.format ?? (extension === '.jsonl' ? 'jsonl' : extension === '.csv' ? 'csv' : undefined);
   if (formatText !== 'csv' && formatText !== 'jsonl') throw new UsageError(`cannot tell the result format of "${out}": use .csv, .jsonl or --format csv|jsonl`);
-  const every = numberOption('every', values.every) ?? 1;
+  const every = numberOption('every', values.every as string | undefined) ?? 1;
   if (!Number.isInteger(every) || every < 1) throw new UsageError(`--every must be a positive integer (got ${values.every})`);
   const quiet = values.quiet === true;
   const scale = lengthScaleOf(values, {});
+  const environment = environmentOf(values, scale.wavelengthM, scale.refractiveIndex);
+  const settings = {
+    wavelengthM: scale.wavelengthM,
+    fold: scale.fold,
+    refractiveIndex: environment.refractiveIndex,
+    positionScale: environment.thermalFactor,
+    ...(scale.bandwidthHz === undefined ? {} : { bandwidthHz: scale.bandwidthHz }),
+  };
+  const notes = [...scale.notes, ...environment.notes];
   const open = captureOptionsOf(values);
   const progress = createProgress(quiet);
   const say = (line: string) => {
     if (!quiet) process.stderr.write(line + '\n');
   };
-  for (const note of scale.notes) say(`note: ${note}`);
+  for (const note of notes) say(`note: ${note}`);
 
   let calibration;
   let fit = null;
-  if (values.calibration !== undefined) {
+  if (typeof values.calibration === 'string') {
     calibration = await readCalibrationFile(values.calibration);
   } else {
     say(`no --calibration given: fitting the correction to ${path} first`);
@@ -81,25 +97,29 @@ async function run(argv: readonly string[]): Promise<number> {
   const writer = await createResultWriter(out, { format: formatText as ResultFormat, every });
   let result;
   try {
-    result = await runCapture(path, { open, calibration, settings: scale, writer, progress });
+    result = await runCapture(path, { open, calibration, settings, writer, progress });
     await writer.close();
   } catch (error) {
     await writer.abort();
     throw error;
   }
-  if (values.report !== undefined) {
-    await writeReportFile(values.report, { title: `Replay of ${path}`, calibration, fit, run: result, scale, notes: scale.notes });
+  const residualAmplitudeM = Math.max(result.after.summary.firstHarmonicRad, result.after.summary.secondHarmonicRad) * result.metresPerRad;
+  const budget = budgetOf(environment, result.finalPositionM, Number.isFinite(residualAmplitudeM) ? residualAmplitudeM : 0);
+  if (typeof values.report === 'string') {
+    await writeReportFile(values.report, { title: `Replay of ${path}`, calibration, fit, run: result, settings, notes, budget });
   }
   if (!quiet) {
     const raised = alarmKinds.filter((kind) => result.alarmCounts[kind] > 0).map((kind) => `${alarmNames[kind]} ×${result.alarmCounts[kind]}`);
     const lines = [
       ...(result.adcStated ? [] : ['note: the capture does not state its ADC format: saturation is not detected']),
       `replayed ${result.samples} samples at ${result.info.rateHz} Hz; wrote ${writer.rowsWritten} rows to ${out}`,
-      `final position ${(result.finalPositionM * 1e6).toFixed(6)} µm${result.countLostAtEnd ? ' — COUNT LOST: not trustworthy until re-referenced' : ''}`,
+      `final position ${(result.finalPositionM * 1e6).toFixed(6)} µm` +
+        (budget === null ? '' : ` ± ${(budget.expandedUncertaintyM * 1e9).toFixed(3)} nm (U, k = ${budget.coverageFactor}; u = ${(budget.combinedStandardUncertaintyM * 1e9).toFixed(3)} nm)`) +
+        (result.countLostAtEnd ? ' — COUNT LOST: not trustworthy until re-referenced' : ''),
       `alarms raised: ${raised.length === 0 ? 'none' : raised.join(', ')}`,
       `speed limit ${result.speedLimits.unambiguousMS.toPrecision(4)} m/s unambiguous, overspeed alarm at ${result.speedLimits.overspeedMS.toPrecision(4)} m/s`,
       ...formatPeriodicError(result),
-      ...(values.report === undefined ? [] : [`report: ${values.report}`]),
+      ...(typeof values.report === 'string' ? [`report: ${values.report}`] : []),
     ];
     process.stderr.write(lines.join('\n') + '\n');
   }
