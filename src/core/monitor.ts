@@ -96,6 +96,24 @@ export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalM
   ): number {
     const lowLevel = lowSignalLevel, clearLevel = lowSignalClearLevel, hold = clearHoldSamples;
     const lo = low, hi = high;
+    if (!lowActive && !saturationActive && !badActive) {
+      // Fast path while no alarm is active: levels only, until a sample needs attention. A non-finite sample
+      // fails the level test (NaN) or the saturation test (±Infinity), so it always leaves this loop.
+      let clean = true;
+      for (let i = 0; i < length; i++) {
+        const xi = x[i]!;
+        const yi = y[i]!;
+        const ui = u[i]!;
+        const vi = v[i]!;
+        const lev = Math.sqrt(ui * ui + vi * vi);
+        if (!(lev >= lowLevel) || xi <= lo || xi >= hi || yi <= lo || yi >= hi) {
+          clean = false;
+          break;
+        }
+        level[i] = lev;
+      }
+      if (clean) return length;
+    }
     for (let i = 0; i < length; i++) {
       const xi = x[i]!;
       const yi = y[i]!;

@@ -69,6 +69,43 @@ export interface PhaseTracker {
   readonly options: Readonly<Required<PhaseTrackerOptions>>;
 }
 
+/**
+ * Unwraps a block whose samples are all usable into turns and steps, and says whether every step stayed within
+ * `maxStepRad`; false (outputs then unspecified) when a sample is held or a step is larger.
+ */
+function steadyBlock(
+  phaseRad: Float64Array,
+  level: Float32Array,
+  length: number,
+  minLevel: number,
+  maxStepRad: number,
+  lastPhase: number,
+  turns: number,
+  turnsOut: Float64Array,
+  stepOut: Float64Array,
+): boolean {
+  const pi = Math.PI, twoPi = TWO_PI;
+  let last = lastPhase;
+  let turnsNow = turns;
+  for (let i = 0; i < length; i++) {
+    if (!(level[i]! >= minLevel)) return false;
+    const theta = phaseRad[i]!;
+    let d = theta - last;
+    if (d > pi) {
+      d -= twoPi;
+      turnsNow -= 1;
+    } else if (d <= -pi) {
+      d += twoPi;
+      turnsNow += 1;
+    }
+    if (d > maxStepRad || d < -maxStepRad) return false;
+    last = theta;
+    turnsOut[i] = turnsNow;
+    stepOut[i] = d;
+  }
+  return true;
+}
+
 export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
   const rateHz = positiveFinite('rateHz', options.rateHz);
   const bandwidthHz = numberInRange('bandwidthHz', options.bandwidthHz ?? rateHz / 100, 0, rateHz / 10, true);
@@ -146,7 +183,19 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
     let lost = countLost, over = overspeedActive, overRun = overspeedRun, isStarted = started;
     // The arctangent pass first: a short loop with no carried state, which V8 keeps tight.
     for (let i = 0; i < length; i++) phaseOut[i] = fastAtan2(v[i]!, u[i]!);
-    for (let i = 0; i < length; i++) {
+    if (isStarted && !resume && !over && steadyBlock(phaseOut, level, length, minLev, overStep, last, turnsNow, turnsOut, stepOut)) {
+      // Fast path: every sample usable and every step under the overspeed threshold, so no alarm can change;
+      // stepOut holds the unwrapped steps. The same arithmetic as the full loop below, in shorter loops.
+      for (let i = 0; i < length; i++) {
+        const residual = stepOut[i]! - lagNow - w;
+        w += b * residual;
+        lagNow = (a - 1) * residual;
+        stepOut[i] = w;
+      }
+      if (lost) for (let i = 0; i < length; i++) flags[i] = flags[i]! | countLostBit;
+      turnsNow = turnsOut[length - 1]!;
+      last = phaseOut[length - 1]!;
+    } else for (let i = 0; i < length; i++) {
       const lev = level[i]!;
       if (lev >= minLev) {
         const theta = phaseOut[i]!;
