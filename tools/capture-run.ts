@@ -18,6 +18,7 @@ import {
   type EllipseFitResult,
   type PeriodicErrorSummary,
   type SpeedLimits,
+  type UnwrapMethod,
 } from '../src/core/index.js';
 import { openCapture, type CaptureInfo, type OpenCaptureOptions } from '../src/io/capture/index.js';
 import type { ResultWriter } from '../src/io/results/index.js';
@@ -102,6 +103,7 @@ export interface MeasureSettings {
   readonly fold: number;
   readonly refractiveIndex: number;
   readonly bandwidthHz?: number;
+  readonly unwrap?: UnwrapMethod;
   /** Factor applied to positions and velocities, e.g. the normalisation to 20 °C; default 1. */
   readonly positionScale?: number;
 }
@@ -237,6 +239,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     fold: settings.fold,
     refractiveIndex: settings.refractiveIndex,
     bandwidthHz: settings.bandwidthHz,
+    unwrap: settings.unwrap,
     calibration,
     adc,
   });

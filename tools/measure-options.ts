@@ -1,4 +1,5 @@
 // Options shared by the commands that read captures and measure: channel selection and the length scale.
+import type { UnwrapMethod } from '../src/core/index.js';
 import type { OpenCaptureOptions } from '../src/io/capture/index.js';
 import { numberOption, UsageError } from './cli-kit.js';
 
@@ -20,13 +21,16 @@ export const measureOptionSpecs = {
   fold: { type: 'string' },
   'refractive-index': { type: 'string' },
   'bandwidth-hz': { type: 'string' },
+  unwrap: { type: 'string' },
 } as const;
 
 export const measureOptionHelp = `Measurement options:
   --wavelength-nm L      vacuum wavelength, nm (e.g. 632.9908, unstabilised He-Ne)
   --fold N               optical fold: 2 single pass (retroreflector), 4 double-pass plane mirror
   --refractive-index n   refractive index of air on the path (default 1: the vacuum wavelength is used as is)
-  --bandwidth-hz B       velocity loop bandwidth, Hz (default rate/100)`;
+  --bandwidth-hz B       velocity loop bandwidth, Hz (default rate/100)
+  --unwrap MODE          plain (default: steps under half a fringe per sample) or velocity-aided (up to
+                         0.9 fringe per sample while the acceleration stays within the loop's bound, see docs)`;
 
 function selector(text: string): string | number {
   return /^[0-9]+$/.test(text) ? Number(text) : text;
@@ -50,6 +54,7 @@ export interface LengthScale {
   /** As given on the command line; undefined when the environment (or the default n = 1) decides. */
   readonly refractiveIndex: number | undefined;
   readonly bandwidthHz?: number;
+  readonly unwrap?: UnwrapMethod;
   /** Lines telling the user which defaults were used. */
   readonly notes: readonly string[];
 }
@@ -64,6 +69,10 @@ export function lengthScaleOf(
   const fold = numberOption('fold', values.fold as string | undefined);
   const refractiveIndex = numberOption('refractive-index', values['refractive-index'] as string | undefined);
   const bandwidthHz = numberOption('bandwidth-hz', values['bandwidth-hz'] as string | undefined);
+  const unwrap = values.unwrap as string | undefined;
+  if (unwrap !== undefined && unwrap !== 'plain' && unwrap !== 'velocity-aided') {
+    throw new UsageError(`--unwrap must be plain or velocity-aided (got "${unwrap}")`);
+  }
   const resolvedWavelength = wavelengthNm ?? defaults.wavelengthNm;
   const resolvedFold = fold ?? defaults.fold;
   if (resolvedWavelength === undefined) throw new UsageError('--wavelength-nm is required');
@@ -75,6 +84,7 @@ export function lengthScaleOf(
     fold: resolvedFold,
     refractiveIndex,
     ...(bandwidthHz === undefined ? {} : { bandwidthHz }),
+    ...(unwrap === undefined ? {} : { unwrap }),
     notes,
   };
 }

@@ -7,7 +7,7 @@ import type { EllipseCalibration } from './ellipse.js';
 import { createSignalMonitor, type AdcFormat, type SignalMonitor } from './monitor.js';
 import { integerInRange } from './options.js';
 import { TWO_PI } from './phase.js';
-import { createPhaseTracker, type PhaseTracker } from './tracker.js';
+import { createPhaseTracker, type PhaseTracker, type UnwrapMethod } from './tracker.js';
 
 /** Raw sample blocks the pipeline accepts: ADC integers or floats. */
 export type SampleArray = Int16Array | Uint16Array | Int32Array | Uint32Array | Float32Array | Float64Array;
@@ -27,6 +27,8 @@ export interface PipelineOptions {
   readonly adc?: AdcFormat;
   /** Velocity loop natural frequency in Hz. Default rateHz/100. */
   readonly bandwidthHz?: number;
+  /** Unwrapping: `plain` (default, steps under half a fringe) or `velocity-aided` (see `aidedAccelerationLimit`). */
+  readonly unwrap?: UnwrapMethod;
   /** Low-signal threshold, also the level below which the phase is held. Default 0.3. */
   readonly lowSignalLevel?: number;
   /** Low-signal clear level. Default 0.4. */
@@ -108,6 +110,7 @@ export function createPipeline(options: PipelineOptions): Pipeline {
   });
   const tracker = createPhaseTracker({
     rateHz: options.rateHz,
+    unwrap: options.unwrap,
     bandwidthHz: options.bandwidthHz,
     minLevel: monitor.options.lowSignalLevel,
     overspeedStepRad: options.overspeedStepRad,

@@ -3,28 +3,37 @@
 //
 // The count is kept as whole turns (an integer-valued double, exact to 2^53 fringes) beside the wrapped phase,
 // so the fraction keeps its full precision however many fringes have passed. The unwrap takes the step
-// closest to the loop's prediction of the next step; the plain unwrapper used here predicts zero, and a
-// velocity-aided unwrapper only changes that prediction, not the outputs or the pipeline around it.
+// closest to a prediction of the next step: the plain unwrapper predicts zero (so each step must stay under
+// half a fringe); the velocity-aided unwrapper predicts the loop's own next step, so what must stay under half
+// a fringe is the prediction error, not the motion. Both give the same outputs and alarms otherwise.
 
 import { AlarmBit, type AlarmEvent, type AlarmKind } from './alarms.js';
-import { integerInRange, numberInRange, positiveFinite } from './options.js';
+import { integerInRange, numberInRange, oneOf, positiveFinite } from './options.js';
 import { fastAtan2, TWO_PI } from './phase.js';
+
+export type UnwrapMethod = 'plain' | 'velocity-aided';
 
 export interface PhaseTrackerOptions {
   /** Sample rate in Hz (needed to turn the loop bandwidth into gains). Required. */
   readonly rateHz: number;
+  /**
+   * `plain` (default): steps must stay under half a fringe per sample. `velocity-aided`: steps up to 0.9
+   * fringe per sample, provided the phase acceleration stays within `aidedAccelerationLimit` (see there).
+   */
+  readonly unwrap?: UnwrapMethod;
   /** Natural frequency of the velocity loop in Hz (critically damped, ζ = 1/√2). Default rateHz/100; range (0, rateHz/10]. */
   readonly bandwidthHz?: number;
   /** Samples whose level is below this (or NaN) do not move the phase: it is held. Default 0.3; range (0, 1). */
   readonly minLevel?: number;
   /**
-   * Overspeed alarm when a phase step exceeds this, in rad per sample. Default π/2, a quarter fringe per
-   * sample: half the unambiguous limit of π (common practice design margin). Range (0, countLostStepRad).
+   * Overspeed alarm when a phase step exceeds this, in rad per sample. Plain: default π/2, a quarter fringe
+   * per sample, half the unambiguous limit of π (common practice design margin), range (0, countLostStepRad).
+   * Velocity-aided: default 1.6π (0.8 fringe per sample), range (0, 1.8π).
    */
   readonly overspeedStepRad?: number;
   /**
-   * A step this large may already be an aliased step of more than π: the count-lost latch is set.
-   * Default 3π/4; range (overspeedStepRad, π).
+   * A step this far from its prediction (plain: from zero) may already be aliased by a whole fringe: the
+   * count-lost latch is set. Default 3π/4; range (0, π) (plain: also above overspeedStepRad).
    */
   readonly countLostStepRad?: number;
   /**
@@ -106,20 +115,43 @@ function steadyBlock(
   return true;
 }
 
+/** Velocity-aided steps beyond 0.9 fringe per sample come too close to the fringe-per-sample alias: count lost. */
+const AIDED_MAX_STEP_RAD = 1.8 * Math.PI;
+
+/** Loop gains of the tracker: alpha-beta form of a critically damped (ζ = 1/√2) type-2 loop. */
+function loopGains(rateHz: number, bandwidthHz: number): { alpha: number; beta: number } {
+  const omegaT = (TWO_PI * bandwidthHz) / rateHz;
+  return { alpha: Math.SQRT2 * omegaT, beta: omegaT * omegaT };
+}
+
+/**
+ * The phase acceleration (rad per sample²) under which velocity-aided unwrapping keeps an exact count: half the
+ * loop's slip limit. At constant acceleration A the loop's prediction lags by A·(1 − α)/β; it slips a fringe
+ * when that reaches π. The factor 2 leaves room for the transient overshoot when the acceleration changes and
+ * for phase noise of up to about 0.01 rad (a few tenths of a percent of the radius). In m/s²: multiply by
+ * rateHz² · λ / (2π · fold · n).
+ */
+export function aidedAccelerationLimit(rateHz: number, bandwidthHz: number = rateHz / 100): number {
+  const { alpha, beta } = loopGains(positiveFinite('rateHz', rateHz), positiveFinite('bandwidthHz', bandwidthHz));
+  return (Math.PI * beta) / (2 * (1 - alpha));
+}
+
 export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
   const rateHz = positiveFinite('rateHz', options.rateHz);
   const bandwidthHz = numberInRange('bandwidthHz', options.bandwidthHz ?? rateHz / 100, 0, rateHz / 10, true);
   const minLevel = numberInRange('minLevel', options.minLevel ?? 0.3, 0, 1, true);
+  const unwrap = oneOf('unwrap', options.unwrap ?? 'plain', ['plain', 'velocity-aided'] as const);
+  const aided = unwrap === 'velocity-aided';
   const countLostStepRad = numberInRange('countLostStepRad', options.countLostStepRad ?? (3 * Math.PI) / 4, 0, Math.PI, true);
-  const overspeedStepRad = numberInRange('overspeedStepRad', options.overspeedStepRad ?? Math.PI / 2, 0, countLostStepRad, true);
+  const overspeedStepRad = aided
+    ? numberInRange('overspeedStepRad', options.overspeedStepRad ?? 1.6 * Math.PI, 0, AIDED_MAX_STEP_RAD, true)
+    : numberInRange('overspeedStepRad', options.overspeedStepRad ?? Math.PI / 2, 0, countLostStepRad, true);
   const heldTravelRad = numberInRange('heldTravelRad', options.heldTravelRad ?? Math.PI / 2, 0, Math.PI, true);
   const clearHoldSamples = integerInRange('clearHoldSamples', options.clearHoldSamples ?? 32, 1, 2 ** 31);
-  const resolved = Object.freeze({ rateHz, bandwidthHz, minLevel, overspeedStepRad, countLostStepRad, heldTravelRad, clearHoldSamples });
+  const resolved = Object.freeze({ rateHz, unwrap, bandwidthHz, minLevel, overspeedStepRad, countLostStepRad, heldTravelRad, clearHoldSamples });
 
   // Alpha-beta form of a type-2 loop: zero steady-state error at constant velocity.
-  const omegaT = (TWO_PI * bandwidthHz) / rateHz;
-  const alpha = Math.SQRT2 * omegaT;
-  const beta = omegaT * omegaT;
+  const { alpha, beta } = loopGains(rateHz, bandwidthHz);
 
   let started = false;
   let turns = 0;
@@ -179,11 +211,12 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
     const a = alpha, b = beta, minLev = minLevel, lostStep = countLostStepRad, overStep = overspeedStepRad;
     const overClear = 0.9 * overspeedStepRad, hold = clearHoldSamples, travelLimit = heldTravelRad;
     const pi = Math.PI, twoPi = TWO_PI, overspeedBit = 8, countLostBit = 32; // AlarmBit.overspeed, AlarmBit.countLost
+    const maxStep = aided ? AIDED_MAX_STEP_RAD : Infinity;
     let turnsNow = turns, last = lastPhase, w = step, lagNow = lag, travel = heldTravel, resume = resuming;
     let lost = countLost, over = overspeedActive, overRun = overspeedRun, isStarted = started;
     // The arctangent pass first: a short loop with no carried state, which V8 keeps tight.
     for (let i = 0; i < length; i++) phaseOut[i] = fastAtan2(v[i]!, u[i]!);
-    if (isStarted && !resume && !over && steadyBlock(phaseOut, level, length, minLev, overStep, last, turnsNow, turnsOut, stepOut)) {
+    if (!aided && isStarted && !resume && !over && steadyBlock(phaseOut, level, length, minLev, overStep, last, turnsNow, turnsOut, stepOut)) {
       // Fast path: every sample usable and every step under the overspeed threshold, so no alarm can change;
       // stepOut holds the unwrapped steps. The same arithmetic as the full loop below, in shorter loops.
       for (let i = 0; i < length; i++) {
@@ -204,18 +237,29 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
           last = theta;
         }
         let d = theta - last;
-        if (d > pi) {
-          d -= twoPi;
-          turnsNow -= 1;
-        } else if (d <= -pi) {
-          d += twoPi;
-          turnsNow += 1;
+        let miss: number; // distance of the step from its prediction
+        if (aided) {
+          const predicted = lagNow + w;
+          const wraps = Math.round((d - predicted) / twoPi);
+          d -= wraps * twoPi;
+          turnsNow -= wraps;
+          miss = d - predicted;
+        } else {
+          if (d > pi) {
+            d -= twoPi;
+            turnsNow -= 1;
+          } else if (d <= -pi) {
+            d += twoPi;
+            turnsNow += 1;
+          }
+          miss = d;
         }
         last = theta;
         const absStep = d < 0 ? -d : d;
-        if (absStep > lostStep && !lost) {
+        const absMiss = miss < 0 ? -miss : miss;
+        if ((absMiss > lostStep || absStep > maxStep) && !lost) {
           lost = true;
-          event(events, firstIndex + i, 'countLost', true, absStep);
+          event(events, firstIndex + i, 'countLost', true, absMiss > lostStep ? absMiss : absStep);
         }
         if (resume) {
           // The step across a hold spans many samples and says nothing of speed: re-acquire the phase and

@@ -70,6 +70,7 @@ async function run(argv: readonly string[]): Promise<number> {
     refractiveIndex: environment.refractiveIndex,
     positionScale: environment.thermalFactor,
     ...(scale.bandwidthHz === undefined ? {} : { bandwidthHz: scale.bandwidthHz }),
+    ...(scale.unwrap === undefined ? {} : { unwrap: scale.unwrap }),
   };
   const notes = [...scale.notes, ...environment.notes];
   const open = captureOptionsOf(values);
