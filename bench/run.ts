@@ -1,19 +1,33 @@
-// `npm run bench [-- --json] [-- --heap-samples N]`: runs every benchmark case and prints a table or one JSON document.
+// `npm run bench [-- --json] [-- --capture] [-- --replay] [-- --accuracy] [-- --all] [-- --heap-samples N]`:
+// measures the core stages, the whole pipeline and the decoder (always), and on request the capture readers,
+// replay from files and the accuracy of the ellipse fits; prints a table or one JSON document.
 import { parseArgs } from 'node:util';
+import { runAccuracyBenchmark, formatAccuracyTable } from './accuracy.js';
+import { captureCases } from './cases/capture.js';
 import { coreCases, heapGrowth } from './cases/core.js';
+import { decoderCases } from './cases/decoder.js';
+import { replayCases } from './cases/replay.js';
 import { measure, type BenchResult } from './harness.js';
 
 const { values } = parseArgs({
   options: {
     json: { type: 'boolean', default: false },
+    capture: { type: 'boolean', default: false },
+    replay: { type: 'boolean', default: false },
+    accuracy: { type: 'boolean', default: false },
+    all: { type: 'boolean', default: false },
     'heap-samples': { type: 'string', default: String(1e8) },
+    'replay-memory-samples': { type: 'string', default: String(8e6) },
   },
 });
+const log = (line: string) => {
+  if (!values.json) process.stderr.write(line + '\n');
+};
 
 const results: BenchResult[] = [];
 for (const benchCase of coreCases()) {
   results.push(measure(benchCase));
-  if (!values.json) process.stderr.write(`measured ${benchCase.name}\n`);
+  log(`measured ${benchCase.name}`);
 }
 const pipeline = results.find((result) => result.name === 'pipeline/int16/block4096')!;
 const naive = results.find((result) => result.name.startsWith('baseline/naive'))!;
@@ -25,15 +39,33 @@ results.push({
   passes: 1,
   extra: { samples: heap.samples, heapGrowthBytes: heap.heapGrowthBytes },
 });
+log('measured heap growth');
+for (const benchCase of decoderCases()) {
+  const result = measure(benchCase);
+  const megabytesPerSecond = (benchCase.bytesPerPass * result.samplesPerSecond) / benchCase.samplesPerPass / 1e6;
+  results.push({ ...result, extra: { megabytesPerSecond } });
+  log(`measured ${benchCase.name}`);
+}
+if (values.capture || values.all) {
+  results.push(...(await captureCases()));
+  log('measured capture readers');
+}
+if (values.replay || values.all) {
+  results.push(...(await replayCases({ memorySamples: Number(values['replay-memory-samples']) })));
+  log('measured replay');
+}
+const accuracy = values.accuracy || values.all ? runAccuracyBenchmark() : null;
 
 if (values.json) {
-  process.stdout.write(JSON.stringify({ cases: results, pipelineOverNaive: pipeline.samplesPerSecond / naive.samplesPerSecond }, null, 2) + '\n');
+  const document = { cases: results, pipelineOverNaive: pipeline.samplesPerSecond / naive.samplesPerSecond, ...(accuracy === null ? {} : { accuracy }) };
+  process.stdout.write(JSON.stringify(document, null, 2) + '\n');
 } else {
   for (const result of results) {
-    const extra = result.extra ? '  ' + Object.entries(result.extra).map(([k, v]) => `${k}=${v}`).join(' ') : '';
+    const extra = result.extra ? '  ' + Object.entries(result.extra).map(([k, v]) => `${k}=${Number.isInteger(v) ? v : v.toPrecision(4)}`).join(' ') : '';
     process.stdout.write(
-      `${result.name.padEnd(40)} ${(result.samplesPerSecond / 1e6).toFixed(1).padStart(8)} M samples/s ${result.nsPerSample.toFixed(2).padStart(8)} ns/sample${extra}\n`,
+      `${result.name.padEnd(44)} ${(result.samplesPerSecond / 1e6).toFixed(1).padStart(8)} M samples/s ${result.nsPerSample.toFixed(2).padStart(8)} ns/sample${extra}\n`,
     );
   }
   process.stdout.write(`pipeline / naive baseline: ${(pipeline.samplesPerSecond / naive.samplesPerSecond).toFixed(1)}x\n`);
+  if (accuracy !== null) process.stdout.write('\n' + formatAccuracyTable(accuracy) + '\n');
 }

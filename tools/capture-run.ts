@@ -110,64 +110,89 @@ export interface MeasureSettings {
 
 /** A decimated time series: min and max of each bucket, with the bucket doubling when the store is full. */
 export interface Envelope {
-  readonly t: number[];
-  readonly min: number[];
-  readonly max: number[];
+  readonly t: Float64Array;
+  readonly min: Float64Array;
+  readonly max: Float64Array;
 }
 
+// Both collectors keep their points in typed arrays of fixed size: plain arrays that change element kind and
+// length deoptimise the per-block loops, which then box every double.
 function createEnvelope(maxPoints: number) {
+  const t = new Float64Array(maxPoints);
+  const min = new Float64Array(maxPoints);
+  const max = new Float64Array(maxPoints);
+  const bucket = new Float64Array([0, Infinity, -Infinity, 0]); // samples in it, min, max, time of its first sample
   let stride = 1;
-  let inBucket = 0;
-  let bucketMin = Infinity;
-  let bucketMax = -Infinity;
-  let bucketT = 0;
-  const series: Envelope = { t: [], min: [], max: [] };
+  let count = 0;
   function halve(): void {
-    const { t, min, max } = series;
-    const half = Math.floor(t.length / 2);
+    const half = count >> 1;
     for (let k = 0; k < half; k++) {
       t[k] = t[2 * k]!;
       min[k] = Math.min(min[2 * k]!, min[2 * k + 1]!);
       max[k] = Math.max(max[2 * k]!, max[2 * k + 1]!);
     }
-    t.length = min.length = max.length = half;
+    count = half;
     stride *= 2;
   }
   return {
-    series,
-    add(t: number, value: number): void {
-      if (inBucket === 0) bucketT = t;
-      if (value < bucketMin) bucketMin = value;
-      if (value > bucketMax) bucketMax = value;
-      if (++inBucket >= stride) {
-        series.t.push(bucketT);
-        series.min.push(bucketMin);
-        series.max.push(bucketMax);
-        inBucket = 0;
-        bucketMin = Infinity;
-        bucketMax = -Infinity;
-        if (series.t.length >= maxPoints) halve();
+    series(): Envelope {
+      return { t: t.slice(0, count), min: min.slice(0, count), max: max.slice(0, count) };
+    },
+    /** Adds a block of values at times t (s) or, without t, at (firstIndex + i) · secondsPerSample. */
+    add(values: Float64Array, n: number, times: Float64Array | null, firstIndex: number, secondsPerSample: number): void {
+      let inBucket = bucket[0]!, low = bucket[1]!, high = bucket[2]!, start = bucket[3]!;
+      for (let i = 0; i < n; i++) {
+        const value = values[i]!;
+        if (inBucket === 0) start = times === null ? (firstIndex + i) * secondsPerSample : times[i]!;
+        if (value < low) low = value;
+        if (value > high) high = value;
+        if (++inBucket >= stride) {
+          t[count] = start;
+          min[count] = low;
+          max[count] = high;
+          count++;
+          inBucket = 0;
+          low = Infinity;
+          high = -Infinity;
+          if (count === maxPoints) halve();
+        }
       }
+      bucket[0] = inBucket;
+      bucket[1] = low;
+      bucket[2] = high;
+      bucket[3] = start;
     },
   };
 }
 
-/** Every stride-th point, the stride doubling when the store is full, so points spread over the whole capture. */
+/** Every stride-th sample, the stride doubling when the store is full, so points spread over the whole capture. */
 function createPointSampler(maxPoints: number) {
+  const x = new Float64Array(maxPoints);
+  const y = new Float64Array(maxPoints);
+  let count = 0;
   let stride = 1;
-  let seen = 0;
-  const points: { x: number[]; y: number[] } = { x: [], y: [] };
+  let skip = 0; // samples still to pass before the next kept one
   return {
-    points,
-    add(x: number, y: number): void {
-      if (seen++ % stride !== 0) return;
-      points.x.push(x);
-      points.y.push(y);
-      if (points.x.length >= maxPoints) {
-        points.x = points.x.filter((_, k) => k % 2 === 0);
-        points.y = points.y.filter((_, k) => k % 2 === 0);
-        stride *= 2;
+    points(): { x: Float64Array; y: Float64Array } {
+      return { x: x.slice(0, count), y: y.slice(0, count) };
+    },
+    add(xs: Float64Array, ys: Float64Array, n: number): void {
+      let i = skip;
+      for (; i < n; i += stride) {
+        x[count] = xs[i]!;
+        y[count] = ys[i]!;
+        if (++count === maxPoints) {
+          const half = count >> 1;
+          for (let k = 0; k < half; k++) {
+            x[k] = x[2 * k]!;
+            y[k] = y[2 * k]!;
+          }
+          count = half;
+          stride *= 2;
+          i += stride - (stride >> 1); // the next kept sample is a whole new stride after this one
+        }
       }
+      skip = i - n;
     },
   };
 }
@@ -203,8 +228,8 @@ export interface RunResult {
   readonly report: {
     readonly position: Envelope;
     readonly velocity: Envelope;
-    readonly raw: { x: number[]; y: number[] };
-    readonly corrected: { x: number[]; y: number[] };
+    readonly raw: { x: Float64Array; y: Float64Array };
+    readonly corrected: { x: Float64Array; y: Float64Array };
   };
 }
 
@@ -223,6 +248,50 @@ export interface RunOptions {
 const MAX_SPANS = 1000;
 /** Samples whose signal itself is in doubt stay out of the periodic-error analysis. */
 const SIGNAL_TROUBLE = AlarmBit.lowSignal | AlarmBit.saturation | AlarmBit.badSample | AlarmBit.inputGap;
+
+interface BlockScratch {
+  readonly beforeError: Float64Array;
+  readonly rawX: Float64Array;
+  readonly rawY: Float64Array;
+  readonly correctedU: Float64Array;
+  readonly correctedV: Float64Array;
+  readonly valid: Uint8Array;
+}
+
+/**
+ * Per-sample analysis of one block: which samples are trustworthy, the uncorrected phase's error, and the raw and
+ * corrected points for the Lissajous figures. A plain function, so V8 optimises its loop (it would not inside
+ * the async replay loop).
+ */
+function rawAndCorrected(
+  xs: Float64Array,
+  ys: Float64Array,
+  n: number,
+  unwrappedPhaseRad: Float64Array,
+  flags: Uint8Array,
+  scratch: BlockScratch,
+  mid: number,
+  calibration: EllipseCalibration,
+): void {
+  const { beforeError, rawX, rawY, correctedU, correctedV, valid } = scratch;
+  const { offsetX, offsetY, amplitudeX, amplitudeY, phaseErrorRad } = calibration;
+  const sinE = Math.sin(phaseErrorRad);
+  const cosE = Math.cos(phaseErrorRad);
+  const trouble = SIGNAL_TROUBLE;
+  for (let i = 0; i < n; i++) {
+    const x = xs[i]!;
+    const y = ys[i]!;
+    valid[i] = (flags[i]! & trouble) === 0 ? 1 : 0;
+    beforeError[i] = wrapPhase(fastAtan2(y - mid, x - mid) - unwrappedPhaseRad[i]!);
+    // Non-finite samples are drawn at the centre: the figure shows them and its scales survive.
+    const finite = x - x === 0 && y - y === 0;
+    const cu = finite ? (x - offsetX) / amplitudeX : 0;
+    correctedU[i] = cu;
+    correctedV[i] = finite ? ((y - offsetY) / amplitudeY - cu * sinE) / cosE : 0;
+    rawX[i] = finite ? x : offsetX;
+    rawY[i] = finite ? y : offsetY;
+  }
+}
 
 /** Runs the whole pipeline over a capture, writing rows to the writer if one is given. */
 export async function runCapture(path: string, options: RunOptions): Promise<RunResult> {
@@ -250,8 +319,15 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     flags: new Uint8Array(BLOCK),
     unwrappedPhaseRad: new Float64Array(BLOCK),
   };
-  const beforeError = new Float64Array(BLOCK);
-  const valid = new Uint8Array(BLOCK);
+  const scratch: BlockScratch = {
+    beforeError: new Float64Array(BLOCK),
+    rawX: new Float64Array(BLOCK),
+    rawY: new Float64Array(BLOCK),
+    correctedU: new Float64Array(BLOCK),
+    correctedV: new Float64Array(BLOCK),
+    valid: new Uint8Array(BLOCK),
+  };
+  const { beforeError, rawX, rawY, correctedU, correctedV, valid } = scratch;
   const before = createPeriodicErrorAnalyzer();
   const after = createPeriodicErrorAnalyzer();
   const detrender = createWindowDetrender(after);
@@ -265,7 +341,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   const spans: AlarmSpan[] = [];
   const open = new Map<AlarmKind, number>();
   const mid = midScaleOf(adc);
-  const { offsetX, offsetY, amplitudeX, amplitudeY, phaseErrorRad } = calibration;
+  const secondsPerSample = 1 / info.rateHz;
   const metresPerRad = pipeline.stages.displacement.metresPerFringe / (2 * Math.PI);
   let samples = 0;
   let finalPositionM = 0;
@@ -296,21 +372,11 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
           if (start !== undefined && spans.length < MAX_SPANS) spans.push({ kind: event.kind, startS: start, endS: t });
         }
       }
-      for (let i = 0; i < n; i++) {
-        const x = block.x[i]!;
-        const y = block.y[i]!;
-        const phase = output.unwrappedPhaseRad[i]!;
-        valid[i] = (output.flags[i]! & SIGNAL_TROUBLE) === 0 ? 1 : 0;
-        beforeError[i] = wrapPhase(fastAtan2(y - mid, x - mid) - phase);
-        const t = block.t === null ? (block.firstIndex + i) / info.rateHz : block.t[i]!;
-        position.add(t, output.positionM[i]!);
-        velocity.add(t, output.velocityMS[i]!);
-        if (x - x === 0 && y - y === 0) {
-          raw.add(x, y);
-          const cu = (x - offsetX) / amplitudeX;
-          corrected.add(cu, ((y - offsetY) / amplitudeY - cu * Math.sin(phaseErrorRad)) / Math.cos(phaseErrorRad));
-        }
-      }
+      rawAndCorrected(block.x, block.y, n, output.unwrappedPhaseRad, output.flags, scratch, mid, calibration);
+      position.add(output.positionM, n, block.t, block.firstIndex, secondsPerSample);
+      velocity.add(output.velocityMS, n, block.t, block.firstIndex, secondsPerSample);
+      raw.add(rawX, rawY, n);
+      corrected.add(correctedU, correctedV, n);
       before.add(output.unwrappedPhaseRad, beforeError, n, valid);
       detrender.process(output.unwrappedPhaseRad, valid, n);
       samples += n;
@@ -338,6 +404,6 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     alarmSpans: spans,
     before: toMetres(before),
     after: toMetres(after),
-    report: { position: position.series, velocity: velocity.series, raw: raw.points, corrected: corrected.points },
+    report: { position: position.series(), velocity: velocity.series(), raw: raw.points(), corrected: corrected.points() },
   };
 }

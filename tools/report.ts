@@ -49,7 +49,7 @@ export interface ReportInput {
 
 const escape = (text: string) => text.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 
-function niceRange(values: readonly number[]): [number, number] {
+function niceRange(values: ArrayLike<number> & Iterable<number>): [number, number] {
   let low = Infinity;
   let high = -Infinity;
   for (const value of values) {
@@ -98,7 +98,7 @@ function svg(frame: Frame, body: string, label: string): string {
   return `<svg class="plot" role="img" aria-label="${escape(label)}" viewBox="0 0 ${frame.width} ${frame.height}" width="${frame.width}" height="${frame.height}">${body}</svg>`;
 }
 
-function scatter(title: string, xs: readonly number[], ys: readonly number[], curve: Array<[number, number]>, xLabel: string, yLabel: string): string {
+function scatter(title: string, xs: Float64Array, ys: Float64Array, curve: Array<[number, number]>, xLabel: string, yLabel: string): string {
   const [x0, x1] = niceRange([...xs, ...curve.map((p) => p[0])]);
   const [y0, y1] = niceRange([...ys, ...curve.map((p) => p[1])]);
   // Equal scales on both axes: a circle must look like one.
@@ -106,7 +106,7 @@ function scatter(title: string, xs: readonly number[], ys: readonly number[], cu
   const cx = (x0 + x1) / 2;
   const cy = (y0 + y1) / 2;
   const frame: Frame = { width: 390, height: 380, left: 66, bottom: 34, x: [cx - span / 2, cx + span / 2], y: [cy - span / 2, cy + span / 2] };
-  const dots = xs.map((x, k) => `M${px(frame, x).toFixed(1)} ${py(frame, ys[k]!).toFixed(1)}h0.1`).join('');
+  const dots = Array.from(xs, (x, k) => `M${px(frame, x).toFixed(1)} ${py(frame, ys[k]!).toFixed(1)}h0.1`).join('');
   const line = curve.map(([x, y], k) => `${k === 0 ? 'M' : 'L'}${px(frame, x).toFixed(1)} ${py(frame, y).toFixed(1)}`).join('') + 'Z';
   return svg(frame, axes(frame, xLabel, yLabel) + `<path class="samples" d="${dots}"/><path class="model" d="${line}"/>`, title);
 }
@@ -166,13 +166,14 @@ const ALARM_CLASS: Record<AlarmKind, string> = {
 
 function timePlot(series: Envelope, scale: number, yLabel: string, run: RunResult, label: string): string {
   const endS = series.t.length > 0 ? series.t[series.t.length - 1]! : 1;
+  const times = Array.from(series.t);
   const frame: Frame = {
     width: 760,
     height: 260,
     left: 70,
     bottom: 34,
     x: [0, Math.max(endS, 1e-9)],
-    y: niceRange([...series.min.map((v) => v * scale), ...series.max.map((v) => v * scale)]),
+    y: niceRange([...Array.from(series.min, (v) => v * scale), ...Array.from(series.max, (v) => v * scale)]),
   };
   const spans = run.alarmSpans
     .map((span) => {
@@ -181,8 +182,8 @@ function timePlot(series: Envelope, scale: number, yLabel: string, run: RunResul
       return `<rect class="${ALARM_CLASS[span.kind]}" x="${start.toFixed(1)}" y="10" width="${Math.max(1, end - start).toFixed(1)}" height="${frame.height - frame.bottom - 10}"><title>${alarmNames[span.kind]}</title></rect>`;
     })
     .join('');
-  const upper = series.t.map((t, k) => `${k === 0 ? 'M' : 'L'}${px(frame, t).toFixed(1)} ${py(frame, series.max[k]! * scale).toFixed(1)}`).join('');
-  const lower = series.t
+  const upper = times.map((t, k) => `${k === 0 ? 'M' : 'L'}${px(frame, t).toFixed(1)} ${py(frame, series.max[k]! * scale).toFixed(1)}`).join('');
+  const lower = times
     .map((t, k) => `L${px(frame, t).toFixed(1)} ${py(frame, series.min[k]! * scale).toFixed(1)}`)
     .reverse()
     .join('');

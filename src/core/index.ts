@@ -12,3 +12,5 @@ export * from './synthesis.js';
 export * from './metrology/index.js';
 export * from './motion.js';
 export * from './periodic-error.js';
+export * from './fit-improved.js';
+export * from './online-correction.js';
