@@ -49,6 +49,11 @@ export interface AlarmEvent {
   readonly value: number;
 }
 
+/** Records a change of an alarm's state. Allocates one event, only when a state changes. */
+export function pushAlarm(events: AlarmEvent[], sampleIndex: number, kind: AlarmKind, raised: boolean, value: number): void {
+  events.push({ sampleIndex, kind, state: raised ? 'raised' : 'cleared', value });
+}
+
 /** The text names of the alarms set in one flag byte, separated by spaces; empty when none. */
 export function alarmText(flags: number): string {
   if (flags === 0) return '';

@@ -190,6 +190,85 @@ function solve5(matrix: Float64Array, rhs: Float64Array): boolean {
   return true;
 }
 
+/** Limits every fit method applies to its result (see `EllipseFitOptions`). */
+export interface FitLimits {
+  readonly minSamples: number;
+  readonly minCoverage: number;
+  readonly maxAmplitudeRatio: number;
+  readonly maxPhaseErrorRad: number;
+}
+
+/** Validates the limits of `EllipseFitOptions` once, with their defaults. */
+export function resolveFitLimits(options: EllipseFitOptions): FitLimits {
+  const minSamples = integerInRange('minSamples', options.minSamples ?? 32, 6, Number.MAX_SAFE_INTEGER);
+  const minCoverage = numberInRange('minCoverage', options.minCoverage ?? 0.75, 0, 1);
+  const maxAmplitudeRatio = options.maxAmplitudeRatio ?? 4;
+  if (!(maxAmplitudeRatio >= 1 && Number.isFinite(maxAmplitudeRatio))) {
+    throw new OptionError('maxAmplitudeRatio', 'a finite number >= 1', maxAmplitudeRatio);
+  }
+  const maxPhaseErrorRad = options.maxPhaseErrorRad ?? Math.PI / 4;
+  if (!(maxPhaseErrorRad > 0 && maxPhaseErrorRad < Math.PI / 2)) {
+    throw new OptionError('maxPhaseErrorRad', 'a number in (0, π/2)', maxPhaseErrorRad);
+  }
+  return { minSamples, minCoverage, maxAmplitudeRatio, maxPhaseErrorRad };
+}
+
+/**
+ * The share of COVERAGE_BINS equal phase bins (corrected phase) reached by the occupied cells of an
+ * accumulator's grid that lie on the given ellipse (cells inside it, e.g. from a blocked beam, say nothing of
+ * the phase).
+ */
+export function coverageOfFit(state: EllipseAccumulator['state'], calibration: EllipseCalibration): number {
+  const { shiftX, shiftY, occupancy, gridHalfWidth } = state;
+  const { offsetX, offsetY, amplitudeX, amplitudeY, phaseErrorRad } = calibration;
+  const tanE = Math.tan(phaseErrorRad);
+  const secE = 1 / Math.cos(phaseErrorRad);
+  const cell = (2 * gridHalfWidth) / GRID;
+  const hit = new Uint8Array(COVERAGE_BINS);
+  for (let row = 0; row < GRID; row++) {
+    for (let col = 0; col < GRID; col++) {
+      if (!occupancy[row * GRID + col]) continue;
+      const cu = (shiftX - gridHalfWidth + (col + 0.5) * cell - offsetX) / amplitudeX;
+      const cv = ((shiftY - gridHalfWidth + (row + 0.5) * cell - offsetY) / amplitudeY) * secE - cu * tanE;
+      if (Math.abs(Math.hypot(cu, cv) - 1) > 0.3) continue;
+      const phase = Math.atan2(cv, cu) + Math.PI;
+      hit[Math.min(COVERAGE_BINS - 1, Math.floor((phase / (2 * Math.PI)) * COVERAGE_BINS))] = 1;
+    }
+  }
+  let hits = 0;
+  for (let bin = 0; bin < COVERAGE_BINS; bin++) hits += hit[bin]!;
+  return hits / COVERAGE_BINS;
+}
+
+/** The last checks of every fit method: plausible detectors, enough coverage. */
+export function acceptFit(
+  fit: Omit<Extract<EllipseFitResult, { ok: true }>, 'ok' | 'coverage'>,
+  coverage: number,
+  limits: FitLimits,
+): EllipseFitResult {
+  const { calibration, samples } = fit;
+  const ratio = Math.max(calibration.amplitudeX / calibration.amplitudeY, calibration.amplitudeY / calibration.amplitudeX);
+  if (ratio > limits.maxAmplitudeRatio || Math.abs(calibration.phaseErrorRad) > limits.maxPhaseErrorRad) {
+    return {
+      ok: false,
+      reason: 'implausible',
+      message: `implausible ellipse: amplitude ratio ${ratio.toFixed(3)} (limit ${limits.maxAmplitudeRatio}), phase error ${calibration.phaseErrorRad.toFixed(4)} rad (limit ±${limits.maxPhaseErrorRad.toFixed(4)})`,
+      samples,
+      coverage,
+    };
+  }
+  if (coverage < limits.minCoverage) {
+    return {
+      ok: false,
+      reason: 'low-coverage',
+      message: `phase coverage ${coverage.toFixed(3)} of a fringe is below the minimum ${limits.minCoverage}: record at least one full fringe of motion`,
+      samples,
+      coverage,
+    };
+  }
+  return { ok: true, ...fit, coverage };
+}
+
 export interface EllipseAccumulator {
   /** Adds `length` sample pairs; non-finite pairs are skipped and counted. Never allocates. */
   add(x: ArrayLike<number>, y: ArrayLike<number>, length: number): void;
@@ -220,17 +299,8 @@ export interface EllipseAccumulator {
 }
 
 export function createEllipseAccumulator(options: EllipseFitOptions = {}): EllipseAccumulator {
-  const minSamples = integerInRange('minSamples', options.minSamples ?? 32, 6, Number.MAX_SAFE_INTEGER);
-  const minCoverage = numberInRange('minCoverage', options.minCoverage ?? 0.75, 0, 1);
-  const maxAmplitudeRatio = options.maxAmplitudeRatio ?? 4;
-  if (!(maxAmplitudeRatio >= 1 && Number.isFinite(maxAmplitudeRatio))) {
-    throw new OptionError('maxAmplitudeRatio', 'a finite number >= 1', maxAmplitudeRatio);
-  }
-  const maxPhaseErrorRad = options.maxPhaseErrorRad ?? Math.PI / 4;
-  if (!(maxPhaseErrorRad > 0 && maxPhaseErrorRad < Math.PI / 2)) {
-    throw new OptionError('maxPhaseErrorRad', 'a number in (0, π/2)', maxPhaseErrorRad);
-  }
-
+  const limits = resolveFitLimits(options);
+  const { minSamples } = limits;
   const moments = new Float64Array(MONOMIAL_COUNT);
   const scratch = new Float64Array(MONOMIAL_COUNT);
   const matrix = new Float64Array(25);
@@ -364,7 +434,7 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
     shiftMoments(centred, -meanU, -meanV, scratch);
     const scale = Math.sqrt((centred[3]! + centred[5]!) / n);
     if (!(scale > 0) || !Number.isFinite(scale)) {
-      return fail('degenerate', 'all samples are at one point: no signal modulation to fit');
+      return fail('degenerate', 'all samples at one point: no modulation');
     }
     for (let i = 0; i <= 4; i++) {
       for (let j = 0; i + j <= 4; j++) centred[monomialIndex(i, j)] = centred[monomialIndex(i, j)]! / (n * scale ** (i + j));
@@ -379,45 +449,18 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
       rhs[row] = average(ri, rj);
     }
     if (!solve5(matrix, rhs)) {
-      return fail('degenerate', 'the samples lie on a line or a point: the conic fit is singular');
+      return fail('degenerate', 'samples on a line or a point: singular fit');
     }
     const conic: Conic = { A: rhs[0]!, B: rhs[1]!, C: rhs[2]!, D: rhs[3]!, E: rhs[4]! };
     const h = heydemannFromConic(conic);
     if (h === null) {
       return fail(
         'not-an-ellipse',
-        `the least-squares conic is not an ellipse (A=${conic.A.toPrecision(4)}, B=${conic.B.toPrecision(4)}, ` +
-          `4AB−C²=${(4 * conic.A * conic.B - conic.C * conic.C).toPrecision(4)}): too little of the ellipse is covered or the signal is not quadrature`,
+        'the least-squares conic is not an ellipse: too little of the figure is covered, or the signal is not quadrature',
       );
     }
 
-    // Corrected coordinates are cu = k1·a + k0, cv = l1·a + l2·b + l0 (Heydemann's correction, unit radius).
     const cosAlpha = Math.cos(h.alphaRad);
-    const k1 = 1 / h.R;
-    const k0 = -h.p / h.R;
-    const l1 = Math.tan(h.alphaRad) / h.R;
-    const l2 = h.G / (h.R * cosAlpha);
-    const l0 = -(h.p * Math.tan(h.alphaRad) + h.G * h.q / cosAlpha) / h.R;
-    // Coverage: the share of COVERAGE_BINS equal phase bins (corrected phase) reached by occupied cells that lie
-    // on the fitted figure (cells inside it, e.g. from a blocked beam, say nothing of the phase).
-    const hit = new Uint8Array(COVERAGE_BINS);
-    const cell = (2 * gridHalfWidth) / GRID;
-    for (let row = 0; row < GRID; row++) {
-      for (let col = 0; col < GRID; col++) {
-        if (!occupancy[row * GRID + col]) continue;
-        const a = (-gridHalfWidth + (col + 0.5) * cell - meanU) / scale;
-        const b = (-gridHalfWidth + (row + 0.5) * cell - meanV) / scale;
-        const cu = k1 * a + k0;
-        const cv = l1 * a + l2 * b + l0;
-        if (Math.abs(Math.hypot(cu, cv) - 1) > 0.3) continue;
-        const phase = Math.atan2(cv, cu) + Math.PI;
-        hit[Math.min(COVERAGE_BINS - 1, Math.floor((phase / (2 * Math.PI)) * COVERAGE_BINS))] = 1;
-      }
-    }
-    let hits = 0;
-    for (let bin = 0; bin < COVERAGE_BINS; bin++) hits += hit[bin]!;
-    const coverage = hits / COVERAGE_BINS;
-
     // r² − 1 = λ·(conic(a, b) − 1) with λ = 1/(A R² cos²α): both vanish on the ellipse and share the a² term.
     // E[(conic − 1)²] = θᵀMθ − 2θᵀb + 1 over the same averages; θ = rhs holds the solution.
     let quadratic = 1;
@@ -439,32 +482,15 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
       G: h.G,
       alphaRad: h.alphaRad,
     });
-    const ratio = Math.max(h.G, 1 / h.G);
-    if (ratio > maxAmplitudeRatio || Math.abs(h.alphaRad) > maxPhaseErrorRad) {
-      return fail(
-        'implausible',
-        `fitted ellipse is implausible for quadrature detectors (amplitude ratio ${ratio.toFixed(3)}, limit ${maxAmplitudeRatio}; ` +
-          `phase error ${calibration.phaseErrorRad.toFixed(4)} rad, limit ±${maxPhaseErrorRad.toFixed(4)} rad)`,
-        coverage,
-      );
-    }
-    if (coverage < minCoverage) {
-      return fail(
-        'low-coverage',
-        `phase coverage ${coverage.toFixed(3)} of a fringe is below the minimum ${minCoverage} ` +
-          '(share of 10° phase bins reached): record at least one full fringe of motion for calibration',
-        coverage,
-      );
-    }
-    return {
-      ok: true,
-      calibration,
-      residualRms,
-      coverage,
-      samples: n,
-      conic,
-      frame: { centreX: shiftX + meanU, centreY: shiftY + meanV, scale },
-    };
+    return acceptFit(
+      { calibration, residualRms, samples: n, conic, frame: { centreX: shiftX + meanU, centreY: shiftY + meanV, scale } },
+      coverageOfFit(state(), calibration),
+      limits,
+    );
+  }
+
+  function state(): EllipseAccumulator['state'] {
+    return { shiftX, shiftY, moments, occupancy, gridHalfWidth };
   }
 
   function reset(): void {
@@ -490,7 +516,7 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
       return skippedNonFinite;
     },
     get state() {
-      return { shiftX, shiftY, moments, occupancy, gridHalfWidth };
+      return state();
     },
   };
 }

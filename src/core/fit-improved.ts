@@ -9,9 +9,9 @@
 //    and are left out here; at the thousands of samples a calibration uses they are far below the bias removed.
 
 import type { Conic, EllipseAccumulator, EllipseCalibration, EllipseFitOptions, EllipseFitResult } from './ellipse.js';
-import { fromHeydemann } from './ellipse.js';
+import { acceptFit, coverageOfFit, fromHeydemann, resolveFitLimits } from './ellipse.js';
 import { choleskyInPlace, createGeneralizedEigenSolver } from './fit-numerics.js';
-import { integerInRange, numberInRange, oneOf, OptionError } from './options.js';
+import { oneOf } from './options.js';
 
 export const ELLIPSE_FIT_METHODS = ['heydemann', 'taubin', 'hyper'] as const;
 export type EllipseFitMethod = (typeof ELLIPSE_FIT_METHODS)[number];
@@ -239,47 +239,11 @@ export interface EllipseFit {
   solve(accumulator: EllipseAccumulator): EllipseFitResult;
 }
 
-/** Cells per side of the accumulator's coverage grid and the phase bins coverage is counted in (as in ellipse.ts). */
-const GRID = 64;
-const COVERAGE_BINS = 36;
-
 export function createEllipseFit(options: EllipseFitMethodOptions = {}): EllipseFit {
   const method = oneOf('method', options.method ?? 'hyper', ELLIPSE_FIT_METHODS);
-  const minSamples = integerInRange('minSamples', options.minSamples ?? 32, 6, Number.MAX_SAFE_INTEGER);
-  const minCoverage = numberInRange('minCoverage', options.minCoverage ?? 0.75, 0, 1);
-  const maxAmplitudeRatio = options.maxAmplitudeRatio ?? 4;
-  if (!(maxAmplitudeRatio >= 1 && Number.isFinite(maxAmplitudeRatio))) {
-    throw new OptionError('maxAmplitudeRatio', 'a finite number >= 1', maxAmplitudeRatio);
-  }
-  const maxPhaseErrorRad = options.maxPhaseErrorRad ?? Math.PI / 4;
-  if (!(maxPhaseErrorRad > 0 && maxPhaseErrorRad < Math.PI / 2)) {
-    throw new OptionError('maxPhaseErrorRad', 'a number in (0, π/2)', maxPhaseErrorRad);
-  }
+  const limits = resolveFitLimits(options);
+  const { minSamples } = limits;
   const solver = createConicSolver(method);
-  const hit = new Uint8Array(COVERAGE_BINS);
-
-  /** The classic fit's coverage rule: phase bins reached by occupied grid cells lying on the fitted ellipse. */
-  function coverageOf(accumulator: EllipseAccumulator, calibration: EllipseCalibration): number {
-    const { shiftX, shiftY, occupancy, gridHalfWidth } = accumulator.state;
-    const { offsetX, offsetY, amplitudeX, amplitudeY, phaseErrorRad } = calibration;
-    const tanE = Math.tan(phaseErrorRad);
-    const secE = 1 / Math.cos(phaseErrorRad);
-    const cell = (2 * gridHalfWidth) / GRID;
-    hit.fill(0);
-    for (let row = 0; row < GRID; row++) {
-      for (let col = 0; col < GRID; col++) {
-        if (!occupancy[row * GRID + col]) continue;
-        const cu = (shiftX - gridHalfWidth + (col + 0.5) * cell - offsetX) / amplitudeX;
-        const cv = ((shiftY - gridHalfWidth + (row + 0.5) * cell - offsetY) / amplitudeY) * secE - cu * tanE;
-        if (Math.abs(Math.hypot(cu, cv) - 1) > 0.3) continue;
-        const phase = Math.atan2(cv, cu) + Math.PI;
-        hit[Math.min(COVERAGE_BINS - 1, Math.floor((phase / (2 * Math.PI)) * COVERAGE_BINS))] = 1;
-      }
-    }
-    let hits = 0;
-    for (let bin = 0; bin < COVERAGE_BINS; bin++) hits += hit[bin]!;
-    return hits / COVERAGE_BINS;
-  }
 
   function solve(accumulator: EllipseAccumulator): EllipseFitResult {
     const { shiftX, shiftY, moments } = accumulator.state;
@@ -298,34 +262,18 @@ export function createEllipseFit(options: EllipseFitMethodOptions = {}): Ellipse
       );
     }
     const calibration = calibrationOfSolution(solution, shiftX, shiftY);
-    const coverage = coverageOf(accumulator, calibration);
-    const ratio = Math.max(solution.G, 1 / solution.G);
-    if (ratio > maxAmplitudeRatio || Math.abs(solution.alphaRad) > maxPhaseErrorRad) {
-      return fail(
-        'implausible',
-        `fitted ellipse is implausible for quadrature detectors (amplitude ratio ${ratio.toFixed(3)}, limit ${maxAmplitudeRatio}; ` +
-          `phase error ${calibration.phaseErrorRad.toFixed(4)} rad, limit ±${maxPhaseErrorRad.toFixed(4)} rad)`,
-        coverage,
-      );
-    }
-    if (coverage < minCoverage) {
-      return fail(
-        'low-coverage',
-        `phase coverage ${coverage.toFixed(3)} of a fringe is below the minimum ${minCoverage} ` +
-          '(share of 10° phase bins reached): record at least one full fringe of motion for calibration',
-        coverage,
-      );
-    }
     const conic: Conic = { A: solution.A, B: solution.B, C: solution.C, D: solution.D, E: solution.E };
-    return {
-      ok: true,
-      calibration,
-      residualRms: solution.residualRms,
-      coverage,
-      samples: n,
-      conic,
-      frame: { centreX: shiftX + solution.centreU, centreY: shiftY + solution.centreV, scale: solution.scale },
-    };
+    return acceptFit(
+      {
+        calibration,
+        residualRms: solution.residualRms,
+        samples: n,
+        conic,
+        frame: { centreX: shiftX + solution.centreU, centreY: shiftY + solution.centreV, scale: solution.scale },
+      },
+      coverageOfFit(accumulator.state, calibration),
+      limits,
+    );
   }
 
   return { method, solve };

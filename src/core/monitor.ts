@@ -1,6 +1,6 @@
 // Signal monitor: normalised level, and the low-signal, saturation and bad-sample alarms with hysteresis.
 
-import { AlarmBit, type AlarmEvent, type AlarmKind } from './alarms.js';
+import { AlarmBit, pushAlarm, type AlarmEvent } from './alarms.js';
 import { integerInRange, numberInRange, OptionError, positiveFinite } from './options.js';
 
 /** How the ADC codes its samples; it sets where saturation begins. */
@@ -79,9 +79,6 @@ export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalM
   let badActive = false;
   let badRun = 0;
 
-  function event(events: AlarmEvent[], sampleIndex: number, kind: AlarmKind, raised: boolean, value: number): void {
-    events.push({ sampleIndex, kind, state: raised ? 'raised' : 'cleared', value });
-  }
 
   function process(
     x: ArrayLike<number>,
@@ -129,11 +126,11 @@ export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalM
         badRun = 0;
         if (!badActive) {
           badActive = true;
-          event(events, firstIndex + i, 'badSample', true, Number.NaN);
+          pushAlarm(events, firstIndex + i, 'badSample', true, Number.NaN);
         }
       } else if (badActive && ++badRun >= hold) {
         badActive = false;
-        event(events, firstIndex + i, 'badSample', false, Number.NaN);
+        pushAlarm(events, firstIndex + i, 'badSample', false, Number.NaN);
       }
       if (badActive) bits |= AlarmBit.badSample;
 
@@ -141,11 +138,11 @@ export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalM
         saturationRun = 0;
         if (!saturationActive) {
           saturationActive = true;
-          event(events, firstIndex + i, 'saturation', true, xi <= lo || xi >= hi ? xi : yi);
+          pushAlarm(events, firstIndex + i, 'saturation', true, xi <= lo || xi >= hi ? xi : yi);
         }
       } else if (saturationActive && ++saturationRun >= hold) {
         saturationActive = false;
-        event(events, firstIndex + i, 'saturation', false, Number.NaN);
+        pushAlarm(events, firstIndex + i, 'saturation', false, Number.NaN);
       }
       if (saturationActive) bits |= AlarmBit.saturation;
 
@@ -154,13 +151,13 @@ export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalM
           lowRun = 0;
           if (!lowActive) {
             lowActive = true;
-            event(events, firstIndex + i, 'lowSignal', true, lev);
+            pushAlarm(events, firstIndex + i, 'lowSignal', true, lev);
           }
         } else if (lowActive) {
           if (lev < clearLevel) lowRun = 0;
           else if (++lowRun >= hold) {
             lowActive = false;
-            event(events, firstIndex + i, 'lowSignal', false, lev);
+            pushAlarm(events, firstIndex + i, 'lowSignal', false, lev);
           }
         }
       }

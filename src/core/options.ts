@@ -13,13 +13,8 @@ export class OptionError extends RangeError {
 }
 
 function describe(value: unknown): string {
-  if (typeof value === 'string') return JSON.stringify(value);
-  if (typeof value === 'number' || typeof value === 'boolean' || value === undefined || value === null) return String(value);
-  try {
-    return JSON.stringify(value);
-  } catch {
-    return typeof value;
-  }
+  // Numbers as written (NaN, Infinity); strings quoted; records as JSON.
+  return typeof value === 'number' ? String(value) : (JSON.stringify(value) ?? String(value));
 }
 
 export function positiveFinite(option: string, value: unknown): number {

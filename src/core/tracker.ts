@@ -7,7 +7,7 @@
 // half a fringe); the velocity-aided unwrapper predicts the loop's own next step, so what must stay under half
 // a fringe is the prediction error, not the motion. Both give the same outputs and alarms otherwise.
 
-import { AlarmBit, type AlarmEvent, type AlarmKind } from './alarms.js';
+import { AlarmBit, pushAlarm, type AlarmEvent } from './alarms.js';
 import { integerInRange, numberInRange, oneOf, positiveFinite } from './options.js';
 import { fastAtan2, TWO_PI } from './phase.js';
 
@@ -167,9 +167,6 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
   let gapPendingSamples = 0;
   let gapActive = false;
 
-  function event(events: AlarmEvent[], sampleIndex: number, kind: AlarmKind, raised: boolean, value: number): void {
-    events.push({ sampleIndex, kind, state: raised ? 'raised' : 'cleared', value });
-  }
 
   function process(
     u: Float64Array,
@@ -188,22 +185,22 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
       clearPending = false;
       if (countLost) {
         countLost = false;
-        event(events, firstIndex, 'countLost', false, Number.NaN);
+        pushAlarm(events, firstIndex, 'countLost', false, Number.NaN);
       }
     }
     if (gapActive) {
       gapActive = false;
-      event(events, firstIndex, 'inputGap', false, Number.NaN);
+      pushAlarm(events, firstIndex, 'inputGap', false, Number.NaN);
     }
     if (gapPendingSamples > 0) {
       firstBits = AlarmBit.inputGap;
-      event(events, firstIndex, 'inputGap', true, gapPendingSamples);
+      pushAlarm(events, firstIndex, 'inputGap', true, gapPendingSamples);
       if (!countLost) {
         countLost = true;
-        event(events, firstIndex, 'countLost', true, gapPendingSamples);
+        pushAlarm(events, firstIndex, 'countLost', true, gapPendingSamples);
       }
       gapPendingSamples = 0;
-      if (length > 1) event(events, firstIndex + 1, 'inputGap', false, Number.NaN);
+      if (length > 1) pushAlarm(events, firstIndex + 1, 'inputGap', false, Number.NaN);
       else gapActive = true;
     }
 
@@ -259,7 +256,7 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
         const absMiss = miss < 0 ? -miss : miss;
         if ((absMiss > lostStep || absStep > maxStep) && !lost) {
           lost = true;
-          event(events, firstIndex + i, 'countLost', true, absMiss > lostStep ? absMiss : absStep);
+          pushAlarm(events, firstIndex + i, 'countLost', true, absMiss > lostStep ? absMiss : absStep);
         }
         if (resume) {
           // The step across a hold spans many samples and says nothing of speed: re-acquire the phase and
@@ -272,11 +269,11 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
             overRun = 0;
             if (!over) {
               over = true;
-              event(events, firstIndex + i, 'overspeed', true, absStep);
+              pushAlarm(events, firstIndex + i, 'overspeed', true, absStep);
             }
           } else if (over && absStep < overClear && ++overRun >= hold) {
             over = false;
-            event(events, firstIndex + i, 'overspeed', false, absStep);
+            pushAlarm(events, firstIndex + i, 'overspeed', false, absStep);
           }
           const residual = d - lagNow - w;
           w += b * residual;
@@ -288,7 +285,7 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
         resume = isStarted;
         if (!lost && (lev !== lev || travel > travelLimit)) {
           lost = true;
-          event(events, firstIndex + i, 'countLost', true, lev !== lev ? Number.NaN : travel);
+          pushAlarm(events, firstIndex + i, 'countLost', true, lev !== lev ? Number.NaN : travel);
         }
       }
       turnsOut[i] = turnsNow;

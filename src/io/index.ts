@@ -3,3 +3,4 @@ export * from './wire/index.js';
 export * from './serial/index.js';
 export * from './capture/index.js';
 export * from './results/index.js';
+export * from './feed/index.js';

@@ -1,0 +1,150 @@
+// The feed's JSON message schema (version 1), shared by the WebSocket feed, the MQTT publisher and the page.
+
+import { alarmNames, alarmText, type AlarmEvent } from '../../core/index.js';
+import type { AxesUpdate, AxisUpdate, Trace } from '../../stream/index.js';
+
+export const FEED_SCHEMA = 1;
+
+/** An alarm state change as sent: `kind` is the text name (`low_signal`...), `value` null when it has none. */
+export interface FeedAlarmEvent {
+  readonly sampleIndex: number;
+  readonly kind: string;
+  readonly state: 'raised' | 'cleared';
+  readonly value: number | null;
+}
+
+/** One axis in an update. Numbers are SI (m, m/s); a value with no data yet is null. */
+export interface FeedAxisState {
+  readonly name: string;
+  readonly sampleIndex: number;
+  readonly samples: number;
+  readonly positionM: number | null;
+  readonly positionMinM: number | null;
+  readonly positionMaxM: number | null;
+  readonly velocityMS: number | null;
+  readonly velocityMinMS: number | null;
+  readonly velocityMaxMS: number | null;
+  readonly level: number | null;
+  readonly levelMin: number | null;
+  /** Alarms active on the latest sample, and all seen since the previous update (text names). */
+  readonly alarms: readonly string[];
+  readonly alarmsSeen: readonly string[];
+  readonly countLost: boolean;
+  readonly events: readonly FeedAlarmEvent[];
+  readonly eventsDropped: number;
+  readonly trace?: Trace;
+}
+
+export interface FeedUpdateMessage {
+  readonly type: 'update';
+  readonly schema: typeof FEED_SCHEMA;
+  /** Per connection (WebSocket) or per publisher (MQTT), from 1, +1 per message sent. */
+  readonly seq: number;
+  /** Absolute index of the latest sample (all axes share it). */
+  readonly sampleIndex: number;
+  readonly axes: readonly FeedAxisState[];
+}
+
+export interface FeedHelloMessage {
+  readonly type: 'hello';
+  readonly schema: typeof FEED_SCHEMA;
+  readonly readOnly: true;
+  readonly axes: readonly string[];
+  readonly updateHz: { readonly default: number; readonly max: number };
+  readonly maxMessageBytes: number;
+}
+
+export type FeedErrorCode = 'malformed-json' | 'bad-message' | 'read-only' | 'source-error';
+
+export interface FeedErrorMessage {
+  readonly type: 'error';
+  readonly code: FeedErrorCode;
+  readonly message: string;
+}
+
+/** What a client may send: only this. Everything else is refused; nothing a client sends reaches the measurement. */
+export interface FeedSubscribeMessage {
+  readonly type: 'subscribe';
+  /** Updates per second. Default: the server's default; range (0, server max]. */
+  readonly updateHz?: number;
+  /** Include recent raw and corrected Lissajous points. Default false. */
+  readonly trace?: boolean;
+}
+
+function finiteOrNull(value: number): number | null {
+  return Number.isFinite(value) ? value : null;
+}
+
+function names(flags: number): string[] {
+  const text = alarmText(flags);
+  return text === '' ? [] : text.split(' ');
+}
+
+function feedEvent(event: AlarmEvent): FeedAlarmEvent {
+  return { sampleIndex: event.sampleIndex, kind: alarmNames[event.kind], state: event.state, value: finiteOrNull(event.value) };
+}
+
+export function feedAxisState(axis: AxisUpdate): FeedAxisState {
+  return {
+    name: axis.name,
+    sampleIndex: axis.sampleIndex,
+    samples: axis.samples,
+    positionM: finiteOrNull(axis.positionM),
+    positionMinM: finiteOrNull(axis.positionMinM),
+    positionMaxM: finiteOrNull(axis.positionMaxM),
+    velocityMS: finiteOrNull(axis.velocityMS),
+    velocityMinMS: finiteOrNull(axis.velocityMinMS),
+    velocityMaxMS: finiteOrNull(axis.velocityMaxMS),
+    level: finiteOrNull(axis.level),
+    levelMin: finiteOrNull(axis.levelMin),
+    alarms: names(axis.flags),
+    alarmsSeen: names(axis.flagsSeen),
+    countLost: axis.countLost,
+    events: axis.events.map(feedEvent),
+    eventsDropped: axis.eventsDropped,
+    ...(axis.trace ? { trace: roundTrace(axis.trace) } : {}),
+  };
+}
+
+/** Trace points to 5 significant digits: enough for a picture, a third of the bytes. */
+function roundTrace(trace: Trace): Trace {
+  const r = (values: number[]) => values.map((value) => (Number.isFinite(value) ? Number(value.toPrecision(5)) : 0));
+  return { x: r(trace.x), y: r(trace.y), u: r(trace.u), v: r(trace.v) };
+}
+
+export function feedUpdateMessage(update: AxesUpdate, seq: number): FeedUpdateMessage {
+  return { type: 'update', schema: FEED_SCHEMA, seq, sampleIndex: update.axes[0]!.sampleIndex, axes: update.axes.map(feedAxisState) };
+}
+
+export type ParsedClientMessage = { readonly ok: true; readonly message: FeedSubscribeMessage } | { readonly ok: false; readonly error: FeedErrorMessage };
+
+/** Parses and checks one client message against the schema; never throws. */
+export function parseClientMessage(text: string, maxUpdateHz: number): ParsedClientMessage {
+  let value: unknown;
+  try {
+    value = JSON.parse(text);
+  } catch (error) {
+    return refuse('malformed-json', `message is not valid JSON (${(error as Error).message})`);
+  }
+  if (typeof value !== 'object' || value === null || Array.isArray(value)) return refuse('bad-message', 'message must be a JSON object');
+  const record = value as Record<string, unknown>;
+  if (record.type !== 'subscribe') {
+    return refuse('read-only', `the feed is read-only and accepts only {"type":"subscribe"} (got type ${JSON.stringify(record.type) ?? 'undefined'})`);
+  }
+  for (const key of Object.keys(record)) {
+    if (key !== 'type' && key !== 'updateHz' && key !== 'trace') return refuse('bad-message', `unknown field ${JSON.stringify(key)} in subscribe`);
+  }
+  const { updateHz, trace } = record;
+  if (updateHz !== undefined && !(typeof updateHz === 'number' && Number.isFinite(updateHz) && updateHz > 0 && updateHz <= maxUpdateHz)) {
+    return refuse('bad-message', `updateHz must be a number in (0, ${maxUpdateHz}] (got ${JSON.stringify(updateHz)})`);
+  }
+  if (trace !== undefined && typeof trace !== 'boolean') return refuse('bad-message', `trace must be true or false (got ${JSON.stringify(trace)})`);
+  return {
+    ok: true,
+    message: { type: 'subscribe', ...(updateHz === undefined ? {} : { updateHz }), ...(trace === undefined ? {} : { trace }) },
+  };
+}
+
+function refuse(code: FeedErrorCode, message: string): ParsedClientMessage {
+  return { ok: false, error: { type: 'error', code, message } };
+}

@@ -1,0 +1,537 @@
+// Axis builder: one shared signal chain per axis over a block stream, and per-subscriber updates at the
+// subscriber's own rate (latest values plus min/max since its last update), so no subscriber holds the
+// chain back and nothing queues without bound.
+
+import { asyncScheduler, distinctUntilChanged, filter, interval, map, mergeMap, Observable, share, type Observer, type SchedulerLike, type Subscription } from 'rxjs';
+import {
+  alarmText,
+  createCorrection,
+  createPipeline,
+  integerInRange,
+  OptionError,
+  positiveFinite,
+  type AlarmEvent,
+  type Correction,
+  type Pipeline,
+  type PipelineOptions,
+  type SpeedLimits,
+} from '../core/index.js';
+import { checkAxisBlock, checkFrameBlock, type AxisBlock, type FrameBlock } from './blocks.js';
+import { createPositionBuffers } from './track-position.js';
+
+export interface AxisOptions extends PipelineOptions {
+  /** Name in updates, feeds and logs: 1..32 characters of A–Z, a–z, 0–9, `_`, `-`. Default `axis<k>`. */
+  readonly name?: string;
+}
+
+export interface AxesOptions {
+  /** One entry per axis, 1..8; axis k reads channels 2k (x) and 2k + 1 (y) of each frame. */
+  readonly axes: readonly AxisOptions[];
+  /** Recent raw and corrected points kept per axis for a Lissajous view. Default 256; integer 0..4096. */
+  readonly tracePoints?: number;
+  /** Trace points taken from each block, evenly spaced. Default 16; integer 1..4096. */
+  readonly tracePointsPerBlock?: number;
+  /** Alarm events carried per axis in one update; more in one interval are counted in `eventsDropped`. Default 64; integer 1..65536. */
+  readonly maxEventsPerUpdate?: number;
+  /** Scheduler of the update timers. Default `asyncScheduler`; tests pass a `TestScheduler`. */
+  readonly scheduler?: SchedulerLike;
+}
+
+export interface UpdateOptions {
+  /** Updates per second, in (0, 1000]. Absent: one update per block, synchronously (for loggers and latency). */
+  readonly updateHz?: number;
+  /** Include the recent raw and corrected trace points in each update. Default false. */
+  readonly trace?: boolean;
+  /**
+   * Asked at each tick; when false the update is held back and the next one covers both intervals (min/max,
+   * events). Lets a slow consumer (a full socket) take only the latest values. Default: always ready.
+   */
+  readonly ready?: () => boolean;
+}
+
+/** Recent points of the Lissajous figure, oldest first: raw x, y in input units, corrected u, v (unit circle when calibrated). */
+export interface Trace {
+  readonly x: number[];
+  readonly y: number[];
+  readonly u: number[];
+  readonly v: number[];
+}
+
+/** One axis' state at an update. Non-finite numbers (no data, bad samples) are NaN. */
+export interface AxisUpdate {
+  readonly name: string;
+  /** Absolute index of the sample the latest values belong to (−1 before any sample). */
+  readonly sampleIndex: number;
+  /** Samples this update covers (processed since the previous update of this subscriber, gaps included). */
+  readonly samples: number;
+  readonly positionM: number;
+  readonly positionMinM: number;
+  readonly positionMaxM: number;
+  readonly velocityMS: number;
+  readonly velocityMinMS: number;
+  readonly velocityMaxMS: number;
+  /** Normalised signal level of the latest sample (1 on the calibrated ellipse), and its minimum. */
+  readonly level: number;
+  readonly levelMin: number;
+  /** `AlarmBit` flags of the latest sample, and all flags seen since the previous update. */
+  readonly flags: number;
+  readonly flagsSeen: number;
+  readonly countLost: boolean;
+  readonly events: readonly AlarmEvent[];
+  readonly eventsDropped: number;
+  readonly trace?: Trace;
+}
+
+export interface AxesUpdate {
+  readonly axes: readonly AxisUpdate[];
+}
+
+export interface PositionUpdate {
+  readonly sampleIndex: number;
+  readonly positionM: number;
+  readonly minM: number;
+  readonly maxM: number;
+}
+
+export interface VelocityUpdate {
+  readonly sampleIndex: number;
+  readonly velocityMS: number;
+  readonly minMS: number;
+  readonly maxMS: number;
+}
+
+export interface AxisStatus {
+  readonly sampleIndex: number;
+  readonly flags: number;
+  /** `alarmText(flags)`: active alarm names separated by spaces, empty when none. */
+  readonly alarms: string;
+  readonly countLost: boolean;
+  readonly speedLimits: SpeedLimits;
+}
+
+export interface AxisAlarmEvent extends AlarmEvent {
+  readonly axis: string;
+}
+
+/** One block's summary for one axis. Reused for every block: read inside `next`. */
+export interface AxisBlockSummary {
+  readonly name: string;
+  readonly length: number;
+  readonly lostBefore: number;
+  readonly sampleIndex: number;
+  readonly positionM: number;
+  readonly positionMinM: number;
+  readonly positionMaxM: number;
+  readonly velocityMS: number;
+  readonly velocityMinMS: number;
+  readonly velocityMaxMS: number;
+  readonly level: number;
+  readonly levelMin: number;
+  readonly flags: number;
+  readonly flagsSeen: number;
+  readonly countLost: boolean;
+  readonly events: readonly AlarmEvent[];
+  readonly speedLimits: SpeedLimits;
+  /** Ring of recent trace points; `traceNext` is where the next point goes, `traceFilled` how many are valid. */
+  readonly traceX: Float32Array;
+  readonly traceY: Float32Array;
+  readonly traceU: Float32Array;
+  readonly traceV: Float32Array;
+  readonly traceNext: number;
+  readonly traceFilled: number;
+}
+
+export interface Axis {
+  readonly name: string;
+  readonly index: number;
+  position$(options?: UpdateOptions): Observable<PositionUpdate>;
+  velocity$(options?: UpdateOptions): Observable<VelocityUpdate>;
+  update$(options?: UpdateOptions): Observable<AxisUpdate>;
+  /** Every alarm state change, as it happens (already rare: state changes only). */
+  readonly alarms$: Observable<AxisAlarmEvent>;
+  /** The axis status, emitted when its active alarms or count-lost latch change (checked per block). */
+  readonly status$: Observable<AxisStatus>;
+}
+
+export interface Axes {
+  readonly axes: readonly Axis[];
+  readonly names: readonly string[];
+  /** All axes in one update, at the subscriber's rate. */
+  update$(options?: UpdateOptions): Observable<AxesUpdate>;
+  /** Alarm events of every axis. */
+  readonly alarms$: Observable<AxisAlarmEvent>;
+  /** The shared per-block summaries (reused objects: read inside `next`). */
+  readonly blocks$: Observable<readonly AxisBlockSummary[]>;
+  /**
+   * Keeps the shared chain running while no one else subscribes, so positions keep their reference across
+   * subscribers coming and going. Unsubscribe the result to stop. Without an error handler, a source error
+   * is reported by rxjs as unhandled (never dropped).
+   */
+  connect(observer?: Partial<Observer<unknown>>): Subscription;
+}
+
+const NAME_PATTERN = /^[A-Za-z0-9_-]{1,32}$/;
+
+interface AxisStage {
+  readonly pipeline: Pipeline;
+  readonly correction: Correction;
+  readonly summary: MutableSummary;
+  x: Int16Array;
+  y: Int16Array;
+}
+
+type MutableSummary = { -readonly [K in keyof AxisBlockSummary]: AxisBlockSummary[K] } & { events: AlarmEvent[] };
+
+/**
+ * Builds the axes over `source$`: interleaved frames (any axis count the frames carry at least) or, for a
+ * single axis, `AxisBlock`s. The chains start with the first subscriber and stop after the last one leaves
+ * (or when `connect()`'s subscription ends); a restart counts from zero again. Input buffers are read
+ * synchronously and never kept.
+ */
+export function createAxes(source$: Observable<FrameBlock | AxisBlock>, options: AxesOptions): Axes {
+  const axisCount = integerInRange('axes.length', options.axes.length, 1, 8);
+  const names = options.axes.map((axis, k) => {
+    const name = axis.name ?? `axis${k}`;
+    if (!NAME_PATTERN.test(name)) throw new OptionError(`axes[${k}].name`, '1..32 characters of A-Z a-z 0-9 _ -', name);
+    return name;
+  });
+  if (new Set(names).size !== names.length) throw new OptionError('axes[].name', 'unique', names);
+  for (const axis of options.axes) createPipeline(axis);
+  const tracePoints = integerInRange('tracePoints', options.tracePoints ?? 256, 0, 4096);
+  const tracePerBlock = integerInRange('tracePointsPerBlock', options.tracePointsPerBlock ?? 16, 1, 4096);
+  const maxEvents = integerInRange('maxEventsPerUpdate', options.maxEventsPerUpdate ?? 64, 1, 65536);
+  const scheduler = options.scheduler ?? asyncScheduler;
+  // The running chain's latest summaries, so a subscriber joining mid-stream starts from the current state.
+  let current: readonly AxisBlockSummary[] | null = null;
+
+  const blocks$ = new Observable<readonly AxisBlockSummary[]>((subscriber) => {
+    const stages: AxisStage[] = options.axes.map((axisOptions, k) => {
+      const pipeline = createPipeline(axisOptions);
+      return {
+        pipeline,
+        correction: createCorrection({ calibration: axisOptions.calibration ?? null }),
+        summary: emptySummary(names[k]!, pipeline.speedLimits, tracePoints),
+        x: new Int16Array(0),
+        y: new Int16Array(0),
+      };
+    });
+    const summaries: readonly AxisBlockSummary[] = stages.map((stage) => stage.summary);
+    const buffers = createPositionBuffers(options.axes[0]!.blockCapacity ?? 4096);
+    const pick = { x: new Float64Array(tracePerBlock), y: new Float64Array(tracePerBlock), u: new Float64Array(tracePerBlock), v: new Float64Array(tracePerBlock) };
+
+    function processAxis(stage: AxisStage, x: AxisBlock['x'], y: AxisBlock['y'], length: number, gapBefore: number): void {
+      const { pipeline, summary } = stage;
+      if (gapBefore > 0) pipeline.markGap(gapBefore);
+      summary.events.length = 0;
+      const out = buffers.views(length);
+      pipeline.process(x, y, length, out, summary.events);
+      summarise(summary, out, length, gapBefore, pipeline);
+      if (tracePoints > 0 && length > 0) {
+        const count = Math.min(tracePerBlock, length);
+        const step = length / count;
+        for (let j = 0; j < count; j++) {
+          const i = Math.floor(j * step);
+          pick.x[j] = x[i]!;
+          pick.y[j] = y[i]!;
+        }
+        stage.correction.process(pick.x, pick.y, pick.u, pick.v, count);
+        for (let j = 0; j < count; j++) {
+          const at = summary.traceNext;
+          summary.traceX[at] = pick.x[j]!;
+          summary.traceY[at] = pick.y[j]!;
+          summary.traceU[at] = pick.u[j]!;
+          summary.traceV[at] = pick.v[j]!;
+          summary.traceNext = (at + 1) % tracePoints;
+        }
+        summary.traceFilled = Math.min(tracePoints, summary.traceFilled + count);
+      }
+    }
+
+    const subscription = source$.subscribe({
+      next(block) {
+        try {
+          if ('samples' in block) {
+            checkFrameBlock(block);
+            if (block.channelCount < 2 * axisCount) {
+              throw new RangeError(`frames carry ${block.channelCount} channels, ${axisCount} axes need ${2 * axisCount}`);
+            }
+            const n = block.samplesPerFrame;
+            const stride = block.channelCount;
+            for (let k = 0; k < axisCount; k++) {
+              const stage = stages[k]!;
+              if (stage.x.length < n) {
+                stage.x = new Int16Array(n);
+                stage.y = new Int16Array(n);
+              }
+              let at = 2 * k;
+              for (let s = 0; s < n; s++) {
+                stage.x[s] = block.samples[at]!;
+                stage.y[s] = block.samples[at + 1]!;
+                at += stride;
+              }
+              processAxis(stage, stage.x, stage.y, n, block.gapBefore ?? 0);
+            }
+          } else {
+            if (axisCount !== 1) throw new RangeError(`an AxisBlock carries one axis; ${axisCount} axes need FrameBlocks`);
+            checkAxisBlock(block);
+            processAxis(stages[0]!, block.x, block.y, block.length, block.gapBefore ?? 0);
+          }
+        } catch (error) {
+          subscriber.error(error);
+          return;
+        }
+        current = summaries;
+        subscriber.next(summaries);
+      },
+      error: (error: unknown) => subscriber.error(error),
+      complete: () => subscriber.complete(),
+    });
+    return () => {
+      subscription.unsubscribe();
+      current = null;
+    };
+  }).pipe(share());
+
+  function update$(updateOptions: UpdateOptions = {}): Observable<AxesUpdate> {
+    const periodMs = updateOptions.updateHz === undefined ? 0 : 1000 / rate(updateOptions.updateHz);
+    const withTrace = updateOptions.trace === true;
+    const ready = updateOptions.ready ?? (() => true);
+    return new Observable<AxesUpdate>((subscriber) => {
+      const accumulators = names.map((name) => createAccumulator(name, maxEvents));
+      let latest = current;
+      let pending = latest !== null;
+      if (latest !== null) for (let k = 0; k < axisCount; k++) accumulators[k]!.seed(latest[k]!);
+      function emit(): void {
+        pending = false;
+        subscriber.next({ axes: accumulators.map((accumulator, k) => accumulator.take(withTrace ? latest![k]! : null)) });
+      }
+      const ticks = periodMs > 0 ? interval(periodMs, scheduler).subscribe(() => pending && ready() && emit()) : null;
+      if (ticks === null && pending) emit();
+      const blocks = blocks$.subscribe({
+        next(summaries) {
+          for (let k = 0; k < axisCount; k++) accumulators[k]!.merge(summaries[k]!);
+          latest = summaries;
+          pending = true;
+          if (ticks === null) emit();
+        },
+        error(error: unknown) {
+          if (pending) emit();
+          subscriber.error(error);
+        },
+        complete() {
+          if (pending) emit();
+          subscriber.complete();
+        },
+      });
+      return () => {
+        ticks?.unsubscribe();
+        blocks.unsubscribe();
+        latest = null;
+      };
+    });
+  }
+
+  const alarms$ = blocks$.pipe(
+    mergeMap((summaries) => {
+      const events: AxisAlarmEvent[] = [];
+      for (const summary of summaries) for (const event of summary.events) events.push({ ...event, axis: summary.name });
+      return events;
+    }),
+  );
+
+  const axes: Axis[] = names.map((name, index) => {
+    const axisUpdate$ = (updateOptions?: UpdateOptions) => update$(updateOptions).pipe(map((update) => update.axes[index]!));
+    return {
+      name,
+      index,
+      update$: axisUpdate$,
+      position$: (updateOptions?: UpdateOptions) =>
+        axisUpdate$(updateOptions).pipe(
+          map((u) => ({ sampleIndex: u.sampleIndex, positionM: u.positionM, minM: u.positionMinM, maxM: u.positionMaxM })),
+        ),
+      velocity$: (updateOptions?: UpdateOptions) =>
+        axisUpdate$(updateOptions).pipe(
+          map((u) => ({ sampleIndex: u.sampleIndex, velocityMS: u.velocityMS, minMS: u.velocityMinMS, maxMS: u.velocityMaxMS })),
+        ),
+      alarms$: alarms$.pipe(filter((event) => event.axis === name)),
+      status$: blocks$.pipe(
+        map((summaries) => summaries[index]!),
+        filter((summary) => summary.length > 0 || summary.lostBefore > 0),
+        // The summary object is reused, so compare a key taken from it, not the object itself.
+        distinctUntilChanged<AxisBlockSummary, number>((a, b) => a === b, (s) => s.flags | (s.countLost ? 256 : 0)),
+        map((s) => ({ sampleIndex: s.sampleIndex, flags: s.flags, alarms: alarmText(s.flags), countLost: s.countLost, speedLimits: s.speedLimits })),
+      ),
+    };
+  });
+
+  return {
+    axes,
+    names,
+    update$,
+    alarms$,
+    blocks$,
+    connect: (observer) => blocks$.subscribe(observer),
+  };
+}
+
+function rate(updateHz: unknown): number {
+  const value = positiveFinite('updateHz', updateHz);
+  if (value > 1000) throw new OptionError('updateHz', 'a positive finite number up to 1000', value);
+  return value;
+}
+
+function emptySummary(name: string, speedLimits: SpeedLimits, tracePoints: number): MutableSummary {
+  return {
+    name,
+    length: 0,
+    lostBefore: 0,
+    sampleIndex: -1,
+    positionM: Number.NaN,
+    positionMinM: Number.NaN,
+    positionMaxM: Number.NaN,
+    velocityMS: Number.NaN,
+    velocityMinMS: Number.NaN,
+    velocityMaxMS: Number.NaN,
+    level: Number.NaN,
+    levelMin: Number.NaN,
+    flags: 0,
+    flagsSeen: 0,
+    countLost: false,
+    events: [],
+    speedLimits,
+    traceX: new Float32Array(tracePoints),
+    traceY: new Float32Array(tracePoints),
+    traceU: new Float32Array(tracePoints),
+    traceV: new Float32Array(tracePoints),
+    traceNext: 0,
+    traceFilled: 0,
+  };
+}
+
+/** One pass over the block's outputs for latest, min and max; the latest values stay when the block is empty. */
+function summarise(
+  summary: MutableSummary,
+  out: { positionM: Float64Array; velocityMS: Float64Array; level: Float32Array; flags: Uint8Array },
+  length: number,
+  lostBefore: number,
+  pipeline: Pipeline,
+): void {
+  summary.length = length;
+  summary.lostBefore = lostBefore;
+  summary.sampleIndex = pipeline.nextSampleIndex - 1;
+  summary.countLost = pipeline.countLost;
+  if (length === 0) {
+    summary.positionMinM = summary.positionMaxM = Number.NaN;
+    summary.velocityMinMS = summary.velocityMaxMS = summary.levelMin = Number.NaN;
+    summary.flagsSeen = 0;
+    return;
+  }
+  const { positionM, velocityMS, level, flags } = out;
+  let pMin = Infinity, pMax = -Infinity, vMin = Infinity, vMax = -Infinity, lMin = Infinity, seen = 0;
+  for (let i = 0; i < length; i++) {
+    const p = positionM[i]!, v = velocityMS[i]!, l = level[i]!;
+    if (p < pMin) pMin = p;
+    if (p > pMax) pMax = p;
+    if (v < vMin) vMin = v;
+    if (v > vMax) vMax = v;
+    if (l < lMin) lMin = l;
+    seen |= flags[i]!;
+  }
+  summary.positionM = positionM[length - 1]!;
+  summary.velocityMS = velocityMS[length - 1]!;
+  summary.level = level[length - 1]!;
+  summary.flags = flags[length - 1]!;
+  summary.positionMinM = finiteOrNaN(pMin);
+  summary.positionMaxM = finiteOrNaN(pMax);
+  summary.velocityMinMS = finiteOrNaN(vMin);
+  summary.velocityMaxMS = finiteOrNaN(vMax);
+  summary.levelMin = finiteOrNaN(lMin);
+  summary.flagsSeen = seen;
+}
+
+function finiteOrNaN(value: number): number {
+  return Number.isFinite(value) ? value : Number.NaN;
+}
+
+/** One subscriber's view of one axis between its updates. */
+function createAccumulator(name: string, maxEvents: number) {
+  let sampleIndex = -1, samples = 0;
+  let positionM = Number.NaN, velocityMS = Number.NaN, level = Number.NaN, flags = 0, countLost = false;
+  let pMin = Infinity, pMax = -Infinity, vMin = Infinity, vMax = -Infinity, lMin = Infinity, seen = 0;
+  let events: AlarmEvent[] = [];
+  let dropped = 0;
+  return {
+    /** Starts from the chain's current state: latest values, no samples or events of its own yet. */
+    seed(s: AxisBlockSummary): void {
+      sampleIndex = s.sampleIndex;
+      countLost = s.countLost;
+      positionM = pMin = pMax = s.positionM;
+      velocityMS = vMin = vMax = s.velocityMS;
+      level = lMin = s.level;
+      flags = seen = s.flags;
+    },
+    merge(s: AxisBlockSummary): void {
+      samples += s.length + s.lostBefore;
+      sampleIndex = s.sampleIndex;
+      countLost = s.countLost;
+      if (s.length > 0) {
+        positionM = s.positionM;
+        velocityMS = s.velocityMS;
+        level = s.level;
+        flags = s.flags;
+        if (s.positionMinM < pMin) pMin = s.positionMinM;
+        if (s.positionMaxM > pMax) pMax = s.positionMaxM;
+        if (s.velocityMinMS < vMin) vMin = s.velocityMinMS;
+        if (s.velocityMaxMS > vMax) vMax = s.velocityMaxMS;
+        if (s.levelMin < lMin) lMin = s.levelMin;
+        seen |= s.flagsSeen;
+      }
+      for (const event of s.events) {
+        if (events.length < maxEvents) events.push(event);
+        else dropped++;
+      }
+    },
+    take(trace: AxisBlockSummary | null): AxisUpdate {
+      const update: AxisUpdate = {
+        name,
+        sampleIndex,
+        samples,
+        positionM,
+        positionMinM: finiteOrNaN(pMin),
+        positionMaxM: finiteOrNaN(pMax),
+        velocityMS,
+        velocityMinMS: finiteOrNaN(vMin),
+        velocityMaxMS: finiteOrNaN(vMax),
+        level,
+        levelMin: finiteOrNaN(lMin),
+        flags,
+        flagsSeen: seen,
+        countLost,
+        events,
+        eventsDropped: dropped,
+        ...(trace === null ? {} : { trace: copyTrace(trace) }),
+      };
+      samples = 0;
+      pMin = vMin = lMin = Infinity;
+      pMax = vMax = -Infinity;
+      seen = 0;
+      events = [];
+      dropped = 0;
+      return update;
+    },
+  };
+}
+
+function copyTrace(s: AxisBlockSummary): Trace {
+  const capacity = s.traceX.length;
+  const trace: Trace = { x: [], y: [], u: [], v: [] };
+  const start = (s.traceNext - s.traceFilled + capacity) % Math.max(capacity, 1);
+  for (let j = 0; j < s.traceFilled; j++) {
+    const at = (start + j) % capacity;
+    trace.x.push(s.traceX[at]!);
+    trace.y.push(s.traceY[at]!);
+    trace.u.push(s.traceU[at]!);
+    trace.v.push(s.traceV[at]!);
+  }
+  return trace;
+}

@@ -1,0 +1,124 @@
+// The MQTT publisher against a real Mosquitto broker on loopback (started per test with its own config,
+// stopped by PID): retained per-axis updates, resume after a subscriber reconnects, status with last will,
+// and username/password refusal. Fails, never skips, when mosquitto is missing.
+// Check values: displacement per fringe λ/(N·n), λ = 632.9908 nm, N = 2 (CIPM 2007, published; common practice).
+import { afterEach, describe, expect, it } from 'vitest';
+import mqtt, { type MqttClient } from 'mqtt';
+import { createAxes } from '../../src/stream/index.js';
+import { startMqttPublisher, type MqttAxisMessage, type MqttPublisher } from '../../src/io/feed/index.js';
+import { axisOptions, METRES_PER_FRINGE } from '../stream/signal.js';
+import { startBroker, type Broker } from './broker.js';
+import { createMotion } from './support.js';
+
+let broker: Broker | null = null;
+let publisher: MqttPublisher | null = null;
+const subscribers: MqttClient[] = [];
+
+afterEach(async () => {
+  for (const client of subscribers.splice(0)) await client.endAsync(true);
+  await publisher?.close();
+  publisher = null;
+  await broker?.stop();
+  broker = null;
+});
+
+/** A subscriber that queues messages of `topic` so a test can wait for one that matches. */
+async function subscriber(url: string, topic: string, extra: mqtt.IClientOptions = {}) {
+  const client = await mqtt.connectAsync(url, { reconnectPeriod: 0, ...extra });
+  subscribers.push(client);
+  const queue: Record<string, unknown>[] = [];
+  let wake: (() => void) | null = null;
+  client.on('message', (_topic, payload) => {
+    queue.push(JSON.parse(payload.toString()) as Record<string, unknown>);
+    wake?.();
+  });
+  await client.subscribeAsync(topic, { qos: 1 });
+  return {
+    client,
+    async next<T>(match: (message: Record<string, unknown>) => boolean, what: string): Promise<T> {
+      for (let waits = 0; waits < 10_000; waits++) {
+        while (queue.length > 0) {
+          const message = queue.shift()!;
+          if (match(message)) return message as T;
+        }
+        await new Promise<void>((resolve) => (wake = resolve));
+      }
+      throw new Error(`no ${what}`);
+    },
+  };
+}
+
+const reached = (sampleIndex: number) => (m: Record<string, unknown>) => m.type === 'axis' && (m.sampleIndex as number) >= sampleIndex;
+
+describe('MQTT publisher', () => {
+  it('publishes retained per-axis updates; a reconnecting subscriber resumes from the latest', async () => {
+    broker = await startBroker();
+    const motion = createMotion();
+    const axes = createAxes(motion.source, { axes: [{ ...axisOptions, name: 'X' }] });
+    publisher = await startMqttPublisher({ axes, url: broker.url, topicPrefix: 'lab/bench1', updateHz: 50 });
+    expect(publisher.axisTopics).toEqual(['lab/bench1/axis/X']);
+    const status = await subscriber(broker.url, publisher.statusTopic);
+    expect(await status.next((m) => m.type === 'status', 'status')).toEqual({ type: 'status', schema: 1, state: 'online', axes: ['X'] });
+
+    const first = await subscriber(broker.url, 'lab/bench1/axis/X');
+    motion.move(2, 1000);
+    const update = await first.next<MqttAxisMessage>(reached(999), 'update at sample 999');
+    expect(update.name).toBe('X');
+    expect(update.schema).toBe(1);
+    expect(update.positionM! / METRES_PER_FRINGE).toBeCloseTo(motion.fringes, 9);
+    expect(update.alarms).toEqual([]);
+    await first.client.endAsync();
+
+    motion.move(-0.5, 1000); // while the subscriber is away
+    const again = await subscriber(broker.url, 'lab/bench1/axis/X');
+    const resumed = await again.next<MqttAxisMessage>(reached(1999), 'retained update after reconnect');
+    expect(resumed.seq).toBeGreaterThan(update.seq);
+    expect(resumed.positionM! / METRES_PER_FRINGE).toBeCloseTo(motion.fringes, 9);
+
+    await publisher.close();
+    publisher = null;
+    expect(await status.next((m) => m.state === 'offline', 'offline status')).toMatchObject({ state: 'offline' });
+  });
+
+  it('publishes several axes on their own topics', async () => {
+    broker = await startBroker();
+    const motion = createMotion();
+    // Both axes read the same two channels here: an invented rig with a spare channel pair duplicated.
+    const frames = new (await import('rxjs')).Subject<import('../../src/stream/index.js').FrameBlock>();
+    motion.source.subscribe((block) => {
+      const samples = new Int16Array(4 * block.length);
+      for (let s = 0; s < block.length; s++) {
+        samples[4 * s] = samples[4 * s + 2] = Math.round(block.x[s]!);
+        samples[4 * s + 1] = samples[4 * s + 3] = Math.round(block.y[s]!);
+      }
+      frames.next({ samples, channelCount: 4, samplesPerFrame: block.length });
+    });
+    const axes = createAxes(frames, { axes: [{ ...axisOptions, name: 'X' }, { ...axisOptions, name: 'Y' }] });
+    publisher = await startMqttPublisher({ axes, url: broker.url, updateHz: 50 });
+    const all = await subscriber(broker.url, 'fringetally/axis/+');
+    motion.move(1, 1000);
+    const x = await all.next<MqttAxisMessage>((m) => reached(999)(m) && m.name === 'X', 'axis X');
+    const y = await all.next<MqttAxisMessage>((m) => reached(999)(m) && m.name === 'Y', 'axis Y');
+    expect(x.positionM).toBe(y.positionM);
+    // int16 rounding of the samples: about 1e-4 rad of phase, so 1e-4 fringe.
+    expect(x.positionM! / METRES_PER_FRINGE).toBeCloseTo(motion.fringes, 4);
+  });
+
+  it('logs in with username and password; a wrong password is refused with a clear error', async () => {
+    broker = await startBroker({ stage: 'correct horse battery' });
+    const axes = createAxes(createMotion().source, { axes: [axisOptions] });
+    await expect(startMqttPublisher({ axes, url: broker.url, username: 'stage', password: 'wrong' })).rejects.toThrow(
+      new RegExp(`^MQTT broker at ${broker.url.replace(/[.]/g, '\\.')} refused or failed the connection: .*(Not authorized|Bad User Name or Password)`),
+    );
+    publisher = await startMqttPublisher({ axes, url: broker.url, username: 'stage', password: 'correct horse battery' });
+    const status = await subscriber(broker.url, publisher.statusTopic, { username: 'stage', password: 'correct horse battery' });
+    expect(await status.next((m) => m.type === 'status', 'status')).toMatchObject({ state: 'online' });
+  });
+
+  it('rejects invalid options naming the option and rule', async () => {
+    const axes = createAxes(createMotion().source, { axes: [axisOptions] });
+    await expect(startMqttPublisher({ axes, topicPrefix: 'lab/#' })).rejects.toThrow('topicPrefix must be MQTT topic levels without +, # or empty levels (got "lab/#")');
+    await expect(startMqttPublisher({ axes, username: 'stage' })).rejects.toThrow('password must be given together with username (got undefined)');
+    await expect(startMqttPublisher({ axes, url: 'http://broker' })).rejects.toThrow('url must be an mqtt:// or mqtts:// URL (got "http://broker")');
+  });
+});
