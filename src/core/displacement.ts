@@ -37,7 +37,8 @@ export interface Displacement {
   reset(): void;
 }
 
-function checkIndex(value: unknown): number {
+/** The refractive-index rule of every stage: [1, 1.01). */
+export function validateRefractiveIndex(value: unknown): number {
   return numberInRange('refractiveIndex', value, 1, 1.01);
 }
 
@@ -45,7 +46,7 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
   const wavelengthM = positiveFinite('wavelengthM', options.wavelengthM);
   const fold = positiveFinite('fold', options.fold);
   const rateHz = positiveFinite('rateHz', options.rateHz);
-  let refractiveIndex = checkIndex(options.refractiveIndex ?? 1);
+  let refractiveIndex = validateRefractiveIndex(options.refractiveIndex ?? 1);
   let metresPerFringe = 0;
   let metresPerRad = 0;
   let velocityPerStep = 0;
@@ -89,7 +90,7 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
       referencePending = true;
     },
     setRefractiveIndex(next: number) {
-      refractiveIndex = checkIndex(next);
+      refractiveIndex = validateRefractiveIndex(next);
       updateScale();
     },
     get metresPerFringe() {

@@ -10,6 +10,7 @@ import {
   integerInRange,
   OptionError,
   positiveFinite,
+  validateRefractiveIndex,
   type AlarmEvent,
   type Correction,
   type Pipeline,
@@ -35,6 +36,11 @@ export interface AxesOptions {
   readonly maxEventsPerUpdate?: number;
   /** Scheduler of the update timers. Default `asyncScheduler`; tests pass a `TestScheduler`. */
   readonly scheduler?: SchedulerLike;
+  /**
+   * Refractive index of air on all axes as it changes during the run (e.g. `airIndex()` over sensor readings).
+   * Each value rescales the readings from the next block on; the fringe counts are untouched.
+   */
+  readonly refractiveIndex$?: Observable<number>;
 }
 
 export interface UpdateOptions {
@@ -168,6 +174,8 @@ export interface Axes {
    * is reported by rxjs as unhandled (never dropped).
    */
   connect(observer?: Partial<Observer<unknown>>): Subscription;
+  /** Sets the refractive index of air on all axes from the next block on (the scale changes, not the count). */
+  setRefractiveIndex(refractiveIndex: number): void;
 }
 
 const NAME_PATTERN = /^[A-Za-z0-9_-]{1,32}$/;
@@ -203,10 +211,18 @@ export function createAxes(source$: Observable<FrameBlock | AxisBlock>, options:
   const scheduler = options.scheduler ?? asyncScheduler;
   // The running chain's latest summaries, so a subscriber joining mid-stream starts from the current state.
   let current: readonly AxisBlockSummary[] | null = null;
+  // The index set during the run; a restarted chain starts from it, not from the options.
+  let refractiveIndex: number | null = null;
+  let running: readonly AxisStage[] = [];
+  function setRefractiveIndex(next: number): void {
+    validateRefractiveIndex(next);
+    for (const stage of running) stage.pipeline.setRefractiveIndex(next);
+    refractiveIndex = next;
+  }
 
   const blocks$ = new Observable<readonly AxisBlockSummary[]>((subscriber) => {
     const stages: AxisStage[] = options.axes.map((axisOptions, k) => {
-      const pipeline = createPipeline(axisOptions);
+      const pipeline = createPipeline(refractiveIndex === null ? axisOptions : { ...axisOptions, refractiveIndex });
       return {
         pipeline,
         correction: createCorrection({ calibration: axisOptions.calibration ?? null }),
@@ -247,6 +263,17 @@ export function createAxes(source$: Observable<FrameBlock | AxisBlock>, options:
       }
     }
 
+    running = stages;
+    const indexSubscription = options.refractiveIndex$?.subscribe({
+      next(value) {
+        try {
+          setRefractiveIndex(value);
+        } catch (error) {
+          subscriber.error(error);
+        }
+      },
+      error: (error: unknown) => subscriber.error(error),
+    });
     const subscription = source$.subscribe({
       next(block) {
         try {
@@ -288,6 +315,8 @@ export function createAxes(source$: Observable<FrameBlock | AxisBlock>, options:
     });
     return () => {
       subscription.unsubscribe();
+      indexSubscription?.unsubscribe();
+      running = [];
       current = null;
     };
   }).pipe(share());
@@ -371,6 +400,7 @@ export function createAxes(source$: Observable<FrameBlock | AxisBlock>, options:
     alarms$,
     blocks$,
     connect: (observer) => blocks$.subscribe(observer),
+    setRefractiveIndex,
   };
 }
 

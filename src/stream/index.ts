@@ -5,3 +5,4 @@ export * from './correct-quadrature.js';
 export * from './deinterleave-axis.js';
 export * from './fit-ellipse.js';
 export * from './track-position.js';
+export { airIndex } from './air-index.js';
