@@ -14,6 +14,8 @@ export interface Correction {
   /** Replaces the calibration (null: identity); coefficients are recomputed at once. */
   setCalibration(calibration: EllipseCalibration | null): void;
   readonly calibration: EllipseCalibration | null;
+  /** u = c[0]·x + c[1], v = c[2]·x + c[3]·y + c[4]: the coefficients in use, for accelerated front ends (read-only). */
+  readonly coefficients: Float64Array;
   reset(): void;
 }
 
@@ -30,24 +32,30 @@ export function validateCalibration(calibration: EllipseCalibration, name = 'cal
   return Object.freeze({ ...calibration });
 }
 
+/** Writes [ux, u0, vx, vy, v0] with u = ux·x + u0, v = vx·x + vy·y + v0 mapping the ellipse onto the unit circle. */
+export function correctionCoefficients(calibration: EllipseCalibration | null, out: Float64Array): Float64Array {
+  if (calibration === null) {
+    out.set([1, 0, 0, 1, 0]);
+    return out;
+  }
+  const { offsetX, offsetY, amplitudeX, amplitudeY, phaseErrorRad } = calibration;
+  const tanE = Math.tan(phaseErrorRad);
+  const secE = 1 / Math.cos(phaseErrorRad);
+  out[0] = 1 / amplitudeX;
+  out[1] = -offsetX / amplitudeX;
+  out[2] = -tanE / amplitudeX;
+  out[3] = secE / amplitudeY;
+  out[4] = (offsetX * tanE) / amplitudeX - (offsetY * secE) / amplitudeY;
+  return out;
+}
+
 export function createCorrection(options: CorrectionOptions = {}): Correction {
   let calibration: EllipseCalibration | null = null;
   // u = ux·x + u0;  v = vx·x + vy·y + v0  (inverse of x = aX cos φ + oX, y = aY sin(φ + e) + oY)
-  let ux = 1, u0 = 0, vx = 0, vy = 1, v0 = 0;
+  const coefficients = new Float64Array(5);
 
   function updateCoefficients(): void {
-    if (calibration === null) {
-      ux = 1; u0 = 0; vx = 0; vy = 1; v0 = 0;
-      return;
-    }
-    const { offsetX, offsetY, amplitudeX, amplitudeY, phaseErrorRad } = calibration;
-    const tanE = Math.tan(phaseErrorRad);
-    const secE = 1 / Math.cos(phaseErrorRad);
-    ux = 1 / amplitudeX;
-    u0 = -offsetX / amplitudeX;
-    vx = -tanE / amplitudeX;
-    vy = secE / amplitudeY;
-    v0 = (offsetX * tanE) / amplitudeX - (offsetY * secE) / amplitudeY;
+    correctionCoefficients(calibration, coefficients);
   }
 
   function setCalibration(next: EllipseCalibration | null): void {
@@ -56,7 +64,7 @@ export function createCorrection(options: CorrectionOptions = {}): Correction {
   }
 
   function process(x: ArrayLike<number>, y: ArrayLike<number>, u: Float64Array, v: Float64Array, length: number): number {
-    const kux = ux, ku0 = u0, kvx = vx, kvy = vy, kv0 = v0;
+    const kux = coefficients[0]!, ku0 = coefficients[1]!, kvx = coefficients[2]!, kvy = coefficients[3]!, kv0 = coefficients[4]!;
     for (let i = 0; i < length; i++) {
       const xi = x[i]!;
       u[i] = kux * xi + ku0;
@@ -72,6 +80,7 @@ export function createCorrection(options: CorrectionOptions = {}): Correction {
     get calibration() {
       return calibration;
     },
+    coefficients,
     // The correction holds no signal state; reset keeps the calibration, as for every stage.
     reset() {},
   };

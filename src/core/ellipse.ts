@@ -2,7 +2,7 @@
 // x^i y^j (i + j <= 4) are all the least-squares conic fit needs, so a fit needs no stored samples and two
 // accumulators merge exactly. P. L. M. Heydemann, Applied Optics 20(19), 3382-3384 (1981).
 
-import { integerInRange, numberInRange, OptionError } from './options.js';
+import { integerInRange, MAX_COUNT, numberInRange, OptionError } from './options.js';
 
 /**
  * The ellipse of a pair of quadrature signals, in the one convention fringetally uses everywhere:
@@ -178,8 +178,8 @@ function solve5(matrix: Float64Array, rhs: Float64Array): boolean {
     }
     for (let row = col + 1; row < n; row++) {
       const factor = matrix[row * n + col]! / matrix[col * n + col]!;
-      for (let k = col; k < n; k++) matrix[row * n + k] = matrix[row * n + k]! - factor * matrix[col * n + k]!;
-      rhs[row] = rhs[row]! - factor * rhs[col]!;
+      for (let k = col; k < n; k++) matrix[row * n + k] -= factor * matrix[col * n + k]!;
+      rhs[row] -= factor * rhs[col]!;
     }
   }
   for (let row = n - 1; row >= 0; row--) {
@@ -200,7 +200,7 @@ export interface FitLimits {
 
 /** Validates the limits of `EllipseFitOptions` once, with their defaults. */
 export function resolveFitLimits(options: EllipseFitOptions): FitLimits {
-  const minSamples = integerInRange('minSamples', options.minSamples ?? 32, 6, Number.MAX_SAFE_INTEGER);
+  const minSamples = integerInRange('minSamples', options.minSamples ?? 32, 6, MAX_COUNT);
   const minCoverage = numberInRange('minCoverage', options.minCoverage ?? 0.75, 0, 1);
   const maxAmplitudeRatio = options.maxAmplitudeRatio ?? 4;
   if (!(maxAmplitudeRatio >= 1 && Number.isFinite(maxAmplitudeRatio))) {
@@ -378,21 +378,21 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
       s04 += vv * vv;
       mark(u, v);
     }
-    moments[0] = moments[0]! + s00;
-    moments[1] = moments[1]! + s10;
-    moments[2] = moments[2]! + s01;
-    moments[3] = moments[3]! + s20;
-    moments[4] = moments[4]! + s11;
-    moments[5] = moments[5]! + s02;
-    moments[6] = moments[6]! + s30;
-    moments[7] = moments[7]! + s21;
-    moments[8] = moments[8]! + s12;
-    moments[9] = moments[9]! + s03;
-    moments[10] = moments[10]! + s40;
-    moments[11] = moments[11]! + s31;
-    moments[12] = moments[12]! + s22;
-    moments[13] = moments[13]! + s13;
-    moments[14] = moments[14]! + s04;
+    moments[0] += s00;
+    moments[1] += s10;
+    moments[2] += s01;
+    moments[3] += s20;
+    moments[4] += s11;
+    moments[5] += s02;
+    moments[6] += s30;
+    moments[7] += s21;
+    moments[8] += s12;
+    moments[9] += s03;
+    moments[10] += s40;
+    moments[11] += s31;
+    moments[12] += s22;
+    moments[13] += s13;
+    moments[14] += s04;
   }
 
   function merge(other: EllipseAccumulator): void {
@@ -407,7 +407,7 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
     } else {
       shiftMoments(incoming, theirs.shiftX - shiftX, theirs.shiftY - shiftY, scratch);
     }
-    for (let k = 0; k < MONOMIAL_COUNT; k++) moments[k] = moments[k]! + incoming[k]!;
+    for (let k = 0; k < MONOMIAL_COUNT; k++) moments[k] += incoming[k]!;
     const d = theirs.shiftX - shiftX;
     const e = theirs.shiftY - shiftY;
     const cell = (2 * theirs.gridHalfWidth) / GRID;
@@ -420,7 +420,7 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
     }
   }
 
-  function fail(reason: EllipseFitFailure, message: string, coverage = Number.NaN): EllipseFitResult {
+  function fail(reason: EllipseFitFailure, message: string, coverage = NaN): EllipseFitResult {
     return { ok: false, reason, message, samples: moments[0]!, coverage };
   }
 
@@ -456,7 +456,7 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
     if (h === null) {
       return fail(
         'not-an-ellipse',
-        'the least-squares conic is not an ellipse: too little of the figure is covered, or the signal is not quadrature',
+        'the conic is not an ellipse: too little of the figure covered, or not quadrature',
       );
     }
 

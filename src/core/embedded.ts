@@ -4,7 +4,7 @@
 export { AlarmBit, alarmKinds, alarmNames, alarmText } from './alarms.js';
 export { createCorrection } from './correction.js';
 export { createDisplacement } from './displacement.js';
-export { createEllipseAccumulator, fromHeydemann, toHeydemann } from './ellipse.js';
+export { createEllipseAccumulator, fromHeydemann } from './ellipse.js';
 export { createSignalMonitor } from './monitor.js';
 export { OptionError } from './options.js';
 export { TWO_PI, wrapPhase } from './phase.js';

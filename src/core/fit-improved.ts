@@ -77,13 +77,13 @@ export function createConicSolver(method: EllipseFitMethod): ConicSolver {
   const eigen = createGeneralizedEigenSolver(5);
   const solution: ConicSolution = {
     status: 'degenerate', A: 0, B: 0, C: 0, D: 0, E: 0, centreU: 0, centreV: 0, scale: 0,
-    p: 0, q: 0, R: 0, G: 0, alphaRad: 0, residualRms: Number.NaN,
+    p: 0, q: 0, R: 0, G: 0, alphaRad: 0, residualRms: NaN,
   };
   const avg = (i: number, j: number): number => average[momentIndex(i, j)]!;
 
   function fail(status: 'degenerate' | 'not-an-ellipse'): ConicSolution {
     solution.status = status;
-    solution.residualRms = Number.NaN;
+    solution.residualRms = NaN;
     return solution;
   }
 
@@ -115,12 +115,12 @@ export function createConicSolver(method: EllipseFitMethod): ConicSolver {
     let lambda = 0;
     for (let iteration = 0; iteration < 50; iteration++) {
       constraint.set(taubin);
-      constraint[0] = constraint[0]! + lambda;
-      constraint[1] = constraint[1]! + lambda;
-      constraint[5] = constraint[5]! + lambda;
-      constraint[6] = constraint[6]! + lambda;
+      constraint[0] += lambda;
+      constraint[1] += lambda;
+      constraint[5] += lambda;
+      constraint[6] += lambda;
       const next = eigen.smallest(covariance, constraint, theta);
-      if (next !== next) return Number.NaN;
+      if (next !== next) return NaN;
       const settled = Math.abs(next - lambda) <= 1e-15 + 1e-12 * Math.abs(next);
       lambda = next;
       if (method === 'taubin' || settled) break;
@@ -248,7 +248,7 @@ export function createEllipseFit(options: EllipseFitMethodOptions = {}): Ellipse
   function solve(accumulator: EllipseAccumulator): EllipseFitResult {
     const { shiftX, shiftY, moments } = accumulator.state;
     const n = moments[0]!;
-    const fail = (reason: 'too-few-samples' | 'degenerate' | 'not-an-ellipse' | 'implausible' | 'low-coverage', message: string, coverage = Number.NaN): EllipseFitResult =>
+    const fail = (reason: 'too-few-samples' | 'degenerate' | 'not-an-ellipse' | 'implausible' | 'low-coverage', message: string, coverage = NaN): EllipseFitResult =>
       ({ ok: false, reason, message, samples: n, coverage });
     if (n < minSamples) return fail('too-few-samples', `the fit needs at least ${minSamples} samples (got ${n})`);
     const solution = solver.solve(moments);

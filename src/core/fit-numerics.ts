@@ -91,7 +91,7 @@ export function createGeneralizedEigenSolver(n: number): GeneralizedEigenSolver 
 
   function smallest(s: Float64Array, b: Float64Array, vector: Float64Array): number {
     factor.set(b.subarray(0, n * n));
-    if (!choleskyInPlace(factor, n)) return Number.NaN;
+    if (!choleskyInPlace(factor, n)) return NaN;
     // reduced = L⁻¹ S L⁻ᵀ: forward substitution on the columns of S, then on the rows of the result.
     reduced.set(s.subarray(0, n * n));
     for (let col = 0; col < n; col++) {

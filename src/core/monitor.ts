@@ -1,7 +1,7 @@
 // Signal monitor: normalised level, and the low-signal, saturation and bad-sample alarms with hysteresis.
 
 import { AlarmBit, pushAlarm, type AlarmEvent } from './alarms.js';
-import { integerInRange, numberInRange, OptionError, positiveFinite } from './options.js';
+import { integerInRange, numberInRange, oneOf, positiveFinite } from './options.js';
 
 /** How the ADC codes its samples; it sets where saturation begins. */
 export type AdcFormat =
@@ -42,7 +42,13 @@ export interface SignalMonitor {
   ): number;
   reset(): void;
   readonly options: Readonly<Required<SignalMonitorOptions>>;
+  /** ADC codes at or beyond which a sample is saturated. */
+  readonly limits: { readonly low: number; readonly high: number };
+  /** True while no alarm of this stage is active (a block can then take the fast path). */
+  readonly quiet: boolean;
 }
+
+const ADC_KINDS = ['int16', 'unsigned', 'float'] as const;
 
 export function adcLimits(adc: AdcFormat): { low: number; high: number } {
   switch (adc.kind) {
@@ -55,7 +61,7 @@ export function adcLimits(adc: AdcFormat): { low: number; high: number } {
       positiveFinite('adc.fullScale', adc.fullScale);
       return { low: -adc.fullScale, high: adc.fullScale };
     default:
-      throw new OptionError('adc.kind', 'one of "int16", "unsigned", "float"', (adc as { kind: unknown }).kind);
+      return oneOf('adc.kind', (adc as { kind: unknown }).kind, ADC_KINDS) as never;
   }
 }
 
@@ -118,7 +124,7 @@ export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalM
       const finite = xi - xi === 0 && yi - yi === 0;
       const ui = u[i]!;
       const vi = v[i]!;
-      const lev = finite ? Math.sqrt(ui * ui + vi * vi) : Number.NaN;
+      const lev = finite ? Math.sqrt(ui * ui + vi * vi) : NaN;
       level[i] = lev;
       let bits = 0;
 
@@ -126,11 +132,11 @@ export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalM
         badRun = 0;
         if (!badActive) {
           badActive = true;
-          pushAlarm(events, firstIndex + i, 'badSample', true, Number.NaN);
+          pushAlarm(events, firstIndex + i, 'badSample', true, NaN);
         }
       } else if (badActive && ++badRun >= hold) {
         badActive = false;
-        pushAlarm(events, firstIndex + i, 'badSample', false, Number.NaN);
+        pushAlarm(events, firstIndex + i, 'badSample', false, NaN);
       }
       if (badActive) bits |= AlarmBit.badSample;
 
@@ -142,7 +148,7 @@ export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalM
         }
       } else if (saturationActive && ++saturationRun >= hold) {
         saturationActive = false;
-        pushAlarm(events, firstIndex + i, 'saturation', false, Number.NaN);
+        pushAlarm(events, firstIndex + i, 'saturation', false, NaN);
       }
       if (saturationActive) bits |= AlarmBit.saturation;
 
@@ -162,7 +168,7 @@ export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalM
         }
       }
       if (lowActive) bits |= AlarmBit.lowSignal;
-      flags[i] = flags[i]! | bits;
+      flags[i] |= bits;
     }
     return length;
   }
@@ -177,5 +183,13 @@ export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalM
   }
 
   reset();
-  return { process, reset, options: resolved };
+  return {
+    process,
+    reset,
+    options: resolved,
+    limits: { low, high },
+    get quiet() {
+      return !lowActive && !saturationActive && !badActive;
+    },
+  };
 }

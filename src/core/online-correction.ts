@@ -5,7 +5,7 @@
 // Online ellipse compensation after Eom, Kim & Jeong, Meas. Sci. Technol. 12 (2001) (memory).
 
 import type { EllipseCalibration } from './ellipse.js';
-import { validateCalibration } from './correction.js';
+import { correctionCoefficients, validateCalibration } from './correction.js';
 import { createConicSolver, ELLIPSE_FIT_METHODS, MOMENT_COUNT, type EllipseFitMethod } from './fit-improved.js';
 import { integerInRange, numberInRange, oneOf, OptionError } from './options.js';
 import { fastAtan2, TWO_PI, wrapPhase } from './phase.js';
@@ -89,20 +89,20 @@ export function createOnlineCorrection(options: OnlineCorrectionOptions): Online
 
   let offsetX = 0, offsetY = 0, amplitudeX = 1, amplitudeY = 1, phaseErrorRad = 0;
   let ux = 1, u0 = 0, vx = 0, vy = 1, v0 = 0;
-  let samples = 0, updates = 0, refused = 0, coverage = Number.NaN;
+  let samples = 0, updates = 0, refused = 0, coverage = NaN;
   let sinceAttempt = 0;
   let blendAngle = 0, blendLeft = 0;
   let lastUpdateOffsetRad = 0, lastUpdateSampleIndex = -1;
 
-  /** The one place the correction coefficients are derived (as in correction.ts). */
+  const coefficients = new Float64Array(5);
+  /** The correction coefficients, derived as the correction stage derives them. */
   function updateCoefficients(): void {
-    const tanE = Math.tan(phaseErrorRad);
-    const secE = 1 / Math.cos(phaseErrorRad);
-    ux = 1 / amplitudeX;
-    u0 = -offsetX / amplitudeX;
-    vx = -tanE / amplitudeX;
-    vy = secE / amplitudeY;
-    v0 = (offsetX * tanE) / amplitudeX - (offsetY * secE) / amplitudeY;
+    correctionCoefficients({ offsetX, offsetY, amplitudeX, amplitudeY, phaseErrorRad }, coefficients);
+    ux = coefficients[0]!;
+    u0 = coefficients[1]!;
+    vx = coefficients[2]!;
+    vy = coefficients[3]!;
+    v0 = coefficients[4]!;
   }
 
   function recentCoverage(): number {
@@ -225,7 +225,7 @@ export function createOnlineCorrection(options: OnlineCorrectionOptions): Online
     samples = 0;
     updates = 0;
     refused = 0;
-    coverage = Number.NaN;
+    coverage = NaN;
     sinceAttempt = 0;
     blendAngle = 0;
     blendLeft = 0;

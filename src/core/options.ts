@@ -1,5 +1,8 @@
 // Validation of stage options: done once at construction, with errors that name the option, the rule and the value.
 
+/** The largest count of samples or fringes kept exactly in a double: 2^53 − 1. */
+export const MAX_COUNT = 2 ** 53 - 1;
+
 /** A stage option broke its rule. `option`, `rule` and `value` let callers report it precisely. */
 export class OptionError extends RangeError {
   override readonly name = 'OptionError';

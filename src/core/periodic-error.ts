@@ -41,8 +41,8 @@ export function createPeriodicErrorAnalyzer(options: { readonly bins?: number } 
       if (!(Number.isFinite(phase) && Number.isFinite(error))) continue;
       const wrapped = phase - TWO_PI * Math.floor(phase / TWO_PI);
       const bin = Math.min(bins - 1, Math.floor(wrapped * binPerRad));
-      sums[bin] = sums[bin]! + error;
-      counts[bin] = counts[bin]! + 1;
+      sums[bin] += error;
+      counts[bin] += 1;
     }
   }
 
@@ -92,7 +92,7 @@ export function createPeriodicErrorAnalyzer(options: { readonly bins?: number } 
     add,
     summary,
     binnedMeanRad() {
-      return sums.map((sum, b) => (counts[b]! > 0 ? sum / counts[b]! : Number.NaN));
+      return sums.map((sum, b) => (counts[b]! > 0 ? sum / counts[b]! : NaN));
     },
     reset() {
       sums.fill(0);

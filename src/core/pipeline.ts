@@ -5,7 +5,7 @@ import { createCorrection, type Correction } from './correction.js';
 import { createDisplacement, type Displacement } from './displacement.js';
 import type { EllipseCalibration } from './ellipse.js';
 import { createSignalMonitor, type AdcFormat, type SignalMonitor } from './monitor.js';
-import { integerInRange } from './options.js';
+import { integerInRange, MAX_COUNT } from './options.js';
 import { TWO_PI } from './phase.js';
 import { createPhaseTracker, type PhaseTracker, type UnwrapMethod } from './tracker.js';
 
@@ -43,6 +43,31 @@ export interface PipelineOptions {
   readonly clearHoldSamples?: number;
   /** Initial size of the internal block buffers in samples; they grow once to the largest block seen. Default 4096. */
   readonly blockCapacity?: number;
+  /** Accelerated front end for quiet blocks (same results); default none: the JavaScript stages only. */
+  readonly frontEnd?: FrontEnd;
+}
+
+/**
+ * An accelerated replacement of the correction, level and arctangent passes for blocks in which nothing needs
+ * the monitor's alarm logic (e.g. a WebAssembly SIMD kernel). It must give exactly what the JavaScript stages
+ * give: level = √(u² + v²) and phase = fastAtan2(v, u) with u, v from `coefficients` (see `Correction`).
+ */
+export interface FrontEnd {
+  /**
+   * Writes level and wrapped phase of `length` samples and returns true, or returns false (outputs then
+   * unspecified) when any sample has a level below `minLevel`, a code at or beyond `low`/`high`, or is not finite.
+   */
+  process(
+    x: SampleArray,
+    y: SampleArray,
+    length: number,
+    coefficients: Float64Array,
+    low: number,
+    high: number,
+    minLevel: number,
+    level: Float32Array,
+    phaseRad: Float64Array,
+  ): boolean;
 }
 
 /** Caller-owned output arrays, each at least as long as the input block. */
@@ -124,30 +149,49 @@ export function createPipeline(options: PipelineOptions): Pipeline {
     refractiveIndex: options.refractiveIndex,
     rateHz: options.rateHz,
   });
-  let capacity = integerInRange('blockCapacity', options.blockCapacity ?? 4096, 1, 2 ** 28);
-  let u = new Float64Array(capacity);
-  let v = new Float64Array(capacity);
-  let turns = new Float64Array(capacity);
-  let phaseRad = new Float64Array(capacity);
-  let stepRad = new Float64Array(capacity);
+  let capacity = 0;
+  let u = new Float64Array(0);
+  let v = u;
+  // The tracker's outputs, one record for every block: only `flags` changes (the caller's array).
+  const track: { turns: Float64Array; phaseRad: Float64Array; stepRad: Float64Array; flags: Uint8Array } = {
+    turns: u,
+    phaseRad: u,
+    stepRad: u,
+    flags: new Uint8Array(0),
+  };
   let nextIndex = 0;
   let referenceIndex = -1; // pending re-reference, or −1
 
-  function grow(length: number): void {
+  function allocate(length: number): void {
     capacity = length;
-    u = new Float64Array(capacity);
-    v = new Float64Array(capacity);
-    turns = new Float64Array(capacity);
-    phaseRad = new Float64Array(capacity);
-    stepRad = new Float64Array(capacity);
+    u = new Float64Array(length);
+    v = new Float64Array(length);
+    track.turns = new Float64Array(length);
+    track.phaseRad = new Float64Array(length);
+    track.stepRad = new Float64Array(length);
   }
+  allocate(integerInRange('blockCapacity', options.blockCapacity ?? 4096, 1, 2 ** 28));
+
+  const frontEnd = options.frontEnd;
+  const { low, high } = monitor.limits;
+  const minLevel = monitor.options.lowSignalLevel;
 
   function run(x: SampleArray, y: SampleArray, length: number, output: PipelineOutput, events: AlarmEvent[]): void {
     const firstEvent = events.length;
+    const { turns, phaseRad, stepRad } = track;
     output.flags.fill(0, 0, length);
-    correction.process(x, y, u, v, length);
-    monitor.process(x, y, u, v, length, nextIndex, output.level, output.flags, events);
-    tracker.process(u, v, output.level, length, nextIndex, { turns, phaseRad, stepRad, flags: output.flags }, events);
+    track.flags = output.flags;
+    if (
+      frontEnd !== undefined &&
+      monitor.quiet &&
+      frontEnd.process(x, y, length, correction.coefficients, low, high, minLevel, output.level, phaseRad)
+    ) {
+      tracker.processPhase(output.level, length, nextIndex, track, events);
+    } else {
+      correction.process(x, y, u, v, length);
+      monitor.process(x, y, u, v, length, nextIndex, output.level, output.flags, events);
+      tracker.process(u, v, output.level, length, nextIndex, track, events);
+    }
     displacement.process(turns, phaseRad, stepRad, length, output.positionM, output.velocityMS);
     const unwrapped = output.unwrappedPhaseRad;
     if (unwrapped !== undefined) for (let i = 0; i < length; i++) unwrapped[i] = TWO_PI * turns[i]! + phaseRad[i]!;
@@ -160,7 +204,7 @@ export function createPipeline(options: PipelineOptions): Pipeline {
   }
 
   function process(x: SampleArray, y: SampleArray, length: number, output: PipelineOutput, events: AlarmEvent[]): number {
-    if (length > capacity) grow(length);
+    if (length > capacity) allocate(length);
     let done = 0;
     while (done < length) {
       if (referenceIndex === nextIndex) {
@@ -203,7 +247,7 @@ export function createPipeline(options: PipelineOptions): Pipeline {
       nextIndex += lostSamples;
     },
     reReference(atSampleIndex = nextIndex) {
-      integerInRange('atSampleIndex', atSampleIndex, nextIndex, Number.MAX_SAFE_INTEGER);
+      integerInRange('atSampleIndex', atSampleIndex, nextIndex, MAX_COUNT);
       referenceIndex = atSampleIndex;
     },
     setCalibration: (calibration) => correction.setCalibration(calibration),

@@ -14,7 +14,7 @@ export interface Random {
 
 export function createRandom(seed: number): Random {
   let state = integerInRange('seed', seed, 0, 2 ** 32 - 1) >>> 0;
-  let spare = Number.NaN;
+  let spare = NaN;
   function uniform(): number {
     state = (state + 0x6d2b79f5) >>> 0;
     let t = state;
@@ -25,7 +25,7 @@ export function createRandom(seed: number): Random {
   function gaussian(): number {
     if (spare === spare) {
       const held = spare;
-      spare = Number.NaN;
+      spare = NaN;
       return held;
     }
     const radius = Math.sqrt(-2 * Math.log(1 - uniform()));

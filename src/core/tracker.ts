@@ -8,7 +8,7 @@
 // a fringe is the prediction error, not the motion. Both give the same outputs and alarms otherwise.
 
 import { AlarmBit, pushAlarm, type AlarmEvent } from './alarms.js';
-import { integerInRange, numberInRange, oneOf, positiveFinite } from './options.js';
+import { integerInRange, MAX_COUNT, numberInRange, oneOf, positiveFinite } from './options.js';
 import { fastAtan2, TWO_PI } from './phase.js';
 
 export type UnwrapMethod = 'plain' | 'velocity-aided';
@@ -66,6 +66,11 @@ export interface PhaseTracker {
     output: PhaseTrackerOutput,
     events: AlarmEvent[],
   ): number;
+  /**
+   * The same as `process` for a block whose wrapped phases (atan2(v, u), as `fastAtan2` gives them) are
+   * already in `output.phaseRad`, e.g. from an accelerated front end.
+   */
+  processPhase(level: Float32Array, length: number, firstIndex: number, output: PhaseTrackerOutput, events: AlarmEvent[]): number;
   /** Samples were lost before the next sample: it carries the input-gap alarm and sets the count-lost latch. */
   markGap(lostSamples: number): void;
   /** Clears the count-lost latch at the next sample (the caller re-references the position there). */
@@ -177,6 +182,13 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
     output: PhaseTrackerOutput,
     events: AlarmEvent[],
   ): number {
+    const phaseOut = output.phaseRad;
+    // The arctangent pass first: a short loop with no carried state, which V8 keeps tight.
+    for (let i = 0; i < length; i++) phaseOut[i] = fastAtan2(v[i]!, u[i]!);
+    return processPhase(level, length, firstIndex, output, events);
+  }
+
+  function processPhase(level: Float32Array, length: number, firstIndex: number, output: PhaseTrackerOutput, events: AlarmEvent[]): number {
     if (length <= 0) return 0;
     const { turns: turnsOut, phaseRad: phaseOut, stepRad: stepOut, flags } = output;
     // Gaps and latch clearing are requested between blocks, so they fall on the block's first sample.
@@ -185,12 +197,12 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
       clearPending = false;
       if (countLost) {
         countLost = false;
-        pushAlarm(events, firstIndex, 'countLost', false, Number.NaN);
+        pushAlarm(events, firstIndex, 'countLost', false, NaN);
       }
     }
     if (gapActive) {
       gapActive = false;
-      pushAlarm(events, firstIndex, 'inputGap', false, Number.NaN);
+      pushAlarm(events, firstIndex, 'inputGap', false, NaN);
     }
     if (gapPendingSamples > 0) {
       firstBits = AlarmBit.inputGap;
@@ -200,7 +212,7 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
         pushAlarm(events, firstIndex, 'countLost', true, gapPendingSamples);
       }
       gapPendingSamples = 0;
-      if (length > 1) pushAlarm(events, firstIndex + 1, 'inputGap', false, Number.NaN);
+      if (length > 1) pushAlarm(events, firstIndex + 1, 'inputGap', false, NaN);
       else gapActive = true;
     }
 
@@ -211,8 +223,6 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
     const maxStep = aided ? AIDED_MAX_STEP_RAD : Infinity;
     let turnsNow = turns, last = lastPhase, w = step, lagNow = lag, travel = heldTravel, resume = resuming;
     let lost = countLost, over = overspeedActive, overRun = overspeedRun, isStarted = started;
-    // The arctangent pass first: a short loop with no carried state, which V8 keeps tight.
-    for (let i = 0; i < length; i++) phaseOut[i] = fastAtan2(v[i]!, u[i]!);
     if (!aided && isStarted && !resume && !over && steadyBlock(phaseOut, level, length, minLev, overStep, last, turnsNow, turnsOut, stepOut)) {
       // Fast path: every sample usable and every step under the overspeed threshold, so no alarm can change;
       // stepOut holds the unwrapped steps. The same arithmetic as the full loop below, in shorter loops.
@@ -222,7 +232,7 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
         lagNow = (a - 1) * residual;
         stepOut[i] = w;
       }
-      if (lost) for (let i = 0; i < length; i++) flags[i] = flags[i]! | countLostBit;
+      if (lost) for (let i = 0; i < length; i++) flags[i] |= countLostBit;
       turnsNow = turnsOut[length - 1]!;
       last = phaseOut[length - 1]!;
     } else for (let i = 0; i < length; i++) {
@@ -285,15 +295,15 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
         resume = isStarted;
         if (!lost && (lev !== lev || travel > travelLimit)) {
           lost = true;
-          pushAlarm(events, firstIndex + i, 'countLost', true, lev !== lev ? Number.NaN : travel);
+          pushAlarm(events, firstIndex + i, 'countLost', true, lev !== lev ? NaN : travel);
         }
       }
       turnsOut[i] = turnsNow;
       phaseOut[i] = last;
       stepOut[i] = w;
-      flags[i] = flags[i]! | (over ? overspeedBit : 0) | (lost ? countLostBit : 0);
+      flags[i] |= (over ? overspeedBit : 0) | (lost ? countLostBit : 0);
     }
-    flags[0] = flags[0]! | firstBits;
+    flags[0] |= firstBits;
     turns = turnsNow;
     lastPhase = last;
     step = w;
@@ -326,8 +336,9 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
   reset();
   return {
     process,
+    processPhase,
     markGap(lostSamples: number) {
-      integerInRange('lostSamples', lostSamples, 1, Number.MAX_SAFE_INTEGER);
+      integerInRange('lostSamples', lostSamples, 1, MAX_COUNT);
       gapPendingSamples += lostSamples;
     },
     clearCountLostAtNext() {

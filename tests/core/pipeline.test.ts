@@ -9,7 +9,9 @@ import {
   createPhaseTracker,
   createPipeline,
   createQuadratureSynthesizer,
+  fastAtan2,
   type AlarmEvent,
+  type FrontEnd,
   type EllipseCalibration,
   type PipelineOptions,
 } from '../../src/core/index.js';
@@ -299,5 +301,40 @@ describe('options', () => {
       'calibration.amplitudeY must be a positive finite number (got -1)',
     );
     expect(() => createPipeline({ ...baseOptions, lowSignalLevel: 1.5 })).toThrow('lowSignalLevel must be a number in (0, 1] (got 1.5)');
+  });
+});
+
+describe('front end', () => {
+  it('a front end that computes what the stages compute gives identical results, and blocks with trouble fall back', () => {
+    const n = 20_000;
+    const phase = Float64Array.from({ length: n }, (_, i) => 0.03 * i);
+    const { x, y } = signal(phase, { noiseRms: 40, quantise: true });
+    x.fill(ellipse.offsetX, 5000, 5400); // blocked beam
+    y.fill(ellipse.offsetY, 5000, 5400);
+    x[12_000] = 32767; // saturation
+    let quietBlocks = 0;
+    let calls = 0;
+    const frontEnd: FrontEnd = {
+      process(xs, ys, length, c, low, high, minLevel, level, phaseRad) {
+        calls++;
+        for (let i = 0; i < length; i++) {
+          const u = c[0]! * xs[i]! + c[1]!;
+          const v = c[2]! * xs[i]! + c[3]! * ys[i]! + c[4]!;
+          const lev = Math.sqrt(u * u + v * v);
+          if (!(lev >= minLevel) || xs[i]! <= low || xs[i]! >= high || ys[i]! <= low || ys[i]! >= high) return false;
+          level[i] = lev;
+          phaseRad[i] = fastAtan2(v, u);
+        }
+        quietBlocks++;
+        return true;
+      },
+    };
+    const plain = run(x, y, baseOptions, [4096, 8192, 12288, 16384]);
+    const accelerated = run(x, y, { ...baseOptions, frontEnd }, [4096, 8192, 12288, 16384]);
+    expect(accelerated.out).toEqual(plain.out);
+    expect(accelerated.events).toEqual(plain.events);
+    expect(plain.events.length).toBeGreaterThan(0);
+    expect(calls).toBeGreaterThan(quietBlocks); // some blocks were handed back to the stages
+    expect(quietBlocks).toBeGreaterThan(0);
   });
 });
