@@ -1,12 +1,15 @@
-// `npm run bench [-- --json] [-- --capture] [-- --replay] [-- --accuracy] [-- --all] [-- --heap-samples N]`:
+// `npm run bench [-- --json] [-- --capture] [-- --replay] [-- --stream] [-- --live] [-- --accuracy] [-- --all]`:
 // measures the core stages, the whole pipeline and the decoder (always), and on request the capture readers,
-// replay from files and the accuracy of the ellipse fits; prints a table or one JSON document.
+// replay from files, the stream API, live tracking through a pseudo-terminal (needs socat) and the accuracy of
+// the ellipse fits; prints a table or one JSON document.
 import { parseArgs } from 'node:util';
 import { runAccuracyBenchmark, formatAccuracyTable } from './accuracy.js';
 import { captureCases } from './cases/capture.js';
 import { coreCases, heapGrowth } from './cases/core.js';
 import { decoderCases } from './cases/decoder.js';
+import { liveBenchmarks } from './cases/live.js';
 import { replayCases } from './cases/replay.js';
+import { streamBenchmarks } from './cases/stream.js';
 import { measure, type BenchResult } from './harness.js';
 
 const { values } = parseArgs({
@@ -15,6 +18,8 @@ const { values } = parseArgs({
     capture: { type: 'boolean', default: false },
     replay: { type: 'boolean', default: false },
     accuracy: { type: 'boolean', default: false },
+    live: { type: 'boolean', default: false },
+    stream: { type: 'boolean', default: false },
     all: { type: 'boolean', default: false },
     'heap-samples': { type: 'string', default: String(1e8) },
     'replay-memory-samples': { type: 'string', default: String(8e6) },
@@ -53,6 +58,14 @@ if (values.capture || values.all) {
 if (values.replay || values.all) {
   results.push(...(await replayCases({ memorySamples: Number(values['replay-memory-samples']) })));
   log('measured replay');
+}
+if (values.stream || values.all) {
+  results.push(...streamBenchmarks());
+  log('measured the stream API');
+}
+if (values.live || values.all) {
+  results.push(...(await liveBenchmarks()));
+  log('measured live tracking through a pseudo-terminal');
 }
 const accuracy = values.accuracy || values.all ? runAccuracyBenchmark() : null;
 

@@ -296,7 +296,6 @@ function rawAndCorrected(
 /** Runs the whole pipeline over a capture, writing rows to the writer if one is given. */
 export async function runCapture(path: string, options: RunOptions): Promise<RunResult> {
   const { calibration, settings, writer, progress } = options;
-  const positionScale = settings.positionScale ?? 1;
   const capture = await openCapture(path, { ...options.open, blockSize: BLOCK });
   const info = capture.info;
   const fromFile = adcOf(info);
@@ -309,6 +308,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     refractiveIndex: settings.refractiveIndex,
     bandwidthHz: settings.bandwidthHz,
     unwrap: settings.unwrap,
+    lengthScale: settings.positionScale,
     calibration,
     adc,
   });
@@ -352,12 +352,6 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
       const n = block.length;
       events.length = 0;
       pipeline.process(block.x, block.y, n, output, events);
-      if (positionScale !== 1) {
-        for (let i = 0; i < n; i++) {
-          output.positionM[i] = output.positionM[i]! * positionScale;
-          output.velocityMS[i] = output.velocityMS[i]! * positionScale;
-        }
-      }
       if (writer !== undefined) {
         await writer.write({ firstIndex: block.firstIndex, length: n, t: block.t, rateHz: info.rateHz, ...output });
       }

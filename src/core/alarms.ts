@@ -31,14 +31,8 @@ export const alarmNames: Readonly<Record<AlarmKind, string>> = {
   countLost: 'count_lost',
 };
 
-export const alarmKinds: readonly AlarmKind[] = [
-  'lowSignal',
-  'saturation',
-  'badSample',
-  'overspeed',
-  'inputGap',
-  'countLost',
-];
+/** The alarm kinds in bit order. */
+export const alarmKinds = Object.keys(AlarmBit) as readonly AlarmKind[];
 
 /** A change of an alarm's state. `sampleIndex` is absolute: samples since the start or the last reset. */
 export interface AlarmEvent {

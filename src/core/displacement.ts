@@ -12,6 +12,8 @@ export interface DisplacementOptions {
   readonly refractiveIndex?: number;
   /** Sample rate in Hz, for velocity. Required. */
   readonly rateHz: number;
+  /** Factor on every length and velocity, e.g. the normalisation to 20 °C, 1/(1 + α(T − 20)). Default 1; range (0.9, 1.1). */
+  readonly lengthScale?: number;
 }
 
 export interface Displacement {
@@ -31,7 +33,7 @@ export interface Displacement {
   referenceAtNext(): void;
   /** Changes the index of the path: the scale of the reading changes, the fringe count does not. */
   setRefractiveIndex(refractiveIndex: number): void;
-  /** Displacement of one fringe in metres: λ_vac / (fold · n). */
+  /** Displacement of one fringe in metres: λ_vac / (fold · n), times the length scale. */
   readonly metresPerFringe: number;
   readonly refractiveIndex: number;
   reset(): void;
@@ -47,6 +49,7 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
   const fold = positiveFinite('fold', options.fold);
   const rateHz = positiveFinite('rateHz', options.rateHz);
   let refractiveIndex = validateRefractiveIndex(options.refractiveIndex ?? 1);
+  const lengthScale = numberInRange('lengthScale', options.lengthScale ?? 1, 0.9, 1.1);
   let metresPerFringe = 0;
   let metresPerRad = 0;
   let velocityPerStep = 0;
@@ -55,7 +58,7 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
   let referencePhase = 0;
 
   function updateScale(): void {
-    metresPerFringe = wavelengthM / (fold * refractiveIndex);
+    metresPerFringe = (wavelengthM / (fold * refractiveIndex)) * lengthScale;
     metresPerRad = metresPerFringe / TWO_PI;
     velocityPerStep = metresPerRad * rateHz;
   }

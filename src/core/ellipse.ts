@@ -426,7 +426,7 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
 
   function solve(): EllipseFitResult {
     const n = moments[0]!;
-    if (n < minSamples) return fail('too-few-samples', `the fit needs at least ${minSamples} samples (got ${n})`);
+    if (n < minSamples) return fail('too-few-samples', `too few samples: ${n} < ${minSamples}`);
     // Condition: centre on the centroid, scale by the RMS distance from it; work with averages.
     const centred = Float64Array.from(moments);
     const meanU = centred[1]! / n;

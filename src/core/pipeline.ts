@@ -21,6 +21,8 @@ export interface PipelineOptions {
   readonly fold: number;
   /** Refractive index of air on the path. Default 1: the vacuum wavelength is used as is. */
   readonly refractiveIndex?: number;
+  /** Factor on lengths and velocities, e.g. the normalisation to 20 °C. Default 1. */
+  readonly lengthScale?: number;
   /** Ellipse correction. Default none (identity): the level is then the raw radius in input units. */
   readonly calibration?: EllipseCalibration | null;
   /** ADC format, for saturation. Default `{ kind: 'int16' }`. */
@@ -148,6 +150,7 @@ export function createPipeline(options: PipelineOptions): Pipeline {
     fold: options.fold,
     refractiveIndex: options.refractiveIndex,
     rateHz: options.rateHz,
+    lengthScale: options.lengthScale,
   });
   let capacity = 0;
   let u = new Float64Array(0);

@@ -1,0 +1,325 @@
+// `fringetally emulate`: a virtual ADC writing wire frames of an invented motion to a serial port (or a pty) at the
+// real-time pace of the sample rate, with optional transport faults, a truth file and a summary of what was sent.
+import { writeFile } from 'node:fs/promises';
+import { SerialPort } from 'serialport';
+import type { MotionSpec } from '../../src/core/index.js';
+import { createCaptureWriter, type CaptureWriter } from '../../src/io/capture/index.js';
+import { WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
+import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
+import { createFrameEmulator } from '../live/frame-emulator.js';
+
+const help = `Usage: fringetally emulate --port PATH --baud N --rate-hz R --velocity-m-s V --wavelength-nm L --fold F
+                          [--duration S] [options]
+
+A virtual ADC for testing a receiver without hardware: simulates an invented motion seen through imperfect
+quadrature detectors (offsets, unequal amplitudes, quadrature error, noise; int16 counts) and writes it as
+fringetally wire frames (docs/wire-format.md) to PATH, paced in real time: rate / samples-per-frame frames per
+second. Positive displacement advances the phase atan2(y, x). Runs for --duration S or until SIGINT/SIGTERM.
+
+Port and frames:
+  --port PATH              serial device or pseudo-terminal to write to (required)
+  --baud N                 baud rate, Bd (default 921600). A pty ignores it; a real UART carries about N/10 bytes/s
+                           and a stream beyond that is warned about
+  --rate-hz R              sample rate, Hz, integer (required)
+  --samples-per-frame N    samples per frame, 1..${WIRE_MAX_SAMPLES_PER_FRAME} (default 64)
+  --include-rate           write the sample-rate field in every frame (else the receiver needs --rate-hz)
+  --start-sequence N       sequence number of the first frame, 0..65535 (default 0)
+  --axes N                 axes per frame, 1..8 (default 1); axis k carries (k + 1) times the motion
+  --text                   write "x,y" text lines instead of binary frames (no sequence counter)
+  --duration S             seconds of samples to send, rounded up to whole frames (default: until stopped)
+
+Optics:
+  --wavelength-nm L        vacuum wavelength, nm (required, e.g. 632.9908)
+  --fold N                 optical fold: 2 single pass, 4 double-pass plane mirror (required)
+  --refractive-index n     refractive index of air (default 1)
+
+Motion (--motion constant|trapezoid|vibration, default constant):
+  --velocity-m-s V         constant: velocity, m/s; trapezoid: peak speed, m/s (required for both)
+  --distance-m D           trapezoid: move length, m (default 20e-6); moves forth and back
+  --acceleration-m-s2 A    trapezoid: acceleration, m/s² (default 20)
+  --dwell-s S              trapezoid: pause at each end, s (default 0.002)
+  --amplitude-m A          vibration: amplitude, m (default 2e-6)
+  --frequency-hz F         vibration: frequency, Hz (default 200)
+  --drift-m-s V            vibration: drift velocity, m/s (default 0)
+
+Detectors (ADC counts, x = aX·cos φ + oX, y = aY·sin(φ + e) + oY):
+  --offset-x C, --offset-y C          offsets, counts (default 800, -500)
+  --amplitude-x C, --amplitude-y C    amplitudes, counts (default 12000, 10800)
+  --phase-error-rad E                 quadrature error e, rad (default 0.06)
+  --noise C                           Gaussian noise per channel, counts RMS (default 20)
+  --seed N                            noise and fault seed, integer (default 1)
+
+Faults (binary frames only; frame numbers count frames made, from 0):
+  --garbage-every N        random bytes before frames N, 2N, … (the receiver must resynchronise)
+  --garbage-bytes B        bytes per garbage insertion (default 16)
+  --drop-every N           frames N−1, 2N−1, … are not sent: the receiver sees a sequence gap
+  --corrupt-every N        frames N−1, 2N−1, … get one payload byte inverted: a CRC failure, then a gap
+  --pause-every N          stop writing for --pause-ms after every N frames; nothing is lost
+  --pause-ms M             length of each pause, ms (default 100)
+
+Output:
+  --truth FILE             CSV of every sample made (sent or not): t (s), position_m (m, axis 0), phase_rad
+  --summary FILE           JSON: frames made and sent, bytes, and the frame numbers of every injected fault
+  --quiet                  no summary on standard output
+
+${LASER_CAUTION}`;
+
+const optionSpecs = {
+  port: { type: 'string' },
+  baud: { type: 'string' },
+  'rate-hz': { type: 'string' },
+  'samples-per-frame': { type: 'string' },
+  'include-rate': { type: 'boolean' },
+  'start-sequence': { type: 'string' },
+  axes: { type: 'string' },
+  text: { type: 'boolean' },
+  duration: { type: 'string' },
+  'wavelength-nm': { type: 'string' },
+  fold: { type: 'string' },
+  'refractive-index': { type: 'string' },
+  motion: { type: 'string' },
+  'velocity-m-s': { type: 'string' },
+  'distance-m': { type: 'string' },
+  'acceleration-m-s2': { type: 'string' },
+  'dwell-s': { type: 'string' },
+  'amplitude-m': { type: 'string' },
+  'frequency-hz': { type: 'string' },
+  'drift-m-s': { type: 'string' },
+  'offset-x': { type: 'string' },
+  'offset-y': { type: 'string' },
+  'amplitude-x': { type: 'string' },
+  'amplitude-y': { type: 'string' },
+  'phase-error-rad': { type: 'string' },
+  noise: { type: 'string' },
+  seed: { type: 'string' },
+  'garbage-every': { type: 'string' },
+  'garbage-bytes': { type: 'string' },
+  'drop-every': { type: 'string' },
+  'corrupt-every': { type: 'string' },
+  'pause-every': { type: 'string' },
+  'pause-ms': { type: 'string' },
+  truth: { type: 'string' },
+  summary: { type: 'string' },
+  quiet: { type: 'boolean' },
+} as const;
+
+function integerIn(name: string, value: number, min: number, max: number): number {
+  if (!Number.isInteger(value) || value < min || value > max) throw new UsageError(`--${name} must be an integer in ${min}..${max} (got ${value})`);
+  return value;
+}
+
+function positive(name: string, value: number | undefined): number {
+  if (value === undefined) throw new UsageError(`--${name} is required`);
+  if (!(value > 0)) throw new UsageError(`--${name} must be positive (got ${value})`);
+  return value;
+}
+
+const sleep = (ms: number) => new Promise<void>((resolve) => setTimeout(resolve, ms));
+
+function openPort(path: string, baudRate: number): Promise<SerialPort> {
+  return new Promise((resolve, reject) => {
+    const port = new SerialPort({ path, baudRate }, (error) => {
+      if (error) reject(new Error(`${path}: cannot open the port (${error.message})`));
+      else resolve(port);
+    });
+  });
+}
+
+async function run(argv: readonly string[]): Promise<number> {
+  const { values } = parseCommandLine(argv, optionSpecs, false);
+  const text = (name: keyof typeof values) => values[name] as string | undefined;
+  const num = (name: keyof typeof values) => numberOption(name, text(name));
+  const port = text('port');
+  if (port === undefined) throw new UsageError('--port is required');
+  const baudRate = integerIn('baud', num('baud') ?? 921600, 1, 20_000_000);
+  const rateHz = integerIn('rate-hz', positive('rate-hz', num('rate-hz')), 1, 0xffffffff);
+  const samplesPerFrame = integerIn('samples-per-frame', num('samples-per-frame') ?? 64, 1, WIRE_MAX_SAMPLES_PER_FRAME);
+  const startSequence = integerIn('start-sequence', num('start-sequence') ?? 0, 0, 65535);
+  const axes = integerIn('axes', num('axes') ?? 1, 1, 8);
+  const durationS = num('duration');
+  if (durationS !== undefined) positive('duration', durationS);
+  const wavelengthM = positive('wavelength-nm', num('wavelength-nm')) * 1e-9;
+  const fold = positive('fold', num('fold'));
+  const refractiveIndex = positive('refractive-index', num('refractive-index') ?? 1);
+  const seed = integerIn('seed', num('seed') ?? 1, 0, 2 ** 31);
+  const textMode = values.text === true;
+  const every = (name: keyof typeof values) => integerIn(name, num(name) ?? 0, 0, 2 ** 31);
+  const faults = {
+    garbageEvery: every('garbage-every'),
+    garbageBytes: integerIn('garbage-bytes', num('garbage-bytes') ?? 16, 1, 65536),
+    dropEvery: every('drop-every'),
+    corruptEvery: every('corrupt-every'),
+  };
+  const pauseEvery = every('pause-every');
+  const pauseMs = positive('pause-ms', num('pause-ms') ?? 100);
+  if (textMode && (faults.garbageEvery || faults.dropEvery || faults.corruptEvery)) {
+    throw new UsageError('--garbage-every, --drop-every and --corrupt-every apply to binary frames, not --text');
+  }
+  if (textMode && (values['include-rate'] || text('start-sequence') !== undefined)) {
+    throw new UsageError('--include-rate and --start-sequence apply to binary frames, not --text');
+  }
+
+  const motionKind = text('motion') ?? 'constant';
+  let motion: MotionSpec;
+  if (motionKind === 'constant') motion = { kind: 'constant', velocityMS: num('velocity-m-s') ?? missing('velocity-m-s') };
+  else if (motionKind === 'trapezoid') {
+    motion = {
+      kind: 'trapezoid',
+      distanceM: num('distance-m') ?? 20e-6,
+      maxVelocityMS: num('velocity-m-s') ?? missing('velocity-m-s'),
+      accelerationMS2: num('acceleration-m-s2') ?? 20,
+      dwellS: num('dwell-s') ?? 0.002,
+    };
+  } else if (motionKind === 'vibration') {
+    motion = { kind: 'vibration', amplitudeM: num('amplitude-m') ?? 2e-6, frequencyHz: num('frequency-hz') ?? 200, driftVelocityMS: num('drift-m-s') ?? 0 };
+  } else throw new UsageError(`--motion must be constant, trapezoid or vibration (got "${motionKind}")`);
+
+  let emulator;
+  try {
+    emulator = createFrameEmulator({
+      rateHz,
+      samplesPerFrame,
+      axes,
+      motion,
+      wavelengthM,
+      fold,
+      refractiveIndex,
+      ellipse: {
+        offsetX: num('offset-x') ?? 800,
+        offsetY: num('offset-y') ?? -500,
+        amplitudeX: num('amplitude-x') ?? 12000,
+        amplitudeY: num('amplitude-y') ?? 10800,
+        phaseErrorRad: num('phase-error-rad') ?? 0.06,
+      },
+      noiseRms: num('noise') ?? 20,
+      seed,
+      includeRate: values['include-rate'] === true,
+      startSequence,
+      text: textMode,
+      faults,
+    });
+  } catch (error) {
+    // The core names the option it refused (e.g. distanceM); on the command line that is a usage error.
+    throw new UsageError((error as Error).message);
+  }
+  const quiet = values.quiet === true;
+  const framesPerSecond = rateHz / samplesPerFrame;
+  const totalFrames = durationS === undefined ? Number.POSITIVE_INFINITY : Math.ceil((durationS * rateHz) / samplesPerFrame);
+  const bytesPerSecond = framesPerSecond * (textMode ? 14 * axes * samplesPerFrame : emulator.frameBytes);
+  if (!quiet && bytesPerSecond > baudRate / 10) {
+    process.stderr.write(
+      `note: about ${Math.round(bytesPerSecond)} bytes/s is more than ${baudRate} Bd carries (about ${baudRate / 10} bytes/s with 8N1); ` +
+        'a pseudo-terminal passes it, a real UART would not\n',
+    );
+  }
+  const unambiguousMS = (wavelengthM * rateHz) / (2 * fold * refractiveIndex);
+  if (!quiet && emulator.peakSpeedMS * axes > unambiguousMS / 2) {
+    process.stderr.write(
+      `note: peak speed ${(emulator.peakSpeedMS * axes).toPrecision(4)} m/s is above a quarter fringe per sample ` +
+        `(${(unambiguousMS / 2).toPrecision(4)} m/s): the receiver will raise overspeed or lose count\n`,
+    );
+  }
+
+  const serial = await openPort(port, baudRate);
+  let portFailure: Error | null = null;
+  serial.on('error', (error) => (portFailure ??= new Error(`${port}: ${error.message}`)));
+  serial.on('close', (error?: Error & { disconnected?: boolean }) => {
+    if (error?.disconnected) portFailure ??= new Error(`${port}: the device vanished (disconnected)`);
+  });
+  let stopped: string | null = null;
+  const stop = (signal: NodeJS.Signals) => (stopped = signal);
+  process.on('SIGINT', stop);
+  process.on('SIGTERM', stop);
+
+  let truth: CaptureWriter | null = null;
+  const pauses: { afterFrame: number; ms: number }[] = [];
+  let lastPositionM = 0;
+  try {
+    if (values.truth !== undefined) {
+      truth = await createCaptureWriter(values.truth, {
+        format: 'csv',
+        rateHz,
+        channelNames: ['position_m', 'phase_rad'],
+        timeColumn: true,
+        metadata: { scenario: `invented test scenario: ${motionKind} motion (fringetally emulate)`, truth_of: port },
+      });
+    }
+    const write = (bytes: Uint8Array) =>
+      new Promise<void>((resolve, reject) => {
+        // Waiting for the callback lets the emulator reuse its buffer for the next batch.
+        serial.write(bytes, (error) => (error ? reject(new Error(`${port}: write failed (${error.message})`)) : resolve()));
+      });
+    const maxBatchFrames = Math.max(1, Math.floor(65536 / Math.max(emulator.frameBytes, 14 * axes * samplesPerFrame)));
+    let clockStartMs = performance.now();
+    let made = 0;
+    while (stopped === null && made < totalFrames) {
+      if (portFailure !== null) throw portFailure;
+      const elapsedMs = performance.now() - clockStartMs;
+      const due = Math.min(totalFrames, Math.floor((elapsedMs * framesPerSecond) / 1000) + 1);
+      let count = Math.min(due - made, maxBatchFrames);
+      if (count <= 0) {
+        await sleep(Math.max(1, (made * 1000) / framesPerSecond - elapsedMs));
+        continue;
+      }
+      if (pauseEvery > 0) count = Math.min(count, (Math.floor(made / pauseEvery) + 1) * pauseEvery - made);
+      const batch = emulator.next(count);
+      if (batch.bytes.length > 0) await write(batch.bytes);
+      if (truth !== null) await truth.write(batch.positionM, batch.phaseRad, batch.samples);
+      lastPositionM = batch.positionM[batch.samples - 1]!;
+      made += count;
+      if (pauseEvery > 0 && made % pauseEvery === 0 && made < totalFrames) {
+        const pauseStart = performance.now();
+        await sleep(pauseMs);
+        const pausedMs = performance.now() - pauseStart;
+        pauses.push({ afterFrame: made - 1, ms: pausedMs });
+        // The pace restarts after the pause: the samples are late, not lost.
+        clockStartMs += pausedMs;
+      }
+    }
+    if (portFailure !== null) throw portFailure;
+    await new Promise<void>((resolve, reject) => serial.drain((error) => (error ? reject(new Error(`${port}: ${error.message}`)) : resolve())));
+    await truth?.close();
+  } catch (error) {
+    await truth?.abort();
+    throw error;
+  } finally {
+    process.off('SIGINT', stop);
+    process.off('SIGTERM', stop);
+    if (serial.isOpen) await new Promise<void>((resolve) => serial.close(() => resolve()));
+  }
+
+  const log = emulator.log;
+  const summary = {
+    port,
+    rateHz,
+    samplesPerFrame,
+    axes,
+    text: textMode,
+    startSequence,
+    framesMade: log.framesMade,
+    framesSent: log.framesSent,
+    samplesMade: log.samplesMade,
+    bytesWritten: log.bytesMade,
+    finalPositionM: lastPositionM,
+    stoppedBy: stopped ?? 'duration',
+    dropped: log.dropped,
+    corrupted: log.corrupted,
+    garbage: log.garbage,
+    pauses,
+  };
+  if (values.summary !== undefined) await writeFile(values.summary, JSON.stringify(summary, null, 2) + '\n');
+  if (!quiet) {
+    process.stdout.write(
+      `sent ${log.framesSent} of ${log.framesMade} frames (${log.samplesMade} samples at ${rateHz} Hz, ${log.bytesMade} bytes) to ${port}; ` +
+        `final position ${(lastPositionM * 1e6).toFixed(6)} µm (axis 0, invented scenario)\n` +
+        `faults: ${log.garbage.length} garbage insertions, ${log.dropped.length} dropped, ${log.corrupted.length} corrupted, ${pauses.length} pauses\n`,
+    );
+  }
+  return 0;
+}
+
+function missing(name: string): never {
+  throw new UsageError(`--${name} is required for this motion`);
+}
+
+export const emulate: Command = { name: 'emulate', summary: 'a virtual ADC: write wire frames of an invented motion to a serial port', help, run };

@@ -1,0 +1,177 @@
+// A virtual ADC: an invented motion through imperfect quadrature detectors, encoded as wire frames (or text
+// lines) batch by batch, with injected transport faults. Used by `fringetally emulate` and the live benchmarks.
+
+import {
+  createMotionProfile,
+  createQuadratureSynthesizer,
+  createRandom,
+  type EllipseCalibration,
+  type MotionSpec,
+  type QuadratureSynthesizer,
+} from '../../src/core/index.js';
+import { encodeWireFrame, formatSampleLines, wireFrameLength, WireFlag, WIRE_SEQUENCE_MODULUS } from '../../src/io/wire/index.js';
+
+export interface FrameFaults {
+  /** Random bytes before every Nth frame (frames N, 2N, …; 0-based count of frames made); 0: never. */
+  readonly garbageEvery: number;
+  /** Bytes of each garbage insertion. */
+  readonly garbageBytes: number;
+  /** Frames N−1, 2N−1, … are made (their sequence number is used) but not sent; 0: never. */
+  readonly dropEvery: number;
+  /** Frames N−1, 2N−1, … get one payload byte inverted, so their CRC fails; 0: never. Dropping wins over corrupting. */
+  readonly corruptEvery: number;
+}
+
+export interface FrameEmulatorOptions {
+  readonly rateHz: number;
+  readonly samplesPerFrame: number;
+  /** Axes per frame; axis k carries the motion scaled by k + 1 (invented, so that axes differ). */
+  readonly axes: number;
+  readonly motion: MotionSpec;
+  readonly wavelengthM: number;
+  readonly fold: number;
+  readonly refractiveIndex: number;
+  /** Detector ellipse in ADC counts. */
+  readonly ellipse: EllipseCalibration;
+  /** Gaussian noise per channel, counts RMS. */
+  readonly noiseRms: number;
+  readonly seed: number;
+  /** Write the sample-rate field in every frame. */
+  readonly includeRate: boolean;
+  /** Sequence number of the first frame, 0..65535. */
+  readonly startSequence: number;
+  /** `text`: `x0,y0,…` lines instead of frames (faults must all be 0). */
+  readonly text: boolean;
+  readonly faults: FrameFaults;
+}
+
+/** What was done to the stream so far; frame numbers count frames made, from 0. */
+export interface EmulatorLog {
+  framesMade: number;
+  framesSent: number;
+  samplesMade: number;
+  bytesMade: number;
+  readonly dropped: number[];
+  readonly corrupted: number[];
+  readonly garbage: { beforeFrame: number; bytes: number }[];
+}
+
+export interface FrameBatch {
+  /** The bytes to send; a view of an internal buffer, valid until the next call. */
+  readonly bytes: Uint8Array;
+  /** Truth of axis 0 for the batch's samples: position (m) and phase (rad). */
+  readonly positionM: Float64Array;
+  readonly phaseRad: Float64Array;
+  /** Samples made (frames × samplesPerFrame), sent or not. */
+  readonly samples: number;
+  readonly firstSample: number;
+}
+
+export interface FrameEmulator {
+  /** Makes the next `frames` frames. */
+  next(frames: number): FrameBatch;
+  /** Bytes of one frame as made (no faults). */
+  readonly frameBytes: number;
+  readonly log: Readonly<EmulatorLog>;
+  readonly peakSpeedMS: number;
+}
+
+export function createFrameEmulator(options: FrameEmulatorOptions): FrameEmulator {
+  const { rateHz, samplesPerFrame, axes, faults } = options;
+  const channelCount = 2 * axes;
+  const profile = createMotionProfile(options.motion, rateHz);
+  const radPerMetre = (2 * Math.PI * options.fold * options.refractiveIndex) / options.wavelengthM;
+  const synthesizers: QuadratureSynthesizer[] = Array.from({ length: axes }, (_, k) =>
+    createQuadratureSynthesizer({ ellipse: options.ellipse, noiseRms: options.noiseRms, adc: { kind: 'int16' }, seed: options.seed + k }),
+  );
+  const random = createRandom((options.seed * 7919 + 17) >>> 0);
+  const frameBytes = options.text ? 0 : wireFrameLength(channelCount, samplesPerFrame, options.includeRate ? WireFlag.sampleRate : 0);
+  const header = {
+    sequence: options.startSequence,
+    channelCount,
+    samplesPerFrame,
+    sampleRateHz: options.includeRate ? rateHz : undefined,
+  };
+  const frameSamples = new Int16Array(channelCount * samplesPerFrame);
+  const log: EmulatorLog = { framesMade: 0, framesSent: 0, samplesMade: 0, bytesMade: 0, dropped: [], corrupted: [], garbage: [] };
+
+  let capacityFrames = 0;
+  let position = new Float64Array(0);
+  let phase = new Float64Array(0);
+  let axisPhase = new Float64Array(0);
+  let x = new Float64Array(0);
+  let y = new Float64Array(0);
+  let interleaved = new Int16Array(0);
+  let bytes = new Uint8Array(0);
+
+  function reserve(frames: number): void {
+    if (frames <= capacityFrames) return;
+    capacityFrames = frames;
+    const samples = frames * samplesPerFrame;
+    position = new Float64Array(samples);
+    phase = new Float64Array(samples);
+    axisPhase = new Float64Array(samples);
+    x = new Float64Array(samples);
+    y = new Float64Array(samples);
+    interleaved = new Int16Array(samples * channelCount);
+    bytes = new Uint8Array(frames * (frameBytes + faults.garbageBytes));
+  }
+
+  function isEvery(frame: number, every: number): boolean {
+    return every > 0 && (frame + 1) % every === 0;
+  }
+
+  function next(frames: number): FrameBatch {
+    reserve(frames);
+    const firstSample = log.samplesMade;
+    const samples = frames * samplesPerFrame;
+    profile.process(firstSample, position, samples);
+    for (let i = 0; i < samples; i++) phase[i] = position[i]! * radPerMetre;
+    for (let k = 0; k < axes; k++) {
+      for (let i = 0; i < samples; i++) axisPhase[i] = phase[i]! * (k + 1);
+      synthesizers[k]!.process(axisPhase, x, y, samples);
+      for (let i = 0, at = 2 * k; i < samples; i++, at += channelCount) {
+        interleaved[at] = x[i]!;
+        interleaved[at + 1] = y[i]!;
+      }
+    }
+    let used = 0;
+    if (options.text) {
+      const lines = formatSampleLines(interleaved, channelCount, samples);
+      if (bytes.length < lines.length) bytes = new Uint8Array(lines.length * 2);
+      used = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.length).write(lines, 0, 'latin1');
+      log.framesMade += frames;
+      log.framesSent += frames;
+    } else {
+      for (let f = 0; f < frames; f++) {
+        const frame = log.framesMade;
+        if (faults.garbageEvery > 0 && frame > 0 && frame % faults.garbageEvery === 0) {
+          for (let b = 0; b < faults.garbageBytes; b++) bytes[used++] = Math.floor(random.uniform() * 256);
+          log.garbage.push({ beforeFrame: frame, bytes: faults.garbageBytes });
+        }
+        const valueCount = frameSamples.length;
+        for (let i = 0, from = f * valueCount; i < valueCount; i++, from++) frameSamples[i] = interleaved[from]!;
+        if (isEvery(frame, faults.dropEvery)) {
+          log.dropped.push(frame);
+        } else {
+          const length = encodeWireFrame(header, frameSamples, bytes, used);
+          if (isEvery(frame, faults.corruptEvery)) {
+            // Invert one payload byte: the header stays valid, so the receiver sees a CRC failure, not garbage.
+            const payloadStart = length - 4 - 2 * channelCount * samplesPerFrame;
+            bytes[used + payloadStart + Math.floor(random.uniform() * 2 * channelCount * samplesPerFrame)] ^= 0xff;
+            log.corrupted.push(frame);
+          }
+          used += length;
+          log.framesSent++;
+        }
+        header.sequence = (header.sequence + 1) % WIRE_SEQUENCE_MODULUS;
+        log.framesMade++;
+      }
+    }
+    log.samplesMade += samples;
+    log.bytesMade += used;
+    return { bytes: bytes.subarray(0, used), positionM: position, phaseRad: phase, samples, firstSample };
+  }
+
+  return { next, frameBytes, log, peakSpeedMS: profile.peakSpeedMS };
+}

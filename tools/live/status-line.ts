@@ -1,0 +1,58 @@
+// The one-line live status of `fringetally listen` on a terminal, redrawn at most five times per second, with log
+// lines printed above it. Without a terminal only the log lines are written.
+import { alarmText } from '../../src/core/index.js';
+import type { LiveStatus } from './live-session.js';
+
+/** Redraws per second at most: faster is unreadable and costs terminal time at high sample rates. */
+const REDRAW_INTERVAL_MS = 200;
+
+export function formatStatus(status: Readonly<LiveStatus>, fitSamples: number): string {
+  const parts = [`link ${status.link}`];
+  if (status.calibration === 'fitting') {
+    parts.push(`fitting correction ${Math.min(status.samplesDelivered, fitSamples)}/${fitSamples} samples`);
+  } else if (status.samplesProcessed > 0) {
+    parts.push(`${(status.positionM * 1e6).toFixed(4)} µm`, `${(status.velocityMS * 1e3).toFixed(4)} mm/s`, `level ${status.level.toFixed(3)}`);
+    parts.push(`alarms: ${alarmText(status.flags) || 'none'}`);
+  }
+  if (status.wire !== null) parts.push(`frames ${status.wire.framesGood}`, `crc fail ${status.wire.crcFailures}`, `resyncs ${status.wire.resyncs}`);
+  if (status.text !== null) parts.push(`lines ${status.text.linesGood}`, `malformed ${status.text.linesMalformed}`);
+  parts.push(`gaps ${status.gaps}${status.gaps > 0 ? ` (${status.lostSamples} lost)` : ''}`);
+  return parts.join(' | ');
+}
+
+export interface StatusLine {
+  /** Writes a line of log above the status line. */
+  log(line: string): void;
+  stop(): void;
+}
+
+export function createStatusLine(stream: NodeJS.WriteStream, draw: () => string, quiet: boolean): StatusLine {
+  if (quiet) return { log() {}, stop() {} };
+  if (!stream.isTTY) return { log: (line) => void stream.write(line + '\n'), stop() {} };
+  let shown = false;
+  const clear = () => {
+    if (shown) stream.write('\r\x1b[K');
+    shown = false;
+  };
+  const redraw = () => {
+    const columns = stream.columns ?? 120;
+    const text = draw();
+    stream.write(`\r${text.length >= columns ? text.slice(0, columns - 1) : text}\x1b[K`);
+    shown = true;
+  };
+  const timer = setInterval(redraw, REDRAW_INTERVAL_MS);
+  timer.unref();
+  return {
+    log(line) {
+      clear();
+      stream.write(line + '\n');
+      redraw();
+    },
+    stop() {
+      clearInterval(timer);
+      redraw();
+      stream.write('\n');
+      shown = false;
+    },
+  };
+}
