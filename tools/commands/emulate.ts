@@ -2,10 +2,10 @@
 // real-time pace of the sample rate, with optional transport faults, a truth file and a summary of what was sent.
 import { writeFile } from 'node:fs/promises';
 import { SerialPort } from 'serialport';
-import type { MotionSpec } from '../../src/core/index.js';
 import { createCaptureWriter, type CaptureWriter } from '../../src/io/capture/index.js';
 import { WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
 import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
+import { ellipseOf, motionOf, noiseOf, scenarioOptionSpecs } from '../scenario-options.js';
 import { createFrameEmulator } from '../live/frame-emulator.js';
 
 const help = `Usage: fringetally emulate --port PATH --baud N --rate-hz R --velocity-m-s V --wavelength-nm L --fold F
@@ -77,20 +77,6 @@ const optionSpecs = {
   'wavelength-nm': { type: 'string' },
   fold: { type: 'string' },
   'refractive-index': { type: 'string' },
-  motion: { type: 'string' },
-  'velocity-m-s': { type: 'string' },
-  'distance-m': { type: 'string' },
-  'acceleration-m-s2': { type: 'string' },
-  'dwell-s': { type: 'string' },
-  'amplitude-m': { type: 'string' },
-  'frequency-hz': { type: 'string' },
-  'drift-m-s': { type: 'string' },
-  'offset-x': { type: 'string' },
-  'offset-y': { type: 'string' },
-  'amplitude-x': { type: 'string' },
-  'amplitude-y': { type: 'string' },
-  'phase-error-rad': { type: 'string' },
-  noise: { type: 'string' },
   seed: { type: 'string' },
   'garbage-every': { type: 'string' },
   'garbage-bytes': { type: 'string' },
@@ -101,6 +87,7 @@ const optionSpecs = {
   truth: { type: 'string' },
   summary: { type: 'string' },
   quiet: { type: 'boolean' },
+  ...scenarioOptionSpecs,
 } as const;
 
 function integerIn(name: string, value: number, min: number, max: number): number {
@@ -159,20 +146,7 @@ async function run(argv: readonly string[]): Promise<number> {
     throw new UsageError('--include-rate and --start-sequence apply to binary frames, not --text');
   }
 
-  const motionKind = text('motion') ?? 'constant';
-  let motion: MotionSpec;
-  if (motionKind === 'constant') motion = { kind: 'constant', velocityMS: num('velocity-m-s') ?? missing('velocity-m-s') };
-  else if (motionKind === 'trapezoid') {
-    motion = {
-      kind: 'trapezoid',
-      distanceM: num('distance-m') ?? 20e-6,
-      maxVelocityMS: num('velocity-m-s') ?? missing('velocity-m-s'),
-      accelerationMS2: num('acceleration-m-s2') ?? 20,
-      dwellS: num('dwell-s') ?? 0.002,
-    };
-  } else if (motionKind === 'vibration') {
-    motion = { kind: 'vibration', amplitudeM: num('amplitude-m') ?? 2e-6, frequencyHz: num('frequency-hz') ?? 200, driftVelocityMS: num('drift-m-s') ?? 0 };
-  } else throw new UsageError(`--motion must be constant, trapezoid or vibration (got "${motionKind}")`);
+  const motion = motionOf(values, 'constant', null);
 
   let emulator;
   try {
@@ -184,14 +158,8 @@ async function run(argv: readonly string[]): Promise<number> {
       wavelengthM,
       fold,
       refractiveIndex,
-      ellipse: {
-        offsetX: num('offset-x') ?? 800,
-        offsetY: num('offset-y') ?? -500,
-        amplitudeX: num('amplitude-x') ?? 12000,
-        amplitudeY: num('amplitude-y') ?? 10800,
-        phaseErrorRad: num('phase-error-rad') ?? 0.06,
-      },
-      noiseRms: num('noise') ?? 20,
+      ellipse: ellipseOf(values),
+      noiseRms: noiseOf(values),
       seed,
       includeRate: values['include-rate'] === true,
       startSequence,
@@ -241,7 +209,7 @@ async function run(argv: readonly string[]): Promise<number> {
         rateHz,
         channelNames: ['position_m', 'phase_rad'],
         timeColumn: true,
-        metadata: { scenario: `invented test scenario: ${motionKind} motion (fringetally emulate)`, truth_of: port },
+        metadata: { scenario: `invented test scenario: ${motion.kind} motion (fringetally emulate)`, truth_of: port },
       });
     }
     const write = (bytes: Uint8Array) =>
@@ -316,10 +284,6 @@ async function run(argv: readonly string[]): Promise<number> {
     );
   }
   return 0;
-}
-
-function missing(name: string): never {
-  throw new UsageError(`--${name} is required for this motion`);
 }
 
 export const emulate: Command = { name: 'emulate', summary: 'a virtual ADC: write wire frames of an invented motion to a serial port', help, run };

@@ -1,12 +1,9 @@
 // `fringetally simulate`: synthetic captures of invented scenarios, with a truth file of the position per sample.
 import { extname } from 'node:path';
-import {
-  createMotionProfile,
-  createQuadratureSynthesizer,
-  type MotionSpec,
-} from '../../src/core/index.js';
+import { createMotionProfile, createQuadratureSynthesizer } from '../../src/core/index.js';
 import { createCaptureWriter } from '../../src/io/capture/index.js';
 import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
+import { ellipseOf, motionOf, noiseOf, scenarioOptionSpecs } from '../scenario-options.js';
 
 const help = `Usage: fringetally simulate --out cap.csv|cap.wav [options]
 
@@ -72,24 +69,11 @@ async function run(argv: readonly string[]): Promise<number> {
       'wavelength-nm': { type: 'string' },
       fold: { type: 'string' },
       'refractive-index': { type: 'string' },
-      motion: { type: 'string' },
-      'velocity-m-s': { type: 'string' },
-      'distance-m': { type: 'string' },
-      'acceleration-m-s2': { type: 'string' },
-      'dwell-s': { type: 'string' },
-      'amplitude-m': { type: 'string' },
-      'frequency-hz': { type: 'string' },
-      'drift-m-s': { type: 'string' },
       overspeed: { type: 'string', multiple: true },
-      'offset-x': { type: 'string' },
-      'offset-y': { type: 'string' },
-      'amplitude-x': { type: 'string' },
-      'amplitude-y': { type: 'string' },
-      'phase-error-rad': { type: 'string' },
-      noise: { type: 'string' },
       adc: { type: 'string' },
       interrupt: { type: 'string', multiple: true },
       quiet: { type: 'boolean' },
+      ...scenarioOptionSpecs,
     },
     false,
   );
@@ -111,32 +95,14 @@ async function run(argv: readonly string[]): Promise<number> {
   if (adcText !== 'int16' && adcText !== 'none') throw new UsageError(`--adc must be int16 or none (got "${adcText}")`);
   const quantised = adcText === 'int16';
 
-  const motionKind = values.motion ?? 'trapezoid';
-  let spec: MotionSpec;
-  if (motionKind === 'constant') spec = { kind: 'constant', velocityMS: num('velocity-m-s', 0.01) };
-  else if (motionKind === 'trapezoid') {
-    spec = {
-      kind: 'trapezoid',
-      distanceM: num('distance-m', 20e-6),
-      maxVelocityMS: num('velocity-m-s', 0.02),
-      accelerationMS2: num('acceleration-m-s2', 20),
-      dwellS: num('dwell-s', 0.002),
-    };
-  } else if (motionKind === 'vibration') {
-    spec = { kind: 'vibration', amplitudeM: num('amplitude-m', 2e-6), frequencyHz: num('frequency-hz', 200), driftVelocityMS: num('drift-m-s', 0) };
-  } else throw new UsageError(`--motion must be constant, trapezoid or vibration (got "${motionKind}")`);
+  const spec = motionOf(values, 'trapezoid', { constant: 0.01, trapezoid: 0.02 });
+  const motionKind = spec.kind;
   const overspeed = windows('overspeed', values.overspeed ?? [], 3);
   const interrupts = windows('interrupt', values.interrupt ?? [], 2);
 
-  const ellipse = {
-    offsetX: num('offset-x', 800),
-    offsetY: num('offset-y', -500),
-    amplitudeX: num('amplitude-x', 12000),
-    amplitudeY: num('amplitude-y', 10800),
-    phaseErrorRad: num('phase-error-rad', 0.06),
-  };
+  const ellipse = ellipseOf(values);
   const profile = createMotionProfile(spec, rateHz);
-  const synthesizer = createQuadratureSynthesizer({ ellipse, noiseRms: num('noise', 20), adc: quantised ? { kind: 'int16' } : null, seed });
+  const synthesizer = createQuadratureSynthesizer({ ellipse, noiseRms: noiseOf(values), adc: quantised ? { kind: 'int16' } : null, seed });
   const radPerMetre = (2 * Math.PI * fold * refractiveIndex) / wavelengthM;
   const total = Math.round(durationS * rateHz);
   const metadata = {
