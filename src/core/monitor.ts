@@ -50,19 +50,14 @@ export interface SignalMonitor {
 
 const ADC_KINDS = ['int16', 'unsigned', 'float'] as const;
 
+/** The codes at or beyond which a sample is saturated; throws `OptionError` for a malformed format. */
 export function adcLimits(adc: AdcFormat): { low: number; high: number } {
-  switch (adc.kind) {
-    case 'int16':
-      return { low: -32768, high: 32767 };
-    case 'unsigned':
-      integerInRange('adc.bits', adc.bits, 2, 32);
-      return { low: 0, high: 2 ** adc.bits - 1 };
-    case 'float':
-      positiveFinite('adc.fullScale', adc.fullScale);
-      return { low: -adc.fullScale, high: adc.fullScale };
-    default:
-      return oneOf('adc.kind', (adc as { kind: unknown }).kind, ADC_KINDS) as never;
-  }
+  // Checked first: a format from a file or a config may carry any kind.
+  oneOf('adc.kind', adc.kind, ADC_KINDS);
+  if (adc.kind === 'int16') return { low: -32768, high: 32767 };
+  if (adc.kind === 'unsigned') return { low: 0, high: 2 ** integerInRange('adc.bits', adc.bits, 2, 32) - 1 };
+  const fullScale = positiveFinite('adc.fullScale', adc.fullScale);
+  return { low: -fullScale, high: fullScale };
 }
 
 export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalMonitor {
