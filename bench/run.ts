@@ -1,9 +1,10 @@
 // `npm run bench [-- --json] [-- --capture] [-- --replay] [-- --stream] [-- --live] [-- --accuracy] [-- --all]`:
-// measures the core stages, the whole pipeline and the decoder (always), and on request the capture readers,
+// measures the core stages, the whole pipeline (plain and with the WebAssembly front ends) and the decoder (always), and on request the capture readers,
 // replay from files, the stream API, live tracking through a pseudo-terminal (needs socat) and the accuracy of
 // the ellipse fits; prints a table or one JSON document.
 import { parseArgs } from 'node:util';
 import { runAccuracyBenchmark, formatAccuracyTable } from './accuracy.js';
+import { accelCases } from './cases/accel.js';
 import { captureCases } from './cases/capture.js';
 import { coreCases, heapGrowth } from './cases/core.js';
 import { decoderCases } from './cases/decoder.js';
@@ -45,6 +46,8 @@ results.push({
   extra: { samples: heap.samples, heapGrowthBytes: heap.heapGrowthBytes },
 });
 log('measured heap growth');
+results.push(...accelCases());
+log('measured the accelerated front ends');
 for (const benchCase of decoderCases()) {
   const result = measure(benchCase);
   const megabytesPerSecond = (benchCase.bytesPerPass * result.samplesPerSecond) / benchCase.samplesPerPass / 1e6;

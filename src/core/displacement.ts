@@ -12,7 +12,7 @@ export interface DisplacementOptions {
   readonly refractiveIndex?: number;
   /** Sample rate in Hz, for velocity. Required. */
   readonly rateHz: number;
-  /** Factor on every length and velocity, e.g. the normalisation to 20 °C, 1/(1 + α(T − 20)). Default 1; range (0.9, 1.1). */
+  /** Factor on every length and velocity, e.g. the normalisation to 20 °C, 1/(1 + α(T − 20)). Default 1; positive. */
   readonly lengthScale?: number;
 }
 
@@ -49,7 +49,7 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
   const fold = positiveFinite('fold', options.fold);
   const rateHz = positiveFinite('rateHz', options.rateHz);
   let refractiveIndex = validateRefractiveIndex(options.refractiveIndex ?? 1);
-  const lengthScale = numberInRange('lengthScale', options.lengthScale ?? 1, 0.9, 1.1);
+  const lengthScale = positiveFinite('lengthScale', options.lengthScale ?? 1);
   let metresPerFringe = 0;
   let metresPerRad = 0;
   let velocityPerStep = 0;

@@ -7,7 +7,7 @@ export { createDisplacement } from './displacement.js';
 export { createEllipseAccumulator, fromHeydemann } from './ellipse.js';
 export { createSignalMonitor } from './monitor.js';
 export { OptionError } from './options.js';
-export { TWO_PI, wrapPhase } from './phase.js';
+export { TWO_PI } from './phase.js';
 export { createPipeline } from './pipeline.js';
 export { createPhaseTracker } from './tracker.js';
 export type * from './alarms.js';

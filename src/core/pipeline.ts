@@ -51,13 +51,19 @@ export interface PipelineOptions {
 
 /**
  * An accelerated replacement of the correction, level and arctangent passes for blocks in which nothing needs
- * the monitor's alarm logic (e.g. a WebAssembly SIMD kernel). It must give exactly what the JavaScript stages
- * give: level = √(u² + v²) and phase = fastAtan2(v, u) with u, v from `coefficients` (see `Correction`).
+ * the monitor's alarm logic (e.g. a WebAssembly SIMD kernel). It computes level = √(u² + v²) and
+ * phase = atan2(v, u) with u, v from `coefficients` (see `Correction`), either exactly as the JavaScript stages
+ * do (`fastAtan2`) or within a stated error; a front end that is not exact must leave to the stages every block
+ * where that error could change a decision (see `process`).
  */
 export interface FrontEnd {
   /**
-   * Writes level and wrapped phase of `length` samples and returns true, or returns false (outputs then
-   * unspecified) when any sample has a level below `minLevel`, a code at or beyond `low`/`high`, or is not finite.
+   * Writes the level of `length` samples into `level` and returns its own array holding their wrapped phases
+   * (valid until its next call; the pipeline may overwrite it). Returns null (outputs then unspecified) when any
+   * sample has a level below `minLevel`, a code at or beyond
+   * `low`/`high`, or is not finite; and, unless its results are exactly the stages', when a level comes within
+   * its error of `minLevel` or a phase step (wrapped difference of consecutive phases, the first from
+   * `lastPhaseRad`) within its error of `stepGuardRad`.
    */
   process(
     x: SampleArray,
@@ -68,8 +74,9 @@ export interface FrontEnd {
     high: number,
     minLevel: number,
     level: Float32Array,
-    phaseRad: Float64Array,
-  ): boolean;
+    lastPhaseRad: number,
+    stepGuardRad: number,
+  ): Float64Array | null;
 }
 
 /** Caller-owned output arrays, each at least as long as the input block. */
@@ -178,26 +185,33 @@ export function createPipeline(options: PipelineOptions): Pipeline {
   const frontEnd = options.frontEnd;
   const { low, high } = monitor.limits;
   const minLevel = monitor.options.lowSignalLevel;
+  // The least step size at which a plain tracker decides anything (the overspeed alarm's clear level, below its
+  // raise level and the count-lost step). Velocity-aided decisions turn on the loop's prediction, not on the
+  // step alone, so there no step is safe: an inexact front end declines every block.
+  const stepGuardRad = tracker.options.unwrap === 'plain' ? 0.9 * tracker.options.overspeedStepRad : 0;
 
   function run(x: SampleArray, y: SampleArray, length: number, output: PipelineOutput, events: AlarmEvent[]): void {
     const firstEvent = events.length;
     const { turns, phaseRad, stepRad } = track;
     output.flags.fill(0, 0, length);
     track.flags = output.flags;
-    if (
-      frontEnd !== undefined &&
-      monitor.quiet &&
-      frontEnd.process(x, y, length, correction.coefficients, low, high, minLevel, output.level, phaseRad)
-    ) {
+    const phases =
+      frontEnd !== undefined && monitor.quiet
+        ? frontEnd.process(x, y, length, correction.coefficients, low, high, minLevel, output.level, tracker.phaseRad, stepGuardRad)
+        : null;
+    if (phases !== null) {
+      track.phaseRad = phases; // the front end's own array, for this block only
       tracker.processPhase(output.level, length, nextIndex, track, events);
+      track.phaseRad = phaseRad;
     } else {
       correction.process(x, y, u, v, length);
       monitor.process(x, y, u, v, length, nextIndex, output.level, output.flags, events);
       tracker.process(u, v, output.level, length, nextIndex, track, events);
     }
-    displacement.process(turns, phaseRad, stepRad, length, output.positionM, output.velocityMS);
+    const wrapped = phases ?? phaseRad;
+    displacement.process(turns, wrapped, stepRad, length, output.positionM, output.velocityMS);
     const unwrapped = output.unwrappedPhaseRad;
-    if (unwrapped !== undefined) for (let i = 0; i < length; i++) unwrapped[i] = TWO_PI * turns[i]! + phaseRad[i]!;
+    if (unwrapped !== undefined) for (let i = 0; i < length; i++) unwrapped[i] = TWO_PI * turns[i]! + wrapped[i]!;
     nextIndex += length;
     if (events.length - firstEvent > 1) {
       const added = events.splice(firstEvent);
@@ -235,14 +249,6 @@ export function createPipeline(options: PipelineOptions): Pipeline {
     return length;
   }
 
-  function speedLimits(): SpeedLimits {
-    const perFringe = displacement.metresPerFringe;
-    return {
-      unambiguousMS: (perFringe * options.rateHz) / 2,
-      overspeedMS: (tracker.options.overspeedStepRad / TWO_PI) * perFringe * options.rateHz,
-    };
-  }
-
   return {
     process,
     markGap(lostSamples: number) {
@@ -265,8 +271,12 @@ export function createPipeline(options: PipelineOptions): Pipeline {
     get nextSampleIndex() {
       return nextIndex;
     },
-    get speedLimits() {
-      return speedLimits();
+    get speedLimits(): SpeedLimits {
+      const perFringe = displacement.metresPerFringe;
+      return {
+        unambiguousMS: (perFringe * options.rateHz) / 2,
+        overspeedMS: (tracker.options.overspeedStepRad / TWO_PI) * perFringe * options.rateHz,
+      };
     },
     get countLost() {
       return tracker.countLost;

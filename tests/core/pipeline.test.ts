@@ -314,19 +314,20 @@ describe('front end', () => {
     x[12_000] = 32767; // saturation
     let quietBlocks = 0;
     let calls = 0;
+    const phaseRad = new Float64Array(4096);
     const frontEnd: FrontEnd = {
-      process(xs, ys, length, c, low, high, minLevel, level, phaseRad) {
+      process(xs, ys, length, c, low, high, minLevel, level) {
         calls++;
         for (let i = 0; i < length; i++) {
           const u = c[0]! * xs[i]! + c[1]!;
           const v = c[2]! * xs[i]! + c[3]! * ys[i]! + c[4]!;
           const lev = Math.sqrt(u * u + v * v);
-          if (!(lev >= minLevel) || xs[i]! <= low || xs[i]! >= high || ys[i]! <= low || ys[i]! >= high) return false;
+          if (!(lev >= minLevel) || xs[i]! <= low || xs[i]! >= high || ys[i]! <= low || ys[i]! >= high) return null;
           level[i] = lev;
           phaseRad[i] = fastAtan2(v, u);
         }
         quietBlocks++;
-        return true;
+        return phaseRad;
       },
     };
     const plain = run(x, y, baseOptions, [4096, 8192, 12288, 16384]);

@@ -1,3 +1,4 @@
+/// <reference lib="dom" />
 // The HTML report renders in headless Chromium (Debian chromium driven by playwright-core) with its plots drawn.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { existsSync, mkdirSync, mkdtempSync, rmSync, readFileSync } from 'node:fs';

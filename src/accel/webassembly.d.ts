@@ -1,0 +1,15 @@
+// The little of the WebAssembly JavaScript API that front-end.ts uses. The project's lib is ES2020 with Node
+// types, neither of which declares WebAssembly; engines that lack it make `createWasmFrontEnd` return null.
+declare namespace WebAssembly {
+  class Module {
+    constructor(bytes: Uint8Array);
+  }
+  class Instance {
+    constructor(module: Module, imports: Record<string, Record<string, unknown>>);
+    readonly exports: Record<string, unknown>;
+  }
+  class Memory {
+    readonly buffer: ArrayBuffer;
+    grow(deltaPages: number): number;
+  }
+}
