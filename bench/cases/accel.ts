@@ -48,8 +48,16 @@ function measureCpu(timed: Timed): BenchResult {
 
 const VARIANTS: readonly WasmFrontEndPrecision[] = ['f32', 'f64-exact'];
 
-/** Front end alone and whole pipeline, plain JavaScript and every WebAssembly variant. */
-export function accelCases(): BenchResult[] {
+/** Names of the cases `accelCases` measures (those whose engine has WebAssembly SIMD). */
+export const ACCEL_CASE_NAMES: readonly string[] = [
+  'front-end/int16/block4096/js-stages',
+  ...VARIANTS.map((precision) => `front-end/int16/block4096/wasm-simd-${precision}`),
+  'pipeline/int16/block4096/plain-js',
+  ...VARIANTS.map((precision) => `pipeline/int16/block4096/wasm-simd-${precision}`),
+];
+
+/** Front end alone and whole pipeline, plain JavaScript and every WebAssembly variant; `only` picks one case. */
+export function accelCases(only?: string): BenchResult[] {
   const { x, y } = benchSignal(TOTAL_SAMPLES);
   const blocks = TOTAL_SAMPLES / BLOCK;
   const xs = Array.from({ length: blocks }, (_, b) => x.subarray(b * BLOCK, (b + 1) * BLOCK));
@@ -57,6 +65,9 @@ export function accelCases(): BenchResult[] {
   const level = new Float32Array(BLOCK);
   const phaseRad = new Float64Array(BLOCK);
   const results: BenchResult[] = [];
+  const measureSelected = (timed: Timed): void => {
+    if (only === undefined || only === timed.name) results.push(measureCpu(timed));
+  };
 
   // The passes the front ends replace, as the pipeline runs them on a quiet block.
   const correction = createCorrection({ calibration: ellipse });
@@ -65,7 +76,7 @@ export function accelCases(): BenchResult[] {
   const v = new Float64Array(BLOCK);
   const flags = new Uint8Array(BLOCK);
   const events: AlarmEvent[] = [];
-  results.push(measureCpu({
+  measureSelected({
     name: 'front-end/int16/block4096/js-stages',
     pass() {
       for (let b = 0; b < blocks; b++) {
@@ -75,7 +86,7 @@ export function accelCases(): BenchResult[] {
       }
       events.length = 0;
     },
-  }));
+  });
 
   const frontEnds = new Map<WasmFrontEndPrecision, FrontEnd>();
   for (const precision of VARIANTS) {
@@ -83,7 +94,7 @@ export function accelCases(): BenchResult[] {
     if (frontEnd === null) continue; // no WebAssembly SIMD: only the plain cases are reported
     frontEnds.set(precision, frontEnd);
     let declined = 0;
-    results.push(measureCpu({
+    measureSelected({
       name: `front-end/int16/block4096/wasm-simd-${precision}`,
       pass() {
         let last = 0;
@@ -95,7 +106,7 @@ export function accelCases(): BenchResult[] {
         }
       },
       extra: () => ({ declinedBlocks: declined }),
-    }));
+    });
   }
 
   const options: PipelineOptions = { rateHz: RATE_HZ, wavelengthM: WAVELENGTH_M, fold: 2, calibration: ellipse, adc: { kind: 'int16' } };
@@ -111,9 +122,9 @@ export function accelCases(): BenchResult[] {
       },
     };
   };
-  results.push(measureCpu(pipelineCase('pipeline/int16/block4096/plain-js', undefined)));
+  measureSelected(pipelineCase('pipeline/int16/block4096/plain-js', undefined));
   for (const [precision, frontEnd] of frontEnds) {
-    results.push(measureCpu(pipelineCase(`pipeline/int16/block4096/wasm-simd-${precision}`, frontEnd)));
+    measureSelected(pipelineCase(`pipeline/int16/block4096/wasm-simd-${precision}`, frontEnd));
   }
   return results;
 }
