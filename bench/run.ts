@@ -1,6 +1,6 @@
 // `npm run bench [-- --json] [-- --capture] [-- --replay] [-- --stream] [-- --live] [-- --accuracy] [-- --all]`:
 // measures the core stages, the whole pipeline (plain and with the WebAssembly front ends) and the decoder (always), and on request the capture readers,
-// replay from files, the stream API, live tracking through a pseudo-terminal (needs socat) and the accuracy of
+// replay from files, the stream API and the WebSocket feed, live tracking through a pseudo-terminal (needs socat) and the accuracy of
 // the ellipse fits; prints a table or one JSON document.
 import { parseArgs } from 'node:util';
 import { runAccuracyBenchmark, formatAccuracyTable } from './accuracy.js';
@@ -10,6 +10,7 @@ import { ACCEL_CASE_NAMES, accelCases } from './cases/accel.js';
 import { captureCases } from './cases/capture.js';
 import { coreCases, heapGrowth } from './cases/core.js';
 import { decoderCases } from './cases/decoder.js';
+import { feedBenchmarks } from './cases/feed.js';
 import { liveBenchmarks } from './cases/live.js';
 import { replayCases } from './cases/replay.js';
 import { streamBenchmarks } from './cases/stream.js';
@@ -83,7 +84,8 @@ if (values.replay || values.all) {
 }
 if (values.stream || values.all) {
   results.push(...streamBenchmarks());
-  log('measured the stream API');
+  results.push(...(await feedBenchmarks()));
+  log('measured the stream API and the WebSocket feed');
 }
 if (values.live || values.all) {
   results.push(...(await liveBenchmarks()));
