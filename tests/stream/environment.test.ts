@@ -3,6 +3,8 @@
 // 20 % RH, 450 ppm CO2, 633 nm = 1.0002716285340578 (third-party doc, REFERENCES.md; tolerance 1e-9).
 import { describe, expect, it } from 'vitest';
 import { from, lastValueFrom, Subject, toArray } from 'rxjs';
+import { TestScheduler } from 'rxjs/testing';
+import { refractiveIndexOfAir } from '../../src/core/index.js';
 import { airIndex, createAxes } from '../../src/stream/index.js';
 import { axisBlocks, axisOptions, HE_NE_M, quadrature, ramp } from './signal.js';
 
@@ -27,6 +29,25 @@ describe('refractive index during a run', () => {
     expect(updates[1]).toBeCloseTo((fringesAt(1999) * HE_NE_M) / (2 * 1.0003), 15);
     expect(updates[2]).toBeCloseTo((fringesAt(2999) * HE_NE_M) / (2 * 1.0001), 15);
     expect(() => axes.setRefractiveIndex(0.5)).toThrow('refractiveIndex must be a number in [1, 1.01] (got 0.5)');
+  });
+
+  it('airIndex in marbles: normal flow, source error, empty source, early unsubscribe, and a reading it refuses', () => {
+    const scheduler = new TestScheduler((actual, expected) => expect(actual).toEqual(expected));
+    const warm = { temperatureC: 25, pressurePa: 101325, relativeHumidityPct: 50, vacuumWavelengthM: 633e-9 };
+    const cold = { ...warm, temperatureC: 15 };
+    const n = (air: typeof warm) => refractiveIndexOfAir(air).n;
+    scheduler.run(({ cold: coldObservable, expectObservable, expectSubscriptions }) => {
+      const normal = coldObservable('-a-b-|', { a: warm, b: cold });
+      expectObservable(normal.pipe(airIndex())).toBe('-a-b-|', { a: n(warm), b: n(cold) });
+      const failing = coldObservable('-a-#', { a: warm }, new Error('sensor gone'));
+      expectObservable(failing.pipe(airIndex())).toBe('-a-#', { a: n(warm) }, new Error('sensor gone'));
+      expectObservable(coldObservable('|').pipe(airIndex())).toBe('|');
+      const long = coldObservable('-a-b-a-|', { a: warm, b: cold });
+      expectObservable(long.pipe(airIndex()), '^--!').toBe('-a-', { a: n(warm) });
+      expectSubscriptions(long.subscriptions).toBe('^--!');
+      const impossible = coldObservable('-a-b-|', { a: warm, b: { ...warm, pressurePa: -1 } });
+      expectObservable(impossible.pipe(airIndex())).toBe('-a-#', { a: n(warm) }, expect.any(Error));
+    });
   });
 
   it('airIndex turns air readings into n (Ciddor)', async () => {
