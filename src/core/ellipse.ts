@@ -112,12 +112,12 @@ export interface EllipseFitOptions {
   readonly maxPhaseErrorRad?: number;
 }
 
-/** Monomial exponents (i, j) of x^i y^j, i + j <= 4, and their index in the moment array. */
-const MONOMIAL_COUNT = 15;
+/** Moment sums Σ u^i v^j for i + j <= 4, stored at index (i+j)(i+j+1)/2 + j (see `momentIndex`). */
+export const MOMENT_COUNT = 15;
 /** Cells per side of the coverage grid, and the phase bins coverage is counted in (10° each). */
 const GRID = 64;
 const COVERAGE_BINS = 36;
-function monomialIndex(i: number, j: number): number {
+export function momentIndex(i: number, j: number): number {
   const degree = i + j;
   return (degree * (degree + 1)) / 2 + j;
 }
@@ -129,17 +129,17 @@ const BINOMIAL = [
   [1, 4, 6, 4, 1],
 ];
 
-/** Rewrites sums of u^i v^j as sums of (u + du)^i (v + dv)^j, in place. */
-function shiftMoments(moments: Float64Array, du: number, dv: number, scratch: Float64Array): void {
+/** Rewrites sums of u^i v^j as sums of (u + du)^i (v + dv)^j, in place (`scratch`: any MOMENT_COUNT array). */
+export function shiftMoments(moments: Float64Array, du: number, dv: number, scratch: Float64Array): void {
   for (let i = 0; i <= 4; i++) {
     for (let j = 0; i + j <= 4; j++) {
       let sum = 0;
       for (let k = 0; k <= i; k++) {
         for (let l = 0; l <= j; l++) {
-          sum += BINOMIAL[i]![k]! * BINOMIAL[j]![l]! * du ** (i - k) * dv ** (j - l) * moments[monomialIndex(k, l)]!;
+          sum += BINOMIAL[i]![k]! * BINOMIAL[j]![l]! * du ** (i - k) * dv ** (j - l) * moments[momentIndex(k, l)]!;
         }
       }
-      scratch[monomialIndex(i, j)] = sum;
+      scratch[momentIndex(i, j)] = sum;
     }
   }
   moments.set(scratch);
@@ -301,8 +301,8 @@ export interface EllipseAccumulator {
 export function createEllipseAccumulator(options: EllipseFitOptions = {}): EllipseAccumulator {
   const limits = resolveFitLimits(options);
   const { minSamples } = limits;
-  const moments = new Float64Array(MONOMIAL_COUNT);
-  const scratch = new Float64Array(MONOMIAL_COUNT);
+  const moments = new Float64Array(MOMENT_COUNT);
+  const scratch = new Float64Array(MOMENT_COUNT);
   const matrix = new Float64Array(25);
   const rhs = new Float64Array(5);
   // Sums are kept about the first sample seen, so the powers stay near the signal's own size.
@@ -407,7 +407,7 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
     } else {
       shiftMoments(incoming, theirs.shiftX - shiftX, theirs.shiftY - shiftY, scratch);
     }
-    for (let k = 0; k < MONOMIAL_COUNT; k++) moments[k] += incoming[k]!;
+    for (let k = 0; k < MOMENT_COUNT; k++) moments[k] += incoming[k]!;
     const d = theirs.shiftX - shiftX;
     const e = theirs.shiftY - shiftY;
     const cell = (2 * theirs.gridHalfWidth) / GRID;
@@ -437,9 +437,9 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
       return fail('degenerate', 'all samples at one point: no modulation');
     }
     for (let i = 0; i <= 4; i++) {
-      for (let j = 0; i + j <= 4; j++) centred[monomialIndex(i, j)] = centred[monomialIndex(i, j)]! / (n * scale ** (i + j));
+      for (let j = 0; i + j <= 4; j++) centred[momentIndex(i, j)] = centred[momentIndex(i, j)]! / (n * scale ** (i + j));
     }
-    const average = (i: number, j: number): number => centred[monomialIndex(i, j)]!;
+    const average = (i: number, j: number): number => centred[momentIndex(i, j)]!;
     for (let row = 0; row < 5; row++) {
       const [ri, rj] = FEATURES[row]!;
       for (let col = 0; col < 5; col++) {

@@ -9,27 +9,13 @@
 //    and are left out here; at the thousands of samples a calibration uses they are far below the bias removed.
 
 import type { Conic, EllipseAccumulator, EllipseCalibration, EllipseFitOptions, EllipseFitResult } from './ellipse.js';
-import { acceptFit, coverageOfFit, fromHeydemann, resolveFitLimits } from './ellipse.js';
+import { acceptFit, coverageOfFit, fromHeydemann, MOMENT_COUNT, momentIndex, resolveFitLimits, shiftMoments } from './ellipse.js';
 import { choleskyInPlace, createGeneralizedEigenSolver } from './fit-numerics.js';
 import { oneOf } from './options.js';
 
 export const ELLIPSE_FIT_METHODS = ['heydemann', 'taubin', 'hyper'] as const;
 export type EllipseFitMethod = (typeof ELLIPSE_FIT_METHODS)[number];
 
-/** Moment sums Σ w·u^i v^j for i + j <= 4, stored at index (i+j)(i+j+1)/2 + j: the `EllipseAccumulator` layout. */
-export const MOMENT_COUNT = 15;
-export function momentIndex(i: number, j: number): number {
-  const degree = i + j;
-  return (degree * (degree + 1)) / 2 + j;
-}
-
-const BINOMIAL = [
-  [1, 0, 0, 0, 0],
-  [1, 1, 0, 0, 0],
-  [1, 2, 1, 0, 0],
-  [1, 3, 3, 1, 0],
-  [1, 4, 6, 4, 1],
-];
 /** Exponents (i, j) of the five conic features a², b², ab, a, b. */
 const FEATURE_I = [2, 0, 1, 1, 0];
 const FEATURE_J = [0, 2, 1, 0, 1];
@@ -136,18 +122,9 @@ export function createConicSolver(method: EllipseFitMethod): ConicSolver {
     if (!(n > 0)) return fail('degenerate');
     const meanU = moments[1]! / n;
     const meanV = moments[2]! / n;
-    // Centre the sums on the centroid: Σ(u − ū)^i (v − v̄)^j by the binomial expansion.
-    for (let i = 0; i <= 4; i++) {
-      for (let j = 0; i + j <= 4; j++) {
-        let sum = 0;
-        for (let k = 0; k <= i; k++) {
-          for (let l = 0; l <= j; l++) {
-            sum += BINOMIAL[i]![k]! * BINOMIAL[j]![l]! * (-meanU) ** (i - k) * (-meanV) ** (j - l) * moments[momentIndex(k, l)]!;
-          }
-        }
-        centred[momentIndex(i, j)] = sum;
-      }
-    }
+    // Centre the sums on the centroid: Σ(u − ū)^i (v − v̄)^j by the binomial expansion (`average` is free here).
+    centred.set(moments);
+    shiftMoments(centred, -meanU, -meanV, average);
     const scale = Math.sqrt((centred[3]! + centred[5]!) / n);
     if (!(scale > 0) || !Number.isFinite(scale)) return fail('degenerate');
     for (let i = 0; i <= 4; i++) {

@@ -6,7 +6,8 @@
 
 import type { EllipseCalibration } from './ellipse.js';
 import { correctionCoefficients, validateCalibration } from './correction.js';
-import { createConicSolver, ELLIPSE_FIT_METHODS, MOMENT_COUNT, type EllipseFitMethod } from './fit-improved.js';
+import { MOMENT_COUNT } from './ellipse.js';
+import { createConicSolver, ELLIPSE_FIT_METHODS, type EllipseFitMethod } from './fit-improved.js';
 import { integerInRange, numberInRange, oneOf, OptionError } from './options.js';
 import { fastAtan2, TWO_PI, wrapPhase } from './phase.js';
 
