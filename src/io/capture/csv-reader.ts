@@ -4,7 +4,8 @@ import { CaptureFormatError } from './errors.js';
 import { parseAdcMetadata, parseMetadataLine, parseRateMetadata, RATE_KEY } from './metadata.js';
 import { createParsedNumber, parseNumberBytes, type ParsedNumber } from './parse-number.js';
 import type { ResolvedCaptureOptions } from './resolved-options.js';
-import type { Capture, CaptureBlock, CaptureInfo, ChannelSelector, RateSource } from './types.js';
+import { singlePassCapture } from './single-pass.js';
+import type { Capture, CaptureInfo, ChannelSelector, RateSource } from './types.js';
 
 /** Longest line the reader accepts; a longer one is reported, so memory stays bounded on a file without newlines. */
 export const MAX_CSV_LINE_BYTES = 65_536;
@@ -177,8 +178,6 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
   const xBuffer = new Float64Array(blockSize);
   const yBuffer = new Float64Array(blockSize);
   const tBuffer = plan.t === -1 ? null : new Float64Array(blockSize);
-  const block = { x: xBuffer, y: yBuffer, t: tBuffer, length: 0, firstIndex: 0 };
-  let samplesDelivered = 0;
   let pendingError: Error | null = null;
 
   async function fillBlock(): Promise<number> {
@@ -205,47 +204,7 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
     return count;
   }
 
-  let closed = false;
-  async function close(): Promise<void> {
-    if (closed) return;
-    closed = true;
-    await handle.close();
-  }
-
-  let started = false;
-  async function* blocks(): AsyncGenerator<CaptureBlock> {
-    try {
-      for (;;) {
-        const count = await fillBlock();
-        if (count === 0) return;
-        if (count < blockSize) {
-          block.x = xBuffer.subarray(0, count);
-          block.y = yBuffer.subarray(0, count);
-          block.t = tBuffer === null ? null : tBuffer.subarray(0, count);
-        }
-        block.length = count;
-        block.firstIndex = samplesDelivered;
-        samplesDelivered += count;
-        yield block;
-      }
-    } finally {
-      await close();
-    }
-  }
-
-  const capture: Capture = {
-    info,
-    blocks() {
-      if (started) throw new Error(`${file}: blocks() can be called once per openCapture`);
-      started = true;
-      return blocks();
-    },
-    [Symbol.asyncIterator]() {
-      return capture.blocks();
-    },
-    close,
-  };
-  return capture;
+  return singlePassCapture(info, handle, { x: xBuffer, y: yBuffer, t: tBuffer }, fillBlock);
 }
 
 /** End of a line's content: before the newline and an optional carriage return. */

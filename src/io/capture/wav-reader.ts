@@ -4,7 +4,8 @@ import { endianness } from 'node:os';
 import { CaptureFormatError } from './errors.js';
 import { integerAdc } from './metadata.js';
 import type { ResolvedCaptureOptions } from './resolved-options.js';
-import type { AdcFormat, Capture, CaptureBlock, CaptureInfo, ChannelSelector } from './types.js';
+import { singlePassCapture } from './single-pass.js';
+import type { AdcFormat, Capture, CaptureInfo, ChannelSelector } from './types.js';
 import { readWavLayout, type WavLayout } from './wav-header.js';
 
 export async function openWavCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions): Promise<Capture> {
@@ -50,8 +51,6 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
   const blockSize = options.blockSize;
   const xBuffer = new Float64Array(blockSize);
   const yBuffer = new Float64Array(blockSize);
-  const block = { x: xBuffer, y: yBuffer, t: null, length: 0, firstIndex: 0 };
-  let samplesDelivered = 0;
   let pendingError: Error | null = null;
 
   /** Keeps a partial frame, reads the next chunk after it; false when the data chunk is used up. */
@@ -147,46 +146,7 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
     return count;
   }
 
-  let closed = false;
-  async function close(): Promise<void> {
-    if (closed) return;
-    closed = true;
-    await handle.close();
-  }
-
-  let started = false;
-  async function* blocks(): AsyncGenerator<CaptureBlock> {
-    try {
-      for (;;) {
-        const count = await fillBlock();
-        if (count === 0) return;
-        if (count < blockSize) {
-          block.x = xBuffer.subarray(0, count);
-          block.y = yBuffer.subarray(0, count);
-        }
-        block.length = count;
-        block.firstIndex = samplesDelivered;
-        samplesDelivered += count;
-        yield block;
-      }
-    } finally {
-      await close();
-    }
-  }
-
-  const capture: Capture = {
-    info,
-    blocks() {
-      if (started) throw new Error(`${file}: blocks() can be called once per openCapture`);
-      started = true;
-      return blocks();
-    },
-    [Symbol.asyncIterator]() {
-      return capture.blocks();
-    },
-    close,
-  };
-  return capture;
+  return singlePassCapture(info, handle, { x: xBuffer, y: yBuffer, t: null }, fillBlock);
 }
 
 function pickChannel(file: string, layout: WavLayout, names: readonly string[], option: string, selector: ChannelSelector): number {

@@ -1,0 +1,64 @@
+// The one-pass Capture both readers hand out: a reader fills its reused buffers, this turns that into blocks.
+import type { FileHandle } from 'node:fs/promises';
+import type { Capture, CaptureBlock, CaptureInfo } from './types.js';
+
+export interface BlockBuffers {
+  readonly x: Float64Array;
+  readonly y: Float64Array;
+  /** Times in seconds, or null when the file has no time column. */
+  readonly t: Float64Array | null;
+}
+
+/**
+ * A Capture over `fill`, which writes up to `buffers.x.length` samples into the buffers and resolves with the
+ * count (0 at the end; it rejects at the first bad place, after the good samples before it were delivered).
+ * The file closes when the pass ends, early or not.
+ */
+export function singlePassCapture(info: CaptureInfo, handle: FileHandle, buffers: BlockBuffers, fill: () => Promise<number>): Capture {
+  const blockSize = buffers.x.length;
+  const block: { -readonly [K in keyof CaptureBlock]: CaptureBlock[K] } = { x: buffers.x, y: buffers.y, t: buffers.t, length: 0, firstIndex: 0 };
+  let samplesDelivered = 0;
+  let closed = false;
+  let started = false;
+
+  async function close(): Promise<void> {
+    if (closed) return;
+    closed = true;
+    await handle.close();
+  }
+
+  async function* blocks(): AsyncGenerator<CaptureBlock> {
+    try {
+      for (;;) {
+        const count = await fill();
+        if (count === 0) return;
+        if (count < blockSize) {
+          // Only the last block is shorter: views of the reused buffers.
+          block.x = buffers.x.subarray(0, count);
+          block.y = buffers.y.subarray(0, count);
+          block.t = buffers.t === null ? null : buffers.t.subarray(0, count);
+        }
+        block.length = count;
+        block.firstIndex = samplesDelivered;
+        samplesDelivered += count;
+        yield block;
+      }
+    } finally {
+      await close();
+    }
+  }
+
+  const capture: Capture = {
+    info,
+    blocks() {
+      if (started) throw new Error(`${info.file}: blocks() can be called once per openCapture`);
+      started = true;
+      return blocks();
+    },
+    [Symbol.asyncIterator]() {
+      return capture.blocks();
+    },
+    close,
+  };
+  return capture;
+}
