@@ -456,7 +456,7 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
     if (h === null) {
       return fail(
         'not-an-ellipse',
-        'the conic is not an ellipse: too little of the figure covered, or not quadrature',
+        'not an ellipse: too little of the figure covered, or not quadrature',
       );
     }
 

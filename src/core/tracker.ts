@@ -84,8 +84,9 @@ export interface PhaseTracker {
 }
 
 /**
- * Unwraps a block whose samples are all usable into turns and steps, and says whether every step stayed within
- * `maxStepRad`; false (outputs then unspecified) when a sample is held or a step is larger.
+ * Unwraps a block whose samples are all usable into turns and loop velocities, with the loop state [w, lag] in
+ * `loop`, and says whether every step stayed within `maxStepRad`; false (outputs then unspecified, `loop`
+ * untouched) when a sample is held or a step is larger.
  */
 function steadyBlock(
   phaseRad: Float64Array,
@@ -97,10 +98,15 @@ function steadyBlock(
   turns: number,
   turnsOut: Float64Array,
   stepOut: Float64Array,
+  alpha: number,
+  beta: number,
+  loop: Float64Array,
 ): boolean {
   const pi = Math.PI, twoPi = TWO_PI;
   let last = lastPhase;
   let turnsNow = turns;
+  let w = loop[0]!;
+  let lag = loop[1]!;
   for (let i = 0; i < length; i++) {
     if (!(level[i]! >= minLevel)) return false;
     const theta = phaseRad[i]!;
@@ -115,8 +121,14 @@ function steadyBlock(
     if (d > maxStepRad || d < -maxStepRad) return false;
     last = theta;
     turnsOut[i] = turnsNow;
-    stepOut[i] = d;
+    // The velocity loop, in the same arithmetic as the full loop of `process`.
+    const residual = d - lag - w;
+    w += beta * residual;
+    lag = (alpha - 1) * residual;
+    stepOut[i] = w;
   }
+  loop[0] = w;
+  loop[1] = lag;
   return true;
 }
 
@@ -165,6 +177,7 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
   let lag = 0; // loop phase estimate minus last measured phase, rad
   let heldTravel = 0;
   let resuming = false; // the next usable sample follows held ones
+  const loopState = new Float64Array(2); // [w, lag] handed to the fast path
   let countLost = false;
   let clearPending = false;
   let overspeedActive = false;
@@ -223,15 +236,12 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
     const maxStep = aided ? AIDED_MAX_STEP_RAD : Infinity;
     let turnsNow = turns, last = lastPhase, w = step, lagNow = lag, travel = heldTravel, resume = resuming;
     let lost = countLost, over = overspeedActive, overRun = overspeedRun, isStarted = started;
-    if (!aided && isStarted && !resume && !over && steadyBlock(phaseOut, level, length, minLev, overStep, last, turnsNow, turnsOut, stepOut)) {
-      // Fast path: every sample usable and every step under the overspeed threshold, so no alarm can change;
-      // stepOut holds the unwrapped steps. The same arithmetic as the full loop below, in shorter loops.
-      for (let i = 0; i < length; i++) {
-        const residual = stepOut[i]! - lagNow - w;
-        w += b * residual;
-        lagNow = (a - 1) * residual;
-        stepOut[i] = w;
-      }
+    loopState[0] = w;
+    loopState[1] = lagNow;
+    if (!aided && isStarted && !resume && !over && steadyBlock(phaseOut, level, length, minLev, overStep, last, turnsNow, turnsOut, stepOut, a, b, loopState)) {
+      // Fast path: every sample usable and every step under the overspeed threshold, so no alarm can change.
+      w = loopState[0]!;
+      lagNow = loopState[1]!;
       if (lost) for (let i = 0; i < length; i++) flags[i] |= countLostBit;
       turnsNow = turnsOut[length - 1]!;
       last = phaseOut[length - 1]!;
