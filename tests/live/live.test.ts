@@ -218,7 +218,7 @@ describe('emulate → pty → listen', () => {
     expect(await finished(first)).toBe(0);
     const sent = readJson<EmulateSummary>(join(dir, f.emulated)).framesMade;
     await pairs.pop()!.stop();
-    // serialport alone misses this outage (a zero-byte read retried forever); listen's watchdog closes the port.
+    // serialport alone misses this outage (a zero-byte read retried forever); the serial source's watchdog closes the port.
     await listen.stderrHas('link down');
     pairs.push(await startPtyPair(device, firmware));
     await listen.stderrHas('link up (opened): samples were lost');
@@ -249,7 +249,7 @@ describe('emulate → pty → listen', () => {
     expect(rows.alarms[gapRow]).toMatch(/(^| )input_gap count_lost$/);
     expect(rows.alarms.slice(0, gapRow).every((alarms) => alarms === '')).toBe(true);
     expect(rows.alarms.slice(gapRow).every((alarms) => alarms.includes('count_lost'))).toBe(true);
-    expect(listen.output.stderr).toMatch(/link down \((disconnected|closed: the device node vanished)\)/);
+    expect(listen.output.stderr).toMatch(/link down \((disconnected|vanished: the device node is gone or was replaced)\)/);
     expect(readdirSync(dir).filter((name) => name.includes('partial'))).toEqual([]);
   });
 });

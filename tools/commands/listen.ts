@@ -11,7 +11,6 @@ import { readCalibrationFile } from '../calibration-file.js';
 import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { startLiveSession, type LiveNotice, type LiveSink, type LiveStatus, type LiveSummary } from '../live/live-session.js';
 import { createStatusLine, formatStatus } from '../live/status-line.js';
-import { createVanishWatch } from '../live/vanish-watch.js';
 import { lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
 import { budgetOf, environmentOf, environmentOptionHelp, environmentOptionSpecs, withConfig } from '../environment-options.js';
 import { createLiveFeed, feedOptionHelp, feedOptionSpecs, feedSettingsOf, type LiveFeed } from '../live/live-feed.js';
@@ -141,8 +140,7 @@ async function run(argv: readonly string[]): Promise<number> {
   const notes = [...lengthScale.notes, ...environment.notes];
   const feedSettings = feedSettingsOf(values);
   const calibration = values.calibration === undefined ? null : await readCalibrationFile(values.calibration);
-  const watch = createVanishWatch();
-  const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetryDelayMs: Math.max(5000, retryDelayMs), openPort: watch.openPort });
+  const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetryDelayMs: Math.max(5000, retryDelayMs) });
 
   let status: Readonly<LiveStatus> | null = null;
   const statusLine = createStatusLine(process.stderr, () => (status === null ? 'waiting' : formatStatus(status, fitSamples)), quiet);
@@ -185,7 +183,7 @@ async function run(argv: readonly string[]): Promise<number> {
     notice(notice: LiveNotice) {
       if (notice.kind === 'link') {
         const { event } = notice;
-        const vanished = event.state === 'down' && event.reason === 'closed' && watch.closedByWatch > 0 ? ': the device node vanished' : '';
+        const vanished = event.reason === 'vanished' ? ': the device node is gone or was replaced' : '';
         statusLine.log(`link ${event.state} (${event.reason}${vanished})${event.state === 'up' && event.gap ? ': samples were lost, marking a gap' : ''}`);
       } else if (notice.kind === 'gap') {
         const { gap } = notice;
@@ -236,11 +234,10 @@ async function run(argv: readonly string[]): Promise<number> {
   } finally {
     process.off('SIGINT', stop);
     process.off('SIGTERM', stop);
-    watch.stop();
     statusLine.stop();
   }
   const final = summary.status;
-  if (values.summary !== undefined) await writeFile(values.summary, JSON.stringify(summaryRecord(summary, writer, out, record, watch.closedByWatch), null, 2) + '\n');
+  if (values.summary !== undefined) await writeFile(values.summary, JSON.stringify(summaryRecord(summary, writer, out, record), null, 2) + '\n');
   if (!quiet) {
     const raised = alarmKinds.filter((kind) => final.alarmsRaised[kind] > 0).map((kind) => `${alarmNames[kind]} ×${final.alarmsRaised[kind]}`);
     const counters = final.wire === null
@@ -268,7 +265,7 @@ function uncertaintyText(budget: ReturnType<typeof budgetOf>): string {
   return ` ± ${(budget.expandedUncertaintyM * 1e9).toFixed(3)} nm (U, k = ${budget.coverageFactor}; periodic residual not included)`;
 }
 
-function summaryRecord(summary: LiveSummary, writer: ResultWriter, out: string, record: string | undefined, closedByWatchdog: number) {
+function summaryRecord(summary: LiveSummary, writer: ResultWriter, out: string, record: string | undefined) {
   const { status } = summary;
   return {
     stopReason: summary.stopReason,
@@ -292,7 +289,7 @@ function summaryRecord(summary: LiveSummary, writer: ResultWriter, out: string, 
     gaps: summary.gaps,
     gapCount: status.gaps,
     lostSamples: status.lostSamples,
-    link: { outages: status.linkDowns, returns: status.linkReturns, closedByWatchdog, events: summary.links.map(({ state, reason, gap, timeMs }) => ({ state, reason, gap, timeMs })) },
+    link: { outages: status.linkDowns, returns: status.linkReturns, closedByWatchdog: summary.links.filter((event) => event.reason === 'vanished').length, events: summary.links.map(({ state, reason, gap, timeMs }) => ({ state, reason, gap, timeMs })) },
     alarmsRaised: Object.fromEntries(alarmKinds.map((kind) => [alarmNames[kind], status.alarmsRaised[kind]])),
   };
 }

@@ -3,8 +3,8 @@
 // own events are watched, not a parser's; while the device is missing `open()` fails at once (ENOENT).
 
 import { Observable } from 'rxjs';
-import { SerialPort } from 'serialport';
 import type { ByteSource, ByteSourceEvent, LinkEvent } from './byte-source.js';
+import { createVanishWatch } from './vanish-watch.js';
 
 /** The part of a serialport port object this source uses; lets tests pass serialport's mock or a double. */
 export interface SerialPortHandle {
@@ -67,9 +67,6 @@ export function resolveSerialSourceOptions(options: SerialSourceOptions): Serial
   return Object.freeze({ path: options.path, baudRate, retryDelayMs, maxRetryDelayMs, backoffFactor, maxRetries });
 }
 
-function defaultOpenPort(settings: { readonly path: string; readonly baudRate: number }): SerialPortHandle {
-  return new SerialPort({ path: settings.path, baudRate: settings.baudRate, autoOpen: false });
-}
 
 /** Delay before reopen attempt `attempt` (1 = first retry), ms. */
 export function retryDelayFor(config: SerialSourceConfig, attempt: number): number {
@@ -82,11 +79,13 @@ export interface SerialByteSource extends ByteSource {
 
 export function createSerialByteSource(options: SerialSourceOptions): SerialByteSource {
   const config = resolveSerialSourceOptions(options);
-  const openPort = options.openPort ?? defaultOpenPort;
   const name = `${config.path} @ ${config.baudRate} Bd`;
 
   function open(): Observable<ByteSourceEvent> {
     return new Observable<ByteSourceEvent>((subscriber) => {
+      // serialport alone misses a device that dies while data flows (see vanish-watch.ts): watch its node.
+      const watch = options.openPort === undefined ? createVanishWatch() : null;
+      const openPort = options.openPort ?? watch!.openPort;
       let port: SerialPortHandle | null = null;
       let retryTimer: ReturnType<typeof setTimeout> | null = null;
       let stopped = false;
@@ -153,7 +152,9 @@ export function createSerialByteSource(options: SerialSourceOptions): SerialByte
           if (!stopped && candidate === port) subscriber.next(chunk);
         });
         candidate.on('error', (error) => lost(candidate, `error: ${error.message}`));
-        candidate.on('close', (error) => lost(candidate, error?.disconnected ? 'disconnected' : 'closed'));
+        candidate.on('close', (error) =>
+          lost(candidate, error?.disconnected ? 'disconnected' : watch?.closed(candidate) ? 'vanished' : 'closed'),
+        );
         candidate.open((error) => {
           if (stopped) {
             // Unsubscribed while opening: close what just opened; nobody is listening for a failure any more.
@@ -177,6 +178,7 @@ export function createSerialByteSource(options: SerialSourceOptions): SerialByte
       connect();
       return () => {
         stopped = true;
+        watch?.stop();
         if (retryTimer !== null) clearTimeout(retryTimer);
         const current = port;
         port = null;

@@ -4,13 +4,13 @@
 // replaced, and closes the port; the serial byte source then reports the link down and reopens with backoff.
 import { statSync } from 'node:fs';
 import { SerialPort } from 'serialport';
-import type { SerialPortHandle } from '../../src/io/serial/index.js';
+import type { SerialPortHandle } from './serial-source.js';
 
 export interface VanishWatch {
-  /** Give this to createSerialByteSource as `openPort`. */
+  /** Opens serialport ports and watches the one last opened. */
   openPort(settings: { readonly path: string; readonly baudRate: number }): SerialPortHandle;
-  /** Ports closed by the watchdog so far. */
-  readonly closedByWatch: number;
+  /** Whether the watchdog closed this port (its device node vanished or was replaced). */
+  closed(port: SerialPortHandle): boolean;
   stop(): void;
 }
 
@@ -26,13 +26,13 @@ function deviceOf(path: string): number | null {
 /** Checks every `intervalMs` (default 100 ms) that the open port's path still leads to the device it opened. */
 export function createVanishWatch(intervalMs = 100): VanishWatch {
   let current: { port: SerialPort; path: string; device: number | null } | null = null;
-  let closedByWatch = 0;
+  const closedPorts = new WeakSet<SerialPortHandle>();
   const timer = setInterval(() => {
     if (current === null || current.device === null || !current.port.isOpen) return;
     if (deviceOf(current.path) === current.device) return;
     const { port } = current;
     current = null;
-    closedByWatch++;
+    closedPorts.add(port);
     // The close callback's error is the source's business: it watches the port's own events.
     port.close(() => undefined);
   }, intervalMs);
@@ -47,8 +47,8 @@ export function createVanishWatch(intervalMs = 100): VanishWatch {
       });
       return port;
     },
-    get closedByWatch() {
-      return closedByWatch;
+    closed(port) {
+      return closedPorts.has(port);
     },
     stop() {
       clearInterval(timer);
