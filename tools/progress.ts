@@ -14,6 +14,7 @@ export function createProgress(quiet: boolean): Progress {
   if (quiet || !process.stderr.isTTY) return silent;
   let bar: cliProgress.SingleBar | null = null;
   let lastUpdate = 0;
+  let latest = 0;
   return {
     start(label, total) {
       bar = new cliProgress.SingleBar(
@@ -27,6 +28,7 @@ export function createProgress(quiet: boolean): Progress {
       bar.start(total ?? 0, 0);
     },
     update(samples) {
+      latest = samples;
       // Redrawing is costly; a few times per million samples is plenty.
       if (bar !== null && samples - lastUpdate >= 262_144) {
         bar.update(samples);
@@ -34,9 +36,11 @@ export function createProgress(quiet: boolean): Progress {
       }
     },
     stop() {
+      bar?.update(latest); // the bar ends where the file did
       bar?.stop();
       bar = null;
       lastUpdate = 0;
+      latest = 0;
     },
   };
 }
