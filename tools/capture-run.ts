@@ -105,7 +105,7 @@ export interface MeasureSettings {
   readonly bandwidthHz?: number;
   readonly unwrap?: UnwrapMethod;
   /** Factor applied to positions and velocities, e.g. the normalisation to 20 °C; default 1. */
-  readonly positionScale?: number;
+  readonly lengthScale?: number;
 }
 
 /** A decimated time series: min and max of each bucket, with the bucket doubling when the store is full. */
@@ -308,7 +308,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     refractiveIndex: settings.refractiveIndex,
     bandwidthHz: settings.bandwidthHz,
     unwrap: settings.unwrap,
-    lengthScale: settings.positionScale,
+    lengthScale: settings.lengthScale,
     calibration,
     adc,
   });

@@ -185,7 +185,6 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
   let gapPendingSamples = 0;
   let gapActive = false;
 
-
   function process(
     u: Float64Array,
     v: Float64Array,

@@ -41,7 +41,7 @@ describe('refractive index during a run', () => {
       expectObservable(normal.pipe(airIndex())).toBe('-a-b-|', { a: n(warm), b: n(cold) });
       const failing = coldObservable('-a-#', { a: warm }, new Error('sensor gone'));
       expectObservable(failing.pipe(airIndex())).toBe('-a-#', { a: n(warm) }, new Error('sensor gone'));
-      expectObservable(coldObservable('|').pipe(airIndex())).toBe('|');
+      expectObservable(coldObservable<typeof warm>('|').pipe(airIndex())).toBe('|');
       const long = coldObservable('-a-b-a-|', { a: warm, b: cold });
       expectObservable(long.pipe(airIndex()), '^--!').toBe('-a-', { a: n(warm) });
       expectSubscriptions(long.subscriptions).toBe('^--!');

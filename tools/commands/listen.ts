@@ -133,7 +133,7 @@ async function run(argv: readonly string[]): Promise<number> {
     wavelengthM: lengthScale.wavelengthM,
     fold: lengthScale.fold,
     refractiveIndex: environment.refractiveIndex,
-    positionScale: environment.thermalFactor,
+    lengthScale: environment.thermalFactor,
     ...(lengthScale.bandwidthHz === undefined ? {} : { bandwidthHz: lengthScale.bandwidthHz }),
     ...(lengthScale.unwrap === undefined ? {} : { unwrap: lengthScale.unwrap }),
   };

@@ -68,7 +68,7 @@ async function run(argv: readonly string[]): Promise<number> {
     wavelengthM: scale.wavelengthM,
     fold: scale.fold,
     refractiveIndex: environment.refractiveIndex,
-    positionScale: environment.thermalFactor,
+    lengthScale: environment.thermalFactor,
     ...(scale.bandwidthHz === undefined ? {} : { bandwidthHz: scale.bandwidthHz }),
     ...(scale.unwrap === undefined ? {} : { unwrap: scale.unwrap }),
   };

@@ -87,7 +87,7 @@ export async function createLiveFeed(
         wavelengthM: settings.wavelengthM,
         fold: settings.fold,
         refractiveIndex: settings.refractiveIndex,
-        lengthScale: settings.positionScale,
+        lengthScale: settings.lengthScale,
         bandwidthHz: settings.bandwidthHz,
         unwrap: settings.unwrap,
         calibration: stream.calibration,

@@ -310,7 +310,7 @@ export function startLiveSession(options: LiveSessionOptions): LiveSession {
       wavelengthM: settings.wavelengthM,
       fold: settings.fold,
       refractiveIndex: settings.refractiveIndex,
-      lengthScale: settings.positionScale,
+      lengthScale: settings.lengthScale,
       bandwidthHz: settings.bandwidthHz,
       unwrap: settings.unwrap,
       calibration: correction,

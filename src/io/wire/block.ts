@@ -1,4 +1,5 @@
 // The sample block both decoders hand out, the input-gap record, and the per-axis split the pipeline needs.
+import type { SampleArray } from '../../core/index.js';
 
 /**
  * A block of interleaved int16 samples: `samples[s * channelCount + c]` is sample s of channel c.
@@ -34,8 +35,8 @@ export interface InputGap {
   readonly receivedSequence: number;
 }
 
-/** Any writable numeric array the pipeline may use for x and y blocks. */
-export type SampleArray = Float64Array | Float32Array | Int32Array | Int16Array;
+/** Any numeric array the pipeline takes for x and y blocks (the core's own type). */
+export type { SampleArray };
 
 /**
  * Copies axis `axis` of a block into `x` (channel 2·axis) and `y` (channel 2·axis + 1) from index 0.
