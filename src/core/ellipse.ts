@@ -3,6 +3,7 @@
 // accumulators merge exactly. P. L. M. Heydemann, Applied Optics 20(19), 3382-3384 (1981).
 
 import { integerInRange, MAX_COUNT, numberInRange, OptionError } from './options.js';
+import { TWO_PI } from './phase.js';
 
 /**
  * The ellipse of a pair of quadrature signals, in the one convention fringetally uses everywhere:
@@ -114,8 +115,9 @@ export interface EllipseFitOptions {
 
 /** Moment sums Σ u^i v^j for i + j <= 4, stored at index (i+j)(i+j+1)/2 + j (see `momentIndex`). */
 export const MOMENT_COUNT = 15;
-/** Cells per side of the coverage grid, and the phase bins coverage is counted in (10° each). */
-const GRID = 64;
+/** Cells per side of the coverage grid (2^GRID_BITS; cell index = row·GRID + col), and the phase bins coverage is counted in (10° each). */
+const GRID_BITS = 7;
+const GRID = 1 << GRID_BITS;
 const COVERAGE_BINS = 36;
 export function momentIndex(i: number, j: number): number {
   const degree = i + j;
@@ -216,7 +218,9 @@ export function resolveFitLimits(options: EllipseFitOptions): FitLimits {
 /**
  * The share of COVERAGE_BINS equal phase bins (corrected phase) reached by the occupied cells of an
  * accumulator's grid that lie on the given ellipse (cells inside it, e.g. from a blocked beam, say nothing of
- * the phase).
+ * the phase). A cell marks every bin its corners span: the figure passed through the cell, and a cell can be
+ * wider than a bin, so marking only the bin of its centre would leave holes in a full fringe. A partial arc
+ * is over-counted by at most one cell at each end.
  */
 export function coverageOfFit(state: EllipseAccumulator['state'], calibration: EllipseCalibration): number {
   const { shiftX, shiftY, occupancy, gridHalfWidth } = state;
@@ -225,19 +229,41 @@ export function coverageOfFit(state: EllipseAccumulator['state'], calibration: E
   const secE = 1 / Math.cos(phaseErrorRad);
   const cell = (2 * gridHalfWidth) / GRID;
   const hit = new Uint8Array(COVERAGE_BINS);
-  for (let row = 0; row < GRID; row++) {
-    for (let col = 0; col < GRID; col++) {
-      if (!occupancy[row * GRID + col]) continue;
-      const cu = (shiftX - gridHalfWidth + (col + 0.5) * cell - offsetX) / amplitudeX;
-      const cv = ((shiftY - gridHalfWidth + (row + 0.5) * cell - offsetY) / amplitudeY) * secE - cu * tanE;
-      if (Math.abs(Math.hypot(cu, cv) - 1) > 0.3) continue;
-      const phase = Math.atan2(cv, cu) + Math.PI;
-      hit[Math.min(COVERAGE_BINS - 1, Math.floor((phase / (2 * Math.PI)) * COVERAGE_BINS))] = 1;
+  for (let index = 0; index < GRID * GRID; index++) {
+    if (!isOccupied(occupancy, index)) continue;
+    // Point k of the cell on the corrected circle: its centre (k = 4), then its corners, whose phases are
+    // taken relative to the centre's (atan2 of cross and dot products, so no wrapping is needed).
+    let centreU = 0;
+    let centreV = 0;
+    let low = 0;
+    let high = 0;
+    for (let k = 4; k >= 0; k--) {
+      const u = (shiftX - gridHalfWidth + ((index & (GRID - 1)) + (k > 3 ? 0.5 : k & 1)) * cell - offsetX) / amplitudeX;
+      const v = ((shiftY - gridHalfWidth + ((index >> GRID_BITS) + (k > 3 ? 0.5 : k >> 1)) * cell - offsetY) / amplitudeY) * secE - u * tanE;
+      if (k > 3) {
+        centreU = u;
+        centreV = v;
+      } else {
+        const offset = Math.atan2(centreU * v - centreV * u, centreU * u + centreV * v);
+        low = Math.min(low, offset);
+        high = Math.max(high, offset);
+      }
+    }
+    if (Math.abs(Math.hypot(centreU, centreV) - 1) > 0.3) continue;
+    const centre = Math.atan2(centreV, centreU) + Math.PI;
+    for (let bin = Math.floor(((centre + low) * COVERAGE_BINS) / TWO_PI); bin <= ((centre + high) * COVERAGE_BINS) / TWO_PI; bin++) {
+      hit[(bin + COVERAGE_BINS) % COVERAGE_BINS] = 1;
     }
   }
-  let hits = 0;
-  for (let bin = 0; bin < COVERAGE_BINS; bin++) hits += hit[bin]!;
-  return hits / COVERAGE_BINS;
+  return hit.reduce((hits, bin) => hits + bin, 0) / COVERAGE_BINS;
+}
+
+function isOccupied(bits: Uint32Array, cell: number): boolean {
+  return ((bits[cell >> 5]! >>> (cell & 31)) & 1) === 1;
+}
+
+function occupy(bits: Uint32Array, cell: number): void {
+  bits[cell >> 5]! |= 1 << (cell & 31);
 }
 
 /** The last checks of every fit method: plausible detectors, enough coverage. */
@@ -282,9 +308,9 @@ export interface EllipseAccumulator {
    * their RMS distance from it, so int16 counts and unit floats fit equally well), converts it with
    * Heydemann's closed form and checks it.
    *
-   * Coverage is the share of 36 phase bins (10° each, corrected phase) reached by the cells of a 64×64
-   * occupancy grid of the figure that lie on the fitted ellipse: dwelling at one phase neither adds nor
-   * removes coverage.
+   * Coverage is the share of 36 phase bins (10° each, corrected phase) reached by the cells of a 128×128
+   * occupancy grid of the figure that lie on the fitted ellipse (see `coverageOfFit`): dwelling at one phase
+   * neither adds nor removes coverage.
    */
   solve(): EllipseFitResult;
   /** The raw sums, for merging: sums of (x − shiftX)^i (y − shiftY)^j. */
@@ -293,7 +319,8 @@ export interface EllipseAccumulator {
     readonly shiftY: number;
     readonly moments: Float64Array;
     /** The coverage grid: GRID×GRID cells over [−gridHalfWidth, gridHalfWidth]² about the shift (row = v). */
-    readonly occupancy: Uint8Array;
+    /** Bit `cell & 31` of word `cell >> 5` is set when cell `row·GRID + col` was reached. */
+    readonly occupancy: Uint32Array;
     readonly gridHalfWidth: number;
   };
 }
@@ -313,17 +340,18 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
   // Coverage comes from an occupancy grid of the figure: GRID×GRID cells over a square about the shift, which
   // doubles in size (merging 2×2 cells) whenever a sample falls outside it. A cell is marked however long the
   // signal stays in it, so dwelling neither adds nor removes coverage, and memory stays fixed.
-  const occupancy = new Uint8Array(GRID * GRID);
+  const occupancy = new Uint32Array((GRID * GRID) / 32);
+  const zoomed = new Uint32Array(occupancy.length);
   let gridHalfWidth = 0;
 
   function zoomOut(): void {
-    const merged = new Uint8Array(GRID * GRID);
-    for (let row = 0; row < GRID; row++) {
-      for (let col = 0; col < GRID; col++) {
-        if (occupancy[row * GRID + col]) merged[(GRID / 4 + (row >> 1)) * GRID + GRID / 4 + (col >> 1)] = 1;
+    zoomed.fill(0);
+    for (let index = 0; index < GRID * GRID; index++) {
+      if (isOccupied(occupancy, index)) {
+        occupy(zoomed, (GRID / 4 + ((index >> GRID_BITS) >> 1)) * GRID + GRID / 4 + ((index & (GRID - 1)) >> 1));
       }
     }
-    occupancy.set(merged);
+    occupancy.set(zoomed);
     gridHalfWidth *= 2;
   }
 
@@ -338,7 +366,7 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
     const cellsPerUnit = GRID / (2 * gridHalfWidth);
     const col = Math.floor((u + gridHalfWidth) * cellsPerUnit);
     const row = Math.floor((v + gridHalfWidth) * cellsPerUnit);
-    occupancy[Math.min(GRID - 1, row) * GRID + Math.min(GRID - 1, col)] = 1;
+    occupy(occupancy, Math.min(GRID - 1, row) * GRID + Math.min(GRID - 1, col));
   }
 
   function add(x: ArrayLike<number>, y: ArrayLike<number>, length: number): void {
@@ -411,11 +439,9 @@ export function createEllipseAccumulator(options: EllipseFitOptions = {}): Ellip
     const d = theirs.shiftX - shiftX;
     const e = theirs.shiftY - shiftY;
     const cell = (2 * theirs.gridHalfWidth) / GRID;
-    for (let row = 0; row < GRID; row++) {
-      for (let col = 0; col < GRID; col++) {
-        if (theirs.occupancy[row * GRID + col]) {
-          mark(-theirs.gridHalfWidth + (col + 0.5) * cell + d, -theirs.gridHalfWidth + (row + 0.5) * cell + e);
-        }
+    for (let index = 0; index < GRID * GRID; index++) {
+      if (isOccupied(theirs.occupancy, index)) {
+        mark(-theirs.gridHalfWidth + ((index & (GRID - 1)) + 0.5) * cell + d, -theirs.gridHalfWidth + ((index >> GRID_BITS) + 0.5) * cell + e);
       }
     }
   }

@@ -20,27 +20,31 @@ function describe(value: unknown): string {
   return typeof value === 'number' ? String(value) : (JSON.stringify(value) ?? String(value));
 }
 
+// Number.isFinite and Number.isInteger are false for anything but a number; these let TypeScript know it.
+const isFiniteNumber = (value: unknown): value is number => Number.isFinite(value);
+const isInteger = (value: unknown): value is number => Number.isInteger(value);
+
 export function positiveFinite(option: string, value: unknown): number {
-  if (typeof value !== 'number' || !Number.isFinite(value) || value <= 0) {
+  if (!isFiniteNumber(value) || value <= 0) {
     throw new OptionError(option, 'a positive finite number', value);
   }
   return value;
 }
 
 export function finiteNumber(option: string, value: unknown): number {
-  if (typeof value !== 'number' || !Number.isFinite(value)) throw new OptionError(option, 'a finite number', value);
+  if (!isFiniteNumber(value)) throw new OptionError(option, 'a finite number', value);
   return value;
 }
 
 export function numberInRange(option: string, value: unknown, min: number, max: number, openMin = false): number {
-  if (typeof value !== 'number' || !Number.isFinite(value) || value > max || (openMin ? value <= min : value < min)) {
+  if (!isFiniteNumber(value) || value > max || (openMin ? value <= min : value < min)) {
     throw new OptionError(option, `a number in ${openMin ? '(' : '['}${min}, ${max}]`, value);
   }
   return value;
 }
 
 export function integerInRange(option: string, value: unknown, min: number, max: number): number {
-  if (typeof value !== 'number' || !Number.isInteger(value) || value < min || value > max) {
+  if (!isInteger(value) || value < min || value > max) {
     throw new OptionError(option, `an integer in ${min}..${max}`, value);
   }
   return value;

@@ -215,7 +215,9 @@ describe('failures and options', () => {
     const quarter = ellipsePoints(TRUTH, 500, 0, Math.PI / 2);
     const result = fit.solve(accumulate(quarter.x, quarter.y));
     expect(result).toMatchObject({ ok: false, reason: 'low-coverage' });
-    expect(result.coverage).toBeCloseTo(0.25, 1);
+    // A quarter fringe: 9 of the 36 bins, read high by up to a bin at each end (see coverageOfFit).
+    expect(result.coverage).toBeGreaterThanOrEqual(0.25);
+    expect(result.coverage).toBeLessThanOrEqual(0.25 + 2.01 / 36);
   });
 
   it('rejects invalid options naming the option, the rule and the value', () => {
