@@ -105,7 +105,7 @@ describe('MQTT publisher', () => {
   });
 
   it('logs in with username and password; a wrong password is refused with a clear error', async () => {
-    broker = await startBroker({ stage: 'correct horse battery' });
+    broker = await startBroker({ users: { stage: 'correct horse battery' } });
     const axes = createAxes(createMotion().source, { axes: [axisOptions] });
     await expect(startMqttPublisher({ axes, url: broker.url, username: 'stage', password: 'wrong' })).rejects.toThrow(
       new RegExp(`^MQTT broker at ${broker.url.replace(/[.]/g, '\\.')} refused or failed the connection: .*(Not authorized|Bad User Name or Password)`),
@@ -113,6 +113,22 @@ describe('MQTT publisher', () => {
     publisher = await startMqttPublisher({ axes, url: broker.url, username: 'stage', password: 'correct horse battery' });
     const status = await subscriber(broker.url, publisher.statusTopic, { username: 'stage', password: 'correct horse battery' });
     expect(await status.next((m) => m.type === 'status', 'status')).toMatchObject({ state: 'online' });
+  });
+
+  it('publishes over TLS to a broker whose CA it is given; without that CA the broker is refused, naming it', async () => {
+    broker = await startBroker({ tls: true });
+    expect(broker.url).toMatch(/^mqtts:\/\/127\.0\.0\.1:\d+$/);
+    const motion = createMotion();
+    const axes = createAxes(motion.source, { axes: [{ ...axisOptions, name: 'X' }] });
+    // The system's CAs do not know this broker's: the certificate check must fail, not pass silently.
+    await expect(startMqttPublisher({ axes, url: broker.url, connectTimeoutMs: 5000 })).rejects.toThrow(
+      new RegExp(`^MQTT broker at ${broker.url.replace(/[.]/g, '\\.')} refused or failed the connection: .*(self[- ]signed|unable to verify|issuer)`, 'i'),
+    );
+    publisher = await startMqttPublisher({ axes, url: broker.url, topicPrefix: 'lab/tls', updateHz: 50, tls: { ca: broker.ca! } });
+    const updates = await subscriber(broker.url, publisher.axisTopics[0]!, { ca: broker.ca! });
+    motion.move(3, 1000);
+    const update = await updates.next<MqttAxisMessage>(reached(999), 'update at sample 999 over TLS');
+    expect(update.positionM! / METRES_PER_FRINGE).toBeCloseTo(motion.fringes, 9);
   });
 
   it('rejects invalid options naming the option and rule', async () => {

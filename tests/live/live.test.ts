@@ -5,8 +5,10 @@ import { existsSync, mkdtempSync, readdirSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import mqtt from 'mqtt';
 import { WebSocket } from 'ws';
 import { refractiveIndexOfAir } from '../../src/core/index.js';
+import { startBroker, type Broker } from '../feed/broker.js';
 import { requireSocat, startPtyPair, type PtyPair } from '../serial/socat.js';
 import { fringetally } from '../tools/cli.js';
 import { finished, killAll, readJson, readRows, startCli } from './processes.js';
@@ -329,5 +331,59 @@ describe('listen with a feed and the environment', () => {
     const live = updates.filter((u) => u.positionM !== null && u.sampleIndex > 0);
     expect(live.length).toBeGreaterThan(2);
     for (const update of live) expect(Math.abs(update.positionM! - truth.position_m![update.sampleIndex]! / n)).toBeLessThan(POSITION_TOLERANCE_M);
+  });
+  it('publishes to an MQTT broker over TLS with a login, the password from the environment', async () => {
+    const broker: Broker = await startBroker({ users: { stage: 'correct horse battery' }, tls: true });
+    try {
+      const { device, firmware } = await ptyPair();
+      const login = ['--mqtt', broker.url, '--mqtt-ca', broker.caFile!, '--mqtt-username', 'stage', '--mqtt-topic', 'lab/bench2'];
+      const listen = startCli(['listen', '--port', device, ...OPTICS, '--out', 'mqtt.csv', '--duration', '1', ...login], dir, {
+        FRINGETALLY_MQTT_PASSWORD: 'correct horse battery',
+      });
+      await listen.stderrHas('link up');
+      const emulate = startCli(
+        ['emulate', '--port', firmware, '--rate-hz', String(RATE), '--velocity-m-s', String(VELOCITY), ...OPTICS, '--duration', '1',
+          '--samples-per-frame', String(SPF), '--include-rate', '--truth', 'mqtt.truth.csv', '--quiet'],
+        dir,
+      );
+      expect(await finished(emulate), emulate.output.stderr).toBe(0);
+      expect(await finished(listen), listen.output.stderr).toBe(0);
+      expect(listen.output.stderr).toContain('publishing to MQTT topics lab/bench2/axis/X');
+      // Both messages are retained: a subscriber that comes after the run still gets the last update and the
+      // offline status (the last will, or the publisher's own goodbye).
+      const client = await mqtt.connectAsync(broker.url, { ca: broker.ca!, username: 'stage', password: 'correct horse battery', reconnectPeriod: 0 });
+      const received = new Map<string, Record<string, unknown>>();
+      const both = new Promise<void>((resolve) =>
+        client.on('message', (topic, payload) => {
+          received.set(topic, JSON.parse(payload.toString()) as Record<string, unknown>);
+          if (received.size === 2) resolve();
+        }),
+      );
+      await client.subscribeAsync(['lab/bench2/axis/X', 'lab/bench2/status']);
+      await both;
+      await client.endAsync();
+      expect(received.get('lab/bench2/status')).toMatchObject({ state: 'offline' });
+      const last = received.get('lab/bench2/axis/X') as { sampleIndex: number; positionM: number };
+      const truth = readRows(join(dir, 'mqtt.truth.csv')).columns;
+      expect(last.sampleIndex).toBeGreaterThan(RATE / 2);
+      expect(Math.abs(last.positionM - truth.position_m![last.sampleIndex]!)).toBeLessThan(POSITION_TOLERANCE_M);
+    } finally {
+      await broker.stop();
+    }
+  });
+
+  it('MQTT options: each needs its partner, TLS files need mqtts://, and a missing password is named', async () => {
+    const base = ['listen', '--port', '/dev/null', ...OPTICS, '--format', 'csv', '--out', '-'];
+    const cases: [string[], RegExp][] = [
+      [['--mqtt-ca', 'ca.pem'], /--mqtt-ca applies to --mqtt/],
+      [['--mqtt', 'mqtt://127.0.0.1:1', '--mqtt-username', 'stage'], /--mqtt-username needs --mqtt-password or the environment variable FRINGETALLY_MQTT_PASSWORD/],
+      [['--mqtt', 'mqtt://127.0.0.1:1', '--mqtt-cert', 'c.pem'], /--mqtt-cert and --mqtt-key go together/],
+      [['--mqtt', 'mqtts://127.0.0.1:1', '--mqtt-ca', 'absent.pem'], /--mqtt-ca absent\.pem: cannot read the PEM file \(ENOENT\)/],
+    ];
+    for (const [extra, message] of cases) {
+      const result = await fringetally([...base, ...extra], dir);
+      expect(result.code, result.stderr).toBe(2);
+      expect(result.stderr).toMatch(message);
+    }
   });
 });

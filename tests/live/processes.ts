@@ -18,8 +18,8 @@ export interface RunningCli {
 
 const running = new Set<ChildProcess>();
 
-export function startCli(args: readonly string[], cwd: string): RunningCli {
-  const child = spawn(process.execPath, [TOOL, ...args], { cwd, stdio: ['ignore', 'pipe', 'pipe'] });
+export function startCli(args: readonly string[], cwd: string, env: Record<string, string> = {}): RunningCli {
+  const child = spawn(process.execPath, [TOOL, ...args], { cwd, stdio: ['ignore', 'pipe', 'pipe'], env: { ...process.env, ...env } });
   running.add(child);
   const output = { stdout: '', stderr: '' };
   child.stdout!.on('data', (chunk: Buffer) => (output.stdout += chunk.toString()));
