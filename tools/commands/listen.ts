@@ -149,6 +149,7 @@ async function run(argv: readonly string[]): Promise<number> {
 
   const writer: ResultWriter = await createResultWriter(out, { format: formatText as ResultFormat, every });
   let feed: LiveFeed | null = null;
+  let feedError: Error | null = null;
   let fittedCalibration: EllipseCalibration | null = calibration;
   let recorder: CaptureWriter | null = null;
   let gapLines = 0;
@@ -173,7 +174,10 @@ async function run(argv: readonly string[]): Promise<number> {
     async block(block) {
       if (feedSettings !== null) {
         if (feed === null) {
-          feed = await createLiveFeed(feedSettings, { rateHz: block.rateHz, settings: scale, calibration: fittedCalibration });
+          feed = await createLiveFeed(feedSettings, { rateHz: block.rateHz, settings: scale, calibration: fittedCalibration }, (error) => {
+            feedError = error;
+            statusLine.log(`the network feed failed and sends nothing more (${error.message}); the rows go on`);
+          });
           for (const line of feed.describe()) statusLine.log(line);
         }
         feed.push(block);
@@ -255,6 +259,10 @@ async function run(argv: readonly string[]): Promise<number> {
         `alarms raised: ${raised.length === 0 ? 'none' : raised.join(', ')}`,
       ].join('\n') + '\n',
     );
+  }
+  if (feedError !== null) {
+    process.stderr.write(`fringetally listen: the rows are complete, but the network feed failed: ${(feedError as Error).message}\n`);
+    return 1;
   }
   return 0;
 }

@@ -100,7 +100,7 @@ export function feedSettingsOf(values: Record<string, string | boolean | undefin
 
 export interface LiveFeed {
   /** Hands the block's raw samples (and any gap before them) to the feed's axis. */
-  push(block: LiveBlock): void;
+  push(block: Pick<LiveBlock, 'x' | 'y' | 'length' | 'gapBefore'>): void;
   /** Lines for the log: where the feed is. */
   describe(): string[];
   close(): Promise<void>;
@@ -109,6 +109,8 @@ export interface LiveFeed {
 export async function createLiveFeed(
   feedSettings: FeedSettings,
   stream: { readonly rateHz: number; readonly settings: MeasureSettings; readonly calibration: EllipseCalibration | null },
+  /** The feed's chain failed: it sends nothing more, while the caller's own rows go on. */
+  onError: (error: Error) => void,
 ): Promise<LiveFeed> {
   const { settings } = stream;
   const blocks = new Subject<AxisBlock>();
@@ -128,7 +130,7 @@ export async function createLiveFeed(
     ],
   });
   // Holds the chain open so that the feed's reference survives clients coming and going.
-  const keepAlive = axes.connect({ error: () => undefined });
+  const keepAlive = axes.connect({ error: (error: unknown) => onError(error instanceof Error ? error : new Error(String(error))) });
   let server: FeedServer | null = null;
   let publisher: MqttPublisher | null = null;
   try {
