@@ -19,13 +19,10 @@ function fringetally(...args: string[]): Run {
 }
 
 beforeAll(() => {
-  // Type errors elsewhere in the tree do not stop tsc from emitting; what matters is that the tool was built.
-  spawnSync(process.execPath, [fileURLToPath(new URL('../../node_modules/typescript/bin/tsc', import.meta.url)), '-p', 'tsconfig.json'], {
-    cwd: root,
-    encoding: 'utf8',
-  });
+  // `npm test` builds before it runs the tests. Building here as well rewrote dist/ while other test files were
+  // starting the tool from it, which now and then loaded a half-written module.
   if (!existsSync(fileURLToPath(new URL('../../dist/tools/commands/air.js', import.meta.url)))) {
-    throw new Error('the build did not produce dist/tools/commands/air.js');
+    throw new Error('dist/tools/commands/air.js is missing: run the tests with `npm test`, which builds first');
   }
 });
 
