@@ -8,6 +8,8 @@ export interface BenchCase {
   /** Prepares buffers once, before warm-up; optional. */
   setup?(): void;
   pass(): void;
+  /** Releases what `setup` started (subscriptions, timers) once measured; optional. */
+  teardown?(): void;
 }
 
 export interface BenchResult {
@@ -41,6 +43,7 @@ export function measure(benchCase: BenchCase, options: MeasureOptions = defaultM
     benchCase.pass();
     seconds.push(Number(process.hrtime.bigint() - start) / 1e9);
   }
+  benchCase.teardown?.();
   const perPass = median(seconds);
   return {
     name: benchCase.name,

@@ -2,7 +2,7 @@
 // axes) beside the bare pipeline on the same samples and a one-event-per-sample rxjs baseline, and the
 // latency from a block entering to its position being emitted.
 
-import { Subject } from 'rxjs';
+import { Subject, type Subscription } from 'rxjs';
 import { createPipeline, type AlarmEvent, type EllipseCalibration, type PipelineOptions } from '../../src/core/index.js';
 import { createAxes, type FrameBlock } from '../../src/stream/index.js';
 import { defaultMeasureOptions, measure, type BenchCase, type BenchResult, type MeasureOptions } from '../harness.js';
@@ -37,15 +37,20 @@ function axesCase(axisCount: number): BenchCase {
   const blocks = frames(axisCount);
   const source = new Subject<FrameBlock>();
   const axes = createAxes(source, { axes: Array.from({ length: axisCount }, (_, k) => ({ ...axisOptions, name: `A${k}` })) });
+  const subscriptions: Subscription[] = [];
   return {
     name: `axes/${axisCount}axis/int16/block${BLOCK}/update10Hz`,
     samplesPerPass: SAMPLES_PER_CHANNEL * axisCount,
     setup() {
-      axes.update$({ updateHz: 10, trace: true }).subscribe();
-      axes.alarms$.subscribe();
+      subscriptions.push(axes.update$({ updateHz: 10, trace: true }).subscribe(), axes.alarms$.subscribe());
     },
     pass() {
       for (const block of blocks) source.next(block);
+    },
+    // The 10 Hz update timer would otherwise keep the process alive after the benchmark.
+    teardown() {
+      for (const subscription of subscriptions.splice(0)) subscription.unsubscribe();
+      source.complete();
     },
   };
 }
