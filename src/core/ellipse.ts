@@ -318,8 +318,10 @@ export interface EllipseAccumulator {
     readonly shiftX: number;
     readonly shiftY: number;
     readonly moments: Float64Array;
-    /** The coverage grid: GRID×GRID cells over [−gridHalfWidth, gridHalfWidth]² about the shift (row = v). */
-    /** Bit `cell & 31` of word `cell >> 5` is set when cell `row·GRID + col` was reached. */
+    /**
+     * The coverage grid: GRID×GRID cells over [−gridHalfWidth, gridHalfWidth]² about the shift (row = v), as
+     * bits: bit `cell & 31` of word `cell >> 5` is set when cell `row·GRID + col` was reached.
+     */
     readonly occupancy: Uint32Array;
     readonly gridHalfWidth: number;
   };
