@@ -332,6 +332,7 @@ describe('listen with a feed and the environment', () => {
     expect(live.length).toBeGreaterThan(2);
     for (const update of live) expect(Math.abs(update.positionM! - truth.position_m![update.sampleIndex]! / n)).toBeLessThan(POSITION_TOLERANCE_M);
   });
+
   it('publishes to an MQTT broker over TLS with a login, the password from the environment', async () => {
     const broker: Broker = await startBroker({ users: { stage: 'correct horse battery' }, tls: true });
     try {
