@@ -1,6 +1,6 @@
-// Seed of the fast-check properties. Under CI (CI=true, as .ci/run sets it) one fixed seed, so a commit's result never depends on the draw;
-// elsewhere a new seed each run, so local runs keep exploring. FAST_CHECK_SEED=N repeats a run that failed
-// (fast-check prints the seed of a failure).
+// Seed of the fast-check properties. Under CI (CI=true, as .ci/run sets it) one fixed seed, so a commit's
+// result never depends on the draw; elsewhere a new seed each run, so local runs keep exploring.
+// FAST_CHECK_SEED=N repeats a run that failed (fast-check prints the seed of a failure).
 import fc from 'fast-check';
 
 const CI_SEED = 20_261_202;
