@@ -9,7 +9,7 @@ import { fileURLToPath } from 'node:url';
 import { ACCEL_CASE_NAMES, accelCases } from './cases/accel.js';
 import { captureCases } from './cases/capture.js';
 import { coreCases, heapGrowth } from './cases/core.js';
-import { decoderCases } from './cases/decoder.js';
+import { decoderCases, type DecoderBenchCase } from './cases/decoder.js';
 import { feedBenchmarks } from './cases/feed.js';
 import { liveBenchmarks } from './cases/live.js';
 import { replayCases } from './cases/replay.js';
@@ -34,12 +34,20 @@ const log = (line: string) => {
   if (!values.json) process.stderr.write(line + '\n');
 };
 
-// Every core and accelerated case runs in a process of its own: in one process, the stage cases would leave V8
+function measureDecoder(benchCase: DecoderBenchCase): BenchResult {
+  const result = measure(benchCase);
+  const megabytesPerSecond = (benchCase.bytesPerPass * result.samplesPerSecond) / benchCase.samplesPerPass / 1e6;
+  return { ...result, extra: { megabytesPerSecond } };
+}
+
+// Every core, accelerated and decoder case runs in a process of its own: in one process, the stage cases would leave V8
 // type feedback from their own call sites in the code the pipeline shares with them, and slow it down.
 if (values.case !== undefined) {
   const name = values.case;
   const core = coreCases().filter((benchCase) => benchCase.name === name).map((benchCase) => measure(benchCase));
-  process.stdout.write(JSON.stringify([...core, ...(core.length > 0 ? [] : accelCases(name))]) + '\n');
+  const decoder = core.length > 0 ? [] : decoderCases().filter((benchCase) => benchCase.name === name).map(measureDecoder);
+  const found = [...core, ...decoder];
+  process.stdout.write(JSON.stringify(found.length > 0 ? found : accelCases(name)) + '\n');
   process.exit(0);
 }
 const script = fileURLToPath(import.meta.url);
@@ -68,11 +76,10 @@ for (const name of ACCEL_CASE_NAMES) {
   results.push(...isolated(name));
   log(`measured ${name}`);
 }
-for (const benchCase of decoderCases()) {
-  const result = measure(benchCase);
-  const megabytesPerSecond = (benchCase.bytesPerPass * result.samplesPerSecond) / benchCase.samplesPerPass / 1e6;
-  results.push({ ...result, extra: { megabytesPerSecond } });
-  log(`measured ${benchCase.name}`);
+// The decoder cases too, each alone: one frame layout's type feedback slowed the next layout's case.
+for (const name of decoderCases().map((benchCase) => benchCase.name)) {
+  results.push(...isolated(name));
+  log(`measured ${name}`);
 }
 if (values.capture || values.all) {
   results.push(...(await captureCases()));
