@@ -13,7 +13,7 @@ import { decoderCases, type DecoderBenchCase } from './cases/decoder.js';
 import { feedBenchmarks } from './cases/feed.js';
 import { liveBenchmarks } from './cases/live.js';
 import { replayCases } from './cases/replay.js';
-import { streamBenchmarks } from './cases/stream.js';
+import { streamCase, streamCaseNames } from './cases/stream.js';
 import { measure, type BenchResult } from './harness.js';
 
 const { values } = parseArgs({
@@ -40,13 +40,14 @@ function measureDecoder(benchCase: DecoderBenchCase): BenchResult {
   return { ...result, extra: { megabytesPerSecond } };
 }
 
-// Every core, accelerated and decoder case runs in a process of its own: in one process, the stage cases would leave V8
-// type feedback from their own call sites in the code the pipeline shares with them, and slow it down.
+// Every core, accelerated, decoder and stream case runs in a process of its own: in one process, a case leaves
+// V8 type feedback from its own call sites in the code the next case shares with it, and slows that case.
 if (values.case !== undefined) {
   const name = values.case;
   const core = coreCases().filter((benchCase) => benchCase.name === name).map((benchCase) => measure(benchCase));
   const decoder = core.length > 0 ? [] : decoderCases().filter((benchCase) => benchCase.name === name).map(measureDecoder);
-  const found = [...core, ...decoder];
+  const stream = core.length + decoder.length > 0 ? null : streamCase(name);
+  const found = [...core, ...decoder, ...(stream === null ? [] : [stream])];
   process.stdout.write(JSON.stringify(found.length > 0 ? found : accelCases(name)) + '\n');
   process.exit(0);
 }
@@ -90,7 +91,8 @@ if (values.replay || values.all) {
   log('measured replay');
 }
 if (values.stream || values.all) {
-  results.push(...streamBenchmarks());
+  // Each alone, as above: the direct pipeline case left type feedback that slowed the axis builder's cases.
+  for (const name of streamCaseNames) results.push(...isolated(name));
   results.push(...(await feedBenchmarks()));
   log('measured the stream API and the WebSocket feed');
 }

@@ -33,13 +33,13 @@ function frames(axisCount: number): FrameBlock[] {
 }
 
 /** The axis builder with a 10 Hz subscriber and an alarm subscriber; samples counted per axis (channels / 2). */
-function axesCase(axisCount: number): BenchCase {
+function axesCase(name: string, axisCount: number): BenchCase {
   const blocks = frames(axisCount);
   const source = new Subject<FrameBlock>();
   const axes = createAxes(source, { axes: Array.from({ length: axisCount }, (_, k) => ({ ...axisOptions, name: `A${k}` })) });
   const subscriptions: Subscription[] = [];
   return {
-    name: `axes/${axisCount}axis/int16/block${BLOCK}/update10Hz`,
+    name,
     samplesPerPass: SAMPLES_PER_CHANNEL * axisCount,
     setup() {
       subscriptions.push(axes.update$({ updateHz: 10, trace: true }).subscribe(), axes.alarms$.subscribe());
@@ -56,7 +56,7 @@ function axesCase(axisCount: number): BenchCase {
 }
 
 /** Baseline: the bare pipeline on the same samples, already split per axis. */
-function directCase(): BenchCase {
+function directCase(name: string): BenchCase {
   const { x, y } = benchSignal(SAMPLES_PER_CHANNEL);
   const pipeline = createPipeline(axisOptions);
   const output = { positionM: new Float64Array(BLOCK), velocityMS: new Float64Array(BLOCK), level: new Float32Array(BLOCK), flags: new Uint8Array(BLOCK) };
@@ -64,7 +64,7 @@ function directCase(): BenchCase {
   const xs = Array.from({ length: SAMPLES_PER_CHANNEL / BLOCK }, (_, b) => x.subarray(b * BLOCK, (b + 1) * BLOCK));
   const ys = Array.from({ length: SAMPLES_PER_CHANNEL / BLOCK }, (_, b) => y.subarray(b * BLOCK, (b + 1) * BLOCK));
   return {
-    name: `baseline/pipeline-direct/1axis/int16/block${BLOCK}`,
+    name,
     samplesPerPass: SAMPLES_PER_CHANNEL,
     pass() {
       for (let b = 0; b < xs.length; b++) {
@@ -76,7 +76,7 @@ function directCase(): BenchCase {
 }
 
 /** Baseline: one rxjs event per sample into the pipeline, what the block design avoids. */
-function perSampleCase(): BenchCase {
+function perSampleCase(name: string): BenchCase {
   const { x, y } = benchSignal(PER_SAMPLE_SAMPLES);
   const pipeline = createPipeline(axisOptions);
   const output = { positionM: new Float64Array(1), velocityMS: new Float64Array(1), level: new Float32Array(1), flags: new Uint8Array(1) };
@@ -86,7 +86,7 @@ function perSampleCase(): BenchCase {
   const py = new Int16Array(1);
   let sink = 0;
   return {
-    name: 'baseline/rxjs-per-sample/1axis/int16',
+    name,
     samplesPerPass: PER_SAMPLE_SAMPLES,
     setup() {
       source.subscribe((i) => {
@@ -112,7 +112,7 @@ function percentile(sorted: readonly number[], fraction: number): number {
  * Latency from `next(block)` to the emission of that block's position by a per-block subscriber (one axis).
  * With `updateHz` set, a subscriber waits up to 1/updateHz more for its tick, by design.
  */
-function latency(): BenchResult {
+function latency(name: string): BenchResult {
   const blocks = frames(1);
   const source = new Subject<FrameBlock>();
   const axes = createAxes(source, { axes: [axisOptions] });
@@ -128,7 +128,7 @@ function latency(): BenchResult {
   const sorted = [...nanoseconds].sort((a, b) => a - b);
   const totalNs = nanoseconds.reduce((sum, value) => sum + value, 0);
   return {
-    name: `axes/1axis/int16/block${BLOCK}/latency-per-block`,
+    name,
     samplesPerSecond: (LATENCY_BLOCKS * BLOCK) / (totalNs / 1e9),
     nsPerSample: totalNs / (LATENCY_BLOCKS * BLOCK),
     passes: LATENCY_BLOCKS,
@@ -141,9 +141,25 @@ function latency(): BenchResult {
   };
 }
 
-/** Every stream case, measured; for bench/run.ts. Ratios: `axes/1axis` over `baseline/pipeline-direct`. */
+const CASES: ReadonlyArray<readonly [string, (name: string) => BenchCase]> = [
+  [`baseline/pipeline-direct/1axis/int16/block${BLOCK}`, directCase],
+  [`axes/1axis/int16/block${BLOCK}/update10Hz`, (name) => axesCase(name, 1)],
+  [`axes/3axis/int16/block${BLOCK}/update10Hz`, (name) => axesCase(name, 3)],
+  ['baseline/rxjs-per-sample/1axis/int16', perSampleCase],
+];
+const LATENCY_CASE = `axes/1axis/int16/block${BLOCK}/latency-per-block`;
+
+/** The stream cases' names, for bench/run.ts, which measures each in a process of its own. */
+export const streamCaseNames: readonly string[] = [...CASES.map(([name]) => name), LATENCY_CASE];
+
+/** One stream case by name, measured; null for another name. */
+export function streamCase(name: string, options: MeasureOptions = defaultMeasureOptions): BenchResult | null {
+  if (name === LATENCY_CASE) return latency(name);
+  const entry = CASES.find(([caseName]) => caseName === name);
+  return entry === undefined ? null : measure(entry[1](name), options);
+}
+
+/** Every stream case, measured in this process. Ratios: `axes/1axis` over `baseline/pipeline-direct`. */
 export function streamBenchmarks(options: MeasureOptions = defaultMeasureOptions): BenchResult[] {
-  const results = [directCase(), axesCase(1), axesCase(3), perSampleCase()].map((benchCase) => measure(benchCase, options));
-  results.push(latency());
-  return results;
+  return streamCaseNames.map((name) => streamCase(name, options)!);
 }
