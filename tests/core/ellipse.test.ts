@@ -207,6 +207,30 @@ describe('ellipse fit', () => {
     );
   });
 
+  it('reads full coverage for a whole fringe split between two merged accumulators, whatever their grids', () => {
+    // Each part zooms its own grid; merging maps one grid's cells into the other's, coarser or finer.
+    fc.assert(
+      fc.property(
+        fc.double({ min: -Math.log(3.9), max: Math.log(3.9), noNaN: true }).map(Math.exp),
+        fc.double({ min: -0.75, max: 0.75, noNaN: true }),
+        fc.double({ min: 0, max: 6.3, noNaN: true }),
+        fc.double({ min: 0.05, max: 0.95, noNaN: true }),
+        (ratio, phaseErrorRad, start, split) => {
+          const truth = { offsetX: 0.2, offsetY: -0.3, amplitudeX: 1, amplitudeY: ratio, phaseErrorRad };
+          const first = ellipsePoints(truth, 1500, start, split * 2 * Math.PI);
+          const second = ellipsePoints(truth, 1500, start + split * 2 * Math.PI, (1 - split) * 2 * Math.PI);
+          const merged = createEllipseAccumulator({ minCoverage: 0 });
+          merged.add(first.x, first.y, 1500);
+          const other = createEllipseAccumulator({ minCoverage: 0 });
+          other.add(second.x, second.y, 1500);
+          merged.merge(other);
+          expect(merged.solve()).toMatchObject({ ok: true, coverage: 1 });
+        },
+      ),
+      { numRuns: 100 },
+    );
+  });
+
   it('refuses too little coverage, with the coverage in the reason', () => {
     const truth = { offsetX: 0, offsetY: 0, amplitudeX: 1, amplitudeY: 1, phaseErrorRad: 0 };
     const { x, y } = ellipsePoints(truth, 500, 0, Math.PI, 0.001);
