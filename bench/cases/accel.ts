@@ -3,7 +3,7 @@
 // (process.cpuUsage), median of the passes, so that other processes on the machine weigh less.
 import { createPipeline, fastAtan2, type AlarmEvent, type EllipseCalibration, type FrontEnd, type PipelineOptions } from '../../src/core/index.js';
 import { createCorrection, createSignalMonitor } from '../../src/core/index.js';
-import { createWasmFrontEnd, type WasmFrontEndPrecision } from '../../src/accel/index.js';
+import { createFusedFrontEnd, createWasmFrontEnd, type WasmFrontEndPrecision } from '../../src/accel/index.js';
 import { median, type BenchResult } from '../harness.js';
 import { benchSignal, BLOCK, TOTAL_SAMPLES } from './core.js';
 
@@ -51,8 +51,10 @@ const VARIANTS: readonly WasmFrontEndPrecision[] = ['f32', 'f64-exact'];
 /** Names of the cases `accelCases` measures (those whose engine has WebAssembly SIMD). */
 export const ACCEL_CASE_NAMES: readonly string[] = [
   'front-end/int16/block4096/js-stages',
+  'front-end/int16/block4096/js-fused',
   ...VARIANTS.map((precision) => `front-end/int16/block4096/wasm-simd-${precision}`),
   'pipeline/int16/block4096/plain-js',
+  'pipeline/int16/block4096/js-fused',
   ...VARIANTS.map((precision) => `pipeline/int16/block4096/wasm-simd-${precision}`),
 ];
 
@@ -85,6 +87,14 @@ export function accelCases(only?: string): BenchResult[] {
         for (let i = 0; i < BLOCK; i++) phaseRad[i] = fastAtan2(v[i]!, u[i]!);
       }
       events.length = 0;
+    },
+  });
+
+  const fused = createFusedFrontEnd();
+  measureSelected({
+    name: 'front-end/int16/block4096/js-fused',
+    pass() {
+      for (let b = 0; b < blocks; b++) fused.process(xs[b]!, ys[b]!, BLOCK, correction.coefficients, -32768, 32767, 0.3, level, 0, 0);
     },
   });
 
@@ -123,6 +133,7 @@ export function accelCases(only?: string): BenchResult[] {
     };
   };
   measureSelected(pipelineCase('pipeline/int16/block4096/plain-js', undefined));
+  measureSelected(pipelineCase('pipeline/int16/block4096/js-fused', fused));
   for (const [precision, frontEnd] of frontEnds) {
     measureSelected(pipelineCase(`pipeline/int16/block4096/wasm-simd-${precision}`, frontEnd));
   }

@@ -1,4 +1,5 @@
-// fringetally accel layer: optional accelerated kernels (WebAssembly SIMD) for the core pipeline.
+// fringetally accel layer: optional accelerated front ends for the core pipeline (WebAssembly SIMD kernels, and a fused
+// plain-JavaScript loop where WebAssembly SIMD is missing).
 export {
   createWasmFrontEnd,
   F32_MAX_LEVEL_RELATIVE_ERROR,
@@ -7,3 +8,4 @@ export {
   type WasmFrontEndOptions,
   type WasmFrontEndPrecision,
 } from './front-end.js';
+export { createFusedFrontEnd, type FusedFrontEndOptions } from './fused-front-end.js';

@@ -1,4 +1,5 @@
-// Checks of the WebAssembly front ends (src/accel) against the JavaScript stages and Math.atan2.
+// Checks of the front ends (src/accel: WebAssembly SIMD kernels, fused JavaScript loop) against the JavaScript
+// stages and Math.atan2.
 // Reference values: Math.atan2 and Math.sqrt of the ECMAScript library (ECMA-262, §21.3.2), and the
 // plain-JS pipeline of src/core for positions, flags and events. λ_vac = 632.9908 nm (unstabilised He-Ne).
 import { afterEach, describe, expect, it, vi } from 'vitest';
@@ -14,6 +15,7 @@ import {
   type PipelineOptions,
 } from '../../src/core/index.js';
 import {
+  createFusedFrontEnd,
   createWasmFrontEnd,
   F32_MAX_LEVEL_RELATIVE_ERROR,
   F32_MAX_PHASE_ERROR_RAD,
@@ -339,6 +341,38 @@ describe('accelerated pipeline', () => {
   });
 });
 
+describe('fused JavaScript front end', () => {
+  it('positions, levels, flags and events identical to the plain pipeline for any block split', () => {
+    const { x, y } = alarmSignal(N, 9);
+    let accepted = 0;
+    let declined = 0;
+    fc.assert(
+      fc.property(splitArbitrary, (split) => {
+        const { wrapped, counts } = counting(createFusedFrontEnd());
+        expect(runPipeline(x, y, { ...baseOptions, frontEnd: wrapped }, split)).toEqual(runPipeline(x, y, baseOptions, split));
+        accepted += counts.accepted;
+        declined += counts.calls - counts.accepted;
+      }),
+      { numRuns: 15 },
+    );
+    expect(accepted).toBeGreaterThan(0);
+    expect(declined).toBeGreaterThan(0); // alarm blocks went to the stages
+  });
+
+  it('float samples with NaN, velocity-aided unwrapping and blocks beyond its capacity: results identical', () => {
+    const ints = alarmSignal(N, 10);
+    const floats = { x: Float64Array.from(ints.x), y: Float64Array.from(ints.y) };
+    floats.x[12_345] = Number.NaN;
+    const floatOptions: PipelineOptions = { ...baseOptions, adc: { kind: 'float', fullScale: 32768 } };
+    const split = [1, 2, 5, 4101, 30_001];
+    const front = counting(createFusedFrontEnd({ capacity: 16 }));
+    expect(runPipeline(floats.x, floats.y, { ...floatOptions, frontEnd: front.wrapped }, split)).toEqual(runPipeline(floats.x, floats.y, floatOptions, split));
+    const aided: PipelineOptions = { ...baseOptions, unwrap: 'velocity-aided' };
+    expect(runPipeline(ints.x, ints.y, { ...aided, frontEnd: front.wrapped }, split)).toEqual(runPipeline(ints.x, ints.y, aided, split));
+    expect(front.counts.accepted).toBeGreaterThan(0);
+  });
+});
+
 describe('without WebAssembly', () => {
   afterEach(() => {
     vi.unstubAllGlobals();
@@ -350,6 +384,13 @@ describe('without WebAssembly', () => {
     expect(front).toBeNull();
     const { x, y } = alarmSignal(10_000, 8);
     const options: PipelineOptions = { ...baseOptions, frontEnd: front ?? undefined };
+    expect(runPipeline(x, y, options, [4096])).toEqual(runPipeline(x, y, baseOptions, [4096]));
+  });
+
+  it('`createWasmFrontEnd() ?? createFusedFrontEnd()` falls back to the fused loop, with the stages\' results', () => {
+    vi.stubGlobal('WebAssembly', undefined);
+    const { x, y } = alarmSignal(10_000, 11);
+    const options: PipelineOptions = { ...baseOptions, frontEnd: createWasmFrontEnd() ?? createFusedFrontEnd() };
     expect(runPipeline(x, y, options, [4096])).toEqual(runPipeline(x, y, baseOptions, [4096]));
   });
 });
