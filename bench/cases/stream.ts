@@ -152,14 +152,9 @@ const LATENCY_CASE = `axes/1axis/int16/block${BLOCK}/latency-per-block`;
 /** The stream cases' names, for bench/run.ts, which measures each in a process of its own. */
 export const streamCaseNames: readonly string[] = [...CASES.map(([name]) => name), LATENCY_CASE];
 
-/** One stream case by name, measured; null for another name. */
+/** One stream case by name, measured; null for another name. Ratios: `axes/1axis` over `baseline/pipeline-direct`. */
 export function streamCase(name: string, options: MeasureOptions = defaultMeasureOptions): BenchResult | null {
   if (name === LATENCY_CASE) return latency(name);
   const entry = CASES.find(([caseName]) => caseName === name);
   return entry === undefined ? null : measure(entry[1](name), options);
-}
-
-/** Every stream case, measured in this process. Ratios: `axes/1axis` over `baseline/pipeline-direct`. */
-export function streamBenchmarks(options: MeasureOptions = defaultMeasureOptions): BenchResult[] {
-  return streamCaseNames.map((name) => streamCase(name, options)!);
 }
