@@ -1,4 +1,6 @@
 // Ends the run with the plain line `N passed, N failed, N skipped`, which CI reads.
+// A file that failed outside its tests (an import, a beforeAll: its browser or broker missing) counts its
+// tests that did not pass as failed, everywhere: a suite that could not set up did not pass.
 // A test that is skipped while CI=true counts as failed: CI must not pass on tests it did not run.
 import type { Reporter, TestModule } from 'vitest/node';
 
@@ -8,9 +10,16 @@ export default class CountReporter implements Reporter {
     let failed = 0;
     let skipped = 0;
     for (const testModule of testModules) {
-      if (testModule.state() === 'failed' && [...testModule.children.allTests()].length === 0) failed++;
-      for (const test of testModule.children.allTests()) {
-        const state = test.result().state;
+      const tests = [...testModule.children.allTests()];
+      const states = tests.map((test) => test.result().state);
+      const setupFailed = testModule.state() === 'failed' && !states.includes('failed');
+      if (setupFailed) {
+        const notPassed = states.filter((state) => state !== 'passed').length;
+        passed += states.length - notPassed;
+        failed += Math.max(1, notPassed);
+        continue;
+      }
+      for (const state of states) {
         if (state === 'passed') passed++;
         else if (state === 'failed') failed++;
         else skipped++;
