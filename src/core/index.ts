@@ -14,3 +14,5 @@ export * from './motion.js';
 export * from './periodic-error.js';
 export * from './fit-improved.js';
 export * from './online-correction.js';
+export * from './spectrum.js';
+export * from './allan.js';
