@@ -4,3 +4,4 @@ export * from './serial/index.js';
 export * from './capture/index.js';
 export * from './results/index.js';
 export * from './feed/index.js';
+export * from './live/index.js';

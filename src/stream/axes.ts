@@ -15,6 +15,7 @@ import {
   type Correction,
   type Pipeline,
   type PipelineOptions,
+  type SampleArray,
   type SpeedLimits,
 } from '../core/index.js';
 import { checkAxisBlock, checkFrameBlock, type AxisBlock, type FrameBlock } from './blocks.js';
@@ -25,17 +26,7 @@ export interface AxisOptions extends PipelineOptions {
   readonly name?: string;
 }
 
-export interface AxesOptions {
-  /** One entry per axis, 1..8; axis k reads channels 2k (x) and 2k + 1 (y) of each frame. */
-  readonly axes: readonly AxisOptions[];
-  /** Recent raw and corrected points kept per axis for a Lissajous view. Default 256; integer 0..4096. */
-  readonly tracePoints?: number;
-  /** Trace points taken from each block, evenly spaced. Default 16; integer 1..4096. */
-  readonly tracePointsPerBlock?: number;
-  /** Alarm events carried per axis in one update; more in one interval are counted in `eventsDropped`. Default 64; integer 1..65536. */
-  readonly maxEventsPerUpdate?: number;
-  /** Scheduler of the update timers. Default `asyncScheduler`; tests pass a `TestScheduler`. */
-  readonly scheduler?: SchedulerLike;
+export interface AxesOptions extends AxesRunnerOptions, AxesViewOptions {
   /**
    * Refractive index of air on all axes as it changes during the run (e.g. `airIndex()` over sensor readings).
    * Each value rescales the readings from the next block on; the fringe counts are untouched.
@@ -119,10 +110,17 @@ export interface AxisAlarmEvent extends AlarmEvent {
   readonly axis: string;
 }
 
-/** One block's summary for one axis. Reused for every block: read inside `next`. */
+/** One block's position block and summary for one axis. Reused for every block: read inside `next`. */
 export interface AxisBlockSummary {
   readonly name: string;
+  /** Absolute index of the block's first sample (lost samples counted). */
+  readonly firstSampleIndex: number;
   readonly length: number;
+  /** The block's raw samples of this axis, `length` of them. */
+  readonly x: SampleArray;
+  readonly y: SampleArray;
+  /** The pipeline's output per sample, `length` of each. */
+  readonly output: AxisSamples;
   readonly lostBefore: number;
   readonly sampleIndex: number;
   readonly positionM: number;
@@ -145,6 +143,15 @@ export interface AxisBlockSummary {
   readonly traceV: Float32Array;
   readonly traceNext: number;
   readonly traceFilled: number;
+}
+
+/** Per-sample output of one axis for one block (views reused for the next block). */
+export interface AxisSamples {
+  readonly positionM: Float64Array;
+  readonly velocityMS: Float64Array;
+  readonly level: Float32Array;
+  /** `AlarmBit` flags per sample. */
+  readonly flags: Uint8Array;
 }
 
 export interface Axis {
@@ -180,15 +187,164 @@ export interface Axes {
 
 const NAME_PATTERN = /^[A-Za-z0-9_-]{1,32}$/;
 
+/** What the pipelines need: the axes and the trace kept per axis. */
+export interface AxesRunnerOptions {
+  /** One entry per axis, 1..8; axis k reads channels 2k (x) and 2k + 1 (y) of each frame. */
+  readonly axes: readonly AxisOptions[];
+  /** Recent raw and corrected points kept per axis for a Lissajous view. Default 256; integer 0..4096. */
+  readonly tracePoints?: number;
+  /** Trace points taken from each block, evenly spaced. Default 16; integer 1..4096. */
+  readonly tracePointsPerBlock?: number;
+}
+
+/**
+ * The shared half of the axis builder: one pipeline per axis, one position block per axis per input block.
+ * Everything a subscriber sees (rows, updates, alarms, status) is made from these summaries.
+ */
+export interface AxesRunner {
+  readonly names: readonly string[];
+  /**
+   * Runs every axis over one block and returns the summaries (the same objects each time, overwritten by the
+   * next block). Throws an OptionError for a malformed block or one without the channels the axes need.
+   */
+  process(block: FrameBlock | AxisBlock): readonly AxisBlockSummary[];
+  /** Sets the refractive index of air on all axes from the next block on; kept across `reset()`. */
+  setRefractiveIndex(refractiveIndex: number): void;
+  /** Every axis back to its first sample (index 0, zero position), options and refractive index kept. */
+  reset(): void;
+}
+
 interface AxisStage {
   readonly pipeline: Pipeline;
   readonly correction: Correction;
   readonly summary: MutableSummary;
+  readonly buffers: ReturnType<typeof createPositionBuffers>;
   x: Int16Array;
   y: Int16Array;
 }
 
 type MutableSummary = { -readonly [K in keyof AxisBlockSummary]: AxisBlockSummary[K] } & { events: AlarmEvent[] };
+
+export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
+  const axisCount = integerInRange('axes.length', options.axes.length, 1, 8);
+  const names = options.axes.map((axis, k) => {
+    const name = axis.name ?? `axis${k}`;
+    if (!NAME_PATTERN.test(name)) throw new OptionError(`axes[${k}].name`, '1..32 characters of A-Z a-z 0-9 _ -', name);
+    return name;
+  });
+  if (new Set(names).size !== names.length) throw new OptionError('axes[].name', 'unique', names);
+  const tracePoints = integerInRange('tracePoints', options.tracePoints ?? 256, 0, 4096);
+  const tracePerBlock = integerInRange('tracePointsPerBlock', options.tracePointsPerBlock ?? 16, 1, 4096);
+  let refractiveIndex: number | null = null;
+  // Creating the pipelines validates every axis' options.
+  const stages: AxisStage[] = options.axes.map((axisOptions, k) => {
+    const pipeline = createPipeline(axisOptions);
+    return {
+      pipeline,
+      correction: createCorrection({ calibration: axisOptions.calibration ?? null }),
+      summary: emptySummary(names[k]!, pipeline.speedLimits, tracePoints),
+      buffers: createPositionBuffers(axisOptions.blockCapacity ?? 4096),
+      x: new Int16Array(0),
+      y: new Int16Array(0),
+    };
+  });
+  const summaries: readonly AxisBlockSummary[] = stages.map((stage) => stage.summary);
+  const pick = { x: new Float64Array(tracePerBlock), y: new Float64Array(tracePerBlock), u: new Float64Array(tracePerBlock), v: new Float64Array(tracePerBlock) };
+
+  function processAxis(stage: AxisStage, x: AxisBlock['x'], y: AxisBlock['y'], length: number, gapBefore: number): void {
+    const { pipeline, summary } = stage;
+    if (gapBefore > 0) pipeline.markGap(gapBefore);
+    summary.events.length = 0;
+    summary.firstSampleIndex = pipeline.nextSampleIndex;
+    const out = stage.buffers.views(length);
+    pipeline.process(x, y, length, out, summary.events);
+    summary.x = x;
+    summary.y = y;
+    summary.output = out;
+    summarise(summary, out, length, gapBefore, pipeline);
+    if (tracePoints > 0 && length > 0) {
+      const count = Math.min(tracePerBlock, length);
+      const step = length / count;
+      for (let j = 0; j < count; j++) {
+        const i = Math.floor(j * step);
+        pick.x[j] = x[i]!;
+        pick.y[j] = y[i]!;
+      }
+      stage.correction.process(pick.x, pick.y, pick.u, pick.v, count);
+      for (let j = 0; j < count; j++) {
+        const at = summary.traceNext;
+        summary.traceX[at] = pick.x[j]!;
+        summary.traceY[at] = pick.y[j]!;
+        summary.traceU[at] = pick.u[j]!;
+        summary.traceV[at] = pick.v[j]!;
+        summary.traceNext = (at + 1) % tracePoints;
+      }
+      summary.traceFilled = Math.min(tracePoints, summary.traceFilled + count);
+    }
+  }
+
+  return {
+    names,
+    process(block) {
+      if ('samples' in block) {
+        checkFrameBlock(block);
+        if (block.channelCount < 2 * axisCount) {
+          throw new OptionError('block.channelCount', `at least ${2 * axisCount} for ${axisCount} axes`, block.channelCount);
+        }
+        const n = block.samplesPerFrame;
+        const stride = block.channelCount;
+        const samples = block.samples;
+        for (let k = 0; k < axisCount; k++) {
+          const stage = stages[k]!;
+          if (stage.x.length < n) {
+            stage.x = new Int16Array(n);
+            stage.y = new Int16Array(n);
+          }
+          // Split inline: locals keep the loop in registers (see DEVELOPERS.md).
+          const x = stage.x;
+          const y = stage.y;
+          let at = 2 * k;
+          for (let s = 0; s < n; s++) {
+            x[s] = samples[at]!;
+            y[s] = samples[at + 1]!;
+            at += stride;
+          }
+          processAxis(stage, x, y, n, block.gapBefore ?? 0);
+        }
+      } else {
+        if (axisCount !== 1) throw new OptionError('block', `FrameBlocks for ${axisCount} axes (an AxisBlock carries one axis)`, 'an AxisBlock');
+        checkAxisBlock(block);
+        processAxis(stages[0]!, block.x, block.y, block.length, block.gapBefore ?? 0);
+      }
+      return summaries;
+    },
+    setRefractiveIndex(next) {
+      validateRefractiveIndex(next);
+      for (const stage of stages) stage.pipeline.setRefractiveIndex(next);
+      refractiveIndex = next;
+    },
+    reset() {
+      stages.forEach((stage, k) => {
+        stage.pipeline.reset();
+        if (refractiveIndex !== null) stage.pipeline.setRefractiveIndex(refractiveIndex);
+        Object.assign(stage.summary, emptySummary(names[k]!, stage.pipeline.speedLimits, tracePoints), {
+          traceX: stage.summary.traceX.fill(0),
+          traceY: stage.summary.traceY.fill(0),
+          traceU: stage.summary.traceU.fill(0),
+          traceV: stage.summary.traceV.fill(0),
+        });
+      });
+    },
+  };
+}
+
+/** What the per-subscriber half needs besides the shared summaries. */
+export interface AxesViewOptions {
+  /** Alarm events carried per axis in one update; more in one interval are counted in `eventsDropped`. Default 64; integer 1..65536. */
+  readonly maxEventsPerUpdate?: number;
+  /** Scheduler of the update timers. Default `asyncScheduler`; tests pass a `TestScheduler`. */
+  readonly scheduler?: SchedulerLike;
+}
 
 /**
  * Builds the axes over `source$`: interleaved frames (any axis count the frames carry at least) or, for a
@@ -197,77 +353,13 @@ type MutableSummary = { -readonly [K in keyof AxisBlockSummary]: AxisBlockSummar
  * synchronously and never kept.
  */
 export function createAxes(source$: Observable<FrameBlock | AxisBlock>, options: AxesOptions): Axes {
-  const axisCount = integerInRange('axes.length', options.axes.length, 1, 8);
-  const names = options.axes.map((axis, k) => {
-    const name = axis.name ?? `axis${k}`;
-    if (!NAME_PATTERN.test(name)) throw new OptionError(`axes[${k}].name`, '1..32 characters of A-Z a-z 0-9 _ -', name);
-    return name;
-  });
-  if (new Set(names).size !== names.length) throw new OptionError('axes[].name', 'unique', names);
-  for (const axis of options.axes) createPipeline(axis);
-  const tracePoints = integerInRange('tracePoints', options.tracePoints ?? 256, 0, 4096);
-  const tracePerBlock = integerInRange('tracePointsPerBlock', options.tracePointsPerBlock ?? 16, 1, 4096);
-  const maxEvents = integerInRange('maxEventsPerUpdate', options.maxEventsPerUpdate ?? 64, 1, 65536);
-  const scheduler = options.scheduler ?? asyncScheduler;
-  // The running chain's latest summaries, so a subscriber joining mid-stream starts from the current state.
-  let current: readonly AxisBlockSummary[] | null = null;
-  // The index set during the run; a restarted chain starts from it, not from the options.
-  let refractiveIndex: number | null = null;
-  let running: readonly AxisStage[] = [];
-  function setRefractiveIndex(next: number): void {
-    validateRefractiveIndex(next);
-    for (const stage of running) stage.pipeline.setRefractiveIndex(next);
-    refractiveIndex = next;
-  }
-
+  const runner = createAxesRunner(options);
   const blocks$ = new Observable<readonly AxisBlockSummary[]>((subscriber) => {
-    const stages: AxisStage[] = options.axes.map((axisOptions, k) => {
-      const pipeline = createPipeline(refractiveIndex === null ? axisOptions : { ...axisOptions, refractiveIndex });
-      return {
-        pipeline,
-        correction: createCorrection({ calibration: axisOptions.calibration ?? null }),
-        summary: emptySummary(names[k]!, pipeline.speedLimits, tracePoints),
-        x: new Int16Array(0),
-        y: new Int16Array(0),
-      };
-    });
-    const summaries: readonly AxisBlockSummary[] = stages.map((stage) => stage.summary);
-    const buffers = createPositionBuffers(options.axes[0]!.blockCapacity ?? 4096);
-    const pick = { x: new Float64Array(tracePerBlock), y: new Float64Array(tracePerBlock), u: new Float64Array(tracePerBlock), v: new Float64Array(tracePerBlock) };
-
-    function processAxis(stage: AxisStage, x: AxisBlock['x'], y: AxisBlock['y'], length: number, gapBefore: number): void {
-      const { pipeline, summary } = stage;
-      if (gapBefore > 0) pipeline.markGap(gapBefore);
-      summary.events.length = 0;
-      const out = buffers.views(length);
-      pipeline.process(x, y, length, out, summary.events);
-      summarise(summary, out, length, gapBefore, pipeline);
-      if (tracePoints > 0 && length > 0) {
-        const count = Math.min(tracePerBlock, length);
-        const step = length / count;
-        for (let j = 0; j < count; j++) {
-          const i = Math.floor(j * step);
-          pick.x[j] = x[i]!;
-          pick.y[j] = y[i]!;
-        }
-        stage.correction.process(pick.x, pick.y, pick.u, pick.v, count);
-        for (let j = 0; j < count; j++) {
-          const at = summary.traceNext;
-          summary.traceX[at] = pick.x[j]!;
-          summary.traceY[at] = pick.y[j]!;
-          summary.traceU[at] = pick.u[j]!;
-          summary.traceV[at] = pick.v[j]!;
-          summary.traceNext = (at + 1) % tracePoints;
-        }
-        summary.traceFilled = Math.min(tracePoints, summary.traceFilled + count);
-      }
-    }
-
-    running = stages;
+    runner.reset();
     const indexSubscription = options.refractiveIndex$?.subscribe({
       next(value) {
         try {
-          setRefractiveIndex(value);
+          runner.setRefractiveIndex(value);
         } catch (error) {
           subscriber.error(error);
         }
@@ -276,38 +368,13 @@ export function createAxes(source$: Observable<FrameBlock | AxisBlock>, options:
     });
     const subscription = source$.subscribe({
       next(block) {
+        let summaries: readonly AxisBlockSummary[];
         try {
-          if ('samples' in block) {
-            checkFrameBlock(block);
-            if (block.channelCount < 2 * axisCount) {
-              throw new RangeError(`frames carry ${block.channelCount} channels, ${axisCount} axes need ${2 * axisCount}`);
-            }
-            const n = block.samplesPerFrame;
-            const stride = block.channelCount;
-            for (let k = 0; k < axisCount; k++) {
-              const stage = stages[k]!;
-              if (stage.x.length < n) {
-                stage.x = new Int16Array(n);
-                stage.y = new Int16Array(n);
-              }
-              let at = 2 * k;
-              for (let s = 0; s < n; s++) {
-                stage.x[s] = block.samples[at]!;
-                stage.y[s] = block.samples[at + 1]!;
-                at += stride;
-              }
-              processAxis(stage, stage.x, stage.y, n, block.gapBefore ?? 0);
-            }
-          } else {
-            if (axisCount !== 1) throw new RangeError(`an AxisBlock carries one axis; ${axisCount} axes need FrameBlocks`);
-            checkAxisBlock(block);
-            processAxis(stages[0]!, block.x, block.y, block.length, block.gapBefore ?? 0);
-          }
+          summaries = runner.process(block);
         } catch (error) {
           subscriber.error(error);
           return;
         }
-        current = summaries;
         subscriber.next(summaries);
       },
       error: (error: unknown) => subscriber.error(error),
@@ -316,7 +383,38 @@ export function createAxes(source$: Observable<FrameBlock | AxisBlock>, options:
     return () => {
       subscription.unsubscribe();
       indexSubscription?.unsubscribe();
-      running = [];
+    };
+  });
+  return createAxesView(blocks$, runner, options);
+}
+
+/**
+ * The per-subscriber half of the axis builder over a stream of shared summaries (from `createAxesRunner`):
+ * updates at each subscriber's own rate, alarms and status. `blocks$` is shared here; it is subscribed while
+ * anyone listens or `connect()` holds it.
+ */
+export function createAxesView(
+  summaries$: Observable<readonly AxisBlockSummary[]>,
+  runner: Pick<AxesRunner, 'names' | 'setRefractiveIndex'>,
+  options: AxesViewOptions = {},
+): Axes {
+  const { names } = runner;
+  const axisCount = names.length;
+  const maxEvents = integerInRange('maxEventsPerUpdate', options.maxEventsPerUpdate ?? 64, 1, 65536);
+  const scheduler = options.scheduler ?? asyncScheduler;
+  // The running chain's latest summaries, so a subscriber joining mid-stream starts from the current state.
+  let current: readonly AxisBlockSummary[] | null = null;
+  const blocks$ = new Observable<readonly AxisBlockSummary[]>((subscriber) => {
+    const subscription = summaries$.subscribe({
+      next(summaries) {
+        current = summaries;
+        subscriber.next(summaries);
+      },
+      error: (error: unknown) => subscriber.error(error),
+      complete: () => subscriber.complete(),
+    });
+    return () => {
+      subscription.unsubscribe();
       current = null;
     };
   }).pipe(share());
@@ -400,7 +498,7 @@ export function createAxes(source$: Observable<FrameBlock | AxisBlock>, options:
     alarms$,
     blocks$,
     connect: (observer) => blocks$.subscribe(observer),
-    setRefractiveIndex,
+    setRefractiveIndex: (refractiveIndex) => runner.setRefractiveIndex(refractiveIndex),
   };
 }
 
@@ -410,10 +508,17 @@ function rate(updateHz: unknown): number {
   return value;
 }
 
+const EMPTY_SAMPLES = new Int16Array(0);
+const EMPTY_OUTPUT: AxisSamples = { positionM: new Float64Array(0), velocityMS: new Float64Array(0), level: new Float32Array(0), flags: new Uint8Array(0) };
+
 function emptySummary(name: string, speedLimits: SpeedLimits, tracePoints: number): MutableSummary {
   return {
     name,
+    firstSampleIndex: 0,
     length: 0,
+    x: EMPTY_SAMPLES,
+    y: EMPTY_SAMPLES,
+    output: EMPTY_OUTPUT,
     lostBefore: 0,
     sampleIndex: -1,
     positionM: Number.NaN,

@@ -1,0 +1,20 @@
+// Live link: bytes from a byte source to gap-aware sample blocks, and to positions per axis.
+export {
+  createLinkReader,
+  type LinkBlock,
+  type LinkGap,
+  type LinkReader,
+  type LinkReaderOptions,
+  type LinkReaderStatus,
+} from './link-reader.js';
+export {
+  readLink,
+  trackLink,
+  type LinkOptions,
+  type LinkReading,
+  type LiveAxes,
+  type LiveAxisOptions,
+  type LiveBlock,
+  type LiveReading,
+  type TrackLinkOptions,
+} from './track-link.js';

@@ -1,0 +1,277 @@
+// Byte source events → gap-aware sample blocks: the wire (or text line) decoder plus the rules a live link needs
+// on top of it. A sequence jump is a gap of the frames it skipped; a link outage is a gap of at least one
+// sample (the bytes in flight are gone even when the counter shows no jump); a text line cut by an outage is
+// spoiled so that its two halves never join into one wrong sample. Every sample index counts lost samples.
+
+import { integerInRange, oneOf, OptionError, positiveFinite } from '../../core/index.js';
+import type { FrameBlock } from '../../stream/index.js';
+import type { ByteSourceEvent, LinkEvent } from '../serial/index.js';
+import {
+  createLineDecoder,
+  createWireDecoder,
+  WIRE_MAX_CHANNELS,
+  WIRE_MAX_SAMPLES_PER_FRAME,
+  type InputGap,
+  type LineDecoder,
+  type LineDecoderCounters,
+  type SampleBlock,
+  type WireDecoder,
+  type WireDecoderCounters,
+} from '../wire/index.js';
+
+export interface LinkReaderOptions {
+  /** `binary`: wire frames (docs/wire-format.md); `text`: `x,y[,…]` lines, no sequence counter. Default `binary`. */
+  readonly mode?: 'binary' | 'text';
+  /** Binary: largest samples per frame accepted, 1..4096. Default 1024. */
+  readonly maxSamplesPerFrame?: number;
+  /** Text: integers per line, even 2..16. Default 2. */
+  readonly channelCount?: number;
+  /**
+   * Sample rate, Hz. Default: the frames' rate field. Required in text mode and for frames without the field;
+   * when both are given they must agree.
+   */
+  readonly rateHz?: number;
+  /** Called with every block of samples, in order (reused object and array: read inside the call). */
+  readonly onBlock: (block: LinkBlock) => void;
+  /** Called for every gap, before the block that follows it. */
+  readonly onGap?: (gap: LinkGap) => void;
+  /** Called for every link change the source reports, after the reader applied it. */
+  readonly onLink?: (event: LinkEvent) => void;
+}
+
+/**
+ * Interleaved int16 samples of every channel, contiguous in sample index: one block per chunk of bytes, cut
+ * where a gap or a change of channel count falls. The object and `samples` are reused.
+ */
+export interface LinkBlock extends FrameBlock {
+  readonly kind: 'samples';
+  readonly samples: Int16Array;
+  readonly channelCount: number;
+  /** Samples per channel in this block. */
+  readonly samplesPerFrame: number;
+  /** Samples lost just before this block (0: none). */
+  readonly gapBefore: number;
+  /** Absolute index of the first sample: samples delivered plus samples lost, from the first sample received. */
+  readonly sampleIndex: number;
+  readonly rateHz: number;
+}
+
+export interface LinkGap {
+  readonly kind: 'gap';
+  /** Absolute index of the first sample after the gap (lost samples counted). */
+  readonly sampleIndex: number;
+  readonly lostSamples: number;
+  /** `sequence`: the frame counter jumped; `link`: across a link outage (at least 1, more when the counter says so). */
+  readonly cause: 'sequence' | 'link';
+}
+
+export interface LinkReaderStatus {
+  link: 'waiting' | 'up' | 'down';
+  /** Outages (up → down). */
+  linkDowns: number;
+  /** Returns after an outage. */
+  linkReturns: number;
+  /** NaN until the first samples. */
+  rateHz: number;
+  /** Where the rate came from; null until the first samples. */
+  rateSource: 'frames' | 'option' | null;
+  /** Channels of the latest block; 0 until the first samples. */
+  channelCount: number;
+  samplesDelivered: number;
+  /** Next absolute index: delivered plus lost. */
+  nextSampleIndex: number;
+  gaps: number;
+  lostSamples: number;
+  readonly wire: Readonly<WireDecoderCounters> | null;
+  readonly text: Readonly<LineDecoderCounters> | null;
+}
+
+export interface LinkReader {
+  /** Live counters; read them, do not write them. */
+  readonly status: Readonly<LinkReaderStatus>;
+  /**
+   * Takes one event of a byte source. Throws (an Error naming the rule) when the frames contradict the options
+   * or themselves: a rate that differs from `rateHz` or changes, frames without a rate and no `rateHz`.
+   */
+  push(event: ByteSourceEvent): void;
+  /** Back to the state after creation. */
+  reset(): void;
+}
+
+/** Byte that spoils a half-received text line at an outage: no line may hold it, so the line is rejected. */
+const SPOIL_LINE = Uint8Array.of(0x23);
+
+export function createLinkReader(options: LinkReaderOptions): LinkReader {
+  const mode = oneOf('mode', options.mode ?? 'binary', ['binary', 'text'] as const);
+  const rateOption = options.rateHz === undefined ? undefined : positiveFinite('rateHz', options.rateHz);
+  if (mode === 'text' && rateOption === undefined) throw new OptionError('rateHz', 'given in text mode (lines carry no sample rate)', undefined);
+  const maxSamplesPerFrame = integerInRange('maxSamplesPerFrame', options.maxSamplesPerFrame ?? 1024, 1, WIRE_MAX_SAMPLES_PER_FRAME);
+  const textChannels = integerInRange('channelCount', options.channelCount ?? 2, 2, WIRE_MAX_CHANNELS);
+  if (textChannels % 2 !== 0) throw new OptionError('channelCount', 'even', textChannels);
+  if (typeof options.onBlock !== 'function') throw new OptionError('onBlock', 'a function', typeof options.onBlock);
+  const { onBlock, onGap, onLink } = options;
+
+  // The decoders' callbacks run only inside push(), after everything below is initialised.
+  const wire: WireDecoder | null = mode === 'binary' ? createWireDecoder({ maxSamplesPerFrame, onFrame: onSamples, onGap: onSequenceGap }) : null;
+  const text: LineDecoder | null = mode === 'text' ? createLineDecoder({ channelCount: textChannels, maxSamplesPerBlock: 1024, onBlock: onSamples }) : null;
+  const status: LinkReaderStatus = {
+    link: 'waiting',
+    linkDowns: 0,
+    linkReturns: 0,
+    rateHz: Number.NaN,
+    rateSource: null,
+    channelCount: 0,
+    samplesDelivered: 0,
+    nextSampleIndex: 0,
+    gaps: 0,
+    lostSamples: 0,
+    wire: wire === null ? null : wire.counters,
+    text: text === null ? null : text.counters,
+  };
+
+  // The block being gathered from the current chunk.
+  let buffer = new Int16Array(4096);
+  let length = 0;
+  let channels = 0;
+  let pendingGap = 0;
+  let linkGapPending = false;
+  const block = {
+    kind: 'samples' as const,
+    samples: buffer.subarray(0, 0),
+    channelCount: 0,
+    samplesPerFrame: 0,
+    gapBefore: 0,
+    sampleIndex: 0,
+    rateHz: Number.NaN,
+  };
+
+  function establishRate(frameRateHz: number): void {
+    const known = status.rateSource !== null;
+    if (frameRateHz === frameRateHz) {
+      if (known && frameRateHz !== status.rateHz) {
+        throw new Error(
+          status.rateSource === 'frames'
+            ? `the sample rate in the frames changed from ${status.rateHz} Hz to ${frameRateHz} Hz at sample ${status.nextSampleIndex}`
+            : `the frames say ${frameRateHz} Hz but rateHz is ${status.rateHz} Hz; give the device's true rate or leave it out`,
+        );
+      }
+      if (known) return;
+      if (!(frameRateHz >= 1)) throw new Error(`the frames state a sample rate of ${frameRateHz} Hz (must be at least 1)`);
+      if (rateOption !== undefined && rateOption !== frameRateHz) {
+        throw new Error(`the frames say ${frameRateHz} Hz but rateHz is ${rateOption} Hz; give the device's true rate or leave it out`);
+      }
+      status.rateHz = frameRateHz;
+      status.rateSource = 'frames';
+    } else if (!known) {
+      if (rateOption === undefined) throw new Error('the frames carry no sample rate field: give rateHz');
+      status.rateHz = rateOption;
+      status.rateSource = 'option';
+    }
+  }
+
+  /** Hands out the samples gathered so far as one block. */
+  function flush(): void {
+    if (length === 0) return;
+    const n = length / channels;
+    block.samples = buffer.subarray(0, length);
+    block.channelCount = channels;
+    block.samplesPerFrame = n;
+    block.gapBefore = pendingGap;
+    block.sampleIndex = status.nextSampleIndex;
+    block.rateHz = status.rateHz;
+    status.nextSampleIndex += n;
+    status.samplesDelivered += n;
+    length = 0;
+    pendingGap = 0;
+    onBlock(block);
+  }
+
+  function gap(lostSamples: number, cause: LinkGap['cause']): void {
+    flush();
+    status.gaps++;
+    status.lostSamples += lostSamples;
+    status.nextSampleIndex += lostSamples;
+    pendingGap += lostSamples;
+    onGap?.({ kind: 'gap', sampleIndex: status.nextSampleIndex, lostSamples, cause });
+  }
+
+  function onSamples(decoded: SampleBlock): void {
+    establishRate(decoded.sampleRateHz);
+    if (linkGapPending) {
+      // The outage lost bytes but the counter shows no jump (or text has none): at least one sample is gone.
+      linkGapPending = false;
+      gap(1, 'link');
+    }
+    if (decoded.channelCount !== channels) {
+      flush();
+      channels = decoded.channelCount;
+      status.channelCount = channels;
+    }
+    const values = decoded.samplesPerFrame * channels;
+    if (length + values > buffer.length) {
+      let capacity = buffer.length;
+      while (capacity < length + values) capacity *= 2;
+      const grown = new Int16Array(capacity);
+      grown.set(buffer.subarray(0, length));
+      buffer = grown;
+    }
+    buffer.set(decoded.samples.subarray(0, values), length);
+    length += values;
+  }
+
+  function onSequenceGap(decoded: InputGap): void {
+    const cause = linkGapPending ? 'link' : 'sequence';
+    linkGapPending = false;
+    gap(decoded.lostSamples, cause);
+  }
+
+  function applyLink(event: LinkEvent): void {
+    if (event.state === 'down') {
+      if (status.link === 'up') status.linkDowns++;
+      status.link = 'down';
+      // A half-received frame is dropped (it shows up as a sequence gap); a half-received line is spoiled.
+      if (wire !== null) wire.flushPartial();
+      else text!.push(SPOIL_LINE);
+    } else {
+      if (event.gap) {
+        status.linkReturns++;
+        linkGapPending = true;
+      }
+      status.link = 'up';
+    }
+  }
+
+  return {
+    status,
+    push(event) {
+      if (event instanceof Uint8Array) {
+        if (wire !== null) wire.push(event);
+        else text!.push(event);
+        flush();
+        return;
+      }
+      applyLink(event);
+      onLink?.(event);
+    },
+    reset() {
+      wire?.reset();
+      text?.reset();
+      length = 0;
+      channels = 0;
+      pendingGap = 0;
+      linkGapPending = false;
+      Object.assign(status, {
+        link: 'waiting',
+        linkDowns: 0,
+        linkReturns: 0,
+        rateHz: Number.NaN,
+        rateSource: null,
+        channelCount: 0,
+        samplesDelivered: 0,
+        nextSampleIndex: 0,
+        gaps: 0,
+        lostSamples: 0,
+      });
+    },
+  };
+}
