@@ -22,7 +22,7 @@ async function run(clients: number, seconds: number): Promise<BenchResult> {
   const { x, y } = benchSignal(1 << 20);
   const source = new Subject<AxisBlock>();
   const axes = createAxes(source, { axes: [{ name: 'X', rateHz: 10e6, wavelengthM: 632.9908e-9, fold: 2, calibration: ellipse }] });
-  const server = await startFeedServer({ axes, maxUpdateHz: 1000, defaultUpdateHz: 1000, maxClients: clients });
+  const server = await startFeedServer({ source: { axes, rateHz: 10e6 }, maxUpdateHz: 1000, defaultUpdateHz: 1000, maxClients: clients, maxClientsPerAddress: clients });
   const blockCount = Math.ceil((seconds * 1000) / BLOCK_INTERVAL_MS);
   const pushedAtMs = new Float64Array(blockCount + 1);
   const latenciesMs: number[] = [];

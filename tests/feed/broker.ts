@@ -59,6 +59,8 @@ export interface BrokerOptions {
   readonly users?: Record<string, string>;
   /** Listen with TLS only (mqtts://), on a certificate of a CA made for this broker. */
   readonly tls?: boolean;
+  /** Listen on this port (to restart a broker where clients expect it). Default: a free one. */
+  readonly port?: number;
 }
 
 export async function startBroker(options: BrokerOptions = {}): Promise<Broker> {
@@ -69,7 +71,7 @@ export async function startBroker(options: BrokerOptions = {}): Promise<Broker> 
   const dir = mkdtempSync(join(tmpdir(), 'fringetally-mosquitto-'));
   // Started as root, mosquitto drops to its own user, which must be able to read the test's files.
   chmodSync(dir, 0o755);
-  const port = await freePort();
+  const port = options.port ?? (await freePort());
   const lines = [`listener ${port} 127.0.0.1`, 'persistence false', 'log_dest stderr', 'log_type error'];
   const certificates = tls ? makeCertificates(dir) : null;
   if (certificates !== null) {

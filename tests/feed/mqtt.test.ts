@@ -5,7 +5,7 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import mqtt, { type MqttClient } from 'mqtt';
 import { createAxes } from '../../src/stream/index.js';
-import { startMqttPublisher, type MqttAxisMessage, type MqttPublisher } from '../../src/io/feed/index.js';
+import { createMqttPublisher, startMqttPublisher, type MqttAxisMessage, type MqttPublisher, type MqttPublisherEvent } from '../../src/io/feed/index.js';
 import { axisOptions, METRES_PER_FRINGE } from '../stream/signal.js';
 import { startBroker, type Broker } from './broker.js';
 import { createMotion } from './support.js';
@@ -55,10 +55,10 @@ describe('MQTT publisher', () => {
     broker = await startBroker();
     const motion = createMotion();
     const axes = createAxes(motion.source, { axes: [{ ...axisOptions, name: 'X' }] });
-    publisher = await startMqttPublisher({ axes, url: broker.url, topicPrefix: 'lab/bench1', updateHz: 50 });
+    publisher = await startMqttPublisher({ source: { axes, rateHz: axisOptions.rateHz }, url: broker.url, topicPrefix: 'lab/bench1', updateHz: 50 });
     expect(publisher.axisTopics).toEqual(['lab/bench1/axis/X']);
     const status = await subscriber(broker.url, publisher.statusTopic);
-    expect(await status.next((m) => m.type === 'status', 'status')).toEqual({ type: 'status', schema: 1, state: 'online', axes: ['X'] });
+    expect(await status.next((m) => m.type === 'status', 'status')).toMatchObject({ type: 'status', schema: 1, state: 'online', measurement: 'live', axes: ['X'], rateHz: 1e6 });
 
     const first = await subscriber(broker.url, 'lab/bench1/axis/X');
     motion.move(2, 1000);
@@ -94,7 +94,7 @@ describe('MQTT publisher', () => {
       frames.next({ samples, channelCount: 4, samplesPerFrame: block.length });
     });
     const axes = createAxes(frames, { axes: [{ ...axisOptions, name: 'X' }, { ...axisOptions, name: 'Y' }] });
-    publisher = await startMqttPublisher({ axes, url: broker.url, updateHz: 50 });
+    publisher = await startMqttPublisher({ source: { axes, rateHz: axisOptions.rateHz }, url: broker.url, updateHz: 50 });
     const all = await subscriber(broker.url, 'fringetally/axis/+');
     motion.move(1, 1000);
     const x = await all.next<MqttAxisMessage>((m) => reached(999)(m) && m.name === 'X', 'axis X');
@@ -107,10 +107,10 @@ describe('MQTT publisher', () => {
   it('logs in with username and password; a wrong password is refused with a clear error', async () => {
     broker = await startBroker({ users: { stage: 'correct horse battery' } });
     const axes = createAxes(createMotion().source, { axes: [axisOptions] });
-    await expect(startMqttPublisher({ axes, url: broker.url, username: 'stage', password: 'wrong' })).rejects.toThrow(
+    await expect(startMqttPublisher({ source: { axes, rateHz: axisOptions.rateHz }, url: broker.url, username: 'stage', password: 'wrong' })).rejects.toThrow(
       new RegExp(`^MQTT broker at ${broker.url.replace(/[.]/g, '\\.')} refused or failed the connection: .*(Not authorized|Bad User Name or Password)`),
     );
-    publisher = await startMqttPublisher({ axes, url: broker.url, username: 'stage', password: 'correct horse battery' });
+    publisher = await startMqttPublisher({ source: { axes, rateHz: axisOptions.rateHz }, url: broker.url, username: 'stage', password: 'correct horse battery' });
     const status = await subscriber(broker.url, publisher.statusTopic, { username: 'stage', password: 'correct horse battery' });
     expect(await status.next((m) => m.type === 'status', 'status')).toMatchObject({ state: 'online' });
   });
@@ -121,20 +121,88 @@ describe('MQTT publisher', () => {
     const motion = createMotion();
     const axes = createAxes(motion.source, { axes: [{ ...axisOptions, name: 'X' }] });
     // The system's CAs do not know this broker's: the certificate check must fail, not pass silently.
-    await expect(startMqttPublisher({ axes, url: broker.url, connectTimeoutMs: 5000 })).rejects.toThrow(
+    await expect(startMqttPublisher({ source: { axes, rateHz: axisOptions.rateHz }, url: broker.url, connectTimeoutMs: 5000 })).rejects.toThrow(
       new RegExp(`^MQTT broker at ${broker.url.replace(/[.]/g, '\\.')} refused or failed the connection: .*(self[- ]signed|unable to verify|issuer)`, 'i'),
     );
-    publisher = await startMqttPublisher({ axes, url: broker.url, topicPrefix: 'lab/tls', updateHz: 50, tls: { ca: broker.ca! } });
+    publisher = await startMqttPublisher({ source: { axes, rateHz: axisOptions.rateHz }, url: broker.url, topicPrefix: 'lab/tls', updateHz: 50, tls: { ca: broker.ca! } });
     const updates = await subscriber(broker.url, publisher.axisTopics[0]!, { ca: broker.ca! });
     motion.move(3, 1000);
     const update = await updates.next<MqttAxisMessage>(reached(999), 'update at sample 999 over TLS');
     expect(update.positionM! / METRES_PER_FRINGE).toBeCloseTo(motion.fringes, 9);
   });
 
+  it('never stops the measurement for a broker that is down or goes away: retries with backoff, reports each outage once', async () => {
+    const first = await startBroker();
+    const port = first.port;
+    await first.stop(); // the broker is down from the start
+    const events: MqttPublisherEvent[] = [];
+    const motion = createMotion();
+    publisher = createMqttPublisher({
+      url: `mqtt://127.0.0.1:${port}`,
+      updateHz: 50,
+      reconnectPeriodMs: 100,
+      maxReconnectPeriodMs: 400,
+      reportIntervalMs: 86_400_000,
+      onEvent: (event) => events.push(event),
+    });
+    const running = publisher;
+    const until = async (condition: () => boolean, what: string) => {
+      for (let wait = 0; wait < 3000 && !condition(); wait++) await new Promise((resolve) => setTimeout(resolve, 10));
+      if (!condition()) throw new Error(`never happened: ${what}`);
+    };
+    await until(() => running.health.failedAttempts >= 4, 'four failed attempts');
+    // The measurement starts while the broker is still down, and runs on.
+    running.attach({ axes: createAxes(motion.source, { axes: [{ ...axisOptions, name: 'X' }] }), rateHz: axisOptions.rateHz });
+    motion.move(2, 1000);
+    expect(events.filter((event) => event.kind !== 'down')).toEqual([]);
+    expect(events).toHaveLength(1);
+    expect(events[0]).toMatchObject({ kind: 'down', message: expect.stringMatching(/ECONNREFUSED/), retryInMs: 100 });
+
+    broker = await startBroker({ port });
+    await until(() => running.health.connected, 'connected once the broker is up');
+    const updates = await subscriber(broker.url, 'fringetally/axis/X');
+    motion.move(1, 1000);
+    const update = await updates.next<MqttAxisMessage>(reached(1999), 'update after the broker came up');
+    expect(update.positionM! / METRES_PER_FRINGE).toBeCloseTo(motion.fringes, 9);
+    expect(update).toMatchObject({ rateHz: 1e6, sampleTimeS: update.sampleIndex / 1e6 });
+    const attempts = running.health.failedAttempts;
+    expect(events.at(-1)).toMatchObject({ kind: 'connected', first: true, attempts });
+
+    // The broker goes away mid-run and comes back: one more outage, and the measurement never noticed.
+    await updates.client.endAsync(true);
+    subscribers.length = 0;
+    await broker.stop();
+    await until(() => !running.health.connected && running.health.outages === 2, 'the second outage noticed');
+    motion.move(-0.5, 1000);
+    broker = await startBroker({ port });
+    await until(() => running.health.connected, 'reconnected');
+    const again = await subscriber(broker.url, 'fringetally/axis/X');
+    motion.move(0, 1000);
+    expect((await again.next<MqttAxisMessage>(reached(3999), 'update after the reconnection')).positionM! / METRES_PER_FRINGE).toBeCloseTo(motion.fringes, 9);
+    const health = running.health;
+    console.info(`MQTT outages: ${health.outages}, ${health.failedAttempts} failed attempts, ${(health.outageMs / 1000).toFixed(2)} s offline, ${events.length} events reported`);
+    expect(health).toMatchObject({ connected: true, connections: 2, outages: 2, lastError: expect.stringMatching(/ECONNREFUSED|closed/) });
+    expect(health.outageMs).toBeGreaterThan(0);
+    expect(events.map((event) => event.kind)).toEqual(['down', 'connected', 'down', 'connected']);
+  });
+
+  it('publishes status waiting before its source is attached, then live and ended', async () => {
+    broker = await startBroker();
+    const status = await subscriber(broker.url, 'fringetally/status');
+    publisher = createMqttPublisher({ url: broker.url });
+    expect(await status.next((m) => m.type === 'status', 'status')).toMatchObject({ state: 'online', measurement: 'waiting', axes: [], rateHz: null });
+    const motion = createMotion();
+    publisher.attach({ axes: createAxes(motion.source, { axes: [{ ...axisOptions, name: 'X' }] }), rateHz: axisOptions.rateHz });
+    expect(await status.next((m) => m.measurement === 'live', 'live')).toMatchObject({ state: 'online', axes: ['X'], rateHz: 1e6 });
+    motion.move(1, 1000);
+    motion.source.complete();
+    expect(await status.next((m) => m.measurement === 'ended', 'ended')).toMatchObject({ state: 'online' });
+  });
+
   it('rejects invalid options naming the option and rule', async () => {
     const axes = createAxes(createMotion().source, { axes: [axisOptions] });
-    await expect(startMqttPublisher({ axes, topicPrefix: 'lab/#' })).rejects.toThrow('topicPrefix must be MQTT topic levels without +, # or empty levels (got "lab/#")');
-    await expect(startMqttPublisher({ axes, username: 'stage' })).rejects.toThrow('password must be given together with username (got undefined)');
-    await expect(startMqttPublisher({ axes, url: 'http://broker' })).rejects.toThrow('url must be an mqtt:// or mqtts:// URL (got "http://broker")');
+    await expect(startMqttPublisher({ source: { axes, rateHz: axisOptions.rateHz }, topicPrefix: 'lab/#' })).rejects.toThrow('topicPrefix must be MQTT topic levels without +, # or empty levels (got "lab/#")');
+    await expect(startMqttPublisher({ source: { axes, rateHz: axisOptions.rateHz }, username: 'stage' })).rejects.toThrow('password must be given together with username (got undefined)');
+    await expect(startMqttPublisher({ source: { axes, rateHz: axisOptions.rateHz }, url: 'http://broker' })).rejects.toThrow('url must be an mqtt:// or mqtts:// URL (got "http://broker")');
   });
 });

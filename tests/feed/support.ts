@@ -44,9 +44,10 @@ export interface TestClient {
   closed: Promise<{ code: number; reason: string }>;
 }
 
-export function openClient(url: string, headers: Record<string, string> = {}): Promise<TestClient> {
+/** `autoPong: false` makes a client that never answers pings, as a dead peer would not. */
+export function openClient(url: string, headers: Record<string, string> = {}, options: { autoPong?: boolean } = {}): Promise<TestClient> {
   return new Promise((resolve, reject) => {
-    const socket = new WebSocket(url, { headers });
+    const socket = new WebSocket(url, { headers, ...options });
     const queue: Record<string, unknown>[] = [];
     let waiter: (() => void) | null = null;
     const closed = new Promise<{ code: number; reason: string }>((done) =>

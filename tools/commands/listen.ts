@@ -13,7 +13,7 @@ import { startLiveSession, type LiveNotice, type LiveSink, type LiveStatus, type
 import { createStatusLine, formatStatus } from '../live/status-line.js';
 import { lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
 import { budgetOf, environmentOf, environmentOptionHelp, environmentOptionSpecs, withConfig } from '../environment-options.js';
-import { createLiveFeed, feedOptionHelp, feedOptionSpecs, feedSettingsOf, type LiveFeed } from '../live/live-feed.js';
+import { feedOptionHelp, feedOptionSpecs, feedSettingsOf, openLiveFeed, type LiveFeed } from '../live/live-feed.js';
 
 const DEFAULT_FIT_SAMPLES = 16384;
 /** Gap lines printed; later gaps are only counted (the summary keeps them all, up to its own limit). */
@@ -97,7 +97,9 @@ function describeCalibration(calibration: EllipseCalibration): string {
 
 async function run(argv: readonly string[]): Promise<number> {
   const parsed = parseCommandLine(argv, optionSpecs, false);
-  const values = withConfig(parsed.values) as typeof parsed.values;
+  // The repeatable feed options stay out of the config merge, which takes single values.
+  const { 'allow-origin': allowOrigins, proxy: proxies, ...single } = parsed.values;
+  const values = withConfig(single) as typeof single;
   const port = values.port;
   if (port === undefined) throw new UsageError('--port is required');
   const out = values.out;
@@ -138,7 +140,7 @@ async function run(argv: readonly string[]): Promise<number> {
     ...(lengthScale.unwrap === undefined ? {} : { unwrap: lengthScale.unwrap }),
   };
   const notes = [...lengthScale.notes, ...environment.notes];
-  const feedSettings = feedSettingsOf(values);
+  const feedSettings = feedSettingsOf({ ...values, 'allow-origin': allowOrigins, proxy: proxies });
   const calibration = values.calibration === undefined ? null : await readCalibrationFile(values.calibration);
   const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetryDelayMs: Math.max(5000, retryDelayMs) });
 
@@ -148,8 +150,25 @@ async function run(argv: readonly string[]): Promise<number> {
   statusLine.log(`listening on ${source.name}${calibration === null ? `; fitting the correction to the first ${fitSamples} samples (rows held back until then)` : ''}`);
 
   const writer: ResultWriter = await createResultWriter(out, { format: formatText as ResultFormat, every });
-  let feed: LiveFeed | null = null;
   let feedError: Error | null = null;
+  // The feed listens and the MQTT publisher connects from launch; both start serving with the first samples.
+  let feed: LiveFeed | null = null;
+  if (feedSettings !== null) {
+    try {
+      feed = await openLiveFeed(
+        feedSettings,
+        (error) => {
+          feedError = error;
+          statusLine.log(`the network feed failed and sends nothing more (${error.message}); the rows go on`);
+        },
+        (line) => statusLine.log(line),
+      );
+    } catch (error) {
+      await writer.abort();
+      throw error;
+    }
+    for (const line of feed.describe()) statusLine.log(line);
+  }
   let fittedCalibration: EllipseCalibration | null = calibration;
   let recorder: CaptureWriter | null = null;
   let gapLines = 0;
@@ -172,14 +191,8 @@ async function run(argv: readonly string[]): Promise<number> {
       return recorder?.write(x, y, length);
     },
     async block(block) {
-      if (feedSettings !== null) {
-        if (feed === null) {
-          feed = await createLiveFeed(feedSettings, { rateHz: block.rateHz, settings: scale, calibration: fittedCalibration }, (error) => {
-            feedError = error;
-            statusLine.log(`the network feed failed and sends nothing more (${error.message}); the rows go on`);
-          });
-          for (const line of feed.describe()) statusLine.log(line);
-        }
+      if (feed !== null) {
+        if (!feed.started) feed.start({ rateHz: block.rateHz, settings: scale, calibration: fittedCalibration });
         feed.push(block);
       }
       await writer.write(block);
@@ -241,7 +254,8 @@ async function run(argv: readonly string[]): Promise<number> {
     statusLine.stop();
   }
   const final = summary.status;
-  if (values.summary !== undefined) await writeFile(values.summary, JSON.stringify(summaryRecord(summary, writer, out, record), null, 2) + '\n');
+  const mqttHealth = (feed as LiveFeed | null)?.mqttHealth ?? null;
+  if (values.summary !== undefined) await writeFile(values.summary, JSON.stringify({ ...summaryRecord(summary, writer, out, record), mqtt: mqttHealth }, null, 2) + '\n');
   if (!quiet) {
     const raised = alarmKinds.filter((kind) => final.alarmsRaised[kind] > 0).map((kind) => `${alarmNames[kind]} ×${final.alarmsRaised[kind]}`);
     const counters = final.wire === null
@@ -257,6 +271,7 @@ async function run(argv: readonly string[]): Promise<number> {
           : ['no samples received']),
         `${counters}; gaps ${final.gaps} (${final.lostSamples} samples lost); link outages ${final.linkDowns}`,
         `alarms raised: ${raised.length === 0 ? 'none' : raised.join(', ')}`,
+        ...(mqttHealth === null ? [] : [`MQTT: ${mqttHealth.published} messages published; ${mqttHealth.outages} outage(s), ${(mqttHealth.outageMs / 1000).toFixed(1)} s offline${mqttHealth.connections === 0 ? ', never connected' : ''}`]),
       ].join('\n') + '\n',
     );
   }

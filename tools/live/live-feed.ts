@@ -1,9 +1,18 @@
 // The network side of `fringetally listen`: the WebSocket feed with its live page (--serve) and the MQTT publisher
 // (--mqtt), both fed with the raw samples of every processed block through the stream API's shared axis builder.
 import { readFileSync } from 'node:fs';
-import { Subject } from 'rxjs';
+import { Subject, type Subscription } from 'rxjs';
 import type { EllipseCalibration } from '../../src/core/index.js';
-import { startFeedServer, startMqttPublisher, type FeedServer, type MqttPublisher, type MqttPublisherOptions } from '../../src/io/feed/index.js';
+import {
+  createMqttPublisher,
+  isLoopbackHost,
+  startFeedServer,
+  type FeedServer,
+  type MqttPublisher,
+  type MqttPublisherEvent,
+  type MqttPublisherHealth,
+  type MqttPublisherOptions,
+} from '../../src/io/feed/index.js';
 import { createAxes, type AxisBlock } from '../../src/stream/index.js';
 import type { MeasureSettings } from '../capture-run.js';
 import { numberOption, UsageError } from '../cli-kit.js';
@@ -12,6 +21,8 @@ import type { LiveBlock } from './live-session.js';
 export const feedOptionSpecs = {
   serve: { type: 'string' },
   token: { type: 'string' },
+  'allow-origin': { type: 'string', multiple: true },
+  proxy: { type: 'string', multiple: true },
   mqtt: { type: 'string' },
   'mqtt-topic': { type: 'string' },
   'mqtt-username': { type: 'string' },
@@ -24,11 +35,17 @@ export const feedOptionSpecs = {
 
 /** Read when --mqtt-username is given without --mqtt-password, so the password stays out of the process list. */
 export const MQTT_PASSWORD_VARIABLE = 'FRINGETALLY_MQTT_PASSWORD';
+/** Read when --serve is given without --token, so the token stays out of the process list. */
+export const FEED_TOKEN_VARIABLE = 'FRINGETALLY_FEED_TOKEN';
 
 export const feedOptionHelp = `Network feed (read-only: nothing a client sends changes the measurement):
   --serve [HOST:]PORT      WebSocket feed and live page (Lissajous figure, level, readouts, alarm log) on
                            HOST (default 127.0.0.1, loopback only); any other host needs --token
-  --token T                shared token clients must present (at least 16 characters)
+  --token T                shared token clients must present (at least 16 characters); without it, the
+                           token is read from $${FEED_TOKEN_VARIABLE} when set. It is never printed.
+  --allow-origin URL       also accept browser pages from this origin (e.g. https://hmi.lab.example); repeatable
+  --proxy ADDRESS          a reverse proxy at ADDRESS passes the public host on and serves the page over
+                           https (see docs/feed.md); needs a token; repeatable
   --mqtt URL               also publish to an MQTT broker, e.g. mqtt://127.0.0.1:1883
   --mqtt-topic PREFIX      topic prefix (default fringetally)
   --mqtt-username U, --mqtt-password P   credentials for brokers that need them; without
@@ -40,16 +57,29 @@ export const feedOptionHelp = `Network feed (read-only: nothing a client sends c
 The feed's zero is the first sample it sees: the first sample with a file calibration, the first after a live fit.`;
 
 export interface FeedSettings {
-  readonly serve: { readonly host: string; readonly port: number; readonly token?: string } | null;
-  readonly mqtt: Omit<MqttPublisherOptions, 'axes'> | null;
+  readonly serve: {
+    readonly host: string;
+    readonly port: number;
+    readonly token?: string;
+    /** Where the token came from, for the log line that stands in for it. */
+    readonly tokenSource: string | null;
+    readonly allowedOrigins: readonly string[];
+    readonly trustedProxies: readonly string[];
+  } | null;
+  readonly mqtt: Omit<MqttPublisherOptions, 'source'> | null;
 }
 
-export function feedSettingsOf(values: Record<string, string | boolean | undefined>): FeedSettings | null {
+export function feedSettingsOf(values: Record<string, string | boolean | string[] | undefined>): FeedSettings | null {
   const serveText = values.serve as string | undefined;
-  const token = values.token as string | undefined;
   const mqttUrl = values.mqtt as string | undefined;
   const text = (name: string) => values[name] as string | undefined;
-  if (token !== undefined && serveText === undefined) throw new UsageError('--token applies to --serve');
+  const list = (name: string) => (values[name] as string[] | undefined) ?? [];
+  const tokenFromEnvironment = text('token') === undefined && serveText !== undefined ? process.env[FEED_TOKEN_VARIABLE] : undefined;
+  const token = text('token') ?? tokenFromEnvironment;
+  if (text('token') !== undefined && serveText === undefined) throw new UsageError('--token applies to --serve');
+  for (const name of ['allow-origin', 'proxy']) {
+    if (list(name).length > 0 && serveText === undefined) throw new UsageError(`--${name} applies to --serve`);
+  }
   if (mqttUrl === undefined) {
     const stray = Object.keys(feedOptionSpecs).find((name) => name.startsWith('mqtt-') && text(name) !== undefined);
     if (stray !== undefined) throw new UsageError(`--${stray} applies to --mqtt`);
@@ -62,7 +92,17 @@ export function feedSettingsOf(values: Record<string, string | boolean | undefin
     const port = match === null ? NaN : Number(match[2]);
     if (match === null || !(port >= 0 && port <= 65535)) throw new UsageError(`--serve expects [HOST:]PORT (got "${serveText}")`);
     const host = match[1] === undefined ? '127.0.0.1' : match[1].replace(/^\[|\]$/g, '');
-    serve = { host, port, ...(token === undefined ? {} : { token }) };
+    const tokenSource = token === undefined ? null : tokenFromEnvironment === undefined ? '--token' : `$${FEED_TOKEN_VARIABLE}`;
+    if (token !== undefined && token.length < 16) throw new UsageError(`the feed token (from ${tokenSource}) must be at least 16 characters (got ${token.length})`);
+    if (token === undefined && !isLoopbackHost(host)) {
+      throw new UsageError(`--serve ${serveText} is reachable from the network: set --token or $${FEED_TOKEN_VARIABLE} (at least 16 characters)`);
+    }
+    if (token === undefined && list('proxy').length > 0) throw new UsageError(`--proxy makes the feed reachable from the network: set --token or $${FEED_TOKEN_VARIABLE}`);
+    const allowedOrigins = list('allow-origin').map((origin) => {
+      if (!/^https?:\/\/[^/\s]+$/.test(origin)) throw new UsageError(`--allow-origin expects an origin such as https://hmi.lab.example, scheme and host only (got "${origin}")`);
+      return origin;
+    });
+    serve = { host, port, tokenSource, allowedOrigins, trustedProxies: list('proxy'), ...(token === undefined ? {} : { token }) };
   }
   if (mqttUrl === undefined) return { serve, mqtt: null };
   const updateHz = numberOption('mqtt-update-hz', text('mqtt-update-hz'));
@@ -99,63 +139,100 @@ export function feedSettingsOf(values: Record<string, string | boolean | undefin
 }
 
 export interface LiveFeed {
+  /** Starts the feed's chain on the first samples: from then on updates flow (state `live`). Once. */
+  start(stream: { readonly rateHz: number; readonly settings: MeasureSettings; readonly calibration: EllipseCalibration | null }): void;
+  readonly started: boolean;
   /** Hands the block's raw samples (and any gap before them) to the feed's axis. */
   push(block: Pick<LiveBlock, 'x' | 'y' | 'length' | 'gapBefore'>): void;
-  /** Lines for the log: where the feed is. */
+  /** Lines for the log: where the feed is (the token never appears, only where it came from). */
   describe(): string[];
+  /** The MQTT publisher's link to its broker, for the summary; null without --mqtt. */
+  readonly mqttHealth: MqttPublisherHealth | null;
   close(): Promise<void>;
 }
 
-export async function createLiveFeed(
+/**
+ * Opens the feed at launch: the WebSocket server listens (state `waiting`) and the MQTT publisher connects in
+ * the background, before any sample arrives. A broker that is down never fails this: its outages go to `log`.
+ */
+export async function openLiveFeed(
   feedSettings: FeedSettings,
-  stream: { readonly rateHz: number; readonly settings: MeasureSettings; readonly calibration: EllipseCalibration | null },
   /** The feed's chain failed: it sends nothing more, while the caller's own rows go on. */
   onError: (error: Error) => void,
+  log: (line: string) => void,
 ): Promise<LiveFeed> {
-  const { settings } = stream;
   const blocks = new Subject<AxisBlock>();
-  const axes = createAxes(blocks, {
-    axes: [
-      {
-        name: 'X',
-        rateHz: stream.rateHz,
-        wavelengthM: settings.wavelengthM,
-        fold: settings.fold,
-        refractiveIndex: settings.refractiveIndex,
-        lengthScale: settings.lengthScale,
-        bandwidthHz: settings.bandwidthHz,
-        unwrap: settings.unwrap,
-        calibration: stream.calibration,
-      },
-    ],
-  });
-  // Holds the chain open so that the feed's reference survives clients coming and going.
-  const keepAlive = axes.connect({ error: (error: unknown) => onError(error instanceof Error ? error : new Error(String(error))) });
-  let server: FeedServer | null = null;
+  const server: FeedServer | null = feedSettings.serve === null ? null : await startFeedServer(feedSettings.serve);
   let publisher: MqttPublisher | null = null;
-  try {
-    if (feedSettings.serve !== null) server = await startFeedServer({ axes, ...feedSettings.serve });
-    if (feedSettings.mqtt !== null) publisher = await startMqttPublisher({ axes, ...feedSettings.mqtt });
-  } catch (error) {
-    keepAlive.unsubscribe();
-    await server?.close();
-    throw error;
+  if (feedSettings.mqtt !== null) {
+    const url = feedSettings.mqtt.url ?? 'mqtt://127.0.0.1:1883';
+    publisher = createMqttPublisher({ ...feedSettings.mqtt, onEvent: (event) => log(mqttEventLine(url, event)) });
   }
+  let keepAlive: Subscription | null = null;
   return {
+    get started() {
+      return keepAlive !== null;
+    },
+    start(stream) {
+      const { settings } = stream;
+      const axes = createAxes(blocks, {
+        axes: [
+          {
+            name: 'X',
+            rateHz: stream.rateHz,
+            wavelengthM: settings.wavelengthM,
+            fold: settings.fold,
+            refractiveIndex: settings.refractiveIndex,
+            lengthScale: settings.lengthScale,
+            bandwidthHz: settings.bandwidthHz,
+            unwrap: settings.unwrap,
+            calibration: stream.calibration,
+          },
+        ],
+      });
+      // Holds the chain open so that the feed's reference survives clients coming and going.
+      keepAlive = axes.connect({ error: (error: unknown) => onError(error instanceof Error ? error : new Error(String(error))) });
+      const source = { axes, rateHz: stream.rateHz };
+      server?.attach(source);
+      publisher?.attach(source);
+    },
     push(block) {
       blocks.next({ x: block.x, y: block.y, length: block.length, gapBefore: block.gapBefore });
     },
     describe() {
+      const serve = feedSettings.serve;
       return [
-        ...(server === null ? [] : [`live page at ${server.pageUrl} (feed ${server.feedUrl}); read-only`]),
-        ...(publisher === null ? [] : [`publishing to MQTT topics ${publisher.axisTopics.join(', ')}`]),
+        ...(server === null || serve === null
+          ? []
+          : [
+              `live page at ${server.pageUrlForDisplay} (feed ${server.feedUrlForDisplay}` +
+                `${serve.tokenSource === null ? '' : `; <token> is the one from ${serve.tokenSource}`}); read-only, waiting for samples`,
+            ]),
+        ...(publisher === null
+          ? []
+          : [`publishing to MQTT topics ${feedSettings.mqtt!.topicPrefix ?? 'fringetally'}/axis/X, ${publisher.statusTopic} at ${feedSettings.mqtt!.url ?? 'mqtt://127.0.0.1:1883'}`]),
       ];
+    },
+    get mqttHealth() {
+      return publisher?.health ?? null;
     },
     async close() {
       blocks.complete();
-      keepAlive.unsubscribe();
+      keepAlive?.unsubscribe();
       await server?.close();
       await publisher?.close();
     },
   };
+}
+
+/** One log line per MQTT event; the publisher already limits how often they come. */
+function mqttEventLine(url: string, event: MqttPublisherEvent): string {
+  switch (event.kind) {
+    case 'down':
+      return `MQTT broker at ${url} unreachable (${event.message}); retrying with backoff, the measurement goes on`;
+    case 'still-down':
+      return `MQTT broker at ${url} still unreachable after ${(event.outageMs / 1000).toFixed(0)} s and ${event.attempts} attempts (${event.message})`;
+    case 'connected':
+      return event.first && event.attempts === 0 ? `MQTT broker at ${url} connected` : `MQTT broker at ${url} connected after ${(event.outageMs / 1000).toFixed(1)} s offline`;
+  }
 }

@@ -1,4 +1,4 @@
-// Who may reach the feed: loopback by default, a shared token beyond it, same-origin browsers only.
+// Who may reach the feed: loopback by default, a shared token beyond it or behind a proxy, same-origin browsers only.
 
 import { createHash, timingSafeEqual } from 'node:crypto';
 import { isIP } from 'node:net';
@@ -24,4 +24,11 @@ export function hostOfHeader(header: string): string {
   if (value.startsWith('[')) return value.slice(0, value.indexOf(']') + 1);
   const colon = value.lastIndexOf(':');
   return colon === -1 ? value : value.slice(0, colon);
+}
+
+/** A peer address as compared with declared ones: IPv4-mapped IPv6 (`::ffff:127.0.0.1`) as plain IPv4, lower case. */
+export function normaliseAddress(address: string): string {
+  const lower = address.trim().toLowerCase();
+  const mapped = /^::ffff:(\d+\.\d+\.\d+\.\d+)$/.exec(lower);
+  return mapped === null ? lower : mapped[1]!;
 }

@@ -5,12 +5,30 @@ import type { AxesUpdate, AxisUpdate, Trace } from '../../stream/index.js';
 
 export const FEED_SCHEMA = 1;
 
-/** An alarm state change as sent: `kind` is the text name (`low_signal`...), `value` null when it has none. */
+/**
+ * The unit of an alarm event's `value`: `level` (normalised signal level, 1 on the calibrated ellipse),
+ * `input units` (a raw sample as the source gave it, ADC counts for int16 frames), `rad/sample` (phase step
+ * between two samples), `rad` (phase travel while the signal was held), `samples` (lost in transport).
+ */
+export type FeedValueUnit = 'level' | 'input units' | 'rad/sample' | 'rad' | 'samples';
+
+/** An alarm state change as sent: `kind` is the text name (`low_signal`...), `value` and `unit` null when it has none. */
 export interface FeedAlarmEvent {
   readonly sampleIndex: number;
   readonly kind: string;
   readonly state: 'raised' | 'cleared';
   readonly value: number | null;
+  readonly unit: FeedValueUnit | null;
+}
+
+/** The time base of a message: sample rate, the sample time of its latest sample, and when it was made. */
+export interface FeedTimeBase {
+  /** Sample rate, Hz; null before the measurement has started. */
+  readonly rateHz: number | null;
+  /** `sampleIndex / rateHz`, s: the sample time of the latest sample, counted from the first (lost ones included); null before any. */
+  readonly sampleTimeS: number | null;
+  /** Wall-clock time the message was made, ISO 8601 UTC with milliseconds (`2026-12-02T13:07:02.123Z`). */
+  readonly time: string;
 }
 
 /** One axis in an update. Numbers are SI (m, m/s); a value with no data yet is null. */
@@ -35,7 +53,7 @@ export interface FeedAxisState {
   readonly trace?: Trace;
 }
 
-export interface FeedUpdateMessage {
+export interface FeedUpdateMessage extends FeedTimeBase {
   readonly type: 'update';
   readonly schema: typeof FEED_SCHEMA;
   /** Per connection (WebSocket) or per publisher (MQTT), from 1, +1 per message sent. */
@@ -45,13 +63,33 @@ export interface FeedUpdateMessage {
   readonly axes: readonly FeedAxisState[];
 }
 
+/**
+ * Where the measurement is: `waiting` for its first samples (the feed listens from launch), `live`, `ended`
+ * (the source completed normally) or `failed` (the source failed).
+ */
+export type FeedState = 'waiting' | 'live' | 'ended' | 'failed';
+
+export interface FeedStatusMessage extends FeedTimeBase {
+  readonly type: 'status';
+  readonly schema: typeof FEED_SCHEMA;
+  readonly state: FeedState;
+  /** Axis names; empty while waiting. */
+  readonly axes: readonly string[];
+}
+
 export interface FeedHelloMessage {
   readonly type: 'hello';
   readonly schema: typeof FEED_SCHEMA;
   readonly readOnly: true;
+  readonly state: FeedState;
   readonly axes: readonly string[];
   readonly updateHz: { readonly default: number; readonly max: number };
   readonly maxMessageBytes: number;
+  /** Client messages allowed per second on average, and in one burst; beyond them the connection is closed (1008). */
+  readonly maxMessagesPerS: number;
+  readonly messageBurst: number;
+  /** A connection that has not subscribed this long after opening is closed (1008), ms. */
+  readonly subscribeTimeoutMs: number;
 }
 
 export type FeedErrorCode = 'malformed-json' | 'bad-message' | 'read-only' | 'source-error';
@@ -80,11 +118,50 @@ function names(flags: number): string[] {
   return text === '' ? [] : text.split(' ');
 }
 
-function feedEvent(event: AlarmEvent): FeedAlarmEvent {
-  return { sampleIndex: event.sampleIndex, kind: alarmNames[event.kind], state: event.state, value: finiteOrNull(event.value) };
+/**
+ * The unit of an event's value, from its kind (see `FeedValueUnit`). `count_lost` raised by an input gap
+ * carries the lost samples; the tracker raises it at the same sample as `input_gap`, in the same update.
+ */
+function unitOf(event: AlarmEvent, gapAt: ReadonlySet<number>): FeedValueUnit | null {
+  if (!Number.isFinite(event.value)) return null;
+  switch (event.kind) {
+    case 'lowSignal':
+      return 'level';
+    case 'saturation':
+      return 'input units';
+    case 'overspeed':
+      return 'rad/sample';
+    case 'inputGap':
+      return 'samples';
+    case 'countLost':
+      return gapAt.has(event.sampleIndex) ? 'samples' : 'rad';
+    case 'badSample':
+      return null;
+  }
 }
 
-export function feedAxisState(axis: AxisUpdate): FeedAxisState {
+export function feedEvents(events: readonly AlarmEvent[]): FeedAlarmEvent[] {
+  const gapAt = new Set(events.filter((event) => event.kind === 'inputGap' && event.state === 'raised').map((event) => event.sampleIndex));
+  return events.map((event) => ({
+    sampleIndex: event.sampleIndex,
+    kind: alarmNames[event.kind],
+    state: event.state,
+    value: finiteOrNull(event.value),
+    unit: unitOf(event, gapAt),
+  }));
+}
+
+/** The time base at `sampleIndex` (−1 before any sample), made now. */
+export function feedTimeBase(rateHz: number | null, sampleIndex: number): FeedTimeBase {
+  return {
+    rateHz,
+    sampleTimeS: rateHz === null || sampleIndex < 0 ? null : sampleIndex / rateHz,
+    time: new Date().toISOString(),
+  };
+}
+
+/** One axis as sent; `withTrace` false leaves out a trace the update carries. */
+export function feedAxisState(axis: AxisUpdate, withTrace = true): FeedAxisState {
   return {
     name: axis.name,
     sampleIndex: axis.sampleIndex,
@@ -100,9 +177,9 @@ export function feedAxisState(axis: AxisUpdate): FeedAxisState {
     alarms: names(axis.flags),
     alarmsSeen: names(axis.flagsSeen),
     countLost: axis.countLost,
-    events: axis.events.map(feedEvent),
+    events: feedEvents(axis.events),
     eventsDropped: axis.eventsDropped,
-    ...(axis.trace ? { trace: roundTrace(axis.trace) } : {}),
+    ...(axis.trace && withTrace ? { trace: roundTrace(axis.trace) } : {}),
   };
 }
 
@@ -112,8 +189,16 @@ function roundTrace(trace: Trace): Trace {
   return { x: r(trace.x), y: r(trace.y), u: r(trace.u), v: r(trace.v) };
 }
 
-export function feedUpdateMessage(update: AxesUpdate, seq: number): FeedUpdateMessage {
-  return { type: 'update', schema: FEED_SCHEMA, seq, sampleIndex: update.axes[0]!.sampleIndex, axes: update.axes.map(feedAxisState) };
+export function feedUpdateMessage(update: AxesUpdate, seq: number, rateHz: number, withTrace: boolean): FeedUpdateMessage {
+  const sampleIndex = update.axes[0]!.sampleIndex;
+  return {
+    type: 'update',
+    schema: FEED_SCHEMA,
+    seq,
+    sampleIndex,
+    ...feedTimeBase(rateHz, sampleIndex),
+    axes: update.axes.map((axis) => feedAxisState(axis, withTrace)),
+  };
 }
 
 export type ParsedClientMessage = { readonly ok: true; readonly message: FeedSubscribeMessage } | { readonly ok: false; readonly error: FeedErrorMessage };

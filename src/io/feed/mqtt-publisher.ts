@@ -1,12 +1,15 @@
 // MQTT publisher for sites that already run a broker: one retained JSON message per axis per update, an
 // online/offline status with a last will. It never subscribes, so nothing from the broker reaches the measurement.
+// A broker that is down or goes away never stops the measurement: the publisher connects in the background,
+// retries with a doubling wait, reports each outage once (then at most once per interval) and keeps its figures.
 
 import { randomBytes } from 'node:crypto';
+import { performance } from 'node:perf_hooks';
 import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
 import type { Subscription } from 'rxjs';
 import { integerInRange, OptionError, positiveFinite } from '../../core/index.js';
-import type { Axes } from '../../stream/index.js';
-import { FEED_SCHEMA, feedAxisState, type FeedAxisState } from './messages.js';
+import type { FeedSource } from './feed-server.js';
+import { FEED_SCHEMA, feedAxisState, feedTimeBase, type FeedAxisState, type FeedState, type FeedTimeBase } from './messages.js';
 
 export interface MqttTlsOptions {
   /** CA certificate(s), PEM, for a broker with a private CA. Default: the system's CAs. */
@@ -18,8 +21,17 @@ export interface MqttTlsOptions {
   readonly rejectUnauthorized?: boolean;
 }
 
+/** What the publisher tells its owner: the broker came (back), went away, or is still away. */
+export type MqttPublisherEvent =
+  | { readonly kind: 'connected'; readonly first: boolean; readonly outageMs: number; readonly attempts: number }
+  /** The first failure of an outage: the first connection failed, or a connection was lost. */
+  | { readonly kind: 'down'; readonly message: string; readonly retryInMs: number }
+  /** The outage goes on: at most one per `reportIntervalMs`, with the failed attempts since it began. */
+  | { readonly kind: 'still-down'; readonly message: string; readonly attempts: number; readonly outageMs: number; readonly retryInMs: number };
+
 export interface MqttPublisherOptions {
-  readonly axes: Axes;
+  /** What to publish. Absent: the publisher connects at once, publishes status `waiting` and publishes updates from `attach(source)`. */
+  readonly source?: FeedSource;
   /** Broker URL: `mqtt://host:port` or `mqtts://host:port` (TLS). Default `mqtt://127.0.0.1:1883`. */
   readonly url?: string;
   /** Topic prefix without wildcards or leading/trailing `/`. Default `fringetally`. */
@@ -35,36 +47,73 @@ export interface MqttPublisherOptions {
   readonly tls?: MqttTlsOptions;
   /** Default `fringetally-` and 8 random hex digits. */
   readonly clientId?: string;
-  /** Wait before reconnecting after the broker goes away, ms. Default 1000. */
+  /** Wait before the first retry after a failed or lost connection, ms; it doubles per failed attempt. Default 1000; 100..600000. */
   readonly reconnectPeriodMs?: number;
-  /** Give up the first connection after this long, ms. Default 10000. */
+  /** Longest wait between retries, ms. Default 30000; at least `reconnectPeriodMs`, up to 3600000. */
+  readonly maxReconnectPeriodMs?: number;
+  /** One connection attempt gives up after this long, ms. Default 10000; 100..600000. */
   readonly connectTimeoutMs?: number;
-  /** Errors after the first connection (the client reconnects by itself); default: a process warning. */
-  readonly onError?: (error: Error) => void;
+  /** During an outage, `still-down` is reported at most once per this many ms. Default 60000; 1..86400000. */
+  readonly reportIntervalMs?: number;
+  /** Default: a process warning for `down` and `still-down`, and for `connected` after an outage. */
+  readonly onEvent?: (event: MqttPublisherEvent) => void;
+}
+
+/** The publisher's link to its broker, for a summary. */
+export interface MqttPublisherHealth {
+  readonly connected: boolean;
+  /** Connections made (the first and every reconnection). */
+  readonly connections: number;
+  /** Outages begun (a failed first connection or a lost connection), and their total length so far, ms (the current one included). */
+  readonly outages: number;
+  readonly outageMs: number;
+  /** Connection attempts that failed. */
+  readonly failedAttempts: number;
+  /** The last error the client reported, or null. */
+  readonly lastError: string | null;
+  /** Update messages handed to the client. */
+  readonly published: number;
 }
 
 export interface MqttPublisher {
-  /** `<prefix>/axis/<name>`, one per axis. */
+  /** `<prefix>/axis/<name>`, one per axis; empty until a source is attached. */
   readonly axisTopics: readonly string[];
-  /** `<prefix>/status`: retained `{"state":"online"|"offline", ...}`. */
+  /** `<prefix>/status`: retained `{"state":"online"|"offline","measurement":...}`. */
   readonly statusTopic: string;
   /** Update messages handed to the client so far. */
   readonly published: number;
-  /** Publishes the offline status, disconnects and stops the updates. */
+  readonly health: MqttPublisherHealth;
+  /** Starts publishing `source` (once; the publisher was created without one). */
+  attach(source: FeedSource): void;
+  /** Publishes the offline status if connected, stops retrying and the updates, and disconnects. */
   close(): Promise<void>;
 }
 
 /** Payload on `<prefix>/axis/<name>`. */
-export interface MqttAxisMessage extends FeedAxisState {
+export interface MqttAxisMessage extends FeedAxisState, FeedTimeBase {
   readonly type: 'axis';
   readonly schema: typeof FEED_SCHEMA;
   readonly seq: number;
 }
 
+/** Payload on `<prefix>/status`. */
+export interface MqttStatusMessage extends FeedTimeBase {
+  readonly type: 'status';
+  readonly schema: typeof FEED_SCHEMA;
+  /** The publisher's link: `offline` is also its last will. */
+  readonly state: 'online' | 'offline';
+  readonly measurement: FeedState;
+  readonly axes: readonly string[];
+}
+
 const TOPIC_PREFIX = /^[^#+/\u0000]+(\/[^#+/\u0000]+)*$/;
 
-export async function startMqttPublisher(options: MqttPublisherOptions): Promise<MqttPublisher> {
-  const { axes } = options;
+/**
+ * Creates the publisher and starts connecting in the background. It never fails for the broker's sake: a
+ * refused, failed or lost connection is reported through `onEvent` and retried, while the source runs on.
+ * Throws only for invalid options.
+ */
+export function createMqttPublisher(options: MqttPublisherOptions): MqttPublisher {
   const url = options.url ?? 'mqtt://127.0.0.1:1883';
   if (!/^mqtts?:\/\/[^/]+/.test(url)) throw new OptionError('url', 'an mqtt:// or mqtts:// URL', url);
   const prefix = options.topicPrefix ?? 'fringetally';
@@ -77,16 +126,32 @@ export async function startMqttPublisher(options: MqttPublisherOptions): Promise
   if ((options.username === undefined) !== (options.password === undefined)) {
     throw new OptionError('password', 'given together with username', options.password === undefined ? undefined : '(hidden)');
   }
-  const reconnectPeriod = integerInRange('reconnectPeriodMs', options.reconnectPeriodMs ?? 1000, 100, 600_000);
+  const firstDelayMs = integerInRange('reconnectPeriodMs', options.reconnectPeriodMs ?? 1000, 100, 600_000);
+  const maxDelayMs = integerInRange('maxReconnectPeriodMs', options.maxReconnectPeriodMs ?? Math.max(30_000, firstDelayMs), firstDelayMs, 3_600_000);
   const connectTimeout = integerInRange('connectTimeoutMs', options.connectTimeoutMs ?? 10_000, 100, 600_000);
-  const onError = options.onError ?? ((error: Error) => process.emitWarning(`MQTT publisher: ${error.message}`));
+  const reportIntervalMs = integerInRange('reportIntervalMs', options.reportIntervalMs ?? 60_000, 1, 86_400_000);
+  const onEvent = options.onEvent ?? defaultEventHandler(url);
   const statusTopic = `${prefix}/status`;
-  const axisTopics = axes.names.map((name) => `${prefix}/axis/${name}`);
-  const status = (state: 'online' | 'offline') => JSON.stringify({ type: 'status', schema: FEED_SCHEMA, state, axes: axes.names });
+
+  let source: FeedSource | null = null;
+  let measurement: FeedState = 'waiting';
+  let axisTopics: string[] = [];
+  const status = (state: 'online' | 'offline'): string => {
+    const message: MqttStatusMessage = {
+      type: 'status',
+      schema: FEED_SCHEMA,
+      state,
+      measurement,
+      axes: source?.axes.names ?? [],
+      ...feedTimeBase(source?.rateHz ?? null, -1),
+    };
+    return JSON.stringify(message);
+  };
 
   const clientOptions: IClientOptions = {
     clientId: options.clientId ?? `fringetally-${randomBytes(4).toString('hex')}`,
-    reconnectPeriod,
+    // Retries are scheduled here, with a doubling wait; the client's own fixed-period retry stays off.
+    reconnectPeriod: 0,
     connectTimeout,
     // Offline updates are dropped, never queued: the next one carries the latest values.
     queueQoSZero: false,
@@ -96,56 +161,176 @@ export async function startMqttPublisher(options: MqttPublisherOptions): Promise
     ...(options.tls ?? {}),
   };
 
-  const client: MqttClient = mqtt.connect(url, clientOptions);
-  await new Promise<void>((resolve, reject) => {
-    const fail = (error: Error) => {
-      client.end(true);
-      reject(new Error(`MQTT broker at ${url} refused or failed the connection: ${error.message}`));
-    };
-    client.once('connect', () => {
-      client.off('error', fail);
-      resolve();
-    });
-    client.once('error', fail);
-  });
-  client.on('error', onError);
-
+  let closing = false;
+  let connections = 0;
+  let outages = 0;
+  let outageMsDone = 0;
+  let outageSince: number | null = null;
+  let attemptsInOutage = 0;
+  let failedAttempts = 0;
+  let lastError: string | null = null;
+  let lastReportMs = -Infinity;
+  let delayMs = firstDelayMs;
+  let retryTimer: NodeJS.Timeout | null = null;
+  let wasConnected = false;
   let published = 0;
-  let inFlight = 0;
   let seq = 0;
-  client.publish(statusTopic, status('online'), { qos: 1, retain: true });
-  client.on('connect', () => client.publish(statusTopic, status('online'), { qos: 1, retain: true }));
+  // Acknowledgements of a lost connection never come: in-flight counts belong to one connection.
+  let inFlight = 0;
+  let generation = 0;
 
-  const subscription: Subscription = axes
-    .update$({ updateHz, ready: () => client.connected && inFlight === 0 })
-    .subscribe({
+  const client: MqttClient = mqtt.connect(url, clientOptions);
+  client.on('error', (error) => {
+    lastError = error.message;
+  });
+  client.on('connect', () => {
+    const first = connections === 0;
+    connections++;
+    generation++;
+    inFlight = 0;
+    wasConnected = true;
+    const outageMs = outageSince === null ? 0 : performance.now() - outageSince;
+    if (outageSince !== null) outageMsDone += outageMs;
+    const attempts = attemptsInOutage;
+    outageSince = null;
+    attemptsInOutage = 0;
+    delayMs = firstDelayMs;
+    client.publish(statusTopic, status('online'), { qos: 1, retain: true });
+    onEvent({ kind: 'connected', first, outageMs, attempts });
+  });
+  client.on('close', () => {
+    if (closing) return;
+    const now = performance.now();
+    const retryInMs = delayMs;
+    if (wasConnected || outageSince === null) {
+      // A lost connection, or the first attempt failing: an outage begins.
+      outages++;
+      outageSince = now;
+      if (!wasConnected) {
+        failedAttempts++;
+        attemptsInOutage++;
+      }
+      wasConnected = false;
+      lastReportMs = now;
+      onEvent({ kind: 'down', message: lastError ?? 'connection closed by the broker', retryInMs });
+    } else {
+      failedAttempts++;
+      attemptsInOutage++;
+      if (now - lastReportMs >= reportIntervalMs) {
+        lastReportMs = now;
+        onEvent({ kind: 'still-down', message: lastError ?? 'connection closed', attempts: attemptsInOutage, outageMs: now - outageSince, retryInMs });
+      }
+    }
+    retryTimer = setTimeout(() => {
+      retryTimer = null;
+      if (!closing) client.reconnect();
+    }, retryInMs);
+    delayMs = Math.min(maxDelayMs, delayMs * 2);
+  });
+
+  let subscription: Subscription | null = null;
+  function attach(next: FeedSource): void {
+    if (source !== null) throw new Error('the MQTT publisher already has a source: attach it once');
+    positiveFinite('source.rateHz', next.rateHz);
+    source = next;
+    axisTopics = next.axes.names.map((name) => `${prefix}/axis/${name}`);
+    const setMeasurement = (state: FeedState) => {
+      measurement = state;
+      if (client.connected) client.publish(statusTopic, status('online'), { qos: 1, retain: true });
+    };
+    setMeasurement('live');
+    const { rateHz } = next;
+    subscription = next.axes.update$({ updateHz, ready: () => client.connected && inFlight === 0 }).subscribe({
       next(update) {
+        // The source's last update comes at its end whether or not the broker is there: offline, it is dropped.
+        if (!client.connected) return;
         seq++;
+        const sampleIndex = update.axes[0]!.sampleIndex;
+        const timeBase = feedTimeBase(rateHz, sampleIndex);
+        const sentIn = generation;
         update.axes.forEach((axis, k) => {
-          const message: MqttAxisMessage = { type: 'axis', schema: FEED_SCHEMA, seq, ...feedAxisState(axis) };
+          const message: MqttAxisMessage = { type: 'axis', schema: FEED_SCHEMA, seq, ...timeBase, ...feedAxisState(axis) };
           inFlight++;
           published++;
           client.publish(axisTopics[k]!, JSON.stringify(message), { qos, retain }, (error) => {
-            inFlight--;
-            if (error) onError(error);
+            if (sentIn === generation) inFlight--;
+            if (error) lastError = error.message;
           });
         });
       },
-      error: (error: unknown) => onError(new Error(`measurement source failed: ${String(error)}`)),
+      error: (error: unknown) => {
+        lastError = `measurement source failed: ${String(error)}`;
+        setMeasurement('failed');
+      },
+      complete: () => setMeasurement('ended'),
     });
+  }
+  if (options.source !== undefined) attach(options.source);
 
   return {
-    axisTopics,
+    get axisTopics() {
+      return axisTopics;
+    },
     statusTopic,
     get published() {
       return published;
     },
+    get health() {
+      return {
+        connected: client.connected,
+        connections,
+        outages,
+        outageMs: outageMsDone + (outageSince === null ? 0 : performance.now() - outageSince),
+        failedAttempts,
+        lastError,
+        published,
+      };
+    },
+    attach,
     async close() {
-      subscription.unsubscribe();
+      subscription?.unsubscribe();
+      closing = true;
+      if (retryTimer !== null) clearTimeout(retryTimer);
       if (client.connected) {
         await new Promise<void>((resolve) => client.publish(statusTopic, status('offline'), { qos: 1, retain: true }, () => resolve()));
       }
-      await client.endAsync();
+      await client.endAsync(!client.connected);
     },
+  };
+}
+
+/**
+ * Creates the publisher and waits for its first connection; a refused or failed first connection closes it and
+ * rejects with `MQTT broker at <url> refused or failed the connection: ...`. For programs that would rather not
+ * start without their broker; `createMqttPublisher` never fails for the broker's sake.
+ */
+export async function startMqttPublisher(options: MqttPublisherOptions): Promise<MqttPublisher> {
+  let settle: ((event: MqttPublisherEvent) => void) | null = null;
+  const first = new Promise<MqttPublisherEvent>((resolve) => (settle = resolve));
+  const onEvent = options.onEvent ?? defaultEventHandler(options.url ?? 'mqtt://127.0.0.1:1883');
+  const publisher = createMqttPublisher({
+    ...options,
+    onEvent(event) {
+      if (settle !== null) {
+        settle(event);
+        settle = null;
+        if (event.kind === 'connected') onEvent(event);
+      } else onEvent(event);
+    },
+  });
+  const outcome = await first;
+  if (outcome.kind !== 'connected') {
+    await publisher.close();
+    throw new Error(`MQTT broker at ${options.url ?? 'mqtt://127.0.0.1:1883'} refused or failed the connection: ${outcome.message}`);
+  }
+  return publisher;
+}
+
+function defaultEventHandler(url: string): (event: MqttPublisherEvent) => void {
+  return (event) => {
+    if (event.kind === 'down') process.emitWarning(`MQTT broker at ${url} unreachable (${event.message}); retrying in ${Math.round(event.retryInMs)} ms, the measurement goes on`);
+    else if (event.kind === 'still-down') {
+      process.emitWarning(`MQTT broker at ${url} still unreachable after ${(event.outageMs / 1000).toFixed(0)} s and ${event.attempts} attempts (${event.message})`);
+    } else if (!event.first || event.attempts > 0) process.emitWarning(`MQTT broker at ${url} connected after an outage of ${(event.outageMs / 1000).toFixed(1)} s`);
   };
 }
