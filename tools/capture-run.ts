@@ -337,7 +337,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   const raw = createPointSampler(maxPoints);
   const corrected = createPointSampler(maxPoints);
   const events: AlarmEvent[] = [];
-  const alarmCounts: Record<AlarmKind, number> = { lowSignal: 0, saturation: 0, badSample: 0, overspeed: 0, inputGap: 0, countLost: 0 };
+  const alarmCounts: Record<AlarmKind, number> = { lowSignal: 0, saturation: 0, badSample: 0, overspeed: 0, inputGap: 0, countLost: 0, lowPower: 0 };
   const spans: AlarmSpan[] = [];
   const open = new Map<AlarmKind, number>();
   const mid = midScaleOf(adc);

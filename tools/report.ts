@@ -153,6 +153,7 @@ const ALARM_COLOUR: Record<AlarmKind, string> = {
   overspeed: '#9f7aea66',
   inputGap: '#4a556866',
   countLost: '#e53e3e55',
+  lowPower: '#3182ce55',
 };
 
 const ALARM_CLASS: Record<AlarmKind, string> = {
@@ -162,6 +163,7 @@ const ALARM_CLASS: Record<AlarmKind, string> = {
   overspeed: 'span-over',
   inputGap: 'span-gap',
   countLost: 'span-lost',
+  lowPower: 'span-power',
 };
 
 function timePlot(series: Envelope, scale: number, yLabel: string, run: RunResult, label: string): string {

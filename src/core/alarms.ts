@@ -17,22 +17,22 @@ export const AlarmBit = {
   inputGap: 16,
   /** Latched: a fringe may have been missed, the position is not trustworthy until re-referenced. */
   countLost: 32,
+  /** Source power (three or more outputs per axis) below its threshold: light blocked, source failing. */
+  lowPower: 64,
 } as const;
 
 export type AlarmKind = keyof typeof AlarmBit;
 
-/** Names used in text output (CSV, JSONL, logs), in bit order. */
-export const alarmNames: Readonly<Record<AlarmKind, string>> = {
-  lowSignal: 'low_signal',
-  saturation: 'saturation',
-  badSample: 'bad_sample',
-  overspeed: 'overspeed',
-  inputGap: 'input_gap',
-  countLost: 'count_lost',
-};
-
 /** The alarm kinds in bit order. */
 export const alarmKinds = Object.keys(AlarmBit) as readonly AlarmKind[];
+
+/**
+ * Names used in text output (CSV, JSONL, logs): the kind in snake case (lowSignal → low_signal, countLost →
+ * count_lost). Derived rather than listed, which keeps the embedded bundle within its budget.
+ */
+export const alarmNames = Object.fromEntries(
+  alarmKinds.map((kind) => [kind, kind.replace(/[A-Z]/g, (letter) => `_${letter.toLowerCase()}`)]),
+) as Readonly<Record<AlarmKind, string>>;
 
 /** A change of an alarm's state. `sampleIndex` is absolute: samples since the start or the last reset. */
 export interface AlarmEvent {

@@ -16,3 +16,5 @@ export * from './fit-improved.js';
 export * from './online-correction.js';
 export * from './spectrum.js';
 export * from './allan.js';
+export * from './fit/channel-fit.js';
+export * from './channels.js';

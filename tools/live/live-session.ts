@@ -236,7 +236,7 @@ export function startLiveSession(options: LiveSessionOptions): LiveSession {
     level: Number.NaN,
     flags: 0,
     countLost: false,
-    alarmsRaised: { lowSignal: 0, saturation: 0, badSample: 0, overspeed: 0, inputGap: 0, countLost: 0 },
+    alarmsRaised: { lowSignal: 0, saturation: 0, badSample: 0, overspeed: 0, inputGap: 0, countLost: 0, lowPower: 0 },
     wire: wire === null ? null : wire.counters,
     text: text === null ? null : text.counters,
   };
