@@ -1,14 +1,34 @@
-// The calibration file: versioned JSON holding the fitted ellipse in the capture's own units (see docs/calibration-format.md).
+// The calibration file: versioned JSON holding the fitted ellipse, or the layout of 3 or 4 detector outputs, in the
+// capture's own units (see docs/calibration-format.md). Version 2 adds the layout; version 1 files still load.
 import { readFile } from 'node:fs/promises';
-import { validateCalibration, type EllipseCalibration, type EllipseFitResult } from '../src/core/index.js';
+import {
+  channelsOfEllipse,
+  ellipseOfChannels,
+  validateCalibration,
+  validateChannelParameters,
+  type ChannelParameters,
+  type EllipseCalibration,
+  type EllipseFitResult,
+} from '../src/core/index.js';
 import type { CaptureInfo } from '../src/io/capture/index.js';
 
 export const CALIBRATION_FORMAT = 'fringetally-calibration';
-export const CALIBRATION_VERSION = 1;
+export const CALIBRATION_VERSION = 2;
 
-export interface CalibrationFile extends EllipseCalibration {
+/** One detector output of the layout: the column or channel it came from and its model parameters. */
+export interface CalibrationChannel extends ChannelParameters {
+  readonly name: string;
+}
+
+export interface CalibrationFile extends Partial<EllipseCalibration> {
   readonly format: typeof CALIBRATION_FORMAT;
   readonly version: typeof CALIBRATION_VERSION;
+  /**
+   * Every output, in order: I = P·(offset + amplitude·cos(φ − phaseRad)). Two outputs: P = 1 and the ellipse fields
+   * above say the same in the two-channel convention; three or four: P is the source power (1 = its mean over the
+   * capture), removed sample by sample.
+   */
+  readonly layout: { readonly model: string; readonly channels: readonly CalibrationChannel[] };
   /** What the offsets and amplitudes are measured in: "adc-counts" for integer captures, else "capture-units". */
   readonly units: 'adc-counts' | 'capture-units';
   readonly convention: string;
@@ -18,13 +38,20 @@ export interface CalibrationFile extends EllipseCalibration {
 }
 
 export const CONVENTION = 'x = amplitudeX*cos(phi) + offsetX; y = amplitudeY*sin(phi + phaseErrorRad) + offsetY';
+export const LAYOUT_MODEL = 'I_k = P*(offset_k + amplitude_k*cos(phi - phaseRad_k)); P = 1 for two outputs, else the source power (mean 1)';
 
-export function calibrationFileOf(fit: Extract<EllipseFitResult, { ok: true }>, info: CaptureInfo): CalibrationFile {
+/**
+ * The file for a fit. `channels`: the layout of 3 or 4 outputs (the fit is then the ellipse of the power-normalised
+ * pair, kept only for its quality figures); omitted for two outputs, whose layout follows from the ellipse.
+ */
+export function calibrationFileOf(fit: Extract<EllipseFitResult, { ok: true }>, info: CaptureInfo, channels?: readonly ChannelParameters[]): CalibrationFile {
   const integer = info.sampleEncoding === 'int16' || info.sampleEncoding === 'int24' || info.sampleEncoding === 'integer-text';
+  const layout = channels ?? channelsOfEllipse(fit.calibration);
   return {
     format: CALIBRATION_FORMAT,
     version: CALIBRATION_VERSION,
-    ...fit.calibration,
+    ...(channels === undefined ? fit.calibration : {}),
+    layout: { model: LAYOUT_MODEL, channels: layout.map((channel, k) => ({ name: info.channels[k]!, ...channel })) },
     units: integer ? 'adc-counts' : 'capture-units',
     convention: CONVENTION,
     fit: { samples: fit.samples, coverage: fit.coverage, residualRms: fit.residualRms },
@@ -33,8 +60,16 @@ export function calibrationFileOf(fit: Extract<EllipseFitResult, { ok: true }>, 
   };
 }
 
-/** Reads and checks a calibration file; errors name the file and the field. */
-export async function readCalibrationFile(path: string): Promise<EllipseCalibration> {
+/** What a calibration file holds: the layout, and the ellipse when it has two outputs (null for three or four). */
+export interface CalibrationLayout {
+  readonly channels: readonly ChannelParameters[];
+  /** The capture columns or channels of the outputs, in order. */
+  readonly names: readonly string[];
+  readonly ellipse: EllipseCalibration | null;
+}
+
+/** Reads and checks a calibration file of either version; errors name the file and the field. */
+export async function readCalibrationLayout(path: string): Promise<CalibrationLayout> {
   let parsed: unknown;
   try {
     parsed = JSON.parse(await readFile(path, 'utf8'));
@@ -45,21 +80,43 @@ export async function readCalibrationFile(path: string): Promise<EllipseCalibrat
   if (record === null || typeof record !== 'object' || record.format !== CALIBRATION_FORMAT) {
     throw new Error(`${path}: expected "format": "${CALIBRATION_FORMAT}"`);
   }
-  if (record.version !== CALIBRATION_VERSION) {
-    throw new Error(`${path}: unsupported calibration version ${JSON.stringify(record.version)} (this fringetally reads version ${CALIBRATION_VERSION})`);
+  const version = record.version as number;
+  if (version !== 1 && version !== CALIBRATION_VERSION) {
+    throw new Error(`${path}: unsupported calibration version ${JSON.stringify(record.version)} (this fringetally reads versions 1 and ${CALIBRATION_VERSION})`);
   }
   try {
-    return validateCalibration(
-      {
-        offsetX: record.offsetX as number,
-        offsetY: record.offsetY as number,
-        amplitudeX: record.amplitudeX as number,
-        amplitudeY: record.amplitudeY as number,
-        phaseErrorRad: record.phaseErrorRad as number,
-      },
-      'calibration',
-    );
+    if (version === 1) {
+      // Version 1: the ellipse alone, of the capture's x and y.
+      const ellipse = validateCalibration(
+        {
+          offsetX: record.offsetX as number,
+          offsetY: record.offsetY as number,
+          amplitudeX: record.amplitudeX as number,
+          amplitudeY: record.amplitudeY as number,
+          phaseErrorRad: record.phaseErrorRad as number,
+        },
+        'calibration',
+      );
+      return { channels: channelsOfEllipse(ellipse), names: [], ellipse };
+    }
+    const listed = record.layout?.channels;
+    if (!Array.isArray(listed)) throw new Error('layout.channels must be an array of 2 to 4 outputs');
+    const channels = validateChannelParameters(listed, 'layout.channels');
+    const names = listed.map((channel, k) => {
+      if (typeof channel.name !== 'string' || channel.name === '') throw new Error(`layout.channels[${k}].name must be a column or channel name`);
+      return channel.name;
+    });
+    return { channels, names, ellipse: channels.length === 2 ? ellipseOfChannels(channels, 'layout.channels') : null };
   } catch (error) {
     throw new Error(`${path}: ${(error as Error).message}`);
   }
+}
+
+/** Reads a two-output calibration file's ellipse; a layout of 3 or 4 outputs is refused with the reason. */
+export async function readCalibrationFile(path: string): Promise<EllipseCalibration> {
+  const layout = await readCalibrationLayout(path);
+  if (layout.ellipse === null) {
+    throw new Error(`${path}: a calibration of ${layout.channels.length} detector outputs (${layout.names.join(',')}); this command combines two outputs per axis only (replay and calibrate take --channels)`);
+  }
+  return layout.ellipse;
 }

@@ -3,6 +3,9 @@
 
 import {
   AlarmBit,
+  channelParametersOf,
+  createChannelMomentAccumulator,
+  createChannelPipeline,
   createCorrection,
   createEllipseAccumulator,
   createPeriodicErrorAnalyzer,
@@ -13,9 +16,12 @@ import {
   type AdcFormat,
   type AlarmEvent,
   type AlarmKind,
+  type ChannelParameters,
   type EllipseCalibration,
   type EllipseFitOptions,
   type EllipseFitResult,
+  normaliseChannels,
+  type PowerNormalisation,
   type PeriodicErrorSummary,
   type SpeedLimits,
   type UnwrapMethod,
@@ -51,10 +57,39 @@ export async function fitCapture(
   open: OpenCaptureOptions,
   fitOptions: EllipseFitOptions,
   progress: Progress,
-): Promise<{ fit: EllipseFitResult; info: CaptureInfo }> {
-  const first = await fitPass(path, open, fitOptions, progress, null);
+): Promise<{ fit: EllipseFitResult; info: CaptureInfo; channels?: ChannelParameters[] }> {
+  const normalised = (open.channels?.length ?? 2) > 2 ? await powerPass(path, open, progress) : null;
+  if (typeof normalised === 'string') {
+    const capture = await openCapture(path, { ...open, blockSize: BLOCK });
+    await capture.close();
+    return { fit: { ok: false, reason: 'degenerate', message: normalised, samples: 0, coverage: Number.NaN }, info: capture.info };
+  }
+  const first = await fitPass(path, open, fitOptions, progress, null, normalised);
   if (!first.fit.ok) return first;
-  return fitPass(path, open, fitOptions, progress, first.fit.calibration);
+  const refined = await fitPass(path, open, fitOptions, progress, first.fit.calibration, normalised);
+  if (!refined.fit.ok || normalised === null) return refined;
+  return { ...refined, channels: channelParametersOf(normalised, refined.fit.calibration) };
+}
+
+/**
+ * Three or four outputs: the first pass finds the source-power combination (channel-fit.ts); the ellipse passes
+ * then fit the power-normalised pair. Returns the refusal message when the outputs do not allow it.
+ */
+async function powerPass(path: string, open: OpenCaptureOptions, progress: Progress): Promise<PowerNormalisation | string> {
+  const capture = await openCapture(path, { ...open, blockSize: BLOCK });
+  const moments = createChannelMomentAccumulator({ channelCount: capture.info.channels.length });
+  progress.start(`fit ${path} (source power)`, capture.info.totalSamples);
+  try {
+    for await (const block of capture.blocks()) {
+      moments.add(block.channels, block.length);
+      progress.update(block.firstIndex + block.length);
+    }
+  } finally {
+    progress.stop();
+    await capture.close();
+  }
+  const result = moments.solve();
+  return result.ok ? result.normalisation : `outputs ${capture.info.channels.join(',')}: ${result.message}`;
 }
 
 async function fitPass(
@@ -63,6 +98,7 @@ async function fitPass(
   fitOptions: EllipseFitOptions,
   progress: Progress,
   gate: EllipseCalibration | null,
+  normalisation: PowerNormalisation | null,
 ): Promise<{ fit: EllipseFitResult; info: CaptureInfo }> {
   const capture = await openCapture(path, { ...open, blockSize: BLOCK });
   const accumulator = createEllipseAccumulator(fitOptions);
@@ -71,19 +107,25 @@ async function fitPass(
   const v = new Float64Array(BLOCK);
   const keptX = new Float64Array(BLOCK);
   const keptY = new Float64Array(BLOCK);
+  const pairX = new Float64Array(BLOCK);
+  const pairY = new Float64Array(BLOCK);
+  const power = new Float64Array(BLOCK);
   progress.start(`fit ${path}${gate === null ? '' : ' (refined)'}`, capture.info.totalSamples);
   try {
     for await (const block of capture.blocks()) {
+      const x = normalisation === null ? block.x : pairX;
+      const y = normalisation === null ? block.y : pairY;
+      if (normalisation !== null) normaliseChannels(normalisation, block.channels, block.length, pairX, pairY, power);
       if (gate === null) {
-        accumulator.add(block.x, block.y, block.length);
+        accumulator.add(x, y, block.length);
       } else {
-        correction.process(block.x, block.y, u, v, block.length);
+        correction.process(x, y, u, v, block.length);
         let kept = 0;
         for (let i = 0; i < block.length; i++) {
           const radius = Math.hypot(u[i]!, v[i]!);
           if (radius >= 0.5 && radius <= 1.5) {
-            keptX[kept] = block.x[i]!;
-            keptY[kept] = block.y[i]!;
+            keptX[kept] = x[i]!;
+            keptY[kept] = y[i]!;
             kept++;
           }
         }
@@ -221,6 +263,8 @@ export interface RunResult {
   readonly adcStated: boolean;
   readonly alarmCounts: Readonly<Record<AlarmKind, number>>;
   readonly alarmSpans: readonly AlarmSpan[];
+  /** Three or four outputs: the source power's range and mean over the capture (1 = the calibration capture's mean). */
+  readonly power: { readonly min: number; readonly max: number; readonly mean: number } | null;
   /** The error of the uncorrected phase (ADC mid-scale removed only) against the corrected phase. */
   readonly before: PeriodicErrorResult;
   /** The corrected phase's residual about smooth motion (windows of steady motion only, see createWindowDetrender). */
@@ -236,6 +280,8 @@ export interface RunResult {
 export interface RunOptions {
   readonly open: OpenCaptureOptions;
   readonly calibration: EllipseCalibration;
+  /** Layout of 3 or 4 outputs (the capture opened with as many `channels`); `calibration` then serves the figures only. */
+  readonly channels?: readonly ChannelParameters[];
   readonly settings: MeasureSettings;
   /** ADC format for saturation; default from the capture (see `adcOf`). */
   readonly adc?: AdcFormat;
@@ -293,6 +339,31 @@ function rawAndCorrected(
   }
 }
 
+interface PowerState {
+  min: number;
+  max: number;
+  sum: number;
+  count: number;
+}
+
+/** Three or four outputs: the corrected points are the combined pair, level·(cos φ, sin φ); the power's range and mean. */
+function powerFigures(output: { level: Float32Array; unwrappedPhaseRad: Float64Array; power: Float32Array }, n: number, scratch: BlockScratch, state: PowerState): void {
+  const { correctedU, correctedV } = scratch;
+  for (let i = 0; i < n; i++) {
+    const level = output.level[i]!;
+    const phase = output.unwrappedPhaseRad[i]!;
+    correctedU[i] = level === level ? level * Math.cos(phase) : 0;
+    correctedV[i] = level === level ? level * Math.sin(phase) : 0;
+    const p = output.power[i]!;
+    if (p === p) {
+      if (p < state.min) state.min = p;
+      if (p > state.max) state.max = p;
+      state.sum += p;
+      state.count++;
+    }
+  }
+}
+
 /** Runs the whole pipeline over a capture, writing rows to the writer if one is given. */
 export async function runCapture(path: string, options: RunOptions): Promise<RunResult> {
   const { calibration, settings, writer, progress } = options;
@@ -301,7 +372,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   const fromFile = adcOf(info);
   const adc = options.adc ?? fromFile.adc;
   const adcStated = options.adc !== undefined || fromFile.stated;
-  const pipeline = createPipeline({
+  const chain = {
     rateHz: info.rateHz,
     wavelengthM: settings.wavelengthM,
     fold: settings.fold,
@@ -309,16 +380,23 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     bandwidthHz: settings.bandwidthHz,
     unwrap: settings.unwrap,
     lengthScale: settings.lengthScale,
-    calibration,
     adc,
-  });
+  };
+  const layout = options.channels;
+  if (layout !== undefined && layout.length !== info.channels.length) {
+    throw new Error(`${path}: the calibration has ${layout.length} detector outputs, the capture was opened with ${info.channels.length} (${info.channels.join(',')})`);
+  }
+  const pipeline = createPipeline({ ...chain, calibration });
+  const combined = layout === undefined ? null : createChannelPipeline({ ...chain, channels: layout });
   const output = {
     positionM: new Float64Array(BLOCK),
     velocityMS: new Float64Array(BLOCK),
     level: new Float32Array(BLOCK),
     flags: new Uint8Array(BLOCK),
     unwrappedPhaseRad: new Float64Array(BLOCK),
+    power: new Float32Array(BLOCK),
   };
+  const power: PowerState = { min: Infinity, max: -Infinity, sum: 0, count: 0 };
   const scratch: BlockScratch = {
     beforeError: new Float64Array(BLOCK),
     rawX: new Float64Array(BLOCK),
@@ -351,7 +429,8 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     for await (const block of capture.blocks()) {
       const n = block.length;
       events.length = 0;
-      pipeline.process(block.x, block.y, n, output, events);
+      if (combined === null) pipeline.process(block.x, block.y, n, output, events);
+      else combined.process(block.channels, n, output, events);
       if (writer !== undefined) {
         await writer.write({ firstIndex: block.firstIndex, length: n, t: block.t, rateHz: info.rateHz, ...output });
       }
@@ -367,6 +446,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
         }
       }
       rawAndCorrected(block.x, block.y, n, output.unwrappedPhaseRad, output.flags, scratch, mid, calibration);
+      if (combined !== null) powerFigures(output, n, scratch, power);
       position.add(output.positionM, n, block.t, block.firstIndex, secondsPerSample);
       velocity.add(output.velocityMS, n, block.t, block.firstIndex, secondsPerSample);
       raw.add(rawX, rawY, n);
@@ -392,10 +472,11 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     metresPerRad,
     speedLimits: pipeline.speedLimits,
     finalPositionM,
-    countLostAtEnd: pipeline.countLost,
+    countLostAtEnd: (combined ?? pipeline).countLost,
     adcStated,
     alarmCounts,
     alarmSpans: spans,
+    power: combined === null ? null : { min: power.min, max: power.max, mean: power.sum / power.count },
     before: toMetres(before),
     after: toMetres(after),
     report: { position: position.series(), velocity: velocity.series(), raw: raw.points(), corrected: corrected.points() },

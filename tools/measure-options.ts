@@ -4,6 +4,7 @@ import type { OpenCaptureOptions } from '../src/io/capture/index.js';
 import { numberOption, UsageError } from './cli-kit.js';
 
 export const captureOptionSpecs = {
+  channels: { type: 'string' },
   'x-channel': { type: 'string' },
   'y-channel': { type: 'string' },
   'time-column': { type: 'string' },
@@ -11,6 +12,9 @@ export const captureOptionSpecs = {
 } as const;
 
 export const captureOptionHelp = `Capture options:
+  --channels A,B[,C[,D]] the 2 to 4 detector outputs of the axis, by column (CSV) or channel (WAV) name or
+                         1-based number (default x,y). Three or four DC-coupled outputs: the source power is
+                         removed sample by sample and reported, with its own low_power alarm
   --x-channel NAME|N    column (CSV) or channel (WAV) of x, by name or 1-based number (default: x / channel 1)
   --y-channel NAME|N    column or channel of y (default: y / channel 2)
   --time-column NAME|N  CSV time column in seconds (default: t when present); "none" ignores it
@@ -40,6 +44,21 @@ export function captureOptionsOf(values: Record<string, string | boolean | undef
   const text = (name: string) => values[name] as string | undefined;
   const timeColumn = text('time-column');
   const rateHz = numberOption('rate-hz', text('rate-hz'));
+  const channels = text('channels');
+  if (channels !== undefined) {
+    const list = channels.split(',').map((entry) => entry.trim());
+    if (list.length < 2 || list.length > 4 || list.some((entry) => entry === '')) {
+      throw new UsageError(`--channels takes 2 to 4 column names or 1-based numbers separated by commas (got "${channels}")`);
+    }
+    if (text('x-channel') !== undefined || text('y-channel') !== undefined) {
+      throw new UsageError('--channels names x and y itself (its first two entries): give it or --x-channel/--y-channel, not both');
+    }
+    return {
+      channels: list.map(selector),
+      ...(timeColumn === undefined ? {} : { timeColumn: timeColumn === 'none' ? null : selector(timeColumn) }),
+      ...(rateHz === undefined ? {} : { rateHz }),
+    };
+  }
   return {
     ...(text('x-channel') === undefined ? {} : { xChannel: selector(text('x-channel')!) }),
     ...(text('y-channel') === undefined ? {} : { yChannel: selector(text('y-channel')!) }),

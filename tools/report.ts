@@ -18,6 +18,19 @@ export function formatCalibration(c: EllipseCalibration, units: string): string[
   ];
 }
 
+/** The layout of three or four outputs: I = P·(offset + amplitude·cos(φ − phase)), phases after output 1's. */
+export function formatChannels(channels: readonly { name: string; offset: number; amplitude: number; phaseRad: number }[], units: string): string[] {
+  return channels.map(
+    (c, k) =>
+      `output ${k + 1}    ${c.name}: offset ${c.offset.toFixed(4)} ${units}, amplitude ${c.amplitude.toFixed(4)} ${units}, phase ${((c.phaseRad * 180) / Math.PI).toFixed(3)}°`,
+  );
+}
+
+/** The source power over the capture, relative to the calibration capture's mean. */
+export function formatPower(power: { min: number; max: number; mean: number }): string {
+  return `power       source power ${power.min.toFixed(4)} to ${power.max.toFixed(4)} (mean ${power.mean.toFixed(4)}; 1 = mean of the calibration capture), removed sample by sample`;
+}
+
 function periodicRow(label: string, result: PeriodicErrorResult, metresPerRad: number): string {
   const s = result.summary;
   if (s.samples === 0) return `${label}  no samples of steady motion to measure it`;

@@ -34,7 +34,8 @@ describe('round trip', () => {
     const errors = positionErrors('clean.csv.out.csv', 'clean.truth.csv');
     expect(Math.max(...errors.map(Math.abs))).toBeLessThan(0.05e-9);
     const calibration = JSON.parse(readFileSync(join(dir, 'clean-cal.json'), 'utf8'));
-    expect(calibration).toMatchObject({ format: 'fringetally-calibration', version: 1 });
+    expect(calibration).toMatchObject({ format: 'fringetally-calibration', version: 2 });
+    expect(calibration.layout.channels.map((channel: { name: string }) => channel.name)).toEqual(['x', 'y']);
     expect(calibration.offsetX).toBeCloseTo(800, 6); // simulate's default ellipse
     expect(calibration.phaseErrorRad).toBeCloseTo(0.06, 9);
   });

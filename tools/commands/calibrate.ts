@@ -5,13 +5,16 @@ import { fitCapture, runCapture } from '../capture-run.js';
 import { calibrationFileOf } from '../calibration-file.js';
 import { captureOptionHelp, captureOptionSpecs, captureOptionsOf, lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
 import { createProgress } from '../progress.js';
-import { formatCalibration, formatPeriodicError, writeReportFile } from '../report.js';
+import { formatCalibration, formatChannels, formatPeriodicError, formatPower, writeReportFile } from '../report.js';
 
 const help = `Usage: fringetally calibrate <capture.csv|capture.wav> --out cal.json [options]
 
 Fits the ellipse (Heydemann correction) to the whole capture, prints its parameters, the fit quality, the
 phase coverage and the periodic error before and after correction, and writes the calibration file
 (versioned JSON, offsets and amplitudes in the capture's own units: ADC counts for integer captures).
+With three or four outputs (--channels A,B,C[,D]) it first finds the source power as the steadiest
+combination of the outputs (it assumes the power does not follow the fringe), fits the ellipse of the
+power-normalised pair, and writes every output's offset, gain and phase.
 Refuses (exit 1) when the capture covers too little of the ellipse: record at least one full fringe of motion.
 
 Options:
@@ -49,7 +52,7 @@ async function run(argv: readonly string[]): Promise<number> {
   const minCoverage = numberOption('min-coverage', values['min-coverage']);
   const progress = createProgress(quiet);
 
-  const { fit, info } = await fitCapture(path, open, minCoverage === undefined ? {} : { minCoverage }, progress);
+  const { fit, info, channels } = await fitCapture(path, open, minCoverage === undefined ? {} : { minCoverage }, progress);
   if (!fit.ok) {
     process.stderr.write(`fringetally calibrate: ${path}: calibration refused: ${fit.message}\n`);
     return 1;
@@ -57,8 +60,8 @@ async function run(argv: readonly string[]): Promise<number> {
   // The index only scales the nm figures here; the calibration itself does not depend on it.
   const settings = { ...scale, refractiveIndex: scale.refractiveIndex ?? 1 };
   const notes = [...scale.notes, ...(scale.refractiveIndex === undefined ? ['periodic error in nm at n = 1 (vacuum wavelength)'] : [])];
-  const result = await runCapture(path, { open, calibration: fit.calibration, settings, progress });
-  const file = calibrationFileOf(fit, info);
+  const result = await runCapture(path, { open, calibration: fit.calibration, ...(channels === undefined ? {} : { channels }), settings, progress });
+  const file = calibrationFileOf(fit, info, channels);
   const temporary = `${values.out}.partial-${process.pid}`;
   await writeFile(temporary, JSON.stringify(file, null, 2) + '\n');
   await rename(temporary, values.out);
@@ -68,8 +71,9 @@ async function run(argv: readonly string[]): Promise<number> {
   if (!quiet) {
     const lines = [
       `capture     ${path} (${info.format}, ${result.samples} samples at ${info.rateHz} Hz, ${info.sampleEncoding})`,
-      ...formatCalibration(fit.calibration, file.units),
-      `fit         residual ${(fit.residualRms * 100).toFixed(3)} % of the radius, phase coverage ${fit.coverage.toFixed(3)} of a fringe, ${fit.samples} samples`,
+      ...(channels === undefined ? formatCalibration(fit.calibration, file.units) : formatChannels(file.layout.channels, file.units)),
+      ...(result.power === null ? [] : [formatPower(result.power)]),
+      `fit         ${channels === undefined ? '' : 'power-normalised pair: '}residual ${(fit.residualRms * 100).toFixed(3)} % of the radius, phase coverage ${fit.coverage.toFixed(3)} of a fringe, ${fit.samples} samples`,
       ...formatPeriodicError(result),
       ...notes.map((note) => `note        ${note}`),
       `wrote       ${values.out}${values.report === undefined ? '' : ` and report ${values.report}`}`,

@@ -4,10 +4,10 @@ import { alarmKinds, alarmNames } from '../../src/core/index.js';
 import { createResultWriter, type ResultFormat } from '../../src/io/results/index.js';
 import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { fitCapture, runCapture } from '../capture-run.js';
-import { readCalibrationFile } from '../calibration-file.js';
+import { readCalibrationLayout } from '../calibration-file.js';
 import { captureOptionHelp, captureOptionSpecs, captureOptionsOf, lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
 import { createProgress } from '../progress.js';
-import { formatPeriodicError, writeReportFile } from '../report.js';
+import { formatPeriodicError, formatPower, writeReportFile } from '../report.js';
 import { budgetOf, environmentOf, environmentOptionHelp, environmentOptionSpecs, withConfig } from '../environment-options.js';
 
 const help = `Usage: fringetally replay <capture.csv|capture.wav> --wavelength-nm L --fold N --out result.csv|result.jsonl
@@ -73,7 +73,7 @@ async function run(argv: readonly string[]): Promise<number> {
     ...(scale.unwrap === undefined ? {} : { unwrap: scale.unwrap }),
   };
   const notes = [...scale.notes, ...environment.notes];
-  const open = captureOptionsOf(values);
+  let open = captureOptionsOf(values);
   const progress = createProgress(quiet);
   const say = (line: string) => {
     if (!quiet) process.stderr.write(line + '\n');
@@ -81,9 +81,21 @@ async function run(argv: readonly string[]): Promise<number> {
   for (const note of notes) say(`note: ${note}`);
 
   let calibration;
+  let channels;
   let fit = null;
   if (typeof values.calibration === 'string') {
-    calibration = await readCalibrationFile(values.calibration);
+    const layout = await readCalibrationLayout(values.calibration);
+    if (layout.ellipse === null) {
+      // Three or four outputs: the capture's columns default to the ones the calibration was made from.
+      if (open.channels === undefined) open = { ...open, channels: layout.names };
+      if (open.channels?.length !== layout.channels.length) {
+        throw new UsageError(`${values.calibration} calibrates ${layout.channels.length} detector outputs (${layout.names.join(',')}): give as many with --channels`);
+      }
+      channels = layout.channels;
+    } else if ((open.channels?.length ?? 2) !== 2) {
+      throw new UsageError(`${values.calibration} calibrates two detector outputs: give two with --channels (got ${open.channels!.length})`);
+    }
+    calibration = layout.ellipse ?? { offsetX: 0, offsetY: 0, amplitudeX: 1, amplitudeY: 1, phaseErrorRad: 0 };
   } else {
     say(`no --calibration given: fitting the correction to ${path} first`);
     const fitted = await fitCapture(path, open, {}, progress);
@@ -93,12 +105,13 @@ async function run(argv: readonly string[]): Promise<number> {
     }
     fit = fitted.fit;
     calibration = fitted.fit.calibration;
+    channels = fitted.channels;
   }
 
   const writer = await createResultWriter(out, { format: formatText as ResultFormat, every });
   let result;
   try {
-    result = await runCapture(path, { open, calibration, settings, writer, progress });
+    result = await runCapture(path, { open, calibration, ...(channels === undefined ? {} : { channels }), settings, writer, progress });
     await writer.close();
   } catch (error) {
     await writer.abort();
@@ -118,6 +131,7 @@ async function run(argv: readonly string[]): Promise<number> {
         (budget === null ? '' : ` ± ${(budget.expandedUncertaintyM * 1e9).toFixed(3)} nm (U, k = ${budget.coverageFactor}; u = ${(budget.combinedStandardUncertaintyM * 1e9).toFixed(3)} nm)`) +
         (result.countLostAtEnd ? ' — COUNT LOST: not trustworthy until re-referenced' : ''),
       `alarms raised: ${raised.length === 0 ? 'none' : raised.join(', ')}`,
+      ...(result.power === null ? [] : [formatPower(result.power)]),
       `speed limit ${result.speedLimits.unambiguousMS.toPrecision(4)} m/s unambiguous, overspeed alarm at ${result.speedLimits.overspeedMS.toPrecision(4)} m/s`,
       ...formatPeriodicError(result),
       ...(typeof values.report === 'string' ? [`report: ${values.report}`] : []),

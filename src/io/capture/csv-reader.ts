@@ -30,6 +30,8 @@ interface ColumnPlan {
   readonly names: readonly string[];
   readonly x: number;
   readonly y: number;
+  /** Columns of outputs 3 and 4, when asked for. */
+  readonly extra: readonly number[];
   /** -1 when no time column is used. */
   readonly t: number;
 }
@@ -118,6 +120,8 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
   }
   const plan = planColumns(file, headerLine, header, options);
   const rowParser = new CsvRowParser(plan);
+  const extraBuffers = plan.extra.map(() => new Float64Array(options.blockSize));
+  rowParser.extra = extraBuffers;
 
   function rowError(status: RowStatus, text: string, line: number): CaptureFormatError {
     const columns = `(${plan.names.join(',')})`;
@@ -167,6 +171,7 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
     channelNames: Object.freeze([...plan.names]),
     xChannel: plan.names[plan.x]!,
     yChannel: plan.names[plan.y]!,
+    channels: Object.freeze([plan.x, plan.y, ...plan.extra].map((column) => plan.names[column]!)),
     timeColumn: plan.t === -1 ? null : plan.names[plan.t]!,
     sampleEncoding: peek.allInteger ? 'integer-text' : 'decimal-text',
     totalSamples: null,
@@ -204,7 +209,7 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
     return count;
   }
 
-  return singlePassCapture(info, handle, { x: xBuffer, y: yBuffer, t: tBuffer }, fillBlock);
+  return singlePassCapture(info, handle, { x: xBuffer, y: yBuffer, extra: extraBuffers, t: tBuffer }, fillBlock);
 }
 
 /** End of a line's content: before the newline and an optional carriage return. */
@@ -230,12 +235,18 @@ class CsvRowParser {
   private readonly xColumn: number;
   private readonly yColumn: number;
   private readonly tColumn: number;
+  /** Columns of outputs 3 and 4 (-1: none), and the arrays they are written to (set once the block buffers exist). */
+  private readonly zColumn: number;
+  private readonly wColumn: number;
+  extra: readonly Float64Array[] = [];
 
   constructor(plan: ColumnPlan) {
     this.columns = plan.names.length;
     this.xColumn = plan.x;
     this.yColumn = plan.y;
     this.tColumn = plan.t;
+    this.zColumn = plan.extra[0] ?? -1;
+    this.wColumn = plan.extra[1] ?? -1;
   }
 
   /**
@@ -269,7 +280,7 @@ class CsvRowParser {
           continue;
         }
       }
-      if (field === this.xColumn || field === this.yColumn || field === this.tColumn) {
+      if (field === this.xColumn || field === this.yColumn || field === this.tColumn || field === this.zColumn || field === this.wColumn) {
         parseNumberBytes(bytes, fieldStart, fieldEnd, parsed);
         if (!parsed.ok) {
           if (notNumber === -1) notNumber = field;
@@ -277,6 +288,9 @@ class CsvRowParser {
           if (field === this.xColumn) x[index] = parsed.value;
           if (field === this.yColumn) y[index] = parsed.value;
           if (field === this.tColumn && t !== null) t[index] = parsed.value;
+          // The look at the first rows writes here too, harmlessly: the block pass rewrites every slot it delivers.
+          if (field === this.zColumn) this.extra[0]![index] = parsed.value;
+          if (field === this.wColumn) this.extra[1]![index] = parsed.value;
           if (field !== this.tColumn && !parsed.integer) integer = false;
         }
       }
@@ -322,10 +336,11 @@ function planColumns(file: string, line: number, names: readonly string[], optio
   };
   const x = find('xChannel', options.xChannel ?? 'x');
   const y = find('yChannel', options.yChannel ?? 'y');
+  const extra = options.extraChannels.map((selector, index) => find(`channels[${index + 2}]`, selector));
   let t = -1;
   if (options.timeColumn === undefined) t = names.indexOf('t');
   else if (options.timeColumn !== null) t = find('timeColumn', options.timeColumn);
-  return { names, x, y, t };
+  return { names, x, y, extra, t };
 }
 
 interface PeekResult {

@@ -11,6 +11,8 @@ export interface ResolvedCaptureOptions {
   readonly format: CaptureFormat | null;
   readonly xChannel: ChannelSelector | null;
   readonly yChannel: ChannelSelector | null;
+  /** Outputs 3 and 4 of `channels`, when given. */
+  readonly extraChannels: readonly ChannelSelector[];
   /** undefined: use `t` when present; null: use none. */
   readonly timeColumn: ChannelSelector | null | undefined;
   readonly rateHz: number | null;
@@ -22,10 +24,20 @@ export function resolveCaptureOptions(options: OpenCaptureOptions): ResolvedCapt
   if (options.format !== undefined && options.format !== 'csv' && options.format !== 'wav') {
     throw new RangeError(`format must be "csv" or "wav" (got ${JSON.stringify(options.format)})`);
   }
+  const channels = options.channels;
+  if (channels !== undefined) {
+    if (!Array.isArray(channels) || channels.length < 2 || channels.length > 4) {
+      throw new RangeError(`channels must list 2 to 4 column names or 1-based numbers (got ${JSON.stringify(channels)})`);
+    }
+    if (options.xChannel !== undefined || options.yChannel !== undefined) {
+      throw new RangeError('channels names x and y itself (its first two entries): give it or xChannel/yChannel, not both');
+    }
+  }
   return Object.freeze({
     format: options.format ?? null,
-    xChannel: checkSelector('xChannel', options.xChannel),
-    yChannel: checkSelector('yChannel', options.yChannel),
+    xChannel: checkSelector('xChannel', channels?.[0] ?? options.xChannel),
+    yChannel: checkSelector('yChannel', channels?.[1] ?? options.yChannel),
+    extraChannels: Object.freeze((channels ?? []).slice(2).map((selector, index) => checkSelector(`channels[${index + 2}]`, selector)!)),
     timeColumn: options.timeColumn === null ? null : (checkSelector('timeColumn', options.timeColumn) ?? undefined),
     rateHz: options.rateHz === undefined ? null : checkPositiveFinite('rateHz', options.rateHz),
     blockSize: checkInteger('blockSize', options.blockSize ?? DEFAULT_BLOCK_SIZE, 1, MAX_BLOCK_SIZE),

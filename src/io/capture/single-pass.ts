@@ -5,6 +5,8 @@ import type { Capture, CaptureBlock, CaptureInfo } from './types.js';
 export interface BlockBuffers {
   readonly x: Float64Array;
   readonly y: Float64Array;
+  /** Outputs 3 and 4 when the capture was opened with them. */
+  readonly extra: readonly Float64Array[];
   /** Times in seconds, or null when the file has no time column. */
   readonly t: Float64Array | null;
 }
@@ -16,7 +18,14 @@ export interface BlockBuffers {
  */
 export function singlePassCapture(info: CaptureInfo, handle: FileHandle, buffers: BlockBuffers, fill: () => Promise<number>): Capture {
   const blockSize = buffers.x.length;
-  const block: { -readonly [K in keyof CaptureBlock]: CaptureBlock[K] } = { x: buffers.x, y: buffers.y, t: buffers.t, length: 0, firstIndex: 0 };
+  const block: { -readonly [K in keyof CaptureBlock]: CaptureBlock[K] } = {
+    x: buffers.x,
+    y: buffers.y,
+    channels: [buffers.x, buffers.y, ...buffers.extra],
+    t: buffers.t,
+    length: 0,
+    firstIndex: 0,
+  };
   let samplesDelivered = 0;
   let closed = false;
   let started = false;
@@ -37,6 +46,7 @@ export function singlePassCapture(info: CaptureInfo, handle: FileHandle, buffers
           block.x = buffers.x.subarray(0, count);
           block.y = buffers.y.subarray(0, count);
           block.t = buffers.t === null ? null : buffers.t.subarray(0, count);
+          block.channels = [block.x, block.y, ...buffers.extra.map((channel) => channel.subarray(0, count))];
         }
         block.length = count;
         block.firstIndex = samplesDelivered;

@@ -35,6 +35,8 @@ export interface CaptureInfo {
   /** The names of the channels delivered as `x` and `y`, and of the time column (null when none is used). */
   readonly xChannel: string;
   readonly yChannel: string;
+  /** The names of every channel delivered, in `CaptureBlock.channels` order: x, y, then any further outputs. */
+  readonly channels: readonly string[];
   readonly timeColumn: string | null;
   readonly sampleEncoding: SampleEncoding;
   /** Sample frames in the file when the header states it (WAV); null for CSV, which is not counted ahead. */
@@ -53,6 +55,8 @@ export interface CaptureBlock {
   /** Channel values: ADC counts for integer encodings, stored values for float and text. */
   readonly x: Float64Array;
   readonly y: Float64Array;
+  /** Every channel delivered (see `OpenCaptureOptions.channels`): `channels[0]` is `x`, `channels[1]` is `y`. */
+  readonly channels: readonly Float64Array[];
   /** Times in seconds from the CSV `t` column, or null when the file has none (then t = index / rateHz). */
   readonly t: Float64Array | null;
   readonly length: number;
@@ -67,6 +71,11 @@ export interface OpenCaptureOptions {
   xChannel?: ChannelSelector;
   /** Channel delivered as y; default `"y"` for CSV, channel 2 for WAV. Numbers are 1-based. */
   yChannel?: ChannelSelector;
+  /**
+   * 2 to 4 detector outputs of one axis, in order (three- and four-output detectors): the first two are delivered
+   * as x and y, all of them in `CaptureBlock.channels`. Not together with xChannel/yChannel. Default [x, y].
+   */
+  channels?: readonly ChannelSelector[];
   /** CSV time column in seconds; default `"t"` when the header has one; null ignores any time column. */
   timeColumn?: ChannelSelector | null;
   /** Sample rate in Hz, positive finite; overrides the header, metadata and `t` estimate. Required for CSV without any of them. */

@@ -16,6 +16,7 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
   const channelNames = Array.from({ length: layout.channels }, (_, index) => `ch${index + 1}`);
   const xChannel = pickChannel(file, layout, channelNames, 'xChannel', options.xChannel ?? 1);
   const yChannel = pickChannel(file, layout, channelNames, 'yChannel', options.yChannel ?? 2);
+  const extraChannels = options.extraChannels.map((selector, index) => pickChannel(file, layout, channelNames, `channels[${index + 2}]`, selector));
   const info: CaptureInfo = Object.freeze({
     file,
     format: 'wav',
@@ -24,6 +25,7 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
     channelNames: Object.freeze(channelNames),
     xChannel: channelNames[xChannel]!,
     yChannel: channelNames[yChannel]!,
+    channels: Object.freeze([xChannel, yChannel, ...extraChannels].map((channel) => channelNames[channel]!)),
     timeColumn: null,
     sampleEncoding: layout.encoding,
     totalSamples: Math.floor(layout.dataBytes / layout.blockAlign),
@@ -51,6 +53,7 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
   const blockSize = options.blockSize;
   const xBuffer = new Float64Array(blockSize);
   const yBuffer = new Float64Array(blockSize);
+  const extraBuffers = extraChannels.map(() => new Float64Array(blockSize));
   let pendingError: Error | null = null;
 
   /** Keeps a partial frame, reads the next chunk after it; false when the data chunk is used up. */
@@ -86,6 +89,13 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
   }
 
   function decode(count: number, frames: number): void {
+    // Outputs 3 and 4 of three- and four-output detectors: a plain per-sample read, off the two-channel fast paths.
+    extraBuffers.forEach((target, index) => {
+      const offset = extraChannels[index]! * bytesPerSample;
+      for (let i = count, at = bufferStart + offset; i < count + frames; i++, at += blockAlign) {
+        target[i] = layout.encoding === 'int16' ? buffer.readInt16LE(at) : layout.encoding === 'int24' ? buffer.readIntLE(at, 3) : buffer.readFloatLE(at);
+      }
+    });
     let at = bufferStart;
     if (int16View !== null) {
       const stride = blockAlign >> 1;
@@ -146,7 +156,7 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
     return count;
   }
 
-  return singlePassCapture(info, handle, { x: xBuffer, y: yBuffer, t: null }, fillBlock);
+  return singlePassCapture(info, handle, { x: xBuffer, y: yBuffer, extra: extraBuffers, t: null }, fillBlock);
 }
 
 function pickChannel(file: string, layout: WavLayout, names: readonly string[], option: string, selector: ChannelSelector): number {
