@@ -4,6 +4,8 @@
 //     beside correcting with the true one (the noise floor).
 //  2. A drifting ellipse (offsets and gains move by several percent over the run): periodic error of a batch fit
 //     made at the start, of the online correction and of the known ellipse; heap growth of the online stage.
+//  3. Real three-output recordings when ../shared/realdata exists (real-recordings.ts): pairs (classic, bias-reduced,
+//     online) and all three outputs against an independent reference; skipped with a note otherwise.
 // Runs alone: `node dist/bench/accuracy.js [--json] [--seeds N] [--fit-samples N]` (after `npx tsc -p tsconfig.json`).
 
 import { pathToFileURL } from 'node:url';
@@ -18,6 +20,7 @@ import {
 } from '../src/core/index.js';
 import { createEllipseFit, ELLIPSE_FIT_METHODS, type EllipseFitMethod } from '../src/core/fit-improved.js';
 import { createOnlineCorrection } from '../src/core/online-correction.js';
+import { formatRealRecordings, runRealRecordings, type RealRecordingsResult } from './real-recordings.js';
 
 /** Vacuum wavelength of an unstabilised He-Ne (CIPM 2007, REFERENCES.md) and a single-pass fold of 2. */
 const WAVELENGTH_NM = 632.9908;
@@ -87,6 +90,8 @@ export interface AccuracyResult {
   fitSamples: number;
   conditions: ConditionFigures[];
   drift: DriftFigures;
+  /** Real recordings, or the note why they were skipped. */
+  real: RealRecordingsResult;
   seconds: number;
 }
 
@@ -315,7 +320,8 @@ export function runAccuracyBenchmark(options: AccuracyOptions = {}): AccuracyRes
     for (const arc of [0.5, 0.75, 1]) conditions.push(runCondition(noise, arc, seeds, fitSamples));
   }
   const drift = runDrift(options.driftSamples ?? 400_000);
-  return { truth: TRUTH, fitSamples, conditions, drift, seconds: Number(process.hrtime.bigint() - started) / 1e9 };
+  const real = runRealRecordings();
+  return { truth: TRUTH, fitSamples, conditions, drift, real, seconds: Number(process.hrtime.bigint() - started) / 1e9 };
 }
 
 export function formatAccuracyTable(result: AccuracyResult): string {
@@ -359,6 +365,8 @@ export function formatAccuracyTable(result: AccuracyResult): string {
   }
   lines.push(row('known ellipse', d.knownEllipse));
   lines.push(`  online stage: ${d.onlineNsPerSample.toFixed(1)} ns/sample, heap growth over 5 steady passes ${d.onlineHeapGrowthBytes} bytes`);
+  lines.push('');
+  lines.push(formatRealRecordings(result.real));
   lines.push(`total ${result.seconds.toFixed(1)} s`);
   return lines.join('\n');
 }
