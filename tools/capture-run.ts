@@ -58,11 +58,10 @@ export async function fitCapture(
   fitOptions: EllipseFitOptions,
   progress: Progress,
 ): Promise<{ fit: EllipseFitResult; info: CaptureInfo; channels?: ChannelParameters[] }> {
-  const normalised = (open.channels?.length ?? 2) > 2 ? await powerPass(path, open, progress) : null;
+  const power = (open.channels?.length ?? 2) > 2 ? await powerPass(path, open, progress) : null;
+  const normalised = power?.normalisation ?? null;
   if (typeof normalised === 'string') {
-    const capture = await openCapture(path, { ...open, blockSize: BLOCK });
-    await capture.close();
-    return { fit: { ok: false, reason: 'degenerate', message: normalised, samples: 0, coverage: Number.NaN }, info: capture.info };
+    return { fit: { ok: false, reason: 'degenerate', message: normalised, samples: 0, coverage: Number.NaN }, info: power!.info };
   }
   const first = await fitPass(path, open, fitOptions, progress, null, normalised);
   if (!first.fit.ok) return first;
@@ -75,7 +74,7 @@ export async function fitCapture(
  * Three or four outputs: the first pass finds the source-power combination (channel-fit.ts); the ellipse passes
  * then fit the power-normalised pair. Returns the refusal message when the outputs do not allow it.
  */
-async function powerPass(path: string, open: OpenCaptureOptions, progress: Progress): Promise<PowerNormalisation | string> {
+async function powerPass(path: string, open: OpenCaptureOptions, progress: Progress): Promise<{ normalisation: PowerNormalisation | string; info: CaptureInfo }> {
   const capture = await openCapture(path, { ...open, blockSize: BLOCK });
   const moments = createChannelMomentAccumulator({ channelCount: capture.info.channels.length });
   progress.start(`fit ${path} (source power)`, capture.info.totalSamples);
@@ -89,7 +88,7 @@ async function powerPass(path: string, open: OpenCaptureOptions, progress: Progr
     await capture.close();
   }
   const result = moments.solve();
-  return result.ok ? result.normalisation : `outputs ${capture.info.channels.join(',')}: ${result.message}`;
+  return { normalisation: result.ok ? result.normalisation : `outputs ${capture.info.channels.join(',')}: ${result.message}`, info: capture.info };
 }
 
 async function fitPass(
