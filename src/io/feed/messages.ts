@@ -10,7 +10,7 @@ export const FEED_SCHEMA = 1;
  * `input units` (a raw sample as the source gave it, ADC counts for int16 frames), `rad/sample` (phase step
  * between two samples), `rad` (phase travel while the signal was held), `samples` (lost in transport).
  */
-export type FeedValueUnit = 'level' | 'input units' | 'rad/sample' | 'rad' | 'samples';
+export type FeedValueUnit = 'level' | 'input units' | 'rad/sample' | 'rad' | 'samples' | 'relative power';
 
 /** An alarm state change as sent: `kind` is the text name (`low_signal`...), `value` and `unit` null when it has none. */
 export interface FeedAlarmEvent {
@@ -137,6 +137,8 @@ function unitOf(event: AlarmEvent, gapAt: ReadonlySet<number>): FeedValueUnit | 
       return gapAt.has(event.sampleIndex) ? 'samples' : 'rad';
     case 'badSample':
       return null;
+    case 'lowPower':
+      return 'relative power';
   }
 }
 
