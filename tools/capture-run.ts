@@ -9,7 +9,6 @@ import {
   createCorrection,
   createEllipseAccumulator,
   createPeriodicErrorAnalyzer,
-  createPipeline,
   createWindowDetrender,
   fastAtan2,
   wrapPhase,
@@ -26,6 +25,7 @@ import {
   type SpeedLimits,
   type UnwrapMethod,
 } from '../src/core/index.js';
+import { createPipeline } from '../src/accel/index.js';
 import { openCapture, type CaptureInfo, type OpenCaptureOptions } from '../src/io/capture/index.js';
 import type { ResultWriter } from '../src/io/results/index.js';
 import type { Progress } from './progress.js';

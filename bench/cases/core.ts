@@ -1,16 +1,17 @@
-// Benchmark cases of the core stages and the whole pipeline on int16 samples in 4096-sample blocks,
+// Benchmark cases of the core stages and the whole (default) pipeline on int16 samples in 4096-sample blocks,
 // with a naive per-sample baseline beside them so a ratio can be read.
 
 import {
   createCorrection,
   createDisplacement,
   createPhaseTracker,
-  createPipeline,
   createQuadratureSynthesizer,
   createSignalMonitor,
   type AlarmEvent,
   type EllipseCalibration,
 } from '../../src/core/index.js';
+// The default pipeline of the Node entry points (the fastest exact front end); plain-js in cases/accel.ts.
+import { createPipeline } from '../../src/accel/index.js';
 import type { BenchCase } from '../harness.js';
 
 export const TOTAL_SAMPLES = 1 << 22;

@@ -60,13 +60,16 @@ function decode(base64: string): Uint8Array<ArrayBuffer> {
   return bytes;
 }
 
+// Compiled once per process: every pipeline of the Node entry points makes a front end.
+let compiled: WebAssembly.Module | undefined;
+
 /** The kernel, or null when this engine lacks WebAssembly or its SIMD extension. */
 export function createWasmFrontEnd(options: WasmFrontEndOptions = {}): WasmFrontEnd | null {
   const precision = options.precision ?? 'f32';
   let kernel: KernelExports;
   try {
-    const module = new WebAssembly.Module(decode(FRONT_END_WASM_BASE64));
-    kernel = new WebAssembly.Instance(module, {}).exports as unknown as KernelExports;
+    compiled ??= new WebAssembly.Module(decode(FRONT_END_WASM_BASE64));
+    kernel = new WebAssembly.Instance(compiled, {}).exports as unknown as KernelExports;
   } catch {
     return null; // no WebAssembly SIMD here: the caller keeps the JavaScript stages
   }

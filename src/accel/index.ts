@@ -1,5 +1,5 @@
-// fringetally accel layer: optional accelerated front ends for the core pipeline (WebAssembly SIMD kernels, and a fused
-// plain-JavaScript loop where WebAssembly SIMD is missing).
+// fringetally accel layer: accelerated front ends for the core pipeline (WebAssembly SIMD kernels, and a fused
+// plain-JavaScript loop where WebAssembly SIMD is missing), and `createPipeline` with the fastest exact one by default.
 export {
   createWasmFrontEnd,
   F32_MAX_LEVEL_RELATIVE_ERROR,
@@ -9,3 +9,4 @@ export {
   type WasmFrontEndPrecision,
 } from './front-end.js';
 export { createFusedFrontEnd, type FusedFrontEndOptions } from './fused-front-end.js';
+export { createExactFrontEnd, createPipeline, type ExactFrontEnd, type ExactFrontEndKind } from './pipeline.js';

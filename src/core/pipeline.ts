@@ -45,8 +45,12 @@ export interface PipelineOptions {
   readonly clearHoldSamples?: number;
   /** Initial size of the internal block buffers in samples; they grow once to the largest block seen. Default 4096. */
   readonly blockCapacity?: number;
-  /** Accelerated front end for quiet blocks (same results); default none: the JavaScript stages only. */
-  readonly frontEnd?: FrontEnd;
+  /**
+   * Accelerated front end for quiet blocks (same results, or within its stated error). Here the default is none
+   * (`null` too): the JavaScript stages only. The Node entry points' `createPipeline` (src/accel/pipeline.ts,
+   * re-exported by the package root) defaults to the fastest exact one.
+   */
+  readonly frontEnd?: FrontEnd | null;
 }
 
 /**
@@ -182,7 +186,7 @@ export function createPipeline(options: PipelineOptions): Pipeline {
   }
   allocate(integerInRange('blockCapacity', options.blockCapacity ?? 4096, 1, 2 ** 28));
 
-  const frontEnd = options.frontEnd;
+  const frontEnd = options.frontEnd ?? undefined;
   const { low, high } = monitor.limits;
   const minLevel = monitor.options.lowSignalLevel;
   // The least step size at which a plain tracker decides anything (the overspeed alarm's clear level, below its

@@ -6,7 +6,6 @@ import { asyncScheduler, distinctUntilChanged, filter, interval, map, mergeMap, 
 import {
   alarmText,
   createCorrection,
-  createPipeline,
   integerInRange,
   OptionError,
   positiveFinite,
@@ -18,6 +17,7 @@ import {
   type SampleArray,
   type SpeedLimits,
 } from '../core/index.js';
+import { createPipeline } from '../accel/pipeline.js';
 import { checkAxisBlock, checkFrameBlock, type AxisBlock, type FrameBlock } from './blocks.js';
 import { createPositionBuffers } from './track-position.js';
 

@@ -1,7 +1,8 @@
 // Operator: the whole core signal chain (correction → monitor → phase tracker → displacement) over blocks.
 
 import { Observable, type OperatorFunction } from 'rxjs';
-import { createPipeline, type AlarmEvent, type PipelineOptions } from '../core/index.js';
+import { createPipeline } from '../accel/pipeline.js';
+import type { AlarmEvent, PipelineOptions } from '../core/index.js';
 import { checkAxisBlock, type AxisBlock, type PositionBlock } from './blocks.js';
 
 /** Per-subscription output buffers that grow once to the largest block and hand out views of one length. */

@@ -14,8 +14,11 @@ import {
   type FrontEnd,
   type PipelineOptions,
 } from '../../src/core/index.js';
+import * as packageRoot from '../../src/index.js';
 import {
+  createExactFrontEnd,
   createFusedFrontEnd,
+  createPipeline as createDefaultPipeline,
   createWasmFrontEnd,
   F32_MAX_LEVEL_RELATIVE_ERROR,
   F32_MAX_PHASE_ERROR_RAD,
@@ -210,8 +213,14 @@ function alarmSignal(n: number, seed: number) {
   return { x, y };
 }
 
-function runPipeline(x: Int16Array | Float64Array, y: Int16Array | Float64Array, options: PipelineOptions, split: readonly number[]) {
-  const pipeline = createPipeline(options);
+function runPipeline(
+  x: Int16Array | Float64Array,
+  y: Int16Array | Float64Array,
+  options: PipelineOptions,
+  split: readonly number[],
+  create: typeof createPipeline = createPipeline,
+) {
+  const pipeline = create(options);
   const n = x.length;
   const out = { positionM: new Float64Array(n), velocityMS: new Float64Array(n), level: new Float32Array(n), flags: new Uint8Array(n), unwrappedPhaseRad: new Float64Array(n) };
   const events: AlarmEvent[] = [];
@@ -365,6 +374,36 @@ describe('fused JavaScript front end', () => {
   });
 });
 
+describe('default pipeline of the Node entry points', () => {
+  it('is the package root\'s createPipeline, and its front end is the exact WebAssembly kernel plus the fused loop here', () => {
+    expect(packageRoot.createPipeline).toBe(createDefaultPipeline);
+    expect(createExactFrontEnd().kind).toBe('wasm-simd-f64-exact+js-fused');
+  });
+
+  it('without frontEnd gives the plain stages\' results (frontEnd: null) for int16 and float samples, any block split', () => {
+    const ints = alarmSignal(N, 13);
+    const floats = { x: Float64Array.from(ints.x), y: Float64Array.from(ints.y) };
+    floats.x[12_345] = Number.NaN;
+    const floatOptions: PipelineOptions = { ...baseOptions, adc: { kind: 'float', fullScale: 32768 } };
+    fc.assert(
+      fc.property(splitArbitrary, (split) => {
+        const plain = { ...baseOptions, frontEnd: null };
+        expect(runPipeline(ints.x, ints.y, baseOptions, split, createDefaultPipeline)).toEqual(runPipeline(ints.x, ints.y, plain, split));
+        const floatPlain = { ...floatOptions, frontEnd: null };
+        expect(runPipeline(floats.x, floats.y, floatOptions, split, createDefaultPipeline)).toEqual(runPipeline(floats.x, floats.y, floatPlain, split));
+      }),
+      { numRuns: 5 },
+    );
+    // Quiet blocks of both types are accepted (int16 by the kernel, float by the fused loop), alarm blocks declined.
+    for (const [signal, options] of [[ints, baseOptions], [floats, floatOptions]] as const) {
+      const { wrapped, counts } = counting(createExactFrontEnd());
+      runPipeline(signal.x, signal.y, { ...options, frontEnd: wrapped }, [4096, 8192]);
+      expect(counts.accepted).toBeGreaterThan(0);
+      expect(counts.accepted).toBeLessThan(counts.calls);
+    }
+  });
+});
+
 describe('without WebAssembly', () => {
   afterEach(() => {
     vi.unstubAllGlobals();
@@ -377,6 +416,14 @@ describe('without WebAssembly', () => {
     const { x, y } = alarmSignal(10_000, 8);
     const options: PipelineOptions = { ...baseOptions, frontEnd: front ?? undefined };
     expect(runPipeline(x, y, options, [4096])).toEqual(runPipeline(x, y, baseOptions, [4096]));
+  });
+
+  it('createExactFrontEnd falls back to the fused loop, with the stages\' results', () => {
+    vi.stubGlobal('WebAssembly', undefined);
+    const front = createExactFrontEnd();
+    expect(front.kind).toBe('js-fused');
+    const { x, y } = alarmSignal(10_000, 14);
+    expect(runPipeline(x, y, { ...baseOptions, frontEnd: front }, [4096])).toEqual(runPipeline(x, y, baseOptions, [4096]));
   });
 
   it('`createWasmFrontEnd() ?? createFusedFrontEnd()` falls back to the fused loop, with the stages\' results', () => {

@@ -5,13 +5,13 @@
 import {
   createCorrection,
   createEllipseAccumulator,
-  createPipeline,
   type AlarmEvent,
   type AlarmKind,
   type EllipseCalibration,
   type EllipseFitResult,
   type Pipeline,
 } from '../../src/core/index.js';
+import { createPipeline } from '../../src/accel/index.js';
 import { isLinkEvent, type ByteSource, type ByteSourceEvent, type LinkEvent } from '../../src/io/serial/index.js';
 import {
   createLineDecoder,

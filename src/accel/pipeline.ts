@@ -1,0 +1,39 @@
+// The pipeline with the fastest front end that gives the JavaScript stages' results to the bit: the Node entry
+// points (the package root, src/stream, src/io, the tool) build their pipelines here. The core's own
+// `createPipeline` stays plain, so the embedded bundle (docs/embedded.md) carries no front end.
+import { createPipeline as createPlainPipeline, type FrontEnd, type Pipeline, type PipelineOptions, type SampleArray } from '../core/index.js';
+import { createWasmFrontEnd } from './front-end.js';
+import { createFusedFrontEnd } from './fused-front-end.js';
+
+/** Which kernels an exact front end runs: int16 blocks in WebAssembly SIMD where it exists, everything else fused. */
+export type ExactFrontEndKind = 'wasm-simd-f64-exact+js-fused' | 'js-fused';
+
+export interface ExactFrontEnd extends FrontEnd {
+  readonly kind: ExactFrontEndKind;
+}
+
+/**
+ * The fastest bit-identical front end here: the `f64-exact` WebAssembly kernel for int16 blocks where WebAssembly
+ * SIMD exists, the fused JavaScript loop for other sample types and where it does not.
+ */
+export function createExactFrontEnd(): ExactFrontEnd {
+  const fused = createFusedFrontEnd();
+  const wasm = createWasmFrontEnd({ precision: 'f64-exact' });
+  if (wasm === null) return { kind: 'js-fused', process: fused.process };
+  return {
+    kind: 'wasm-simd-f64-exact+js-fused',
+    process(x: SampleArray, y: SampleArray, ...rest) {
+      // Only the type decides: a block the kernel declines for its signal, the fused loop would decline too.
+      return x instanceof Int16Array && y instanceof Int16Array ? wasm.process(x, y, ...rest) : fused.process(x, y, ...rest);
+    },
+  };
+}
+
+/**
+ * `createPipeline` of the core with `frontEnd` defaulting to `createExactFrontEnd()`: same outputs and events,
+ * faster. `frontEnd: null` asks for the plain stages.
+ */
+export function createPipeline(options: PipelineOptions): Pipeline {
+  if (options.frontEnd !== undefined) return createPlainPipeline(options);
+  return createPlainPipeline({ ...options, frontEnd: createExactFrontEnd() });
+}
