@@ -1,4 +1,4 @@
-// `npm run bench [-- --json] [-- --capture] [-- --replay] [-- --stream] [-- --live] [-- --accuracy] [-- --all]`:
+// `npm run bench [-- --json] [-- --reference] [-- --capture] [-- --replay] [-- --stream] [-- --live] [-- --accuracy] [-- --all]`:
 // measures the core stages, the whole pipeline (plain and with the WebAssembly front ends) and the decoder (always), and on request the capture readers,
 // replay from files, the stream API and the WebSocket feed, live tracking through a pseudo-terminal (needs socat) and the accuracy of
 // the ellipse fits; prints a table or one JSON document.
@@ -12,6 +12,7 @@ import { coreCases, heapGrowth } from './cases/core.js';
 import { decoderCases, type DecoderBenchCase } from './cases/decoder.js';
 import { feedBenchmarks } from './cases/feed.js';
 import { liveBenchmarks } from './cases/live.js';
+import { cCases, JS_MINIMAL_CASE, jsMinimalCase, machine } from './cases/reference.js';
 import { replayCases } from './cases/replay.js';
 import { streamCase, streamCaseNames } from './cases/stream.js';
 import { measure, type BenchResult } from './harness.js';
@@ -24,6 +25,7 @@ const { values } = parseArgs({
     accuracy: { type: 'boolean', default: false },
     live: { type: 'boolean', default: false },
     stream: { type: 'boolean', default: false },
+    reference: { type: 'boolean', default: false },
     all: { type: 'boolean', default: false },
     'heap-samples': { type: 'string', default: String(1e8) },
     case: { type: 'string' },
@@ -47,7 +49,8 @@ if (values.case !== undefined) {
   const core = coreCases().filter((benchCase) => benchCase.name === name).map((benchCase) => measure(benchCase));
   const decoder = core.length > 0 ? [] : decoderCases().filter((benchCase) => benchCase.name === name).map(measureDecoder);
   const stream = core.length + decoder.length > 0 ? null : streamCase(name);
-  const found = [...core, ...decoder, ...(stream === null ? [] : [stream])];
+  const reference = name === JS_MINIMAL_CASE ? [jsMinimalCase()] : [];
+  const found = [...core, ...decoder, ...(stream === null ? [] : [stream]), ...reference];
   process.stdout.write(JSON.stringify(found.length > 0 ? found : accelCases(name)) + '\n');
   process.exit(0);
 }
@@ -82,6 +85,25 @@ for (const name of decoderCases().map((benchCase) => benchCase.name)) {
   results.push(...isolated(name));
   log(`measured ${name}`);
 }
+// Ratios to C and to a minimal JavaScript loop, all in process CPU time and in this run (figures from
+// different runs move by 10–30 % on this kind of machine; ratios within one run move much less).
+let reference: Record<string, number> | null = null;
+if (values.reference || values.all) {
+  results.push(...isolated(JS_MINIMAL_CASE));
+  results.push(...(await cCases()));
+  log('measured the reference implementations');
+  const rate = (name: string) => results.find((result) => result.name === name)?.samplesPerSecond ?? Number.NaN;
+  const best = Math.max(...results.filter((result) => result.name.startsWith('pipeline/int16/block4096/')).map((result) => result.samplesPerSecond));
+  const fastest = results.find((result) => result.samplesPerSecond === best)!.name;
+  reference = {
+    defaultOverPlainC: rate('pipeline/int16/block4096/default') / rate('reference/c-plain-libm'),
+    defaultOverPlainCNative: rate('pipeline/int16/block4096/default') / rate('reference/c-plain-libm-native'),
+    defaultOverMinimalJs: rate('pipeline/int16/block4096/default') / rate(JS_MINIMAL_CASE),
+    defaultOverVectorisedC: rate('pipeline/int16/block4096/default') / rate('reference/c-vectorised-poly'),
+    bestOverVectorisedC: best / rate('reference/c-vectorised-poly'),
+  };
+  log(`fastest pipeline variant: ${fastest}`);
+}
 if (values.capture || values.all) {
   results.push(...(await captureCases()));
   log('measured capture readers');
@@ -103,7 +125,13 @@ if (values.live || values.all) {
 const accuracy = values.accuracy || values.all ? runAccuracyBenchmark() : null;
 
 if (values.json) {
-  const document = { cases: results, pipelineOverNaive: pipeline.samplesPerSecond / naive.samplesPerSecond, ...(accuracy === null ? {} : { accuracy }) };
+  const document = {
+    machine: machine(),
+    cases: results,
+    pipelineOverNaive: pipeline.samplesPerSecond / naive.samplesPerSecond,
+    ...(reference === null ? {} : { reference }),
+    ...(accuracy === null ? {} : { accuracy }),
+  };
   process.stdout.write(JSON.stringify(document, null, 2) + '\n');
 } else {
   for (const result of results) {
@@ -113,5 +141,10 @@ if (values.json) {
     );
   }
   process.stdout.write(`pipeline / naive baseline: ${(pipeline.samplesPerSecond / naive.samplesPerSecond).toFixed(1)}x\n`);
+  if (reference !== null) {
+    for (const [key, ratio] of Object.entries(reference)) process.stdout.write(`${key}: ${ratio.toFixed(2)}x\n`);
+    const { cpuModel, cpuFlags } = machine();
+    process.stdout.write(`CPU: ${cpuModel}, ${cpuFlags.filter((flag) => /^(avx|sse4|fma|neon|asimd)/.test(flag)).join(' ')}\n`);
+  }
   if (accuracy !== null) process.stdout.write('\n' + formatAccuracyTable(accuracy) + '\n');
 }

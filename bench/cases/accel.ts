@@ -3,7 +3,7 @@
 // (process.cpuUsage), median of the passes, so that other processes on the machine weigh less.
 import { createPipeline, fastAtan2, type AlarmEvent, type EllipseCalibration, type FrontEnd, type PipelineOptions } from '../../src/core/index.js';
 import { createCorrection, createSignalMonitor } from '../../src/core/index.js';
-import { createFusedFrontEnd, createWasmFrontEnd, type WasmFrontEndPrecision } from '../../src/accel/index.js';
+import { createFusedFrontEnd, createPipeline as createDefaultPipeline, createWasmFrontEnd, type WasmFrontEndPrecision } from '../../src/accel/index.js';
 import { median, type BenchResult } from '../harness.js';
 import { benchSignal, BLOCK, TOTAL_SAMPLES } from './core.js';
 
@@ -14,7 +14,7 @@ const ellipse: EllipseCalibration = { offsetX: 700, offsetY: -450, amplitudeX: 1
 const WARMUP_PASSES = 5;
 const PASSES = 15;
 
-interface Timed {
+export interface Timed {
   name: string;
   pass(): void;
   extra?(): Record<string, number>;
@@ -25,7 +25,7 @@ function cpuSeconds(): number {
   return (user + system) / 1e6;
 }
 
-function measureCpu(timed: Timed): BenchResult {
+export function measureCpu(timed: Timed): BenchResult {
   for (let i = 0; i < WARMUP_PASSES; i++) timed.pass();
   const cpu: number[] = [];
   const wall: number[] = [];
@@ -53,6 +53,7 @@ export const ACCEL_CASE_NAMES: readonly string[] = [
   'front-end/int16/block4096/js-stages',
   'front-end/int16/block4096/js-fused',
   ...VARIANTS.map((precision) => `front-end/int16/block4096/wasm-simd-${precision}`),
+  'pipeline/int16/block4096/default',
   'pipeline/int16/block4096/plain-js',
   'pipeline/int16/block4096/js-fused',
   ...VARIANTS.map((precision) => `pipeline/int16/block4096/wasm-simd-${precision}`),
@@ -121,8 +122,8 @@ export function accelCases(only?: string): BenchResult[] {
 
   const options: PipelineOptions = { rateHz: RATE_HZ, wavelengthM: WAVELENGTH_M, fold: 2, calibration: ellipse, adc: { kind: 'int16' } };
   const output = { positionM: new Float64Array(BLOCK), velocityMS: new Float64Array(BLOCK), level, flags };
-  const pipelineCase = (name: string, frontEnd: FrontEnd | undefined): Timed => {
-    const pipeline = createPipeline({ ...options, frontEnd });
+  const pipelineCase = (name: string, frontEnd: FrontEnd | undefined, create = createPipeline): Timed => {
+    const pipeline = create({ ...options, frontEnd });
     return {
       name,
       pass() {
@@ -132,6 +133,8 @@ export function accelCases(only?: string): BenchResult[] {
       },
     };
   };
+  // The default of the Node entry points (src/accel/pipeline.ts), in CPU time like the reference cases.
+  measureSelected(pipelineCase('pipeline/int16/block4096/default', undefined, createDefaultPipeline));
   measureSelected(pipelineCase('pipeline/int16/block4096/plain-js', undefined));
   measureSelected(pipelineCase('pipeline/int16/block4096/js-fused', fused));
   for (const [precision, frontEnd] of frontEnds) {

@@ -186,7 +186,7 @@ export function createPipeline(options: PipelineOptions): Pipeline {
   }
   allocate(integerInRange('blockCapacity', options.blockCapacity ?? 4096, 1, 2 ** 28));
 
-  const frontEnd = options.frontEnd ?? undefined;
+  const frontEnd = options.frontEnd;
   const { low, high } = monitor.limits;
   const minLevel = monitor.options.lowSignalLevel;
   // The least step size at which a plain tracker decides anything (the overspeed alarm's clear level, below its
@@ -200,7 +200,7 @@ export function createPipeline(options: PipelineOptions): Pipeline {
     output.flags.fill(0, 0, length);
     track.flags = output.flags;
     const phases =
-      frontEnd !== undefined && monitor.quiet
+      frontEnd && monitor.quiet
         ? frontEnd.process(x, y, length, correction.coefficients, low, high, minLevel, output.level, tracker.phaseRad, stepGuardRad)
         : null;
     if (phases !== null) {
