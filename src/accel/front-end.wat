@@ -118,10 +118,11 @@
         (br $next)))
     (i32.eqz (v128.any_true (local.get $bad))))
 
-  ;; front_f64(n, xPtr, yPtr, levelPtr, phasePtr, ux, u0, vx, vy, v0, low, high, minLevel) -> 1 when every sample
-  ;; is quiet (level >= minLevel, codes strictly inside (low, high)), else 0. n even. Level out as f32, phase f64.
+  ;; front_f64(n, wide, xPtr, yPtr, levelPtr, phasePtr, ux, u0, vx, vy, v0, low, high, minLevel) -> 1 when every
+  ;; sample is quiet (level >= minLevel, codes strictly inside (low, high)), else 0. n even. Samples are int16, or
+  ;; f64 when wide is not 0 (read as they are: a Float64Array's values). Level out as f32, phase f64.
   (func (export "front_f64")
-    (param $n i32) (param $xp i32) (param $yp i32) (param $lp i32) (param $pp i32)
+    (param $n i32) (param $wide i32) (param $xp i32) (param $yp i32) (param $lp i32) (param $pp i32)
     (param $ux f64) (param $u0 f64) (param $vx f64) (param $vy f64) (param $v0 f64)
     (param $low f64) (param $high f64) (param $minLevel f64)
     (result i32)
@@ -156,8 +157,13 @@
     (block $done
       (loop $next
         (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
-        (local.set $x (f64x2.convert_low_i32x4_s (i32x4.extend_low_i16x8_s (v128.load32_zero (i32.add (local.get $xp) (i32.shl (local.get $i) (i32.const 1)))))))
-        (local.set $y (f64x2.convert_low_i32x4_s (i32x4.extend_low_i16x8_s (v128.load32_zero (i32.add (local.get $yp) (i32.shl (local.get $i) (i32.const 1)))))))
+        (if (local.get $wide)
+          (then
+            (local.set $x (v128.load (i32.add (local.get $xp) (i32.shl (local.get $i) (i32.const 3)))))
+            (local.set $y (v128.load (i32.add (local.get $yp) (i32.shl (local.get $i) (i32.const 3))))))
+          (else
+            (local.set $x (f64x2.convert_low_i32x4_s (i32x4.extend_low_i16x8_s (v128.load32_zero (i32.add (local.get $xp) (i32.shl (local.get $i) (i32.const 1)))))))
+            (local.set $y (f64x2.convert_low_i32x4_s (i32x4.extend_low_i16x8_s (v128.load32_zero (i32.add (local.get $yp) (i32.shl (local.get $i) (i32.const 1)))))))))
         ;; u = ux*x + u0; v = (vx*x + vy*y) + v0
         (local.set $u (f64x2.add (f64x2.mul (local.get $kux) (local.get $x)) (local.get $ku0)))
         (local.set $v (f64x2.add (f64x2.add (f64x2.mul (local.get $kvx) (local.get $x)) (f64x2.mul (local.get $kvy) (local.get $y))) (local.get $kv0)))

@@ -5,7 +5,7 @@ import { createPipeline as createPlainPipeline, type FrontEnd, type Pipeline, ty
 import { createWasmFrontEnd } from './front-end.js';
 import { createFusedFrontEnd } from './fused-front-end.js';
 
-/** Which kernels an exact front end runs: int16 blocks in WebAssembly SIMD where it exists, everything else fused. */
+/** Which kernels an exact front end runs: int16 and float64 blocks in WebAssembly SIMD where it exists, everything else fused. */
 export type ExactFrontEndKind = 'wasm-simd-f64-exact+js-fused' | 'js-fused';
 
 export interface ExactFrontEnd extends FrontEnd {
@@ -13,8 +13,8 @@ export interface ExactFrontEnd extends FrontEnd {
 }
 
 /**
- * The fastest bit-identical front end here: the `f64-exact` WebAssembly kernel for int16 blocks where WebAssembly
- * SIMD exists, the fused JavaScript loop for other sample types and where it does not.
+ * The fastest bit-identical front end here: the `f64-exact` WebAssembly kernel for Int16Array and Float64Array
+ * blocks where WebAssembly SIMD exists, the fused JavaScript loop for other sample types and where it does not.
  */
 export function createExactFrontEnd(): ExactFrontEnd {
   const fused = createFusedFrontEnd();
@@ -24,7 +24,8 @@ export function createExactFrontEnd(): ExactFrontEnd {
     kind: 'wasm-simd-f64-exact+js-fused',
     process(x: SampleArray, y: SampleArray, ...rest) {
       // Only the type decides: a block the kernel declines for its signal, the fused loop would decline too.
-      return x instanceof Int16Array && y instanceof Int16Array ? wasm.process(x, y, ...rest) : fused.process(x, y, ...rest);
+      const kernel = (x instanceof Int16Array && y instanceof Int16Array) || (x instanceof Float64Array && y instanceof Float64Array);
+      return kernel ? wasm.process(x, y, ...rest) : fused.process(x, y, ...rest);
     },
   };
 }
