@@ -25,7 +25,7 @@ import {
   type SpeedLimits,
   type UnwrapMethod,
 } from '../src/core/index.js';
-import { createPipeline } from '../src/accel/index.js';
+import { createPipeline, createWasmFrontEnd, type WasmFrontEnd } from '../src/accel/index.js';
 import { openCapture, type CaptureInfo, type OpenCaptureOptions } from '../src/io/capture/index.js';
 import type { ResultWriter } from '../src/io/results/index.js';
 import type { Progress } from './progress.js';
@@ -182,12 +182,18 @@ function createEnvelope(maxPoints: number) {
     /** Adds a block of values at times t (s) or, without t, at (firstIndex + i) · secondsPerSample. */
     add(values: Float64Array, n: number, times: Float64Array | null, firstIndex: number, secondsPerSample: number): void {
       let inBucket = bucket[0]!, low = bucket[1]!, high = bucket[2]!, start = bucket[3]!;
-      for (let i = 0; i < n; i++) {
-        const value = values[i]!;
+      let i = 0;
+      while (i < n) {
         if (inBucket === 0) start = times === null ? (firstIndex + i) * secondsPerSample : times[i]!;
-        if (value < low) low = value;
-        if (value > high) high = value;
-        if (++inBucket >= stride) {
+        // The rest of the bucket, or of the block, in a loop that only compares.
+        const end = Math.min(n, i + stride - inBucket);
+        inBucket += end - i;
+        for (; i < end; i++) {
+          const value = values[i]!;
+          if (value < low) low = value;
+          if (value > high) high = value;
+        }
+        if (inBucket >= stride) {
           t[count] = start;
           min[count] = low;
           max[count] = high;
@@ -206,27 +212,52 @@ function createEnvelope(maxPoints: number) {
   };
 }
 
-/** Every stride-th sample, the stride doubling when the store is full, so points spread over the whole capture. */
-function createPointSampler(maxPoints: number) {
-  const x = new Float64Array(maxPoints);
-  const y = new Float64Array(maxPoints);
+/**
+ * Every stride-th sample for the Lissajous figures, raw and corrected, the stride doubling when the store is
+ * full, so points spread over the whole capture. Only the kept samples are corrected: by the calibration, or for
+ * three or four outputs as the combined pair level·(cos φ, sin φ) from the channel pipeline's output.
+ */
+function createFigureSampler(maxPoints: number, calibration: EllipseCalibration) {
+  const rawX = new Float64Array(maxPoints);
+  const rawY = new Float64Array(maxPoints);
+  const corrU = new Float64Array(maxPoints);
+  const corrV = new Float64Array(maxPoints);
+  const { offsetX, offsetY, amplitudeX, amplitudeY, phaseErrorRad } = calibration;
+  const sinE = Math.sin(phaseErrorRad);
+  const cosE = Math.cos(phaseErrorRad);
   let count = 0;
   let stride = 1;
   let skip = 0; // samples still to pass before the next kept one
+  const slice = (array: Float64Array) => array.slice(0, count);
   return {
-    points(): { x: Float64Array; y: Float64Array } {
-      return { x: x.slice(0, count), y: y.slice(0, count) };
-    },
-    add(xs: Float64Array, ys: Float64Array, n: number): void {
+    raw: () => ({ x: slice(rawX), y: slice(rawY) }),
+    corrected: () => ({ x: slice(corrU), y: slice(corrV) }),
+    add(xs: Float64Array, ys: Float64Array, n: number, combined: { level: Float32Array; unwrappedPhaseRad: Float64Array } | null): void {
       let i = skip;
       for (; i < n; i += stride) {
-        x[count] = xs[i]!;
-        y[count] = ys[i]!;
+        const x = xs[i]!;
+        const y = ys[i]!;
+        // Non-finite samples are drawn at the centre: the figure shows them and its scales survive.
+        const finite = x - x === 0 && y - y === 0;
+        if (combined === null) {
+          const cu = finite ? (x - offsetX) / amplitudeX : 0;
+          corrU[count] = cu;
+          corrV[count] = finite ? ((y - offsetY) / amplitudeY - cu * sinE) / cosE : 0;
+        } else {
+          const level = combined.level[i]!;
+          const phase = combined.unwrappedPhaseRad[i]!;
+          corrU[count] = level === level ? level * Math.cos(phase) : 0;
+          corrV[count] = level === level ? level * Math.sin(phase) : 0;
+        }
+        rawX[count] = finite ? x : offsetX;
+        rawY[count] = finite ? y : offsetY;
         if (++count === maxPoints) {
           const half = count >> 1;
           for (let k = 0; k < half; k++) {
-            x[k] = x[2 * k]!;
-            y[k] = y[2 * k]!;
+            rawX[k] = rawX[2 * k]!;
+            rawY[k] = rawY[2 * k]!;
+            corrU[k] = corrU[2 * k]!;
+            corrV[k] = corrV[2 * k]!;
           }
           count = half;
           stride *= 2;
@@ -294,48 +325,39 @@ const MAX_SPANS = 1000;
 /** Samples whose signal itself is in doubt stay out of the periodic-error analysis. */
 const SIGNAL_TROUBLE = AlarmBit.lowSignal | AlarmBit.saturation | AlarmBit.badSample | AlarmBit.inputGap;
 
-interface BlockScratch {
-  readonly beforeError: Float64Array;
-  readonly rawX: Float64Array;
-  readonly rawY: Float64Array;
-  readonly correctedU: Float64Array;
-  readonly correctedV: Float64Array;
-  readonly valid: Uint8Array;
+/**
+ * The uncorrected phase fastAtan2(y − mid, x − mid) of a block, by the exact WebAssembly kernel with the identity
+ * correction u = 1·x − mid, v = (0·x + 1·y) − mid: the same doubles (but +0 for a y of −0, which changes at most
+ * the sign of an exact zero), so the same phases; null when it declines the block (a non-finite sample, or
+ * x = y = mid, where fastAtan2's 0/0 rule applies) or is missing.
+ */
+function rawPhases(kernel: WasmFrontEnd | null, xs: Float64Array, ys: Float64Array, n: number, mid: number, level: Float32Array, identity: Float64Array): Float64Array | null {
+  if (kernel === null) return null;
+  identity[1] = -mid;
+  identity[4] = -mid;
+  return kernel.process(xs, ys, n, identity, -Infinity, Infinity, Number.MIN_VALUE, level, 0, 0);
 }
 
 /**
- * Per-sample analysis of one block: which samples are trustworthy, the uncorrected phase's error, and the raw and
- * corrected points for the Lissajous figures. A plain function, so V8 optimises its loop (it would not inside
- * the async replay loop).
+ * Per-sample analysis of one block: which samples are trustworthy, and the uncorrected phase's error (from
+ * `raw`, the uncorrected phases, when given). A plain function, so V8 optimises its loop (it would not inside the
+ * async replay loop).
  */
-function rawAndCorrected(
+function beforeAndValid(
   xs: Float64Array,
   ys: Float64Array,
   n: number,
+  raw: Float64Array | null,
   unwrappedPhaseRad: Float64Array,
   flags: Uint8Array,
-  scratch: BlockScratch,
+  beforeError: Float64Array,
+  valid: Uint8Array,
   mid: number,
-  calibration: EllipseCalibration,
 ): void {
-  const { beforeError, rawX, rawY, correctedU, correctedV, valid } = scratch;
-  const { offsetX, offsetY, amplitudeX, amplitudeY, phaseErrorRad } = calibration;
-  const sinE = Math.sin(phaseErrorRad);
-  const cosE = Math.cos(phaseErrorRad);
   const trouble = SIGNAL_TROUBLE;
-  for (let i = 0; i < n; i++) {
-    const x = xs[i]!;
-    const y = ys[i]!;
-    valid[i] = (flags[i]! & trouble) === 0 ? 1 : 0;
-    beforeError[i] = wrapPhase(fastAtan2(y - mid, x - mid) - unwrappedPhaseRad[i]!);
-    // Non-finite samples are drawn at the centre: the figure shows them and its scales survive.
-    const finite = x - x === 0 && y - y === 0;
-    const cu = finite ? (x - offsetX) / amplitudeX : 0;
-    correctedU[i] = cu;
-    correctedV[i] = finite ? ((y - offsetY) / amplitudeY - cu * sinE) / cosE : 0;
-    rawX[i] = finite ? x : offsetX;
-    rawY[i] = finite ? y : offsetY;
-  }
+  for (let i = 0; i < n; i++) valid[i] = (flags[i]! & trouble) === 0 ? 1 : 0;
+  if (raw !== null) for (let i = 0; i < n; i++) beforeError[i] = wrapPhase(raw[i]! - unwrappedPhaseRad[i]!);
+  else for (let i = 0; i < n; i++) beforeError[i] = wrapPhase(fastAtan2(ys[i]! - mid, xs[i]! - mid) - unwrappedPhaseRad[i]!);
 }
 
 interface PowerState {
@@ -345,14 +367,9 @@ interface PowerState {
   count: number;
 }
 
-/** Three or four outputs: the corrected points are the combined pair, level·(cos φ, sin φ); the power's range and mean. */
-function powerFigures(output: { level: Float32Array; unwrappedPhaseRad: Float64Array; power: Float32Array }, n: number, scratch: BlockScratch, state: PowerState): void {
-  const { correctedU, correctedV } = scratch;
+/** Three or four outputs: the power's range and mean. */
+function powerFigures(output: { power: Float32Array }, n: number, state: PowerState): void {
   for (let i = 0; i < n; i++) {
-    const level = output.level[i]!;
-    const phase = output.unwrappedPhaseRad[i]!;
-    correctedU[i] = level === level ? level * Math.cos(phase) : 0;
-    correctedV[i] = level === level ? level * Math.sin(phase) : 0;
     const p = output.power[i]!;
     if (p === p) {
       if (p < state.min) state.min = p;
@@ -396,28 +413,23 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     power: new Float32Array(BLOCK),
   };
   const power: PowerState = { min: Infinity, max: -Infinity, sum: 0, count: 0 };
-  const scratch: BlockScratch = {
-    beforeError: new Float64Array(BLOCK),
-    rawX: new Float64Array(BLOCK),
-    rawY: new Float64Array(BLOCK),
-    correctedU: new Float64Array(BLOCK),
-    correctedV: new Float64Array(BLOCK),
-    valid: new Uint8Array(BLOCK),
-  };
-  const { beforeError, rawX, rawY, correctedU, correctedV, valid } = scratch;
+  const beforeError = new Float64Array(BLOCK);
+  const valid = new Uint8Array(BLOCK);
   const before = createPeriodicErrorAnalyzer();
   const after = createPeriodicErrorAnalyzer();
   const detrender = createWindowDetrender(after);
   const maxPoints = options.maxPlotPoints ?? 2000;
   const position = createEnvelope(maxPoints);
   const velocity = createEnvelope(maxPoints);
-  const raw = createPointSampler(maxPoints);
-  const corrected = createPointSampler(maxPoints);
+  const figure = createFigureSampler(maxPoints, calibration);
   const events: AlarmEvent[] = [];
   const alarmCounts: Record<AlarmKind, number> = { lowSignal: 0, saturation: 0, badSample: 0, overspeed: 0, inputGap: 0, countLost: 0, lowPower: 0 };
   const spans: AlarmSpan[] = [];
   const open = new Map<AlarmKind, number>();
   const mid = midScaleOf(adc);
+  const rawKernel = createWasmFrontEnd({ precision: 'f64-exact' });
+  const rawLevel = new Float32Array(BLOCK);
+  const identity = Float64Array.of(1, 0, 0, 1, 0);
   const secondsPerSample = 1 / info.rateHz;
   const metresPerRad = pipeline.stages.displacement.metresPerFringe / (2 * Math.PI);
   let samples = 0;
@@ -444,12 +456,12 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
           if (start !== undefined && spans.length < MAX_SPANS) spans.push({ kind: event.kind, startS: start, endS: t });
         }
       }
-      rawAndCorrected(block.x, block.y, n, output.unwrappedPhaseRad, output.flags, scratch, mid, calibration);
-      if (combined !== null) powerFigures(output, n, scratch, power);
+      const raw = rawPhases(rawKernel, block.x, block.y, n, mid, rawLevel, identity);
+      beforeAndValid(block.x, block.y, n, raw, output.unwrappedPhaseRad, output.flags, beforeError, valid, mid);
+      if (combined !== null) powerFigures(output, n, power);
       position.add(output.positionM, n, block.t, block.firstIndex, secondsPerSample);
       velocity.add(output.velocityMS, n, block.t, block.firstIndex, secondsPerSample);
-      raw.add(rawX, rawY, n);
-      corrected.add(correctedU, correctedV, n);
+      figure.add(block.x, block.y, n, combined === null ? null : output);
       before.add(output.unwrappedPhaseRad, beforeError, n, valid);
       detrender.process(output.unwrappedPhaseRad, valid, n);
       samples += n;
@@ -478,6 +490,6 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     power: combined === null ? null : { min: power.min, max: power.max, mean: power.sum / power.count },
     before: toMetres(before),
     after: toMetres(after),
-    report: { position: position.series(), velocity: velocity.series(), raw: raw.points(), corrected: corrected.points() },
+    report: { position: position.series(), velocity: velocity.series(), raw: figure.raw(), corrected: figure.corrected() },
   };
 }
