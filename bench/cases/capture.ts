@@ -32,7 +32,7 @@ interface Generated {
  * Writes an invented quadrature test signal (a sine pair with drifting frequency) with our own writer. `decimals`
  * rounds decimal text (6 is typical of acquisition exports; undefined keeps the shortest round-trip text, 16-17 digits).
  */
-async function generate(path: string, format: 'csv' | 'wav', encoding: SampleEncoding, samples: number, decimals?: number): Promise<Generated> {
+export async function generate(path: string, format: 'csv' | 'wav', encoding: SampleEncoding, samples: number, decimals?: number): Promise<Generated> {
   const writer = await createCaptureWriter(path, { format, rateHz: 1_000_000, encoding, metadata: { source: 'invented benchmark signal' } });
   const x = new Float64Array(WRITE_BLOCK);
   const y = new Float64Array(WRITE_BLOCK);

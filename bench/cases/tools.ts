@@ -1,0 +1,92 @@
+// `--tools`: calibrate and replay end to end, as a user runs them: a process of the tool per run, start-up
+// included, on an int16 WAV of an invented signal (bench/cases/capture.ts `generate`), replay with
+// `--every 10000`. Figures: wall-clock samples/s, the process's CPU time and peak resident memory (read by
+// bench/report-usage.ts), and for memory the same replay on a short and a long capture: the peak must not grow
+// with the run.
+import { spawnSync } from 'node:child_process';
+import { mkdtemp, rm } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import { dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import type { BenchResult } from '../harness.js';
+import { generate } from './capture.js';
+
+const here = dirname(fileURLToPath(import.meta.url));
+const TOOL = resolve(here, '../../tools/fringetally.js');
+const USAGE = resolve(here, '../report-usage.js');
+
+interface ToolRun {
+  wallSeconds: number;
+  cpuSeconds: number;
+  maxRssKiB: number;
+}
+
+function runTool(args: readonly string[]): ToolRun {
+  const start = process.hrtime.bigint();
+  const child = spawnSync(process.execPath, ['--import', USAGE, TOOL, ...args], { stdio: ['ignore', 'ignore', 'pipe', 'pipe'], encoding: 'utf8', maxBuffer: 1 << 24 });
+  const wallSeconds = Number(process.hrtime.bigint() - start) / 1e9;
+  if (child.status !== 0) throw new Error(`fringetally ${args.join(' ')} exited with ${child.status}: ${child.stderr}`);
+  const usage = JSON.parse(String(child.output[3])) as { cpuSeconds: number; maxRssKiB: number };
+  return { wallSeconds, ...usage };
+}
+
+/** The median run by wall time of `passes` runs. */
+function medianRun(args: readonly string[], passes: number): ToolRun {
+  const runs = Array.from({ length: passes }, () => runTool(args)).sort((a, b) => a.wallSeconds - b.wallSeconds);
+  return runs[runs.length >> 1]!;
+}
+
+function result(name: string, samples: number, run: ToolRun, extra: Record<string, number> = {}): BenchResult {
+  return {
+    name,
+    samplesPerSecond: samples / run.wallSeconds,
+    nsPerSample: (run.wallSeconds * 1e9) / samples,
+    passes: 1,
+    extra: { samples, cpuSamplesPerSecond: samples / run.cpuSeconds, peakRssMiB: run.maxRssKiB / 1024, ...extra },
+  };
+}
+
+export interface ToolBenchOptions {
+  /** Samples of the capture for calibrate and replay; default 3e7. */
+  readonly samples?: number;
+  /** Samples of the short and the long capture for the memory case; default 1e7 and 1e8. */
+  readonly memorySamples?: readonly [number, number];
+  /** Runs per case (median by wall time); default 3. */
+  readonly passes?: number;
+}
+
+export async function toolCases(options: ToolBenchOptions = {}): Promise<BenchResult[]> {
+  const samples = options.samples ?? 3e7;
+  const [short, long] = options.memorySamples ?? [1e7, 1e8];
+  const passes = options.passes ?? 3;
+  const directory = await mkdtemp(join(tmpdir(), 'fringetally-bench-tools-'));
+  const measure = ['--wavelength-nm', '632.9908', '--fold', '2', '--quiet'];
+  const results: BenchResult[] = [];
+  try {
+    const capture = (await generate(join(directory, 'capture.wav'), 'wav', 'int16', samples)).path;
+    const calibration = join(directory, 'calibration.json');
+    const calibrate = medianRun(['calibrate', capture, '--out', calibration, '--quiet'], passes);
+    results.push(result(`calibrate/wav/int16/${samples}/end-to-end`, samples, calibrate));
+    const replayArgs = (file: string) => ['replay', file, '--calibration', calibration, '--every', '10000', '--out', join(directory, 'result.csv'), ...measure];
+    results.push(result(`replay/wav/int16/${samples}/every10000/end-to-end`, samples, medianRun(replayArgs(capture), passes)));
+    await rm(capture);
+    const peaks: ToolRun[] = [];
+    for (const length of [short, long]) {
+      const file = (await generate(join(directory, `memory-${length}.wav`), 'wav', 'int16', length)).path;
+      const run = runTool(replayArgs(file));
+      peaks.push(run);
+      results.push(result(`replay/wav/int16/${length}/every10000/memory`, length, run));
+      await rm(file);
+    }
+    results.push({
+      name: `replay/wav/int16/${short}-to-${long}/peak-rss-growth`,
+      samplesPerSecond: Number.NaN,
+      nsPerSample: Number.NaN,
+      passes: 1,
+      extra: { peakRssGrowthMiB: (peaks[1]!.maxRssKiB - peaks[0]!.maxRssKiB) / 1024 },
+    });
+  } finally {
+    await rm(directory, { recursive: true, force: true });
+  }
+  return results;
+}

@@ -1,0 +1,8 @@
+// Preloaded (`node --import`) into a tool process the benchmark starts: at exit it writes the process's own CPU
+// time and peak resident memory as JSON to file descriptor 3, which the benchmark reads.
+import { writeSync } from 'node:fs';
+
+process.on('exit', () => {
+  const usage = process.resourceUsage();
+  writeSync(3, JSON.stringify({ cpuSeconds: (usage.userCPUTime + usage.systemCPUTime) / 1e6, maxRssKiB: usage.maxRSS }));
+});
