@@ -1,4 +1,4 @@
-// `npm run bench [-- --json] [-- --reference] [-- --capture] [-- --replay] [-- --stream] [-- --live] [-- --accuracy] [-- --all]`:
+// `npm run bench [-- --json] [-- --reference] [-- --tools] [-- --capture] [-- --replay] [-- --stream] [-- --live] [-- --accuracy] [-- --all]`:
 // measures the core stages, the whole pipeline (plain and with the WebAssembly front ends) and the decoder (always), and on request the capture readers,
 // replay from files, the stream API and the WebSocket feed, live tracking through a pseudo-terminal (needs socat) and the accuracy of
 // the ellipse fits; prints a table or one JSON document.
@@ -14,6 +14,7 @@ import { feedBenchmarks } from './cases/feed.js';
 import { liveBenchmarks } from './cases/live.js';
 import { cCases, JS_MINIMAL_CASE, jsMinimalCase, machine } from './cases/reference.js';
 import { replayCases } from './cases/replay.js';
+import { toolCases } from './cases/tools.js';
 import { streamCase, streamCaseNames } from './cases/stream.js';
 import { measure, type BenchResult } from './harness.js';
 
@@ -26,6 +27,9 @@ const { values } = parseArgs({
     live: { type: 'boolean', default: false },
     stream: { type: 'boolean', default: false },
     reference: { type: 'boolean', default: false },
+    tools: { type: 'boolean', default: false },
+    'tools-samples': { type: 'string', default: String(3e7) },
+    'tools-memory-samples': { type: 'string', default: `${1e7},${1e8}` },
     all: { type: 'boolean', default: false },
     'heap-samples': { type: 'string', default: String(1e8) },
     case: { type: 'string' },
@@ -112,6 +116,18 @@ if (values.replay || values.all) {
   results.push(...(await replayCases({ memorySamples: Number(values['replay-memory-samples']) })));
   log('measured replay');
 }
+let tools: Record<string, number> | null = null;
+if (values.tools || values.all) {
+  const [short, long] = values['tools-memory-samples'].split(',').map(Number) as [number, number];
+  const measured = await toolCases({ samples: Number(values['tools-samples']), memorySamples: [short, long] });
+  results.push(...measured);
+  log('measured calibrate and replay end to end');
+  // The tools against the bare default pipeline of this run (wall clock, start-up included, against CPU time).
+  const bare = results.find((result) => result.name === 'pipeline/int16/block4096')!.samplesPerSecond;
+  tools = Object.fromEntries(
+    measured.filter((result) => result.name.endsWith('/end-to-end')).map((result) => [result.name, result.samplesPerSecond / bare]),
+  );
+}
 if (values.stream || values.all) {
   // Each alone, as above: the direct pipeline case left type feedback that slowed the axis builder's cases.
   for (const name of streamCaseNames) results.push(...isolated(name));
@@ -130,6 +146,7 @@ if (values.json) {
     cases: results,
     pipelineOverNaive: pipeline.samplesPerSecond / naive.samplesPerSecond,
     ...(reference === null ? {} : { reference }),
+    ...(tools === null ? {} : { toolsOverBarePipeline: tools }),
     ...(accuracy === null ? {} : { accuracy }),
   };
   process.stdout.write(JSON.stringify(document, null, 2) + '\n');
@@ -141,6 +158,7 @@ if (values.json) {
     );
   }
   process.stdout.write(`pipeline / naive baseline: ${(pipeline.samplesPerSecond / naive.samplesPerSecond).toFixed(1)}x\n`);
+  if (tools !== null) for (const [name, ratio] of Object.entries(tools)) process.stdout.write(`${name} / bare pipeline: ${ratio.toFixed(2)}x\n`);
   if (reference !== null) {
     for (const [key, ratio] of Object.entries(reference)) process.stdout.write(`${key}: ${ratio.toFixed(2)}x\n`);
     const { cpuModel, cpuFlags } = machine();
