@@ -38,11 +38,12 @@ async function main(argv: readonly string[]): Promise<number> {
     process.stdout.write(version() + '\n');
     return 0;
   }
-  const command = commands.find((candidate) => candidate.name === first);
-  if (command === undefined) {
+  const entry = commands.find((candidate) => candidate.name === first);
+  if (entry === undefined) {
     process.stderr.write(`fringetally: unknown command "${first}"; see fringetally --help\n`);
     return 2;
   }
+  const command = await entry.load();
   if (rest.includes('--help') || rest.includes('-h')) {
     process.stdout.write(command.help + '\n');
     return 0;
