@@ -18,3 +18,4 @@ export * from './spectrum.js';
 export * from './allan.js';
 export * from './fit/channel-fit.js';
 export * from './channels.js';
+export * from './stability.js';

@@ -250,3 +250,21 @@ export function periodicErrorLinesHz(speedMS: number, metresPerFringe: number, m
   for (let k = 0; k < count; k++) lines[k] = (k + 1) * fringeHz;
   return lines;
 }
+
+/**
+ * RMS amplitude of a spectral line near `frequencyHz`: √(Σ psd·Δf) over the bins within `halfWidthBins` of the
+ * largest bin near it. By Parseval's theorem this holds the line's whole power A²/2 whatever its place between
+ * bins, as long as the window's leakage stays within the span (±3 bins hold nearly all of a Hann line).
+ */
+export function lineRms(spectrum: SpectralDensity, frequencyHz: number, halfWidthBins = 3): number {
+  finiteNumber('frequencyHz', frequencyHz);
+  integerInRange('halfWidthBins', halfWidthBins, 0, 1000);
+  const last = spectrum.psd.length - 1;
+  const nearest = Math.round(frequencyHz / spectrum.binWidthHz);
+  if (nearest < 0 || nearest > last) return Number.NaN;
+  let peak = nearest;
+  for (let k = Math.max(0, nearest - 1); k <= Math.min(last, nearest + 1); k++) if (spectrum.psd[k]! > spectrum.psd[peak]!) peak = k;
+  let sum = 0;
+  for (let k = Math.max(0, peak - halfWidthBins); k <= Math.min(last, peak + halfWidthBins); k++) sum += spectrum.psd[k]!;
+  return Math.sqrt(sum * spectrum.binWidthHz);
+}

@@ -9,8 +9,10 @@ import {
   createAveragingDecimator,
   createFft,
   createRandom,
+  createStabilityAnalyzer,
   createWelchEstimator,
   cumulativeRms,
+  lineRms,
   overlappingAllanDeviation,
   periodicErrorLinesHz,
 } from '../../src/core/index.js';
@@ -115,6 +117,22 @@ describe('createWelchEstimator', () => {
     expect(Math.abs(asd / (sigma * Math.sqrt(2 / rateHz)) - 1)).toBeLessThan(0.01);
     const rms = cumulativeRms(spectrum.psd, spectrum.binWidthHz);
     expect(Math.abs(rms[rms.length - 1]! / sigma - 1)).toBeLessThan(0.02);
+  });
+
+  it('measures a line between bins by its power over ±3 bins', () => {
+    // Parseval: a sinusoid of amplitude A carries A²/2 whatever its frequency; Hann leakage beyond ±3 bins is below
+    // 0.1 % of it (Heinzel et al. 2002: sidelobes fall 18 dB per octave), so 0.5 % holds for any place between bins.
+    fc.assert(
+      fc.property(fc.double({ min: 40, max: 200, noNaN: true }), fc.double({ min: 0, max: 6.28, noNaN: true }), (bin, phase) => {
+        const n = 512;
+        const x = Float64Array.from({ length: 16 * n }, (_, j) => 2e-9 * Math.sin((2 * Math.PI * bin * j) / n + phase));
+        const welch = createWelchEstimator({ rateHz: 1000, segmentSamples: n });
+        welch.add(x, x.length);
+        const rms = lineRms(welch.result(), (bin * 1000) / n);
+        expect(Math.abs(rms / (2e-9 / Math.SQRT2) - 1)).toBeLessThan(0.005);
+      }),
+      { numRuns: 30 },
+    );
   });
 
   it('removes a ramp per segment, so a line on a constant-velocity move stands out', () => {
@@ -230,5 +248,36 @@ describe('createAveragingDecimator', () => {
         }
       }),
     );
+  });
+});
+
+describe('createStabilityAnalyzer', () => {
+  it('locates the periodic-error lines at a steady speed, and none when the speed changes', () => {
+    // At 5 mm/s with 316.4954 nm per fringe (632.9908 nm, fold 2) the fringe frequency is 15 798.0 Hz
+    // (REFERENCES.md, common practice: N·n·v/λ); a 0.5 nm once-per-fringe error must show there as 0.5/√2 nm RMS.
+    const rateHz = 1_000_000;
+    const metresPerFringe = 632.9908e-9 / 2;
+    const n = 2 ** 17;
+    const steady = Float64Array.from({ length: n }, (_, i) => {
+      const x = 0.005 * (i / rateHz);
+      return x + 0.5e-9 * Math.sin((2 * Math.PI * x) / metresPerFringe);
+    });
+    const analyzer = createStabilityAnalyzer({ rateHz, segmentSamples: 8192, metresPerFringe });
+    analyzer.add(steady, n);
+    const result = analyzer.result();
+    expect(result.speed.steady).toBe(true);
+    expect(result.speed.meanMS).toBeCloseTo(0.005, 6);
+    expect(result.linesHz[0]).toBeCloseTo((2 * 0.005) / 632.9908e-9, 0);
+    expect(Math.abs(lineRms(result.spectrum, result.linesHz[0]!) / (0.5e-9 / Math.SQRT2) - 1)).toBeLessThan(0.01);
+    // Ramp of a moving position: the Allan deviation follows vτ/√2 (the drift law above).
+    expect(result.allan.deviation[0]! / ((0.005 * result.allan.tauS[0]!) / Math.SQRT2)).toBeCloseTo(1, 2);
+
+    const accelerating = Float64Array.from({ length: n }, (_, i) => 0.5 * 2 * (i / rateHz) ** 2);
+    const moving = createStabilityAnalyzer({ rateHz, segmentSamples: 8192, metresPerFringe });
+    moving.add(accelerating, n);
+    expect(moving.result().speed.steady).toBe(false);
+    expect(moving.result().linesHz.length).toBe(0);
+    moving.reset();
+    expect(moving.result().samples).toBe(0);
   });
 });
