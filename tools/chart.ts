@@ -43,7 +43,10 @@ export function roundTicks(low: number, high: number, log: boolean): number[] {
   const power = 10 ** Math.floor(Math.log10(raw));
   const step = [1, 2, 5, 10].map((m) => m * power).find((s) => s >= raw) ?? 10 * power;
   const ticks: number[] = [];
-  for (let v = Math.floor(low / step) * step; v <= high + step * 1e-9; v += step) ticks.push(Math.abs(v) < step * 1e-9 ? 0 : v);
+  // From the last round value at or below low to the first at or above high, so the axis ends on ticks.
+  const first = Math.floor(low / step + 1e-9);
+  const last = Math.ceil(high / step - 1e-9);
+  for (let k = first; k <= last; k++) ticks.push(Number((k * step).toPrecision(12)));
   return ticks;
 }
 

@@ -80,7 +80,7 @@ export async function readPositions(
       rateHz: capture.info.rateHz,
       metresPerFringe,
       source: 'positions',
-      notes: scale === null ? ['no --wavelength-nm and --fold: the fringe frequency (periodic-error lines) is not located'] : [],
+      notes: [],
     };
   }
   const scale = lengthScaleOf(values, {});

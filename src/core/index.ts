@@ -19,3 +19,4 @@ export * from './allan.js';
 export * from './fit/channel-fit.js';
 export * from './channels.js';
 export * from './stability.js';
+export * from './positioning.js';

@@ -131,7 +131,10 @@ export interface TargetRunOptions {
   readonly targetsM: ArrayLike<number>;
   /** Measurement cycles: each approaches every target in the positive direction, then every target in the negative one. */
   readonly cycles: number;
-  /** A stop belongs to a target when its reading lies within this distance of it, m. Default a quarter of the smallest spacing. */
+  /**
+   * A stop belongs to a target when its reading lies within this distance of it, m. Default a quarter of the smallest
+   * spacing, at most 0.5 mm, so that an overrun stop a few millimetres beyond the end target is not taken for it.
+   */
   readonly matchToleranceM?: number;
   /** Added to every stop reading to put it into the targets' coordinates, m. Default: the first assigned stop reads the first target. */
   readonly datumOffsetM?: number;
@@ -167,7 +170,7 @@ export function assignTargetRun(stops: readonly Stop[], rateHz: number, options:
     spacing = Math.min(spacing, targets[k]! - targets[k - 1]!);
   }
   const cycles = integerInRange('cycles', options.cycles, 1, 10_000);
-  const tolerance = positiveFinite('matchToleranceM', options.matchToleranceM ?? spacing / 4);
+  const tolerance = positiveFinite('matchToleranceM', options.matchToleranceM ?? Math.min(spacing / 4, 5e-4));
   const m = targets.length;
   const sequence: Array<{ target: number; direction: 1 | -1; cycle: number }> = [];
   for (let j = 0; j < cycles; j++) {

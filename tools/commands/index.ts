@@ -18,5 +18,6 @@ export const commands: readonly CommandEntry[] = [
   { name: 'emulate', summary: 'a virtual ADC: write wire frames of an invented motion to a serial port', load: async () => (await import('./emulate.js')).emulate },
   { name: 'air', summary: 'refractive index of air and wavelength in air (Ciddor, modified Edlén, shop-floor)', load: async () => (await import('./air.js')).air },
   { name: 'spectrum', summary: 'vibration and stability: spectral density, cumulative RMS, Allan deviation', load: async () => (await import('./spectrum.js')).spectrum },
+  { name: 'positioning', summary: 'positioning accuracy and repeatability of an axis from a target run', load: async () => (await import('./positioning.js')).positioning },
   { name: 'demo', summary: 'run calibrate, replay and the report on the bundled demo capture', load: async () => (await import('./demo.js')).demo },
 ];

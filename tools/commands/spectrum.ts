@@ -149,7 +149,7 @@ async function run(argv: readonly string[]): Promise<number> {
   if (result === undefined || result.spectrum.segments === 0) {
     throw new Error(`${path}: ${result?.samples ?? 0} samples, fewer than one segment of ${segmentSamples} (--segment): give a smaller --segment or a longer capture`);
   }
-  const notes = [...input.notes];
+  const notes = [...input.notes, ...(input.metresPerFringe === null ? ['no --wavelength-nm and --fold: the fringe frequency (periodic-error lines) is not located'] : [])];
   for (const note of notes) say(`note: ${note}`);
   if (out !== undefined) await writeAtomically(out, spectrumCsv(result));
   if (allanOut !== undefined) await writeAtomically(allanOut, allanCsv(result));
