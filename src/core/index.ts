@@ -20,3 +20,4 @@ export * from './fit/channel-fit.js';
 export * from './channels.js';
 export * from './stability.js';
 export * from './positioning.js';
+export * from './axis-geometry.js';
