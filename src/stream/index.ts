@@ -6,3 +6,4 @@ export * from './deinterleave-axis.js';
 export * from './fit-ellipse.js';
 export * from './track-position.js';
 export { airIndex } from './air-index.js';
+export * from './axis-geometry.js';
