@@ -19,8 +19,19 @@ export function parseCommandLine<T extends NonNullable<ParseArgsConfig['options'
   options: T,
   allowPositionals: boolean,
 ): ReturnType<typeof parseArgs<{ args: string[]; options: T; allowPositionals: boolean; strict: true }>> {
+  // parseArgs reads `--offset-mm -2` as an ambiguous option; a value that reads as a negative number (or a list or
+  // range starting with one) is joined to its string option as `--offset-mm=-2`.
+  const args: string[] = [];
+  for (let i = 0; i < argv.length; i++) {
+    const name = argv[i]!.startsWith('--') ? argv[i]!.slice(2) : null;
+    const next = argv[i + 1];
+    if (name !== null && options[name]?.type === 'string' && next !== undefined && /^-[0-9.]/.test(next)) {
+      args.push(`--${name}=${next}`);
+      i++;
+    } else args.push(argv[i]!);
+  }
   try {
-    return parseArgs({ args: [...argv], options, allowPositionals, strict: true });
+    return parseArgs({ args, options, allowPositionals, strict: true });
   } catch (error) {
     throw new UsageError((error as Error).message);
   }

@@ -19,5 +19,6 @@ export const commands: readonly CommandEntry[] = [
   { name: 'air', summary: 'refractive index of air and wavelength in air (Ciddor, modified Edlén, shop-floor)', load: async () => (await import('./air.js')).air },
   { name: 'spectrum', summary: 'vibration and stability: spectral density, cumulative RMS, Allan deviation', load: async () => (await import('./spectrum.js')).spectrum },
   { name: 'positioning', summary: 'positioning accuracy and repeatability of an axis from a target run', load: async () => (await import('./positioning.js')).positioning },
+  { name: 'angles', summary: 'yaw, pitch and a point of interest from several parallel axes', load: async () => (await import('./angles.js')).angles },
   { name: 'demo', summary: 'run calibrate, replay and the report on the bundled demo capture', load: async () => (await import('./demo.js')).demo },
 ];
