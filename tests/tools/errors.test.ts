@@ -67,7 +67,7 @@ describe('bad captures', () => {
 describe('help', () => {
   it('every subcommand has --help with units', async () => {
     const overview = await fringetally(['--help'], dir);
-    for (const command of ['simulate', 'calibrate', 'replay', 'air', 'demo']) {
+    for (const command of ['simulate', 'calibrate', 'replay', 'air', 'spectrum', 'positioning', 'angles', 'demo']) {
       expect(overview.stdout).toContain(command);
       const help = await fringetally([command, '--help'], dir);
       expect(help.code).toBe(0);
