@@ -21,51 +21,72 @@ export interface GeometryUpdate {
   readonly pointUncertaintyM: number;
 }
 
+/** Solves one axes update; built for a known set of axis names (`createUpdateGeometry`). */
+export interface UpdateGeometry {
+  solve(update: AxesUpdate): GeometryUpdate;
+}
+
+/**
+ * The geometry solver for updates whose axes are named `axisNames` (in update order): checks the options and that
+ * every beam's axis is there, so that `solve` never throws. Shared by the operator and the network feed.
+ */
+export function createUpdateGeometry(options: AxisGeometryStreamOptions, axisNames: readonly string[]): UpdateGeometry {
+  const geometry = createAxisGeometry(options);
+  if (options.axes !== undefined && options.axes.length !== geometry.beams) {
+    throw new OptionError('axes', `one axis name per beam (${geometry.beams})`, options.axes);
+  }
+  const wanted = options.axes ?? axisNames.slice(0, geometry.beams);
+  const order = wanted.map((name) => axisNames.indexOf(name));
+  if (wanted.length < geometry.beams || order.includes(-1)) {
+    throw new Error(`axisGeometry: ${geometry.beams} axes needed (${wanted.join(', ') || 'none'}); the updates carry ${axisNames.join(', ') || 'none'}`);
+  }
+  const readings = new Float64Array(geometry.beams);
+  const out = new Float64Array(6);
+  return {
+    solve(update) {
+      let sampleIndex = Infinity;
+      for (let k = 0; k < order.length; k++) {
+        const axis = update.axes[order[k]!]!;
+        readings[k] = axis.positionM;
+        sampleIndex = Math.min(sampleIndex, axis.sampleIndex);
+      }
+      geometry.solve(readings, out);
+      return {
+        sampleIndex,
+        yawRad: out[0]!,
+        pitchRad: out[1]!,
+        pointM: out[2]!,
+        yawUncertaintyRad: out[3]!,
+        pitchUncertaintyRad: out[4]!,
+        pointUncertaintyM: out[5]!,
+      };
+    },
+  };
+}
+
 /**
  * Solves the geometry of each update from the latest position of each beam's axis. Options are checked when the
  * operator is built; an update that lacks a named axis errors the stream with the names it has.
  */
 export function axisGeometry(options: AxisGeometryStreamOptions): OperatorFunction<AxesUpdate, GeometryUpdate> {
   createAxisGeometry(options); // validates now, at the call site
-  const names = options.axes;
-  if (names !== undefined && names.length !== options.beams.length) {
-    throw new OptionError('axes', `one axis name per beam (${options.beams.length})`, names);
+  if (options.axes !== undefined && options.axes.length !== options.beams.length) {
+    throw new OptionError('axes', `one axis name per beam (${options.beams.length})`, options.axes);
   }
   return (source) =>
     new Observable<GeometryUpdate>((subscriber) => {
-      const geometry = createAxisGeometry(options);
-      const readings = new Float64Array(geometry.beams);
-      const out = new Float64Array(6);
-      let order: number[] | null = null;
+      let solver: UpdateGeometry | null = null;
       return source.subscribe({
         next(update) {
-          if (order === null) {
-            const present = update.axes.map((axis) => axis.name);
-            const wanted = names ?? present.slice(0, geometry.beams);
-            const found = wanted.map((name) => present.indexOf(name));
-            const missing = wanted.filter((_, k) => found[k] === -1);
-            if (missing.length > 0 || wanted.length < geometry.beams) {
-              subscriber.error(new Error(`axisGeometry: ${geometry.beams} axes needed (${wanted.join(', ') || 'none'}); the updates carry ${present.join(', ') || 'none'}`));
+          if (solver === null) {
+            try {
+              solver = createUpdateGeometry(options, update.axes.map((axis) => axis.name));
+            } catch (error) {
+              subscriber.error(error);
               return;
             }
-            order = found;
           }
-          let sampleIndex = Infinity;
-          for (let k = 0; k < order.length; k++) {
-            const axis = update.axes[order[k]!]!;
-            readings[k] = axis.positionM;
-            sampleIndex = Math.min(sampleIndex, axis.sampleIndex);
-          }
-          geometry.solve(readings, out);
-          subscriber.next({
-            sampleIndex,
-            yawRad: out[0]!,
-            pitchRad: out[1]!,
-            pointM: out[2]!,
-            yawUncertaintyRad: out[3]!,
-            pitchUncertaintyRad: out[4]!,
-            pointUncertaintyM: out[5]!,
-          });
+          subscriber.next(solver.solve(update));
         },
         error: (error: unknown) => subscriber.error(error),
         complete: () => subscriber.complete(),

@@ -10,7 +10,7 @@ import type { Duplex } from 'node:stream';
 import type { Subscription } from 'rxjs';
 import { WebSocket, WebSocketServer } from 'ws';
 import { integerInRange, OptionError, positiveFinite } from '../../core/index.js';
-import type { Axes } from '../../stream/index.js';
+import { createUpdateGeometry, type Axes, type AxisGeometryStreamOptions, type UpdateGeometry } from '../../stream/index.js';
 import { hostOfHeader, isLoopbackHost, normaliseAddress, tokenMatches } from './access.js';
 import {
   FEED_SCHEMA,
@@ -29,6 +29,8 @@ export interface FeedSource {
   readonly axes: Axes;
   /** Sample rate of the axes' input, Hz. */
   readonly rateHz: number;
+  /** Beams of parallel axes: each update then carries `geometry` (yaw, pitch, point of interest; see docs/analysis.md). */
+  readonly geometry?: AxisGeometryStreamOptions;
 }
 
 export interface FeedServerOptions {
@@ -196,6 +198,7 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
   const perAddress = new Map<string, number>();
   const counts = { refusedFull: 0, refusedPerAddress: 0, closedIdle: 0, closedRate: 0, closedOutput: 0, closedDead: 0, updatesMerged: 0 };
   let source: FeedSource | null = null;
+  let geometry: UpdateGeometry | null = null;
   let state: FeedState = 'waiting';
   let sourceError: FeedErrorMessage | null = null;
   let keepAlive: Subscription | null = null;
@@ -320,7 +323,7 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
     client.subscription = axes.update$({ updateHz: maxUpdateHz, trace: true, ready: () => ready(client) }).subscribe({
       next(update) {
         if (client.socket.readyState !== WebSocket.OPEN) return;
-        client.socket.send(JSON.stringify(feedUpdateMessage(update, ++client.seq, rateHz, client.trace)));
+        client.socket.send(JSON.stringify(feedUpdateMessage(update, ++client.seq, rateHz, client.trace, geometry === null ? null : geometry.solve(update))));
         client.awaitingAck = true;
         client.socket.ping(UPDATE_ACK);
       },
@@ -436,6 +439,7 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
   function attach(next: FeedSource): void {
     if (source !== null) throw new Error('the feed server already has a source: attach it once');
     positiveFinite('source.rateHz', next.rateHz);
+    geometry = next.geometry === undefined ? null : createUpdateGeometry(next.geometry, next.axes.names);
     source = next;
     keepAlive = next.axes.connect({
       error(error: unknown) {
@@ -467,7 +471,16 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
     clearInterval(heartbeat);
     throw error;
   }
-  if (options.source !== undefined) attach(options.source);
+  if (options.source !== undefined) {
+    try {
+      attach(options.source);
+    } catch (error) {
+      // A source refused at attach (its rate, its geometry) must not leave the server listening.
+      clearInterval(heartbeat);
+      server.close();
+      throw error;
+    }
+  }
   const address = server.address();
   const boundPort = typeof address === 'object' && address !== null ? address.port : port;
   const urlHost = host.includes(':') && !host.startsWith('[') ? `[${host}]` : host;

@@ -1,7 +1,7 @@
 // The feed's JSON message schema (version 1), shared by the WebSocket feed, the MQTT publisher and the page.
 
 import { alarmNames, alarmText, type AlarmEvent } from '../../core/index.js';
-import type { AxesUpdate, AxisUpdate, Trace } from '../../stream/index.js';
+import type { AxesUpdate, AxisUpdate, GeometryUpdate, Trace } from '../../stream/index.js';
 
 export const FEED_SCHEMA = 1;
 
@@ -61,6 +61,18 @@ export interface FeedUpdateMessage extends FeedTimeBase {
   /** Absolute index of the latest sample (all axes share it). */
   readonly sampleIndex: number;
   readonly axes: readonly FeedAxisState[];
+  /** Present when the source has a geometry (FeedSource.geometry): angles and the point of interest. */
+  readonly geometry?: FeedGeometry;
+}
+
+/** Yaw, pitch (rad) and the displacement of the point of interest (m) with their standard uncertainties; null when not measured. */
+export interface FeedGeometry {
+  readonly yawRad: number | null;
+  readonly pitchRad: number | null;
+  readonly pointM: number | null;
+  readonly yawUncertaintyRad: number | null;
+  readonly pitchUncertaintyRad: number | null;
+  readonly pointUncertaintyM: number | null;
 }
 
 /**
@@ -191,7 +203,7 @@ function roundTrace(trace: Trace): Trace {
   return { x: r(trace.x), y: r(trace.y), u: r(trace.u), v: r(trace.v) };
 }
 
-export function feedUpdateMessage(update: AxesUpdate, seq: number, rateHz: number, withTrace: boolean): FeedUpdateMessage {
+export function feedUpdateMessage(update: AxesUpdate, seq: number, rateHz: number, withTrace: boolean, geometry: GeometryUpdate | null = null): FeedUpdateMessage {
   const sampleIndex = update.axes[0]!.sampleIndex;
   return {
     type: 'update',
@@ -200,6 +212,18 @@ export function feedUpdateMessage(update: AxesUpdate, seq: number, rateHz: numbe
     sampleIndex,
     ...feedTimeBase(rateHz, sampleIndex),
     axes: update.axes.map((axis) => feedAxisState(axis, withTrace)),
+    ...(geometry === null
+      ? {}
+      : {
+          geometry: {
+            yawRad: finiteOrNull(geometry.yawRad),
+            pitchRad: finiteOrNull(geometry.pitchRad),
+            pointM: finiteOrNull(geometry.pointM),
+            yawUncertaintyRad: finiteOrNull(geometry.yawUncertaintyRad),
+            pitchUncertaintyRad: finiteOrNull(geometry.pitchUncertaintyRad),
+            pointUncertaintyM: finiteOrNull(geometry.pointUncertaintyM),
+          },
+        }),
   };
 }
 
