@@ -4,16 +4,24 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import { Subject } from 'rxjs';
 import { createAxes, type FrameBlock } from '../../src/stream/index.js';
-import { startFeedServer, type FeedServer, type FeedUpdateMessage } from '../../src/io/feed/index.js';
+import mqtt from 'mqtt';
+import { startFeedServer, startMqttPublisher, type FeedServer, type FeedUpdateMessage, type MqttGeometryMessage, type MqttPublisher } from '../../src/io/feed/index.js';
+import { startBroker, type Broker } from './broker.js';
 import { axisOptions, frame, METRES_PER_FRINGE, quadrature, ramp } from '../stream/signal.js';
 import { openClient, type TestClient } from './support.js';
 
 let server: FeedServer | null = null;
 let client: TestClient | null = null;
+let broker: Broker | null = null;
+let publisher: MqttPublisher | null = null;
 afterEach(async () => {
   client?.socket.terminate();
   await server?.close();
   server = null;
+  await publisher?.close();
+  publisher = null;
+  await broker?.stop();
+  broker = null;
 });
 
 describe('feed geometry', () => {
@@ -38,9 +46,40 @@ describe('feed geometry', () => {
     expect(update.geometry!.pointM).toBeCloseTo((left! + right!) / 2 + ((right! - left!) / 0.1) * 0.2, 15);
   });
 
+  it('publishes the geometry on its own MQTT topic', async () => {
+    broker = await startBroker();
+    const source = new Subject<FrameBlock>();
+    const axes = createAxes(source, { axes: [{ ...axisOptions, name: 'L' }, { ...axisOptions, name: 'R' }] });
+    const geometry = { beams: [{ xM: 0, yM: -0.05 }, { xM: 0, yM: 0.05 }] };
+    publisher = await startMqttPublisher({ source: { axes, rateHz: axisOptions.rateHz, geometry }, url: broker.url, topicPrefix: 'lab', updateHz: 50 });
+    expect(publisher.geometryTopic).toBe('lab/geometry');
+    const subscriber = await mqtt.connectAsync(broker.url, { reconnectPeriod: 0 });
+    try {
+      const last = new Promise<MqttGeometryMessage>((resolve) =>
+        subscriber.on('message', (_topic, payload) => {
+          const message = JSON.parse(payload.toString()) as MqttGeometryMessage;
+          if (message.sampleTimeS !== null && message.sampleTimeS >= 999 / axisOptions.rateHz) resolve(message);
+        }),
+      );
+      await subscriber.subscribeAsync('lab/geometry', { qos: 1 });
+      // Invented: the lower beam still, the upper one 2 fringes over 1000 samples: pitch = 2 fringes / 100 mm.
+      const signals = [quadrature(new Float64Array(1000)), quadrature(ramp(1000, 2))];
+      for (let k = 0; k < 4; k++) source.next(frame(signals, 250 * k, 250));
+      source.complete();
+      const message = await last;
+      expect(message.type).toBe('geometry');
+      expect(message.yawRad).toBeNull();
+      // Exact model: θ = atan(slope) with slope = 2·999/1000 fringes · 316.4954 nm / 0.1 m (int16 samples: 1e-4 fringe).
+      expect(message.pitchRad! / Math.atan(((2 * 999) / 1000) * METRES_PER_FRINGE / 0.1)).toBeCloseTo(1, 3);
+    } finally {
+      await subscriber.endAsync(true);
+    }
+  });
+
   it('refuses a geometry naming an axis the source does not have', async () => {
     const axes = createAxes(new Subject<FrameBlock>(), { axes: [{ ...axisOptions, name: 'L' }, { ...axisOptions, name: 'R' }] });
     const geometry = { beams: [{ xM: 0, yM: 0 }, { xM: 0.1, yM: 0 }], axes: ['L', 'Q'] };
     await expect(startFeedServer({ source: { axes, rateHz: axisOptions.rateHz, geometry } })).rejects.toThrow(/2 axes needed \(L, Q\); the updates carry L, R/);
+    await expect(startMqttPublisher({ source: { axes, rateHz: axisOptions.rateHz, geometry }, url: 'mqtt://127.0.0.1:9' })).rejects.toThrow(/2 axes needed \(L, Q\)/);
   });
 });

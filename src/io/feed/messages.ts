@@ -212,18 +212,19 @@ export function feedUpdateMessage(update: AxesUpdate, seq: number, rateHz: numbe
     sampleIndex,
     ...feedTimeBase(rateHz, sampleIndex),
     axes: update.axes.map((axis) => feedAxisState(axis, withTrace)),
-    ...(geometry === null
-      ? {}
-      : {
-          geometry: {
-            yawRad: finiteOrNull(geometry.yawRad),
-            pitchRad: finiteOrNull(geometry.pitchRad),
-            pointM: finiteOrNull(geometry.pointM),
-            yawUncertaintyRad: finiteOrNull(geometry.yawUncertaintyRad),
-            pitchUncertaintyRad: finiteOrNull(geometry.pitchUncertaintyRad),
-            pointUncertaintyM: finiteOrNull(geometry.pointUncertaintyM),
-          },
-        }),
+    ...(geometry === null ? {} : { geometry: feedGeometry(geometry) }),
+  };
+}
+
+/** A geometry result as sent: non-finite values (an angle the beams do not measure) become null. */
+export function feedGeometry(geometry: GeometryUpdate): FeedGeometry {
+  return {
+    yawRad: finiteOrNull(geometry.yawRad),
+    pitchRad: finiteOrNull(geometry.pitchRad),
+    pointM: finiteOrNull(geometry.pointM),
+    yawUncertaintyRad: finiteOrNull(geometry.yawUncertaintyRad),
+    pitchUncertaintyRad: finiteOrNull(geometry.pitchUncertaintyRad),
+    pointUncertaintyM: finiteOrNull(geometry.pointUncertaintyM),
   };
 }
 

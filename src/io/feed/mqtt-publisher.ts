@@ -9,7 +9,8 @@ import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
 import type { Subscription } from 'rxjs';
 import { integerInRange, OptionError, positiveFinite } from '../../core/index.js';
 import type { FeedSource } from './feed-server.js';
-import { FEED_SCHEMA, feedAxisState, feedTimeBase, type FeedAxisState, type FeedState, type FeedTimeBase } from './messages.js';
+import { createUpdateGeometry, type UpdateGeometry } from '../../stream/index.js';
+import { FEED_SCHEMA, feedAxisState, feedGeometry, feedTimeBase, type FeedAxisState, type FeedGeometry, type FeedState, type FeedTimeBase } from './messages.js';
 
 export interface MqttTlsOptions {
   /** CA certificate(s), PEM, for a broker with a private CA. Default: the system's CAs. */
@@ -78,6 +79,8 @@ export interface MqttPublisherHealth {
 export interface MqttPublisher {
   /** `<prefix>/axis/<name>`, one per axis; empty until a source is attached. */
   readonly axisTopics: readonly string[];
+  /** `<prefix>/geometry` when the source has a geometry (yaw, pitch, point of interest per update), else null. */
+  readonly geometryTopic: string | null;
   /** `<prefix>/status`: retained `{"state":"online"|"offline","measurement":...}`. */
   readonly statusTopic: string;
   /** Update messages handed to the client so far. */
@@ -92,6 +95,13 @@ export interface MqttPublisher {
 /** Payload on `<prefix>/axis/<name>`. */
 export interface MqttAxisMessage extends FeedAxisState, FeedTimeBase {
   readonly type: 'axis';
+  readonly schema: typeof FEED_SCHEMA;
+  readonly seq: number;
+}
+
+/** Payload on `<prefix>/geometry`. */
+export interface MqttGeometryMessage extends FeedGeometry, FeedTimeBase {
+  readonly type: 'geometry';
   readonly schema: typeof FEED_SCHEMA;
   readonly seq: number;
 }
@@ -120,6 +130,8 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
   if (!TOPIC_PREFIX.test(prefix)) throw new OptionError('topicPrefix', 'MQTT topic levels without +, # or empty levels', prefix);
   const updateHz = positiveFinite('updateHz', options.updateHz ?? 10);
   if (updateHz > 100) throw new OptionError('updateHz', 'a positive finite number up to 100', updateHz);
+  // A geometry naming a missing axis is refused here, before the client starts connecting in the background.
+  if (options.source?.geometry !== undefined) createUpdateGeometry(options.source.geometry, options.source.axes.names);
   const qos = options.qos ?? 0;
   if (qos !== 0 && qos !== 1) throw new OptionError('qos', '0 or 1', qos);
   const retain = options.retain ?? true;
@@ -136,6 +148,8 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
   let source: FeedSource | null = null;
   let measurement: FeedState = 'waiting';
   let axisTopics: string[] = [];
+  let geometry: UpdateGeometry | null = null;
+  let geometryTopic: string | null = null;
   const status = (state: 'online' | 'offline'): string => {
     const message: MqttStatusMessage = {
       type: 'status',
@@ -232,6 +246,8 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
   function attach(next: FeedSource): void {
     if (source !== null) throw new Error('the MQTT publisher already has a source: attach it once');
     positiveFinite('source.rateHz', next.rateHz);
+    geometry = next.geometry === undefined ? null : createUpdateGeometry(next.geometry, next.axes.names);
+    geometryTopic = geometry === null ? null : `${prefix}/geometry`;
     source = next;
     axisTopics = next.axes.names.map((name) => `${prefix}/axis/${name}`);
     const setMeasurement = (state: FeedState) => {
@@ -257,6 +273,15 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
             if (error) lastError = error.message;
           });
         });
+        if (geometry !== null) {
+          const message: MqttGeometryMessage = { type: 'geometry', schema: FEED_SCHEMA, seq, ...timeBase, ...feedGeometry(geometry.solve(update)) };
+          inFlight++;
+          published++;
+          client.publish(geometryTopic!, JSON.stringify(message), { qos, retain }, (error) => {
+            if (sentIn === generation) inFlight--;
+            if (error) lastError = error.message;
+          });
+        }
       },
       error: (error: unknown) => {
         lastError = `measurement source failed: ${String(error)}`;
@@ -270,6 +295,9 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
   return {
     get axisTopics() {
       return axisTopics;
+    },
+    get geometryTopic() {
+      return geometryTopic;
     },
     statusTopic,
     get published() {
