@@ -16,10 +16,12 @@ import {
   createPeriodicErrorAnalyzer,
   createRandom,
   wrapPhase,
+  createEllipseFit,
+  createOnlineCorrection,
+  ELLIPSE_FIT_METHODS,
   type EllipseCalibration,
+  type EllipseFitMethod,
 } from '../src/core/index.js';
-import { createEllipseFit, ELLIPSE_FIT_METHODS, type EllipseFitMethod } from '../src/core/fit-improved.js';
-import { createOnlineCorrection } from '../src/core/online-correction.js';
 import { formatRealRecordings, runRealRecordings, type RealRecordingsResult } from './real-recordings.js';
 
 /** Vacuum wavelength of an unstabilised He-Ne (CIPM 2007, REFERENCES.md) and a single-pass fold of 2. */

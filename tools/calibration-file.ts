@@ -3,12 +3,15 @@
 import { readFile } from 'node:fs/promises';
 import {
   channelsOfEllipse,
+  createHarmonicCorrection,
   ellipseOfChannels,
   validateCalibration,
   validateChannelParameters,
   type ChannelParameters,
   type EllipseCalibration,
   type EllipseFitResult,
+  type PhaseHarmonics,
+  type ResidualSummary,
 } from '../src/core/index.js';
 import type { CaptureInfo } from '../src/io/capture/index.js';
 
@@ -34,7 +37,55 @@ export interface CalibrationFile extends Partial<EllipseCalibration> {
   readonly convention: string;
   readonly fit: { readonly samples: number; readonly coverage: number; readonly residualRms: number };
   readonly capture: { readonly file: string; readonly format: string; readonly rateHz: number; readonly sampleEncoding: string };
+  /** The optional harmonic correction beyond the ellipse (calibrate --harmonics N, docs/calibration-format.md). */
+  readonly harmonics?: CalibrationHarmonics;
+  /** What the ellipse misses, measured on the calibration capture (docs/calibration-format.md); absent in older files. */
+  readonly residual?: CalibrationResidual;
   readonly createdAt: string;
+}
+
+/** The `residual` section: field names are a contract (docs/calibration-format.md). NaN is written as null. */
+export interface CalibrationResidual {
+  /** Amplitudes of the corrected radius's harmonics of orders 1..8 of the phase, relative to the radius. */
+  readonly radiusHarmonics: readonly (number | null)[];
+  /** Largest minus smallest mean radius over the capture (phase-locked part removed), relative to the radius. */
+  readonly radiusDriftRelative: number | null;
+  /** Sample-to-sample RMS of the radius, relative, and the spectral slope β of its noise (PSD ∝ f^β; 0 white, −2 red). */
+  readonly radiusNoiseRms: number | null;
+  readonly noiseSpectralSlope: number | null;
+  /** Mean corrected radius over the capture (1 for the fit's own capture) and the share of 5.6° phase bins reached. */
+  readonly meanRadius: number | null;
+  readonly binCoverage: number;
+  /** Always true for one capture: a once-per-fringe amplitude change locked to the phase looks exactly like an offset to the fit. */
+  readonly offsetIndistinguishableFromModulation: true;
+}
+
+/** The `harmonics` section: e(φ) = Σ cos[k−1]·cos kφ + sin[k−1]·sin kφ (rad) is taken off the ellipse-corrected phase. */
+export interface CalibrationHarmonics {
+  readonly orders: number;
+  readonly cos: readonly number[];
+  readonly sin: readonly number[];
+  /** The assumption the estimate rests on, and what was checked. */
+  readonly assumption: string;
+  readonly fringes: number;
+  readonly residualRmsRad: number;
+}
+
+export const HARMONIC_ASSUMPTION =
+  'calibration move smooth in time (a cubic over the move, e.g. steady velocity) over at least 100 fringes; checked: fringes spanned and the RMS the model leaves';
+
+const finiteOrNull = (value: number): number | null => (Number.isFinite(value) ? value : null);
+
+export function calibrationResidualOf(summary: ResidualSummary): CalibrationResidual {
+  return {
+    radiusHarmonics: summary.radiusHarmonics.map(finiteOrNull),
+    radiusDriftRelative: finiteOrNull(summary.radiusDriftRelative),
+    radiusNoiseRms: finiteOrNull(summary.radiusNoiseRms),
+    noiseSpectralSlope: finiteOrNull(summary.noiseSpectralSlope),
+    meanRadius: finiteOrNull(summary.meanRadius),
+    binCoverage: summary.binCoverage,
+    offsetIndistinguishableFromModulation: true,
+  };
 }
 
 export const CONVENTION = 'x = amplitudeX*cos(phi) + offsetX; y = amplitudeY*sin(phi + phaseErrorRad) + offsetY';
@@ -44,7 +95,13 @@ export const LAYOUT_MODEL = 'I_k = P*(offset_k + amplitude_k*cos(phi - phaseRad_
  * The file for a fit. `channels`: the layout of 3 or 4 outputs (the fit is then the ellipse of the power-normalised
  * pair, kept only for its quality figures); omitted for two outputs, whose layout follows from the ellipse.
  */
-export function calibrationFileOf(fit: Extract<EllipseFitResult, { ok: true }>, info: CaptureInfo, channels?: readonly ChannelParameters[]): CalibrationFile {
+export function calibrationFileOf(
+  fit: Extract<EllipseFitResult, { ok: true }>,
+  info: CaptureInfo,
+  channels?: readonly ChannelParameters[],
+  residual?: ResidualSummary,
+  harmonics?: CalibrationHarmonics,
+): CalibrationFile {
   const integer = info.sampleEncoding === 'int16' || info.sampleEncoding === 'int24' || info.sampleEncoding === 'integer-text';
   const layout = channels ?? channelsOfEllipse(fit.calibration);
   return {
@@ -56,6 +113,8 @@ export function calibrationFileOf(fit: Extract<EllipseFitResult, { ok: true }>, 
     convention: CONVENTION,
     fit: { samples: fit.samples, coverage: fit.coverage, residualRms: fit.residualRms },
     capture: { file: info.file, format: info.format, rateHz: info.rateHz, sampleEncoding: info.sampleEncoding },
+    ...(harmonics === undefined ? {} : { harmonics }),
+    ...(residual === undefined ? {} : { residual: calibrationResidualOf(residual) }),
     createdAt: new Date().toISOString(),
   };
 }
@@ -119,4 +178,24 @@ export async function readCalibrationFile(path: string): Promise<EllipseCalibrat
     throw new Error(`${path}: a calibration of ${layout.channels.length} detector outputs (${layout.names.join(',')}); this command combines two outputs per axis only (replay and calibrate take --channels)`);
   }
   return layout.ellipse;
+}
+
+/** The fit's residual RMS recorded in a calibration file (it sets the calibration_stale bound), if the file has it. */
+export async function readCalibrationFitResidual(path: string): Promise<number | undefined> {
+  const record = JSON.parse(await readFile(path, 'utf8')) as Partial<CalibrationFile>;
+  const rms = record.fit?.residualRms;
+  return typeof rms === 'number' && rms >= 0 && rms <= 1 ? rms : undefined;
+}
+
+/** The harmonic correction stored in a calibration file, checked, or undefined when the file has none. */
+export async function readCalibrationHarmonics(path: string): Promise<PhaseHarmonics | undefined> {
+  const record = JSON.parse(await readFile(path, 'utf8')) as Partial<CalibrationFile>;
+  if (record.harmonics === undefined) return undefined;
+  const { cos, sin } = record.harmonics as Partial<CalibrationHarmonics>;
+  if (!Array.isArray(cos) || !Array.isArray(sin)) throw new Error(`${path}: "harmonics" needs the arrays "cos" and "sin"`);
+  try {
+    return createHarmonicCorrection({ cos, sin }).harmonics;
+  } catch (error) {
+    throw new Error(`${path}: ${(error as Error).message}`);
+  }
 }

@@ -6,10 +6,14 @@ import {
   channelParametersOf,
   createChannelMomentAccumulator,
   createChannelPipeline,
-  createCorrection,
-  createEllipseAccumulator,
+  createTwoPassFit,
   createPeriodicErrorAnalyzer,
-  createWindowDetrender,
+  createResidualAnalyzer,
+  createModelWatch,
+  createHarmonicCorrection,
+  createHarmonicEstimator,
+  createCorrection,
+  createPhaseDomainEstimator,
   fastAtan2,
   wrapPhase,
   type AdcFormat,
@@ -17,11 +21,17 @@ import {
   type AlarmKind,
   type ChannelParameters,
   type EllipseCalibration,
-  type EllipseFitOptions,
+  type EllipseFitMethodOptions,
   type EllipseFitResult,
   normaliseChannels,
   type PowerNormalisation,
   type PeriodicErrorSummary,
+  type RadiusOverTime,
+  type ModelWatchEvent,
+  type HarmonicEstimate,
+  type PhaseHarmonics,
+  type ModelWatchOptions,
+  type ResidualSummary,
   type SpeedLimits,
   type UnwrapMethod,
 } from '../src/core/index.js';
@@ -48,26 +58,49 @@ export function midScaleOf(adc: AdcFormat): number {
 }
 
 /**
- * Fits the ellipse in two passes: all finite samples first, then again with only the samples whose corrected
- * radius lies within [0.5, 1.5] of the first fit, so that a blocked beam (samples near the centre) or a
- * glitch does not pull the fit.
+ * Fits the ellipse with the library's two-pass gated fit (`createTwoPassFit`), reading the file once per pass.
  */
 export async function fitCapture(
   path: string,
   open: OpenCaptureOptions,
-  fitOptions: EllipseFitOptions,
+  fitOptions: EllipseFitMethodOptions,
   progress: Progress,
-): Promise<{ fit: EllipseFitResult; info: CaptureInfo; channels?: ChannelParameters[] }> {
+): Promise<{ fit: EllipseFitResult; info: CaptureInfo; totalSamples: number; channels?: ChannelParameters[] }> {
   const power = (open.channels?.length ?? 2) > 2 ? await powerPass(path, open, progress) : null;
   const normalised = power?.normalisation ?? null;
   if (typeof normalised === 'string') {
-    return { fit: { ok: false, reason: 'degenerate', message: normalised, samples: 0, coverage: Number.NaN }, info: power!.info };
+    return { fit: { ok: false, reason: 'degenerate', message: normalised, samples: 0, coverage: Number.NaN }, info: power!.info, totalSamples: 0 };
   }
-  const first = await fitPass(path, open, fitOptions, progress, null, normalised);
-  if (!first.fit.ok) return first;
-  const refined = await fitPass(path, open, fitOptions, progress, first.fit.calibration, normalised);
-  if (!refined.fit.ok || normalised === null) return refined;
-  return { ...refined, channels: channelParametersOf(normalised, refined.fit.calibration) };
+  const fit = createTwoPassFit(fitOptions);
+  const pairX = new Float64Array(BLOCK);
+  const pairY = new Float64Array(BLOCK);
+  const powerScratch = new Float64Array(BLOCK);
+  let totalSamples = 0;
+  for (;;) {
+    const capture = await openCapture(path, { ...open, blockSize: BLOCK });
+    progress.start(`fit ${path}${fit.pass === 1 ? '' : ' (refined)'}`, capture.info.totalSamples);
+    try {
+      for await (const block of capture.blocks()) {
+        if (normalised === null) {
+          fit.add(block.x, block.y, block.length);
+        } else {
+          // Three or four outputs: the ellipse passes fit the power-normalised pair.
+          normaliseChannels(normalised, block.channels, block.length, pairX, pairY, powerScratch);
+          fit.add(pairX, pairY, block.length);
+        }
+        totalSamples = block.firstIndex + block.length;
+        progress.update(totalSamples);
+      }
+    } finally {
+      progress.stop();
+      await capture.close();
+    }
+    const result = fit.endPass();
+    if (result !== null) {
+      if (!result.ok || normalised === null) return { fit: result, info: capture.info, totalSamples };
+      return { fit: result, info: capture.info, totalSamples, channels: channelParametersOf(normalised, result.calibration) };
+    }
+  }
 }
 
 /**
@@ -89,54 +122,6 @@ async function powerPass(path: string, open: OpenCaptureOptions, progress: Progr
   }
   const result = moments.solve();
   return { normalisation: result.ok ? result.normalisation : `outputs ${capture.info.channels.join(',')}: ${result.message}`, info: capture.info };
-}
-
-async function fitPass(
-  path: string,
-  open: OpenCaptureOptions,
-  fitOptions: EllipseFitOptions,
-  progress: Progress,
-  gate: EllipseCalibration | null,
-  normalisation: PowerNormalisation | null,
-): Promise<{ fit: EllipseFitResult; info: CaptureInfo }> {
-  const capture = await openCapture(path, { ...open, blockSize: BLOCK });
-  const accumulator = createEllipseAccumulator(fitOptions);
-  const correction = createCorrection({ calibration: gate });
-  const u = new Float64Array(BLOCK);
-  const v = new Float64Array(BLOCK);
-  const keptX = new Float64Array(BLOCK);
-  const keptY = new Float64Array(BLOCK);
-  const pairX = new Float64Array(BLOCK);
-  const pairY = new Float64Array(BLOCK);
-  const power = new Float64Array(BLOCK);
-  progress.start(`fit ${path}${gate === null ? '' : ' (refined)'}`, capture.info.totalSamples);
-  try {
-    for await (const block of capture.blocks()) {
-      const x = normalisation === null ? block.x : pairX;
-      const y = normalisation === null ? block.y : pairY;
-      if (normalisation !== null) normaliseChannels(normalisation, block.channels, block.length, pairX, pairY, power);
-      if (gate === null) {
-        accumulator.add(x, y, block.length);
-      } else {
-        correction.process(x, y, u, v, block.length);
-        let kept = 0;
-        for (let i = 0; i < block.length; i++) {
-          const radius = Math.hypot(u[i]!, v[i]!);
-          if (radius >= 0.5 && radius <= 1.5) {
-            keptX[kept] = x[i]!;
-            keptY[kept] = y[i]!;
-            kept++;
-          }
-        }
-        accumulator.add(keptX, keptY, kept);
-      }
-      progress.update(block.firstIndex + block.length);
-    }
-  } finally {
-    progress.stop();
-    await capture.close();
-  }
-  return { fit: accumulator.solve(), info: capture.info };
 }
 
 export interface MeasureSettings {
@@ -297,8 +282,21 @@ export interface RunResult {
   readonly power: { readonly min: number; readonly max: number; readonly mean: number } | null;
   /** The error of the uncorrected phase (ADC mid-scale removed only) against the corrected phase. */
   readonly before: PeriodicErrorResult;
-  /** The corrected phase's residual about smooth motion (windows of steady motion only, see createWindowDetrender). */
+  /** Why "before" means nothing for this capture (unipolar signals), else null. */
+  readonly beforeNotApplicable: string | null;
+  /** The corrected phase's periodic error, in the phase domain (see createPhaseDomainEstimator): any motion a cubic follows over 512 samples. */
   readonly after: PeriodicErrorResult;
+  /** Where the signal left the calibration's model (`calibration_stale`, see createModelWatch): the first events, and how often it was raised. */
+  /** The harmonic estimate asked for by `estimateHarmonics`, else null. */
+  readonly harmonicEstimate: HarmonicEstimate | null;
+  readonly modelWatch: { readonly events: readonly ModelWatchEvent[]; readonly raised: number; readonly activeAtEnd: boolean; readonly options: ReturnType<typeof createModelWatch>['options'] };
+  /** What the ellipse misses: the corrected radius against phase and time (see createResidualAnalyzer). */
+  readonly residual: {
+    readonly summary: ResidualSummary;
+    /** Mean radius − 1 per phase bin (relative), bins over [−π, π). */
+    readonly byPhase: Float64Array;
+    readonly overTime: RadiusOverTime;
+  };
   readonly report: {
     readonly position: Envelope;
     readonly velocity: Envelope;
@@ -319,6 +317,12 @@ export interface RunOptions {
   readonly progress: Progress;
   /** Upper bound of points kept per plotted series. */
   readonly maxPlotPoints?: number;
+  /** Bounds of the calibration_stale alarm (see createModelWatch). */
+  readonly modelWatch?: ModelWatchOptions;
+  /** Harmonic correction applied to every block's phase and position after the pipeline (see createHarmonicCorrection). */
+  readonly harmonics?: PhaseHarmonics;
+  /** Estimate the phase harmonics of this run (calibrate --harmonics N): orders and the capture's sample count. */
+  readonly estimateHarmonics?: { readonly orders: number; readonly totalSamples: number };
 }
 
 const MAX_SPANS = 1000;
@@ -416,8 +420,16 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   const beforeError = new Float64Array(BLOCK);
   const valid = new Uint8Array(BLOCK);
   const before = createPeriodicErrorAnalyzer();
-  const after = createPeriodicErrorAnalyzer();
-  const detrender = createWindowDetrender(after);
+  const after = createPhaseDomainEstimator();
+  const residual = createResidualAnalyzer();
+  const correction = createCorrection({ calibration });
+  const correctedU = new Float64Array(BLOCK);
+  const correctedV = new Float64Array(BLOCK);
+  const harmonicCorrection = options.harmonics === undefined ? null : createHarmonicCorrection(options.harmonics);
+  const estimator = options.estimateHarmonics === undefined ? null : createHarmonicEstimator(options.estimateHarmonics);
+  const watch = createModelWatch(options.modelWatch);
+  const watchEvents: ModelWatchEvent[] = [];
+  let watchRaised = 0;
   const maxPoints = options.maxPlotPoints ?? 2000;
   const position = createEnvelope(maxPoints);
   const velocity = createEnvelope(maxPoints);
@@ -442,6 +454,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
       events.length = 0;
       if (combined === null) pipeline.process(block.x, block.y, n, output, events);
       else combined.process(block.channels, n, output, events);
+      harmonicCorrection?.process(output.unwrappedPhaseRad, n, output.positionM, metresPerRad);
       if (writer !== undefined) {
         await writer.write({ firstIndex: block.firstIndex, length: n, t: block.t, rateHz: info.rateHz, ...output });
       }
@@ -463,7 +476,17 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
       velocity.add(output.velocityMS, n, block.t, block.firstIndex, secondsPerSample);
       figure.add(block.x, block.y, n, combined === null ? null : output);
       before.add(output.unwrappedPhaseRad, beforeError, n, valid);
-      detrender.process(output.unwrappedPhaseRad, valid, n);
+      after.process(output.unwrappedPhaseRad, valid, n);
+      estimator?.add(output.unwrappedPhaseRad, n, valid);
+      // The radius analyses need the corrected pair of two outputs; three or four outputs are not analysed here yet.
+      if (combined === null) {
+        correction.process(block.x, block.y, correctedU, correctedV, n);
+        residual.add(correctedU, correctedV, n, valid);
+      }
+      const already = watchEvents.length;
+      if (combined === null) watch.process(correctedU, correctedV, n, block.firstIndex, watchEvents, valid);
+      for (let k = already; k < watchEvents.length; k++) if (watchEvents[k]!.state === 'raised') watchRaised++;
+      if (watchEvents.length > MAX_SPANS) watchEvents.length = MAX_SPANS;
       samples += n;
       finalPositionM = output.positionM[n - 1]!;
       progress.update(block.firstIndex + n);
@@ -473,7 +496,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     await capture.close();
   }
   for (const [kind, start] of open) if (spans.length < MAX_SPANS) spans.push({ kind, startS: start, endS: Number.NaN });
-  const toMetres = (analyzer: typeof before): PeriodicErrorResult => ({
+  const toMetres = (analyzer: { summary(): PeriodicErrorSummary; binnedMeanRad(): Float64Array }): PeriodicErrorResult => ({
     summary: analyzer.summary(),
     binnedM: analyzer.binnedMeanRad().map((rad) => rad * metresPerRad),
   });
@@ -489,7 +512,14 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     alarmSpans: spans,
     power: combined === null ? null : { min: power.min, max: power.max, mean: power.sum / power.count },
     before: toMetres(before),
+    beforeNotApplicable:
+      Math.abs(calibration.offsetX - mid) > calibration.amplitudeX || Math.abs(calibration.offsetY - mid) > calibration.amplitudeY
+        ? 'the signals are unipolar (DC-coupled): the zero of the converter lies outside the figure, so the phase about it is not a fringe phase'
+        : null,
     after: toMetres(after),
+    harmonicEstimate: estimator === null ? null : estimator.solve(),
+    modelWatch: { events: watchEvents, raised: watchRaised, activeAtEnd: watch.active, options: watch.options },
+    residual: { summary: residual.summary(), byPhase: residual.radiusByPhase(), overTime: residual.radiusOverTime() },
     report: { position: position.series(), velocity: velocity.series(), raw: figure.raw(), corrected: figure.corrected() },
   };
 }

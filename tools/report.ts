@@ -1,6 +1,6 @@
 // Text summaries and the self-contained HTML report (plain inline SVG, no scripts, no network) of calibrate and replay.
 import { writeFile, rename } from 'node:fs/promises';
-import { alarmNames, alarmKinds, type AlarmKind, type EllipseCalibration, type EllipseFitResult } from '../src/core/index.js';
+import { alarmNames, alarmKinds, MODEL_WATCH_ALARM, residualMeaning, type AlarmKind, type EllipseCalibration, type EllipseFitResult } from '../src/core/index.js';
 import type { Envelope, PeriodicErrorResult, RunResult } from './capture-run.js';
 import type { MeasureSettings } from './capture-run.js';
 import type { UncertaintyBudget } from '../src/core/index.js';
@@ -33,7 +33,7 @@ export function formatPower(power: { min: number; max: number; mean: number }): 
 
 function periodicRow(label: string, result: PeriodicErrorResult, metresPerRad: number): string {
   const s = result.summary;
-  if (s.samples === 0) return `${label}  no samples of steady motion to measure it`;
+  if (s.samples === 0) return `${label}  no stretch of motion that a cubic in time follows over 512 samples, with a clean signal, to measure it`;
   return (
     `${label}  p-p ${nm(s.peakToPeakRad * metresPerRad)} nm, RMS ${nm(s.rmsRad * metresPerRad)} nm, ` +
     `1st harmonic ${nm(s.firstHarmonicRad * metresPerRad)} nm, 2nd harmonic ${nm(s.secondHarmonicRad * metresPerRad)} nm ` +
@@ -44,9 +44,41 @@ function periodicRow(label: string, result: PeriodicErrorResult, metresPerRad: n
 export function formatPeriodicError(run: RunResult): string[] {
   return [
     'periodic error (amplitudes of the harmonics; p-p and RMS of the phase-binned mean):',
-    periodicRow('  before', run.before, run.metresPerRad),
+    run.beforeNotApplicable === null ? periodicRow('  before', run.before, run.metresPerRad) : `  before  not applicable: ${run.beforeNotApplicable}`,
     periodicRow('  after ', run.after, run.metresPerRad),
   ];
+}
+
+/** The calibration_stale alarm in the summary's words: when the signal left the calibration's model, and the bound. */
+export function formatModelWatch(run: RunResult): string[] {
+  const { events, raised, activeAtEnd, options } = run.modelWatch;
+  const bound = `bounds: mean radius within ±${(options.maxRadiusChange * 100).toFixed(1)} %, radius scatter under ${(options.maxRadiusRms * 100).toFixed(2)} % RMS over ${options.windowSamples} samples`;
+  if (raised === 0) return [`${MODEL_WATCH_ALARM}: none (the signal stayed within the calibration's model; ${bound})`];
+  const first = events.find((event) => event.state === 'raised')!;
+  const what = first.cause === 'radius-change' ? `the mean radius moved by ${(first.value * 100).toFixed(2)} %` : `the radius scattered ${(first.value * 100).toFixed(2)} % RMS`;
+  return [
+    `${MODEL_WATCH_ALARM} ×${raised}: the signal left the calibration's model (first at t = ${(first.sampleIndex / run.info.rateHz).toFixed(3)} s: ${what}; ${bound})` +
+      `${activeAtEnd ? ', still at the end' : ''}: recalibrate, or check the source power and alignment`,
+  ];
+}
+
+/** What the ellipse misses, in the summary's words, with what it could mean for position in nm. */
+export function formatResidual(run: RunResult): string[] {
+  const { summary } = run.residual;
+  const meaning = residualMeaning(summary, run.metresPerRad);
+  const nm = (m: number) => (m * 1e9).toFixed(2);
+  const percent = (value: number) => (value * 100).toFixed(3);
+  if (meaning.largestOrder === 0) {
+    return [`residual    too little of the fringe (${(summary.binCoverage * 100).toFixed(0)} % of the phase bins) to tell the radius harmonics or drift`];
+  }
+  const lines = [
+    `residual    radius harmonics 1–8 (% of the radius): ${summary.radiusHarmonics.map(percent).join(' ')}`,
+    `            largest: order ${meaning.largestOrder}, ${percent(meaning.largestRelative)} %; from a ghost beam or detector nonlinearity it could mean up to ±${nm(meaning.harmonicPositionM)} nm of periodic error the ellipse cannot correct`,
+    `drift       mean radius moved by ${percent(summary.radiusDriftRelative)} % over the capture (phase-locked part removed); if the offsets moved with it, up to ${nm(meaning.driftPositionM)} nm`,
+    `noise       radius ${percent(summary.radiusNoiseRms)} % RMS per sample, spectral slope ${summary.noiseSpectralSlope.toFixed(2)} (${meaning.noiseColour === 'red' ? 'red: correlated, averages down slower than white noise' : meaning.noiseColour === 'blue' ? 'blue' : meaning.noiseColour === 'white' ? 'white' : 'unknown'})`,
+    `offset      a once-per-fringe change of the amplitude locked to the phase looks exactly like an offset to the fit: the data cannot tell them apart (check against a reference if the amplitude can vary once per period)`,
+  ];
+  return lines;
 }
 
 export interface ReportInput {
@@ -224,8 +256,10 @@ export function reportHtml(input: ReportInput): string {
     const s = r.summary;
     rows.push([
       `periodic error ${label}`,
-      s.samples === 0
-        ? 'not measured (no steady motion)'
+      label === 'before' && run.beforeNotApplicable !== null
+        ? `not applicable: ${run.beforeNotApplicable}`
+        : s.samples === 0
+        ? 'not measured (no clean motion that a cubic follows over 512 samples)'
         : `p-p ${nm(s.peakToPeakRad * run.metresPerRad)} nm, RMS ${nm(s.rmsRad * run.metresPerRad)} nm, 1st ${nm(s.firstHarmonicRad * run.metresPerRad)} nm, 2nd ${nm(s.secondHarmonicRad * run.metresPerRad)} nm`,
     ]);
   };

@@ -1,6 +1,6 @@
 // Heydemann correction: precomputed coefficients that map raw (x, y) onto the unit circle.
 
-import type { EllipseCalibration } from './ellipse.js';
+import type { EllipseCalibration } from './fit/ellipse.js';
 import { finiteNumber, OptionError, positiveFinite } from './options.js';
 
 export interface CorrectionOptions {

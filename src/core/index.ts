@@ -2,7 +2,7 @@
 export * from './alarms.js';
 export * from './correction.js';
 export * from './displacement.js';
-export * from './ellipse.js';
+export * from './fit/index.js';
 export * from './monitor.js';
 export * from './options.js';
 export * from './phase.js';
@@ -12,8 +12,6 @@ export * from './synthesis.js';
 export * from './metrology/index.js';
 export * from './motion.js';
 export * from './periodic-error.js';
-export * from './fit-improved.js';
-export * from './online-correction.js';
 export * from './spectrum.js';
 export * from './allan.js';
 export * from './fit/channel-fit.js';

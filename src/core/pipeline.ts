@@ -3,7 +3,7 @@
 import type { AlarmEvent } from './alarms.js';
 import { createCorrection, type Correction } from './correction.js';
 import { createDisplacement, type Displacement } from './displacement.js';
-import type { EllipseCalibration } from './ellipse.js';
+import type { EllipseCalibration } from './fit/ellipse.js';
 import { createSignalMonitor, type AdcFormat, type SignalMonitor } from './monitor.js';
 import { integerInRange, MAX_COUNT } from './options.js';
 import { TWO_PI } from './phase.js';

@@ -1,7 +1,7 @@
 // Synthetic quadrature signals for tests, benchmarks and the simulator: a phase trajectory through a known
 // ellipse, with Gaussian noise, ADC quantisation and clipping. Deterministic for a given seed.
 
-import type { EllipseCalibration } from './ellipse.js';
+import type { EllipseCalibration } from './fit/ellipse.js';
 import { validateCalibration } from './correction.js';
 import { adcLimits, type AdcFormat } from './monitor.js';
 import { finiteNumber, integerInRange, OptionError } from './options.js';

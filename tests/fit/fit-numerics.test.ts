@@ -3,7 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { CholeskyDecomposition, EigenvalueDecomposition, Matrix, inverse } from 'ml-matrix';
-import { choleskyInPlace, createGeneralizedEigenSolver, symmetricEigenInPlace } from '../../src/core/fit-numerics.js';
+import { choleskyInPlace, createGeneralizedEigenSolver, symmetricEigenInPlace } from '../../src/core/fit/numerics.js';
 
 /** A random symmetric n×n matrix, and a positive definite one (RᵀR + n·I). */
 const symmetric = (n: number) =>

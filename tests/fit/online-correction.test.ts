@@ -5,8 +5,8 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { createCorrection, createEllipseAccumulator, createPeriodicErrorAnalyzer, createRandom, OptionError, wrapPhase, type EllipseCalibration } from '../../src/core/index.js';
-import { createEllipseFit } from '../../src/core/fit-improved.js';
-import { createOnlineCorrection, type OnlineCorrectionOptions } from '../../src/core/online-correction.js';
+import { createEllipseFit } from '../../src/core/fit/methods.js';
+import { createOnlineCorrection, type OnlineCorrectionOptions } from '../../src/core/fit/online.js';
 
 const STEP_RAD = (2 * Math.PI) / 250; // constant velocity: 250 samples per fringe
 const NOISE = 0.01;

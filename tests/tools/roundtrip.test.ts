@@ -94,7 +94,53 @@ describe('round trip', () => {
     expect((await fringetally(['simulate', '--out', 'short.csv', '--motion', 'vibration', '--amplitude-m', '30e-9', '--frequency-hz', '100', '--duration-s', '0.02', '--quiet'], dir)).code).toBe(0);
     const calibrated = await fringetally(['calibrate', 'short.csv', '--out', 'short-cal.json'], dir);
     expect(calibrated.code).toBe(1);
-    expect(calibrated.stderr).toMatch(/calibration refused: phase coverage 0\.\d+ of a fringe is below the minimum 0\.75/);
+    expect(calibrated.stderr).toMatch(/calibration refused: phase coverage 0\.\d+ of a fringe is below the minimum 0\.75: .*--min-coverage/);
     expect(existsSync(join(dir, 'short-cal.json'))).toBe(false);
+  });
+
+  // −60° as three-output detectors give (issue 10's real pair was −53°): accepted by default with a warning, refused
+  // under a tighter limit with the option named, and fitted by the method asked for.
+  it('accepts a well-conditioned ellipse up to ±70°, warns beyond ±45°, and a refusal names the option', async () => {
+    const simulated = await fringetally(['simulate', '--out', 'skew.csv', `--phase-error-rad=${(-60 * Math.PI) / 180}`, '--duration-s', '0.02', '--quiet'], dir);
+    expect(simulated.code, simulated.stderr).toBe(0);
+    const accepted = await fringetally(['calibrate', 'skew.csv', '--out', 'skew-cal.json', ...common], dir);
+    expect(accepted.code, accepted.stderr).toBe(0);
+    expect(accepted.stderr).toMatch(/warning: quadrature error -60\.0° is beyond ±45°: .*1\/cos e = 2\.00/);
+    expect(accepted.stdout).toMatch(/fit +hyper, residual/);
+    const refused = await fringetally(['calibrate', 'skew.csv', '--out', 'skew-cal2.json', '--max-phase-error-deg', '50', ...common], dir);
+    expect(refused.code).toBe(1);
+    expect(refused.stderr).toMatch(/quadrature error -60\.0° is beyond ±50\.0°: --max-phase-error-deg widens the limit/);
+    const classic = await fringetally(['calibrate', 'skew.csv', '--out', 'skew-cal3.json', '--fit', 'heydemann', ...common], dir);
+    expect(classic.stdout).toMatch(/fit +heydemann, residual/);
+    const wrong = await fringetally(['calibrate', 'skew.csv', '--out', 'skew-cal4.json', '--fit', 'circle'], dir);
+    expect(wrong.code).toBe(2);
+    expect(wrong.stderr).toMatch(/--fit must be one of heydemann, taubin, hyper \(got "circle"\)/);
+  });
+
+  // The harmonic correction's assumption is checked on the capture: a steady move over 632 fringes passes, half a
+  // fringe of vibration does not, and replay applies what calibrate stored.
+  it('calibrate --harmonics stores a correction from a steady move, refuses one that cannot support it, replay applies it', async () => {
+    expect((await fringetally(['simulate', '--out', 'steady.csv', '--motion', 'constant', '--duration-s', '0.02', '--quiet'], dir)).code).toBe(0);
+    const calibrated = await fringetally(['calibrate', 'steady.csv', '--out', 'steady-cal.json', '--harmonics', '3', ...common], dir);
+    expect(calibrated.code, calibrated.stderr).toBe(0);
+    expect(calibrated.stdout).toMatch(/harmonics +correction of orders 1\.\.3 beyond the ellipse/);
+    const file = JSON.parse(readFileSync(join(dir, 'steady-cal.json'), 'utf8'));
+    expect(file.harmonics).toMatchObject({ orders: 3 });
+    expect(file.harmonics.cos).toHaveLength(3);
+    expect(file.harmonics.fringes).toBeGreaterThan(100);
+    expect(file.residual.radiusHarmonics).toHaveLength(8);
+    expect(typeof file.residual.radiusDriftRelative).toBe('number');
+    const replayed = await fringetally(['replay', 'steady.csv', ...common, '--calibration', 'steady-cal.json', '--out', 'steady.out.csv'], dir);
+    expect(replayed.code, replayed.stderr).toBe(0);
+    expect(replayed.stderr).toMatch(/applying the calibration's harmonic correction \(orders 1\.\.3\)/);
+    expect(replayed.stderr).toMatch(/calibration_stale: none/);
+    expect((await fringetally(['simulate', '--out', 'wiggle.csv', '--motion', 'vibration', '--duration-s', '0.02', '--quiet'], dir)).code).toBe(0);
+    const refused = await fringetally(['calibrate', 'wiggle.csv', '--out', 'wiggle-cal.json', '--harmonics', '2', ...common], dir);
+    expect(refused.code).toBe(1);
+    expect(refused.stderr).toMatch(/harmonic correction refused: the move spans [\d.]+ fringes; .*at least 100/);
+    expect(existsSync(join(dir, 'wiggle-cal.json'))).toBe(false);
+    const unsupported = await fringetally(['calibrate', 'steady.csv', '--out', 'x.json', '--harmonics', '9'], dir);
+    expect(unsupported.code).toBe(2);
+    expect(unsupported.stderr).toMatch(/--harmonics must be an integer in 1\.\.8 \(got 9\)/);
   });
 });

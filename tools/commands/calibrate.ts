@@ -2,24 +2,43 @@
 import { writeFile, rename } from 'node:fs/promises';
 import { parseCommandLine, numberOption, UsageError, type Command } from '../cli-kit.js';
 import { fitCapture, runCapture } from '../capture-run.js';
-import { calibrationFileOf } from '../calibration-file.js';
+import { calibrationFileOf, HARMONIC_ASSUMPTION } from '../calibration-file.js';
 import { captureOptionHelp, captureOptionSpecs, captureOptionsOf, lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
 import { createProgress } from '../progress.js';
-import { formatCalibration, formatChannels, formatPeriodicError, formatPower, writeReportFile } from '../report.js';
+import { formatCalibration, formatChannels, formatPeriodicError, formatPower, formatResidual, writeReportFile } from '../report.js';
+import {
+  ELLIPSE_FIT_METHODS,
+  exceededLimits,
+  fitWarnings,
+  MAX_HARMONIC_ORDER,
+  resolveFitLimits,
+  type EllipseFitMethod,
+  type EllipseFitMethodOptions,
+  type EllipseFitResult,
+} from '../../src/core/index.js';
 
 const help = `Usage: fringetally calibrate <capture.csv|capture.wav> --out cal.json [options]
 
-Fits the ellipse (Heydemann correction) to the whole capture, prints its parameters, the fit quality, the
-phase coverage and the periodic error before and after correction, and writes the calibration file
-(versioned JSON, offsets and amplitudes in the capture's own units: ADC counts for integer captures).
-With three or four outputs (--channels A,B,C[,D]) it first finds the source power as the steadiest
-combination of the outputs (it assumes the power does not follow the fringe), fits the ellipse of the
-power-normalised pair, and writes every output's offset, gain and phase.
-Refuses (exit 1) when the capture covers too little of the ellipse: record at least one full fringe of motion.
+Fits the ellipse (Heydemann's model, by default with the bias-reduced hyper least-squares fit) to the whole
+capture, prints its parameters, the fit quality, the phase coverage and the periodic error before and after
+correction, and writes the calibration file (versioned JSON, offsets and amplitudes in the capture's own units:
+ADC counts for integer captures). Refuses (exit 1) when the capture covers too little of the ellipse (record at
+least one full fringe of motion) or when the ellipse is beyond the plausibility limits below; a refusal names the
+option that would change it. With three or four outputs (--channels A,B,C[,D]) it first finds the source power as
+the steadiest combination of the outputs (it assumes the power does not follow the fringe), fits the ellipse of
+the power-normalised pair, and writes every output's offset, gain and phase.
 
 Options:
   --out FILE             calibration file to write (JSON)
+  --fit METHOD           heydemann (classic least squares), taubin or hyper (bias-reduced; default, as the library)
   --min-coverage F       least phase coverage accepted, fraction of a fringe (default 0.75)
+  --max-phase-error-deg D  largest quadrature error accepted, degrees (default 70; a warning beyond 45, where the
+                         correction multiplies phase noise by 1/cos e > 1.41)
+  --max-amplitude-ratio R  largest ratio of the two amplitudes accepted (default 4)
+  --harmonics N          also estimate a correction of the periodic phase error beyond the ellipse (ghost beams,
+                         detector nonlinearity), harmonics 1..N of the phase (N in 1..8), stored in the file and
+                         applied by replay and listen. Assumes the capture is a smooth move (steady velocity, or a
+                         gentle change of speed: a cubic in time) over at least 100 fringes; refused otherwise
   --report FILE          also write a self-contained HTML report (Lissajous figure, periodic error)
   --quiet                no progress bar and no summary
 ${measureOptionHelp}
@@ -27,8 +46,10 @@ ${measureOptionHelp}
 ${captureOptionHelp}
 
 Periodic error "before" is the phase error of the uncorrected signals (ADC mid-scale removed only) against
-the corrected phase; "after" is the corrected phase's deviation from smooth motion, measured on stretches of
-steady motion (fringe rate at least 10x the smoothing bandwidth).`;
+the corrected phase; it is "not applicable" for unipolar (DC-coupled) signals, whose zero lies outside the
+figure. "After" is measured in the phase domain: over windows of 512 samples the corrected phase is fitted as a
+cubic in time (the motion, its own per window) plus harmonics 1-4 of the phase shared by all windows, so slow and
+irregular motion (reversals, stops) counts too; windows with an alarm on the signal are left out.`;
 
 async function run(argv: readonly string[]): Promise<number> {
   const { values, positionals } = parseCommandLine(
@@ -36,6 +57,10 @@ async function run(argv: readonly string[]): Promise<number> {
     {
       out: { type: 'string' },
       'min-coverage': { type: 'string' },
+      fit: { type: 'string' },
+      'max-phase-error-deg': { type: 'string' },
+      'max-amplitude-ratio': { type: 'string' },
+      harmonics: { type: 'string' },
       report: { type: 'string' },
       quiet: { type: 'boolean' },
       ...measureOptionSpecs,
@@ -49,19 +74,40 @@ async function run(argv: readonly string[]): Promise<number> {
   const quiet = values.quiet === true;
   const scale = lengthScaleOf(values, { wavelengthNm: 632.9908, fold: 2 });
   const open = captureOptionsOf(values);
-  const minCoverage = numberOption('min-coverage', values['min-coverage']);
+  const fitOptions = fitOptionsOf(values);
+  const harmonicOrders = numberOption('harmonics', values.harmonics);
+  if (harmonicOrders !== undefined && !(Number.isInteger(harmonicOrders) && harmonicOrders >= 1 && harmonicOrders <= MAX_HARMONIC_ORDER)) {
+    throw new UsageError(`--harmonics must be an integer in 1..${MAX_HARMONIC_ORDER} (got ${harmonicOrders})`);
+  }
   const progress = createProgress(quiet);
 
-  const { fit, info, channels } = await fitCapture(path, open, minCoverage === undefined ? {} : { minCoverage }, progress);
+  const { fit, info, totalSamples, channels } = await fitCapture(path, open, fitOptions, progress);
   if (!fit.ok) {
-    process.stderr.write(`fringetally calibrate: ${path}: calibration refused: ${fit.message}\n`);
+    process.stderr.write(`fringetally calibrate: ${path}: calibration refused: ${fit.message}${refusalHint(fit, fitOptions)}\n`);
     return 1;
   }
+  for (const warning of fitWarnings(fit.calibration)) process.stderr.write(`fringetally calibrate: warning: ${warning}\n`);
   // The index only scales the nm figures here; the calibration itself does not depend on it.
   const settings = { ...scale, refractiveIndex: scale.refractiveIndex ?? 1 };
   const notes = [...scale.notes, ...(scale.refractiveIndex === undefined ? ['periodic error in nm at n = 1 (vacuum wavelength)'] : [])];
-  const result = await runCapture(path, { open, calibration: fit.calibration, ...(channels === undefined ? {} : { channels }), settings, progress });
-  const file = calibrationFileOf(fit, info, channels);
+  const result = await runCapture(path, {
+    open,
+    calibration: fit.calibration,
+    ...(channels === undefined ? {} : { channels }),
+    settings,
+    progress,
+    ...(harmonicOrders === undefined ? {} : { estimateHarmonics: { orders: harmonicOrders, totalSamples: Math.max(16, totalSamples) } }),
+  });
+  const estimate = result.harmonicEstimate;
+  if (estimate !== null && !estimate.ok) {
+    process.stderr.write(`fringetally calibrate: ${path}: harmonic correction refused: ${estimate.message}; calibrate without --harmonics for the ellipse alone\n`);
+    return 1;
+  }
+  const harmonics =
+    estimate === null
+      ? undefined
+      : { orders: harmonicOrders!, ...estimate.harmonics, assumption: HARMONIC_ASSUMPTION, fringes: estimate.fringes, residualRmsRad: estimate.residualRmsRad };
+  const file = calibrationFileOf(fit, info, channels, result.residual.summary, harmonics);
   const temporary = `${values.out}.partial-${process.pid}`;
   await writeFile(temporary, JSON.stringify(file, null, 2) + '\n');
   await rename(temporary, values.out);
@@ -73,14 +119,59 @@ async function run(argv: readonly string[]): Promise<number> {
       `capture     ${path} (${info.format}, ${result.samples} samples at ${info.rateHz} Hz, ${info.sampleEncoding})`,
       ...(channels === undefined ? formatCalibration(fit.calibration, file.units) : formatChannels(file.layout.channels, file.units)),
       ...(result.power === null ? [] : [formatPower(result.power)]),
-      `fit         ${channels === undefined ? '' : 'power-normalised pair: '}residual ${(fit.residualRms * 100).toFixed(3)} % of the radius, phase coverage ${fit.coverage.toFixed(3)} of a fringe, ${fit.samples} samples`,
+      `fit         ${fitOptions.method ?? 'hyper'}, ${channels === undefined ? '' : 'power-normalised pair: '}residual ${(fit.residualRms * 100).toFixed(3)} % of the radius, phase coverage ${fit.coverage.toFixed(3)} of a fringe, ${fit.samples} samples`,
       ...formatPeriodicError(result),
+      ...formatResidual(result),
+      ...(harmonics === undefined
+        ? []
+        : [
+            `harmonics   correction of orders 1..${harmonics.orders} beyond the ellipse, amplitudes ${harmonics.cos.map((c, k) => (Math.hypot(c, harmonics.sin[k]!) * result.metresPerRad * 1e9).toFixed(3)).join(' ')} nm; ` +
+              `from a smooth move over ${harmonics.fringes.toFixed(0)} fringes (model leaves ${harmonics.residualRmsRad.toFixed(4)} rad RMS)`,
+          ]),
       ...notes.map((note) => `note        ${note}`),
       `wrote       ${values.out}${values.report === undefined ? '' : ` and report ${values.report}`}`,
     ];
     process.stdout.write(lines.join('\n') + '\n');
   }
   return 0;
+}
+
+const DEG = Math.PI / 180;
+
+/** The fit's options from the command line, in the library's units (rad). */
+function fitOptionsOf(values: Record<string, unknown>): EllipseFitMethodOptions {
+  const method = values.fit as string | undefined;
+  if (method !== undefined && !(ELLIPSE_FIT_METHODS as readonly string[]).includes(method)) {
+    throw new UsageError(`--fit must be one of ${ELLIPSE_FIT_METHODS.join(', ')} (got "${method}")`);
+  }
+  const minCoverage = numberOption('min-coverage', values['min-coverage'] as string | undefined);
+  const maxPhaseErrorDeg = numberOption('max-phase-error-deg', values['max-phase-error-deg'] as string | undefined);
+  const maxAmplitudeRatio = numberOption('max-amplitude-ratio', values['max-amplitude-ratio'] as string | undefined);
+  if (maxPhaseErrorDeg !== undefined && !(maxPhaseErrorDeg > 0 && maxPhaseErrorDeg <= 90)) {
+    throw new UsageError(`--max-phase-error-deg must be in (0, 90] degrees (got ${maxPhaseErrorDeg})`);
+  }
+  if (maxAmplitudeRatio !== undefined && !(maxAmplitudeRatio >= 1 && maxAmplitudeRatio <= 100)) {
+    throw new UsageError(`--max-amplitude-ratio must be in [1, 100] (got ${maxAmplitudeRatio})`);
+  }
+  return {
+    ...(method === undefined ? {} : { method: method as EllipseFitMethod }),
+    ...(minCoverage === undefined ? {} : { minCoverage }),
+    ...(maxPhaseErrorDeg === undefined ? {} : { maxPhaseErrorRad: maxPhaseErrorDeg * DEG }),
+    ...(maxAmplitudeRatio === undefined ? {} : { maxAmplitudeRatio }),
+  };
+}
+
+/** Names the option that would change a refusal. */
+function refusalHint(fit: Extract<EllipseFitResult, { ok: false }>, options: EllipseFitMethodOptions): string {
+  if (fit.reason === 'low-coverage') return ': record at least one full fringe of motion, or lower --min-coverage';
+  if (fit.reason !== 'implausible' || fit.calibration === undefined) return '';
+  const limits = resolveFitLimits(options);
+  const hints = exceededLimits(fit.calibration, limits).map((limit) =>
+    limit === 'maxPhaseErrorRad'
+      ? `quadrature error ${(fit.calibration!.phaseErrorRad / DEG).toFixed(1)}° is beyond ±${(limits.maxPhaseErrorRad / DEG).toFixed(1)}°: --max-phase-error-deg widens the limit`
+      : `--max-amplitude-ratio (now ${limits.maxAmplitudeRatio}) widens the amplitude-ratio limit`,
+  );
+  return hints.length === 0 ? '' : `; ${hints.join('; ')} (check the detectors first)`;
 }
 
 export const calibrate: Command = { name: 'calibrate', summary: 'fit the ellipse correction to a capture and write cal.json', help, run };

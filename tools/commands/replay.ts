@@ -1,13 +1,13 @@
 // `fringetally replay`: the whole pipeline over a capture file, rows of position, velocity, level and alarms.
 import { extname } from 'node:path';
-import { alarmKinds, alarmNames } from '../../src/core/index.js';
+import { alarmKinds, alarmNames, type PhaseHarmonics } from '../../src/core/index.js';
 import { createResultWriter, type ResultFormat } from '../../src/io/results/index.js';
 import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { fitCapture, runCapture } from '../capture-run.js';
-import { readCalibrationLayout } from '../calibration-file.js';
+import { readCalibrationFitResidual, readCalibrationHarmonics, readCalibrationLayout } from '../calibration-file.js';
 import { captureOptionHelp, captureOptionSpecs, captureOptionsOf, lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
 import { createProgress } from '../progress.js';
-import { formatPeriodicError, formatPower, writeReportFile } from '../report.js';
+import { formatModelWatch, formatPeriodicError, formatPower, writeReportFile } from '../report.js';
 import { budgetOf, environmentOf, environmentOptionHelp, environmentOptionSpecs, withConfig } from '../environment-options.js';
 
 const help = `Usage: fringetally replay <capture.csv|capture.wav> --wavelength-nm L --fold N --out result.csv|result.jsonl
@@ -83,6 +83,8 @@ async function run(argv: readonly string[]): Promise<number> {
   let calibration;
   let channels;
   let fit = null;
+  let fitResidualRms: number | undefined;
+  let harmonics: PhaseHarmonics | undefined;
   if (typeof values.calibration === 'string') {
     const layout = await readCalibrationLayout(values.calibration);
     if (layout.ellipse === null) {
@@ -96,6 +98,9 @@ async function run(argv: readonly string[]): Promise<number> {
       throw new UsageError(`${values.calibration} calibrates two detector outputs: give two with --channels (got ${open.channels!.length})`);
     }
     calibration = layout.ellipse ?? { offsetX: 0, offsetY: 0, amplitudeX: 1, amplitudeY: 1, phaseErrorRad: 0 };
+    fitResidualRms = await readCalibrationFitResidual(values.calibration);
+    harmonics = await readCalibrationHarmonics(values.calibration);
+    if (harmonics !== undefined) say(`applying the calibration's harmonic correction (orders 1..${harmonics.cos.length}) beyond the ellipse`);
   } else {
     say(`no --calibration given: fitting the correction to ${path} first`);
     const fitted = await fitCapture(path, open, {}, progress);
@@ -106,12 +111,22 @@ async function run(argv: readonly string[]): Promise<number> {
     fit = fitted.fit;
     calibration = fitted.fit.calibration;
     channels = fitted.channels;
+    fitResidualRms = fitted.fit.residualRms;
   }
 
   const writer = await createResultWriter(out, { format: formatText as ResultFormat, every });
   let result;
   try {
-    result = await runCapture(path, { open, calibration, ...(channels === undefined ? {} : { channels }), settings, writer, progress });
+    result = await runCapture(path, {
+      open,
+      calibration,
+      ...(channels === undefined ? {} : { channels }),
+      settings,
+      writer,
+      progress,
+      modelWatch: fitResidualRms === undefined ? {} : { fitResidualRms },
+      ...(harmonics === undefined ? {} : { harmonics }),
+    });
     await writer.close();
   } catch (error) {
     await writer.abort();
@@ -132,6 +147,7 @@ async function run(argv: readonly string[]): Promise<number> {
         (result.countLostAtEnd ? ' — COUNT LOST: not trustworthy until re-referenced' : ''),
       `alarms raised: ${raised.length === 0 ? 'none' : raised.join(', ')}`,
       ...(result.power === null ? [] : [formatPower(result.power)]),
+      ...formatModelWatch(result),
       `speed limit ${result.speedLimits.unambiguousMS.toPrecision(4)} m/s unambiguous, overspeed alarm at ${result.speedLimits.overspeedMS.toPrecision(4)} m/s`,
       ...formatPeriodicError(result),
       ...(typeof values.report === 'string' ? [`report: ${values.report}`] : []),

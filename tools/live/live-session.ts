@@ -3,8 +3,7 @@
 // chunk. Sinks (result file, record file, status line, a network feed) subscribe to raw and processed blocks.
 
 import {
-  createCorrection,
-  createEllipseAccumulator,
+  createTwoPassFit,
   type AlarmEvent,
   type AlarmKind,
   type EllipseCalibration,
@@ -462,36 +461,12 @@ export function startLiveSession(options: LiveSessionOptions): LiveSession {
   }
 
   function solveFit(): EllipseFitResult {
-    // Two passes: all samples, then only those within [0.5, 1.5] of the first fit's radius, so a blocked beam
-    // or a glitch during the first samples does not pull the fit.
-    const first = createEllipseAccumulator();
-    first.add(held.x, held.y, held.length);
-    const rough = first.solve();
-    if (!rough.ok) return rough;
-    const correction = createCorrection({ calibration: rough.calibration });
-    const refined = createEllipseAccumulator();
-    const block = 4096;
-    const u = new Float64Array(block);
-    const v = new Float64Array(block);
-    const keptX = new Float64Array(block);
-    const keptY = new Float64Array(block);
-    for (let start = 0; start < held.length; start += block) {
-      const n = Math.min(block, held.length - start);
-      const x = held.x.subarray(start, start + n);
-      const y = held.y.subarray(start, start + n);
-      correction.process(x, y, u, v, n);
-      let kept = 0;
-      for (let i = 0; i < n; i++) {
-        const radius = Math.hypot(u[i]!, v[i]!);
-        if (radius >= 0.5 && radius <= 1.5) {
-          keptX[kept] = x[i]!;
-          keptY[kept] = y[i]!;
-          kept++;
-        }
-      }
-      refined.add(keptX, keptY, kept);
+    const fit = createTwoPassFit();
+    for (;;) {
+      fit.add(held.x, held.y, held.length);
+      const result = fit.endPass();
+      if (result !== null) return result;
     }
-    return refined.solve();
   }
 
   /** Tries the live fit; on success the held samples go through the pipeline. `final`: no more samples will come. */

@@ -7,8 +7,8 @@
 // 3×3 couplers; symmetric couplers: Brown et al., Proc. SPIE 1584 (1991), memory).
 
 import { validateCalibration } from '../correction.js';
-import type { EllipseCalibration } from '../ellipse.js';
-import { choleskyInPlace, symmetricEigenInPlace } from '../fit-numerics.js';
+import type { EllipseCalibration } from './ellipse.js';
+import { choleskyInPlace, symmetricEigenInPlace } from './numerics.js';
 import { finiteNumber, integerInRange, OptionError, positiveFinite } from '../options.js';
 import { wrapPhase } from '../phase.js';
 

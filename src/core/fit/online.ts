@@ -1,15 +1,15 @@
 // Drift-tracking ellipse correction: recursive least squares with exponential forgetting, in information form.
 // The conic model is linear in its coefficients, so exponentially weighted moment sums (decayed by λ per sample)
 // hold exactly what covariance-form RLS holds; solving them at checkpoints gives the same estimate without RLS's
-// covariance windup while the stage stands still, and lets the bias-reduced fits run online (fit-improved.ts).
+// covariance windup while the stage stands still, and lets the bias-reduced fits run online (conic-solver.ts).
 // Online ellipse compensation after Eom, Kim & Jeong, Meas. Sci. Technol. 12 (2001) (memory).
 
+import { correctionCoefficients, validateCalibration } from '../correction.js';
+import { integerInRange, numberInRange, oneOf, OptionError } from '../options.js';
+import { fastAtan2, TWO_PI, wrapPhase } from '../phase.js';
+import { createConicSolver, ELLIPSE_FIT_METHODS, type EllipseFitMethod } from './conic-solver.js';
 import type { EllipseCalibration } from './ellipse.js';
-import { correctionCoefficients, validateCalibration } from './correction.js';
-import { MOMENT_COUNT } from './ellipse.js';
-import { createConicSolver, ELLIPSE_FIT_METHODS, type EllipseFitMethod } from './fit-improved.js';
-import { integerInRange, numberInRange, oneOf, OptionError } from './options.js';
-import { fastAtan2, TWO_PI, wrapPhase } from './phase.js';
+import { MOMENT_COUNT } from './moments.js';
 
 export interface OnlineCorrectionOptions {
   /** Starting ellipse, e.g. from a batch fit; also fixes the origin the sums are kept about. Required. */

@@ -1,0 +1,26 @@
+// Ellipse fitting: the calibration record, moment sums, the classic and bias-reduced conic fits, coverage, the
+// two-pass gated fit of the command line, and the online (drift-tracking) correction. Listed by name, so that
+// helpers shared inside the folder stay internal.
+export { createEllipseAccumulator } from './accumulator.js';
+export type { EllipseAccumulator } from './accumulator.js';
+export { calibrationOfSolution, createConicSolver, ELLIPSE_FIT_METHODS } from './conic-solver.js';
+export type { ConicSolution, ConicSolver, EllipseFitMethod } from './conic-solver.js';
+export { coverageOfFit } from './coverage.js';
+export type { AccumulatorState } from './coverage.js';
+export { fromHeydemann, heydemannFromConic, toHeydemann } from './ellipse.js';
+export type { Conic, EllipseCalibration, EllipseFitFailure, EllipseFitResult, FitFrame, HeydemannParameters } from './ellipse.js';
+export { acceptFit, exceededLimits, fitWarnings, resolveFitLimits, WARN_PHASE_ERROR_RAD } from './limits.js';
+export type { EllipseFitOptions, FitLimits } from './limits.js';
+export { createEllipseFit } from './methods.js';
+export type { EllipseFit, EllipseFitMethodOptions } from './methods.js';
+export { MOMENT_COUNT, momentIndex, shiftMoments } from './moments.js';
+export { createOnlineCorrection } from './online.js';
+export type { OnlineCorrection, OnlineCorrectionOptions, OnlineCorrectionStatus } from './online.js';
+export { createResidualAnalyzer, RESIDUAL_ORDERS, residualMeaning } from './residual.js';
+export type { RadiusOverTime, ResidualAnalyzer, ResidualAnalyzerOptions, ResidualMeaning, ResidualSummary } from './residual.js';
+export { createHarmonicCorrection, createHarmonicEstimator, MAX_HARMONIC_ORDER } from './harmonics.js';
+export type { HarmonicCorrection, HarmonicEstimate, HarmonicEstimator, HarmonicEstimatorOptions, PhaseHarmonics } from './harmonics.js';
+export { createModelWatch, MODEL_WATCH_ALARM } from './model-watch.js';
+export type { ModelWatch, ModelWatchEvent, ModelWatchOptions } from './model-watch.js';
+export { createTwoPassFit } from './two-pass.js';
+export type { TwoPassFit } from './two-pass.js';
