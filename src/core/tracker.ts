@@ -224,6 +224,9 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
         pushAlarm(events, firstIndex, 'countLost', true, gapPendingSamples);
       }
       gapPendingSamples = 0;
+      // The step across the gap spans unseen samples and says nothing of speed (no overspeed): re-acquire the
+      // phase there, as after held samples.
+      resuming = started;
       if (length > 1) pushAlarm(events, firstIndex + 1, 'inputGap', false, NaN);
       else gapActive = true;
     }

@@ -279,6 +279,21 @@ describe('alarms', () => {
     expect(pipeline.nextSampleIndex).toBe(n);
   });
 
+  it.each(['plain', 'velocity-aided'] as const)('the step across an input gap raises no overspeed (%s unwrap)', (unwrap) => {
+    // Slow motion, then 0.7π of phase unseen in a gap of 10 samples: above the overspeed step, but no speed.
+    const phase = new Float64Array(4000);
+    for (let i = 1; i < phase.length; i++) phase[i] = phase[i - 1]! + 0.01 + (i === 2000 ? 0.7 * Math.PI : 0);
+    const { x, y } = signal(phase);
+    const pipeline = createPipeline({ ...baseOptions, unwrap });
+    const out = outputs(phase.length);
+    const events: AlarmEvent[] = [];
+    pipeline.process(x.subarray(0, 2000), y.subarray(0, 2000), 2000, out, events);
+    pipeline.markGap(10);
+    pipeline.process(x.subarray(2000), y.subarray(2000), 2000, out, events);
+    expect(kinds(events)).toEqual(['inputGap:raised@2010', 'countLost:raised@2010', 'inputGap:cleared@2011']);
+    expect(Array.from(out.flags.subarray(0, 2000)).every((f) => (f & AlarmBit.overspeed) === 0)).toBe(true);
+  });
+
   it('reproduces the unambiguous speed limit v_max = λ·f_s/(2·fold·n) (common practice)', () => {
     const limits = createPipeline(baseOptions).speedLimits;
     expect(limits.unambiguousMS).toBeCloseTo((HE_NE_M * 1e6) / (2 * 2 * 1), 12);

@@ -8,7 +8,10 @@ export interface CopiedBlock {
   sampleIndex: number;
   sampleRateHz: number;
   timestampUs: number;
+  sampleCounter: number;
   samples: number[];
+  /** Edges as [time in sample periods from the block's first sample, line, rising 1/0]. */
+  edges: [number, number, number][];
 }
 
 export function copyBlock(block: SampleBlock): CopiedBlock {
@@ -19,7 +22,9 @@ export function copyBlock(block: SampleBlock): CopiedBlock {
     sampleIndex: block.sampleIndex,
     sampleRateHz: block.sampleRateHz,
     timestampUs: block.timestampUs,
+    sampleCounter: block.sampleCounter,
     samples: Array.from(block.samples),
+    edges: Array.from({ length: block.edgeCount }, (_, e) => [block.edgeTime[e]!, block.edgeLine[e]!, block.edgeRising[e]!]),
   };
 }
 

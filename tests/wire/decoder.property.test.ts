@@ -1,7 +1,7 @@
 // Property tests of the wire decoder against random bytes, random chunking and damage (fast-check).
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { WIRE_SYNC_0, type WireFrameHeader } from '../../src/io/wire/index.js';
+import { WIRE_SYNC_0, wireFrameLength, wireMaxFrameLength, type WireFrameHeader } from '../../src/io/wire/index.js';
 import { collectingDecoder, type CopiedBlock } from './collect.js';
 import { concat, frameBytes } from './frames.js';
 
@@ -13,6 +13,14 @@ interface SentFrame {
   bytes: Uint8Array;
 }
 
+const edgeArbitrary = (samplesPerFrame: number) =>
+  fc.record({
+    sample: fc.integer({ min: 0, max: samplesPerFrame - 1 }),
+    lead: fc.integer({ min: 0, max: 65535 }),
+    line: fc.integer({ min: 0, max: 7 }),
+    rising: fc.boolean(),
+  });
+
 const frameArbitrary = (sequence: number) =>
   fc
     .record({
@@ -22,20 +30,40 @@ const frameArbitrary = (sequence: number) =>
       timestampUs: fc.option(fc.integer({ min: 0, max: 0xffffffff }), { nil: undefined }),
     })
     .chain((shape) =>
-      fc.array(fc.integer({ min: -32768, max: 32767 }), {
-        minLength: shape.channelCount * shape.samplesPerFrame,
-        maxLength: shape.channelCount * shape.samplesPerFrame,
-      }).map((samples): SentFrame => {
-        const header = { sequence, ...shape };
+      fc.tuple(
+        fc.array(fc.integer({ min: -32768, max: 32767 }), {
+          minLength: shape.channelCount * shape.samplesPerFrame,
+          maxLength: shape.channelCount * shape.samplesPerFrame,
+        }),
+        fc.option(fc.array(edgeArbitrary(shape.samplesPerFrame), { maxLength: 3 }), { nil: undefined }),
+      ).map(([samples, edges]): SentFrame => {
+        const header = { sequence, ...shape, edges };
         return { header, samples, bytes: frameBytes(header, samples) };
       }),
     );
 
-/** Consecutive frames from a random start sequence (so some runs cross the 65535 → 0 wrap). */
+/**
+ * Consecutive frames from a random start sequence (so some runs cross the 65535 → 0 wrap); in some runs every
+ * frame carries a sample counter that advances by its samples (and may cross 2^32).
+ */
 const framesArbitrary = (minLength: number, maxLength: number) =>
   fc
-    .tuple(fc.integer({ min: 0, max: 65535 }), fc.integer({ min: minLength, max: maxLength }))
-    .chain(([start, count]) => fc.tuple(...Array.from({ length: count }, (_, i) => frameArbitrary((start + i) % 65536))));
+    .tuple(
+      fc.integer({ min: 0, max: 65535 }),
+      fc.integer({ min: minLength, max: maxLength }),
+      fc.option(fc.integer({ min: 0, max: 0xffffffff }), { nil: undefined }),
+    )
+    .chain(([start, count, counterStart]) =>
+      fc.tuple(...Array.from({ length: count }, (_, i) => frameArbitrary((start + i) % 65536))).map((frames) => {
+        if (counterStart === undefined) return frames;
+        let counter = counterStart;
+        return frames.map((frame): SentFrame => {
+          const header = { ...frame.header, sampleCounter: counter };
+          counter = (counter + header.samplesPerFrame) % 2 ** 32;
+          return { header, samples: frame.samples, bytes: frameBytes(header, frame.samples) };
+        });
+      }),
+    );
 
 /** Cuts `bytes` at the given fractions into chunks (some may be empty). */
 function split(bytes: Uint8Array, cuts: readonly number[]): Uint8Array[] {
@@ -58,6 +86,8 @@ function matches(frame: CopiedBlock, sent: SentFrame): boolean {
     frame.samplesPerFrame === sent.header.samplesPerFrame &&
     Object.is(frame.sampleRateHz, sent.header.sampleRateHz ?? Number.NaN) &&
     Object.is(frame.timestampUs, sent.header.timestampUs ?? Number.NaN) &&
+    Object.is(frame.sampleCounter, sent.header.sampleCounter ?? Number.NaN) &&
+    JSON.stringify(frame.edges) === JSON.stringify((sent.header.edges ?? []).map((e) => [e.sample - e.lead / 65536, e.line, e.rising ? 1 : 0])) &&
     frame.samples.length === sent.samples.length &&
     frame.samples.every((value, i) => value === sent.samples[i])
   );
@@ -145,9 +175,11 @@ describe('wire decoder properties', () => {
           const damagedIndex = 1 + (frameChoice % (sent.length - 1));
           const damaged = sent[damagedIndex]!.bytes.slice();
           damaged[byteChoice % damaged.length] ^= flip;
-          // Two largest-size frames behind the damage: a false length read from it ends inside the stream.
+          // Largest-size frames behind the damage, more bytes than the largest frame (a damaged edge count can
+          // claim 256 edges): a false length read from it ends inside the stream.
           const last = sent[sent.length - 1]!.header.sequence;
-          const tail = [1, 2].map((k) => {
+          const tailCount = Math.ceil(wireMaxFrameLength(LIMITS.maxChannels, LIMITS.maxSamplesPerFrame) / wireFrameLength(4, 8, 0)) + 1;
+          const tail = Array.from({ length: tailCount }, (_, i) => i + 1).map((k) => {
             const header = { sequence: (last + k) % 65536, channelCount: 4, samplesPerFrame: 8 };
             const samples = Array.from({ length: 32 }, (_, i) => i - k * 100);
             return { header, samples, bytes: frameBytes(header, samples) };
@@ -159,8 +191,11 @@ describe('wire decoder properties', () => {
           expect(frames).toHaveLength(expected.length);
           frames.forEach((frame, i) => expect(matches(frame, expected[i]!)).toBe(true));
           expect(gaps).toHaveLength(1);
-          expect(gaps[0]!.lostFrames).toBe(1);
-          expect(gaps[0]!.lostSamples).toBe(all[damagedIndex + 1]!.header.samplesPerFrame);
+          expect(gaps[0]).toMatchObject({ kind: 'loss', lostFrames: 1 });
+          // The sample counter, when the frames on both sides carry one, counts the damaged frame's own samples.
+          const after: WireFrameHeader = all[damagedIndex + 1]!.header;
+          const countedBy = after.sampleCounter !== undefined ? all[damagedIndex]! : all[damagedIndex + 1]!;
+          expect(gaps[0]!.lostSamples).toBe(countedBy.header.samplesPerFrame);
         },
       ),
       { numRuns: 300 },

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { createWireDecoder, type SampleBlock } from '../../src/io/wire/index.js';
+import { crc32c, createWireDecoder, type SampleBlock } from '../../src/io/wire/index.js';
 import { collectingDecoder } from './collect.js';
 import { concat, frameBytes, syntheticFrame } from './frames.js';
 
@@ -23,7 +23,16 @@ describe('createWireDecoder options', () => {
 
   it('sizes its buffer for the largest allowed frame', () => {
     const decoder = createWireDecoder({ maxChannels: 4, maxSamplesPerFrame: 100, onFrame: noop, onGap: noop });
-    expect(decoder.config).toEqual({ maxChannels: 4, maxSamplesPerFrame: 100, bufferBytes: 10 + 8 + 4 * 100 * 2 + 4 });
+    // Fixed header, three u32 fields and the edge count, samples, 256 edge records of 6 bytes, CRC.
+    expect(decoder.config).toEqual({ maxChannels: 4, maxSamplesPerFrame: 100, bufferBytes: 10 + 14 + 4 * 100 * 2 + 256 * 6 + 4 });
+  });
+
+  it('admits by default the largest frame the format allows (4096 samples per frame)', () => {
+    const decoder = createWireDecoder({ onFrame: noop, onGap: noop });
+    expect(decoder.config.maxSamplesPerFrame).toBe(4096);
+    const { decoder: collecting, frames } = collectingDecoder();
+    collecting.push(syntheticFrame(0, 2, 4096));
+    expect(frames.map((f) => f.samplesPerFrame)).toEqual([4096]);
   });
 });
 
@@ -64,7 +73,7 @@ describe('wire decoder', () => {
     decoder.push(concat([syntheticFrame(5), damaged, syntheticFrame(7)]));
     expect(frames.map((f) => f.sequence)).toEqual([5, 7]);
     expect(decoder.counters.crcFailures).toBe(1);
-    expect(gaps).toEqual([{ sampleIndex: 4, lostFrames: 1, lostSamples: 4, expectedSequence: 6, receivedSequence: 7 }]);
+    expect(gaps).toEqual([{ sampleIndex: 4, kind: 'loss', lostFrames: 1, lostSamples: 4, expectedSequence: 6, receivedSequence: 7 }]);
     expect(decoder.counters).toMatchObject({ gaps: 1, lostSamples: 4 });
   });
 
@@ -78,18 +87,20 @@ describe('wire decoder', () => {
   it('measures a gap across the wrap: expected 65535, got 2 → 3 frames lost', () => {
     const { gaps, decoder } = collectingDecoder();
     decoder.push(concat([syntheticFrame(65534, 2, 8), syntheticFrame(2, 2, 8)]));
-    expect(gaps).toEqual([{ sampleIndex: 8, lostFrames: 3, lostSamples: 24, expectedSequence: 65535, receivedSequence: 2 }]);
+    expect(gaps).toEqual([{ sampleIndex: 8, kind: 'loss', lostFrames: 3, lostSamples: 24, expectedSequence: 65535, receivedSequence: 2 }]);
   });
 
-  it('rejects frames beyond its limits as bad headers and keeps going', () => {
+  it('rejects frames beyond its limits as bad headers, keeps going, and tells the sizes it refused', () => {
     const { decoder, frames } = collectingDecoder({ maxChannels: 2, maxSamplesPerFrame: 4 });
     decoder.push(concat([syntheticFrame(0, 4, 2), syntheticFrame(1, 2, 5), syntheticFrame(2, 2, 4)]));
     expect(frames.map((f) => f.sequence)).toEqual([2]);
     expect(decoder.counters.headerRejects).toBeGreaterThanOrEqual(2);
+    expect(decoder.counters).toMatchObject({ oversizeHeaders: 2, oversizeSamplesPerFrame: 5, oversizeChannels: 4 });
   });
 
   it('rejects unknown flag bits, versions and sample formats', () => {
-    for (const [offset, value] of [[2, 2], [3, 2], [5, 4]] as const) {
+    // Version 3 does not exist; format 2 is reserved; flag bit 2 (the sample counter) is version 2 only.
+    for (const [offset, value] of [[2, 3], [3, 2], [5, 4]] as const) {
       const frame = syntheticFrame(0);
       frame[offset] = value;
       const { decoder, frames } = collectingDecoder();
@@ -97,6 +108,24 @@ describe('wire decoder', () => {
       expect(frames).toEqual([]);
       expect(decoder.counters.headerRejects).toBe(1);
     }
+  });
+
+  it('reads version 2 edges as times from the block start, and drops edge records out of range', () => {
+    const edges = [
+      { sample: 0, lead: 16384, line: 0, rising: true }, // a quarter period before sample 0: t = −0.25
+      { sample: 2, lead: 0, line: 1, rising: false }, // at sample 2
+      { sample: 3, lead: 1, line: 2, rising: true },
+    ];
+    const frame = frameBytes({ sequence: 0, channelCount: 2, samplesPerFrame: 4, edges }, new Array<number>(8).fill(0));
+    // Make the third record name line 9 (beyond 7) and re-seal the frame, as a faulty firmware would send it.
+    const recordAt = frame.length - 4 - 6;
+    frame[recordAt + 4] = 9;
+    const crc = crc32c(frame, 0, frame.length - 4);
+    frame.set([crc & 0xff, (crc >>> 8) & 0xff, (crc >>> 16) & 0xff, crc >>> 24], frame.length - 4);
+    const { decoder, frames } = collectingDecoder();
+    decoder.push(frame);
+    expect(frames[0]!.edges).toEqual([[-0.25, 0, 1], [2, 1, 0]]);
+    expect(decoder.counters.edgeRejects).toBe(1);
   });
 
   it('flushPartial drops an unfinished frame but keeps the sequence expectation', () => {

@@ -1,6 +1,6 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { createLineDecoder, formatSampleLines, splitAxis, type LineDecoderOptions, type MalformedLineReason } from '../../src/io/wire/index.js';
+import { NO_EDGES, createLineDecoder, formatSampleLines, splitAxis, type LineDecoderOptions, type MalformedLineReason } from '../../src/io/wire/index.js';
 import { copyBlock, type CopiedBlock } from './collect.js';
 
 const text = (s: string) => Uint8Array.from(Buffer.from(s, 'latin1'));
@@ -43,7 +43,7 @@ describe('line decoder', () => {
     decoder.push(text('1,2,3,4\n5,6,7,8\n'));
     const x = new Float64Array(2);
     const y = new Float64Array(2);
-    const block = { ...blocks[0]!, samples: Int16Array.from(blocks[0]!.samples) };
+    const block = { ...blocks[0]!, ...NO_EDGES, samples: Int16Array.from(blocks[0]!.samples) };
     expect(splitAxis(block, 1, x, y)).toBe(2);
     expect([...x, ...y]).toEqual([3, 7, 4, 8]);
     expect(() => splitAxis(block, 2, x, y)).toThrow('axis must be an integer in 0..1 (got 2)');

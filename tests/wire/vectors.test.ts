@@ -47,6 +47,15 @@ describe('docs/wire-format.md', () => {
     encodeWireFrame(header, [1, -1, -32768, 32767], out);
     expect(example![1]!.replace(/ /g, '')).toBe(Buffer.from(out).toString('hex'));
   });
+
+  it('shows the bytes of the shared version 2 vector for its version 2 example', () => {
+    const doc = readFileSync(new URL('../../docs/wire-format.md', import.meta.url), 'utf8');
+    const example = /## Example frame, version 2[\s\S]*?```\n([0-9a-f ]+)\n```/.exec(doc);
+    expect(example).not.toBeNull();
+    const vector = frameVectors.find((v) => v.name.startsWith('version 2: rate, timestamp, counter and edges'))!;
+    expect(example![1]!.replace(/ /g, '')).toBe(vector.hex);
+    expect(encodeTs(vector)).toBe(vector.hex);
+  });
 });
 
 describe('shared vectors', () => {
@@ -77,15 +86,32 @@ describe('shared vectors', () => {
       expect(frame.samplesPerFrame).toBe(header.samplesPerFrame);
       expect(frame.sampleRateHz).toBe(header.sampleRateHz ?? Number.NaN);
       expect(frame.timestampUs).toBe(header.timestampUs ?? Number.NaN);
+      expect(frame.sampleCounter).toBe(header.sampleCounter ?? Number.NaN);
       expect(frame.samples).toEqual(samples);
+      // Edge time = sample − lead / 65536 sample periods (docs/wire-format.md, "Edge records").
+      expect(frame.edges).toEqual((header.edges ?? []).map((e) => [e.sample - e.lead / 65536, e.line, e.rising ? 1 : 0]));
     });
     expect(decoder.counters.crcFailures + decoder.counters.headerRejects + decoder.counters.bytesSkipped).toBe(0);
   });
 
   it.each(rejectedVectors)('both encoders refuse "$name"', (vector) => {
     const zeros = new Array<number>(vector.header.channelCount * vector.header.samplesPerFrame).fill(0);
-    expect(() => encodeWireFrame(vector.header, zeros, new Uint8Array(1 << 18))).toThrow(new RegExp(`^${vector.field} must`));
+    const field = vector.field.replace(/[[\].]/g, '\\$&');
+    expect(() => encodeWireFrame(vector.header, zeros, new Uint8Array(1 << 18))).toThrow(new RegExp(`^${field} must`));
     expect(program.run([firmwareFrameCommand(vector.header, zeros)])).toEqual(['error']);
+  });
+
+  it('both encoders refuse 257 edges in one frame and accept 256', () => {
+    const edges = (count: number) => Array.from({ length: count }, (_, i) => ({ sample: i % 4, lead: i, line: 0, rising: true }));
+    const header = (count: number) => ({ sequence: 0, channelCount: 2, samplesPerFrame: 4, edges: edges(count) });
+    const zeros = new Array<number>(8).fill(0);
+    expect(() => encodeWireFrame(header(257), zeros, new Uint8Array(4096))).toThrow('edges.length must be an integer in 0..256 (got 257)');
+    const out = new Uint8Array(wireFrameLengthOf(header(256)));
+    encodeWireFrame(header(256), zeros, out);
+    expect(program.run([firmwareFrameCommand(header(257), zeros), firmwareFrameCommand(header(256), zeros)])).toEqual([
+      'error',
+      Buffer.from(out).toString('hex'),
+    ]);
   });
 
   it('TypeScript encoder names the problem for bad samples and a short output buffer', () => {

@@ -25,7 +25,12 @@ export const rejectedVectors: readonly RejectedVector[] = file.rejected;
 
 /** The `frame …` command line of tools/firmware/wire_vectors.c for a header and its samples. */
 export function firmwareFrameCommand(header: WireFrameHeader, samples: readonly number[]): string {
-  const flags = (header.sampleRateHz === undefined ? 0 : 1) | (header.timestampUs === undefined ? 0 : 2);
+  const flags =
+    (header.sampleRateHz === undefined ? 0 : 1) |
+    (header.timestampUs === undefined ? 0 : 2) |
+    (header.sampleCounter === undefined ? 0 : 4) |
+    (header.edges === undefined ? 0 : 8);
+  const edges = header.edges ?? [];
   return [
     'frame',
     header.sequence,
@@ -34,7 +39,10 @@ export function firmwareFrameCommand(header: WireFrameHeader, samples: readonly 
     flags,
     header.sampleRateHz ?? 0,
     header.timestampUs ?? 0,
+    header.sampleCounter ?? 0,
+    edges.length,
     ...samples,
+    ...edges.flatMap((edge) => [edge.sample, edge.lead, edge.line, edge.rising ? 1 : 0]),
   ].join(' ');
 }
 

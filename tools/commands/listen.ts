@@ -206,7 +206,11 @@ async function run(argv: readonly string[]): Promise<number> {
         const { gap } = notice;
         if (gapLines < MAX_GAP_LINES) {
           const t = status === null || !(status.rateHz > 0) ? '' : ` at t = ${(gap.sampleIndex / status.rateHz).toFixed(6)} s`;
-          statusLine.log(`input gap of ${gap.lostSamples} samples${t} (${gap.cause === 'link' ? 'link outage' : 'sequence jump'}): count lost`);
+          statusLine.log(
+            gap.cause === 'resync'
+              ? `frame counter restarted or went backwards${t}: gap of unknown length, count lost`
+              : `input gap of ${gap.lostSamples} samples${t} (${gap.cause === 'link' ? 'link outage' : 'sequence jump'}): count lost`,
+          );
         } else if (gapLines === MAX_GAP_LINES) statusLine.log('further gaps are counted, not listed');
         gapLines++;
       } else if (notice.fit.ok) {

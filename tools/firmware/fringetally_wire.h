@@ -1,10 +1,13 @@
 /*
- * fringetally_wire.h - header-only encoder for the fringetally serial frame, version 1.
+ * fringetally_wire.h - header-only encoder for the fringetally serial frame, versions 1 and 2.
  * For firmware: C99, no dynamic memory, no library calls, output independent of the CPU's byte order.
  * Layout, CRC and sequence rules: docs/wire-format.md. CRC-32C (Castagnoli) with a 16-entry table.
  *
  * Use: either ft_wire_encode() from a sample array, or, to build the frame in place (e.g. in a DMA
- * buffer), ft_wire_write_header(), then write the samples at out + header size, then ft_wire_finish().
+ * buffer), write the samples at out + ft_wire_header_size(), then ft_wire_write_header(), then ft_wire_finish().
+ * The header size depends on the flags only, so the samples' place is known before the edges are; write the
+ * header once the frame's sampling has ended, when the edge count is final.
+ * A frame is version 2 when it carries the sample counter or edges, else version 1.
  */
 #ifndef FRINGETALLY_WIRE_H
 #define FRINGETALLY_WIRE_H
@@ -15,16 +18,34 @@
 #define FT_WIRE_SYNC0 0xA5u
 #define FT_WIRE_SYNC1 0x5Au
 #define FT_WIRE_VERSION 1u
+#define FT_WIRE_VERSION_2 2u
 #define FT_WIRE_FORMAT_INT16LE 1u
 #define FT_WIRE_FLAG_SAMPLE_RATE 0x01u
 #define FT_WIRE_FLAG_TIMESTAMP 0x02u
+#define FT_WIRE_FLAG_SAMPLE_COUNTER 0x04u /* version 2 */
+#define FT_WIRE_FLAG_EDGES 0x08u          /* version 2 */
+#define FT_WIRE_KNOWN_FLAGS 0x0Fu
 #define FT_WIRE_FIXED_HEADER_BYTES 10u
+#define FT_WIRE_EDGE_BYTES 6u
 #define FT_WIRE_CRC_BYTES 4u
 #define FT_WIRE_MAX_CHANNELS 16u
 #define FT_WIRE_MAX_SAMPLES_PER_FRAME 4096u
-/* Largest frame: header, both optional fields, payload, CRC. */
-#define FT_WIRE_MAX_FRAME_BYTES \
-  (FT_WIRE_FIXED_HEADER_BYTES + 8u + FT_WIRE_MAX_CHANNELS * FT_WIRE_MAX_SAMPLES_PER_FRAME * 2u + FT_WIRE_CRC_BYTES)
+#define FT_WIRE_MAX_EDGES_PER_FRAME 256u
+#define FT_WIRE_MAX_EDGE_LINE 7u
+#define FT_WIRE_EDGE_LINE_TRIGGER 0u
+#define FT_WIRE_EDGE_LINE_REFERENCE_MARK 1u
+/* Largest frame: header, every optional field, payload, the most edges, CRC. */
+#define FT_WIRE_MAX_FRAME_BYTES                                                                          \
+  (FT_WIRE_FIXED_HEADER_BYTES + 14u + FT_WIRE_MAX_CHANNELS * FT_WIRE_MAX_SAMPLES_PER_FRAME * 2u +        \
+   FT_WIRE_MAX_EDGES_PER_FRAME * FT_WIRE_EDGE_BYTES + FT_WIRE_CRC_BYTES)
+
+/* One edge of a digital input, timed against the sample clock (e.g. by a timer's capture unit). */
+typedef struct {
+  uint16_t sample; /* index in the frame of the first sample taken at or after the edge, 0..samples_per_frame-1 */
+  uint16_t lead;   /* time from the edge to that sample, in 1/65536 of the sample period */
+  uint8_t line;    /* 0 trigger, 1 reference mark, 2..7 further trigger inputs */
+  uint8_t rising;  /* 1 rising edge, 0 falling edge */
+} ft_wire_edge;
 
 typedef struct {
   uint16_t sequence;          /* +1 per frame, wraps 65535 -> 0 */
@@ -33,6 +54,9 @@ typedef struct {
   uint16_t samples_per_frame; /* samples per channel, 1..4096 */
   uint32_t sample_rate_hz;    /* sent when FT_WIRE_FLAG_SAMPLE_RATE is set (must be >= 1) */
   uint32_t timestamp_us;      /* device time of the first sample, sent when FT_WIRE_FLAG_TIMESTAMP is set */
+  uint32_t sample_counter;    /* count of the frame's first sample, +samples_per_frame per frame, sent when FT_WIRE_FLAG_SAMPLE_COUNTER is set */
+  uint16_t edge_count;        /* edges in `edges`, 0..256, sent when FT_WIRE_FLAG_EDGES is set */
+  const ft_wire_edge *edges;  /* edge_count records (may be NULL when edge_count is 0) */
 } ft_wire_header;
 
 /* CRC-32C, reflected polynomial 0x82F63B78, processed a nibble at a time (64-byte table). */
@@ -53,23 +77,43 @@ static inline uint32_t ft_wire_crc32c(const uint8_t *data, size_t length) {
   return ft_wire_crc32c_update(0xFFFFFFFFu, data, length) ^ 0xFFFFFFFFu;
 }
 
-/* Bytes before the samples: fixed header plus optional fields. */
+/* Bytes before the samples: fixed header plus optional fields (in flag-bit order). */
 static inline size_t ft_wire_header_size(const ft_wire_header *header) {
   size_t size = FT_WIRE_FIXED_HEADER_BYTES;
   if (header->flags & FT_WIRE_FLAG_SAMPLE_RATE) size += 4u;
   if (header->flags & FT_WIRE_FLAG_TIMESTAMP) size += 4u;
+  if (header->flags & FT_WIRE_FLAG_SAMPLE_COUNTER) size += 4u;
+  if (header->flags & FT_WIRE_FLAG_EDGES) size += 2u;
   return size;
 }
 
-/* Bytes of the whole frame, or 0 when the header is invalid. */
+/* Edge records sent: edge_count when FT_WIRE_FLAG_EDGES is set, else none. */
+static inline size_t ft_wire_edges_sent(const ft_wire_header *header) {
+  return (header->flags & FT_WIRE_FLAG_EDGES) ? (size_t)header->edge_count : 0u;
+}
+
+/* Bytes of the whole frame, or 0 when the header or an edge is invalid. */
 static inline size_t ft_wire_frame_size(const ft_wire_header *header) {
+  size_t e, edges = ft_wire_edges_sent(header);
   if (header->channel_count < 2u || header->channel_count > FT_WIRE_MAX_CHANNELS || (header->channel_count & 1u) != 0u) {
     return 0;
   }
   if (header->samples_per_frame < 1u || header->samples_per_frame > FT_WIRE_MAX_SAMPLES_PER_FRAME) return 0;
-  if ((header->flags & (uint8_t)~(FT_WIRE_FLAG_SAMPLE_RATE | FT_WIRE_FLAG_TIMESTAMP)) != 0u) return 0;
+  if ((header->flags & (uint8_t)~FT_WIRE_KNOWN_FLAGS) != 0u) return 0;
   if ((header->flags & FT_WIRE_FLAG_SAMPLE_RATE) && header->sample_rate_hz == 0u) return 0;
-  return ft_wire_header_size(header) + (size_t)header->channel_count * header->samples_per_frame * 2u + FT_WIRE_CRC_BYTES;
+  if (edges > FT_WIRE_MAX_EDGES_PER_FRAME || (edges > 0u && header->edges == NULL)) return 0;
+  for (e = 0; e < edges; e++) {
+    const ft_wire_edge *edge = &header->edges[e];
+    if (edge->sample >= header->samples_per_frame || edge->line > FT_WIRE_MAX_EDGE_LINE || edge->rising > 1u) return 0;
+  }
+  return ft_wire_header_size(header) + (size_t)header->channel_count * header->samples_per_frame * 2u +
+         edges * FT_WIRE_EDGE_BYTES + FT_WIRE_CRC_BYTES;
+}
+
+static inline uint8_t *ft_wire_put_u16(uint8_t *at, uint16_t value) {
+  at[0] = (uint8_t)(value & 0xFFu);
+  at[1] = (uint8_t)(value >> 8);
+  return at + 2;
 }
 
 static inline uint8_t *ft_wire_put_u32(uint8_t *at, uint32_t value) {
@@ -87,16 +131,17 @@ static inline size_t ft_wire_write_header(const ft_wire_header *header, uint8_t 
   if (frame_size == 0u || frame_size > capacity) return 0;
   *at++ = FT_WIRE_SYNC0;
   *at++ = FT_WIRE_SYNC1;
-  *at++ = FT_WIRE_VERSION;
+  /* Version 1 whenever the frame needs no version 2 field, so version 1 readers keep working. */
+  *at++ = (header->flags & (FT_WIRE_FLAG_SAMPLE_COUNTER | FT_WIRE_FLAG_EDGES)) ? FT_WIRE_VERSION_2 : FT_WIRE_VERSION;
   *at++ = FT_WIRE_FORMAT_INT16LE;
   *at++ = header->channel_count;
   *at++ = header->flags;
-  *at++ = (uint8_t)(header->sequence & 0xFFu);
-  *at++ = (uint8_t)(header->sequence >> 8);
-  *at++ = (uint8_t)(header->samples_per_frame & 0xFFu);
-  *at++ = (uint8_t)(header->samples_per_frame >> 8);
+  at = ft_wire_put_u16(at, header->sequence);
+  at = ft_wire_put_u16(at, header->samples_per_frame);
   if (header->flags & FT_WIRE_FLAG_SAMPLE_RATE) at = ft_wire_put_u32(at, header->sample_rate_hz);
   if (header->flags & FT_WIRE_FLAG_TIMESTAMP) at = ft_wire_put_u32(at, header->timestamp_us);
+  if (header->flags & FT_WIRE_FLAG_SAMPLE_COUNTER) at = ft_wire_put_u32(at, header->sample_counter);
+  if (header->flags & FT_WIRE_FLAG_EDGES) at = ft_wire_put_u16(at, header->edge_count);
   return (size_t)(at - out);
 }
 
@@ -107,11 +152,23 @@ static inline void ft_wire_put_sample(uint8_t *at, int16_t value) {
   at[1] = (uint8_t)(bits >> 8);
 }
 
-/* Appends the CRC to a frame whose header and samples are in place; returns the frame size, 0 when invalid. */
+/*
+ * Appends the edge records and the CRC to a frame whose header and samples are in place; returns the frame
+ * size, 0 when invalid.
+ */
 static inline size_t ft_wire_finish(const ft_wire_header *header, uint8_t *out, size_t capacity) {
   size_t frame_size = ft_wire_frame_size(header);
+  size_t e, edges = ft_wire_edges_sent(header);
+  uint8_t *at;
   if (frame_size == 0u || frame_size > capacity) return 0;
-  ft_wire_put_u32(out + frame_size - FT_WIRE_CRC_BYTES, ft_wire_crc32c(out, frame_size - FT_WIRE_CRC_BYTES));
+  at = out + frame_size - FT_WIRE_CRC_BYTES - edges * FT_WIRE_EDGE_BYTES;
+  for (e = 0; e < edges; e++) {
+    at = ft_wire_put_u16(at, header->edges[e].sample);
+    at = ft_wire_put_u16(at, header->edges[e].lead);
+    *at++ = header->edges[e].line;
+    *at++ = header->edges[e].rising ? 1u : 2u; /* polarity code: 1 rising, 2 falling */
+  }
+  ft_wire_put_u32(at, ft_wire_crc32c(out, frame_size - FT_WIRE_CRC_BYTES));
   return frame_size;
 }
 

@@ -2,7 +2,8 @@
  * wire_vectors.c - test driver for fringetally_wire.h: reads commands on stdin, one per line, and prints
  * one hex line per command, so the TypeScript tests can compare the C encoder with the shared vectors.
  *   crc HEXBYTES                                      -> CRC-32C as 8 hex digits (up to 4096 bytes)
- *   frame SEQ CHANNELS SPF FLAGS RATE TS S0 S1 ...    -> the frame in hex, or "error" when encoding refuses
+ *   frame SEQ CHANNELS SPF FLAGS RATE TS COUNTER E S0 S1 ... [SAMPLE LEAD LINE RISING] x E
+ *                                                     -> the frame in hex, or "error" when encoding refuses
  */
 #include <stdio.h>
 #include <string.h>
@@ -11,6 +12,7 @@
 
 static uint8_t frame_buffer[FT_WIRE_MAX_FRAME_BYTES];
 static int16_t sample_buffer[FT_WIRE_MAX_CHANNELS * FT_WIRE_MAX_SAMPLES_PER_FRAME];
+static ft_wire_edge edge_buffer[FT_WIRE_MAX_EDGES_PER_FRAME + 1u];
 
 static void print_hex(const uint8_t *bytes, size_t length) {
   size_t i;
@@ -42,11 +44,13 @@ static int run_crc(void) {
 }
 
 static int run_frame(void) {
-  unsigned long sequence, channels, samples_per_frame, flags, rate, timestamp;
+  unsigned long sequence, channels, samples_per_frame, flags, rate, timestamp, counter, edges;
+  unsigned long sample, lead, line, rising;
   ft_wire_header header;
   size_t count, i, size;
   long value;
-  if (scanf("%lu %lu %lu %lu %lu %lu", &sequence, &channels, &samples_per_frame, &flags, &rate, &timestamp) != 6) {
+  if (scanf("%lu %lu %lu %lu %lu %lu %lu %lu", &sequence, &channels, &samples_per_frame, &flags, &rate, &timestamp,
+            &counter, &edges) != 8) {
     return 1;
   }
   header.sequence = (uint16_t)sequence;
@@ -55,11 +59,23 @@ static int run_frame(void) {
   header.flags = (uint8_t)flags;
   header.sample_rate_hz = (uint32_t)rate;
   header.timestamp_us = (uint32_t)timestamp;
+  header.sample_counter = (uint32_t)counter;
+  /* One record more than allowed may be read, so that the encoder is the one to refuse 257 edges. */
+  if (edges > FT_WIRE_MAX_EDGES_PER_FRAME + 1u) return 1;
+  header.edge_count = (uint16_t)edges;
+  header.edges = edge_buffer;
   count = channels * samples_per_frame;
   if (count > sizeof sample_buffer / sizeof sample_buffer[0]) count = 0;
   for (i = 0; i < count; i++) {
     if (scanf("%ld", &value) != 1) return 1;
     sample_buffer[i] = (int16_t)value;
+  }
+  for (i = 0; i < edges; i++) {
+    if (scanf("%lu %lu %lu %lu", &sample, &lead, &line, &rising) != 4) return 1;
+    edge_buffer[i].sample = (uint16_t)sample;
+    edge_buffer[i].lead = (uint16_t)lead;
+    edge_buffer[i].line = (uint8_t)line;
+    edge_buffer[i].rising = (uint8_t)rising;
   }
   size = ft_wire_encode(&header, sample_buffer, frame_buffer, sizeof frame_buffer);
   if (size == 0u) {

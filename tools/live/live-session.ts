@@ -83,8 +83,11 @@ export interface LiveGap {
   /** Absolute index of the first sample after the gap. */
   readonly sampleIndex: number;
   readonly lostSamples: number;
-  /** `sequence`: a jump of the frame counter; `link`: after a link outage (lost samples from the counter, at least 1). */
-  readonly cause: 'sequence' | 'link';
+  /**
+   * `sequence`: a jump of the frame counter; `link`: after a link outage (lost samples from the counter, at least 1);
+   * `resync`: the counter restarted or went backwards, length unknown (marked as the least, 1 sample).
+   */
+  readonly cause: 'sequence' | 'link' | 'resync';
 }
 
 export type LiveNotice =
@@ -151,7 +154,7 @@ const SPOIL_LINE = Uint8Array.of(0x23);
 interface GapMark {
   at: number;
   lost: number;
-  cause: 'sequence' | 'link';
+  cause: LiveGap['cause'];
 }
 
 function check(condition: boolean, message: string): void {
@@ -345,7 +348,8 @@ export function startLiveSession(options: LiveSessionOptions): LiveSession {
   }
 
   function onGap(gap: InputGap): void {
-    chunk.marks.push({ at: chunk.length, lost: gap.lostSamples, cause: linkGapPending ? 'link' : 'sequence' });
+    if (gap.kind === 'resync') chunk.marks.push({ at: chunk.length, lost: 1, cause: 'resync' });
+    else chunk.marks.push({ at: chunk.length, lost: gap.lostSamples, cause: linkGapPending ? 'link' : 'sequence' });
     linkGapPending = false;
   }
 

@@ -21,15 +21,48 @@ export interface SampleBlock {
   readonly sampleRateHz: number;
   /** Device time of the first sample in µs (u32, wraps), or NaN when absent. */
   readonly timestampUs: number;
+  /** Version 2 frames: the device's count of the block's first sample (u32, wraps), or NaN when absent. */
+  readonly sampleCounter: number;
+  /** Edges of the digital inputs timed in this block (version 2 frames; 0 otherwise). */
+  readonly edgeCount: number;
+  /**
+   * Edge times in sample periods from the block's first sample, in (−1, samplesPerFrame − 1]: the edge lies
+   * between sample ⌈t⌉ − 1 and sample ⌈t⌉ (−1 meaning the previous block's last sample). First `edgeCount` used.
+   */
+  readonly edgeTime: Float64Array;
+  /** Input line of each edge: 0 trigger, 1 reference mark, 2..7 further trigger inputs. */
+  readonly edgeLine: Uint8Array;
+  /** 1 for a rising edge, 0 for a falling one. */
+  readonly edgeRising: Uint8Array;
 }
 
-/** Samples lost in transport, found from a jump of the sequence counter. */
+/** A block with no edges: the typed arrays the decoders hand out when a block carries none. */
+export const NO_EDGES = Object.freeze({
+  edgeCount: 0,
+  edgeTime: new Float64Array(0),
+  edgeLine: new Uint8Array(0),
+  edgeRising: new Uint8Array(0),
+});
+
+/**
+ * Samples lost in transport, found from a jump of the sequence counter (or of the sample counter, when the
+ * frames carry one). See docs/wire-format.md, "Sequence counter and gaps".
+ */
 export interface InputGap {
   /** Absolute index of the first sample after the gap (same count as `SampleBlock.sampleIndex`). */
   readonly sampleIndex: number;
-  /** Frames missing: (received − expected) mod 65536. */
+  /**
+   * `loss`: the counter moved forward by less than half its range, so the missing frames are counted.
+   * `resync`: it moved backwards or by half its range or more (a device that restarted or rewound its counter):
+   * samples may be missing, how many is unknown.
+   */
+  readonly kind: 'loss' | 'resync';
+  /** Frames missing: (received − expected) mod 65536; NaN for a resync. */
   readonly lostFrames: number;
-  /** lostFrames × samplesPerFrame of the frame after the gap. */
+  /**
+   * Samples missing: the sample counter's jump when the frames carry one, else lostFrames × samplesPerFrame of
+   * the frame after the gap; NaN for a resync.
+   */
   readonly lostSamples: number;
   readonly expectedSequence: number;
   readonly receivedSequence: number;

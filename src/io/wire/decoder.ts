@@ -1,35 +1,45 @@
-// Incremental decoder for the fringetally wire frame (docs/wire-format.md): byte chunks in, sample blocks out.
-// Keeps partial frames across chunks, hunts for the sync marker after garbage, drops frames failing CRC-32C,
-// reports sequence gaps. Never throws on bad bytes; one buffer sized for the largest allowed frame, no
-// allocation per frame in steady state.
+// Incremental decoder for the fringetally wire frame, versions 1 and 2 (docs/wire-format.md): byte chunks in,
+// sample blocks out. Keeps partial frames across chunks, hunts for the sync marker after garbage, drops frames
+// failing CRC-32C, drops repeated frames, and tells counted losses from counter restarts. Never throws on bad
+// bytes; one buffer sized for the largest allowed frame, no allocation per frame in steady state.
 
 import type { InputGap, SampleBlock } from './block.js';
 import { crc32c } from './crc32c.js';
 import {
   WIRE_CRC_BYTES,
+  WIRE_EDGE_BYTES,
+  WIRE_EDGE_LEAD_UNITS,
   WIRE_FIXED_HEADER_BYTES,
   WIRE_MAX_CHANNELS,
+  WIRE_MAX_EDGE_LINE,
+  WIRE_MAX_EDGES_PER_FRAME,
   WIRE_MAX_SAMPLES_PER_FRAME,
-  WIRE_OPTIONAL_FIELD_BYTES,
+  WIRE_SAMPLE_COUNTER_MODULUS,
   WIRE_SEQUENCE_MODULUS,
   WIRE_SYNC_0,
   WIRE_SYNC_1,
   WIRE_VERSION,
+  WIRE_VERSION_2,
+  WireEdgePolarity,
   WireFlag,
   WireSampleFormat,
   readU32,
   wireFlagsKnown,
+  wireHeaderLength,
   wireMaxFrameLength,
 } from './format.js';
 
 export interface WireDecoderOptions {
-  /** Largest channel count accepted; even, 2..16. Default 16. Frames with more are rejected as bad headers. */
+  /** Largest channel count accepted; even, 2..16. Default 16. Frames with more are rejected (`oversizeHeaders`). */
   readonly maxChannels?: number;
-  /** Largest samples per frame accepted; 1..4096. Default 1024. Sets the buffer size with maxChannels. */
+  /**
+   * Largest samples per frame accepted; 1..4096. Default 4096, the format's maximum. Sets the buffer size with
+   * maxChannels; frames with more are rejected and counted in `oversizeHeaders`.
+   */
   readonly maxSamplesPerFrame?: number;
   /** Called once per good frame with a reused block (valid only during the call). */
   readonly onFrame: (block: SampleBlock) => void;
-  /** Called before the frame that follows a sequence jump; the pipeline turns it into an input-gap event. */
+  /** Called before the frame that follows a counted loss or a counter restart; the pipeline turns it into an input-gap event. */
   readonly onGap: (gap: InputGap) => void;
 }
 
@@ -43,17 +53,33 @@ export interface WireDecoderConfig {
 /** Running totals since creation or reset. */
 export interface WireDecoderCounters {
   bytesIn: number;
+  /** Frames delivered through onFrame. */
   framesGood: number;
   /** Candidate frames with a valid header whose CRC did not match. */
   crcFailures: number;
   /** Sync markers followed by an impossible header (version, format, channels, flags, size). */
   headerRejects: number;
+  /**
+   * Of headerRejects: headers the format allows but the configured limits do not (more channels than
+   * maxChannels or more samples than maxSamplesPerFrame). Nonzero means the limits are probably too low.
+   */
+  oversizeHeaders: number;
+  /** Largest samples per frame announced by an oversize header; 0 when none. */
+  oversizeSamplesPerFrame: number;
+  /** Largest channel count announced by an oversize header; 0 when none. */
+  oversizeChannels: number;
   /** Times the decoder lost sync and had to hunt for the marker (a start in mid-frame counts once). */
   resyncs: number;
-  /** Sequence jumps reported through onGap. */
+  /** Counted losses and counter restarts reported through onGap. */
   gaps: number;
-  /** Sum of InputGap.lostSamples. */
+  /** Of gaps: counter restarts (kind `resync`), whose length is unknown. */
+  sequenceResyncs: number;
+  /** Sum of InputGap.lostSamples over the counted losses. */
   lostSamples: number;
+  /** Frames dropped because they repeat one of the last 16 frames (same sequence and CRC). */
+  duplicates: number;
+  /** Edge records dropped from good frames for a sample, line or polarity out of range. */
+  edgeRejects: number;
   /** Bytes discarded while hunting or by flushPartial. */
   bytesSkipped: number;
 }
@@ -73,6 +99,15 @@ export interface WireDecoder {
   reset(): void;
 }
 
+/** Frames remembered for the duplicate check. */
+const RECENT_FRAMES = 16;
+/**
+ * Serial-number arithmetic (RFC 1982, section 3.2): a counter value less than half the range ahead of the
+ * expected one is later than it; half the range or more is taken as behind it, i.e. a restart.
+ */
+const HALF_SEQUENCE = WIRE_SEQUENCE_MODULUS / 2;
+const HALF_SAMPLE_COUNTER = WIRE_SAMPLE_COUNTER_MODULUS / 2;
+
 function integerIn(name: string, value: number, min: number, max: number): number {
   if (!Number.isInteger(value) || value < min || value > max) {
     throw new RangeError(`${name} must be an integer in ${min}..${max} (got ${value})`);
@@ -85,7 +120,7 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
   if (maxChannels % 2 !== 0) throw new RangeError(`maxChannels must be even (got ${maxChannels})`);
   const maxSamplesPerFrame = integerIn(
     'maxSamplesPerFrame',
-    options.maxSamplesPerFrame ?? 1024,
+    options.maxSamplesPerFrame ?? WIRE_MAX_SAMPLES_PER_FRAME,
     1,
     WIRE_MAX_SAMPLES_PER_FRAME,
   );
@@ -102,9 +137,15 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     framesGood: 0,
     crcFailures: 0,
     headerRejects: 0,
+    oversizeHeaders: 0,
+    oversizeSamplesPerFrame: 0,
+    oversizeChannels: 0,
     resyncs: 0,
     gaps: 0,
+    sequenceResyncs: 0,
     lostSamples: 0,
+    duplicates: 0,
+    edgeRejects: 0,
     bytesSkipped: 0,
   };
   const block = {
@@ -115,13 +156,24 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     sampleIndex: 0,
     sampleRateHz: Number.NaN,
     timestampUs: Number.NaN,
+    sampleCounter: Number.NaN,
+    edgeCount: 0,
+    edgeTime: new Float64Array(WIRE_MAX_EDGES_PER_FRAME),
+    edgeLine: new Uint8Array(WIRE_MAX_EDGES_PER_FRAME),
+    edgeRising: new Uint8Array(WIRE_MAX_EDGES_PER_FRAME),
   };
+  // The last frames' sequence numbers and CRCs, for the duplicate check (a ring, newest at recentAt − 1).
+  const recentSequence = new Int32Array(RECENT_FRAMES);
+  const recentCrc = new Uint32Array(RECENT_FRAMES);
+  let recentAt = 0;
 
   let filled = 0;
   /** Frames delivered during the current push. */
   let framesInPush = 0;
   let inSync = true;
   let expectedSequence = -1;
+  /** The sample counter the next frame should carry, or −1 when the last frame carried none. */
+  let expectedCounter = -1;
   let nextSampleIndex = 0;
 
   function skip(count: number): void {
@@ -133,19 +185,78 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     counters.bytesSkipped += count;
   }
 
-  /** Header at `p` of `bytes` (≥ 10 bytes present) → frame length, or 0 when the header is impossible. */
-  function frameLengthAt(bytes: Uint8Array, p: number): number {
-    if (bytes[p + 2] !== WIRE_VERSION || bytes[p + 3] !== WireSampleFormat.int16le) return 0;
+  /**
+   * Header at `p` of `bytes`, with `available` bytes from p (at least 10) → frame length; 0 when the header is
+   * impossible; −1 when more bytes are needed to tell (the optional fields of a version 2 header).
+   */
+  function frameLengthAt(bytes: Uint8Array, p: number, available: number): number {
+    const version = bytes[p + 2]!;
+    if ((version !== WIRE_VERSION && version !== WIRE_VERSION_2) || bytes[p + 3] !== WireSampleFormat.int16le) return 0;
     const channels = bytes[p + 4]!;
     const flags = bytes[p + 5]!;
     const samplesPerFrame = bytes[p + 8]! | (bytes[p + 9]! << 8);
-    if (channels < 2 || channels > maxChannels || channels % 2 !== 0) return 0;
-    if (!wireFlagsKnown(flags) || samplesPerFrame < 1 || samplesPerFrame > maxSamplesPerFrame) return 0;
-    const optionalFields = (flags & WireFlag.sampleRate ? 1 : 0) + (flags & WireFlag.timestamp ? 1 : 0);
-    return WIRE_FIXED_HEADER_BYTES + optionalFields * WIRE_OPTIONAL_FIELD_BYTES + channels * samplesPerFrame * 2 + WIRE_CRC_BYTES;
+    if (channels < 2 || channels > WIRE_MAX_CHANNELS || channels % 2 !== 0) return 0;
+    if (!wireFlagsKnown(flags, version) || samplesPerFrame < 1 || samplesPerFrame > WIRE_MAX_SAMPLES_PER_FRAME) return 0;
+    const headerLength = wireHeaderLength(flags);
+    if (available < headerLength) return -1;
+    let edgeCount = 0;
+    if (flags & WireFlag.edges) {
+      edgeCount = bytes[p + headerLength - 2]! | (bytes[p + headerLength - 1]! << 8);
+      if (edgeCount > WIRE_MAX_EDGES_PER_FRAME) return 0;
+    }
+    if (channels > maxChannels || samplesPerFrame > maxSamplesPerFrame) {
+      // Allowed by the format, refused by the limits: count it, so the caller can name the limit to raise.
+      counters.oversizeHeaders++;
+      if (samplesPerFrame > counters.oversizeSamplesPerFrame) counters.oversizeSamplesPerFrame = samplesPerFrame;
+      if (channels > counters.oversizeChannels) counters.oversizeChannels = channels;
+      return 0;
+    }
+    return headerLength + channels * samplesPerFrame * 2 + edgeCount * WIRE_EDGE_BYTES + WIRE_CRC_BYTES;
   }
 
-  function deliver(bytes: Uint8Array, p: number): void {
+  /** True when a frame with this sequence and CRC was among the last ones delivered. */
+  function isRecent(sequence: number, crc: number): boolean {
+    for (let i = 0; i < RECENT_FRAMES; i++) if (recentSequence[i] === sequence && recentCrc[i] === crc) return true;
+    return false;
+  }
+
+  /** Checks the frame's counters against the expectation; false when the frame is a repeat to drop. */
+  function checkSequence(sequence: number, counter: number, samplesPerFrame: number, crc: number): boolean {
+    const counterJump = expectedCounter >= 0 && counter === counter ? (counter - expectedCounter + WIRE_SAMPLE_COUNTER_MODULUS) % WIRE_SAMPLE_COUNTER_MODULUS : -1;
+    // The sample counter, when this frame and the one before carry it, decides alone: it counts exactly even
+    // when frame sizes differ.
+    if (expectedSequence >= 0 && (counterJump >= 0 ? counterJump !== 0 : sequence !== expectedSequence)) {
+      if (isRecent(sequence, crc)) {
+        counters.duplicates++;
+        return false;
+      }
+      const sequenceJump = (sequence - expectedSequence + WIRE_SEQUENCE_MODULUS) % WIRE_SEQUENCE_MODULUS;
+      const resync = counterJump >= 0 ? counterJump >= HALF_SAMPLE_COUNTER : sequenceJump >= HALF_SEQUENCE;
+      const lostFrames = resync ? Number.NaN : sequenceJump;
+      const lostSamples = resync ? Number.NaN : counterJump >= 0 ? counterJump : sequenceJump * samplesPerFrame;
+      counters.gaps++;
+      if (resync) counters.sequenceResyncs++;
+      else counters.lostSamples += lostSamples;
+      // Gaps are rare: a fresh record each time lets the consumer keep it.
+      onGap({
+        sampleIndex: nextSampleIndex,
+        kind: resync ? 'resync' : 'loss',
+        lostFrames,
+        lostSamples,
+        expectedSequence,
+        receivedSequence: sequence,
+      });
+    }
+    expectedSequence = (sequence + 1) % WIRE_SEQUENCE_MODULUS;
+    expectedCounter = counter === counter ? (counter + samplesPerFrame) % WIRE_SAMPLE_COUNTER_MODULUS : -1;
+    recentSequence[recentAt] = sequence;
+    recentCrc[recentAt] = crc;
+    recentAt = (recentAt + 1) % RECENT_FRAMES;
+    return true;
+  }
+
+  /** Hands out the good frame at `p`; false when it was a repeat and was dropped. */
+  function deliver(bytes: Uint8Array, p: number, length: number): boolean {
     const channels = bytes[p + 4]!;
     const flags = bytes[p + 5]!;
     const sequence = bytes[p + 6]! | (bytes[p + 7]! << 8);
@@ -153,29 +264,47 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     let at = p + WIRE_FIXED_HEADER_BYTES;
     let sampleRateHz = Number.NaN;
     let timestampUs = Number.NaN;
+    let sampleCounter = Number.NaN;
+    let edgeCount = 0;
     if (flags & WireFlag.sampleRate) {
       sampleRateHz = readU32(bytes, at);
-      at += WIRE_OPTIONAL_FIELD_BYTES;
+      at += 4;
     }
     if (flags & WireFlag.timestamp) {
       timestampUs = readU32(bytes, at);
-      at += WIRE_OPTIONAL_FIELD_BYTES;
+      at += 4;
     }
-    if (expectedSequence >= 0 && sequence !== expectedSequence) {
-      const lostFrames = (sequence - expectedSequence + WIRE_SEQUENCE_MODULUS) % WIRE_SEQUENCE_MODULUS;
-      const lostSamples = lostFrames * samplesPerFrame;
-      counters.gaps++;
-      counters.lostSamples += lostSamples;
-      // Gaps are rare: a fresh record each time lets the consumer keep it.
-      onGap({ sampleIndex: nextSampleIndex, lostFrames, lostSamples, expectedSequence, receivedSequence: sequence });
+    if (flags & WireFlag.sampleCounter) {
+      sampleCounter = readU32(bytes, at);
+      at += 4;
     }
-    expectedSequence = (sequence + 1) % WIRE_SEQUENCE_MODULUS;
+    if (flags & WireFlag.edges) {
+      edgeCount = bytes[at]! | (bytes[at + 1]! << 8);
+      at += 2;
+    }
+    if (!checkSequence(sequence, sampleCounter, samplesPerFrame, readU32(bytes, p + length - WIRE_CRC_BYTES))) return false;
 
     const valueCount = channels * samplesPerFrame;
     // Int16Array stores wrap modulo 2^16, which turns the unsigned little-endian pair into its signed value.
     for (let i = 0; i < valueCount; i++) {
       sampleStore[i] = bytes[at]! | (bytes[at + 1]! << 8);
       at += 2;
+    }
+    let edgesKept = 0;
+    for (let e = 0; e < edgeCount; e++) {
+      const sample = bytes[at]! | (bytes[at + 1]! << 8);
+      const lead = bytes[at + 2]! | (bytes[at + 3]! << 8);
+      const line = bytes[at + 4]!;
+      const polarity = bytes[at + 5]!;
+      at += WIRE_EDGE_BYTES;
+      if (sample >= samplesPerFrame || line > WIRE_MAX_EDGE_LINE || (polarity !== WireEdgePolarity.rising && polarity !== WireEdgePolarity.falling)) {
+        counters.edgeRejects++;
+        continue;
+      }
+      block.edgeTime[edgesKept] = sample - lead / WIRE_EDGE_LEAD_UNITS;
+      block.edgeLine[edgesKept] = line;
+      block.edgeRising[edgesKept] = polarity === WireEdgePolarity.rising ? 1 : 0;
+      edgesKept++;
     }
     // A new view only when the frame size changes, so steady streams allocate nothing.
     if (block.samples.length !== valueCount) block.samples = sampleStore.subarray(0, valueCount);
@@ -185,10 +314,13 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     block.sampleIndex = nextSampleIndex;
     block.sampleRateHz = sampleRateHz;
     block.timestampUs = timestampUs;
+    block.sampleCounter = sampleCounter;
+    block.edgeCount = edgesKept;
     nextSampleIndex += samplesPerFrame;
     counters.framesGood++;
     inSync = true;
     onFrame(block);
+    return true;
   }
 
   /**
@@ -213,7 +345,8 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
         continue;
       }
       if (available < WIRE_FIXED_HEADER_BYTES) break;
-      const length = frameLengthAt(bytes, p);
+      const length = frameLengthAt(bytes, p, available);
+      if (length < 0) break;
       if (length === 0) {
         counters.headerRejects++;
         skip(1);
@@ -228,8 +361,8 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
         p++;
         continue;
       }
-      deliver(bytes, p);
-      framesInPush++;
+      // A repeat is dropped whole (its bytes were a good frame, not garbage to hunt through).
+      if (deliver(bytes, p, length)) framesInPush++;
       p += length;
     }
     return p;
@@ -281,6 +414,9 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     filled = 0;
     inSync = true;
     expectedSequence = -1;
+    expectedCounter = -1;
+    recentSequence.fill(-1);
+    recentAt = 0;
     nextSampleIndex = 0;
     for (const key of Object.keys(counters) as (keyof WireDecoderCounters)[]) counters[key] = 0;
   }

@@ -1,4 +1,4 @@
-// The fringetally serial frame, version 1: constants, sizes and the reference encoder.
+// The fringetally serial frame, versions 1 and 2: constants, sizes and the reference encoder.
 // Layout and rules are specified in docs/wire-format.md; tools/firmware/fringetally_wire.h mirrors them in C.
 
 import { crc32c } from './crc32c.js';
@@ -6,29 +6,63 @@ import { crc32c } from './crc32c.js';
 /** First and second byte of every frame. */
 export const WIRE_SYNC_0 = 0xa5;
 export const WIRE_SYNC_1 = 0x5a;
-/** The only format version this code writes and reads. */
+/** The version this code writes when a frame needs none of the version 2 fields. */
 export const WIRE_VERSION = 1;
+/** The version that adds the sample counter and the edge records; the decoder reads both. */
+export const WIRE_VERSION_2 = 2;
 /** Sample-format codes (header byte 3). */
 export const WireSampleFormat = { int16le: 1 } as const;
-/** Flag bits (header byte 5); all other bits must be zero. */
+/** Flag bits (header byte 5). Optional fields follow the fixed header in bit order; all other bits must be zero. */
 export const WireFlag = {
   /** A u32 sample rate in Hz follows the fixed header. */
   sampleRate: 1,
   /** A u32 timestamp in microseconds (of the frame's first sample, device clock, wraps) follows. */
   timestamp: 2,
+  /** Version 2: a u32 sample counter, the device's count of the frame's first sample (wraps at 2^32). */
+  sampleCounter: 4,
+  /** Version 2: a u16 edge count E; E edge records of 6 bytes follow the samples. */
+  edges: 8,
 } as const;
-const KNOWN_FLAGS = WireFlag.sampleRate | WireFlag.timestamp;
+const KNOWN_FLAGS_V1 = WireFlag.sampleRate | WireFlag.timestamp;
+const KNOWN_FLAGS_V2 = KNOWN_FLAGS_V1 | WireFlag.sampleCounter | WireFlag.edges;
 
 /** Bytes of the fixed header: sync(2) version(1) format(1) channels(1) flags(1) sequence(2) samplesPerFrame(2). */
 export const WIRE_FIXED_HEADER_BYTES = 10;
-/** Bytes of each optional field (rate, timestamp). */
+/** Bytes of each optional u32 field (rate, timestamp, sample counter). */
 export const WIRE_OPTIONAL_FIELD_BYTES = 4;
+/** Bytes of the edge-count field (u16). */
+export const WIRE_EDGE_COUNT_BYTES = 2;
+/** Bytes of one edge record: sample u16, lead u16, line u8, polarity u8. */
+export const WIRE_EDGE_BYTES = 6;
 export const WIRE_CRC_BYTES = 4;
 /** Sequence counters are u16 and wrap from 65535 to 0. */
 export const WIRE_SEQUENCE_MODULUS = 65536;
+/** Sample counters are u32 and wrap from 2^32 − 1 to 0. */
+export const WIRE_SAMPLE_COUNTER_MODULUS = 2 ** 32;
 /** Limits this implementation accepts (the wire fields could express more). */
 export const WIRE_MAX_CHANNELS = 16;
 export const WIRE_MAX_SAMPLES_PER_FRAME = 4096;
+/** Most edge records one frame may carry. */
+export const WIRE_MAX_EDGES_PER_FRAME = 256;
+/** An edge's lead counts 2^-16 sample periods: the resolution of edge times. */
+export const WIRE_EDGE_LEAD_UNITS = 65536;
+/** Input lines an edge record may name: 0 trigger, 1 reference mark, 2..7 further trigger inputs. */
+export const WIRE_MAX_EDGE_LINE = 7;
+/** Edge line numbers with a fixed meaning. */
+export const WireEdgeLine = { trigger: 0, referenceMark: 1 } as const;
+/** Edge polarity codes (byte 5 of an edge record). */
+export const WireEdgePolarity = { rising: 1, falling: 2 } as const;
+
+/** One edge of a digital input, timed by the device against the sample clock. */
+export interface WireEdge {
+  /** Index in the frame of the first sample taken at or after the edge, 0..samplesPerFrame − 1. */
+  readonly sample: number;
+  /** How long before that sample the edge came, in 2^-16 sample periods, 0..65535. */
+  readonly lead: number;
+  /** Input line, 0..7: 0 trigger, 1 reference mark. */
+  readonly line: number;
+  readonly rising: boolean;
+}
 
 /** The header fields of one frame. */
 export interface WireFrameHeader {
@@ -42,28 +76,50 @@ export interface WireFrameHeader {
   readonly sampleRateHz?: number | undefined;
   /** Device time of the first sample in µs (u32, wraps), or undefined to leave the field out. */
   readonly timestampUs?: number | undefined;
+  /** Version 2: the device's count of the frame's first sample (u32, wraps), or undefined to leave it out. */
+  readonly sampleCounter?: number | undefined;
+  /** Version 2: edges inside the frame's span, at most 256, or undefined to leave the field out. */
+  readonly edges?: readonly WireEdge[] | undefined;
 }
 
-/** Bytes of a whole frame (header, optional fields, payload, CRC). */
-export function wireFrameLength(channelCount: number, samplesPerFrame: number, flags: number): number {
-  const optionalFields = (flags & WireFlag.sampleRate ? 1 : 0) + (flags & WireFlag.timestamp ? 1 : 0);
+/** Bytes before the samples for a flags byte: fixed header plus the optional fields. */
+export function wireHeaderLength(flags: number): number {
   return (
-    WIRE_FIXED_HEADER_BYTES + optionalFields * WIRE_OPTIONAL_FIELD_BYTES + channelCount * samplesPerFrame * 2 + WIRE_CRC_BYTES
+    WIRE_FIXED_HEADER_BYTES +
+    (flags & WireFlag.sampleRate ? WIRE_OPTIONAL_FIELD_BYTES : 0) +
+    (flags & WireFlag.timestamp ? WIRE_OPTIONAL_FIELD_BYTES : 0) +
+    (flags & WireFlag.sampleCounter ? WIRE_OPTIONAL_FIELD_BYTES : 0) +
+    (flags & WireFlag.edges ? WIRE_EDGE_COUNT_BYTES : 0)
   );
 }
 
-/** Largest frame the given limits allow (both optional fields present). */
-export function wireMaxFrameLength(maxChannels: number, maxSamplesPerFrame: number): number {
-  return wireFrameLength(maxChannels, maxSamplesPerFrame, KNOWN_FLAGS);
+/** Bytes of a whole frame (header, optional fields, payload, edge records, CRC). */
+export function wireFrameLength(channelCount: number, samplesPerFrame: number, flags: number, edgeCount = 0): number {
+  return wireHeaderLength(flags) + channelCount * samplesPerFrame * 2 + edgeCount * WIRE_EDGE_BYTES + WIRE_CRC_BYTES;
 }
 
-/** True when a flags byte has only known bits. */
-export function wireFlagsKnown(flags: number): boolean {
-  return (flags & ~KNOWN_FLAGS) === 0;
+/** Largest frame the given limits allow (every optional field present, the most edges). */
+export function wireMaxFrameLength(maxChannels: number, maxSamplesPerFrame: number): number {
+  return wireFrameLength(maxChannels, maxSamplesPerFrame, KNOWN_FLAGS_V2, WIRE_MAX_EDGES_PER_FRAME);
+}
+
+/** True when a flags byte has only bits the given version defines. */
+export function wireFlagsKnown(flags: number, version = WIRE_VERSION): boolean {
+  return (flags & ~(version === WIRE_VERSION ? KNOWN_FLAGS_V1 : KNOWN_FLAGS_V2)) === 0;
 }
 
 function flagsOf(header: WireFrameHeader): number {
-  return (header.sampleRateHz === undefined ? 0 : WireFlag.sampleRate) | (header.timestampUs === undefined ? 0 : WireFlag.timestamp);
+  return (
+    (header.sampleRateHz === undefined ? 0 : WireFlag.sampleRate) |
+    (header.timestampUs === undefined ? 0 : WireFlag.timestamp) |
+    (header.sampleCounter === undefined ? 0 : WireFlag.sampleCounter) |
+    (header.edges === undefined ? 0 : WireFlag.edges)
+  );
+}
+
+/** The version a header needs: 2 when it uses a version 2 field, else 1 (so version 1 readers keep working). */
+export function wireVersionOf(header: WireFrameHeader): number {
+  return flagsOf(header) & ~KNOWN_FLAGS_V1 ? WIRE_VERSION_2 : WIRE_VERSION;
 }
 
 function checkUint(name: string, value: number, min: number, max: number): void {
@@ -74,14 +130,15 @@ function checkUint(name: string, value: number, min: number, max: number): void 
 
 /** Bytes `encodeWireFrame` will write for this header. */
 export function wireFrameLengthOf(header: WireFrameHeader): number {
-  return wireFrameLength(header.channelCount, header.samplesPerFrame, flagsOf(header));
+  return wireFrameLength(header.channelCount, header.samplesPerFrame, flagsOf(header), header.edges?.length ?? 0);
 }
 
 /**
- * Writes one frame into `out` at `offset` and returns the bytes written.
+ * Writes one frame into `out` at `offset` and returns the bytes written: version 1 unless the header uses a
+ * version 2 field (sample counter, edges).
  * `samples` holds channelCount × samplesPerFrame interleaved int16 values (s0c0 s0c1 … s1c0 …).
- * Throws a RangeError naming the field when a header field, a sample or the output size is out of range:
- * this is the sender's side, where a wrong argument is a programming error.
+ * Throws a RangeError naming the field when a header field, an edge, a sample or the output size is out of
+ * range: this is the sender's side, where a wrong argument is a programming error.
  */
 export function encodeWireFrame(header: WireFrameHeader, samples: ArrayLike<number>, out: Uint8Array, offset = 0): number {
   checkUint('sequence', header.sequence, 0, WIRE_SEQUENCE_MODULUS - 1);
@@ -90,38 +147,57 @@ export function encodeWireFrame(header: WireFrameHeader, samples: ArrayLike<numb
   checkUint('samplesPerFrame', header.samplesPerFrame, 1, WIRE_MAX_SAMPLES_PER_FRAME);
   if (header.sampleRateHz !== undefined) checkUint('sampleRateHz', header.sampleRateHz, 1, 0xffffffff);
   if (header.timestampUs !== undefined) checkUint('timestampUs', header.timestampUs, 0, 0xffffffff);
+  if (header.sampleCounter !== undefined) checkUint('sampleCounter', header.sampleCounter, 0, 0xffffffff);
+  const edges = header.edges ?? [];
+  checkUint('edges.length', edges.length, 0, WIRE_MAX_EDGES_PER_FRAME);
+  edges.forEach((edge, i) => {
+    checkUint(`edges[${i}].sample`, edge.sample, 0, header.samplesPerFrame - 1);
+    checkUint(`edges[${i}].lead`, edge.lead, 0, WIRE_EDGE_LEAD_UNITS - 1);
+    checkUint(`edges[${i}].line`, edge.line, 0, WIRE_MAX_EDGE_LINE);
+  });
   const valueCount = header.channelCount * header.samplesPerFrame;
   if (samples.length < valueCount) {
     throw new RangeError(`samples must hold channelCount × samplesPerFrame = ${valueCount} values (got ${samples.length})`);
   }
   const flags = flagsOf(header);
-  const length = wireFrameLength(header.channelCount, header.samplesPerFrame, flags);
+  const length = wireFrameLength(header.channelCount, header.samplesPerFrame, flags, edges.length);
   if (offset < 0 || offset + length > out.length) {
     throw new RangeError(`out must have ${length} bytes free at offset ${offset} (has ${out.length - offset})`);
   }
   let at = offset;
   out[at++] = WIRE_SYNC_0;
   out[at++] = WIRE_SYNC_1;
-  out[at++] = WIRE_VERSION;
+  out[at++] = wireVersionOf(header);
   out[at++] = WireSampleFormat.int16le;
   out[at++] = header.channelCount;
   out[at++] = flags;
-  out[at++] = header.sequence & 0xff;
-  out[at++] = header.sequence >>> 8;
-  out[at++] = header.samplesPerFrame & 0xff;
-  out[at++] = header.samplesPerFrame >>> 8;
+  at = writeU16(out, at, header.sequence);
+  at = writeU16(out, at, header.samplesPerFrame);
   if (header.sampleRateHz !== undefined) at = writeU32(out, at, header.sampleRateHz);
   if (header.timestampUs !== undefined) at = writeU32(out, at, header.timestampUs);
+  if (header.sampleCounter !== undefined) at = writeU32(out, at, header.sampleCounter);
+  if (header.edges !== undefined) at = writeU16(out, at, edges.length);
   for (let i = 0; i < valueCount; i++) {
     const value = samples[i]!;
     if (!Number.isInteger(value) || value < -32768 || value > 32767) {
       throw new RangeError(`samples[${i}] must be an int16 integer in -32768..32767 (got ${value})`);
     }
-    out[at++] = value & 0xff;
-    out[at++] = (value >> 8) & 0xff;
+    at = writeU16(out, at, value & 0xffff);
+  }
+  for (const edge of edges) {
+    at = writeU16(out, at, edge.sample);
+    at = writeU16(out, at, edge.lead);
+    out[at++] = edge.line;
+    out[at++] = edge.rising ? WireEdgePolarity.rising : WireEdgePolarity.falling;
   }
   writeU32(out, at, crc32c(out, offset, at));
   return length;
+}
+
+function writeU16(out: Uint8Array, at: number, value: number): number {
+  out[at] = value & 0xff;
+  out[at + 1] = (value >>> 8) & 0xff;
+  return at + 2;
 }
 
 function writeU32(out: Uint8Array, at: number, value: number): number {

@@ -1,7 +1,7 @@
 // Text line mode for first bring-up: one sample per line, `x0,y0[,x1,y1…]` as decimal int16 integers,
 // lines ended by LF (CR before it is ignored). A byte-level state machine: no strings, no allocation per line.
 
-import type { SampleBlock } from './block.js';
+import { NO_EDGES, type SampleBlock } from './block.js';
 import { WIRE_MAX_CHANNELS, WIRE_MAX_SAMPLES_PER_FRAME, WIRE_SEQUENCE_MODULUS } from './format.js';
 
 /** Why a line was rejected. */
@@ -93,6 +93,8 @@ export function createLineDecoder(options: LineDecoderOptions): LineDecoder {
     sampleIndex: 0,
     sampleRateHz: Number.NaN,
     timestampUs: Number.NaN,
+    sampleCounter: Number.NaN,
+    ...NO_EDGES,
   };
 
   let rows = 0;
