@@ -19,3 +19,4 @@ export * from './channels.js';
 export * from './stability.js';
 export * from './positioning.js';
 export * from './axis-geometry.js';
+export * from './latch.js';
