@@ -5,7 +5,7 @@ import { createCorrection, type Correction } from './correction.js';
 import { createDisplacement, type Displacement } from './displacement.js';
 import type { EllipseCalibration } from './fit/ellipse.js';
 import { createSignalMonitor, type AdcFormat, type SignalMonitor } from './monitor.js';
-import { integerInRange, MAX_COUNT } from './options.js';
+import { finiteNumber, integerInRange, MAX_COUNT } from './options.js';
 import { TWO_PI } from './phase.js';
 import { createPhaseTracker, type PhaseTracker, type UnwrapMethod } from './tracker.js';
 
@@ -118,10 +118,11 @@ export interface Pipeline {
   /** `lostSamples` samples were lost in transport before the next sample: input gap, count lost. */
   markGap(lostSamples: number): void;
   /**
-   * Makes sample `atSampleIndex` (default: the next sample) the new zero of position and clears the
-   * count-lost latch there. The index must not be in the past.
+   * Makes sample `atSampleIndex` (default: the next sample) the new reference of position, reading `presetM`
+   * there (default 0: zero; a preset sets a known position, e.g. from a gauge block), and clears the count-lost
+   * latch there. The index must not be in the past; a later request replaces an earlier one not yet reached.
    */
-  reReference(atSampleIndex?: number): void;
+  reReference(atSampleIndex?: number, presetM?: number): void;
   setCalibration(calibration: EllipseCalibration | null): void;
   setRefractiveIndex(refractiveIndex: number): void;
   /** Back to the state after construction; options and calibration are kept. */
@@ -175,6 +176,7 @@ export function createPipeline(options: PipelineOptions): Pipeline {
   };
   let nextIndex = 0;
   let referenceIndex = -1; // pending re-reference, or −1
+  let referencePresetM = 0;
 
   function allocate(length: number): void {
     capacity = length;
@@ -230,7 +232,7 @@ export function createPipeline(options: PipelineOptions): Pipeline {
     while (done < length) {
       if (referenceIndex === nextIndex) {
         referenceIndex = -1;
-        displacement.referenceAtNext();
+        displacement.referenceAtNext(referencePresetM);
         tracker.clearCountLostAtNext();
       }
       let chunk = length - done;
@@ -259,8 +261,9 @@ export function createPipeline(options: PipelineOptions): Pipeline {
       tracker.markGap(lostSamples);
       nextIndex += lostSamples;
     },
-    reReference(atSampleIndex = nextIndex) {
+    reReference(atSampleIndex = nextIndex, presetM = 0) {
       integerInRange('atSampleIndex', atSampleIndex, nextIndex, MAX_COUNT);
+      referencePresetM = finiteNumber('presetM', presetM);
       referenceIndex = atSampleIndex;
     },
     setCalibration: (calibration) => correction.setCalibration(calibration),

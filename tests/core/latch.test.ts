@@ -112,6 +112,19 @@ describe('edge latch', () => {
     );
   });
 
+  it('a turning point of a sinusoid midway between two samples, 0.5 rad per sample: within the bound (needs its margin)', () => {
+    // There the acceleration peaks between the samples, above what the second differences around it show:
+    // cos(ωT/2)·sinc-like factors make them (ωT)²/8 + (ωT)²/12 ≈ 5 % low at ωT = 0.5, which the margin covers.
+    const omega = 0.5 * RATE_HZ;
+    const peak = 99.5 * T;
+    const position = (t: number) => 1e-6 * Math.cos(omega * (t - peak));
+    const samples = sampled(N, position, (t) => -1e-6 * omega * Math.sin(omega * (t - peak)));
+    const [result] = latchAll(samples, [99.5]);
+    const error = Math.abs(result!.positionM - position(peak));
+    expect(error).toBeLessThanOrEqual(result!.uncertaintyM);
+    expect(error).toBeGreaterThan(result!.uncertaintyM / 1.25);
+  });
+
   it('edge times quantised to 2^-16 of a period (as the wire format sends them): within the bound of the true time', () => {
     fc.assert(
       fc.property(fc.double({ min: -2, max: 2, noNaN: true }), edgeTimes, (velocity, trueTimes) => {

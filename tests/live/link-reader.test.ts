@@ -5,7 +5,7 @@ import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { createLinkReader, type LinkGap } from '../../src/io/live/index.js';
 import type { ByteSourceEvent, LinkEvent } from '../../src/io/serial/index.js';
-import { concat, syntheticFrame } from '../wire/frames.js';
+import { concat, frameBytes, syntheticFrame } from '../wire/frames.js';
 
 const up = (gap: boolean): LinkEvent => ({ kind: 'link', state: 'up', timeMs: 0, reason: 'opened', gap, attempt: 0 });
 const down: LinkEvent = { kind: 'link', state: 'down', timeMs: 0, reason: 'disconnected', gap: false, attempt: 0 };
@@ -146,6 +146,39 @@ describe('createLinkReader', () => {
     given.push(frame(0));
     expect(rates.at(-1)).toBe(10_000);
     expect(given.status.rateSource).toBe('option');
+  });
+
+  it('a repeated frame is dropped; a counter that restarts is a gap of unknown length marked as 1 sample', () => {
+    const frame = (sequence: number) => syntheticFrame(sequence, 2, 64, { sampleRateHz: 50_000 });
+    const reader = createLinkReader({ onBlock: () => undefined, onGap: (gap) => gaps.push(gap) });
+    const gaps: LinkGap[] = [];
+    reader.push(concat([frame(100), frame(101), frame(101), frame(102), frame(0), frame(1)]));
+    // The repeat: no gap and not 65 535 frames lost; the restart: one gap, cause resync, index advanced by 1.
+    expect(gaps).toEqual([{ kind: 'gap', sampleIndex: 3 * 64 + 1, lostSamples: 1, cause: 'resync' }]);
+    expect(reader.status).toMatchObject({ samplesDelivered: 5 * 64, nextSampleIndex: 5 * 64 + 1, gaps: 1, resyncs: 1 });
+    expect(reader.status.wire).toMatchObject({ duplicates: 1, sequenceResyncs: 1 });
+  });
+
+  it('hands out the edges of the frames in absolute sample time, gaps counted', () => {
+    const edgeFrame = (sequence: number, edges: { sample: number; lead: number; line: number; rising: boolean }[]) =>
+      frameBytes({ sequence, channelCount: 2, samplesPerFrame: 4, sampleRateHz: 1000, edges }, new Array<number>(8).fill(sequence));
+    const seen: [number, number, number][] = [];
+    const reader = createLinkReader({
+      onBlock(block) {
+        for (let e = 0; e < block.edgeCount; e++) seen.push([block.edgeTime[e]!, block.edgeLine[e]!, block.edgeRising[e]!]);
+      },
+    });
+    // Frames 0 and 1 in one chunk (indices 0..7); frame 2 lost (8..11); frame 3 holds indices 12..15.
+    reader.push(concat([edgeFrame(0, [{ sample: 1, lead: 32768, line: 0, rising: true }]), edgeFrame(1, [{ sample: 0, lead: 16384, line: 1, rising: false }])]));
+    reader.push(edgeFrame(3, [{ sample: 3, lead: 0, line: 0, rising: false }]));
+    expect(seen).toEqual([[0.5, 0, 1], [3.75, 1, 0], [15, 0, 0]]);
+  });
+
+  it('admits by default the largest frame the format allows', () => {
+    const samples: number[] = [];
+    const reader = createLinkReader({ rateHz: 1000, onBlock: (block) => samples.push(block.samplesPerFrame) });
+    reader.push(syntheticFrame(0, 2, 4096));
+    expect(samples).toEqual([4096]);
   });
 
   it('checks its options once, naming the option', () => {

@@ -1,7 +1,8 @@
 // Byte source events → gap-aware sample blocks: the wire (or text line) decoder plus the rules a live link needs
 // on top of it. A sequence jump is a gap of the frames it skipped; a link outage is a gap of at least one
 // sample (the bytes in flight are gone even when the counter shows no jump); a text line cut by an outage is
-// spoiled so that its two halves never join into one wrong sample. Every sample index counts lost samples.
+// spoiled so that its two halves never join into one wrong sample; a counter that restarts is a gap of unknown
+// length. Every sample index counts lost samples. Edges of the frames' digital inputs go with the blocks.
 
 import { integerInRange, oneOf, OptionError, positiveFinite } from '../../core/index.js';
 import type { FrameBlock } from '../../stream/index.js';
@@ -22,7 +23,7 @@ import {
 export interface LinkReaderOptions {
   /** `binary`: wire frames (docs/wire-format.md); `text`: `x,y[,…]` lines, no sequence counter. Default `binary`. */
   readonly mode?: 'binary' | 'text';
-  /** Binary: largest samples per frame accepted, 1..4096. Default 1024. */
+  /** Binary: largest samples per frame accepted, 1..4096. Default 4096, the format's maximum. */
   readonly maxSamplesPerFrame?: number;
   /** Text: integers per line, even 2..16. Default 2. */
   readonly channelCount?: number;
@@ -54,15 +55,30 @@ export interface LinkBlock extends FrameBlock {
   /** Absolute index of the first sample: samples delivered plus samples lost, from the first sample received. */
   readonly sampleIndex: number;
   readonly rateHz: number;
+  /** Edges of the digital inputs within this block (version 2 frames, docs/wire-format.md); 0 when none. */
+  readonly edgeCount: number;
+  /**
+   * Edge times as fractional absolute sample indices: the edge lies between sample ⌈t⌉ − 1 and sample ⌈t⌉,
+   * ⌈t⌉ being in this block. First `edgeCount` used; reused like `samples`.
+   */
+  readonly edgeTime: Float64Array;
+  /** Input line of each edge: 0 trigger, 1 reference mark, 2..7 further trigger inputs. */
+  readonly edgeLine: Uint8Array;
+  /** 1 rising, 0 falling. */
+  readonly edgeRising: Uint8Array;
 }
 
 export interface LinkGap {
   readonly kind: 'gap';
   /** Absolute index of the first sample after the gap (lost samples counted). */
   readonly sampleIndex: number;
+  /** Samples lost; for a `resync` the true number is unknown and 1, the least, is marked. */
   readonly lostSamples: number;
-  /** `sequence`: the frame counter jumped; `link`: across a link outage (at least 1, more when the counter says so). */
-  readonly cause: 'sequence' | 'link';
+  /**
+   * `sequence`: the frame counter jumped; `link`: across a link outage (at least 1, more when the counter says
+   * so); `resync`: the counter restarted or went backwards (a gap of unknown length, docs/wire-format.md).
+   */
+  readonly cause: 'sequence' | 'link' | 'resync';
 }
 
 export interface LinkReaderStatus {
@@ -81,7 +97,10 @@ export interface LinkReaderStatus {
   /** Next absolute index: delivered plus lost. */
   nextSampleIndex: number;
   gaps: number;
+  /** Samples counted lost (a resync adds its marked 1). */
   lostSamples: number;
+  /** Of gaps: counter restarts, whose length is unknown. */
+  resyncs: number;
   readonly wire: Readonly<WireDecoderCounters> | null;
   readonly text: Readonly<LineDecoderCounters> | null;
 }
@@ -105,7 +124,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
   const mode = oneOf('mode', options.mode ?? 'binary', ['binary', 'text'] as const);
   const rateOption = options.rateHz === undefined ? undefined : positiveFinite('rateHz', options.rateHz);
   if (mode === 'text' && rateOption === undefined) throw new OptionError('rateHz', 'given in text mode (lines carry no sample rate)', undefined);
-  const maxSamplesPerFrame = integerInRange('maxSamplesPerFrame', options.maxSamplesPerFrame ?? 1024, 1, WIRE_MAX_SAMPLES_PER_FRAME);
+  const maxSamplesPerFrame = integerInRange('maxSamplesPerFrame', options.maxSamplesPerFrame ?? WIRE_MAX_SAMPLES_PER_FRAME, 1, WIRE_MAX_SAMPLES_PER_FRAME);
   const textChannels = integerInRange('channelCount', options.channelCount ?? 2, 2, WIRE_MAX_CHANNELS);
   if (textChannels % 2 !== 0) throw new OptionError('channelCount', 'even', textChannels);
   if (typeof options.onBlock !== 'function') throw new OptionError('onBlock', 'a function', typeof options.onBlock);
@@ -125,6 +144,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
     nextSampleIndex: 0,
     gaps: 0,
     lostSamples: 0,
+    resyncs: 0,
     wire: wire === null ? null : wire.counters,
     text: text === null ? null : text.counters,
   };
@@ -143,6 +163,10 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
     gapBefore: 0,
     sampleIndex: 0,
     rateHz: Number.NaN,
+    edgeCount: 0,
+    edgeTime: new Float64Array(16),
+    edgeLine: new Uint8Array(16),
+    edgeRising: new Uint8Array(16),
   };
 
   function establishRate(frameRateHz: number): void {
@@ -184,6 +208,29 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
     length = 0;
     pendingGap = 0;
     onBlock(block);
+    block.edgeCount = 0;
+  }
+
+  /** Appends the decoded block's edges, in absolute sample time (its first sample will be at `firstIndex`). */
+  function appendEdges(decoded: SampleBlock, firstIndex: number): void {
+    const count = decoded.edgeCount;
+    if (count === 0) return;
+    if (block.edgeCount + count > block.edgeTime.length) {
+      const capacity = 2 * (block.edgeCount + count);
+      const time = new Float64Array(capacity);
+      const line = new Uint8Array(capacity);
+      const rising = new Uint8Array(capacity);
+      time.set(block.edgeTime.subarray(0, block.edgeCount));
+      line.set(block.edgeLine.subarray(0, block.edgeCount));
+      rising.set(block.edgeRising.subarray(0, block.edgeCount));
+      Object.assign(block, { edgeTime: time, edgeLine: line, edgeRising: rising });
+    }
+    for (let e = 0; e < count; e++) {
+      block.edgeTime[block.edgeCount] = firstIndex + decoded.edgeTime[e]!;
+      block.edgeLine[block.edgeCount] = decoded.edgeLine[e]!;
+      block.edgeRising[block.edgeCount] = decoded.edgeRising[e]!;
+      block.edgeCount++;
+    }
   }
 
   function gap(lostSamples: number, cause: LinkGap['cause']): void {
@@ -215,14 +262,17 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
       grown.set(buffer.subarray(0, length));
       buffer = grown;
     }
+    appendEdges(decoded, status.nextSampleIndex + length / channels);
     buffer.set(decoded.samples.subarray(0, values), length);
     length += values;
   }
 
   function onSequenceGap(decoded: InputGap): void {
-    const cause = linkGapPending ? 'link' : 'sequence';
+    const cause = decoded.kind === 'resync' ? 'resync' : linkGapPending ? 'link' : 'sequence';
     linkGapPending = false;
-    gap(decoded.lostSamples, cause);
+    if (cause === 'resync') status.resyncs++;
+    // A resync's length is unknown: the least, 1 sample, latches count lost and keeps indices moving.
+    gap(cause === 'resync' ? 1 : decoded.lostSamples, cause);
   }
 
   function applyLink(event: LinkEvent): void {
@@ -271,7 +321,9 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
         nextSampleIndex: 0,
         gaps: 0,
         lostSamples: 0,
+        resyncs: 0,
       });
+      block.edgeCount = 0;
     },
   };
 }
