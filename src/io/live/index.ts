@@ -18,3 +18,4 @@ export {
   type LiveReading,
   type TrackLinkOptions,
 } from './track-link.js';
+export { latchEdges, type LiveEdgePosition } from './edges.js';
