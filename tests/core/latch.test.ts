@@ -1,7 +1,7 @@
 // Position at trigger edges: edges at known sub-sample times on known motions must come out within the stated
 // bound. Check values: the error of linear interpolation between x0 and x1 = x0 + h is
 // −(x − x0)(x1 − x)/2 · f''(ξ) for some ξ in [x0, x1] (Lagrange remainder; Burden & Faires, Numerical Analysis,
-// 9th ed., Theorem 3.3, published), i.e. exactly f(1−f)/2 · a · T² for constant acceleration a.
+// 9th ed., Theorem 3.3; memory: recalled, verify the theorem number), i.e. exactly f(1−f)/2 · a · T² for constant acceleration a.
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { AlarmBit, createEdgeLatch, type EdgePosition } from '../../src/core/index.js';

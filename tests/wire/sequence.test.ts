@@ -1,6 +1,6 @@
 // Sequence anomalies told apart from losses: repeated frames, counters that restart or jump backwards, and the
 // version 2 sample counter that counts lost samples exactly when frame sizes differ.
-// The half-range rule is serial-number arithmetic, RFC 1982 section 3.2 (published).
+// The half-range rule is serial-number arithmetic, RFC 1982 section 3.2 (published; section number from memory).
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { collectingDecoder } from './collect.js';
