@@ -323,6 +323,11 @@ export interface RunOptions {
   readonly harmonics?: PhaseHarmonics;
   /** Estimate the phase harmonics of this run (calibrate --harmonics N): orders and the capture's sample count. */
   readonly estimateHarmonics?: { readonly orders: number; readonly totalSamples: number };
+  /**
+   * Refractive index of air at a time from the first sample (s), for an environment that changes during the run:
+   * set once per block, at the block's middle. It rescales the reading, never the fringe count.
+   */
+  readonly refractiveIndexAt?: (tS: number) => number;
 }
 
 const MAX_SPANS = 1000;
@@ -452,6 +457,10 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     for await (const block of capture.blocks()) {
       const n = block.length;
       events.length = 0;
+      if (options.refractiveIndexAt !== undefined) {
+        const index = options.refractiveIndexAt((block.firstIndex + n / 2) * secondsPerSample);
+        (combined ?? pipeline).setRefractiveIndex(index);
+      }
       if (combined === null) pipeline.process(block.x, block.y, n, output, events);
       else combined.process(block.channels, n, output, events);
       harmonicCorrection?.process(output.unwrappedPhaseRad, n, output.positionM, metresPerRad);

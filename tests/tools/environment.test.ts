@@ -65,4 +65,45 @@ describe('replay in air', () => {
     expect(noPressure.code).toBe(2);
     expect(noPressure.stderr).toContain('--temperature-c and --pressure-pa');
   });
+
+  it('--environment-log: the index follows the logged air through the run, rescaling each row, never the count', async () => {
+    // Invented log: the air warms from 20 to 40 °C over the 10 ms capture (1 MHz, 10 000 samples).
+    writeFileSync(join(dir, 'air.log'), '# invented\nt,temperature,pressure,humidity\n0,20,101325,50\n0.01,40,101325,50\n');
+    const logged = await fringetally(['replay', 'cap.csv', ...common, '--environment-log', 'air.log', '--out', 'logged.csv'], dir);
+    expect(logged.code, logged.stderr).toBe(0);
+    const indexAt = (tS: number) =>
+      refractiveIndexOfAir({ temperatureC: 20 + 2000 * Math.min(Math.max(tS, 0), 0.01), pressurePa: 101325, relativeHumidityPct: 50, vacuumWavelengthM: 632.9908e-9 }).n;
+    const vacuum = numbers(readCsv(join(dir, 'vacuum.csv')).position_m!);
+    const rows = readCsv(join(dir, 'logged.csv'));
+    const positions = numbers(rows.position_m!);
+    const times = numbers(rows.t!);
+    // Each row carries 1/n of a time within one block (4096 samples) of its own: the index is set per block.
+    const block = 4096e-6;
+    let checked = 0;
+    for (let i = 0; i < positions.length; i += 97) {
+      if (Math.abs(vacuum[i]!) < 1e-7) continue;
+      const ratio = positions[i]! / vacuum[i]!;
+      const resolution = 2e-12 / Math.abs(vacuum[i]!);
+      expect(ratio).toBeGreaterThanOrEqual(1 / indexAt(times[i]! - block) - resolution);
+      expect(ratio).toBeLessThanOrEqual(1 / indexAt(times[i]! + block) + resolution);
+      checked++;
+    }
+    expect(checked).toBeGreaterThan(50);
+    // Warmer air at the end: a lower index and a larger reading than at the start, by about 2e-5 relative.
+    const endRatio = positions.at(-1)! / vacuum.at(-1)!;
+    expect(endRatio - 1 / indexAt(0)).toBeGreaterThan(1e-5);
+  });
+
+  it('--environment-log: refuses a malformed log with its line, and fixed air conditions beside it', async () => {
+    writeFileSync(join(dir, 'bad.log'), 't,temperature,pressure,humidity\n0,20,101325,50\n0.005,warm,101325,50\n');
+    const bad = await fringetally(['replay', 'cap.csv', ...common, '--environment-log', 'bad.log', '--out', 'x.csv'], dir);
+    expect(bad.code).toBe(1);
+    expect(bad.stderr).toContain('bad.log line 3: expected a finite number for temperature, got "warm"');
+    writeFileSync(join(dir, 'back.log'), 't,temperature,pressure,humidity,co2\n0,20,101325,50,420\n0,21,101325,50,420\n');
+    const back = await fringetally(['replay', 'cap.csv', ...common, '--environment-log', 'back.log', '--out', 'x.csv'], dir);
+    expect(back.stderr).toContain('back.log line 3: expected t greater than the line before (0 s), got "0"');
+    const both = await fringetally(['replay', 'cap.csv', ...common, ...air, '--environment-log', 'air.log', '--out', 'x.csv'], dir);
+    expect(both.code).toBe(2);
+    expect(both.stderr).toContain('give either --environment-log or fixed air conditions');
+  });
 });

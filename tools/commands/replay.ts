@@ -1,6 +1,7 @@
 // `fringetally replay`: the whole pipeline over a capture file, rows of position, velocity, level and alarms.
 import { extname } from 'node:path';
-import { alarmKinds, alarmNames, type PhaseHarmonics } from '../../src/core/index.js';
+import { alarmKinds, alarmNames, refractiveIndexOfAir, type AirIndexEquation, type PhaseHarmonics } from '../../src/core/index.js';
+import { readEnvironmentLog } from '../../src/io/capture/index.js';
 import { createResultWriter, type ResultFormat } from '../../src/io/results/index.js';
 import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { fitCapture, runCapture } from '../capture-run.js';
@@ -25,6 +26,10 @@ Options:
   --calibration FILE     calibration from fringetally calibrate (default: fit this capture first)
   --every N              write every Nth sample (default 1: every sample)
   --report FILE          also write a self-contained HTML report
+  --environment-log FILE air conditions that change during the run: CSV with a header naming the columns
+                         t (s from the first sample), temperature (°C), pressure (Pa), humidity (% relative)
+                         and optionally co2 (µmol/mol); interpolated linearly, held outside the log. Replaces
+                         the fixed air conditions; the index rescales the reading, never the count
   --quiet                no progress bar and no summary
 ${measureOptionHelp}
 ${environmentOptionHelp}
@@ -44,6 +49,7 @@ async function run(argv: readonly string[]): Promise<number> {
       calibration: { type: 'string' },
       every: { type: 'string' },
       report: { type: 'string' },
+      'environment-log': { type: 'string' },
       quiet: { type: 'boolean' },
       ...measureOptionSpecs,
       ...environmentOptionSpecs,
@@ -73,6 +79,43 @@ async function run(argv: readonly string[]): Promise<number> {
     ...(scale.unwrap === undefined ? {} : { unwrap: scale.unwrap }),
   };
   const notes = [...scale.notes, ...environment.notes];
+  const environmentLogPath = values['environment-log'] as string | undefined;
+  let refractiveIndexAt: ((tS: number) => number) | undefined;
+  if (environmentLogPath !== undefined) {
+    if (environment.air !== null || scale.refractiveIndex !== undefined) {
+      throw new UsageError('give either --environment-log or fixed air conditions (--temperature-c … or --refractive-index), not both');
+    }
+    const schedule = await readEnvironmentLog(environmentLogPath);
+    const equation = (values.equation ?? 'ciddor') as AirIndexEquation;
+    if (!['ciddor', 'edlen', 'shopfloor'].includes(equation)) throw new UsageError(`--equation must be ciddor, edlen or shopfloor (got "${equation}")`);
+    const warned = new Set<string>();
+    refractiveIndexAt = (tS) => {
+      const air = schedule.at(tS);
+      const result = refractiveIndexOfAir({
+        temperatureC: air.temperatureC,
+        pressurePa: air.pressurePa,
+        relativeHumidityPct: air.relativeHumidityPct,
+        ...(Number.isNaN(air.co2Ppm) ? {} : { co2Ppm: air.co2Ppm }),
+        vacuumWavelengthM: scale.wavelengthM,
+        equation,
+      });
+      for (const warning of result.warnings) {
+        if (!warned.has(warning.message)) {
+          warned.add(warning.message);
+          process.stderr.write(`fringetally replay: ${environmentLogPath} at t = ${tS.toFixed(3)} s: warning: ${warning.message}\n`);
+        }
+      }
+      return result.n;
+    };
+    const first = refractiveIndexAt(schedule.records[0]!.tS);
+    const last = refractiveIndexAt(schedule.records.at(-1)!.tS);
+    const vacuumNote = notes.findIndex((note) => note.startsWith('no refractive index'));
+    if (vacuumNote >= 0) notes.splice(vacuumNote, 1);
+    notes.push(
+      `environment log ${environmentLogPath}: ${schedule.records.length} readings over ${schedule.records.at(-1)!.tS - schedule.records[0]!.tS} s, ` +
+        `refractive index ${first.toFixed(10)} → ${last.toFixed(10)} (${equation}), set per block of samples; no uncertainty budget (it needs fixed air conditions)`,
+    );
+  }
   let open = captureOptionsOf(values);
   const progress = createProgress(quiet);
   const say = (line: string) => {
@@ -126,6 +169,7 @@ async function run(argv: readonly string[]): Promise<number> {
       progress,
       modelWatch: fitResidualRms === undefined ? {} : { fitResidualRms },
       ...(harmonics === undefined ? {} : { harmonics }),
+      ...(refractiveIndexAt === undefined ? {} : { refractiveIndexAt }),
     });
     await writer.close();
   } catch (error) {

@@ -5,3 +5,4 @@ export * from './air-index.js';
 export * from './thermal.js';
 export * from './geometry.js';
 export * from './uncertainty.js';
+export * from './environment-log.js';
