@@ -210,6 +210,15 @@ export interface AxesRunner {
   process(block: FrameBlock | AxisBlock): readonly AxisBlockSummary[];
   /** Sets the refractive index of air on all axes from the next block on; kept across `reset()`. */
   setRefractiveIndex(refractiveIndex: number): void;
+  /**
+   * Re-references axis `axis` (every axis when undefined) at absolute sample `atSampleIndex` (default: its next
+   * sample): the position there reads `presetM` (default 0, a zero) and the count-lost latch clears there.
+   */
+  reReference(options?: { readonly axis?: number; readonly atSampleIndex?: number; readonly presetM?: number }): void;
+  /** Absolute index of the next sample the axes will process. */
+  readonly nextSampleIndex: number;
+  /** The summaries of the latest block (the objects `process` returns). */
+  readonly summaries: readonly AxisBlockSummary[];
   /** Every axis back to its first sample (index 0, zero position), options and refractive index kept. */
   reset(): void;
 }
@@ -323,6 +332,17 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
       for (const stage of stages) stage.pipeline.setRefractiveIndex(next);
       refractiveIndex = next;
     },
+    reReference(request = {}) {
+      const { axis } = request;
+      if (axis !== undefined) integerInRange('axis', axis, 0, axisCount - 1);
+      for (const [k, stage] of stages.entries()) {
+        if (axis === undefined || axis === k) stage.pipeline.reReference(request.atSampleIndex, request.presetM ?? 0);
+      }
+    },
+    get nextSampleIndex() {
+      return stages[0]!.pipeline.nextSampleIndex;
+    },
+    summaries,
     reset() {
       stages.forEach((stage, k) => {
         stage.pipeline.reset();

@@ -4,7 +4,7 @@
 // detector signals: about 1/12000 rad, 4e-12 m; 2e-11 m allowed, as tests/live/track-link.test.ts does).
 import { lastValueFrom, toArray } from 'rxjs';
 import { describe, expect, it } from 'vitest';
-import { createQuadratureSynthesizer } from '../../src/core/index.js';
+import { AlarmBit, createQuadratureSynthesizer } from '../../src/core/index.js';
 import { latchEdges, trackLink } from '../../src/io/live/index.js';
 import { createManualByteSource } from '../../src/io/serial/index.js';
 import { encodeWireFrame, wireFrameLengthOf, type WireEdge } from '../../src/io/wire/index.js';
@@ -19,16 +19,24 @@ const V0 = 0.002;
 const position = (t: number) => V0 * t + (ACCELERATION * t * t) / 2;
 const SAMPLE_ERROR_M = 2e-11;
 
-/** Frames of the motion, with an edge at each of `edgeTimes` (absolute sample times), its lead truncated to 2^-16. */
-function frames(frameCount: number, edgeTimes: readonly number[]): Uint8Array[] {
+/**
+ * Frames of a motion, with an edge at each of `edgeTimes` (absolute sample times), its lead truncated to 2^-16;
+ * edge i on the line and with the polarity `lineOf(i)` gives (default: alternating trigger rising, mark falling).
+ */
+function frames(
+  frameCount: number,
+  edgeTimes: readonly number[],
+  motion: (t: number) => number = position,
+  lineOf: (i: number) => { line: number; rising: boolean } = (i) => ({ line: i % 2, rising: i % 2 === 0 }),
+): Uint8Array[] {
   const n = frameCount * SPF;
-  const phase = Float64Array.from({ length: n }, (_, i) => (4 * Math.PI * position(i / RATE)) / WAVELENGTH);
+  const phase = Float64Array.from({ length: n }, (_, i) => (4 * Math.PI * motion(i / RATE)) / WAVELENGTH);
   const x = new Float64Array(n);
   const y = new Float64Array(n);
   createQuadratureSynthesizer({ ellipse, noiseRms: 0, adc: { kind: 'int16' } }).process(phase, x, y, n);
   return Array.from({ length: frameCount }, (_, f) => {
     const edges: WireEdge[] = edgeTimes
-      .map((t, i) => ({ sample: Math.ceil(t) - f * SPF, lead: Math.floor((Math.ceil(t) - t) * 65536), line: i % 2, rising: i % 2 === 0 }))
+      .map((t, i) => ({ sample: Math.ceil(t) - f * SPF, lead: Math.floor((Math.ceil(t) - t) * 65536), ...lineOf(i) }))
       .filter((edge) => edge.sample >= 0 && edge.sample < SPF);
     const samples = Array.from({ length: 2 * SPF }, (_, i) => (i % 2 === 0 ? x : y)[f * SPF + (i >> 1)]!);
     const header = { sequence: f, channelCount: 2, samplesPerFrame: SPF, sampleRateHz: RATE, sampleCounter: f * SPF, edges };
@@ -59,5 +67,55 @@ describe('positions at trigger edges through the live chain', () => {
     // The bound: 1.25·a·T²/8 = 3.1e-11 m at most from the motion; the second differences also carry the samples'
     // rounding (some 1e-11 m), so it stays under 0.1 nm here.
     expect(Math.max(...results.map((e) => e.uncertaintyM))).toBeLessThan(1e-10);
+  });
+
+  it('a rising reference mark re-references the axes: the position at the mark reads zero, count lost cleared', async () => {
+    const velocity = 0.004; // m/s, invented constant motion
+    const mark = 150.3;
+    const source = createManualByteSource();
+    const live = trackLink(source, { axes: [{ name: 'X', wavelengthM: WAVELENGTH, fold: 2, calibration: ellipse }] });
+    const rows: { index: number; position: number; countLost: boolean }[] = [];
+    const done = lastValueFrom(live.readings$.pipe(toArray()));
+    live.readings$.subscribe((reading) => {
+      if (reading.kind !== 'samples') return;
+      const x = reading.summaries[0]!;
+      for (let i = 0; i < x.length; i++) rows.push({ index: x.firstSampleIndex + i, position: x.output.positionM[i]!, countLost: (x.output.flags[i]! & AlarmBit.countLost) !== 0 });
+    });
+    source.linkUp();
+    // A trigger edge (line 0, no effect on the reference) and the mark (line 1); frame 1 is lost (count lost).
+    const sent = frames(4, [40.5, mark], (t) => velocity * t, (i) => ({ line: i, rising: true }));
+    source.write(sent[0]!);
+    source.write(sent[2]!);
+    source.write(sent[3]!);
+    source.end();
+    await done;
+    const at = (index: number) => rows.find((row) => row.index === index)!;
+    // Before the mark: from the first sample. After it: from the mark, to the samples' own error (2e-11 m).
+    expect(Math.abs(at(40).position - (velocity * 40) / RATE)).toBeLessThan(SAMPLE_ERROR_M);
+    expect(at(150).countLost).toBe(true);
+    for (const index of [151, 180, 255]) {
+      expect(Math.abs(at(index).position - (velocity * (index - mark)) / RATE), `sample ${index}`).toBeLessThan(SAMPLE_ERROR_M);
+      expect(at(index).countLost).toBe(false);
+    }
+  });
+
+  it('reReference zeroes or presets at the next sample on demand', () => {
+    const source = createManualByteSource();
+    const live = trackLink(source, { axes: [{ name: 'X', wavelengthM: WAVELENGTH, fold: 2, calibration: ellipse }] });
+    const firsts: number[] = [];
+    const subscription = live.readings$.subscribe((reading) => {
+      if (reading.kind === 'samples') firsts.push(reading.summaries[0]!.output.positionM[0]!);
+    });
+    live.reReference(); // before any sample: nothing to do
+    source.linkUp();
+    const sent = frames(3, [], (t) => 0.004 * t);
+    source.write(sent[0]!);
+    live.reReference({ presetM: 0.0125 });
+    source.write(sent[1]!);
+    live.reReference({ axis: 0 });
+    source.write(sent[2]!);
+    expect(firsts).toEqual([0, 0.0125, 0]);
+    expect(() => live.reReference({ axis: 1 })).toThrow('axis must be an integer in 0..0 (got 1)');
+    subscription.unsubscribe();
   });
 });

@@ -14,6 +14,7 @@ import {
   type AxisOptions,
 } from '../../stream/index.js';
 import type { ByteSource, ByteSourceEvent, LinkEvent } from '../serial/index.js';
+import { WireEdgeLine } from '../wire/index.js';
 import { createLinkReader, type LinkBlock, type LinkGap, type LinkReaderOptions, type LinkReaderStatus } from './link-reader.js';
 
 /** The link reader's settings (without its callbacks). */
@@ -60,6 +61,11 @@ export interface TrackLinkOptions extends Omit<AxesRunnerOptions, 'axes'>, AxesV
   readonly axes: readonly LiveAxisOptions[];
   /** How the bytes are read: frames or text lines, frame size limit, sample rate when the frames carry none. */
   readonly link?: LinkOptions;
+  /**
+   * Re-reference every axis at each rising edge of the reference-mark input (edge line 1 of version 2 frames):
+   * the position at the mark reads zero. Default true; false leaves the marks to `latchEdges` only.
+   */
+  readonly referenceMarks?: boolean;
 }
 
 /** A block of samples with every axis' position block for it (`summaries`, reused: read inside `next`). */
@@ -80,6 +86,12 @@ export interface LiveAxes extends Axes {
   readonly gaps$: Observable<LinkGap>;
   /** The running reader's counters (link, samples, gaps, decoder); null while nothing runs. */
   readonly linkStatus: Readonly<LinkReaderStatus> | null;
+  /**
+   * Zero (or preset to `presetM`, m) one axis or every axis at the next sample, and clear its count-lost latch
+   * there: for a terminal key, a signal or an authenticated command. Before the first sample it does nothing
+   * (the first sample is the reference anyway).
+   */
+  reReference(options?: { readonly axis?: number; readonly presetM?: number }): void;
 }
 
 /** A rate used only to check the axis options before the frames tell the true one; no rate rule binds at it. */
@@ -115,6 +127,7 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
           if (refractiveIndex !== null) runner.setRefractiveIndex(refractiveIndex);
           running = runner;
         }
+        if (options.referenceMarks !== false) referenceAtMarks(runner, block);
         reading.block = block;
         reading.summaries = runner.process(block);
         subscriber.next(reading);
@@ -164,5 +177,29 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
     get linkStatus() {
       return linkStatus;
     },
+    reReference(request = {}) {
+      (running as AxesRunner | null)?.reReference(request);
+    },
   };
+}
+
+/**
+ * Requests a re-reference of every axis at the first sample after each rising reference-mark edge in the block,
+ * preset to the motion from the mark to that sample (its fraction of a period at the axis' latest velocity), so
+ * that the position at the mark itself reads zero. The velocity is the step between the two latest positions:
+ * unlike the tracking loop's, it has no settling lag.
+ */
+function referenceAtMarks(runner: AxesRunner, block: LinkBlock): void {
+  for (let e = 0; e < block.edgeCount; e++) {
+    if (block.edgeLine[e] !== WireEdgeLine.referenceMark || block.edgeRising[e] !== 1) continue;
+    const at = Math.ceil(block.edgeTime[e]!);
+    if (at < runner.nextSampleIndex) continue; // a mark the axes have passed already cannot be re-referenced at
+    const leadS = (at - block.edgeTime[e]!) / block.rateHz;
+    runner.names.forEach((_, axis) => {
+      const latest = runner.summaries[axis]!;
+      const positions = latest.output.positionM;
+      const velocity = latest.length >= 2 ? (positions[latest.length - 1]! - positions[latest.length - 2]!) * block.rateHz : latest.velocityMS;
+      runner.reReference({ axis, atSampleIndex: at, presetM: Number.isFinite(velocity) ? velocity * leadS : 0 });
+    });
+  }
 }
