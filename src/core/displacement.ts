@@ -1,6 +1,6 @@
 // Displacement: position = (count + fraction) · λ_vac / (fold · n), relative to a reference sample; velocity in m/s.
 
-import { finiteNumber, numberInRange, positiveFinite } from './options.js';
+import { numberInRange, positiveFinite } from './options.js';
 import { TWO_PI } from './phase.js';
 
 export interface DisplacementOptions {
@@ -20,7 +20,7 @@ export interface Displacement {
   /**
    * From whole turns, wrapped phase (rad) and loop step (rad/sample) writes position (m, relative to the
    * reference) and velocity (m/s). The first sample processed after construction, reset or
-   * `referenceAtNext()` becomes the reference (position 0, or the preset given there).
+   * `referenceAtNext()` becomes the reference (position 0).
    */
   process(
     turns: Float64Array,
@@ -30,11 +30,7 @@ export interface Displacement {
     positionM: Float64Array,
     velocityMS: Float64Array,
   ): number;
-  /**
-   * Makes the next sample processed the reference, reading `presetM` there (default 0: zero). The preset is a
-   * position in metres: it does not scale with a later change of the refractive index; the count after it does.
-   */
-  referenceAtNext(presetM?: number): void;
+  referenceAtNext(): void;
   /** Changes the index of the path: the scale of the reading changes, the fringe count does not. */
   setRefractiveIndex(refractiveIndex: number): void;
   /** Displacement of one fringe in metres: λ_vac / (fold · n), times the length scale. */
@@ -60,8 +56,6 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
   let referencePending = true;
   let referenceTurns = 0;
   let referencePhase = 0;
-  let presetM = 0;
-  let pendingPresetM = 0;
 
   function updateScale(): void {
     metresPerFringe = (wavelengthM / (fold * refractiveIndex)) * lengthScale;
@@ -81,13 +75,12 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
       referencePending = false;
       referenceTurns = turns[0]!;
       referencePhase = phaseRad[0]!;
-      presetM = pendingPresetM;
     }
     const perFringe = metresPerFringe, perRad = metresPerRad, perStep = velocityPerStep;
-    const refTurns = referenceTurns, refPhase = referencePhase, preset = presetM;
+    const refTurns = referenceTurns, refPhase = referencePhase;
     for (let i = 0; i < length; i++) {
       // Integer and fractional parts are differenced separately: exact for counts far beyond 2^32.
-      positionM[i] = (turns[i]! - refTurns) * perFringe + (phaseRad[i]! - refPhase) * perRad + preset;
+      positionM[i] = (turns[i]! - refTurns) * perFringe + (phaseRad[i]! - refPhase) * perRad;
       velocityMS[i] = stepRad[i]! * perStep;
     }
     return length;
@@ -96,8 +89,7 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
   updateScale();
   return {
     process,
-    referenceAtNext(preset = 0) {
-      pendingPresetM = finiteNumber('presetM', preset);
+    referenceAtNext() {
       referencePending = true;
     },
     setRefractiveIndex(next: number) {
@@ -114,8 +106,6 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
       referencePending = true;
       referenceTurns = 0;
       referencePhase = 0;
-      presetM = 0;
-      pendingPresetM = 0;
     },
   };
 }

@@ -5,7 +5,7 @@ import { createCorrection, type Correction } from './correction.js';
 import { createDisplacement, type Displacement } from './displacement.js';
 import type { EllipseCalibration } from './fit/ellipse.js';
 import { createSignalMonitor, type AdcFormat, type SignalMonitor } from './monitor.js';
-import { finiteNumber, integerInRange, MAX_COUNT } from './options.js';
+import { integerInRange, MAX_COUNT } from './options.js';
 import { TWO_PI } from './phase.js';
 import { createPhaseTracker, type PhaseTracker, type UnwrapMethod } from './tracker.js';
 
@@ -118,11 +118,10 @@ export interface Pipeline {
   /** `lostSamples` samples were lost in transport before the next sample: input gap, count lost. */
   markGap(lostSamples: number): void;
   /**
-   * Makes sample `atSampleIndex` (default: the next sample) the new reference of position, reading `presetM`
-   * there (default 0: zero; a preset sets a known position, e.g. from a gauge block), and clears the count-lost
-   * latch there. The index must not be in the past; a later request replaces an earlier one not yet reached.
+   * Makes sample `atSampleIndex` (default: the next sample) the new zero of position and clears the
+   * count-lost latch there. The index must not be in the past.
    */
-  reReference(atSampleIndex?: number, presetM?: number): void;
+  reReference(atSampleIndex?: number): void;
   setCalibration(calibration: EllipseCalibration | null): void;
   setRefractiveIndex(refractiveIndex: number): void;
   /** Back to the state after construction; options and calibration are kept. */
@@ -176,7 +175,6 @@ export function createPipeline(options: PipelineOptions): Pipeline {
   };
   let nextIndex = 0;
   let referenceIndex = -1; // pending re-reference, or −1
-  let referencePresetM = 0;
 
   function allocate(length: number): void {
     capacity = length;
@@ -232,7 +230,7 @@ export function createPipeline(options: PipelineOptions): Pipeline {
     while (done < length) {
       if (referenceIndex === nextIndex) {
         referenceIndex = -1;
-        displacement.referenceAtNext(referencePresetM);
+        displacement.referenceAtNext();
         tracker.clearCountLostAtNext();
       }
       let chunk = length - done;
@@ -261,9 +259,8 @@ export function createPipeline(options: PipelineOptions): Pipeline {
       tracker.markGap(lostSamples);
       nextIndex += lostSamples;
     },
-    reReference(atSampleIndex = nextIndex, presetM = 0) {
+    reReference(atSampleIndex = nextIndex) {
       integerInRange('atSampleIndex', atSampleIndex, nextIndex, MAX_COUNT);
-      referencePresetM = finiteNumber('presetM', presetM);
       referenceIndex = atSampleIndex;
     },
     setCalibration: (calibration) => correction.setCalibration(calibration),

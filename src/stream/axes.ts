@@ -6,6 +6,7 @@ import { asyncScheduler, distinctUntilChanged, filter, interval, map, mergeMap, 
 import {
   alarmText,
   createCorrection,
+  finiteNumber,
   integerInRange,
   OptionError,
   positiveFinite,
@@ -230,9 +231,28 @@ interface AxisStage {
   readonly buffers: ReturnType<typeof createPositionBuffers>;
   x: Int16Array;
   y: Int16Array;
+  /** Added to the pipeline's position: the preset of the latest re-reference (0 after a zero). */
+  offsetM: number;
+  /** A re-reference not yet reached: its sample and preset. */
+  pendingAt: number;
+  pendingPresetM: number;
 }
 
 type MutableSummary = { -readonly [K in keyof AxisBlockSummary]: AxisBlockSummary[K] } & { events: AlarmEvent[] };
+
+/** Adds the stage's preset to a block's positions, switching to a pending one at its sample. */
+function applyPreset(stage: AxisStage, positionM: Float64Array, length: number, firstIndex: number): void {
+  let offset = stage.offsetM;
+  const switchAt = stage.pendingAt >= 0 ? Math.max(0, stage.pendingAt - firstIndex) : length;
+  for (let i = 0; i < length; i++) {
+    if (i === switchAt) {
+      offset = stage.pendingPresetM;
+      stage.pendingAt = -1;
+    }
+    positionM[i] = positionM[i]! + offset;
+  }
+  stage.offsetM = offset;
+}
 
 export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
   const axisCount = integerInRange('axes.length', options.axes.length, 1, 8);
@@ -255,6 +275,9 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
       buffers: createPositionBuffers(axisOptions.blockCapacity ?? 4096),
       x: new Int16Array(0),
       y: new Int16Array(0),
+      offsetM: 0,
+      pendingAt: -1,
+      pendingPresetM: 0,
     };
   });
   const summaries: readonly AxisBlockSummary[] = stages.map((stage) => stage.summary);
@@ -267,6 +290,7 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     summary.firstSampleIndex = pipeline.nextSampleIndex;
     const out = stage.buffers.views(length);
     pipeline.process(x, y, length, out, summary.events);
+    if (stage.offsetM !== 0 || stage.pendingAt >= 0) applyPreset(stage, out.positionM, length, summary.firstSampleIndex);
     summary.x = x;
     summary.y = y;
     summary.output = out;
@@ -335,8 +359,13 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     reReference(request = {}) {
       const { axis } = request;
       if (axis !== undefined) integerInRange('axis', axis, 0, axisCount - 1);
+      const presetM = finiteNumber('presetM', request.presetM ?? 0);
       for (const [k, stage] of stages.entries()) {
-        if (axis === undefined || axis === k) stage.pipeline.reReference(request.atSampleIndex, request.presetM ?? 0);
+        if (axis !== undefined && axis !== k) continue;
+        // The pipeline zeroes the position at the sample; the preset is added from there on.
+        stage.pipeline.reReference(request.atSampleIndex);
+        stage.pendingAt = request.atSampleIndex ?? stage.pipeline.nextSampleIndex;
+        stage.pendingPresetM = presetM;
       }
     },
     get nextSampleIndex() {
@@ -346,6 +375,8 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     reset() {
       stages.forEach((stage, k) => {
         stage.pipeline.reset();
+        stage.offsetM = 0;
+        stage.pendingAt = -1;
         if (refractiveIndex !== null) stage.pipeline.setRefractiveIndex(refractiveIndex);
         Object.assign(stage.summary, emptySummary(names[k]!, stage.pipeline.speedLimits, tracePoints), {
           traceX: stage.summary.traceX.fill(0),

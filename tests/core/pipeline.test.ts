@@ -185,21 +185,6 @@ describe('displacement and velocity', () => {
     expect(out.flags[1500]! & AlarmBit.countLost).toBe(0);
     expect(() => pipeline.reReference(10)).toThrow(/atSampleIndex must be an integer in 4000\.\./);
   });
-
-  it('presets: the reference sample reads the given position, the count continues from it', () => {
-    const n = 3000;
-    const phase = Float64Array.from({ length: n }, (_, i) => 0.02 * i);
-    const { x, y } = signal(phase);
-    const zeroed = run(x, y);
-    const pipeline = createPipeline(baseOptions);
-    const out = outputs(n);
-    pipeline.reReference(1000, 0.0125); // a stage set on an invented 12.5 mm gauge
-    pipeline.process(x, y, n, out, []);
-    expect(out.positionM[1000]).toBe(0.0125);
-    // The same motion as a zero at 1000, shifted by the preset.
-    expect(out.positionM[n - 1]! - 0.0125).toBeCloseTo(zeroed.out.positionM[n - 1]! - zeroed.out.positionM[1000]!, 15);
-    expect(() => pipeline.reReference(n, Number.NaN)).toThrow('presetM must be a finite number (got NaN)');
-  });
 });
 
 describe('alarms', () => {
