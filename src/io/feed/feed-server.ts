@@ -31,6 +31,8 @@ export interface FeedSource {
   readonly rateHz: number;
   /** Beams of parallel axes: each update then carries `geometry` (yaw, pitch, point of interest; see docs/analysis.md). */
   readonly geometry?: AxisGeometryStreamOptions;
+  /** The axes' low-signal threshold (`lowSignalLevel` of their pipelines), shown on the page. Default 0.3, the pipeline's default. */
+  readonly lowSignalLevel?: number;
 }
 
 export interface FeedServerOptions {
@@ -312,6 +314,7 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
       schema: FEED_SCHEMA,
       state,
       axes: source?.axes.names ?? [],
+      lowSignalLevel: source === null ? null : (source.lowSignalLevel ?? 0.3),
       ...feedTimeBase(source?.rateHz ?? null, -1),
     };
   }

@@ -87,6 +87,8 @@ export interface FeedStatusMessage extends FeedTimeBase {
   readonly state: FeedState;
   /** Axis names; empty while waiting. */
   readonly axes: readonly string[];
+  /** The low-signal threshold of the `level` values (1 on the calibrated ellipse); null while waiting. */
+  readonly lowSignalLevel: number | null;
 }
 
 export interface FeedHelloMessage {
