@@ -186,6 +186,26 @@ describe('MQTT publisher', () => {
     expect(events.map((event) => event.kind)).toEqual(['down', 'connected', 'down', 'connected']);
   });
 
+  it('rate-limits the reports of a long outage: at most one per reportIntervalMs, however many attempts', async () => {
+    const gone = await startBroker();
+    await gone.stop();
+    const events: MqttPublisherEvent[] = [];
+    publisher = createMqttPublisher({ url: gone.url, reconnectPeriodMs: 100, maxReconnectPeriodMs: 100, reportIntervalMs: 250, onEvent: (event) => events.push(event) });
+    const running = publisher;
+    // Attempts come at least 100 ms apart: after 8 of them (≥ 700 ms) at least one still-down report has come,
+    // and the reports are at least 250 ms of outage apart, however many attempts fell between them.
+    for (let wait = 0; wait < 3000 && running.health.failedAttempts < 8; wait++) await new Promise((resolve) => setTimeout(resolve, 10));
+    const stillDown = events.filter((event) => event.kind === 'still-down');
+    expect(events[0]).toMatchObject({ kind: 'down' });
+    expect(stillDown.length).toBeGreaterThanOrEqual(1);
+    const outageAt = stillDown.map((event) => event.outageMs);
+    expect(outageAt[0]).toBeGreaterThanOrEqual(250);
+    for (let k = 1; k < outageAt.length; k++) expect(outageAt[k]! - outageAt[k - 1]!).toBeGreaterThanOrEqual(250);
+    console.info(`long outage: ${running.health.failedAttempts} failed attempts, ${stillDown.length} still-down reports`);
+    expect(stillDown[0]).toMatchObject({ message: expect.stringMatching(/ECONNREFUSED/), retryInMs: 100 });
+    expect((stillDown[0] as { attempts: number }).attempts).toBeGreaterThanOrEqual(2);
+  });
+
   it('publishes status waiting before its source is attached, then live and ended', async () => {
     broker = await startBroker();
     const status = await subscriber(broker.url, 'fringetally/status');
