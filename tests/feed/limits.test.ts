@@ -111,7 +111,8 @@ describe('feed contracts', () => {
     const update = await c.next<FeedUpdateMessage>(isUpdate(999), 'update after attach');
     expect(update.axes[0]!.positionM! / METRES_PER_FRINGE).toBeCloseTo(motion.fringes, 9);
     motion.source.complete();
-    expect(await c.next((m) => m.type === 'status', 'status ended')).toMatchObject({ state: 'ended' });
+    // The status carries the time base of the latest sample (index 999 at 1 MHz).
+    expect(await c.next((m) => m.type === 'status', 'status ended')).toMatchObject({ state: 'ended', rateHz: 1e6, sampleTimeS: 999 / 1e6 });
     await c.next((m) => m.type === 'end', 'end');
     expect((await c.closed).code).toBe(1000);
     // A client arriving after the end learns it at once and is closed normally.

@@ -10,7 +10,7 @@ import type { Duplex } from 'node:stream';
 import type { Subscription } from 'rxjs';
 import { WebSocket, WebSocketServer } from 'ws';
 import { integerInRange, OptionError, positiveFinite } from '../../core/index.js';
-import { createUpdateGeometry, type Axes, type AxisGeometryStreamOptions, type UpdateGeometry } from '../../stream/index.js';
+import { createUpdateGeometry, type Axes, type AxisBlockSummary, type AxisGeometryStreamOptions, type UpdateGeometry } from '../../stream/index.js';
 import { hostOfHeader, isLoopbackHost, normaliseAddress, tokenMatches } from './access.js';
 import {
   FEED_SCHEMA,
@@ -108,7 +108,7 @@ export interface FeedServerCounts {
   readonly closedOutput: number;
   /** Dropped after answering no ping for a heartbeat interval. */
   readonly closedDead: number;
-  /** Updates an unready client's next update had to cover (merged rather than queued). */
+  /** Times an update came due for a client that had not read the previous one (its next update then covers the span). */
   readonly updatesMerged: number;
 }
 
@@ -204,6 +204,8 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
   let state: FeedState = 'waiting';
   let sourceError: FeedErrorMessage | null = null;
   let keepAlive: Subscription | null = null;
+  // The source's latest sample, for the time base of status messages.
+  let latestSampleIndex = -1;
 
   /** Why a request may not proceed, or null. Loopback: Host must be loopback too (no DNS rebinding) unless it came through a declared proxy. */
   function refusal(request: IncomingMessage, url: URL): { status: number; text: string } | null {
@@ -315,7 +317,7 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
       state,
       axes: source?.axes.names ?? [],
       lowSignalLevel: source === null ? null : (source.lowSignalLevel ?? 0.3),
-      ...feedTimeBase(source?.rateHz ?? null, -1),
+      ...feedTimeBase(source?.rateHz ?? null, latestSampleIndex),
     };
   }
 
@@ -445,6 +447,9 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
     geometry = next.geometry === undefined ? null : createUpdateGeometry(next.geometry, next.axes.names);
     source = next;
     keepAlive = next.axes.connect({
+      next(summaries: unknown) {
+        latestSampleIndex = (summaries as readonly AxisBlockSummary[])[0]!.sampleIndex;
+      },
       error(error: unknown) {
         sourceError = { type: 'error', code: 'source-error', message: `the measurement source failed: ${String(error)}` };
         setState('failed');

@@ -150,6 +150,8 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
   let axisTopics: string[] = [];
   let geometry: UpdateGeometry | null = null;
   let geometryTopic: string | null = null;
+  // The latest sample published, for the time base of status messages.
+  let latestSampleIndex = -1;
   const status = (state: 'online' | 'offline'): string => {
     const message: MqttStatusMessage = {
       type: 'status',
@@ -157,7 +159,7 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
       state,
       measurement,
       axes: source?.axes.names ?? [],
-      ...feedTimeBase(source?.rateHz ?? null, -1),
+      ...feedTimeBase(source?.rateHz ?? null, latestSampleIndex),
     };
     return JSON.stringify(message);
   };
@@ -252,6 +254,8 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
     axisTopics = next.axes.names.map((name) => `${prefix}/axis/${name}`);
     const setMeasurement = (state: FeedState) => {
       measurement = state;
+      // The last will goes out with each (re)connection: keep it telling the measurement's state.
+      if (client.options.will) client.options.will.payload = Buffer.from(status('offline'));
       if (client.connected) client.publish(statusTopic, status('online'), { qos: 1, retain: true });
     };
     setMeasurement('live');
@@ -262,6 +266,7 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
         if (!client.connected) return;
         seq++;
         const sampleIndex = update.axes[0]!.sampleIndex;
+        latestSampleIndex = sampleIndex;
         const timeBase = feedTimeBase(rateHz, sampleIndex);
         const sentIn = generation;
         update.axes.forEach((axis, k) => {
