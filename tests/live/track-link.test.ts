@@ -124,7 +124,8 @@ describe('the trackLink example of docs/live.md', () => {
     example.stdout!.on('data', (chunk: Buffer) => (stdout += chunk.toString()));
     example.stderr!.on('data', (chunk: Buffer) => (stderr += chunk.toString()));
     const exited = new Promise<number | null>((resolve) => example.once('close', (code) => resolve(code)));
-    await until(() => stdout.includes('link up') || example.exitCode !== null, 'the example to open the port');
+    // Node's start-up and the package's imports can take many seconds on a loaded machine: a generous deadline.
+    await until(() => stdout.includes('link up') || example.exitCode !== null, 'the example to open the port', 60_000);
     expect(stdout, stderr).toContain('link up (opened)');
     const emulate = startCli(
       ['emulate', '--port', join(ptys, 'firmware'), '--rate-hz', String(RATE), '--velocity-m-s', String(VELOCITY), '--wavelength-nm', '632.9908',
@@ -133,7 +134,7 @@ describe('the trackLink example of docs/live.md', () => {
     );
     expect(await finished(emulate)).toBe(0);
     const positionLines = () => stdout.split('\n').filter((line) => line.startsWith('position '));
-    await until(() => positionLines().length >= 8 || example.exitCode !== null, 'eight position updates');
+    await until(() => positionLines().length >= 8 || example.exitCode !== null, 'eight position updates', 60_000);
     example.kill('SIGINT');
     expect(await exited, stderr).toBe(0);
     rmSync(ptys, { recursive: true, force: true });
