@@ -4,7 +4,7 @@
 import { readFileSync } from 'node:fs';
 import {
   airIndexSensitivities,
-  materialByKey,
+  materials,
   readingUncertaintyBudget,
   refractiveIndexOfAir,
   REFERENCE_TEMPERATURE_C,
@@ -12,7 +12,7 @@ import {
   type AirIndexOptions,
   type UncertaintyBudget,
 } from '../src/core/index.js';
-import { numberOption, UsageError } from './cli-kit.js';
+import { closestName, inUserTerms, numberOption, OPTION_RANGES, UsageError, type FlagOf } from './cli-kit.js';
 
 export const environmentOptionSpecs = {
   config: { type: 'string' },
@@ -45,7 +45,7 @@ export const environmentOptionHelp = `Environment (refractive index of air; with
   --equation NAME            ciddor (default), edlen or shopfloor
 Material and geometry:
   --material KEY             normalise the reading to 20 °C for this material (aluminium, steel, silicon,
-                             granite, invar36, fused-silica, glass-ceramic), or --expansion-per-k A (1/K)
+                             granite, fe-ni36, fused-silica, glass-ceramic), or --expansion-per-k A (1/K)
   --material-temperature-c T material temperature, °C (required with a material)
   --dead-path-m D            unmeasured path at the datum, m (enters the uncertainty budget)
 Uncertainty (standard uncertainties; defaults in brackets):
@@ -59,22 +59,46 @@ Uncertainty (standard uncertainties; defaults in brackets):
 
 type Values = Record<string, string | boolean | undefined>;
 
-/** Merges a --config file under the command-line values: the command line wins. */
-export function withConfig(values: Values): Values {
+/** The core's air-index option names as the user types them (errors from refractiveIndexOfAir name these). */
+export const AIR_FLAGS: Readonly<Record<string, FlagOf>> = {
+  temperatureC: { flag: '--temperature-c', toCore: 1, unit: '°C' },
+  pressurePa: { flag: '--pressure-pa', toCore: 1, unit: 'Pa' },
+  relativeHumidityPct: { flag: '--humidity-pct', toCore: 1, unit: '%' },
+  dewPointC: { flag: '--dew-point-c', toCore: 1, unit: '°C' },
+  vapourPressurePa: { flag: '--vapour-pressure-pa', toCore: 1, unit: 'Pa' },
+  co2Ppm: { flag: '--co2-ppm', toCore: 1, unit: 'µmol/mol' },
+  vacuumWavelengthM: { flag: '--wavelength-nm', toCore: 1e-9, unit: 'nm' },
+  equation: { flag: '--equation', toCore: 1, unit: '' },
+  material: { flag: '--material', toCore: 1, unit: '' },
+  materialTemperatureC: { flag: '--material-temperature-c', toCore: 1, unit: '°C' },
+};
+
+/**
+ * Merges a --config file under the command-line values (the command line wins). Every key must be one of the
+ * command's options that take a value (`known`); numbers are range-checked here, so an error names the file and key.
+ */
+export function withConfig(values: Values, known: Readonly<Record<string, { type: string }>>): Values {
   const path = values.config;
   if (typeof path !== 'string') return values;
   let parsed: unknown;
   try {
     parsed = JSON.parse(readFileSync(path, 'utf8'));
   } catch (error) {
-    throw new UsageError(`--config ${path}: not a readable JSON file (${(error as Error).message})`);
+    const failure = error as NodeJS.ErrnoException;
+    throw new UsageError(`--config ${path}: not a readable JSON file (${failure.code ?? failure.message})`);
   }
   if (parsed === null || typeof parsed !== 'object' || Array.isArray(parsed)) throw new UsageError(`--config ${path}: expected a JSON object`);
+  const keys = Object.keys(known).filter((key) => key !== 'config' && known[key]!.type === 'string');
   const merged: Values = {};
   for (const [key, value] of Object.entries(parsed as Record<string, unknown>)) {
+    if (!keys.includes(key)) {
+      const near = closestName(key.replace(/^-+/, ''), keys);
+      throw new UsageError(`--config ${path}: unknown key "${key}"${near === undefined ? '' : ` (did you mean "${near}"?)`}`);
+    }
     if (typeof value !== 'number' && typeof value !== 'string') {
       throw new UsageError(`--config ${path}: "${key}" must be a number or a string (got ${JSON.stringify(value)})`);
     }
+    if (OPTION_RANGES[key] !== undefined) numberOption(key, String(value), `"${key}" in --config ${path}`);
     merged[key] = String(value);
   }
   return { ...merged, ...Object.fromEntries(Object.entries(values).filter(([, value]) => value !== undefined)) };
@@ -119,14 +143,15 @@ export function environmentOf(values: Values, vacuumWavelengthM: number, explici
       ...(humidity[0] === 'dew-point-c' ? { dewPointC: humidityValue } : {}),
       ...(humidity[0] === 'vapour-pressure-pa' ? { vapourPressurePa: humidityValue } : {}),
     };
+    let result;
     try {
-      const result = refractiveIndexOfAir(air);
-      refractiveIndex = result.n;
-      for (const warning of result.warnings) notes.push(`warning: ${warning.message}`);
-      notes.push(`refractive index of air ${result.n.toFixed(10)} (${equation}), wavelength in air ${(result.airWavelengthM * 1e9).toFixed(6)} nm`);
+      result = refractiveIndexOfAir(air);
     } catch (error) {
-      throw new UsageError((error as Error).message);
+      throw inUserTerms(error, AIR_FLAGS);
     }
+    refractiveIndex = result.n;
+    for (const warning of result.warnings) notes.push(`warning: ${warning.message}`);
+    notes.push(`refractive index of air ${result.n.toFixed(10)} (${equation}), wavelength in air ${(result.airWavelengthM * 1e9).toFixed(6)} nm`);
   }
 
   let material: Environment['material'] = null;
@@ -139,15 +164,17 @@ export function environmentOf(values: Values, vacuumWavelengthM: number, explici
     let expansionPerK = expansion ?? 0;
     let uExpansionPerK = 1e-6;
     if (materialKey !== undefined) {
-      try {
-        const entry = materialByKey(materialKey);
-        expansionPerK = entry.expansionPerK;
-        // A spread stated as a half-range is read as a rectangular distribution (GUM 4.3.7).
-        if (entry.halfRangePerK > 0) uExpansionPerK = entry.halfRangePerK / Math.sqrt(3);
-        notes.push(`material ${entry.name}: α = ${entry.expansionPerK} /K (${entry.source}, ${entry.tag})`);
-      } catch (error) {
-        throw new UsageError((error as Error).message);
+      const entry = materials.find((material) => material.key === materialKey);
+      if (entry === undefined) {
+        const near = closestName(materialKey, materials.map((material) => material.key));
+        throw new UsageError(
+          `--material must be one of ${materials.map((material) => material.key).join(', ')} (got "${materialKey}")${near === undefined ? '' : `; did you mean ${near}?`}`,
+        );
       }
+      expansionPerK = entry.expansionPerK;
+      // A spread stated as a half-range is read as a rectangular distribution (GUM 4.3.7).
+      if (entry.halfRangePerK > 0) uExpansionPerK = entry.halfRangePerK / Math.sqrt(3);
+      notes.push(`material ${entry.name}: α = ${entry.expansionPerK} /K (${entry.source}, ${entry.tag})`);
     }
     material = { expansionPerK, temperatureC: materialTemperatureC, uExpansionPerK };
     notes.push(`reading normalised to ${REFERENCE_TEMPERATURE_C} °C from a material temperature of ${materialTemperatureC} °C`);

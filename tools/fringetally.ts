@@ -1,13 +1,16 @@
 #!/usr/bin/env node
 // Entry point of the `fringetally` command-line tool: dispatches to one subcommand per file in tools/commands.
-import { readFileSync } from 'node:fs';
 import { commands } from './commands/index.js';
-import { LASER_CAUTION, UsageError } from './cli-kit.js';
+import { LASER_CAUTION, toolVersion, UsageError } from './cli-kit.js';
 
-function version(): string {
-  const pkg = JSON.parse(readFileSync(new URL('../../package.json', import.meta.url), 'utf8')) as { version: string };
-  return pkg.version;
-}
+// A reader that closes the pipe (`fringetally ... | head`) has had what it wanted: the tool stops quietly, exit 0,
+// instead of dying on "write EPIPE". Other output errors still fail the command.
+let stdoutClosed = false;
+process.stdout.on('error', (error: NodeJS.ErrnoException) => {
+  if (error.code !== 'EPIPE') throw error;
+  stdoutClosed = true;
+});
+const isClosedPipe = (error: unknown) => stdoutClosed && (error as NodeJS.ErrnoException).code === 'EPIPE';
 
 function overview(): string {
   const width = Math.max(8, ...commands.map((command) => command.name.length));
@@ -35,7 +38,7 @@ async function main(argv: readonly string[]): Promise<number> {
     return 0;
   }
   if (first === '--version' || first === '-v') {
-    process.stdout.write(version() + '\n');
+    process.stdout.write(toolVersion() + '\n');
     return 0;
   }
   const entry = commands.find((candidate) => candidate.name === first);
@@ -49,12 +52,15 @@ async function main(argv: readonly string[]): Promise<number> {
     return 0;
   }
   try {
-    return await command.run(rest);
+    const code = await command.run(rest);
+    return stdoutClosed ? 0 : code;
   } catch (error) {
+    if (isClosedPipe(error)) return 0;
     if (error instanceof UsageError) {
       process.stderr.write(`fringetally ${command.name}: ${error.message}\nSee fringetally ${command.name} --help\n`);
       return 2;
     }
+    // Exit codes (docs/cli.md): 2 the command line is wrong, 1 the work failed (files, devices, data).
     process.stderr.write(`fringetally ${command.name}: ${(error as Error).message}\n`);
     return 1;
   }

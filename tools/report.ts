@@ -1,12 +1,33 @@
-// Text summaries and the self-contained HTML report (plain inline SVG, no scripts, no network) of calibrate and replay.
-import { writeFile, rename } from 'node:fs/promises';
-import { alarmNames, alarmKinds, MODEL_WATCH_ALARM, residualMeaning, type AlarmKind, type EllipseCalibration, type EllipseFitResult } from '../src/core/index.js';
+// Text summaries and the self-contained HTML report of calibrate and replay: inline SVG drawn when the report is
+// written, no scripts, no network.
+//
+// Axes use d3-scale (scaleLinear/scaleLog with nice domains and ticks): its tick rule (steps of 1, 2 or 5 × 10^k,
+// labels at the precision of the step) is the one readers of scientific plots expect, it needs no DOM and it is
+// small; a whole chart grammar rendered to SVG would bring far more than the few plot kinds drawn here.
+// Alarm colours are the Okabe–Ito palette (M. Okabe and K. Ito, "Color Universal Design (CUD): how to make figures
+// and presentations that are friendly to colorblind people", J*FLY, 2008), distinguishable under the common
+// colour-vision deficiencies; each alarm has a labelled lane of its own, so overlapping spans never blend.
+import { scaleLinear, scaleLog } from 'd3-scale';
+import {
+  alarmKinds,
+  alarmNames,
+  MODEL_WATCH_ALARM,
+  residualMeaning,
+  type AlarmKind,
+  type EllipseCalibration,
+  type EllipseFitResult,
+  type TruthComparisonSummary,
+} from '../src/core/index.js';
+import { writeFileAtomically } from '../src/io/capture/index.js';
 import type { Envelope, PeriodicErrorResult, RunResult } from './capture-run.js';
 import type { MeasureSettings } from './capture-run.js';
 import type { UncertaintyBudget } from '../src/core/index.js';
-import { LASER_CAUTION } from './cli-kit.js';
+import { formatNumber, LASER_CAUTION, toolVersion } from './cli-kit.js';
 
-const nm = (metres: number) => (metres * 1e9).toFixed(3);
+/** Nanometres to the picometre; a value that rounds to zero prints without a sign. */
+const nm = (metres: number) => (metres * 1e9).toFixed(3).replace(/^-(0\.0+)$/, '$1');
+/** `digits` significant digits, without exponent for ordinary magnitudes and without float tails. */
+const sig = (value: number, digits = 4) => (Number.isFinite(value) ? formatNumber(value, digits) : String(value));
 
 export function formatCalibration(c: EllipseCalibration, units: string): string[] {
   return [
@@ -81,6 +102,40 @@ export function formatResidual(run: RunResult): string[] {
   return lines;
 }
 
+/** The comparison with a truth file, with its file name. */
+export type TruthResult = TruthComparisonSummary & { readonly file: string };
+
+export function formatTruthError(truth: TruthResult): string[] {
+  if (truth.samples === 0) return [`against the truth ${truth.file}: no sample times in common`];
+  const p = truth.periodic;
+  return [
+    `against the truth ${truth.file} (${truth.samples} samples):`,
+    `  error     max ${nm(truth.maxAbsErrorM)} nm, RMS ${nm(truth.rmsErrorM)} nm`,
+    `  trend     offset ${nm(truth.trend.offsetM)} nm, scale ${sig(truth.trend.scaleError * 1e6, 3)} ppm`,
+    `  periodic  p-p ${nm(p.peakToPeakM)} nm, 1st harmonic ${nm(p.firstHarmonicM)} nm, 2nd harmonic ${nm(p.secondHarmonicM)} nm ` +
+      `(after removing the trend; ${(p.binCoverage * 100).toFixed(0)} % of the phase bins)`,
+  ];
+}
+
+/** An amplitude spectral density of position. */
+export interface PositionSpectrum {
+  readonly frequencyHz: Float64Array;
+  /** m/√Hz */
+  readonly asd: Float64Array;
+  readonly segments: number;
+  readonly segmentSamples: number;
+  readonly binWidthHz: number;
+}
+
+/** Where the report came from: printed in its header. */
+export interface Provenance {
+  readonly commandLine: readonly string[];
+  /** SHA-256 of the capture, hex. */
+  readonly inputHash: string;
+  /** The calibration's origin: a file with its hash, or "fitted to this capture". */
+  readonly calibrationSource: string;
+}
+
 export interface ReportInput {
   readonly title: string;
   readonly calibration: EllipseCalibration;
@@ -90,70 +145,162 @@ export interface ReportInput {
   readonly notes: readonly string[];
   /** The GUM budget of the final reading, or null when no environment was given. */
   readonly budget: UncertaintyBudget | null;
+  readonly provenance: Provenance;
+  readonly truth?: TruthResult | null;
+  readonly spectrum?: PositionSpectrum | null;
+  /** The report's date; default now. */
+  readonly date?: Date;
 }
 
 const escape = (text: string) => text.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 
-function niceRange(values: ArrayLike<number> & Iterable<number>): [number, number] {
+/** Finite extremes of some arrays, widened when empty or flat so a scale can be built. */
+function extent(...arrays: ArrayLike<number>[]): [number, number] {
   let low = Infinity;
   let high = -Infinity;
-  for (const value of values) {
-    if (!Number.isFinite(value)) continue;
-    if (value < low) low = value;
-    if (value > high) high = value;
+  for (const values of arrays) {
+    for (let i = 0; i < values.length; i++) {
+      const value = values[i]!;
+      if (!Number.isFinite(value)) continue;
+      if (value < low) low = value;
+      if (value > high) high = value;
+    }
   }
   if (!Number.isFinite(low)) return [0, 1];
-  if (low === high) return [low - 1, high + 1];
-  const pad = (high - low) * 0.05;
-  return [low - pad, high + pad];
+  if (low === high) return low === 0 ? [-1, 1] : [low - Math.abs(low) * 0.01, high + Math.abs(high) * 0.01];
+  return [low, high];
 }
 
-interface Frame {
+/** Characters × this ≈ the width of an 12 px label in the report's sans-serif font. */
+const CHAR_PX = 7;
+const FONT_PX = 12;
+
+interface AxisSpec {
+  readonly label: string;
+  readonly domain: [number, number];
+  readonly log?: boolean;
+  /** Round the domain out to ticks (default true for linear axes). */
+  readonly nice?: boolean;
+  readonly ticks?: number;
+  /** Fixed tick values instead of the scale's own. */
+  readonly values?: readonly number[];
+}
+
+interface Scale {
+  (value: number): number;
+  ticks(count?: number): number[];
+  tickFormat(count?: number, specifier?: string): (value: number) => string;
+  domain(): number[];
+}
+
+function makeScale(axis: AxisSpec, range: [number, number]): Scale {
+  if (axis.log === true) return scaleLog().domain(axis.domain).range(range).clamp(true) as unknown as Scale;
+  const scale = scaleLinear().domain(axis.domain).range(range);
+  if (axis.nice !== false) scale.nice(axis.ticks ?? 6);
+  return scale as unknown as Scale;
+}
+
+function tickLabels(axis: AxisSpec, scale: Scale): Array<{ value: number; text: string }> {
+  const count = axis.ticks ?? 6;
+  const values = axis.values ?? scale.ticks(count);
+  const format = axis.log === true ? scale.tickFormat(count, '~g') : scale.tickFormat(count);
+  return values.map((value) => ({ value, text: format(value) }));
+}
+
+interface ChartSpec {
+  readonly className?: string;
+  readonly label: string;
+  /** Width in CSS pixels at full size; the SVG shrinks with the page (viewBox), never overflows it. */
   readonly width: number;
-  readonly height: number;
-  readonly left: number;
-  readonly bottom: number;
-  readonly x: [number, number];
-  readonly y: [number, number];
+  /** Height of the plot area itself. */
+  readonly plotHeight: number;
+  readonly x: AxisSpec;
+  readonly y: AxisSpec;
+  /** Same scale on both axes (a circle looks like one): the plot area is made square. */
+  readonly square?: boolean;
+  readonly body: (sx: Scale, sy: Scale, plot: { left: number; top: number; width: number; height: number }) => string;
+  /** Labels drawn left of the plot below the axis (alarm lanes), which the left margin must hold too. */
+  readonly marginLabels?: readonly string[];
+  /** Extra height below the x axis label, drawn by `below`. */
+  readonly belowHeight?: number;
+  readonly below?: (sx: Scale, plot: { left: number; top: number; width: number; height: number }, y: number) => string;
 }
 
-const px = (frame: Frame, value: number) =>
-  frame.left + ((value - frame.x[0]) / (frame.x[1] - frame.x[0])) * (frame.width - frame.left - 10);
-const py = (frame: Frame, value: number) =>
-  frame.height - frame.bottom - ((value - frame.y[0]) / (frame.y[1] - frame.y[0])) * (frame.height - frame.bottom - 10);
-
-function axes(frame: Frame, xLabel: string, yLabel: string): string {
-  const ticks = (range: [number, number]) => [0, 0.25, 0.5, 0.75, 1].map((f) => range[0] + f * (range[1] - range[0]));
-  const xTicks = ticks(frame.x)
-    .map((v) => `<text x="${px(frame, v).toFixed(1)}" y="${frame.height - frame.bottom + 14}" text-anchor="middle">${v.toPrecision(3)}</text>`)
+/** One chart: margins sized from its own tick labels, so nothing is clipped at any page width. */
+function chart(spec: ChartSpec): string {
+  const top = 10;
+  // The y labels decide the left margin; the last x label (centred on its tick) decides the right one.
+  const provisionalY = makeScale(spec.y, [spec.plotHeight, 0]);
+  const yLabels = tickLabels(spec.y, provisionalY);
+  const left = Math.max(
+    24 + Math.max(...yLabels.map((label) => label.text.length), 1) * CHAR_PX + 8,
+    12 + Math.max(0, ...(spec.marginLabels ?? []).map((label) => label.length)) * CHAR_PX,
+  );
+  const provisionalX = makeScale(spec.x, [0, 1]);
+  const xLabels = tickLabels(spec.x, provisionalX);
+  const lastX = xLabels.length > 0 ? xLabels[xLabels.length - 1]!.text.length : 1;
+  const right = Math.max(12, Math.ceil((lastX * CHAR_PX) / 2) + 6);
+  let plotWidth = spec.width - left - right;
+  let plotHeight = spec.plotHeight;
+  if (spec.square === true) plotWidth = plotHeight = Math.min(plotWidth, plotHeight);
+  const width = left + plotWidth + right;
+  const sx = makeScale(spec.x, [left, left + plotWidth]);
+  const sy = makeScale(spec.y, [top + plotHeight, top]);
+  const plot = { left, top, width: plotWidth, height: plotHeight };
+  const axisY = top + plotHeight;
+  const xTicks = tickLabels(spec.x, sx)
+    .map(({ value, text }) => {
+      const x = sx(value).toFixed(1);
+      const label = text === '' ? '' : `<text class="tick-x${spec.x.log === true ? ' log' : ''}" x="${x}" y="${axisY + 16}" text-anchor="middle">${escape(text)}</text>`;
+      return `<line class="tick" x1="${x}" x2="${x}" y1="${axisY}" y2="${axisY + 4}"/>${label}`;
+    })
     .join('');
-  const yTicks = ticks(frame.y)
-    .map((v) => `<text x="${frame.left - 4}" y="${(py(frame, v) + 4).toFixed(1)}" text-anchor="end">${v.toPrecision(3)}</text>`)
+  const yTicks = tickLabels(spec.y, sy)
+    .map(({ value, text }) => {
+      const y = sy(value).toFixed(1);
+      // Log axes label only some ticks (d3's format gives the others ""): their lines stay, as minor ticks.
+      const label = text === '' ? '' : `<text class="tick-y${spec.y.log === true ? ' log' : ''}" x="${left - 6}" y="${(Number(y) + 4).toFixed(1)}" text-anchor="end">${escape(text)}</text>`;
+      return `<line class="grid" x1="${left}" x2="${left + plotWidth}" y1="${y}" y2="${y}"/>${label}`;
+    })
     .join('');
+  const belowTop = axisY + 40;
+  const height = belowTop + (spec.belowHeight ?? 0);
+  const clipId = `clip-${spec.label.replace(/[^a-z0-9]+/gi, '-')}`;
   return (
-    `<rect x="${frame.left}" y="10" width="${frame.width - frame.left - 10}" height="${frame.height - frame.bottom - 10}" class="plot-area"/>` +
-    xTicks +
+    `<svg class="plot${spec.className === undefined ? '' : ` ${spec.className}`}" role="img" aria-label="${escape(spec.label)}" viewBox="0 0 ${width} ${height}" ` +
+    `style="max-width:${width}px" preserveAspectRatio="xMinYMin meet">` +
+    `<clipPath id="${clipId}"><rect x="${left}" y="${top}" width="${plotWidth}" height="${plotHeight}"/></clipPath>` +
     yTicks +
-    `<text x="${(frame.left + frame.width) / 2}" y="${frame.height - 4}" text-anchor="middle">${escape(xLabel)}</text>` +
-    `<text x="10" y="${(frame.height - frame.bottom) / 2}" transform="rotate(-90 10 ${(frame.height - frame.bottom) / 2})" text-anchor="middle">${escape(yLabel)}</text>`
+    `<g clip-path="url(#${clipId})">${spec.body(sx, sy, plot)}</g>` +
+    `<rect class="plot-area" x="${left}" y="${top}" width="${plotWidth}" height="${plotHeight}"/>` +
+    xTicks +
+    `<text class="axis-label" x="${(left + plotWidth / 2).toFixed(1)}" y="${axisY + 34}" text-anchor="middle">${escape(spec.x.label)}</text>` +
+    `<text class="axis-label" x="14" y="${top + plotHeight / 2}" transform="rotate(-90 14 ${top + plotHeight / 2})" text-anchor="middle">${escape(spec.y.label)}</text>` +
+    (spec.below === undefined ? '' : spec.below(sx, plot, belowTop)) +
+    `</svg>`
   );
 }
 
-function svg(frame: Frame, body: string, label: string): string {
-  return `<svg class="plot" role="img" aria-label="${escape(label)}" viewBox="0 0 ${frame.width} ${frame.height}" width="${frame.width}" height="${frame.height}">${body}</svg>`;
-}
-
-function scatter(title: string, xs: Float64Array, ys: Float64Array, curve: Array<[number, number]>, xLabel: string, yLabel: string): string {
-  const [x0, x1] = niceRange([...xs, ...curve.map((p) => p[0])]);
-  const [y0, y1] = niceRange([...ys, ...curve.map((p) => p[1])]);
-  // Equal scales on both axes: a circle must look like one.
-  const span = Math.max(x1 - x0, y1 - y0);
+function lissajous(label: string, xs: Float64Array, ys: Float64Array, curve: Array<[number, number]>, xLabel: string, yLabel: string): string {
+  const [x0, x1] = extent(xs, curve.map((p) => p[0]));
+  const [y0, y1] = extent(ys, curve.map((p) => p[1]));
+  // Equal scales on both axes: the same span around each centre, 5 % margin.
+  const half = (Math.max(x1 - x0, y1 - y0) / 2) * 1.05;
   const cx = (x0 + x1) / 2;
   const cy = (y0 + y1) / 2;
-  const frame: Frame = { width: 390, height: 380, left: 66, bottom: 34, x: [cx - span / 2, cx + span / 2], y: [cy - span / 2, cy + span / 2] };
-  const dots = Array.from(xs, (x, k) => `M${px(frame, x).toFixed(1)} ${py(frame, ys[k]!).toFixed(1)}h0.1`).join('');
-  const line = curve.map(([x, y], k) => `${k === 0 ? 'M' : 'L'}${px(frame, x).toFixed(1)} ${py(frame, y).toFixed(1)}`).join('') + 'Z';
-  return svg(frame, axes(frame, xLabel, yLabel) + `<path class="samples" d="${dots}"/><path class="model" d="${line}"/>`, title);
+  return chart({
+    label,
+    width: 420,
+    plotHeight: 320,
+    square: true,
+    x: { label: xLabel, domain: [cx - half, cx + half], nice: false, ticks: 5 },
+    y: { label: yLabel, domain: [cy - half, cy + half], nice: false, ticks: 5 },
+    body: (sx, sy) => {
+      const dots = Array.from(xs, (x, k) => `M${sx(x).toFixed(1)} ${sy(ys[k]!).toFixed(1)}h0.1`).join('');
+      const line = curve.map(([x, y], k) => `${k === 0 ? 'M' : 'L'}${sx(x).toFixed(1)} ${sy(y).toFixed(1)}`).join('') + 'Z';
+      return `<path class="samples" d="${dots}"/><path class="model" d="${line}"/>`;
+    },
+  });
 }
 
 function ellipseCurve(c: EllipseCalibration): Array<[number, number]> {
@@ -165,40 +312,41 @@ function ellipseCurve(c: EllipseCalibration): Array<[number, number]> {
 
 const unitCircle = Array.from({ length: 121 }, (_, k) => [Math.cos((k / 120) * 2 * Math.PI), Math.sin((k / 120) * 2 * Math.PI)] as [number, number]);
 
+const measured = (result: PeriodicErrorResult) => result.summary.samples > 0;
+
 function periodicPlot(before: PeriodicErrorResult, after: PeriodicErrorResult): string {
   const bins = before.binnedM.length;
   const centre = (b: number) => ((b + 0.5) / bins) * 360;
   const toNm = (values: Float64Array) => {
     const finite = Array.from(values).filter(Number.isFinite);
     const mean = finite.reduce((a, b) => a + b, 0) / Math.max(1, finite.length);
-    return Array.from(values, (v) => (v - mean) * 1e9);
+    return Float64Array.from(values, (v) => (v - mean) * 1e9);
   };
-  const b = toNm(before.binnedM);
-  const a = toNm(after.binnedM);
-  const frame: Frame = { width: 560, height: 300, left: 60, bottom: 34, x: [0, 360], y: niceRange([...b, ...a]) };
-  const path = (values: number[]) =>
-    values
-      .map((v, k) => (Number.isFinite(v) ? `${k === 0 || !Number.isFinite(values[k - 1]!) ? 'M' : 'L'}${px(frame, centre(k)).toFixed(1)} ${py(frame, v).toFixed(1)}` : ''))
-      .join('');
-  return svg(
-    frame,
-    axes(frame, 'fringe phase (degrees)', 'periodic error (nm)') +
-      `<path class="before" d="${path(b)}"/><path class="after" d="${path(a)}"/>` +
-      `<text x="${frame.width - 150}" y="28" class="before-label">before correction</text>` +
-      `<text x="${frame.width - 150}" y="44" class="after-label">after correction</text>`,
-    'periodic error against phase',
-  );
+  const b = measured(before) ? toNm(before.binnedM) : new Float64Array(0);
+  const a = measured(after) ? toNm(after.binnedM) : new Float64Array(0);
+  return chart({
+    label: 'periodic error against phase',
+    width: 640,
+    plotHeight: 240,
+    x: { label: 'fringe phase (degrees)', domain: [0, 360], nice: false, values: [0, 45, 90, 135, 180, 225, 270, 315, 360] },
+    y: { label: 'periodic error (nm)', domain: extent(b, a) },
+    body: (sx, sy) => {
+      const path = (values: Float64Array) =>
+        Array.from(values, (v, k) => (Number.isFinite(v) ? `${k === 0 || !Number.isFinite(values[k - 1]!) ? 'M' : 'L'}${sx(centre(k)).toFixed(1)} ${sy(v).toFixed(1)}` : '')).join('');
+      return (b.length > 0 ? `<path class="before" d="${path(b)}"/>` : '') + (a.length > 0 ? `<path class="after" d="${path(a)}"/>` : '');
+    },
+  });
 }
 
-/** Span colours, shared by the SVG fills and the legend. */
+/** Okabe–Ito colours (see the head of this file), one per alarm; black for the gravest, a lost count. */
 const ALARM_COLOUR: Record<AlarmKind, string> = {
-  lowSignal: '#ecc94b66',
-  saturation: '#ed893666',
-  badSample: '#80808066',
-  overspeed: '#9f7aea66',
-  inputGap: '#4a556866',
-  countLost: '#e53e3e55',
-  lowPower: '#3182ce55',
+  lowSignal: '#E69F00', // orange
+  saturation: '#D55E00', // vermillion
+  badSample: '#CC79A7', // reddish purple
+  overspeed: '#0072B2', // blue
+  inputGap: '#009E73', // bluish green
+  countLost: '#000000', // black
+  lowPower: '#56B4E9', // sky blue
 };
 
 const ALARM_CLASS: Record<AlarmKind, string> = {
@@ -211,45 +359,127 @@ const ALARM_CLASS: Record<AlarmKind, string> = {
   lowPower: 'span-power',
 };
 
-function timePlot(series: Envelope, scale: number, yLabel: string, run: RunResult, label: string): string {
-  const endS = series.t.length > 0 ? series.t[series.t.length - 1]! : 1;
-  const times = Array.from(series.t);
-  const frame: Frame = {
-    width: 760,
-    height: 260,
-    left: 70,
-    bottom: 34,
-    x: [0, Math.max(endS, 1e-9)],
-    y: niceRange([...Array.from(series.min, (v) => v * scale), ...Array.from(series.max, (v) => v * scale)]),
-  };
-  const spans = run.alarmSpans
-    .map((span) => {
-      const start = px(frame, span.startS);
-      const end = px(frame, Number.isNaN(span.endS) ? endS : span.endS);
-      return `<rect class="${ALARM_CLASS[span.kind]}" x="${start.toFixed(1)}" y="10" width="${Math.max(1, end - start).toFixed(1)}" height="${frame.height - frame.bottom - 10}"><title>${alarmNames[span.kind]}</title></rect>`;
-    })
-    .join('');
-  const upper = times.map((t, k) => `${k === 0 ? 'M' : 'L'}${px(frame, t).toFixed(1)} ${py(frame, series.max[k]! * scale).toFixed(1)}`).join('');
-  const lower = times
-    .map((t, k) => `L${px(frame, t).toFixed(1)} ${py(frame, series.min[k]! * scale).toFixed(1)}`)
-    .reverse()
-    .join('');
-  return svg(frame, axes(frame, 'time (s)', yLabel) + spans + `<path class="trace" d="${upper}${lower}Z"/>`, label);
+const LANE_PX = 18;
+
+/**
+ * The series re-binned to one min/max pair per pixel column of the plot: a long capture draws as the band its
+ * values covered in each column, never as overlapping strokes.
+ */
+function columnEnvelope(series: Envelope, scale: number, sx: Scale, left: number, columns: number) {
+  const low = new Float64Array(columns).fill(Infinity);
+  const high = new Float64Array(columns).fill(-Infinity);
+  for (let k = 0; k < series.t.length; k++) {
+    const column = Math.min(columns - 1, Math.max(0, Math.floor(sx(series.t[k]!) - left)));
+    const a = series.min[k]! * scale;
+    const b = series.max[k]! * scale;
+    if (a < low[column]!) low[column] = a;
+    if (b > high[column]!) high[column] = b;
+  }
+  return { low, high };
 }
 
+function timePlot(series: Envelope, scale: number, yLabel: string, run: RunResult, label: string, endS: number): string {
+  const kinds = alarmKinds.filter((kind) => run.alarmCounts[kind] > 0);
+  return chart({
+    className: 'time',
+    label,
+    width: 900,
+    plotHeight: 220,
+    x: { label: 'time (s)', domain: [0, Math.max(endS, 1e-9)] },
+    y: { label: yLabel, domain: extent(Float64Array.from(series.min, (v) => v * scale), Float64Array.from(series.max, (v) => v * scale)) },
+    body: (sx, sy, plot) => {
+      const columns = Math.max(1, Math.round(plot.width));
+      const { low, high } = columnEnvelope(series, scale, sx, plot.left, columns);
+      let upper = '';
+      let lower = '';
+      for (let c = 0; c < columns; c++) {
+        if (!(high[c]! >= low[c]!)) continue;
+        const x = (plot.left + c + 0.5).toFixed(1);
+        // At least one pixel tall, so a flat stretch still shows.
+        const top = sy(high[c]!);
+        const bottom = Math.max(sy(low[c]!), top + 1);
+        upper += `${upper === '' ? 'M' : 'L'}${x} ${top.toFixed(1)}`;
+        lower = `L${x} ${bottom.toFixed(1)}` + lower;
+      }
+      return upper === '' ? '' : `<path class="trace" d="${upper}${lower}Z"/>`;
+    },
+    marginLabels: kinds.map((kind) => alarmNames[kind]),
+    belowHeight: kinds.length * LANE_PX + (kinds.length > 0 ? 6 : 0),
+    below: (sx, plot, y0) =>
+      kinds
+        .map((kind, lane) => {
+          const y = y0 + lane * LANE_PX;
+          const spans = run.alarmSpans
+            .filter((span) => span.kind === kind)
+            .map((span) => {
+              const start = sx(span.startS);
+              const end = sx(Number.isNaN(span.endS) ? endS : span.endS);
+              return `<rect class="${ALARM_CLASS[kind]}" x="${start.toFixed(1)}" y="${y + 2}" width="${Math.max(1.5, end - start).toFixed(1)}" height="${LANE_PX - 4}"><title>${alarmNames[kind]} ${sig(span.startS)}–${Number.isNaN(span.endS) ? 'end' : sig(span.endS)} s</title></rect>`;
+            })
+            .join('');
+          return (
+            `<rect class="lane" x="${plot.left}" y="${y + 1}" width="${plot.width}" height="${LANE_PX - 2}"/>` +
+            spans +
+            `<text class="lane-label" x="${plot.left - 6}" y="${y + LANE_PX / 2 + 4}" text-anchor="end">${alarmNames[kind]}</text>`
+          );
+        })
+        .join(''),
+  });
+}
+
+function spectrumPlot(spectrum: PositionSpectrum): string {
+  const f: number[] = [];
+  const a: number[] = [];
+  for (let k = 1; k < spectrum.frequencyHz.length; k++) {
+    const value = spectrum.asd[k]! * 1e9;
+    if (value > 0 && Number.isFinite(value)) {
+      f.push(spectrum.frequencyHz[k]!);
+      a.push(value);
+    }
+  }
+  const [a0, a1] = extent(a);
+  const [f0, f1] = extent(f);
+  const decade = (value: number, up: boolean) => 10 ** (up ? Math.ceil(Math.log10(value)) : Math.floor(Math.log10(value)));
+  return chart({
+    label: 'amplitude spectral density of position',
+    width: 640,
+    plotHeight: 260,
+    x: { label: 'frequency (Hz)', domain: [f0, f1], log: true },
+    y: { label: 'ASD (nm/√Hz)', domain: [decade(a0, false), decade(a1, true)], log: true },
+    body: (sx, sy) => `<path class="asd" d="${f.map((x, k) => `${k === 0 ? 'M' : 'L'}${sx(x).toFixed(1)} ${sy(a[k]!).toFixed(1)}`).join('')}"/>`,
+  });
+}
+
+/** Arguments quoted for a POSIX shell where needed, so the line can be pasted back. */
+function shellLine(args: readonly string[]): string {
+  return args.map((arg) => (/^[\w@%+=:,./-]+$/.test(arg) ? arg : `'${arg.replace(/'/g, `'\\''`)}'`)).join(' ');
+}
+
+/** ISO 8601 in UTC, 24-hour: 2026-12-02 13:20:05 UTC. */
+const isoUtc = (date: Date) => `${date.toISOString().slice(0, 19).replace('T', ' ')} UTC`;
+
 export function reportHtml(input: ReportInput): string {
-  const { run, calibration, fit, settings: scale } = input;
+  const { run, calibration, fit, settings: scale, provenance } = input;
+  const date = input.date ?? new Date();
+  const header: Array<[string, string]> = [
+    ['date', isoUtc(date)],
+    ['tool', `fringetally ${toolVersion()}`],
+    ['command line', shellLine(provenance.commandLine)],
+    ['capture', `${run.info.file}`],
+    ['capture SHA-256', provenance.inputHash],
+    ['calibration', provenance.calibrationSource],
+  ];
   const rows: Array<[string, string]> = [
-    ['capture', `${run.info.file} (${run.info.format}, ${run.samples} samples at ${run.info.rateHz} Hz, ${run.info.sampleEncoding})`],
-    ['vacuum wavelength', `${(scale.wavelengthM * 1e9).toFixed(4)} nm`],
-    ['fold', String(scale.fold)],
-    ['refractive index', `${scale.refractiveIndex}${input.notes.some((n) => n.includes('n = 1')) ? ' (default: vacuum wavelength used)' : ''}`],
-    ['offsetX, offsetY', `${calibration.offsetX.toFixed(3)}, ${calibration.offsetY.toFixed(3)}`],
-    ['amplitudeX, amplitudeY', `${calibration.amplitudeX.toFixed(3)}, ${calibration.amplitudeY.toFixed(3)}`],
-    ['phaseErrorRad', calibration.phaseErrorRad.toFixed(6)],
+    ['capture format', `${run.info.format}, ${run.samples} samples at ${sig(run.info.rateHz, 6)} Hz, ${run.info.sampleEncoding}`],
+    ['vacuum wavelength', `${sig(scale.wavelengthM * 1e9, 8)} nm`],
+    ['fold', sig(scale.fold)],
+    ['refractive index', `${scale.refractiveIndex.toFixed(9)}${input.notes.some((n) => n.includes('n = 1')) ? ' (default: vacuum wavelength used)' : ''}`],
+    ['offsetX, offsetY', `${sig(calibration.offsetX, 6)}, ${sig(calibration.offsetY, 6)}`],
+    ['amplitudeX, amplitudeY', `${sig(calibration.amplitudeX, 6)}, ${sig(calibration.amplitudeY, 6)}`],
+    ['phase error', `${sig(calibration.phaseErrorRad, 4)} rad`],
   ];
   if (fit !== null && fit.ok) {
-    rows.push(['fit residual', `${(fit.residualRms * 100).toFixed(3)} % of the radius`]);
+    rows.push(['fit residual', `${sig(fit.residualRms * 100, 3)} % of the radius`]);
     rows.push(['phase coverage', `${fit.coverage.toFixed(3)} of a fringe`]);
   }
   const pe = (label: string, r: PeriodicErrorResult) => {
@@ -263,48 +493,69 @@ export function reportHtml(input: ReportInput): string {
         : `p-p ${nm(s.peakToPeakRad * run.metresPerRad)} nm, RMS ${nm(s.rmsRad * run.metresPerRad)} nm, 1st ${nm(s.firstHarmonicRad * run.metresPerRad)} nm, 2nd ${nm(s.secondHarmonicRad * run.metresPerRad)} nm`,
     ]);
   };
-  pe('before', run.before);
-  pe('after', run.after);
+  pe('before correction', run.before);
+  pe('after correction', run.after);
   rows.push(['final position', `${(run.finalPositionM * 1e6).toFixed(6)} µm${run.countLostAtEnd ? ' — COUNT LOST: not trustworthy' : ''}`]);
-  rows.push(['unambiguous speed limit', `${run.speedLimits.unambiguousMS.toPrecision(4)} m/s (overspeed alarm at ${run.speedLimits.overspeedMS.toPrecision(4)} m/s)`]);
+  rows.push(['unambiguous speed limit', `${sig(run.speedLimits.unambiguousMS)} m/s (overspeed alarm at ${sig(run.speedLimits.overspeedMS)} m/s)`]);
   rows.push(['alarms raised', alarmKinds.map((kind) => `${alarmNames[kind]} ${run.alarmCounts[kind]}`).join(', ')]);
   if (input.budget !== null) {
-    rows.push([
-      'uncertainty of the final reading',
-      `u = ${nm(input.budget.combinedStandardUncertaintyM)} nm, U = ${nm(input.budget.expandedUncertaintyM)} nm (k = ${input.budget.coverageFactor})`,
-    ]);
+    rows.push(['uncertainty of the final reading', `u = ${nm(input.budget.combinedStandardUncertaintyM)} nm, U = ${nm(input.budget.expandedUncertaintyM)} nm (k = ${input.budget.coverageFactor})`]);
   }
-  const table = rows.map(([k, v]) => `<tr><th>${escape(k)}</th><td>${escape(v)}</td></tr>`).join('');
-  const legend = alarmKinds.map((kind) => `<span class="key ${ALARM_CLASS[kind]}"></span>${alarmNames[kind]}`).join(' ');
+  const truth = input.truth ?? null;
+  if (truth !== null) {
+    const p = truth.periodic;
+    rows.push(['truth file', `${truth.file} (${truth.samples} samples compared)`]);
+    if (truth.samples > 0) {
+      rows.push(['error against the truth', `max ${nm(truth.maxAbsErrorM)} nm, RMS ${nm(truth.rmsErrorM)} nm`]);
+      rows.push(['trend of the error', `offset ${nm(truth.trend.offsetM)} nm, scale ${sig(truth.trend.scaleError * 1e6, 3)} ppm`]);
+      rows.push(['periodic error against the truth', `p-p ${nm(p.peakToPeakM)} nm, 1st ${nm(p.firstHarmonicM)} nm, 2nd ${nm(p.secondHarmonicM)} nm (trend removed)`]);
+    }
+  }
+  const table = (entries: Array<[string, string]>, className: string) =>
+    `<table class="${className}">${entries.map(([k, v]) => `<tr><th>${escape(k)}</th><td>${escape(v)}</td></tr>`).join('')}</table>`;
+  const endS = run.samples / run.info.rateHz;
+  const legend = (entries: Array<[string, string]>) => `<p class="legend">${entries.map(([cls, text]) => `<span class="key ${cls}"></span>${escape(text)}`).join(' ')}</p>`;
+  const spectrum = input.spectrum ?? null;
   return `<!doctype html>
-<html lang="en"><head><meta charset="utf-8"><title>${escape(input.title)}</title>
+<html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1"><title>${escape(input.title)}</title>
 <style>
-body { font: 14px/1.4 system-ui, sans-serif; margin: 24px; color: #1c1c1c; background: #fafafa; }
+body { font: 14px/1.4 system-ui, sans-serif; margin: 16px; color: #1c1c1c; background: #fafafa; max-width: 940px; }
 h1 { font-size: 20px; } h2 { font-size: 16px; margin-top: 28px; }
-table { border-collapse: collapse; } th, td { text-align: left; padding: 3px 12px 3px 0; vertical-align: top; } th { font-weight: 600; }
-.plot { background: #fff; margin: 6px 12px 6px 0; } .plot text { font-size: 11px; fill: #333; }
-.plot-area { fill: none; stroke: #999; }
-.samples { stroke: #2b6cb0; stroke-width: 3; stroke-linecap: round; } .model { fill: none; stroke: #c05621; stroke-width: 1; stroke-dasharray: 4 3; }
-.before { fill: none; stroke: #c05621; stroke-width: 2; } .after { fill: none; stroke: #2f855a; stroke-width: 2; }
-.before-label { fill: #c05621 !important; } .after-label { fill: #2f855a !important; }
-.trace { fill: #2b6cb0; stroke: #2b6cb0; stroke-width: 1; }
-${alarmKinds.map((kind) => `.${ALARM_CLASS[kind]} { fill: ${ALARM_COLOUR[kind]}; background: ${ALARM_COLOUR[kind]}; }`).join(' ')}
-.key { display: inline-block; width: 12px; height: 12px; margin: 0 4px 0 10px; vertical-align: middle; }
-.caution { border-left: 4px solid #c05621; padding: 6px 12px; background: #fff; max-width: 760px; }
+table { border-collapse: collapse; } th, td { text-align: left; padding: 3px 12px 3px 0; vertical-align: top; } th { font-weight: 600; white-space: nowrap; }
+td { overflow-wrap: anywhere; }
+.header { background: #fff; border: 1px solid #ddd; padding: 6px 10px; display: block; }
+.header td { font-family: ui-monospace, monospace; font-size: 13px; }
+.plot { display: block; width: 100%; height: auto; background: #fff; margin: 6px 0; overflow: visible; }
+.figures { display: flex; flex-wrap: wrap; gap: 12px; } .figures .plot { width: 420px; max-width: 100%; flex: 0 1 420px; }
+.plot text { font-size: ${FONT_PX}px; fill: #333; } .plot .axis-label { font-size: 13px; }
+.plot-area { fill: none; stroke: #999; } .grid { stroke: #eee; } .tick { stroke: #999; }
+.samples { stroke: #0072B2; stroke-width: 3; stroke-linecap: round; } .model { fill: none; stroke: #D55E00; stroke-width: 1.2; stroke-dasharray: 4 3; }
+.before { fill: none; stroke: #D55E00; stroke-width: 2; } .after { fill: none; stroke: #009E73; stroke-width: 2; }
+.trace { fill: #0072B2; stroke: #0072B2; stroke-width: 0.6; stroke-linejoin: round; } .asd { fill: none; stroke: #0072B2; stroke-width: 1.2; }
+.lane { fill: #f2f2f2; } .lane-label { font-size: 11px !important; }
+${alarmKinds.map((kind) => `.${ALARM_CLASS[kind]} { fill: ${ALARM_COLOUR[kind]}; background: ${ALARM_COLOUR[kind]}; }`).join('\n')}
+.key { display: inline-block; width: 14px; height: 10px; margin: 0 4px 0 12px; vertical-align: middle; }
+.key.before { background: #D55E00; } .key.after { background: #009E73; } .key.samples { background: #0072B2; } .key.model { background: #D55E00; height: 2px; }
+.caution { border-left: 4px solid #D55E00; padding: 6px 12px; background: #fff; }
 </style></head><body>
 <h1>${escape(input.title)}</h1>
-<table>${table}</table>
+${table(header, 'header')}
+<h2>Results</h2>
+${table(rows, 'results')}
 ${input.notes.length > 0 ? `<p>${input.notes.map(escape).join('<br>')}</p>` : ''}
 ${input.budget === null ? '<p>No environment given: no uncertainty budget (the reading uses the vacuum wavelength; in air it reads about 270 ppm long).</p>' : budgetTable(input.budget)}
-<h2>Lissajous figure</h2>
-<div>${scatter('Lissajous figure before correction', run.report.raw.x, run.report.raw.y, ellipseCurve(calibration), 'x (capture units)', 'y (capture units)')}${scatter('Lissajous figure after correction', run.report.corrected.x, run.report.corrected.y, unitCircle, 'u = cos φ', 'v = sin φ')}</div>
-<p>Left: raw samples with the fitted ellipse. Right: corrected samples with the unit circle.</p>
+<h2>Lissajous figures</h2>
+${legend([['samples', 'samples'], ['model', 'fitted ellipse (left), unit circle (right)']])}
+<div class="figures">${lissajous('Lissajous figure before correction', run.report.raw.x, run.report.raw.y, ellipseCurve(calibration), 'x (capture units)', 'y (capture units)')}${lissajous('Lissajous figure after correction', run.report.corrected.x, run.report.corrected.y, unitCircle, 'u = cos φ', 'v = sin φ')}</div>
 <h2>Periodic error against phase</h2>
-${periodicPlot(run.before, run.after)}
+${measured(run.before) || measured(run.after) ? legend([...(measured(run.before) ? [['before', 'before correction'] as [string, string]] : []), ...(measured(run.after) ? [['after', 'after correction'] as [string, string]] : [['', 'after correction: not measured (no steady motion)'] as [string, string]])]) + periodicPlot(run.before, run.after) : '<p>Not measured: no steady motion in the capture.</p>'}
 <h2>Position and velocity</h2>
-<p>Shaded spans: ${legend}</p>
-${timePlot(run.report.position, 1e6, 'position (µm)', run, 'position against time')}
-${timePlot(run.report.velocity, 1e3, 'velocity (mm/s)', run, 'velocity against time')}
+<p>Each pixel column shows the range of values in its time slice. Alarm lanes below each plot mark when an alarm was active (hover a span for its times).</p>
+${timePlot(run.report.position, 1e6, 'position (µm)', run, 'position against time', endS)}
+${timePlot(run.report.velocity, 1e3, 'velocity (mm/s)', run, 'velocity against time', endS)}
+${spectrum === null ? '' : `<h2>Amplitude spectral density of position</h2>
+<p>Welch's averaged periodogram (P. D. Welch, IEEE Trans. Audio Electroacoust. 15(2), 70–73, 1967): ${spectrum.segments} Hann-windowed segments of ${spectrum.segmentSamples} samples, 50 % overlap, linear trend removed per segment; resolution ${sig(spectrum.binWidthHz, 3)} Hz.</p>
+${spectrumPlot(spectrum)}`}
 <p class="caution">${escape(LASER_CAUTION).replace(/\n/g, '<br>')}</p>
 </body></html>
 `;
@@ -315,8 +566,8 @@ function budgetTable(budget: UncertaintyBudget): string {
   const rows = budget.contributions
     .map(
       (row) =>
-        `<tr><td>${escape(row.name)}</td><td>${row.standardUncertainty.toPrecision(3)} ${escape(row.unit)}</td>` +
-        `<td>${row.sensitivity.toPrecision(3)} ${escape(row.sensitivityUnit)}</td><td>${nm(row.contributionM)}</td></tr>`,
+        `<tr><td>${escape(row.name)}</td><td>${sig(row.standardUncertainty, 3)} ${escape(row.unit)}</td>` +
+        `<td>${sig(row.sensitivity, 3)} ${escape(row.sensitivityUnit)}</td><td>${nm(row.contributionM)}</td></tr>`,
     )
     .join('');
   return `<h2>Uncertainty budget of the final reading (GUM, inputs uncorrelated)</h2>
@@ -326,7 +577,5 @@ function budgetTable(budget: UncertaintyBudget): string {
 }
 
 export async function writeReportFile(path: string, input: ReportInput): Promise<void> {
-  const temporary = `${path}.partial-${process.pid}`;
-  await writeFile(temporary, reportHtml(input));
-  await rename(temporary, path);
+  await writeFileAtomically(path, reportHtml(input));
 }

@@ -12,6 +12,7 @@ export * from './synthesis.js';
 export * from './metrology/index.js';
 export * from './motion.js';
 export * from './periodic-error.js';
+export * from './truth-error.js';
 export * from './spectrum.js';
 export * from './allan.js';
 export * from './fit/channel-fit.js';

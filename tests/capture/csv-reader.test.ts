@@ -168,9 +168,31 @@ describe('CSV capture errors', () => {
     const path = csv('endless.csv', `x,y\n1,2\n${'1'.repeat(70_000)}`);
     const { error, delivered } = await failure(path, { rateHz: 1, readChunkBytes: 4096 });
     expect(error.line).toBe(3);
-    expect(error.expected).toBe('a line of at most 65536 bytes ending in a newline');
+    expect(error.expected).toBe('a line of at most 65536 bytes (line ending not counted)');
     expect(delivered).toBe(1);
     await expect(openCapture(csv('endless-header.csv', 'x'.repeat(70_000)), { rateHz: 1 })).rejects.toThrow(/line 1: expected a line of at most 65536 bytes/);
+  });
+
+  it('enforces the 65 536-byte line limit exactly, whatever the read chunk size', async () => {
+    // A third column holds filler text (other columns are only counted), so a valid row can have any length.
+    const row = (bytes: number) => `1,2,${'a'.repeat(bytes - 4)}`;
+    for (const ending of ['\n', '\r\n']) {
+      const fits = csv('fits.csv', `x,y,note${ending}${row(65_536)}${ending}3,4,b${ending}`);
+      const over = csv('over.csv', `x,y,note${ending}1,2,c${ending}${row(65_537)}${ending}3,4,b${ending}`);
+      for (const readChunkBytes of [997, 4096, 65_535, 65_536, 65_537, 262_144]) {
+        const good = await collect(fits, { rateHz: 1, readChunkBytes });
+        expect(good.error).toBeNull();
+        expect(good.x).toEqual([1, 3]);
+        const bad = await collect(over, { rateHz: 1, readChunkBytes });
+        expect(bad.error).toBeInstanceOf(CaptureFormatError);
+        expect((bad.error as CaptureFormatError).line).toBe(3);
+        expect(bad.x).toEqual([1]);
+      }
+    }
+    // The header obeys the same limit.
+    const header = `x,y,${'n'.repeat(65_532)}`;
+    expect((await collect(csv('long-header.csv', `${header}\n1,2,3\n`), { rateHz: 1, readChunkBytes: 1000 })).error).toBeNull();
+    await expect(openCapture(csv('too-long-header.csv', `${header}m\n1,2,3\n`), { rateHz: 1, readChunkBytes: 1000 })).rejects.toThrow(/line 1: expected a line of at most 65536 bytes/);
   });
 
   it('rejects invalid options, naming option, rule and value', async () => {

@@ -26,6 +26,23 @@ const PCM16_FRAMES = [0x00, 0x00, 0x00, 0x00, 0x24, 0x17, 0x1e, 0xf3, 0x3c, 0x13
 const PCM16_X = [0, 5924, 4924, -1770];
 const PCM16_Y = [0, -3298, 5180, -1768];
 
+describe('WAV chunk sizes that disagree with the file', () => {
+  it('warns with the bytes ignored when the data chunk declares less than the file holds', async () => {
+    // A data chunk whose size says 4 of its 16 sample bytes (one frame), as an interrupted writer leaves it.
+    const bytes = riff([chunk('fmt ', fmtBody(1, 2, 1000, 16)), [...ascii('data'), ...u32(4), ...PCM16_FRAMES]]);
+    const got = await collect(wavFile('short-data.wav', bytes), {});
+    expect(got.error).toBeNull();
+    expect(got.x).toEqual([0]);
+    expect(got.info.warnings).toHaveLength(1);
+    expect(got.info.warnings[0]).toMatch(/declares 4 bytes, but 12 bytes after the chunks .* are ignored/);
+  });
+
+  it('is silent for a well-formed file, also with a LIST chunk after the samples', async () => {
+    const after = riff([chunk('fmt ', fmtBody(1, 2, 1000, 16)), chunk('data', PCM16_FRAMES), chunk('LIST', [...ascii('INFO')])]);
+    expect((await collect(wavFile('list-after.wav', after), {})).info.warnings).toEqual([]);
+  });
+});
+
 describe('WAV capture reader', () => {
   it('reads a canonical 16-bit PCM stereo file as ADC counts, with rate and size from the header', async () => {
     const bytes = riff([chunk('fmt ', fmtBody(1, 2, 22050, 16)), chunk('data', PCM16_FRAMES)]);

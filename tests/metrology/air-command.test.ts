@@ -78,7 +78,7 @@ describe('fringetally air', () => {
     expect(Math.abs((JSON.parse(warned.stdout) as { n: number }).n - 1.0002339748542823)).toBeLessThan(1e-12);
     const strict = fringetally(...args, '--strict');
     expect(strict.status).toBe(2);
-    expect(strict.stderr).toMatch(/--temperature-c: temperatureC must be in \[0, 40\] °C/);
+    expect(strict.stderr).toMatch(/--temperature-c must be in \[0, 40\] °C, the stated validity range .* \(got 60 °C\)/);
     expect(strict.stdout).toBe('');
   });
 
@@ -87,9 +87,9 @@ describe('fringetally air', () => {
     [[...standardArgs, '--dew-point-c', '5'], /give the humidity only once \(got --humidity-pct and --dew-point-c\)/],
     [['--pressure-pa', '101325', '--humidity-pct', '50', '--wavelength-nm', '633'], /--temperature-c is required/],
     [[...standardArgs, '--equation', 'ideal'], /--equation must be one of ciddor, edlen, shopfloor \(got "ideal"\)/],
-    [['--temperature-c', '20', '--pressure-pa', '101325', '--humidity-pct', '120', '--wavelength-nm', '633'], /--humidity-pct: relativeHumidityPct must be a number in \[0, 100\]/],
-    [['--temperature-c', 'warm', '--pressure-pa', '101325', '--humidity-pct', '50', '--wavelength-nm', '633'], /--temperature-c must be a finite number \(got "warm"\)/],
-    [[...standardArgs, '--equation', 'shopfloor', '--wavelength-nm', '532'], /--wavelength-nm: .*only for He-Ne 633 nm/],
+    [['--temperature-c', '20', '--pressure-pa', '101325', '--humidity-pct', '120', '--wavelength-nm', '633'], /--humidity-pct takes the relative humidity in percent: 0 to 100 % \(got 120\)/],
+    [['--temperature-c', 'warm', '--pressure-pa', '101325', '--humidity-pct', '50', '--wavelength-nm', '633'], /--temperature-c must be a finite number: the air temperature in degrees Celsius .*\(got "warm"\)/],
+    [[...standardArgs, '--equation', 'shopfloor', '--wavelength-nm', '532'], /--wavelength-nm must be in \[632\.5, 633\.5\] nm for the shop-floor formula, which holds only for He-Ne 633 nm .*\(got 532 nm\)/],
   ])('rejects a wrong command line with exit code 2 (%#)', (args, message) => {
     const run = fringetally('air', ...args);
     expect(run.status).toBe(2);

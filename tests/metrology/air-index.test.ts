@@ -161,6 +161,16 @@ describe('refractiveIndexOfAir: validity ranges', () => {
     expect(result.warnings[0]?.message).toMatch(/outside the stated validity range of the modified Edlén/);
   });
 
+  it('holds Ciddor to the ranges stated for his equations: 80–120 kPa, 300–1690 nm', () => {
+    // Ranges as a public implementation of Ciddor 1996 states them (refractiveindex.info script, third-party doc).
+    const thin = refractiveIndexOfAir({ ...standard, temperatureC: 20, relativeHumidityPct: 50, pressurePa: 70_000, equation: 'ciddor' });
+    expect(thin.warnings.map((warning) => warning.quantity)).toEqual(['pressurePa']);
+    expect(thin.warnings[0]).toMatchObject({ min: 80_000, max: 120_000 });
+    const infrared = refractiveIndexOfAir({ ...standard, temperatureC: 20, relativeHumidityPct: 50, vacuumWavelengthM: 1695e-9, equation: 'ciddor' });
+    expect(infrared.warnings.map((warning) => warning.quantity)).toEqual(['vacuumWavelengthM']);
+    expect(refractiveIndexOfAir({ ...standard, temperatureC: 20, relativeHumidityPct: 50, vacuumWavelengthM: 1550e-9, pressurePa: 85_000, equation: 'ciddor' }).warnings).toEqual([]);
+  });
+
   it('warns for each quantity out of range', () => {
     const result = refractiveIndexOfAir({
       temperatureC: 26,

@@ -62,7 +62,7 @@ describe('materials table', () => {
       expect(['published', 'memory', 'common practice']).toContain(material.tag);
       expect(Math.abs(material.expansionPerK)).toBeLessThan(1e-4);
     }
-    expect(materialByKey('granite')).toMatchObject({ expansionPerK: 7e-6, halfRangePerK: 1e-6, tag: 'memory' });
+    expect(materialByKey('granite')).toMatchObject({ expansionPerK: 7e-6, halfRangePerK: 1e-6, tag: 'common practice' });
     expect(new Set(materials.map((material) => material.key)).size).toBe(materials.length);
   });
 

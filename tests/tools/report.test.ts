@@ -1,6 +1,7 @@
 /// <reference lib="dom" />
 // The HTML report renders in headless Chromium (Debian chromium driven by playwright-core) with its plots drawn.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { createHash } from 'node:crypto';
 import { existsSync, mkdirSync, mkdtempSync, rmSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -26,8 +27,14 @@ afterAll(async () => {
   rmSync(dir, { recursive: true, force: true });
 });
 
+/** A tick step is round when it is 1, 2 or 5 times a power of ten (the rule of d3-scale's ticks). */
+function isRoundStep(step: number): boolean {
+  const mantissa = step / 10 ** Math.floor(Math.log10(step) + 1e-9);
+  return [1, 2, 5, 10].some((round) => Math.abs(mantissa - round) < 1e-6);
+}
+
 describe('report', () => {
-  it('draws the Lissajous figures, the periodic error and the time plots with alarm spans', async () => {
+  it('draws the Lissajous figures, the periodic error and the time plots with labelled alarm lanes', async () => {
     expect((await fringetally(['simulate', '--out', 'cap.wav', '--duration-s', '0.02', '--interrupt', '0.0025:0.0005', '--quiet'], dir)).code).toBe(0);
     const replayed = await fringetally(['replay', 'cap.wav', '--wavelength-nm', '632.9908', '--fold', '2', '--out', 'out.csv', '--report', 'report.html', '--quiet'], dir);
     expect(replayed.code, replayed.stderr).toBe(0);
@@ -38,7 +45,7 @@ describe('report', () => {
     const drawn = await page.evaluate(() => {
       const count = (selector: string) =>
         Array.from(document.querySelectorAll(selector)).map((element) => {
-          const box = (element as SVGGraphicsElement).getBBox();
+          const box = (element as SVGGraphicsElement).getBoundingClientRect();
           return { segments: (element.getAttribute('d') ?? '').split(/[ML]/).length - 1, width: box.width, height: box.height };
         });
       return {
@@ -48,9 +55,10 @@ describe('report', () => {
         after: count('path.after'),
         traces: count('path.trace'),
         spans: document.querySelectorAll('rect.span-low').length,
+        lanes: Array.from(document.querySelectorAll('text.lane-label')).map((label) => label.textContent),
       };
     });
-    expect(drawn.plots).toBe(5);
+    expect(drawn.plots).toBe(6); // and the spectral density of position
     for (const scatter of drawn.samples) {
       expect(scatter.segments).toBeGreaterThan(500);
       expect(scatter.width).toBeGreaterThan(200); // the figure fills its plot
@@ -59,8 +67,67 @@ describe('report', () => {
     expect(drawn.after[0]!.segments).toBeGreaterThan(32);
     for (const trace of drawn.traces) expect(trace.width).toBeGreaterThan(500);
     expect(drawn.spans).toBeGreaterThanOrEqual(2); // the interruption, on both time plots
+    expect(drawn.lanes).toContain('low_signal');
     mkdirSync(ARTIFACTS, { recursive: true });
     await page.screenshot({ path: join(ARTIFACTS, 'report.png'), fullPage: true });
     await page.close();
+  });
+
+  it('has round ticks, a header saying where it came from, and nothing clipped at 700 and 1400 px', async () => {
+    expect((await fringetally(['simulate', '--out', 'long.wav', '--duration-s', '0.2', '--rate-hz', '200000', '--quiet'], dir)).code).toBe(0);
+    expect((await fringetally(['calibrate', 'long.wav', '--out', 'long-cal.json', '--quiet'], dir)).code).toBe(0);
+    const args = ['replay', 'long.wav', '--wavelength-nm', '632.9908', '--fold', '2', '--calibration', 'long-cal.json', '--out', 'long.csv', '--every', '100', '--report', 'long.html', '--quiet'];
+    expect((await fringetally(args, dir)).code).toBe(0);
+    const captureHash = createHash('sha256').update(readFileSync(join(dir, 'long.wav'))).digest('hex');
+    const calibrationHash = createHash('sha256').update(readFileSync(join(dir, 'long-cal.json'))).digest('hex');
+    const version = (JSON.parse(readFileSync(fileURLToPath(new URL('../../package.json', import.meta.url)), 'utf8')) as { version: string }).version;
+    for (const width of [700, 1400]) {
+      const page = await browser.newPage({ viewport: { width, height: 1000 } });
+      await page.goto(pathToFileURL(join(dir, 'long.html')).href);
+      const seen = await page.evaluate(() => {
+        const header = Object.fromEntries(Array.from(document.querySelectorAll('table.header tr')).map((row) => [row.querySelector('th')!.textContent, row.querySelector('td')!.textContent]));
+        const plots = Array.from(document.querySelectorAll('svg.plot')).map((svg) => {
+          const frame = svg.getBoundingClientRect();
+          const outside = Array.from(svg.querySelectorAll('text'))
+            .filter((text) => {
+              const box = text.getBoundingClientRect();
+              return box.left < frame.left - 0.5 || box.right > frame.right + 0.5 || box.top < frame.top - 0.5 || box.bottom > frame.bottom + 0.5;
+            })
+            .map((text) => text.textContent);
+          const ticks = (cls: string) => Array.from(svg.querySelectorAll(`text.${cls}`)).map((text) => Number(text.textContent!.replace(/\u2212/g, '-').replace(/,/g, '')));
+          const log = (cls: string) => svg.querySelector(`text.${cls}.log`) !== null;
+          return { label: svg.getAttribute('aria-label'), outside, x: ticks('tick-x'), y: ticks('tick-y'), xLog: log('tick-x'), yLog: log('tick-y'), right: frame.right };
+        });
+        return { header, plots, scrollWidth: document.documentElement.scrollWidth, viewport: window.innerWidth };
+      });
+      expect(seen.scrollWidth, `no horizontal scrolling at ${width} px`).toBeLessThanOrEqual(seen.viewport);
+      expect(seen.header.date).toMatch(/^\d{4}-\d{2}-\d{2} \d{2}:\d{2}:\d{2} UTC$/); // ISO 8601, 24-hour
+      expect(seen.header.tool).toBe(`fringetally ${version}`);
+      expect(seen.header['command line']).toBe(`fringetally ${args.slice(0).join(' ')}`);
+      expect(seen.header['capture SHA-256']).toBe(captureHash);
+      expect(seen.header.calibration).toBe(`long-cal.json (sha256 ${calibrationHash})`);
+      expect(seen.plots.map((plot) => plot.label)).toContain('amplitude spectral density of position');
+      for (const plot of seen.plots) {
+        expect(plot.outside, `${plot.label} at ${width} px`).toEqual([]);
+        expect(plot.right).toBeLessThanOrEqual(seen.viewport);
+        for (const [axis, log] of [[plot.x, plot.xLog], [plot.y, plot.yLog]] as const) {
+          expect(axis.every(Number.isFinite), `${plot.label}: ${axis.join(' ')}`).toBe(true);
+          if (log) {
+            // Logarithmic axes: labels at 1, 2 or 5 × 10^k only.
+            expect(axis.length, `${plot.label}`).toBeGreaterThanOrEqual(2);
+            for (const value of axis) expect(isRoundStep(value), `${plot.label}: ${axis.join(' ')}`).toBe(true);
+            continue;
+          }
+          expect(axis.length, `${plot.label}`).toBeGreaterThanOrEqual(3);
+          const steps = axis.slice(1).map((value, k) => value - axis[k]!);
+          for (const step of steps) expect(Math.abs(step - steps[0]!)).toBeLessThan(1e-9 * Math.abs(steps[0]!) + 1e-12); // evenly spaced
+          // Degrees of fringe phase step by 45°; everything else by 1, 2 or 5 × 10^k.
+          if (plot.label === 'periodic error against phase' && axis === plot.x) expect(steps[0]).toBe(45);
+          else expect(isRoundStep(Math.abs(steps[0]!)), `${plot.label}: ${axis.join(' ')}`).toBe(true);
+        }
+      }
+      await page.screenshot({ path: join(ARTIFACTS, `report-${width}.png`), fullPage: true });
+      await page.close();
+    }
   });
 });

@@ -28,7 +28,7 @@ describe('round trip', () => {
     expect(simulated.code).toBe(0);
     const calibrated = await fringetally(['calibrate', 'clean.csv', '--out', 'clean-cal.json', ...common], dir);
     expect(calibrated.code, calibrated.stderr).toBe(0);
-    expect(calibrated.stdout).toMatch(/phase coverage 1\.000/);
+    expect(calibrated.stderr).toMatch(/phase coverage 1\.000/);
     const replayed = await fringetally(['replay', 'clean.csv', ...common, '--calibration', 'clean-cal.json', '--out', 'clean.csv.out.csv'], dir);
     expect(replayed.code, replayed.stderr).toBe(0);
     const errors = positionErrors('clean.csv.out.csv', 'clean.truth.csv');

@@ -1,6 +1,5 @@
 // `fringetally air`: refractive index of air and wavelength in air from the environment (Ciddor 1996, modified
 // Edlén, or the NIST shop-floor formula), with the equation's validity warnings.
-import { OptionError } from '../../src/core/options.js';
 import {
   airIndexEquationNames,
   airIndexEquations,
@@ -8,7 +7,8 @@ import {
   type AirIndexEquation,
   type AirIndexOptions,
 } from '../../src/core/metrology/index.js';
-import { numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
+import { inUserTerms, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
+import { AIR_FLAGS } from '../environment-options.js';
 
 const help = `Usage: fringetally air --temperature-c T --pressure-pa P (--humidity-pct RH | --dew-point-c TD | --vapour-pressure-pa PV)
                        --wavelength-nm L [--co2-ppm C] [--equation ciddor|edlen|shopfloor] [--strict] [--json]
@@ -32,18 +32,6 @@ Options:
 
 Saturation vapour pressure: IAPWS-IF97 over water, IAPWS sublimation equation over ice below 0 °C.
 Exit codes: 0 done (warnings may have been printed), 2 wrong or out-of-range input.`;
-
-/** Core option names as the user typed them, so errors point at the flag to fix. */
-const FLAG_OF_OPTION: Readonly<Record<string, string>> = {
-  temperatureC: '--temperature-c',
-  pressurePa: '--pressure-pa',
-  relativeHumidityPct: '--humidity-pct',
-  dewPointC: '--dew-point-c',
-  vapourPressurePa: '--vapour-pressure-pa',
-  co2Ppm: '--co2-ppm',
-  vacuumWavelengthM: '--wavelength-nm',
-  equation: '--equation',
-};
 
 function required(name: string, text: string | undefined): number {
   const value = numberOption(name, text);
@@ -104,11 +92,7 @@ async function run(argv: readonly string[]): Promise<number> {
   try {
     result = refractiveIndexOfAir(options);
   } catch (error) {
-    if (error instanceof OptionError) {
-      const flag = FLAG_OF_OPTION[error.option];
-      throw new UsageError(flag === undefined ? error.message : `${flag}: ${error.message}`);
-    }
-    throw error;
+    throw inUserTerms(error, AIR_FLAGS);
   }
 
   for (const warning of result.warnings) process.stderr.write(`warning: ${warning.message}\n`);

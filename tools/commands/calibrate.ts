@@ -1,6 +1,6 @@
 // `fringetally calibrate`: fits the Heydemann correction to a capture and writes the calibration file.
-import { writeFile, rename } from 'node:fs/promises';
-import { parseCommandLine, numberOption, UsageError, type Command } from '../cli-kit.js';
+import { writeFileAtomically } from '../../src/io/capture/index.js';
+import { checkFiles, fileHash, parseCommandLine, numberOption, say, UsageError, type Command } from '../cli-kit.js';
 import { fitCapture, runCapture } from '../capture-run.js';
 import { calibrationFileOf, HARMONIC_ASSUMPTION } from '../calibration-file.js';
 import { captureOptionHelp, captureOptionSpecs, captureOptionsOf, lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
@@ -80,6 +80,8 @@ async function run(argv: readonly string[]): Promise<number> {
     throw new UsageError(`--harmonics must be an integer in 1..${MAX_HARMONIC_ORDER} (got ${harmonicOrders})`);
   }
   const progress = createProgress(quiet);
+  const report = values.report;
+  await checkFiles([{ option: 'the capture', path }], [{ option: '--out', path: values.out }, ...(report === undefined ? [] : [{ option: '--report', path: report }])]);
 
   const { fit, info, totalSamples, channels } = await fitCapture(path, open, fitOptions, progress);
   if (!fit.ok) {
@@ -108,12 +110,12 @@ async function run(argv: readonly string[]): Promise<number> {
       ? undefined
       : { orders: harmonicOrders!, ...estimate.harmonics, assumption: HARMONIC_ASSUMPTION, fringes: estimate.fringes, residualRmsRad: estimate.residualRmsRad };
   const file = calibrationFileOf(fit, info, channels, result.residual.summary, harmonics);
-  const temporary = `${values.out}.partial-${process.pid}`;
-  await writeFile(temporary, JSON.stringify(file, null, 2) + '\n');
-  await rename(temporary, values.out);
-  if (values.report !== undefined) {
-    await writeReportFile(values.report, { title: `Calibration of ${path}`, calibration: fit.calibration, fit, run: result, settings, notes, budget: null });
+  await writeFileAtomically(values.out, JSON.stringify(file, null, 2) + '\n');
+  if (report !== undefined) {
+    const provenance = { commandLine: ['fringetally', 'calibrate', ...argv], inputHash: await fileHash(path), calibrationSource: 'fitted to this capture' };
+    await writeReportFile(report, { title: `Calibration of ${path}`, calibration: fit.calibration, fit, run: result, settings, notes, budget: null, provenance });
   }
+  for (const warning of info.warnings) say(`warning: ${warning}`);
   if (!quiet) {
     const lines = [
       `capture     ${path} (${info.format}, ${result.samples} samples at ${info.rateHz} Hz, ${info.sampleEncoding})`,
@@ -131,7 +133,7 @@ async function run(argv: readonly string[]): Promise<number> {
       ...notes.map((note) => `note        ${note}`),
       `wrote       ${values.out}${values.report === undefined ? '' : ` and report ${values.report}`}`,
     ];
-    process.stdout.write(lines.join('\n') + '\n');
+    say(lines);
   }
   return 0;
 }

@@ -60,7 +60,7 @@ Faults (binary frames only; frame numbers count frames made, from 0):
 Output:
   --truth FILE             CSV of every sample made (sent or not): t (s), position_m (m, axis 0), phase_rad
   --summary FILE           JSON: frames made and sent, bytes, and the frame numbers of every injected fault
-  --quiet                  no summary on standard output
+  --quiet                  no notes and no summary (on standard error)
 
 ${LASER_CAUTION}`;
 
@@ -277,7 +277,7 @@ async function run(argv: readonly string[]): Promise<number> {
   };
   if (values.summary !== undefined) await writeFile(values.summary, JSON.stringify(summary, null, 2) + '\n');
   if (!quiet) {
-    process.stdout.write(
+    process.stderr.write(
       `sent ${log.framesSent} of ${log.framesMade} frames (${log.samplesMade} samples at ${rateHz} Hz, ${log.bytesMade} bytes) to ${port}; ` +
         `final position ${(lastPositionM * 1e6).toFixed(6)} µm (axis 0, invented scenario)\n` +
         `faults: ${log.garbage.length} garbage insertions, ${log.dropped.length} dropped, ${log.corrupted.length} corrupted, ${pauses.length} pauses\n`,

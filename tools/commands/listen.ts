@@ -1,14 +1,13 @@
 // `fringetally listen`: live tracking over a serial link: wire frames (or text lines) in, result rows out, with an
 // optional raw record, a status line on a terminal, and a JSON summary of the link and decoder counters.
-import { writeFile } from 'node:fs/promises';
 import { extname } from 'node:path';
 import { alarmKinds, alarmNames, type EllipseCalibration } from '../../src/core/index.js';
-import { createCaptureWriter, type CaptureWriter } from '../../src/io/capture/index.js';
+import { createCaptureWriter, writeFileAtomically, type CaptureWriter } from '../../src/io/capture/index.js';
 import { createResultWriter, type ResultFormat, type ResultWriter } from '../../src/io/results/index.js';
 import { createSerialByteSource } from '../../src/io/serial/index.js';
 import { WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
 import { readCalibrationFile } from '../calibration-file.js';
-import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
+import { checkFiles, formatNumber, LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { startLiveSession, type LiveNotice, type LiveSink, type LiveStatus, type LiveSummary } from '../live/live-session.js';
 import { createStatusLine, formatStatus } from '../live/status-line.js';
 import { lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
@@ -99,7 +98,8 @@ async function run(argv: readonly string[]): Promise<number> {
   const parsed = parseCommandLine(argv, optionSpecs, false);
   // The repeatable feed options stay out of the config merge, which takes single values.
   const { 'allow-origin': allowOrigins, proxy: proxies, ...single } = parsed.values;
-  const values = withConfig(single) as typeof single;
+  const { 'allow-origin': _allowOriginSpec, proxy: _proxySpec, ...singleSpecs } = optionSpecs;
+  const values = withConfig(single, singleSpecs) as typeof single;
   const port = values.port;
   if (port === undefined) throw new UsageError('--port is required');
   const out = values.out;
@@ -141,6 +141,17 @@ async function run(argv: readonly string[]): Promise<number> {
   };
   const notes = [...lengthScale.notes, ...environment.notes];
   const feedSettings = feedSettingsOf({ ...values, 'allow-origin': allowOrigins, proxy: proxies });
+  await checkFiles(
+    [
+      ...(values.calibration === undefined ? [] : [{ option: '--calibration', path: values.calibration }]),
+      ...(values.config === undefined ? [] : [{ option: '--config', path: values.config }]),
+    ],
+    [
+      { option: '--out', path: out },
+      ...(record === undefined ? [] : [{ option: '--record', path: record }]),
+      ...(values.summary === undefined ? [] : [{ option: '--summary', path: values.summary }]),
+    ],
+  );
   const calibration = values.calibration === undefined ? null : await readCalibrationFile(values.calibration);
   const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetryDelayMs: Math.max(5000, retryDelayMs) });
 
@@ -179,7 +190,7 @@ async function run(argv: readonly string[]): Promise<number> {
       if (recordExtension === '.wav' && !Number.isInteger(info.rateHz)) throw new Error(`a .wav record needs a whole-hertz rate (got ${info.rateHz} Hz): record to .csv`);
       const metadata = {
         source: `fringetally listen ${port}, axis ${info.axis}; samples lost in transport are absent (see the listen summary for gaps)`,
-        wavelength_nm: String(scale.wavelengthM * 1e9),
+        wavelength_nm: formatNumber(scale.wavelengthM * 1e9, 12),
         fold: String(scale.fold),
         refractive_index: String(scale.refractiveIndex),
       };
@@ -259,7 +270,7 @@ async function run(argv: readonly string[]): Promise<number> {
   }
   const final = summary.status;
   const mqttHealth = (feed as LiveFeed | null)?.mqttHealth ?? null;
-  if (values.summary !== undefined) await writeFile(values.summary, JSON.stringify({ ...summaryRecord(summary, writer, out, record), mqtt: mqttHealth }, null, 2) + '\n');
+  if (values.summary !== undefined) await writeFileAtomically(values.summary, JSON.stringify({ ...summaryRecord(summary, writer, out, record), mqtt: mqttHealth }, null, 2) + '\n');
   if (!quiet) {
     const raised = alarmKinds.filter((kind) => final.alarmsRaised[kind] > 0).map((kind) => `${alarmNames[kind]} ×${final.alarmsRaised[kind]}`);
     const counters = final.wire === null

@@ -2,7 +2,7 @@
 import { extname } from 'node:path';
 import { createMotionProfile, createQuadratureSynthesizer } from '../../src/core/index.js';
 import { createCaptureWriter } from '../../src/io/capture/index.js';
-import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
+import { checkFiles, formatNumber, LASER_CAUTION, numberOption, parseCommandLine, say, UsageError, type Command } from '../cli-kit.js';
 import { ellipseOf, motionOf, noiseOf, scenarioOptionSpecs } from '../scenario-options.js';
 
 const help = `Usage: fringetally simulate --out cap.csv|cap.wav [options]
@@ -87,10 +87,10 @@ async function run(argv: readonly string[]): Promise<number> {
   const rateHz = num('rate-hz', 1e6);
   const durationS = num('duration-s', 0.05);
   const seed = num('seed', 1);
-  const wavelengthM = num('wavelength-nm', 632.9908) * 1e-9;
+  const wavelengthNm = num('wavelength-nm', 632.9908);
+  const wavelengthM = wavelengthNm * 1e-9;
   const fold = num('fold', 2);
   const refractiveIndex = num('refractive-index', 1);
-  if (!(rateHz > 0) || !(durationS > 0)) throw new UsageError('--rate-hz and --duration-s must be positive');
   const adcText = values.adc ?? 'int16';
   if (adcText !== 'int16' && adcText !== 'none') throw new UsageError(`--adc must be int16 or none (got "${adcText}")`);
   const quantised = adcText === 'int16';
@@ -110,10 +110,12 @@ async function run(argv: readonly string[]): Promise<number> {
     // WAV headers state the sample format themselves; CSV says it here so saturation can be detected.
     ...(format === 'csv' ? { adc: quantised ? 'int16' : 'float' } : {}),
     ...(format === 'csv' && !quantised ? { adc_full_scale: String(2 ** 31) } : {}),
-    wavelength_nm: String(wavelengthM * 1e9),
+    // The numbers as given: a product such as 632.9908e-9 * 1e9 would read 632.9908000000001.
+    wavelength_nm: String(wavelengthNm),
     fold: String(fold),
     refractive_index: String(refractiveIndex),
   };
+  await checkFiles([], [{ option: '--out', path: out }, { option: '--truth', path: truthPath }]);
   const capture = await createCaptureWriter(out, {
     format,
     rateHz,
@@ -132,6 +134,9 @@ async function run(argv: readonly string[]): Promise<number> {
   const gain = new Float64Array(BLOCK);
   const x = new Float64Array(BLOCK);
   const y = new Float64Array(BLOCK);
+  // The largest step between samples, as the receiver sees it (profile and overspeed windows together).
+  let largestStepM = 0;
+  let lastPositionM = Number.NaN;
   try {
     for (let first = 0; first < total; first += BLOCK) {
       const n = Math.min(BLOCK, total - first);
@@ -141,6 +146,9 @@ async function run(argv: readonly string[]): Promise<number> {
         let extra = 0;
         for (const [start, duration, velocity] of overspeed) extra += velocity! * Math.min(Math.max(t - start!, 0), duration!);
         position[i] = position[i]! + extra;
+        const step = Math.abs(position[i]! - lastPositionM);
+        if (step > largestStepM) largestStepM = step;
+        lastPositionM = position[i]!;
         phase[i] = position[i]! * radPerMetre;
         let g = 1;
         for (const [start, duration] of interrupts) if (t >= start! && t < start! + duration!) g = 0.02;
@@ -159,11 +167,22 @@ async function run(argv: readonly string[]): Promise<number> {
   }
   if (values.quiet !== true) {
     const unambiguousMS = (wavelengthM * rateHz) / (2 * fold * refractiveIndex);
-    process.stdout.write(
-      `wrote ${out} (${total} samples at ${rateHz} Hz, ${format}) and truth ${truthPath}\n` +
-        `scenario: invented, ${motionKind} motion, peak speed ${profile.peakSpeedMS.toPrecision(4)} m/s ` +
-        `(unambiguous limit ${unambiguousMS.toPrecision(4)} m/s)\n`,
-    );
+    // Sampled motion: a single sample's step divided by the sample time, profile and overspeed windows together;
+    // before the first sample pair, the profile's own peak.
+    const peakSpeedMS = total > 1 ? largestStepM * rateHz : profile.peakSpeedMS;
+    const lines = [
+      `wrote ${out} (${total} samples at ${formatNumber(rateHz)} Hz, ${format}) and truth ${truthPath}`,
+      `scenario: invented, ${motionKind} motion${overspeed.length > 0 ? ` with ${overspeed.length} overspeed window(s)` : ''}, peak speed ${peakSpeedMS.toPrecision(4)} m/s ` +
+        `(unambiguous limit ${unambiguousMS.toPrecision(4)} m/s)`,
+    ];
+    // The same rule as emulate: beyond a quarter fringe per sample the receiver raises overspeed.
+    if (peakSpeedMS > unambiguousMS / 2) {
+      lines.push(
+        `note: peak speed ${peakSpeedMS.toPrecision(4)} m/s is above a quarter fringe per sample (${(unambiguousMS / 2).toPrecision(4)} m/s): ` +
+          `a replay will raise overspeed${peakSpeedMS >= unambiguousMS ? ' and lose count' : ''}`,
+      );
+    }
+    say(lines);
   }
   return 0;
 }

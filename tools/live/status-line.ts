@@ -20,6 +20,15 @@ export function formatStatus(status: Readonly<LiveStatus>, fitSamples: number): 
   return parts.join(' | ');
 }
 
+/**
+ * The status text cut to fit one terminal line: one column is kept free so the cursor does not wrap. A terminal
+ * that reports no width (0 columns, or none) gets the whole text.
+ */
+export function fitToWidth(text: string, columns: number | undefined): string {
+  if (columns === undefined || !(columns > 1) || text.length < columns) return text;
+  return text.slice(0, columns - 1);
+}
+
 export interface StatusLine {
   /** Writes a line of log above the status line. */
   log(line: string): void;
@@ -35,9 +44,7 @@ export function createStatusLine(stream: NodeJS.WriteStream, draw: () => string,
     shown = false;
   };
   const redraw = () => {
-    const columns = stream.columns ?? 120;
-    const text = draw();
-    stream.write(`\r${text.length >= columns ? text.slice(0, columns - 1) : text}\x1b[K`);
+    stream.write(`\r${fitToWidth(draw(), stream.columns)}\x1b[K`);
     shown = true;
   };
   const timer = setInterval(redraw, REDRAW_INTERVAL_MS);

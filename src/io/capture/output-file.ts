@@ -23,6 +23,29 @@ export function temporaryPathFor(target: string): string {
   return join(dirname(target), `.${basename(target)}.${process.pid}-${randomBytes(4).toString('hex')}.partial`);
 }
 
+/** A system error re-worded to name the file the user gave (the system's names the temporary file, or none). */
+function fileError(target: string, error: unknown): Error {
+  const failure = error as NodeJS.ErrnoException;
+  const reason = failure.code === 'ENOSPC' ? 'the disk is full' : failure.code === 'EISDIR' ? 'it is a folder' : (failure.code ?? failure.message);
+  return Object.assign(new Error(`${target}: cannot write the output (${reason})`), { code: failure.code });
+}
+
+/**
+ * Writes `text` to `target` through a temporary file renamed at the end, so the target is either the whole new
+ * text or untouched; the temporary file is removed on every failure.
+ */
+export async function writeFileAtomically(target: string, text: string): Promise<void> {
+  const sink = await openFileSink(target);
+  try {
+    const bytes = Buffer.from(text, 'utf8');
+    await sink.write(bytes, bytes.length);
+    await sink.commit();
+  } catch (error) {
+    await sink.discard().catch(() => undefined);
+    throw error;
+  }
+}
+
 export async function openFileSink(target: string): Promise<OutputSink> {
   const temporary = temporaryPathFor(target);
   let handle: FileHandle;
@@ -40,10 +63,14 @@ export async function openFileSink(target: string): Promise<OutputSink> {
     seekable: true,
     async write(bytes, length) {
       let done = 0;
-      while (done < length) {
-        const { bytesWritten } = await handle.write(bytes, done, length - done, position);
-        done += bytesWritten;
-        position += bytesWritten;
+      try {
+        while (done < length) {
+          const { bytesWritten } = await handle.write(bytes, done, length - done, position);
+          done += bytesWritten;
+          position += bytesWritten;
+        }
+      } catch (error) {
+        throw fileError(target, error);
       }
     },
     async writeAt(bytes, length, at) {
@@ -56,11 +83,13 @@ export async function openFileSink(target: string): Promise<OutputSink> {
       try {
         await handle.datasync();
         await handle.close();
+        await rename(temporary, target);
       } catch (error) {
+        // Whatever failed (full disk at the flush, a folder or another device at the target), no partial file stays.
+        await handle.close().catch(() => undefined);
         await unlink(temporary).catch(() => undefined);
-        throw error;
+        throw fileError(target, error);
       }
-      await rename(temporary, target);
     },
     async discard() {
       if (finished) return;

@@ -45,6 +45,8 @@ export interface CaptureInfo {
   readonly metadata: ReadonlyMap<string, string>;
   /** Code range from the WAV header or the `adc` metadata key; null when the file does not say. */
   readonly adc: AdcFormat | null;
+  /** Things the file does not agree with itself about that do not stop reading it (e.g. WAV chunk sizes), in words. */
+  readonly warnings: readonly string[];
 }
 
 /**

@@ -29,6 +29,11 @@ export interface WavLayout {
   readonly dataChunkOffset: number;
   /** `key: value` lines of the LIST/INFO comment (ICMT) before the data chunk. */
   readonly metadata: Map<string, string>;
+  /** Bytes of the file that no chunk accounts for (after the last well-formed chunk); they are not read. */
+  readonly ignoredBytes: number;
+  /** The RIFF chunk size + 8, which should equal the file size. */
+  readonly riffBytes: number;
+  readonly fileBytes: number;
 }
 
 interface FmtChunk {
@@ -73,7 +78,8 @@ export async function readWavLayout(file: string, handle: FileHandle): Promise<W
           expected: 'the data chunk size (0xFFFFFFFF is the placeholder of an unfinished or streamed write)',
         });
       }
-      return { ...fmt, dataOffset: body, dataBytes: size, dataChunkOffset: offset, metadata };
+      const ignoredBytes = size > fileBytes - body ? 0 : fileBytes - (await endOfChunks(handle, body + size + (size & 1), fileBytes));
+      return { ...fmt, dataOffset: body, dataBytes: size, dataChunkOffset: offset, metadata, ignoredBytes, riffBytes: head.readUInt32LE(4) + 8, fileBytes };
     }
     if (body + size > fileBytes) {
       throw new CaptureFormatError({
@@ -86,6 +92,23 @@ export async function readWavLayout(file: string, handle: FileHandle): Promise<W
     else if (id === 'LIST' && size >= 4 && size <= MAX_INFO_BYTES) await readInfo(handle, body, size, metadata);
     offset = body + size + (size & 1);
   }
+}
+
+/**
+ * Where the chunks after the data chunk end: chunks with a printable id that fit in the file (a LIST/INFO written
+ * after the samples is common) are skipped; anything else, such as samples beyond a data size that was never
+ * updated, is where the file stops making sense.
+ */
+async function endOfChunks(handle: FileHandle, offset: number, fileBytes: number): Promise<number> {
+  const header = Buffer.alloc(8);
+  while (offset + 8 <= fileBytes) {
+    await handle.read(header, 0, 8, offset);
+    const size = header.readUInt32LE(4);
+    const printableId = header.subarray(0, 4).every((byte) => byte >= 0x20 && byte <= 0x7e);
+    if (!printableId || offset + 8 + size > fileBytes) break;
+    offset += 8 + size + (size & 1);
+  }
+  return Math.min(offset, fileBytes);
 }
 
 async function readFmt(file: string, handle: FileHandle, offset: number, size: number): Promise<FmtChunk> {

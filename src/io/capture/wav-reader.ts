@@ -31,6 +31,14 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
     totalSamples: Math.floor(layout.dataBytes / layout.blockAlign),
     metadata: layout.metadata,
     adc: adcOf(layout),
+    warnings: Object.freeze(
+      layout.ignoredBytes > 0
+        ? [
+            `${file}: the data chunk at byte ${layout.dataChunkOffset} declares ${layout.dataBytes} bytes, but ${layout.ignoredBytes} bytes after the chunks ` +
+              `(${layout.riffBytes === layout.fileBytes ? 'the RIFF size agrees with the file' : `the RIFF header declares ${layout.riffBytes} bytes in a file of ${layout.fileBytes}`}) belong to no chunk: they are ignored`,
+          ]
+        : [],
+    ),
   });
 
   const { blockAlign, dataOffset } = layout;
