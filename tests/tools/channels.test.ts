@@ -35,8 +35,8 @@ describe('--channels', () => {
   it('calibrates three outputs, writes every output to a version 2 file, and replays far closer to the truth than a pair', async () => {
     const calibrated = await fringetally(['calibrate', 'three.csv', '--channels', 'a,b,c', '--out', 'three.json', ...common.slice(0, 4)], dir);
     expect(calibrated.code, calibrated.stderr).toBe(0);
-    expect(calibrated.stdout).toMatch(/output 3 {4}c: offset/);
-    expect(calibrated.stdout).toMatch(/source power 0\.9\d+ to 1\.0\d+/);
+    expect(calibrated.stderr).toMatch(/output 3 {4}c: offset/);
+    expect(calibrated.stderr).toMatch(/source power 0\.9\d+ to 1\.0\d+/);
     const file = JSON.parse(readFileSync(join(dir, 'three.json'), 'utf8'));
     expect(file).toMatchObject({ format: 'fringetally-calibration', version: 2 });
     expect(file.offsetX).toBeUndefined();
