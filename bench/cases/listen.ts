@@ -9,7 +9,7 @@ import type { EllipseCalibration } from '../../src/core/index.js';
 import { createResultWriter } from '../../src/io/results/index.js';
 import { createManualByteSource } from '../../src/io/serial/index.js';
 import { encodeWireFrame, wireFrameLength } from '../../src/io/wire/index.js';
-import { startLiveSession } from '../../tools/live/live-session.js';
+import { createLiveSession } from '../../tools/live/live-session.js';
 import type { BenchResult } from '../harness.js';
 import { benchSignal, TOTAL_SAMPLES } from './core.js';
 
@@ -41,13 +41,22 @@ async function listenOnce(chunks: readonly Uint8Array[], out: string, every: num
   const source = createManualByteSource();
   const wallStart = process.hrtime.bigint();
   const cpuStart = process.cpuUsage();
-  const session = startLiveSession({
+  const session = createLiveSession({
     source,
-    mode: 'binary',
-    settings: { wavelengthM: 632.9908e-9, fold: 2, refractiveIndex: 1 },
-    calibration: ellipse,
-    sinks: [{ block: (block) => writer.write(block) }],
-  });
+    track: { axes: [{ wavelengthM: 632.9908e-9, fold: 2, refractiveIndex: 1, calibration: ellipse }] },
+    maxBufferedBytes: 2 ** 30,
+    sinks: [
+      {
+        name: 'rows',
+        // The writer's job runs after the chunk: it gets a copy, as listen's does.
+        positions({ summaries, rateHz }) {
+          const { firstSampleIndex, length, output } = summaries[0]!;
+          const block = { firstIndex: firstSampleIndex, length, rateHz, positionM: output.positionM.slice(0, length), velocityMS: output.velocityMS.slice(0, length), level: output.level.slice(0, length), flags: output.flags.slice(0, length) };
+          return () => writer.write(block);
+        },
+      },
+    ],
+  }).start();
   source.linkUp();
   for (const chunk of chunks) source.write(chunk);
   source.end();

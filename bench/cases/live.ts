@@ -1,4 +1,4 @@
-// The live loop of `fringetally listen` end to end through a real pseudo-terminal pair (socat): throughput of
+// The live chain of `fringetally listen` (trackLink) through a real pseudo-terminal pair (socat): throughput of
 // frames written as fast as the pty takes them, beside a baseline of bare serialport reads of the same bytes; and
 // the latency from a frame's write (and from its arrival) to its positions leaving the pipeline, at a paced rate.
 // Needs socat; the frames are an invented constant-velocity motion.
@@ -9,7 +9,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { createSerialByteSource, isLinkEvent } from '../../src/io/serial/index.js';
 import { createFrameEmulator } from '../../tools/live/frame-emulator.js';
-import { startLiveSession, type LiveBlock } from '../../tools/live/live-session.js';
+import { lastValueFrom } from 'rxjs';
+import { trackLink, type LiveReading } from '../../src/io/live/index.js';
 import type { BenchResult } from '../harness.js';
 
 const ELLIPSE = { offsetX: 800, offsetY: -500, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 };
@@ -120,30 +121,28 @@ async function throughput(dir: string): Promise<BenchResult[]> {
     let firstMs = 0;
     let lastMs = 0;
     let samples = 0;
-    const live = startLiveSession({
-      source: createSerialByteSource({ path: device, baudRate: 921600 }),
-      mode: 'binary',
-      maxSamplesPerFrame: samplesPerFrame,
-      settings: SETTINGS,
-      calibration: ELLIPSE,
+    let arrivalMs = 0;
+    const live = trackLink(createSerialByteSource({ path: device, baudRate: 921600 }), {
+      axes: [{ ...SETTINGS, calibration: ELLIPSE }],
+      link: { maxSamplesPerFrame: samplesPerFrame },
       durationS: totalSamples / rateHz,
-      sinks: [
-        {
-          block(block: LiveBlock) {
-            if (samples === 0) firstMs = block.arrivalMs;
-            samples += block.length;
-            lastMs = performance.now();
-          },
-        },
-      ],
     });
-    await until(() => live.status.link === 'up', 'link up');
+    const done = lastValueFrom(live.readings$, { defaultValue: null }).catch((error: unknown) => error);
+    const counting = live.readings$.subscribe((reading: LiveReading) => {
+      if (reading.kind === 'samples') arrivalMs = performance.now();
+      if (reading.kind !== 'positions') return;
+      if (samples === 0) firstMs = arrivalMs;
+      samples += reading.summaries[0]!.length;
+      lastMs = performance.now();
+    });
+    await until(() => live.linkStatus?.link === 'up', 'link up');
     const writer = catInto(file, firmware);
-    const summary = await live.done;
+    await done;
+    counting.unsubscribe();
     writer.kill();
     await stopSocat(socat);
-    if (summary.status.samplesProcessed !== totalSamples || summary.status.gaps !== 0) {
-      throw new Error(`bench: listen loop processed ${summary.status.samplesProcessed} of ${totalSamples} samples with ${summary.status.gaps} gaps`);
+    if (samples !== totalSamples || live.linkStatus!.gaps !== 0) {
+      throw new Error(`bench: listen chain processed ${samples} of ${totalSamples} samples with ${live.linkStatus!.gaps} gaps`);
     }
     const seconds = (lastMs - firstMs) / 1000;
     results.push({
@@ -167,30 +166,28 @@ async function latency(dir: string): Promise<BenchResult> {
   const fromArrivalMs = new Float64Array(frameCount);
   let measured = 0;
   const { device, firmware, socat } = await ptyPair(dir);
-  const live = startLiveSession({
-    source: createSerialByteSource({ path: device, baudRate: 921600 }),
-    mode: 'binary',
-    maxSamplesPerFrame: samplesPerFrame,
-    settings: SETTINGS,
-    calibration: ELLIPSE,
+  const live = trackLink(createSerialByteSource({ path: device, baudRate: 921600 }), {
+    axes: [{ ...SETTINGS, calibration: ELLIPSE }],
+    link: { maxSamplesPerFrame: samplesPerFrame },
     durationS: (frameCount * samplesPerFrame) / rateHz,
-    sinks: [
-      {
-        block(block: LiveBlock) {
-          const now = performance.now();
-          // Frames whose last sample is in this block are complete now (no losses here: index = frame × N).
-          const firstFrame = Math.ceil((block.firstIndex + 1) / samplesPerFrame) - 1;
-          const endFrame = Math.floor((block.firstIndex + block.length) / samplesPerFrame);
-          for (let frame = Math.max(firstFrame, 0); frame < endFrame; frame++) {
-            fromWriteMs[measured] = now - writtenMs[frame]!;
-            fromArrivalMs[measured] = now - block.arrivalMs;
-            measured++;
-          }
-        },
-      },
-    ],
   });
-  await until(() => live.status.link === 'up', 'link up');
+  let arrivalMs = 0;
+  const done = lastValueFrom(live.readings$, { defaultValue: null });
+  const measuring = live.readings$.subscribe((reading: LiveReading) => {
+    if (reading.kind === 'samples') arrivalMs = performance.now();
+    if (reading.kind !== 'positions') return;
+    const now = performance.now();
+    const { firstSampleIndex, length } = reading.summaries[0]!;
+    // Frames whose last sample is in this block are complete now (no losses here: index = frame × N).
+    const firstFrame = Math.ceil((firstSampleIndex + 1) / samplesPerFrame) - 1;
+    const endFrame = Math.floor((firstSampleIndex + length) / samplesPerFrame);
+    for (let frame = Math.max(firstFrame, 0); frame < endFrame; frame++) {
+      fromWriteMs[measured] = now - writtenMs[frame]!;
+      fromArrivalMs[measured] = now - arrivalMs;
+      measured++;
+    }
+  });
+  await until(() => live.linkStatus?.link === 'up', 'link up');
   const fd = openSync(firmware, 'w');
   const started = performance.now();
   const framesPerMs = rateHz / samplesPerFrame / 1000;
@@ -205,8 +202,9 @@ async function latency(dir: string): Promise<BenchResult> {
       }
       await sleep(0);
     }
-    await live.done;
+    await done;
   } finally {
+    measuring.unsubscribe();
     closeSync(fd);
     await stopSocat(socat);
   }

@@ -25,6 +25,8 @@ import { createPositionBuffers } from './track-position.js';
 export interface AxisOptions extends PipelineOptions {
   /** Name in updates, feeds and logs: 1..32 characters of A–Z, a–z, 0–9, `_`, `-`. Default `axis<k>`. */
   readonly name?: string;
+  /** Channel pair of interleaved frames: x is channel 2·channelPair, y the next. Integer 0..7; default the axis' place in the list. */
+  readonly channelPair?: number;
 }
 
 export interface AxesOptions extends AxesRunnerOptions, AxesViewOptions {
@@ -229,6 +231,8 @@ interface AxisStage {
   readonly correction: Correction;
   readonly summary: MutableSummary;
   readonly buffers: ReturnType<typeof createPositionBuffers>;
+  /** First channel of the axis in interleaved frames. */
+  readonly channel: number;
   x: Int16Array;
   y: Int16Array;
   /** Added to the pipeline's position: the preset of the latest re-reference (0 after a zero). */
@@ -273,6 +277,7 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
       correction: createCorrection({ calibration: axisOptions.calibration ?? null }),
       summary: emptySummary(names[k]!, pipeline.speedLimits, tracePoints),
       buffers: createPositionBuffers(axisOptions.blockCapacity ?? 4096),
+      channel: 2 * integerInRange(`axes[${k}].channelPair`, axisOptions.channelPair ?? k, 0, 7),
       x: new Int16Array(0),
       y: new Int16Array(0),
       offsetM: 0,
@@ -281,6 +286,7 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     };
   });
   const summaries: readonly AxisBlockSummary[] = stages.map((stage) => stage.summary);
+  const channelsNeeded = Math.max(...stages.map((stage) => stage.channel + 2));
   const pick = { x: new Float64Array(tracePerBlock), y: new Float64Array(tracePerBlock), u: new Float64Array(tracePerBlock), v: new Float64Array(tracePerBlock) };
 
   function processAxis(stage: AxisStage, x: AxisBlock['x'], y: AxisBlock['y'], length: number, gapBefore: number): void {
@@ -321,8 +327,8 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     process(block) {
       if ('samples' in block) {
         checkFrameBlock(block);
-        if (block.channelCount < 2 * axisCount) {
-          throw new OptionError('block.channelCount', `at least ${2 * axisCount} for ${axisCount} axes`, block.channelCount);
+        if (block.channelCount < channelsNeeded) {
+          throw new OptionError('block.channelCount', `at least ${channelsNeeded} for the axes' channels`, block.channelCount);
         }
         const n = block.samplesPerFrame;
         const stride = block.channelCount;
@@ -336,7 +342,7 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
           // Split inline: locals keep the loop in registers (see DEVELOPERS.md).
           const x = stage.x;
           const y = stage.y;
-          let at = 2 * k;
+          let at = stage.channel;
           for (let s = 0; s < n; s++) {
             x[s] = samples[at]!;
             y[s] = samples[at + 1]!;

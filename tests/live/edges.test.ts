@@ -77,7 +77,7 @@ describe('positions at trigger edges through the live chain', () => {
     const rows: { index: number; position: number; countLost: boolean }[] = [];
     const done = lastValueFrom(live.readings$.pipe(toArray()));
     live.readings$.subscribe((reading) => {
-      if (reading.kind !== 'samples') return;
+      if (reading.kind !== 'positions') return;
       const x = reading.summaries[0]!;
       for (let i = 0; i < x.length; i++) rows.push({ index: x.firstSampleIndex + i, position: x.output.positionM[i]!, countLost: (x.output.flags[i]! & AlarmBit.countLost) !== 0 });
     });
@@ -104,7 +104,7 @@ describe('positions at trigger edges through the live chain', () => {
     const live = trackLink(source, { axes: [{ name: 'X', wavelengthM: WAVELENGTH, fold: 2, calibration: ellipse }] });
     const firsts: number[] = [];
     const subscription = live.readings$.subscribe((reading) => {
-      if (reading.kind === 'samples') firsts.push(reading.summaries[0]!.output.positionM[0]!);
+      if (reading.kind === 'positions') firsts.push(reading.summaries[0]!.output.positionM[0]!);
     });
     live.reReference(); // before any sample: nothing to do
     source.linkUp();

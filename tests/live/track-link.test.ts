@@ -40,12 +40,11 @@ describe('trackLink over a manual source', () => {
     const positions: number[] = [];
     const subscriptions = [
       live.readings$.subscribe((reading: LiveReading) => {
-        if (reading.kind !== 'samples') {
-          readings.push(reading.kind === 'gap' ? `gap ${reading.lostSamples} ${reading.cause} at ${reading.sampleIndex}` : `link ${reading.state}`);
-          return;
-        }
+        if (reading.kind === 'gap') readings.push(`gap ${reading.lostSamples} ${reading.cause} at ${reading.sampleIndex}`);
+        else if (reading.kind === 'link') readings.push(`link ${reading.state}`);
+        else if (reading.kind === 'samples') readings.push(`block ${reading.sampleIndex} +${reading.samplesPerFrame}`);
+        if (reading.kind !== 'positions') return;
         const y = reading.summaries[1]!;
-        readings.push(`block ${reading.block.sampleIndex} +${reading.block.samplesPerFrame}`);
         for (let i = 0; i < y.length; i++) rows.push({ index: y.firstSampleIndex + i, position: y.output.positionM[i]!, flags: y.output.flags[i]! });
       }),
       live.axes[1]!.position$().subscribe((p) => positions.push(p.positionM)),
@@ -83,7 +82,7 @@ describe('trackLink over a manual source', () => {
     const live = trackLink(source, { axes: [axis('X'), axis('Y')] });
     const failure = new Promise<unknown>((resolve) => live.readings$.subscribe({ error: resolve }));
     source.write(emulator(1).next(1).bytes);
-    expect(String(await failure)).toContain('block.channelCount must be at least 4 for 2 axes (got 2)');
+    expect(String(await failure)).toContain("block.channelCount must be at least 4 for the axes' channels (got 2)");
   });
 });
 

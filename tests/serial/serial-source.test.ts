@@ -63,7 +63,7 @@ describe('serial source options', () => {
 
   it('fills defaults and grows the retry delay geometrically up to the ceiling', () => {
     const config = resolveSerialSourceOptions({ path: PATH });
-    expect(config).toEqual({ path: PATH, baudRate: 921600, retryDelayMs: 200, maxRetryDelayMs: 5000, backoffFactor: 2, maxRetries: Infinity });
+    expect(config).toEqual({ path: PATH, baudRate: 921600, retryDelayMs: 200, maxRetryDelayMs: 5000, backoffFactor: 2, maxRetries: Infinity, maxRetriesBeforeFirstOpen: Infinity });
     expect([1, 2, 3, 4, 5, 6, 7].map((attempt) => retryDelayFor(config, attempt))).toEqual([200, 400, 800, 1600, 3200, 5000, 5000]);
   });
 });
@@ -120,8 +120,15 @@ describe('serial source over the mock binding', () => {
   it('gives up with an error naming the attempts after maxRetries failures', async () => {
     const h = harness({ maxRetries: 2 });
     await until(() => h.error() !== null, 'error');
-    expect(h.error()!.message).toMatch(new RegExp(`^${PATH} @ 115200 Bd: gave up after 3 failed open attempts; last error: .*does not exist`));
+    expect(h.error()!.message).toMatch(new RegExp(`^${PATH} @ 115200 Bd: gave up after 3 failed open attempts \\(it never opened: check the path\\); last error: .*does not exist`));
     expect(h.ports).toHaveLength(3);
+  });
+
+  it('gives up on a port that never opened after maxRetriesBeforeFirstOpen failures, however many maxRetries allows', async () => {
+    const h = harness({ maxRetries: Infinity, maxRetriesBeforeFirstOpen: 1, retryDelayMs: 1 });
+    await until(() => h.error() !== null, 'error');
+    expect(h.error()!.message).toContain('gave up after 2 failed open attempts (it never opened: check the path)');
+    expect(h.ports).toHaveLength(2);
   });
 
   it('stops retrying once unsubscribed', async () => {
@@ -155,6 +162,6 @@ describe('serial source over the mock binding', () => {
     subscriptions.push(source.open().subscribe({ next: (e) => events.push(e), error: (e: Error) => (error = e) }));
     await until(() => error !== null, 'error');
     expect((events[0] as LinkEvent).reason).toBe('open failed: bad settings');
-    expect(error!.message).toContain('gave up after 1 failed open attempts; last error: bad settings');
+    expect(error!.message).toContain('gave up after 1 failed open attempts (it never opened: check the path); last error: bad settings');
   });
 });

@@ -157,6 +157,6 @@ describe('createAxes', () => {
     expect(() => createAxes(concat([]), { axes: [{ ...axisOptions, name: 'bad name' }] })).toThrow('axes[0].name must be 1..32 characters');
     const axes = createAxes(concat([frame([motion], 0, 10)]), { axes: [axisOptions, axisOptions] });
     expect(() => axes.update$({ updateHz: 0 })).toThrow('updateHz must be a positive finite number (got 0)');
-    await expect(lastValueFrom(axes.update$())).rejects.toThrow('block.channelCount must be at least 4 for 2 axes (got 2)');
+    await expect(lastValueFrom(axes.update$())).rejects.toThrow("block.channelCount must be at least 4 for the axes' channels (got 2)");
   });
 });

@@ -8,13 +8,17 @@ import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command
 import { ellipseOf, motionOf, noiseOf, scenarioOptionSpecs } from '../scenario-options.js';
 import { createFrameEmulator } from '../live/frame-emulator.js';
 
+/** A write the port has not taken after this long ends emulate with an error: nothing reads the port. */
+const STALL_MS = 2000;
+
 const help = `Usage: fringetally emulate --port PATH --baud N --rate-hz R --velocity-m-s V --wavelength-nm L --fold F
                           [--duration S] [options]
 
 A virtual ADC for testing a receiver without hardware: simulates an invented motion seen through imperfect
 quadrature detectors (offsets, unequal amplitudes, quadrature error, noise; int16 counts) and writes it as
 fringetally wire frames (docs/wire-format.md) to PATH, paced in real time: rate / samples-per-frame frames per
-second. Positive displacement advances the phase atan2(y, x). Runs for --duration S or until SIGINT/SIGTERM.
+second. Positive displacement advances the phase atan2(y, x). Runs for --duration S or until SIGINT/SIGTERM (which end it at once, even while the port takes nothing); when
+the port takes nothing for ${STALL_MS / 1000} s (nothing reads it), it stops with exit 1.
 
 Port and frames:
   --port PATH              serial device or pseudo-terminal to write to (required)
@@ -195,7 +199,13 @@ async function run(argv: readonly string[]): Promise<number> {
     if (error?.disconnected) portFailure ??= new Error(`${port}: the device vanished (disconnected)`);
   });
   let stopped: string | null = null;
-  const stop = (signal: NodeJS.Signals) => (stopped = signal);
+  // A write the port does not take (nothing reads it) must not keep emulate from a signal or forever.
+  let wake: () => void = () => undefined;
+  const stopping = new Promise<'stopped'>((resolve) => (wake = () => resolve('stopped')));
+  const stop = (signal: NodeJS.Signals) => {
+    stopped = signal;
+    wake();
+  };
   process.on('SIGINT', stop);
   process.on('SIGTERM', stop);
 
@@ -212,11 +222,21 @@ async function run(argv: readonly string[]): Promise<number> {
         metadata: { scenario: `invented test scenario: ${motion.kind} motion (fringetally emulate)`, truth_of: port },
       });
     }
-    const write = (bytes: Uint8Array) =>
-      new Promise<void>((resolve, reject) => {
-        // Waiting for the callback lets the emulator reuse its buffer for the next batch.
-        serial.write(bytes, (error) => (error ? reject(new Error(`${port}: write failed (${error.message})`)) : resolve()));
+    /** Resolves when the port took the bytes, or when a signal came; rejects when it took nothing for STALL_MS. */
+    const settle = async (what: string, start: (done: (error: Error | null | undefined) => void) => void): Promise<void> => {
+      let timer: ReturnType<typeof setTimeout> | undefined;
+      const taken = new Promise<void>((resolve, reject) => start((error) => (error ? reject(new Error(`${port}: ${what} failed (${error.message})`)) : resolve())));
+      const stalled = new Promise<never>((_, reject) => {
+        timer = setTimeout(() => reject(new Error(`${port}: nothing has read the port for ${STALL_MS / 1000} s (is the receiver still running?)`)), STALL_MS);
       });
+      try {
+        await Promise.race([taken, stalled, stopping]);
+      } finally {
+        clearTimeout(timer);
+      }
+    };
+    // Waiting for the callback lets the emulator reuse its buffer for the next batch.
+    const write = (bytes: Uint8Array) => settle('write', (done) => serial.write(bytes, done));
     const maxBatchFrames = Math.max(1, Math.floor(65536 / Math.max(emulator.frameBytes, 14 * axes * samplesPerFrame)));
     let clockStartMs = performance.now();
     let made = 0;
@@ -237,7 +257,7 @@ async function run(argv: readonly string[]): Promise<number> {
       made += count;
       if (pauseEvery > 0 && made % pauseEvery === 0 && made < totalFrames) {
         const pauseStart = performance.now();
-        await sleep(pauseMs);
+        await Promise.race([sleep(pauseMs), stopping]);
         const pausedMs = performance.now() - pauseStart;
         pauses.push({ afterFrame: made - 1, ms: pausedMs });
         // The pace restarts after the pause: the samples are late, not lost.
@@ -245,7 +265,7 @@ async function run(argv: readonly string[]): Promise<number> {
       }
     }
     if (portFailure !== null) throw portFailure;
-    await new Promise<void>((resolve, reject) => serial.drain((error) => (error ? reject(new Error(`${port}: ${error.message}`)) : resolve())));
+    await settle('drain', (done) => serial.drain(done));
     await truth?.close();
   } catch (error) {
     await truth?.abort();
@@ -253,7 +273,8 @@ async function run(argv: readonly string[]): Promise<number> {
   } finally {
     process.off('SIGINT', stop);
     process.off('SIGTERM', stop);
-    if (serial.isOpen) await new Promise<void>((resolve) => serial.close(() => resolve()));
+    // A close behind a write nobody takes may never call back: it is not waited for beyond a moment.
+    if (serial.isOpen) await Promise.race([new Promise<void>((resolve) => serial.close(() => resolve())), sleep(200)]);
   }
 
   const log = emulator.log;

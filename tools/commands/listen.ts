@@ -1,20 +1,28 @@
 // `fringetally listen`: live tracking over a serial link: wire frames (or text lines) in, result rows out, with an
 // optional raw record, a status line on a terminal, and a JSON summary of the link and decoder counters.
+import { createWriteStream, fstatSync } from 'node:fs';
+import { Socket } from 'node:net';
 import { extname } from 'node:path';
-import { alarmKinds, alarmNames, type EllipseCalibration } from '../../src/core/index.js';
+import { alarmKinds, alarmNames, OptionError, type EllipseCalibration } from '../../src/core/index.js';
 import { createCaptureWriter, writeFileAtomically, type CaptureWriter } from '../../src/io/capture/index.js';
 import { createResultWriter, type ResultFormat, type ResultWriter } from '../../src/io/results/index.js';
 import { createSerialByteSource } from '../../src/io/serial/index.js';
+import type { LinkBlock } from '../../src/io/live/index.js';
+import type { AxisBlockSummary } from '../../src/stream/index.js';
 import { WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
 import { readCalibrationFile } from '../calibration-file.js';
 import { checkFiles, formatNumber, LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
-import { startLiveSession, type LiveNotice, type LiveSink, type LiveStatus, type LiveSummary } from '../live/live-session.js';
+import { createLiveSession, type LiveSession, type LiveSink, type LiveSummary } from '../live/live-session.js';
 import { createStatusLine, formatStatus } from '../live/status-line.js';
 import { lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
 import { budgetOf, environmentOf, environmentOptionHelp, environmentOptionSpecs, withConfig } from '../environment-options.js';
 import { feedOptionHelp, feedOptionSpecs, feedSettingsOf, openLiveFeed, type LiveFeed } from '../live/live-feed.js';
 
 const DEFAULT_FIT_SAMPLES = 16384;
+/** Input kept while an output is slow, MiB: about 11 s at 921600 Bd, 0.4 s of 2 channels at 10 MHz. */
+const DEFAULT_INPUT_BUFFER_MIB = 1;
+/** Failed opens of a port that never opened before listen gives up: with the default delays about 31 s. */
+const DEFAULT_OPEN_RETRIES = 10;
 /** Gap lines printed; later gaps are only counted (the summary keeps them all, up to its own limit). */
 const MAX_GAP_LINES = 20;
 
@@ -50,6 +58,10 @@ Options:
   --text                   read "x,y" text lines instead of binary frames (no gap detection: bring-up only)
   --channels N             with --text: integers per line, even (default 2·(axis+1))
   --retry-ms MS            first reopen delay after the port vanished, ms (default 200, doubling to 5000)
+  --open-retries N         failed opens of a port that has not opened yet before giving up (default ${DEFAULT_OPEN_RETRIES},
+                           about 31 s); once it has opened, a vanished port is retried until stopped
+  --input-buffer-mib M     input kept while an output does not keep up, MiB (default ${DEFAULT_INPUT_BUFFER_MIB}); beyond it
+                           listen stops with exit 1, naming the stalled output (files closed, summary written)
   --quiet                  no log lines, status line or summary on stderr
 ${measureOptionHelp}
 ${environmentOptionHelp}
@@ -77,6 +89,8 @@ const optionSpecs = {
   text: { type: 'boolean' },
   channels: { type: 'string' },
   'retry-ms': { type: 'string' },
+  'open-retries': { type: 'string' },
+  'input-buffer-mib': { type: 'string' },
   quiet: { type: 'boolean' },
   ...measureOptionSpecs,
   ...environmentOptionSpecs,
@@ -122,6 +136,8 @@ async function run(argv: readonly string[]): Promise<number> {
   const maxSamplesPerFrame = integerOption('max-samples-per-frame', values['max-samples-per-frame'], 1024, 1, WIRE_MAX_SAMPLES_PER_FRAME);
   const fitSamples = integerOption('fit-samples', values['fit-samples'], DEFAULT_FIT_SAMPLES, 64, 2 ** 24);
   const retryDelayMs = integerOption('retry-ms', values['retry-ms'], 200, 1, 600_000);
+  const openRetries = integerOption('open-retries', values['open-retries'], DEFAULT_OPEN_RETRIES, 0, 1_000_000);
+  maxRetriesShown = openRetries;
   const record = values.record;
   const recordExtension = record === undefined ? '' : extname(record).toLowerCase();
   if (record !== undefined && recordExtension !== '.csv' && recordExtension !== '.wav') throw new UsageError(`--record must end in .csv or .wav (got "${record}")`);
@@ -153,20 +169,37 @@ async function run(argv: readonly string[]): Promise<number> {
     ],
   );
   const calibration = values.calibration === undefined ? null : await readCalibrationFile(values.calibration);
-  const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetryDelayMs: Math.max(5000, retryDelayMs) });
+  const maxBufferedBytes = integerOption('input-buffer-mib', values['input-buffer-mib'], DEFAULT_INPUT_BUFFER_MIB, 1, 4096) * 2 ** 20;
+  const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetryDelayMs: Math.max(5000, retryDelayMs), maxRetriesBeforeFirstOpen: openRetries });
+  // Every option, including the chain's, is checked here: nothing is opened before.
+  let chain: ReturnType<typeof createLiveSession>;
+  const sinks: LiveSink[] = [];
+  try {
+    chain = createLiveSession({
+      source,
+      track: {
+        axes: [{ name: 'X', channelPair: axis, ...scale, calibration: calibration ?? 'fit' }],
+        link: textMode ? { mode: 'text', channelCount: channels, rateHz } : { maxSamplesPerFrame, ...(rateHz === undefined ? {} : { rateHz }) },
+        fitSamples,
+        ...(durationS === undefined ? {} : { durationS }),
+      },
+      sinks,
+      maxBufferedBytes,
+    });
+  } catch (error) {
+    if (error instanceof OptionError) throw new UsageError(error.message);
+    throw error;
+  }
 
-  let status: Readonly<LiveStatus> | null = null;
-  const statusLine = createStatusLine(process.stderr, () => (status === null ? 'waiting' : formatStatus(status, fitSamples)), quiet);
+  let session: LiveSession | null = null;
+  const statusLine = createStatusLine(process.stderr, () => (session === null ? 'waiting' : formatStatus(session.progress, session.link, fitSamples)), quiet);
   for (const note of notes) statusLine.log(`note: ${note}`);
-  statusLine.log(`listening on ${source.name}${calibration === null ? `; fitting the correction to the first ${fitSamples} samples (rows held back until then)` : ''}`);
-
-  const writer: ResultWriter = await createResultWriter(out, { format: formatText as ResultFormat, every });
+  // The feed listens and the MQTT publisher connects from launch (state "waiting"); both serve the session's own
+  // axes from the first samples on, so they share the rows' count, zero and alarms.
   let feedError: Error | null = null;
-  // The feed listens and the MQTT publisher connects from launch; both start serving with the first samples.
-  let feed: LiveFeed | null = null;
-  if (feedSettings !== null) {
-    try {
-      feed = await openLiveFeed(
+  const feed: LiveFeed | null = feedSettings === null
+    ? null
+    : await openLiveFeed(
         feedSettings,
         (error) => {
           feedError = error;
@@ -174,64 +207,63 @@ async function run(argv: readonly string[]): Promise<number> {
         },
         (line) => statusLine.log(line),
       );
-    } catch (error) {
-      await writer.abort();
-      throw error;
-    }
-    for (const line of feed.describe()) statusLine.log(line);
-  }
-  let fittedCalibration: EllipseCalibration | null = calibration;
+  for (const line of feed?.describe() ?? []) statusLine.log(line);
+  const stdout = out === '-' ? openStandardOutput() : undefined;
+  const writer: ResultWriter = await createResultWriter(out, { format: formatText as ResultFormat, every, ...(stdout === undefined ? {} : { stdout }) });
   let recorder: CaptureWriter | null = null;
+  const rows = createRowCopies();
   let gapLines = 0;
-  const sink: LiveSink = {
-    async start(info) {
-      statusLine.log(`first samples: ${info.channelCount} channels, tracking axis ${info.axis}, ${info.rateHz} Hz (${info.rateSource === 'frames' ? 'from the frames' : '--rate-hz'})`);
-      if (record === undefined) return;
-      if (recordExtension === '.wav' && !Number.isInteger(info.rateHz)) throw new Error(`a .wav record needs a whole-hertz rate (got ${info.rateHz} Hz): record to .csv`);
-      const metadata = {
-        source: `fringetally listen ${port}, axis ${info.axis}; samples lost in transport are absent (see the listen summary for gaps)`,
-        wavelength_nm: formatNumber(scale.wavelengthM * 1e9, 12),
-        fold: String(scale.fold),
-        refractive_index: String(scale.refractiveIndex),
-      };
-      recorder = await createCaptureWriter(record, recordExtension === '.wav'
-        ? { format: 'wav', rateHz: info.rateHz, encoding: 'int16', metadata }
-        : { format: 'csv', rateHz: info.rateHz, encoding: 'integer-text', metadata: { ...metadata, adc: 'int16' } });
+  let started = false;
+  let wasUp = false;
+  sinks.push(
+    {
+      name: record === undefined ? 'the record' : `the record ${record}`,
+      samples(block) {
+        const first = !started;
+        started = true;
+        if (first) feed?.start(chain.axes, block.rateHz);
+        if (first) statusLine.log(`first samples: ${block.channelCount} channels, tracking axis ${axis}, ${block.rateHz} Hz (${chain.axes.linkStatus?.rateSource === 'option' ? '--rate-hz' : 'from the frames'})`);
+        if (record === undefined) return;
+        if (block.channelCount <= 2 * axis + 1) return;
+        const copy = copyAxis(block, axis);
+        return async () => {
+          if (first) recorder = await openRecord(record, recordExtension, block.rateHz, port, axis, scale);
+          await recorder!.write(copy.x, copy.y, copy.length);
+        };
+      },
     },
-    raw(x, y, length) {
-      return recorder?.write(x, y, length);
+    {
+      name: out === '-' ? 'the result output (standard output)' : `the result output ${out}`,
+      positions(positions) {
+        const block = rows.copy(positions.summaries[0]!, positions.rateHz);
+        return () => writer.write(block).finally(() => rows.release(block));
+      },
+      notice(notice) {
+        if (notice.kind === 'link') {
+          const vanished = notice.reason === 'vanished' ? ': the device node is gone or was replaced' : '';
+          if (notice.state === 'up') wasUp = true;
+          const retry = notice.state === 'down' && notice.reason.startsWith('open failed') ? `; ${retryText(notice.attempt, wasUp)}` : '';
+          statusLine.log(`link ${notice.state} (${notice.reason}${vanished})${notice.state === 'up' && notice.gap ? ': samples were lost, marking a gap' : ''}${retry}`);
+        } else if (notice.kind === 'gap') {
+          if (gapLines < MAX_GAP_LINES) {
+            const rate = chain.axes.linkStatus?.rateHz ?? Number.NaN;
+            const t = rate > 0 ? ` at t = ${(notice.sampleIndex / rate).toFixed(6)} s` : '';
+            statusLine.log(
+              notice.cause === 'resync'
+                ? `frame counter restarted or went backwards${t}: gap of unknown length, count lost`
+                : `input gap of ${notice.lostSamples} samples${t} (${notice.cause === 'link' ? 'link outage' : 'sequence jump'}): count lost`,
+            );
+          } else if (gapLines === MAX_GAP_LINES) statusLine.log('further gaps are counted, not listed');
+          gapLines++;
+        } else if (notice.result.ok) {
+          statusLine.log(`fitted the correction to ${notice.result.samples} of the first ${notice.heldSamples} samples (coverage ${(notice.result.coverage * 100).toFixed(0)} %): ${describeCalibration(notice.result.calibration)}`);
+        } else {
+          statusLine.log(`live fit over ${notice.heldSamples} samples failed (${notice.result.message})${notice.final ? '' : '; holding more samples and retrying'}`);
+        }
+      },
     },
-    async block(block) {
-      if (feed !== null) {
-        if (!feed.started) feed.start({ rateHz: block.rateHz, settings: scale, calibration: fittedCalibration });
-        feed.push(block);
-      }
-      await writer.write(block);
-    },
-    notice(notice: LiveNotice) {
-      if (notice.kind === 'link') {
-        const { event } = notice;
-        const vanished = event.reason === 'vanished' ? ': the device node is gone or was replaced' : '';
-        statusLine.log(`link ${event.state} (${event.reason}${vanished})${event.state === 'up' && event.gap ? ': samples were lost, marking a gap' : ''}`);
-      } else if (notice.kind === 'gap') {
-        const { gap } = notice;
-        if (gapLines < MAX_GAP_LINES) {
-          const t = status === null || !(status.rateHz > 0) ? '' : ` at t = ${(gap.sampleIndex / status.rateHz).toFixed(6)} s`;
-          statusLine.log(
-            gap.cause === 'resync'
-              ? `frame counter restarted or went backwards${t}: gap of unknown length, count lost`
-              : `input gap of ${gap.lostSamples} samples${t} (${gap.cause === 'link' ? 'link outage' : 'sequence jump'}): count lost`,
-          );
-        } else if (gapLines === MAX_GAP_LINES) statusLine.log('further gaps are counted, not listed');
-        gapLines++;
-      } else if (notice.fit.ok) {
-        fittedCalibration = notice.fit.calibration;
-        statusLine.log(`fitted the correction to ${notice.fit.samples} of the first ${notice.heldSamples} samples (coverage ${(notice.fit.coverage * 100).toFixed(0)} %): ${describeCalibration(notice.fit.calibration)}`);
-      } else {
-        statusLine.log(`live fit over ${notice.heldSamples} samples failed (${notice.fit.message})${notice.final ? '' : '; holding more samples and retrying'}`);
-      }
-    },
-  };
+  );
+  statusLine.log(`listening on ${source.name}${calibration === null ? `; fitting the correction to the first ${fitSamples} samples (rows held back until then)` : ''}`);
 
   const controller = new AbortController();
   const stop = () => controller.abort();
@@ -239,62 +271,142 @@ async function run(argv: readonly string[]): Promise<number> {
   process.on('SIGTERM', stop);
   let summary: LiveSummary;
   try {
-    const session = startLiveSession({
-      source,
-      mode: textMode ? 'text' : 'binary',
-      axis,
-      textChannels: channels,
-      maxSamplesPerFrame,
-      rateHz,
-      settings: scale,
-      calibration,
-      fitSamples,
-      durationS,
-      sinks: [sink],
-      signal: controller.signal,
-    });
-    status = session.status;
-    summary = await session.done;
-    await (feed as LiveFeed | null)?.close();
-    await writer.close();
-    await (recorder as CaptureWriter | null)?.close();
+    session = chain.start(controller.signal);
+    summary = await (session as LiveSession).done;
   } catch (error) {
-    await (feed as LiveFeed | null)?.close();
+    await feed?.close();
     await writer.abort();
     await (recorder as CaptureWriter | null)?.abort();
+    statusLine.stop();
+    // The chain names its options as the library does; here they are command-line options.
+    if (error instanceof Error) error.message = error.message.replace(/\brateHz\b/g, '--rate-hz');
     throw error;
   } finally {
     process.off('SIGINT', stop);
     process.off('SIGTERM', stop);
-    statusLine.stop();
   }
-  const final = summary.status;
-  const mqttHealth = (feed as LiveFeed | null)?.mqttHealth ?? null;
-  if (values.summary !== undefined) await writeFileAtomically(values.summary, JSON.stringify({ ...summaryRecord(summary, writer, out, record), mqtt: mqttHealth }, null, 2) + '\n');
+  statusLine.stop();
+  await feed?.close();
+  // An output that stalled (or was cut off after a signal) cannot be flushed: it is abandoned, the others closed.
+  const stalled = summary.stalledSink;
+  const finish = async (name: string, output: { close(): Promise<void>; abort(): Promise<void> } | null) => {
+    if (output === null) return;
+    if (stalled === name) await output.abort();
+    else await output.close();
+  };
+  await finish(sinks[1]!.name, writer);
+  await finish(sinks[0]!.name, recorder);
+  if (stalled !== null) stdout?.destroy();
+  const progress = summary.progress;
+  const link = summary.link;
+  const mqttHealth = feed?.mqttHealth ?? null;
+  if (values.summary !== undefined) {
+    await writeFileAtomically(values.summary, JSON.stringify({ ...summaryRecord(summary, writer, out, record, calibration, maxBufferedBytes), mqtt: mqttHealth }, null, 2) + '\n');
+  }
   if (!quiet) {
-    const raised = alarmKinds.filter((kind) => final.alarmsRaised[kind] > 0).map((kind) => `${alarmNames[kind]} ×${final.alarmsRaised[kind]}`);
-    const counters = final.wire === null
-      ? `lines good ${final.text!.linesGood}, malformed ${final.text!.linesMalformed}`
-      : `frames good ${final.wire.framesGood}, CRC failures ${final.wire.crcFailures}, resyncs ${final.wire.resyncs}, bytes skipped ${final.wire.bytesSkipped}`;
-    const stopped = summary.stopReason === 'duration' ? `after ${durationS} s of samples` : summary.stopReason === 'signal' ? 'on a signal' : 'because the source ended';
+    const raised = alarmKinds.filter((kind) => progress.alarmsRaised[kind] > 0).map((kind) => `${alarmNames[kind]} ×${progress.alarmsRaised[kind]}`);
+    const counters = link === null
+      ? 'the port never opened'
+      : link.wire === null
+        ? `lines good ${link.text!.linesGood}, malformed ${link.text!.linesMalformed}`
+        : `frames good ${link.wire.framesGood}, CRC failures ${link.wire.crcFailures}, resyncs ${link.wire.resyncs}, bytes skipped ${link.wire.bytesSkipped}`;
+    const stopped = { duration: `after ${durationS} s of samples`, signal: 'on a signal', 'source ended': 'because the source ended', stalled: 'because an output stalled' }[summary.stopReason];
+    const rate = link?.rateHz ?? Number.NaN;
     process.stderr.write(
       [
-        `stopped ${stopped}: ${final.samplesProcessed} samples processed${final.rateHz > 0 ? ` at ${final.rateHz} Hz` : ''}; wrote ${writer.rowsWritten} rows to ${out}` +
-          (record === undefined ? '' : `, ${final.samplesDelivered} samples to ${record}`),
-        ...(final.samplesProcessed > 0
-          ? [`final position ${(final.positionM * 1e6).toFixed(6)} µm${uncertaintyText(budgetOf(environment, final.positionM, 0))}${final.countLost ? ' — COUNT LOST: not trustworthy until re-referenced' : ''}`]
-          : ['no samples received']),
-        `${counters}; gaps ${final.gaps} (${final.lostSamples} samples lost); link outages ${final.linkDowns}`,
+        `stopped ${stopped}: ${progress.samplesProcessed} samples processed${rate > 0 ? ` at ${rate} Hz` : ''}; wrote ${writer.rowsWritten} rows to ${out}` +
+          (record === undefined ? '' : `, ${link?.samplesDelivered ?? 0} samples to ${record}`),
+        ...(progress.samplesProcessed > 0
+          ? [`final position ${(progress.positionM * 1e6).toFixed(6)} µm${uncertaintyText(budgetOf(environment, progress.positionM, 0))}${progress.countLost ? ' — COUNT LOST: not trustworthy until re-referenced' : ''}`]
+          : [`no samples received${link !== null && link.wire !== null && link.wire.headerRejects > 0 ? ` (${link.wire.headerRejects} frame headers refused: frames larger than --max-samples-per-frame ${maxSamplesPerFrame}?)` : ''}`]),
+        `${counters}; gaps ${link?.gaps ?? 0} (${link?.lostSamples ?? 0} samples lost); link outages ${link?.linkDowns ?? 0}`,
         `alarms raised: ${raised.length === 0 ? 'none' : raised.join(', ')}`,
         ...(mqttHealth === null ? [] : [`MQTT: ${mqttHealth.published} messages published; ${mqttHealth.outages} outage(s), ${(mqttHealth.outageMs / 1000).toFixed(1)} s offline${mqttHealth.connections === 0 ? ', never connected' : ''}`]),
       ].join('\n') + '\n',
     );
   }
+  const code = summary.stopReason === 'stalled' || feedError !== null ? 1 : 0;
+  if (summary.stopReason === 'stalled') {
+    process.stderr.write(
+      `fringetally listen: ${stalled} accepted nothing while ${maxBufferedBytes / 2 ** 20} MiB of input waited; stopped (read the output faster or raise --input-buffer-mib)\n`,
+    );
+  }
   if (feedError !== null) {
     process.stderr.write(`fringetally listen: the rows are complete, but the network feed failed: ${(feedError as Error).message}\n`);
-    return 1;
   }
-  return 0;
+  return code;
+}
+
+/**
+ * Standard output for rows. process.stdout writes to a pipe synchronously, so a reader that stops would freeze
+ * the whole process (signals included) inside write(2); a socket of its own on fd 1 writes without blocking, and
+ * a pending write can be dropped. Files and terminals do not stall: for them a file stream on fd 1.
+ */
+function openStandardOutput(): NodeJS.WritableStream & { destroy(): void } {
+  const kind = fstatSync(1);
+  if (kind.isFIFO() || kind.isSocket()) return new Socket({ fd: 1, readable: false, writable: true });
+  return createWriteStream('', { fd: 1, autoClose: false });
+}
+
+/** The retry policy of a port that cannot be opened, for the log line. */
+function retryText(attempt: number, wasUp: boolean): string {
+  return wasUp ? 'retrying with backoff until stopped' : `retrying with backoff (failed attempt ${attempt}; gives up after ${maxRetriesShown + 1})`;
+}
+let maxRetriesShown = DEFAULT_OPEN_RETRIES;
+
+/** Axis `axis` of an interleaved block, copied: the block is reused before the record's write runs. */
+function copyAxis(block: LinkBlock, axis: number): { x: Int16Array; y: Int16Array; length: number } {
+  const n = block.samplesPerFrame;
+  const x = new Int16Array(n);
+  const y = new Int16Array(n);
+  const stride = block.channelCount;
+  let at = 2 * axis;
+  for (let i = 0; i < n; i++) {
+    x[i] = block.samples[at]!;
+    y[i] = block.samples[at + 1]!;
+    at += stride;
+  }
+  return { x, y, length: n };
+}
+
+/** Copies of position blocks for the result writer, from a small pool so that steady streams allocate little. */
+function createRowCopies() {
+  const pool: ResultBlockCopy[] = [];
+  return {
+    copy(summary: AxisBlockSummary, rateHz: number): ResultBlockCopy {
+      const n = summary.length;
+      let block = pool.pop();
+      if (block === undefined || block.positionM.length < n) {
+        const capacity = Math.max(n, 4096);
+        block = { firstIndex: 0, length: 0, rateHz, positionM: new Float64Array(capacity), velocityMS: new Float64Array(capacity), level: new Float32Array(capacity), flags: new Uint8Array(capacity) };
+      }
+      block.firstIndex = summary.firstSampleIndex;
+      block.length = n;
+      block.rateHz = rateHz;
+      block.positionM.set(summary.output.positionM.subarray(0, n));
+      block.velocityMS.set(summary.output.velocityMS.subarray(0, n));
+      block.level.set(summary.output.level.subarray(0, n));
+      block.flags.set(summary.output.flags.subarray(0, n));
+      return block;
+    },
+    release(block: ResultBlockCopy): void {
+      if (pool.length < 8) pool.push(block);
+    },
+  };
+}
+type ResultBlockCopy = { firstIndex: number; length: number; rateHz: number; positionM: Float64Array; velocityMS: Float64Array; level: Float32Array; flags: Uint8Array };
+
+async function openRecord(record: string, extension: string, rateHz: number, port: string, axis: number, scale: { wavelengthM: number; fold: number; refractiveIndex: number }): Promise<CaptureWriter> {
+  if (extension === '.wav' && !Number.isInteger(rateHz)) throw new Error(`a .wav record needs a whole-hertz rate (got ${rateHz} Hz): record to .csv`);
+  const metadata = {
+    source: `fringetally listen ${port}, axis ${axis}; samples lost in transport are absent (see the listen summary for gaps)`,
+    wavelength_nm: formatNumber(scale.wavelengthM * 1e9, 12),
+    fold: String(scale.fold),
+    refractive_index: String(scale.refractiveIndex),
+  };
+  return createCaptureWriter(record, extension === '.wav'
+    ? { format: 'wav', rateHz, encoding: 'int16', metadata }
+    : { format: 'csv', rateHz, encoding: 'integer-text', metadata: { ...metadata, adc: 'int16' } });
 }
 
 /** The reading's uncertainty (GUM) for the summary line; the residual periodic error is not measured live. */
@@ -303,32 +415,40 @@ function uncertaintyText(budget: ReturnType<typeof budgetOf>): string {
   return ` ± ${(budget.expandedUncertaintyM * 1e9).toFixed(3)} nm (U, k = ${budget.coverageFactor}; periodic residual not included)`;
 }
 
-function summaryRecord(summary: LiveSummary, writer: ResultWriter, out: string, record: string | undefined) {
-  const { status } = summary;
+function summaryRecord(summary: LiveSummary, writer: ResultWriter, out: string, record: string | undefined, calibration: EllipseCalibration | null, maxBufferedBytes: number) {
+  const { progress, link } = summary;
+  const fit = summary.fits.find((attempt) => attempt.result.ok)?.result;
+  const okFit = fit !== undefined && fit.ok ? fit : null;
   return {
     stopReason: summary.stopReason,
-    rateHz: status.rateHz > 0 ? status.rateHz : null,
-    rateSource: summary.info?.rateSource ?? null,
-    channelCount: summary.info?.channelCount ?? null,
-    axis: summary.info?.axis ?? null,
-    samplesDelivered: status.samplesDelivered,
-    samplesProcessed: status.samplesProcessed,
-    nextSampleIndex: status.nextSampleIndex,
+    stalledOutput: summary.stalledSink,
+    inputBufferBytes: maxBufferedBytes,
+    rateHz: link !== null && link.rateHz > 0 ? link.rateHz : null,
+    rateSource: link?.rateSource ?? null,
+    channelCount: link !== null && link.channelCount > 0 ? link.channelCount : null,
+    samplesDelivered: link?.samplesDelivered ?? 0,
+    samplesProcessed: progress.samplesProcessed,
+    nextSampleIndex: link?.nextSampleIndex ?? 0,
     out,
     rowsWritten: writer.rowsWritten,
     record: record ?? null,
-    finalPositionM: status.samplesProcessed > 0 ? status.positionM : null,
-    countLostAtEnd: status.countLost,
-    calibrationSource: status.calibration === 'file' ? 'file' : 'live fit',
-    calibration: summary.calibration,
-    fit: summary.fit === null ? null : { samples: summary.fit.samples, coverage: summary.fit.coverage, residualRms: summary.fit.residualRms },
-    wire: status.wire === null ? null : { ...status.wire },
-    text: status.text === null ? null : { ...status.text },
-    gaps: summary.gaps,
-    gapCount: status.gaps,
-    lostSamples: status.lostSamples,
-    link: { outages: status.linkDowns, returns: status.linkReturns, closedByWatchdog: summary.links.filter((event) => event.reason === 'vanished').length, events: summary.links.map(({ state, reason, gap, timeMs }) => ({ state, reason, gap, timeMs })) },
-    alarmsRaised: Object.fromEntries(alarmKinds.map((kind) => [alarmNames[kind], status.alarmsRaised[kind]])),
+    finalPositionM: progress.samplesProcessed > 0 ? progress.positionM : null,
+    countLostAtEnd: progress.countLost,
+    calibrationSource: progress.calibration === 'given' ? 'file' : 'live fit',
+    calibration: okFit?.calibration ?? calibration,
+    fit: okFit === null ? null : { samples: okFit.samples, coverage: okFit.coverage, residualRms: okFit.residualRms },
+    wire: link?.wire ? { ...link.wire } : null,
+    text: link?.text ? { ...link.text } : null,
+    gaps: summary.gaps.map(({ sampleIndex, lostSamples, cause }) => ({ sampleIndex, lostSamples, cause })),
+    gapCount: link?.gaps ?? 0,
+    lostSamples: link?.lostSamples ?? 0,
+    link: {
+      outages: link?.linkDowns ?? 0,
+      returns: link?.linkReturns ?? 0,
+      closedByWatchdog: summary.links.filter((event) => event.reason === 'vanished').length,
+      events: summary.links.map(({ state, reason, gap, timeMs }) => ({ state, reason, gap, timeMs })),
+    },
+    alarmsRaised: Object.fromEntries(alarmKinds.map((kind) => [alarmNames[kind], progress.alarmsRaised[kind]])),
   };
 }
 

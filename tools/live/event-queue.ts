@@ -1,5 +1,6 @@
 // Pull side of an Observable: values are queued as they arrive and taken one at a time with `await next()`, so
-// an async consumer (file writers) paces itself without losing values; the queue is the only buffer.
+// an async consumer (file writers) paces itself without losing values; the queue is the only buffer, and it is
+// bounded: past `maxSize` the queue stops taking values and says so, instead of growing while the consumer stalls.
 import type { Observable, Subscription } from 'rxjs';
 
 export interface EventQueue<T> {
@@ -9,9 +10,23 @@ export interface EventQueue<T> {
   stop(): void;
   /** Values waiting to be taken. */
   readonly length: number;
+  /** Sum of `sizeOf` over the values waiting. */
+  readonly size: number;
 }
 
-export function queueObservable<T>(observable: Observable<T>): EventQueue<T> {
+export interface EventQueueOptions<T> {
+  /** Most `sizeOf` summed over the values waiting; one more value and the queue overflows. Default: unbounded. */
+  readonly maxSize?: number;
+  /** Size of one value (e.g. its bytes). Default 1. */
+  readonly sizeOf?: (value: T) => number;
+  /** Called once when a value would take the queue past `maxSize`: the queue has stopped (`stop()`), that value is dropped. */
+  readonly onOverflow?: () => void;
+}
+
+export function queueObservable<T>(observable: Observable<T>, options: EventQueueOptions<T> = {}): EventQueue<T> {
+  const maxSize = options.maxSize ?? Number.POSITIVE_INFINITY;
+  const sizeOf = options.sizeOf ?? (() => 1);
+  let size = 0;
   let items: T[] = [];
   let head = 0;
   let ended = false;
@@ -36,6 +51,7 @@ export function queueObservable<T>(observable: Observable<T>): EventQueue<T> {
 
   function take(): T {
     const item = items[head++]!;
+    size -= sizeOf(item);
     // Compact now and then instead of shifting on every take.
     if (head > 1024 && head * 2 > items.length) {
       items = items.slice(head);
@@ -44,9 +60,23 @@ export function queueObservable<T>(observable: Observable<T>): EventQueue<T> {
     return item;
   }
 
+  function stop(): void {
+    ended = true;
+    subscription?.unsubscribe();
+    subscription = null;
+    wake();
+  }
+
   subscription = observable.subscribe({
     next(value) {
       if (ended) return;
+      const valueSize = sizeOf(value);
+      if (size + valueSize > maxSize) {
+        stop();
+        options.onOverflow?.();
+        return;
+      }
+      size += valueSize;
       items.push(value);
       wake();
     },
@@ -70,14 +100,12 @@ export function queueObservable<T>(observable: Observable<T>): EventQueue<T> {
         waiting = { resolve, reject };
       });
     },
-    stop() {
-      ended = true;
-      subscription?.unsubscribe();
-      subscription = null;
-      wake();
-    },
+    stop,
     get length() {
       return items.length - head;
+    },
+    get size() {
+      return size;
     },
   };
 }

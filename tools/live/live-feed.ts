@@ -1,8 +1,6 @@
 // The network side of `fringetally listen`: the WebSocket feed with its live page (--serve) and the MQTT publisher
-// (--mqtt), both fed with the raw samples of every processed block through the stream API's shared axis builder.
+// (--mqtt), both subscribed to the session's own axes (the chain the rows come from).
 import { readFileSync } from 'node:fs';
-import { Subject, type Subscription } from 'rxjs';
-import type { EllipseCalibration } from '../../src/core/index.js';
 import {
   createMqttPublisher,
   isLoopbackHost,
@@ -13,10 +11,8 @@ import {
   type MqttPublisherHealth,
   type MqttPublisherOptions,
 } from '../../src/io/feed/index.js';
-import { createAxes, type AxisBlock } from '../../src/stream/index.js';
-import type { MeasureSettings } from '../capture-run.js';
+import type { Axes } from '../../src/stream/index.js';
 import { numberOption, UsageError } from '../cli-kit.js';
-import type { LiveBlock } from './live-session.js';
 
 export const feedOptionSpecs = {
   serve: { type: 'string' },
@@ -54,7 +50,7 @@ export const feedOptionHelp = `Network feed (read-only: nothing a client sends c
   --mqtt-ca FILE           PEM CA certificate(s) that signed the broker's certificate (mqtts:// URLs;
                            default: the system's CAs)
   --mqtt-cert FILE, --mqtt-key FILE   PEM client certificate and key, for brokers that require them
-The feed's zero is the first sample it sees: the first sample with a file calibration, the first after a live fit.`;
+The feed shows the rows' own chain: the same count, zero (the first sample) and alarms.`;
 
 export interface FeedSettings {
   readonly serve: {
@@ -139,11 +135,8 @@ export function feedSettingsOf(values: Record<string, string | boolean | string[
 }
 
 export interface LiveFeed {
-  /** Starts the feed's chain on the first samples: from then on updates flow (state `live`). Once. */
-  start(stream: { readonly rateHz: number; readonly settings: MeasureSettings; readonly calibration: EllipseCalibration | null }): void;
-  readonly started: boolean;
-  /** Hands the block's raw samples (and any gap before them) to the feed's axis. */
-  push(block: Pick<LiveBlock, 'x' | 'y' | 'length' | 'gapBefore'>): void;
+  /** Attaches the session's axes on the first samples: from then on updates flow (state `live`). Once. */
+  start(axes: Axes, rateHz: number): void;
   /** Lines for the log: where the feed is (the token never appears, only where it came from). */
   describe(): string[];
   /** The MQTT publisher's link to its broker, for the summary; null without --mqtt. */
@@ -154,50 +147,25 @@ export interface LiveFeed {
 /**
  * Opens the feed at launch: the WebSocket server listens (state `waiting`) and the MQTT publisher connects in
  * the background, before any sample arrives. A broker that is down never fails this: its outages go to `log`.
+ * Both serve the session's own axes (the chain the rows come from) once `start` attaches them.
  */
 export async function openLiveFeed(
   feedSettings: FeedSettings,
-  /** The feed's chain failed: it sends nothing more, while the caller's own rows go on. */
+  /** The feed's hold on the chain failed: it sends nothing more, while the caller's own rows go on. */
   onError: (error: Error) => void,
   log: (line: string) => void,
 ): Promise<LiveFeed> {
-  const blocks = new Subject<AxisBlock>();
-  const server: FeedServer | null = feedSettings.serve === null ? null : await startFeedServer(feedSettings.serve);
+  const server: FeedServer | null = feedSettings.serve === null ? null : await startFeedServer({ ...feedSettings.serve, onSourceError: (error) => onError(error instanceof Error ? error : new Error(String(error))) });
   let publisher: MqttPublisher | null = null;
   if (feedSettings.mqtt !== null) {
     const url = feedSettings.mqtt.url ?? 'mqtt://127.0.0.1:1883';
     publisher = createMqttPublisher({ ...feedSettings.mqtt, onEvent: (event) => log(mqttEventLine(url, event)) });
   }
-  let keepAlive: Subscription | null = null;
   return {
-    get started() {
-      return keepAlive !== null;
-    },
-    start(stream) {
-      const { settings } = stream;
-      const axes = createAxes(blocks, {
-        axes: [
-          {
-            name: 'X',
-            rateHz: stream.rateHz,
-            wavelengthM: settings.wavelengthM,
-            fold: settings.fold,
-            refractiveIndex: settings.refractiveIndex,
-            lengthScale: settings.lengthScale,
-            bandwidthHz: settings.bandwidthHz,
-            unwrap: settings.unwrap,
-            calibration: stream.calibration,
-          },
-        ],
-      });
-      // Holds the chain open so that the feed's reference survives clients coming and going.
-      keepAlive = axes.connect({ error: (error: unknown) => onError(error instanceof Error ? error : new Error(String(error))) });
-      const source = { axes, rateHz: stream.rateHz };
+    start(axes, rateHz) {
+      const source = { axes, rateHz };
       server?.attach(source);
       publisher?.attach(source);
-    },
-    push(block) {
-      blocks.next({ x: block.x, y: block.y, length: block.length, gapBefore: block.gapBefore });
     },
     describe() {
       const serve = feedSettings.serve;
@@ -217,8 +185,6 @@ export async function openLiveFeed(
       return publisher?.health ?? null;
     },
     async close() {
-      blocks.complete();
-      keepAlive?.unsubscribe();
       await server?.close();
       await publisher?.close();
     },

@@ -1,22 +1,24 @@
 // The one-line live status of `fringetally listen` on a terminal, redrawn at most five times per second, with log
 // lines printed above it. Without a terminal only the log lines are written.
 import { alarmText } from '../../src/core/index.js';
-import type { LiveStatus } from './live-session.js';
+import type { LinkReaderStatus } from '../../src/io/live/index.js';
+import type { LiveProgress } from './live-session.js';
 
 /** Redraws per second at most: faster is unreadable and costs terminal time at high sample rates. */
 const REDRAW_INTERVAL_MS = 200;
 
-export function formatStatus(status: Readonly<LiveStatus>, fitSamples: number): string {
-  const parts = [`link ${status.link}`];
-  if (status.calibration === 'fitting') {
-    parts.push(`fitting correction ${Math.min(status.samplesDelivered, fitSamples)}/${fitSamples} samples`);
-  } else if (status.samplesProcessed > 0) {
-    parts.push(`${(status.positionM * 1e6).toFixed(4)} µm`, `${(status.velocityMS * 1e3).toFixed(4)} mm/s`, `level ${status.level.toFixed(3)}`);
-    parts.push(`alarms: ${alarmText(status.flags) || 'none'}`);
+export function formatStatus(progress: Readonly<LiveProgress>, link: Readonly<LinkReaderStatus> | null, fitSamples: number): string {
+  if (link === null) return 'waiting';
+  const parts = [`link ${link.link}`];
+  if (progress.calibration === 'fitting') {
+    parts.push(`fitting correction ${Math.min(link.samplesDelivered, fitSamples)}/${fitSamples} samples`);
+  } else if (progress.samplesProcessed > 0) {
+    parts.push(`${(progress.positionM * 1e6).toFixed(4)} µm`, `${(progress.velocityMS * 1e3).toFixed(4)} mm/s`, `level ${progress.level.toFixed(3)}`);
+    parts.push(`alarms: ${alarmText(progress.flags) || 'none'}`);
   }
-  if (status.wire !== null) parts.push(`frames ${status.wire.framesGood}`, `crc fail ${status.wire.crcFailures}`, `resyncs ${status.wire.resyncs}`);
-  if (status.text !== null) parts.push(`lines ${status.text.linesGood}`, `malformed ${status.text.linesMalformed}`);
-  parts.push(`gaps ${status.gaps}${status.gaps > 0 ? ` (${status.lostSamples} lost)` : ''}`);
+  if (link.wire !== null) parts.push(`frames ${link.wire.framesGood}`, `crc fail ${link.wire.crcFailures}`, `resyncs ${link.wire.resyncs}`);
+  if (link.text !== null) parts.push(`lines ${link.text.linesGood}`, `malformed ${link.text.linesMalformed}`);
+  parts.push(`gaps ${link.gaps}${link.gaps > 0 ? ` (${link.lostSamples} lost)` : ''}`);
   return parts.join(' | ');
 }
 

@@ -5,7 +5,7 @@ import { Observable, type OperatorFunction } from 'rxjs';
 import { createEdgeLatch, type EdgeLatch, type EdgePosition } from '../../core/index.js';
 import type { LinkEvent } from '../serial/index.js';
 import type { LinkGap } from './link-reader.js';
-import type { LiveBlock } from './track-link.js';
+import type { LivePositions } from './track-link.js';
 
 /** The position of one axis at one edge, with the time base. */
 export interface LiveEdgePosition extends EdgePosition {
@@ -19,7 +19,7 @@ export interface LiveEdgePosition extends EdgePosition {
 }
 
 /** Readings the operator takes: what `trackLink(...).readings$` hands out. */
-type Reading = LiveBlock | LinkGap | LinkEvent | { readonly kind: string };
+type Reading = LivePositions | LinkGap | LinkEvent | { readonly kind: string };
 
 /**
  * Live readings → the position of every axis at every edge the frames carry, in time order per axis, as soon
@@ -42,8 +42,8 @@ export function latchEdges(options: { readonly timeResolutionSamples?: number } 
       };
       return readings$.subscribe({
         next(reading) {
-          if (reading.kind !== 'samples') return;
-          const { block, summaries } = reading as LiveBlock;
+          if (reading.kind !== 'positions') return;
+          const { block, summaries } = reading as LivePositions;
           rateHz = block.rateHz;
           summaries.forEach((summary, k) => {
             if (latches[k] === undefined) {

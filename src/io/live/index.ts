@@ -14,7 +14,8 @@ export {
   type LinkReading,
   type LiveAxes,
   type LiveAxisOptions,
-  type LiveBlock,
+  type LiveFit,
+  type LivePositions,
   type LiveReading,
   type TrackLinkOptions,
 } from './track-link.js';

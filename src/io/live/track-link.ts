@@ -2,7 +2,8 @@
 // one pipeline per axis → per-subscriber position, velocity, alarms and status. Every sink of a live session
 // (rows, status, recorder, network feeds) subscribes to the one shared chain, so all see the same count.
 
-import { Observable, OperatorFunction, filter, map, share } from 'rxjs';
+import { Observable, filter, map, share, type OperatorFunction, type Subscription } from 'rxjs';
+import { createTwoPassFit, integerInRange, positiveFinite, type EllipseCalibration, type EllipseFitResult } from '../../core/index.js';
 import {
   createAxesRunner,
   createAxesView,
@@ -53,11 +54,14 @@ export function readLink(options: LinkOptions = {}): OperatorFunction<ByteSource
     });
 }
 
-/** One axis of a live link: the pipeline options, the rate aside (it comes from the frames or `link.rateHz`). */
-export type LiveAxisOptions = Omit<AxisOptions, 'rateHz'>;
+/**
+ * One axis of a live link: the pipeline options without the rate (it comes from the frames or `link.rateHz`).
+ * `calibration: 'fit'` fits the correction live to the first samples (see `TrackLinkOptions.fitSamples`).
+ */
+export type LiveAxisOptions = Omit<AxisOptions, 'rateHz' | 'calibration'> & { readonly calibration?: EllipseCalibration | null | 'fit' };
 
 export interface TrackLinkOptions extends Omit<AxesRunnerOptions, 'axes'>, AxesViewOptions {
-  /** Axis k reads channels 2k (x) and 2k + 1 (y); 1..8 axes. */
+  /** Axis k reads channels 2k (x) and 2k + 1 (y) unless its `channelPair` says otherwise; 1..8 axes. */
   readonly axes: readonly LiveAxisOptions[];
   /** How the bytes are read: frames or text lines, frame size limit, sample rate when the frames carry none. */
   readonly link?: LinkOptions;
@@ -66,25 +70,56 @@ export interface TrackLinkOptions extends Omit<AxesRunnerOptions, 'axes'>, AxesV
    * the position at the mark reads zero. Default true; false leaves the marks to `latchEdges` only.
    */
   readonly referenceMarks?: boolean;
+  /**
+   * Samples held back for a live fit; integer 64..2^24, default 16384. No position is made until every axis
+   * with `calibration: 'fit'` has its fit (two passes, the second gated on the first); then the held samples go through the
+   * pipelines first, so none is lost. A failed fit is retried every as many further samples.
+   */
+  readonly fitSamples?: number;
+  /** Fit attempts before the stream ends with an error; integer 1..64, default 8. */
+  readonly fitAttempts?: number;
+  /**
+   * The stream completes after this many seconds of samples: at absolute index round(durationS × rate), lost
+   * samples counted (at least 1 sample), cut inside a block if need be. Positive; default: never.
+   */
+  readonly durationS?: number;
 }
 
-/** A block of samples with every axis' position block for it (`summaries`, reused: read inside `next`). */
-export interface LiveBlock {
-  readonly kind: 'samples';
+/**
+ * Every axis' position block for one block of samples, with the block of samples it was made from (its edges
+ * included; `block` and `summaries` are reused: read inside `next`).
+ */
+export interface LivePositions {
+  readonly kind: 'positions';
+  readonly rateHz: number;
   readonly block: LinkBlock;
   readonly summaries: readonly AxisBlockSummary[];
 }
 
-export type LiveReading = LiveBlock | LinkGap | LinkEvent;
+/** A live fit attempt of one axis. */
+export interface LiveFit {
+  readonly kind: 'fit';
+  readonly axis: string;
+  readonly result: EllipseFitResult;
+  readonly heldSamples: number;
+  /** True on success, and on the failure after which no further attempt is made. */
+  readonly final: boolean;
+}
+
+/**
+ * In order: every block of samples as decoded (before any fit hold), every position block, the gaps, link
+ * changes and fit attempts.
+ */
+export type LiveReading = LinkBlock | LivePositions | LinkGap | LinkEvent | LiveFit;
 
 export interface LiveAxes extends Axes {
-  /** Everything in order: position blocks of all axes, gaps, link changes. Shared with the axes. */
+  /** Everything in order (see `LiveReading`). Shared with the axes. */
   readonly readings$: Observable<LiveReading>;
   /** Link changes (up, down and why). */
   readonly link$: Observable<LinkEvent>;
   /** Gaps: samples lost in transport, with their absolute index and cause. */
   readonly gaps$: Observable<LinkGap>;
-  /** The running reader's counters (link, samples, gaps, decoder); null while nothing runs. */
+  /** The running reader's counters (link, samples, gaps, decoder); null before the first subscription. */
   readonly linkStatus: Readonly<LinkReaderStatus> | null;
   /**
    * Zero (or preset to `presetM`, m) one axis or every axis at the next sample, and clear its count-lost latch
@@ -96,21 +131,80 @@ export interface LiveAxes extends Axes {
 
 /** A rate used only to check the axis options before the frames tell the true one; no rate rule binds at it. */
 const PROBE_RATE_HZ = 1e12;
+/** Samples per block when the held samples go through the pipelines after a live fit. */
+const REPLAY_BLOCK = 16_384;
+
+/** Interleaved samples held back during a live fit, in segments that keep their gaps and channel counts. */
+function createHoldStore() {
+  let values = new Int16Array(0);
+  let used = 0;
+  const segments: {
+    start: number;
+    samples: number;
+    channelCount: number;
+    gapBefore: number;
+    sampleIndex: number;
+    rateHz: number;
+    edgeTime: Float64Array;
+    edgeLine: Uint8Array;
+    edgeRising: Uint8Array;
+  }[] = [];
+  return {
+    get samples() {
+      return segments.reduce((sum, segment) => sum + segment.samples, 0);
+    },
+    segments,
+    get values() {
+      return values;
+    },
+    add(block: LinkBlock): void {
+      const length = block.samplesPerFrame * block.channelCount;
+      if (used + length > values.length) {
+        const grown = new Int16Array(Math.max(2 * values.length, used + length, 65_536));
+        grown.set(values.subarray(0, used));
+        values = grown;
+      }
+      values.set(block.samples.subarray(0, length), used);
+      segments.push({
+        start: used,
+        samples: block.samplesPerFrame,
+        channelCount: block.channelCount,
+        gapBefore: block.gapBefore,
+        sampleIndex: block.sampleIndex,
+        rateHz: block.rateHz,
+        edgeTime: block.edgeTime.slice(0, block.edgeCount),
+        edgeLine: block.edgeLine.slice(0, block.edgeCount),
+        edgeRising: block.edgeRising.slice(0, block.edgeCount),
+      });
+      used += length;
+    },
+    clear(): void {
+      values = new Int16Array(0);
+      used = 0;
+      segments.length = 0;
+    },
+  };
+}
 
 /**
  * Tracks the axes of a byte source. Options are checked here (the rate's own rules again at the first
  * samples when the frames give it); the source opens with the first subscriber (or `connect()`) and closes
- * after the last leaves. The stream ends with an error when the source gives up or the frames contradict the
- * options.
+ * after the last leaves. The stream ends with an error when the source gives up, the frames contradict the
+ * options or a live fit fails for good.
  */
 export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAxes {
   const link = options.link ?? {};
-  const runnerOptions = (rateHz: number): AxesRunnerOptions => ({
-    axes: options.axes.map((axis) => ({ ...axis, rateHz })),
+  const fitSamples = integerInRange('fitSamples', options.fitSamples ?? 16_384, 64, 2 ** 24);
+  const fitAttempts = integerInRange('fitAttempts', options.fitAttempts ?? 8, 1, 64);
+  const durationS = options.durationS === undefined ? undefined : positiveFinite('durationS', options.durationS);
+  const fitted = options.axes.map((axis) => axis.calibration === 'fit');
+  const runnerOptions = (rateHz: number, calibrations: readonly (EllipseCalibration | null | undefined)[]): AxesRunnerOptions => ({
+    axes: options.axes.map((axis, k) => ({ ...axis, rateHz, calibration: calibrations[k] })),
     ...(options.tracePoints === undefined ? {} : { tracePoints: options.tracePoints }),
     ...(options.tracePointsPerBlock === undefined ? {} : { tracePointsPerBlock: options.tracePointsPerBlock }),
   });
-  const probe = createAxesRunner(runnerOptions(link.rateHz ?? PROBE_RATE_HZ));
+  const given = options.axes.map((axis) => (axis.calibration === 'fit' ? null : axis.calibration));
+  const probe = createAxesRunner(runnerOptions(link.rateHz ?? PROBE_RATE_HZ, given));
   readLink(link);
   let running: AxesRunner | null = null;
   let refractiveIndex: number | null = null;
@@ -118,43 +212,155 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
 
   const readings$ = new Observable<LiveReading>((subscriber) => {
     let runner: AxesRunner | null = null;
-    const reading: { kind: 'samples'; block: LinkBlock; summaries: readonly AxisBlockSummary[] } = { kind: 'samples', block: null!, summaries: [] };
+    let rateHz = Number.NaN;
+    const calibrations = [...given];
+    const holding = fitted.includes(true);
+    const held = createHoldStore();
+    let nextFitAt = fitSamples;
+    let attempts = 0;
+    let ended = false;
+    let stopAt = Number.POSITIVE_INFINITY;
+    const positions: { kind: 'positions'; rateHz: number; block: LinkBlock; summaries: readonly AxisBlockSummary[] } = {
+      kind: 'positions',
+      rateHz: Number.NaN,
+      block: null!,
+      summaries: [],
+    };
+
+    function run(block: LinkBlock): void {
+      if (runner === null) {
+        runner = createAxesRunner(runnerOptions(rateHz, calibrations));
+        if (refractiveIndex !== null) runner.setRefractiveIndex(refractiveIndex);
+        running = runner;
+      }
+      if (options.referenceMarks !== false) referenceAtMarks(runner, block);
+      positions.rateHz = rateHz;
+      positions.block = block;
+      positions.summaries = runner.process(block);
+      subscriber.next(positions);
+    }
+
+    /** Fits every 'fit' axis to the held samples; on success they go through the pipelines. */
+    function tryFit(final: boolean): void {
+      attempts++;
+      const heldSamples = held.samples;
+      const results = options.axes.map((_, k) => (fitted[k] ? fitAxis(held, options.axes[k]!.channelPair ?? k) : null));
+      const ok = results.every((result) => result === null || result.ok);
+      const givingUp = !ok && (final || attempts >= fitAttempts);
+      results.forEach((result, k) => {
+        if (result !== null) subscriber.next({ kind: 'fit', axis: probe.names[k]!, result, heldSamples, final: result.ok || givingUp });
+      });
+      if (!ok) {
+        if (givingUp) {
+          const failed = results.findIndex((result) => result !== null && !result.ok);
+          const reason = (results[failed] as Extract<EllipseFitResult, { ok: false }>).message;
+          throw new Error(
+            `cannot fit the correction of axis ${probe.names[failed]} to the first ${heldSamples} samples (${reason}); ` +
+              'move the stage over at least one fringe while it starts, hold more samples for the fit, or give a calibration',
+          );
+        }
+        nextFitAt += fitSamples;
+        return;
+      }
+      results.forEach((result, k) => {
+        if (result !== null && result.ok) calibrations[k] = result.calibration;
+      });
+      const { values, segments } = held;
+      for (const segment of segments) {
+        for (let done = 0; done < segment.samples; done += REPLAY_BLOCK) {
+          const n = Math.min(REPLAY_BLOCK, segment.samples - done);
+          const from = segment.start + done * segment.channelCount;
+          // The segment's edges go with its first part (they are in absolute sample time).
+          const edgeCount = done === 0 ? segment.edgeTime.length : 0;
+          run({
+            kind: 'samples',
+            samples: values.subarray(from, from + n * segment.channelCount),
+            channelCount: segment.channelCount,
+            samplesPerFrame: n,
+            gapBefore: done === 0 ? segment.gapBefore : 0,
+            sampleIndex: segment.sampleIndex + done,
+            rateHz: segment.rateHz,
+            edgeCount,
+            edgeTime: segment.edgeTime,
+            edgeLine: segment.edgeLine,
+            edgeRising: segment.edgeRising,
+          });
+        }
+      }
+      held.clear();
+    }
+
+    function take(block: LinkBlock): void {
+      rateHz = block.rateHz;
+      subscriber.next(block);
+      if (runner === null && holding) {
+        held.add(block);
+        if (held.samples >= nextFitAt) tryFit(false);
+      } else {
+        run(block);
+      }
+    }
+
+    /** Ends the stream: a last fit over what is held, then complete. */
+    function end(): void {
+      if (ended) return;
+      ended = true;
+      subscription?.unsubscribe();
+      if (runner === null && held.samples > 0) tryFit(true);
+      subscriber.complete();
+    }
+
     const reader = createLinkReader({
       ...link,
       onBlock(block) {
-        if (runner === null) {
-          runner = createAxesRunner(runnerOptions(block.rateHz));
-          if (refractiveIndex !== null) runner.setRefractiveIndex(refractiveIndex);
-          running = runner;
+        if (ended) return;
+        if (durationS !== undefined && stopAt === Number.POSITIVE_INFINITY) stopAt = Math.max(1, Math.round(durationS * block.rateHz));
+        const n = block.samplesPerFrame;
+        if (block.sampleIndex + n < stopAt) {
+          take(block);
+          return;
         }
-        if (options.referenceMarks !== false) referenceAtMarks(runner, block);
-        reading.block = block;
-        reading.summaries = runner.process(block);
-        subscriber.next(reading);
+        // The stop falls in this block: hand out its part before the stop, then end.
+        const keep = stopAt - block.sampleIndex;
+        if (keep > 0) take({ ...block, samples: block.samples.subarray(0, keep * block.channelCount), samplesPerFrame: keep });
+        end();
       },
-      onGap: (gap) => subscriber.next(gap),
-      onLink: (event) => subscriber.next(event),
+      onGap(gap) {
+        if (ended) return;
+        subscriber.next(gap);
+        if (gap.sampleIndex >= stopAt) end();
+      },
+      onLink: (event) => ended || subscriber.next(event),
     });
     linkStatus = reader.status;
-    const subscription = source.open().subscribe({
+    let subscription: Subscription | null = null;
+    subscription = source.open().subscribe({
       next(event) {
         try {
           reader.push(event);
         } catch (error) {
+          ended = true;
           subscriber.error(error);
         }
       },
       error: (error: unknown) => subscriber.error(error),
-      complete: () => subscriber.complete(),
+      complete() {
+        try {
+          end();
+        } catch (error) {
+          subscriber.error(error);
+        }
+      },
     });
+    if (ended) subscription.unsubscribe();
     return () => {
-      subscription.unsubscribe();
+      subscription?.unsubscribe();
       running = null;
     };
   }).pipe(share());
 
   const summaries$ = readings$.pipe(
-    filter((reading): reading is LiveBlock => reading.kind === 'samples'),
+    filter((reading): reading is LivePositions => reading.kind === 'positions'),
     map((reading) => reading.summaries),
   );
   const axes = createAxesView(
@@ -202,4 +408,34 @@ function referenceAtMarks(runner: AxesRunner, block: LinkBlock): void {
       runner.reReference({ axis, atSampleIndex: at, presetM: Number.isFinite(velocity) ? velocity * leadS : 0 });
     });
   }
+}
+
+/**
+ * The two-pass fit of one axis over the held samples (`createTwoPassFit`: all samples, then only those near the
+ * first fit's ellipse), so that a blocked beam or a glitch during the first samples does not pull the fit.
+ */
+function fitAxis(held: ReturnType<typeof createHoldStore>, channelPair: number): EllipseFitResult {
+  const x = new Float64Array(REPLAY_BLOCK);
+  const y = new Float64Array(REPLAY_BLOCK);
+  /** Feeds every held sample of the axis, block by block, to `take`. */
+  const each = (take: (length: number) => void): void => {
+    for (const segment of held.segments) {
+      for (let done = 0; done < segment.samples; done += REPLAY_BLOCK) {
+        const n = Math.min(REPLAY_BLOCK, segment.samples - done);
+        let at = segment.start + done * segment.channelCount + 2 * channelPair;
+        for (let i = 0; i < n; i++) {
+          x[i] = held.values[at]!;
+          y[i] = held.values[at + 1]!;
+          at += segment.channelCount;
+        }
+        take(n);
+      }
+    }
+  };
+  const fit = createTwoPassFit();
+  each((n) => fit.add(x, y, n));
+  const first = fit.endPass();
+  if (first !== null) return first;
+  each((n) => fit.add(x, y, n));
+  return fit.endPass()!;
 }

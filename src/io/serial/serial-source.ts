@@ -32,6 +32,12 @@ export interface SerialSourceOptions {
    * Default Infinity (keep waiting for the device).
    */
   readonly maxRetries?: number;
+  /**
+   * Failed open attempts tolerated while the port has never opened (a mistyped path, a device not plugged in)
+   * before the observable errors; integer ≥ 0 or Infinity. Default `maxRetries`. Once the port opened,
+   * `maxRetries` applies.
+   */
+  readonly maxRetriesBeforeFirstOpen?: number;
   /** Makes the port object (closed; the source opens it). Default: `new SerialPort({ path, baudRate, autoOpen: false })`. */
   readonly openPort?: (settings: { readonly path: string; readonly baudRate: number }) => SerialPortHandle;
 }
@@ -43,6 +49,7 @@ export interface SerialSourceConfig {
   readonly maxRetryDelayMs: number;
   readonly backoffFactor: number;
   readonly maxRetries: number;
+  readonly maxRetriesBeforeFirstOpen: number;
 }
 
 function numberIn(name: string, value: number, min: number, max: number, integer: boolean): number {
@@ -60,11 +67,15 @@ export function resolveSerialSourceOptions(options: SerialSourceOptions): Serial
   const retryDelayMs = numberIn('retryDelayMs', options.retryDelayMs ?? 200, 1, 600_000, false);
   const maxRetryDelayMs = numberIn('maxRetryDelayMs', options.maxRetryDelayMs ?? Math.max(5000, retryDelayMs), retryDelayMs, 600_000, false);
   const backoffFactor = numberIn('backoffFactor', options.backoffFactor ?? 2, 1, 10, false);
-  const maxRetries = options.maxRetries ?? Number.POSITIVE_INFINITY;
-  if (!(maxRetries === Number.POSITIVE_INFINITY || (Number.isInteger(maxRetries) && maxRetries >= 0))) {
-    throw new RangeError(`maxRetries must be an integer >= 0 or Infinity (got ${maxRetries})`);
-  }
-  return Object.freeze({ path: options.path, baudRate, retryDelayMs, maxRetryDelayMs, backoffFactor, maxRetries });
+  const retries = (name: string, value: number): number => {
+    if (!(value === Number.POSITIVE_INFINITY || (Number.isInteger(value) && value >= 0))) {
+      throw new RangeError(`${name} must be an integer >= 0 or Infinity (got ${value})`);
+    }
+    return value;
+  };
+  const maxRetries = retries('maxRetries', options.maxRetries ?? Number.POSITIVE_INFINITY);
+  const maxRetriesBeforeFirstOpen = retries('maxRetriesBeforeFirstOpen', options.maxRetriesBeforeFirstOpen ?? maxRetries);
+  return Object.freeze({ path: options.path, baudRate, retryDelayMs, maxRetryDelayMs, backoffFactor, maxRetries, maxRetriesBeforeFirstOpen });
 }
 
 
@@ -117,9 +128,10 @@ export function createSerialByteSource(options: SerialSourceOptions): SerialByte
       function openFailed(error: Error): void {
         failures++;
         reportDown(`open failed: ${error.message}`);
-        if (failures > config.maxRetries) {
+        if (failures > (everUp ? config.maxRetries : config.maxRetriesBeforeFirstOpen)) {
           stopped = true;
-          subscriber.error(new Error(`${name}: gave up after ${failures} failed open attempts; last error: ${error.message}`));
+          const never = everUp ? '' : ' (it never opened: check the path)';
+          subscriber.error(new Error(`${name}: gave up after ${failures} failed open attempts${never}; last error: ${error.message}`));
           return;
         }
         scheduleRetry();
