@@ -24,7 +24,7 @@ import {
 } from '../src/core/index.js';
 import { formatRealRecordings, runRealRecordings, type RealRecordingsResult } from './real-recordings.js';
 
-/** Vacuum wavelength of an unstabilised He-Ne (CIPM 2007, REFERENCES.md) and a single-pass fold of 2. */
+/** Vacuum wavelength of an unstabilised He-Ne (CIPM 2007, docs/references.md) and a single-pass fold of 2. */
 const WAVELENGTH_NM = 632.9908;
 const FOLD = 2;
 const NM_PER_RAD = WAVELENGTH_NM / (2 * Math.PI * FOLD);

@@ -1,6 +1,6 @@
 // Velocity-aided unwrapping: exact count through smooth moves up to 0.8 fringe per sample inside the stated
 // acceleration bound; outside it, never a silent wrong count. Check values are the simulated trajectories
-// themselves (truth); the plain unwrapper's half-fringe limit is common practice (REFERENCES.md).
+// themselves (truth); the plain unwrapper's half-fringe limit is common practice (docs/references.md).
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { aidedAccelerationLimit, createPipeline, createQuadratureSynthesizer, type AlarmEvent, type UnwrapMethod } from '../../src/core/index.js';

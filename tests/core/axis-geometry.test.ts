@@ -1,7 +1,7 @@
 // Angles and the point of interest from several parallel axes. Check values: hand-worked geometry (small-angle and
 // uncertainty), and a rigid body built from its rotation matrix R = R_y(ψ)·R_x(θ) with the readings taken as the
 // intersections of each beam with the turned mirror plane (geometry from the definitions, not the closed forms
-// under test). Abbe error h·θ: common practice (REFERENCES.md; Bryan 1979, memory).
+// under test). Abbe error h·θ: common practice (docs/references.md; Bryan 1979, memory).
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { createAxisGeometry, type BeamPlacement } from '../../src/core/index.js';

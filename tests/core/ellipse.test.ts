@@ -1,6 +1,6 @@
 // Checks of the Heydemann fit. Sources: P. L. M. Heydemann, Appl. Opt. 20(19), 3382-3384 (1981) (published):
 // model, conic, closed form and correction; ml-matrix (third-party general-purpose linear algebra) as an
-// independent least-squares solver; small-error sizes derived from the model (REFERENCES.md).
+// independent least-squares solver; small-error sizes derived from the model (docs/references.md).
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { Matrix, solve as mlSolve } from 'ml-matrix';
@@ -283,7 +283,7 @@ describe('ellipse fit', () => {
   });
 });
 
-describe('uncorrected periodic error sizes (derived from the model, REFERENCES.md)', () => {
+describe('uncorrected periodic error sizes (derived from the model, docs/references.md)', () => {
   /** Amplitude of harmonic k of the phase error atan2(y, x) − φ over one fringe (DFT). */
   function harmonicAmplitude(ellipse: EllipseCalibration, k: number): number {
     const n = 4096;

@@ -1,6 +1,6 @@
 // The "after" periodic error in the phase domain, on slow irregular motion with reversals where no window holds
 // several fringes of steady motion. Check value: the truth, known here because the signal is made from a known
-// phase through the ghost-beam model of Wu & Deslattes (Appl. Opt. 37(28), 1998, published; REFERENCES.md) — the
+// phase through the ghost-beam model of Wu & Deslattes (Appl. Opt. 37(28), 1998, published; docs/references.md) — the
 // estimate must match the periodic error measured against the true phase. Motion, ghost and seed are invented.
 import { describe, expect, it } from 'vitest';
 import { createPhaseDomainEstimator, createRandom, createWindowDetrender, createPeriodicErrorAnalyzer } from '../../src/core/index.js';

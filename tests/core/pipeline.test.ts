@@ -1,5 +1,5 @@
 // Checks of the signal chain: exact count, displacement scale, velocity, alarms and block-split invariance.
-// Check values: v_max = λ·f_s/(2·N·n), 0.158 m/s at 1 MHz and N = 2 (common practice, REFERENCES.md);
+// Check values: v_max = λ·f_s/(2·N·n), 0.158 m/s at 1 MHz and N = 2 (common practice, docs/references.md);
 // λ_vac = 632.9908 nm for an unstabilised He-Ne (CIPM Recommendation 2, 2007, published).
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
@@ -297,7 +297,7 @@ describe('alarms', () => {
   it('reproduces the unambiguous speed limit v_max = λ·f_s/(2·fold·n) (common practice)', () => {
     const limits = createPipeline(baseOptions).speedLimits;
     expect(limits.unambiguousMS).toBeCloseTo((HE_NE_M * 1e6) / (2 * 2 * 1), 12);
-    expect(limits.unambiguousMS).toBeCloseTo(0.158, 3); // REFERENCES.md: 0.158 m/s at 1 MHz, N = 2
+    expect(limits.unambiguousMS).toBeCloseTo(0.158, 3); // docs/references.md: 0.158 m/s at 1 MHz, N = 2
     expect(limits.overspeedMS).toBeCloseTo(limits.unambiguousMS / 2, 12);
     const folded = createPipeline({ ...baseOptions, fold: 4, refractiveIndex: 1.00027 }).speedLimits;
     expect(folded.unambiguousMS).toBeCloseTo((HE_NE_M * 1e6) / (2 * 4 * 1.00027), 12);

@@ -183,7 +183,7 @@ describe('createWelchEstimator', () => {
 
 describe('periodicErrorLinesHz', () => {
   it('puts the fringe frequency at N·n·v/λ and its multiples below the limit', () => {
-    // REFERENCES.md (common practice): Doppler frequency N·n·v/λ; 0.01 m/s, fold 2, λ 632.9908 nm, n = 1: 31 596.04 Hz.
+    // docs/references.md (common practice): Doppler frequency N·n·v/λ; 0.01 m/s, fold 2, λ 632.9908 nm, n = 1: 31 596.04 Hz.
     const lines = periodicErrorLinesHz(-0.01, 632.9908e-9 / 2, 100_000);
     expect(lines.length).toBe(3);
     expect(lines[0]).toBeCloseTo((2 * 0.01) / 632.9908e-9, 6);
@@ -254,7 +254,7 @@ describe('createAveragingDecimator', () => {
 describe('createStabilityAnalyzer', () => {
   it('locates the periodic-error lines at a steady speed, and none when the speed changes', () => {
     // At 5 mm/s with 316.4954 nm per fringe (632.9908 nm, fold 2) the fringe frequency is 15 798.0 Hz
-    // (REFERENCES.md, common practice: N·n·v/λ); a 0.5 nm once-per-fringe error must show there as 0.5/√2 nm RMS.
+    // (docs/references.md, common practice: N·n·v/λ); a 0.5 nm once-per-fringe error must show there as 0.5/√2 nm RMS.
     const rateHz = 1_000_000;
     const metresPerFringe = 632.9908e-9 / 2;
     const n = 2 ** 17;

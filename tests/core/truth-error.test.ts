@@ -6,7 +6,7 @@ import fc from 'fast-check';
 import '../support/property-seed.js';
 import { createTruthComparison } from '../../src/core/index.js';
 
-const FRINGE_M = 632.9908e-9 / 2; // He-Ne, fold 2 (REFERENCES.md, CIPM 2007; fold: common practice)
+const FRINGE_M = 632.9908e-9 / 2; // He-Ne, fold 2 (docs/references.md, CIPM 2007; fold: common practice)
 
 function ramp(samples: number, fringes: number, scale: number, periodicM: number, secondM = 0) {
   const truth = new Float64Array(samples);

@@ -1,9 +1,9 @@
 // Correction beyond the ellipse, tested against a published model of ghost-beam (multi-order cyclic) errors: the
 // detected field is e^{iφ} + Σ g_k·e^{i(kφ+θ_k)} (Wu & Deslattes, Appl. Opt. 37(28), 1998, published: ghost
 // reflections in the general signal form, stated to hold for homodyne detection; multi-order ghost reflections in
-// homodyne interferometers, 2017, published, see REFERENCES.md), seen through an imperfect ellipse (Heydemann,
+// homodyne interferometers, 2017, published, see docs/references.md), seen through an imperfect ellipse (Heydemann,
 // Appl. Opt. 20(19), 1981). Target from the issue: calibrated on a steady move over ≥ 100 fringes at 0.2 % noise,
-// the periodic error on other motion is at most 0.1 nm p-p. nm: 632.9908 nm (CIPM 2007, REFERENCES.md), fold 2.
+// the periodic error on other motion is at most 0.1 nm p-p. nm: 632.9908 nm (CIPM 2007, docs/references.md), fold 2.
 // Ghost weights, ellipse, motions and seeds are invented.
 import { describe, expect, it } from 'vitest';
 import {

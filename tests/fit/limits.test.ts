@@ -1,5 +1,5 @@
 // The acceptance limits every fit method applies. Check values: the real three-output recording (MiniPTI
-// data, MIT licence, see REFERENCES.md) gave a valid pair with quadrature error −53° and amplitude ratio 1.45 that
+// data, MIT licence, see docs/references.md) gave a valid pair with quadrature error −53° and amplitude ratio 1.45 that
 // a fixed ±45° limit refused; the correction's phase-noise gain 1/cos e is Heydemann's model (Appl. Opt. 20(19),
 // 1981: y is divided by cos α), so 70° means 2.9×. The ellipses themselves are invented.
 import { describe, expect, it } from 'vitest';

@@ -1,6 +1,6 @@
 // The calibration_stale alarm. Check values: the bounds are the stage's stated defaults (5 % of the radius; RMS
 // scatter 3× the fit's residual, at least 1 %), and a ghost beam of weight g adds a radius term g·cos((k−1)φ + θ)
-// whose RMS is g/√2 (Wu & Deslattes, Appl. Opt. 37(28), 1998, published; see REFERENCES.md). Signals are invented.
+// whose RMS is g/√2 (Wu & Deslattes, Appl. Opt. 37(28), 1998, published; see docs/references.md). Signals are invented.
 import { describe, expect, it } from 'vitest';
 import { createModelWatch, createRandom, OptionError, type ModelWatchEvent } from '../../src/core/index.js';
 

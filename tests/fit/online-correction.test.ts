@@ -1,5 +1,5 @@
 // Checks of the drift-tracking online correction on invented synthetic captures. Sources: Heydemann, Appl. Opt.
-// 20(19), 1981 (published): the model and correction; REFERENCES.md (common practice): RLS with exponential
+// 20(19), 1981 (published): the model and correction; docs/references.md (common practice): RLS with exponential
 // forgetting is the exact online form of the batch fit, so a drift slow beside its memory is followed with a lag of
 // about the memory; small-error sizes: an offset error of ε·R gives a once-per-fringe error of ε rad (derived).
 import { describe, expect, it } from 'vitest';

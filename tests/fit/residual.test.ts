@@ -1,5 +1,5 @@
 // What the ellipse misses. Check values: (1) the ghost-beam model of Wu & Deslattes, Appl. Opt. 37(28) (1998)
-// (published; for homodyne ghost reflections see REFERENCES.md): a detected signal e^{iφ} + g·e^{i(kφ+θ)} has
+// (published; for homodyne ghost reflections see docs/references.md): a detected signal e^{iφ} + g·e^{i(kφ+θ)} has
 // radius ≈ 1 + g·cos((k−1)φ + θ), so the radius harmonic of order k − 1 has amplitude g; (2) the Allan variance
 // of white noise falls as τ^−1 and of a random walk rises as τ^+1, i.e. spectral slopes 0 and −2 (Allan, Proc.
 // IEEE 54(2), 1966, published). Signals and seeds are invented.

@@ -30,8 +30,8 @@ const standardArgs = ['--temperature-c', '20', '--pressure-pa', '101325', '--hum
 
 describe('fringetally air', () => {
   it('--json prints n and wavelengthAirNm matching the check value', () => {
-    // Third-party doc check value (REFERENCES.md): 20 °C, 80 % RH, 101325 Pa, 450 µmol/mol, 633 nm,
-    // modified Edlén n = 1.0002711197635226; tolerance 1e-12 as in REFERENCES.md.
+    // Third-party doc check value (docs/references.md): 20 °C, 80 % RH, 101325 Pa, 450 µmol/mol, 633 nm,
+    // modified Edlén n = 1.0002711197635226; tolerance 1e-12 as in docs/references.md.
     const run = fringetally('air', ...standardArgs, '--equation', 'edlen', '--json');
     expect(run.status).toBe(0);
     const report = JSON.parse(run.stdout) as { n: number; wavelengthAirNm: number; equation: string; warnings: string[] };
@@ -74,7 +74,7 @@ describe('fringetally air', () => {
     const warned = fringetally(...args, '--json');
     expect(warned.status).toBe(0);
     expect(warned.stderr).toMatch(/^warning: temperatureC = 60 °C is outside the stated validity range/);
-    // Third-party doc check value (REFERENCES.md) at 60 °C, 80 % RH; tolerance 1e-12.
+    // Third-party doc check value (docs/references.md) at 60 °C, 80 % RH; tolerance 1e-12.
     expect(Math.abs((JSON.parse(warned.stdout) as { n: number }).n - 1.0002339748542823)).toBeLessThan(1e-12);
     const strict = fringetally(...args, '--strict');
     expect(strict.status).toBe(2);

@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import {
   airIndexSensitivities,
+  airIndexValidity,
   refractiveIndexOfAir,
   saturationVapourPressurePa,
   type AirIndexEquation,
@@ -11,8 +12,8 @@ import { OptionError } from '../../src/core/options.js';
 const standard = { pressurePa: 101_325, co2Ppm: 450, vacuumWavelengthM: 633e-9 } as const;
 
 describe('refractiveIndexOfAir: check values', () => {
-  // Third-party doc (REFERENCES.md): a public refractive-index package implementing the NIST equations,
-  // λ_vac = 633.0 nm, p = 101325 Pa, CO2 = 450 µmol/mol. Tolerances from REFERENCES.md: 1e-12 for the modified
+  // Third-party doc (docs/references.md): a public refractive-index package implementing the NIST equations,
+  // λ_vac = 633.0 nm, p = 101325 Pa, CO2 = 450 µmol/mol. Tolerances from docs/references.md: 1e-12 for the modified
   // Edlén (closed-form, both sides evaluate the same arithmetic), 1e-9 for Ciddor (independent implementations
   // differ in the gas constant and the order of the compressibility terms).
   const table: readonly (readonly [number, number, number, number])[] = [
@@ -30,7 +31,7 @@ describe('refractiveIndexOfAir: check values', () => {
   });
 
   it('shop-floor formula: hand-worked value at 20 °C, 101.325 kPa, 50 % RH', () => {
-    // Stone & Zimmerman, Appendix B (published via REFERENCES.md): 1 + 7.86e-4·101.325/293 − 1.5e-11·50·(400 + 160)
+    // Stone & Zimmerman, Appendix B (published via docs/references.md): 1 + 7.86e-4·101.325/293 − 1.5e-11·50·(400 + 160)
     // = 1 + 2.7181 40 6e-4 − 4.2e-7 = 1.000271393823 (worked by hand). Tolerance 1e-12: rounding of the hand sum.
     const result = refractiveIndexOfAir({ ...standard, temperatureC: 20, relativeHumidityPct: 50, equation: 'shopfloor' });
     expect(Math.abs(result.n - 1.000271393823)).toBeLessThan(1e-12);
@@ -38,7 +39,7 @@ describe('refractiveIndexOfAir: check values', () => {
   });
 
   it('shop-floor formula stays within about 5e-8 of the modified Edlén over its stated range', () => {
-    // Stone & Zimmerman, Appendix B (REFERENCES.md): within about 5e-8 over 15–25 °C, 95–105 kPa, 0–80 % RH.
+    // Stone & Zimmerman, Appendix B (docs/references.md): within about 5e-8 over 15–25 °C, 95–105 kPa, 0–80 % RH.
     // Tolerance 6e-8: "about"; the worst case found on a grid here is 5.3e-8, at the corner 15 °C, 95 kPa, 80 %.
     fc.assert(
       fc.property(
@@ -58,7 +59,7 @@ describe('refractiveIndexOfAir: check values', () => {
 });
 
 describe('refractiveIndexOfAir: sensitivities near 20 °C, 101.325 kPa, 50 % RH', () => {
-  // Common practice (REFERENCES.md, also computed): about −0.96 ppm/K, +0.27 ppm/hPa, −0.0085 ppm per % RH.
+  // Common practice (docs/references.md, also computed): about −0.96 ppm/K, +0.27 ppm/hPa, −0.0085 ppm per % RH.
   // Tolerances ±0.02 ppm/K, ±0.005 ppm/hPa, ±0.0005 ppm/% cover the rounding of the quoted figures.
   it.each(['ciddor', 'edlen'] as const)('%s', (equation) => {
     const slopes = airIndexSensitivities({
@@ -169,6 +170,40 @@ describe('refractiveIndexOfAir: validity ranges', () => {
     const infrared = refractiveIndexOfAir({ ...standard, temperatureC: 20, relativeHumidityPct: 50, vacuumWavelengthM: 1695e-9, equation: 'ciddor' });
     expect(infrared.warnings.map((warning) => warning.quantity)).toEqual(['vacuumWavelengthM']);
     expect(refractiveIndexOfAir({ ...standard, temperatureC: 20, relativeHumidityPct: 50, vacuumWavelengthM: 1550e-9, pressurePa: 85_000, equation: 'ciddor' }).warnings).toEqual([]);
+  });
+
+  it('modified Edlén agrees with Ciddor within 4e-8 over its range', () => {
+    // The modified Edlén's range is derived, not stated by its papers (docs/metrology.md): the box where it agrees
+    // with Ciddor's independent equations within 4e-8. Every corner and midpoint of the box; worst found 3.7e-8.
+    const range = airIndexValidity.edlen;
+    const points = (quantity: keyof typeof range): number[] => {
+      const { min, max } = range[quantity];
+      return [min, (min + max) / 2, max];
+    };
+    let worst = 0;
+    for (const temperatureC of points('temperatureC'))
+      for (const pressurePa of points('pressurePa'))
+        for (const relativeHumidityPct of points('relativeHumidityPct'))
+          for (const co2Ppm of points('co2Ppm'))
+            for (const vacuumWavelengthM of points('vacuumWavelengthM')) {
+              const conditions = { temperatureC, pressurePa, relativeHumidityPct, co2Ppm, vacuumWavelengthM };
+              const edlen = refractiveIndexOfAir({ ...conditions, equation: 'edlen', outOfRange: 'error' }).n;
+              const ciddor = refractiveIndexOfAir({ ...conditions, equation: 'ciddor', outOfRange: 'error' }).n;
+              worst = Math.max(worst, Math.abs(edlen - ciddor));
+            }
+    expect(worst).toBeLessThan(4e-8);
+    // Just outside the box the two part beyond the bound, which is why it ends there (third-party values above).
+    const hot = { ...standard, temperatureC: 60, relativeHumidityPct: 80 };
+    const apart = refractiveIndexOfAir({ ...hot, equation: 'edlen' }).n - refractiveIndexOfAir(hot).n;
+    expect(Math.abs(apart)).toBeGreaterThan(4e-8);
+    expect(refractiveIndexOfAir({ ...standard, temperatureC: 20, relativeHumidityPct: 50, pressurePa: 70_000, equation: 'edlen' }).warnings.map((w) => w.quantity)).toEqual(['pressurePa']);
+  });
+
+  it('takes a relative humidity of 100 % as given, at the edge of every range, without a warning', () => {
+    for (const temperatureC of [0, 7.3, 20, 40]) {
+      const result = refractiveIndexOfAir({ ...standard, temperatureC, relativeHumidityPct: 100, outOfRange: 'error' });
+      expect(result.relativeHumidityPct).toBe(100);
+    }
   });
 
   it('warns for each quantity out of range', () => {

@@ -4,7 +4,7 @@ import { cosineErrorM, deadPathCorrectionM } from '../../src/core/metrology/inde
 
 describe('deadPathCorrectionM', () => {
   it('corrects a 1e-6 index change over a 200 mm dead path: hand-worked example', () => {
-    // Common practice (REFERENCES.md): dead-path error ≈ D·Δn. Hand-worked: D = 0.2 m, Δn = 1e-6 (about a 1 K
+    // Common practice (docs/references.md): dead-path error ≈ D·Δn. Hand-worked: D = 0.2 m, Δn = 1e-6 (about a 1 K
     // change of the air) gives −D Δn / n_now = −0.2e-6 / 1.000272 = −1.99945615e-7 m, about −200 nm.
     const correction = deadPathCorrectionM({ deadPathM: 0.2, indexAtDatum: 1.000271, indexNow: 1.000272 });
     expect(Math.abs(correction - -1.99945615e-7)).toBeLessThan(1e-15);
@@ -36,7 +36,7 @@ describe('deadPathCorrectionM', () => {
 
 describe('cosineErrorM', () => {
   it('gives L θ²/2 for a 1 mrad misalignment over 1 m: hand-worked example', () => {
-    // Common practice (REFERENCES.md): cosine error L (1 − cos θ) ≈ L θ²/2. Hand-worked: 1 m, 1 mrad: 0.5 µm;
+    // Common practice (docs/references.md): cosine error L (1 − cos θ) ≈ L θ²/2. Hand-worked: 1 m, 1 mrad: 0.5 µm;
     // the next series term, −L θ⁴/24 = −4.2e-14 m, sets the tolerance.
     expect(Math.abs(cosineErrorM({ lengthM: 1, misalignmentRad: 1e-3 }) - 5e-7)).toBeLessThan(1e-13);
   });

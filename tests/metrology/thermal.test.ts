@@ -53,7 +53,7 @@ describe('lengthAtReferenceTemperatureM (ISO 1, 20 °C)', () => {
 
 describe('materials table', () => {
   it('holds the published Swyt (1994) values and tags every entry with its source', () => {
-    // D. A. Swyt, J. Res. NIST 99(1), 31 (1994) (published, REFERENCES.md): aluminium 23.1, steel 11.5, silicon 2.6 ×1e-6 /K.
+    // D. A. Swyt, J. Res. NIST 99(1), 31 (1994) (published, docs/references.md): aluminium 23.1, steel 11.5, silicon 2.6 ×1e-6 /K.
     expect(materialByKey('aluminium').expansionPerK).toBe(23.1e-6);
     expect(materialByKey('steel').expansionPerK).toBe(11.5e-6);
     expect(materialByKey('silicon').expansionPerK).toBe(2.6e-6);

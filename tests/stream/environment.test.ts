@@ -1,6 +1,6 @@
 // The environment changing during a run: the refractive index moves the scale of the reading, not the count.
 // Check values: position = fringes · λ_vac / (fold · n) (common practice); Ciddor n at 20 °C, 101325 Pa,
-// 20 % RH, 450 ppm CO2, 633 nm = 1.0002716285340578 (third-party doc, REFERENCES.md; tolerance 1e-9).
+// 20 % RH, 450 ppm CO2, 633 nm = 1.0002716285340578 (third-party doc, docs/references.md; tolerance 1e-9).
 import { describe, expect, it } from 'vitest';
 import { from, lastValueFrom, Subject, toArray } from 'rxjs';
 import { TestScheduler } from 'rxjs/testing';

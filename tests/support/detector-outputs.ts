@@ -1,5 +1,5 @@
 // A simulated detector with 2..4 outputs and a drifting source power, I_k = P(t)·(o_k + a_k·cos(φ − θ_k)) + noise
-// (the model of REFERENCES.md, "three-output demodulation"). Invented test data: the layouts and drifts below are
+// (the model of docs/references.md, "three-output demodulation"). Invented test data: the layouts and drifts below are
 // made up for the checks, not taken from any instrument.
 import { createRandom, type ChannelParameters } from '../../src/core/index.js';
 

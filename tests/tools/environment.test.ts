@@ -1,5 +1,5 @@
 // Environment, material and uncertainty on replay. Check values: n from the core's Ciddor implementation,
-// itself checked against the third-party values in REFERENCES.md (tests/metrology); the steel coefficient
+// itself checked against the third-party values in docs/references.md (tests/metrology); the steel coefficient
 // 11.5e-6 /K (Swyt, J. Res. NIST 99(1), 31 (1994), published); L20 = L_T / (1 + α (T − 20)) (ISO 1, published).
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';

@@ -23,7 +23,7 @@ beforeAll(async () => {
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
-const fringeHz = (2 * 0.005) / 632.9908e-9; // N·v/λ (REFERENCES.md, common practice): 15 798.0 Hz
+const fringeHz = (2 * 0.005) / 632.9908e-9; // N·v/λ (docs/references.md, common practice): 15 798.0 Hz
 
 describe('fringetally spectrum', () => {
   it('shows the once-per-fringe error of an uncorrected offset as a line of the expected size, and marks it', async () => {
@@ -42,7 +42,7 @@ describe('fringetally spectrum', () => {
     const at = Math.round(first / binHz);
     let power = 0;
     for (let k = at - 3; k <= at + 3; k++) power += asd[k]! ** 2 * binHz;
-    // REFERENCES.md (derived from Heydemann's model): an offset ε·R gives a once-per-fringe phase error of ε rad,
+    // docs/references.md (derived from Heydemann's model): an offset ε·R gives a once-per-fringe phase error of ε rad,
     // ε = 120/12000 = 0.01 rad, that is 0.01 · 316.4954 nm / 2π = 0.5037 nm amplitude, 0.3562 nm RMS. The ε²
     // terms and the noise move it by well under 1 %.
     expect(Math.abs(Math.sqrt(power) / (0.01 * (316.4954 / (2 * Math.PI)) / Math.SQRT2) - 1)).toBeLessThan(0.01);

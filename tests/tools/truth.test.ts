@@ -63,7 +63,7 @@ describe('simulate tells the truth about its scenario', () => {
   it('warns beyond the speed limit as emulate does, and reports the true peak speed with overspeed windows', async () => {
     const fast = await fringetally(['simulate', '--out', 'fast.csv', '--motion', 'constant', '--velocity-m-s', '0.5', '--duration-s', '0.001'], dir);
     expect(fast.code).toBe(0);
-    // At 1 MHz and fold 2, λ f_s / (2N) = 0.1582 m/s (REFERENCES.md); a quarter fringe per sample is half of it.
+    // At 1 MHz and fold 2, λ f_s / (2N) = 0.1582 m/s (docs/references.md); a quarter fringe per sample is half of it.
     expect(fast.stderr).toContain('peak speed 0.5000 m/s (unambiguous limit 0.1582 m/s)');
     expect(fast.stderr).toMatch(/note: peak speed 0\.5000 m\/s is above a quarter fringe per sample \(0\.07912 m\/s\): a replay will raise overspeed and lose count/);
     const windowed = await fringetally(['simulate', '--out', 'window.csv', '--motion', 'constant', '--velocity-m-s', '0.01', '--overspeed', '0.0002:0.0001:0.2', '--duration-s', '0.001'], dir);

@@ -5,7 +5,7 @@ import { buildFirmwareProgram, type FirmwareProgram } from './firmware-c.js';
 const ascii = (text: string) => Uint8Array.from(Buffer.from(text, 'ascii'));
 const run = (length: number, byteAt: (i: number) => number) => Uint8Array.from({ length }, (_, i) => byteAt(i));
 
-// Check value: catalogue of parametrised CRC algorithms, CRC-32C row of REFERENCES.md (third-party doc).
+// Check value: catalogue of parametrised CRC algorithms, CRC-32C row of docs/references.md (third-party doc).
 const CATALOGUE_CHECK = { input: ascii('123456789'), crc: 0xe3069283 };
 // 32-byte examples from RFC 3720 (iSCSI) appendix B.4, CRC-32C (memory: recalled, confirmed here by agreeing
 // with the catalogue check through the same code and with the independent C implementation).

@@ -3,7 +3,7 @@
 //
 // Model: the ellipse-corrected phase is φ_m = φ + e(φ), e(φ) = Σ_k a_k cos kφ + b_k sin kφ, k = 1..N. A ghost beam
 // that adds g·e^{i(kφ+θ)} to the detected e^{iφ} gives e ≈ g·sin((k−1)φ + θ) (Wu & Deslattes, Appl. Opt. 37(28),
-// 1998; for homodyne multi-order ghost reflections see REFERENCES.md), which is of this form.
+// 1998; for homodyne multi-order ghost reflections see docs/references.md), which is of this form.
 //
 // Estimation assumption, stated and checked: during the calibration move the true phase is a smooth function of
 // time, a cubic over the whole move (a move at steady velocity, or one that speeds up or slows down gently), and

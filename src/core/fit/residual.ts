@@ -3,7 +3,7 @@
 //
 // Why the radius: a distortion the conic cannot fit shows in the radius and in the phase together. For a ghost beam,
 // the detected signal e^{iφ} + g·e^{i(kφ+θ)} has radius ≈ 1 + g·cos((k−1)φ + θ) and phase error ≈ g·sin((k−1)φ + θ)
-// for small g (the model of Wu & Deslattes, Appl. Opt. 37(28), 1998, for ghost reflections; REFERENCES.md), so a
+// for small g (the model of Wu & Deslattes, Appl. Opt. 37(28), 1998, for ghost reflections; docs/references.md), so a
 // radius harmonic of relative amplitude a can mean a phase error of up to a rad at the same order: a·λ/(4π·fold)
 // of position. The radius is seen directly; the phase error is not (it hides in the motion), which is why the
 // radius is the witness.

@@ -74,9 +74,11 @@ export const airIndexValidity: Readonly<Record<AirIndexEquation, Readonly<Record
     co2Ppm: { min: 0, max: 2000, unit: 'µmol/mol' },
     vacuumWavelengthM: { min: 300e-9, max: 1690e-9, unit: 'm' },
   },
+  // Derived, not stated by the papers: the visible-light box inside Ciddor's range where the two equations agree
+  // within 4e-8 (docs/metrology.md; checked in tests/metrology/air-index.test.ts).
   edlen: {
     temperatureC: { min: 0, max: 40, unit: '°C' },
-    pressurePa: { min: 60_000, max: 120_000, unit: 'Pa' },
+    pressurePa: { min: 80_000, max: 120_000, unit: 'Pa' },
     relativeHumidityPct: { min: 0, max: 100, unit: '%' },
     co2Ppm: { min: 0, max: 2000, unit: 'µmol/mol' },
     vacuumWavelengthM: { min: 350e-9, max: 650e-9, unit: 'm' },
@@ -131,7 +133,11 @@ export function refractiveIndexOfAir(options: AirIndexOptions): AirIndexResult {
   const resolved = resolveConditions(options);
   const outOfRange = oneOf('outOfRange', options.outOfRange ?? 'warn', ['warn', 'error'] as const);
   const vapourPressurePa = vapourPressureOf(resolved);
-  const relativeHumidityPct = (100 * vapourPressurePa) / saturationVapourPressurePa(resolved.temperatureC);
+  // RH as given when given: the round trip through the vapour pressure turned 100 % into 100.00000000000001 %.
+  const relativeHumidityPct =
+    resolved.humidityForm === 'relativeHumidityPct'
+      ? resolved.humidityValue
+      : (100 * vapourPressurePa) / saturationVapourPressurePa(resolved.temperatureC);
   const warnings = validityWarnings(resolved, relativeHumidityPct);
   if (outOfRange === 'error' && warnings.length > 0) {
     const first = warnings[0] as ValidityWarning;
