@@ -1,4 +1,4 @@
-// The live page in headless Chromium at 1400 and 700 px: it connects to its own feed, its readouts follow an
+// The live page in headless Chromium at 1400 and 700 px and on a phone held upright (390 × 844 CSS px, touch): it connects to its own feed, its readouts follow an
 // emulated stage motion driven from a synthetic signal (an invented scenario) and stay on screen, the Lissajous
 // figures have round scales, the level is a number with its threshold named and a trace, times are 24-hour ISO,
 // event values carry units, a raise/clear flood is one row with counts, and a normal end stays the end.
@@ -22,6 +22,8 @@ interface PageElement {
   getBoundingClientRect(): { left: number; right: number; top: number; bottom: number };
   readonly width?: number;
   readonly height?: number;
+  readonly scrollWidth: number;
+  readonly clientWidth: number;
   getContext?(kind: '2d'): { getImageData(x: number, y: number, w: number, h: number): { data: Uint8ClampedArray } };
 }
 declare const window: { innerWidth: number };
@@ -48,12 +50,19 @@ afterAll(async () => {
   await server?.close();
 });
 
-async function scenario(width: number): Promise<void> {
+interface Screen {
+  readonly width: number;
+  readonly height: number;
+  /** A phone: mobile viewport meta honoured, touch, a dense display. */
+  readonly phone?: boolean;
+}
+
+async function scenario({ width, height, phone = false }: Screen): Promise<void> {
   const motion = createMotion();
   const axes = createAxes(motion.source, { axes: [{ ...axisOptions, name: 'X' }], tracePoints: 512, tracePointsPerBlock: 64 });
   await server?.close();
   server = await startFeedServer({ source: { axes, rateHz: axisOptions.rateHz }, token: 'page-test-token-0123456789' });
-  const page = await browser!.newPage({ viewport: { width, height: 900 } });
+  const page = await browser!.newPage({ viewport: { width, height }, ...(phone ? { isMobile: true, hasTouch: true, deviceScaleFactor: 3 } : {}) });
   const pageErrors: string[] = [];
   page.on('pageerror', (error) => pageErrors.push(error.message));
   const offsite: string[] = [];
@@ -93,7 +102,7 @@ async function scenario(width: number): Promise<void> {
   for (const box of layout.readouts) {
     expect(box.left).toBeGreaterThanOrEqual(0);
     expect(box.right).toBeLessThanOrEqual(layout.innerWidth);
-    expect(box.top).toBeLessThan(900);
+    expect(box.top).toBeLessThan(height);
   }
 
   // Figures drawn: count plotted (coloured) pixels on each canvas.
@@ -137,6 +146,12 @@ async function scenario(width: number): Promise<void> {
   expect(overspeedRows[0]!.text).toContain('×6 / ×6');
   // Value with its unit: the clearing step of a stage at rest, in rad/sample and fringe/sample.
   expect(overspeedRows[0]!.text).toMatch(/\d\.\d{3} rad\/sample \(\d\.\d{3} fringe\/sample\)/);
+  // The log reads without sideways scrolling too (on a phone each row is a small card).
+  const log = await page.evaluate(() => {
+    const section = document.querySelector('section.log')!;
+    return { scrollWidth: section.scrollWidth, clientWidth: section.clientWidth };
+  });
+  expect(log.scrollWidth).toBeLessThanOrEqual(log.clientWidth);
 
   // Block the beam: zero modulation (both detectors at their offsets) raises low_signal.
   const dark = { x: new Float64Array(500).fill(axisOptions.calibration!.offsetX), y: new Float64Array(500).fill(axisOptions.calibration!.offsetY), length: 500 };
@@ -167,6 +182,7 @@ async function scenario(width: number): Promise<void> {
 }
 
 describe('live page', () => {
-  it('at 1400 px: follows the motion, scales, level, units, collapsed floods, 24-hour times, and a final end', () => scenario(1400));
-  it('at 700 px: the same, with every readout on screen and nothing wider than the window', () => scenario(700));
+  it('at 1400 px: follows the motion, scales, level, units, collapsed floods, 24-hour times, and a final end', () => scenario({ width: 1400, height: 900 }));
+  it('at 700 px: the same, with every readout on screen and nothing wider than the window', () => scenario({ width: 700, height: 900 }));
+  it('on a phone, 390 px upright: the same, readouts on the first screen, nothing wider than the window', () => scenario({ width: 390, height: 844, phone: true }));
 });

@@ -46,10 +46,20 @@ export function feedPage(nonce: string): string {
   th { font: 12px system-ui, sans-serif; color: var(--muted); }
   td.log-state.raised { color: var(--alarm); }
   td.log-state.cleared { color: var(--corr); }
+  @media (max-width: 1000px) {
+    /* Cells wrap at their spaces (date, time, zone; value, unit) rather than push the log wider than the window. */
+    #log-table th, #log-table td { white-space: normal; padding: 2px 4px; }
+  }
   @media (max-width: 520px) {
     header { padding: 8px 10px; }
     main { padding: 8px; }
     dd.position { font-size: 22px; }
+    /* Seven columns do not fit a phone: each log row becomes a small card, every value after its column's name. */
+    #log-table thead { display: none; }
+    #log-table, #log-table tbody, #log-table tr, #log-table td { display: block; width: auto; }
+    #log-table tr { border-bottom: 1px solid var(--line); padding: 4px 0; }
+    #log-table td { border: 0; padding: 1px 0; white-space: normal; overflow-wrap: anywhere; }
+    #log-table td::before { content: attr(data-label) ": "; font: 12px system-ui, sans-serif; color: var(--muted); }
   }
 </style>
 </head>
@@ -64,7 +74,7 @@ export function feedPage(nonce: string): string {
 <main>
   <section class="log">
     <h2>Alarm log <span class="muted">(newest first; repeated raise/clear of one alarm is one row with counts)</span></h2>
-    <table><thead><tr><th>last change (UTC)</th><th>sample time t</th><th>axis</th><th>alarm</th><th>state</th><th>value</th><th>raised / cleared</th></tr></thead><tbody id="log"></tbody></table>
+    <table id="log-table"><thead><tr><th>last change (UTC)</th><th>sample time t</th><th>axis</th><th>alarm</th><th>state</th><th>value</th><th>raised / cleared</th></tr></thead><tbody id="log"></tbody></table>
   </section>
 </main>
 <script nonce="${nonce}">
@@ -137,12 +147,19 @@ export function feedPage(nonce: string): string {
     g.beginPath(); g.moveTo(w / 2, m); g.lineTo(w / 2, h - m); g.moveTo(m, h / 2); g.lineTo(w - m, h / 2); g.stroke();
     g.fillStyle = "#56616c"; g.font = "11px system-ui, sans-serif"; g.textAlign = "center"; g.textBaseline = "top";
     var values = ticks > 0 ? [-scale, -scale / 2, 0, scale / 2, scale] : [-1, -0.5, 0, 0.5, 1];
+    var text = function (v) { return ticks > 0 ? group3(v) : String(v); };
+    // Long labels (ADC counts) on a small figure would run into each other: then only the ends and zero are labelled.
+    var widest = Math.max.apply(null, values.map(function (v) { return g.measureText(text(v)).width; }));
+    var labelHalves = ticks === 0 || 1.5 * widest + 6 <= inner / 4;
     values.forEach(function (v) {
       var px = w / 2 + (v / scale) * (inner / 2), py = h / 2 - (v / scale) * (inner / 2);
       g.strokeStyle = "#9aa4ad"; g.beginPath(); g.moveTo(px, h - m); g.lineTo(px, h - m + 4); g.moveTo(m - 4, py); g.lineTo(m, py); g.stroke();
-      var label = ticks > 0 ? group3(v) : String(v);
-      g.textAlign = "center"; g.textBaseline = "top"; g.fillText(label, px, h - m + 6);
-      g.save(); g.translate(m - 8, py); g.rotate(-Math.PI / 2); g.textBaseline = "bottom"; g.fillText(label, 0, 0); g.restore();
+      var label = text(v);
+      if (!labelHalves && Math.abs(v) === scale / 2) return;
+      // Labels at the ends run inwards, so the two axes' labels never meet at a corner.
+      var along = ticks > 0 && v === -scale ? "left" : ticks > 0 && v === scale ? "right" : "center";
+      g.textAlign = along; g.textBaseline = "top"; g.fillText(label, px, h - m + 6);
+      g.save(); g.translate(m - 8, py); g.rotate(-Math.PI / 2); g.textAlign = along; g.textBaseline = "bottom"; g.fillText(label, 0, 0); g.restore();
     });
     if (ticks === 0) { g.strokeStyle = "#c3cad1"; g.beginPath(); g.arc(w / 2, h / 2, inner / 2 / scale, 0, 2 * Math.PI); g.stroke(); }
   }
@@ -238,7 +255,9 @@ export function feedPage(nonce: string): string {
     if (groupFound === null) {
       var tr = el("tr", { "class": "event" });
       groupFound = { key: key, row: tr, raised: 0, cleared: 0, lastMs: now, cells: {} };
-      ["time", "t", "axis", "kind", "state", "value", "count"].forEach(function (name) { var td = el("td", { "class": "log-" + name }); tr.appendChild(td); groupFound.cells[name] = td; });
+      [["time", "last change (UTC)"], ["t", "sample time t"], ["axis", "axis"], ["kind", "alarm"], ["state", "state"], ["value", "value"], ["count", "raised / cleared"]].forEach(function (column) {
+        var td = el("td", { "class": "log-" + column[0], "data-label": column[1] }); tr.appendChild(td); groupFound.cells[column[0]] = td;
+      });
       groupFound.cells.axis.textContent = axisName; groupFound.cells.kind.textContent = event.kind;
       groups.unshift(groupFound);
       if (groups.length > LOG_ROWS) { var old = groups.pop(); logEl.removeChild(old.row); }
