@@ -3,10 +3,10 @@
 import { writeFile } from 'node:fs/promises';
 import { SerialPort } from 'serialport';
 import { createCaptureWriter, type CaptureWriter } from '../../src/io/capture/index.js';
-import { WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
+import { WIRE_MAX_EDGES_PER_FRAME, WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
 import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { ellipseOf, motionOf, noiseOf, scenarioOptionSpecs } from '../scenario-options.js';
-import { createFrameEmulator } from '../live/frame-emulator.js';
+import { createFrameEmulator, type TriggerEdges } from '../live/frame-emulator.js';
 
 /** A write the port has not taken after this long ends emulate with an error: nothing reads the port. */
 const STALL_MS = 2000;
@@ -31,6 +31,11 @@ Port and frames:
   --axes N                 axes per frame, 1..8 (default 1); axis k carries (k + 1) times the motion
   --text                   write "x,y" text lines instead of binary frames (no sequence counter)
   --duration S             seconds of samples to send, rounded up to whole frames (default: until stopped)
+
+Trigger edges (binary frames only; sent as edge records of wire format version 2, line 0, rising, timed to
+2^-16 of a sample period; listen --latch-out gives the position at each):
+  --trigger-hz F           an edge at t = j/F s, j = 1, 2, … (at most ${WIRE_MAX_EDGES_PER_FRAME} per frame)
+  --trigger-at T1,T2,…     edges at these times from the first sample, s, increasing and positive
 
 Optics:
   --wavelength-nm L        vacuum wavelength, nm (required, e.g. 632.9908)
@@ -78,6 +83,8 @@ const optionSpecs = {
   axes: { type: 'string' },
   text: { type: 'boolean' },
   duration: { type: 'string' },
+  'trigger-hz': { type: 'string' },
+  'trigger-at': { type: 'string' },
   'wavelength-nm': { type: 'string' },
   fold: { type: 'string' },
   'refractive-index': { type: 'string' },
@@ -150,6 +157,8 @@ async function run(argv: readonly string[]): Promise<number> {
     throw new UsageError('--include-rate and --start-sequence apply to binary frames, not --text');
   }
 
+  const triggers = triggersOf(text('trigger-hz'), text('trigger-at'), rateHz, samplesPerFrame);
+  if (textMode && triggers !== undefined) throw new UsageError('--trigger-hz and --trigger-at apply to binary frames, not --text');
   const motion = motionOf(values, 'constant', null);
 
   let emulator;
@@ -169,6 +178,7 @@ async function run(argv: readonly string[]): Promise<number> {
       startSequence,
       text: textMode,
       faults,
+      ...(triggers === undefined ? {} : { triggers }),
     });
   } catch (error) {
     // The core names the option it refused (e.g. distanceM); on the command line that is a usage error.
@@ -288,6 +298,7 @@ async function run(argv: readonly string[]): Promise<number> {
     framesMade: log.framesMade,
     framesSent: log.framesSent,
     samplesMade: log.samplesMade,
+    edgesMade: log.edgesMade,
     bytesWritten: log.bytesMade,
     finalPositionM: lastPositionM,
     stoppedBy: stopped ?? 'duration',
@@ -301,10 +312,41 @@ async function run(argv: readonly string[]): Promise<number> {
     process.stderr.write(
       `sent ${log.framesSent} of ${log.framesMade} frames (${log.samplesMade} samples at ${rateHz} Hz, ${log.bytesMade} bytes) to ${port}; ` +
         `final position ${(lastPositionM * 1e6).toFixed(6)} µm (axis 0, invented scenario)\n` +
+        (log.edgesMade > 0 ? `trigger edges: ${log.edgesMade}\n` : '') +
         `faults: ${log.garbage.length} garbage insertions, ${log.dropped.length} dropped, ${log.corrupted.length} corrupted, ${pauses.length} pauses\n`,
     );
   }
   return 0;
+}
+
+/** The trigger options, checked: positive rate, positive increasing times, at most 256 edges in any frame. */
+function triggersOf(rateText: string | undefined, timesText: string | undefined, rateHz: number, samplesPerFrame: number): TriggerEdges | undefined {
+  if (rateText === undefined && timesText === undefined) return undefined;
+  const triggerHz = numberOption('trigger-hz', rateText);
+  if (triggerHz !== undefined && !(triggerHz > 0 && Number.isFinite(triggerHz))) throw new UsageError(`--trigger-hz must be positive (got ${rateText})`);
+  // More than one edge per sample period cannot be told apart by the interpolation anyway.
+  if (triggerHz !== undefined && Math.ceil((triggerHz * samplesPerFrame) / rateHz) + 1 > WIRE_MAX_EDGES_PER_FRAME) {
+    throw new UsageError(`--trigger-hz ${triggerHz} puts more than ${WIRE_MAX_EDGES_PER_FRAME} edges into a frame of ${samplesPerFrame} samples at ${rateHz} Hz: lower it or --samples-per-frame`);
+  }
+  const timesS = timesText?.split(',').map((item) => {
+    const value = Number(item.trim());
+    if (item.trim() === '' || !(value > 0 && Number.isFinite(value))) throw new UsageError(`--trigger-at takes positive times in seconds, comma-separated (got "${item}")`);
+    return value;
+  });
+  if (timesS !== undefined) {
+    timesS.forEach((t, i) => {
+      if (i > 0 && !(t > timesS[i - 1]!)) throw new UsageError(`--trigger-at times must increase (${t} s follows ${timesS[i - 1]} s)`);
+    });
+    const perFrame = new Map<number, number>();
+    for (const t of timesS) {
+      const frame = Math.floor(Math.ceil(t * rateHz) / samplesPerFrame);
+      perFrame.set(frame, (perFrame.get(frame) ?? 0) + 1);
+    }
+    if (Math.max(...perFrame.values()) + (triggerHz === undefined ? 0 : Math.ceil((triggerHz * samplesPerFrame) / rateHz) + 1) > WIRE_MAX_EDGES_PER_FRAME) {
+      throw new UsageError(`--trigger-at puts more than ${WIRE_MAX_EDGES_PER_FRAME} edges into one frame of ${samplesPerFrame} samples`);
+    }
+  }
+  return { ...(triggerHz === undefined ? {} : { rateHz: triggerHz }), ...(timesS === undefined ? {} : { timesS }) };
 }
 
 export const emulate: Command = { name: 'emulate', summary: 'a virtual ADC: write wire frames of an invented motion to a serial port', help, run };

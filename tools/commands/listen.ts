@@ -5,9 +5,9 @@ import { Socket } from 'node:net';
 import { extname } from 'node:path';
 import { alarmKinds, alarmNames, OptionError, type EllipseCalibration } from '../../src/core/index.js';
 import { createCaptureWriter, writeFileAtomically, type CaptureWriter } from '../../src/io/capture/index.js';
-import { createResultWriter, type ResultFormat, type ResultWriter } from '../../src/io/results/index.js';
+import { createEdgeWriter, createResultWriter, type EdgeWriter, type ResultFormat, type ResultWriter } from '../../src/io/results/index.js';
 import { createSerialByteSource } from '../../src/io/serial/index.js';
-import type { LinkBlock } from '../../src/io/live/index.js';
+import { createLiveEdgeLatch, latchEdges, type LinkBlock } from '../../src/io/live/index.js';
 import type { AxisBlockSummary } from '../../src/stream/index.js';
 import { WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
 import { readCalibrationFile } from '../calibration-file.js';
@@ -50,6 +50,11 @@ Options:
   --duration S             stop after S seconds of samples (default: until SIGINT/SIGTERM)
   --record FILE            also write every received sample of the axis to a capture (.csv int16 text or .wav int16)
   --summary FILE           write a JSON summary: counters, gaps, link events, alarms, calibration
+  --latch-out FILE         write the position of every axis at every edge the frames carry (trigger, reference
+                           mark; wire format version 2), one CSV row per axis and edge: t (s), sample_time
+                           (fractional sample index), axis, line, edge (rising|falling), position_m,
+                           uncertainty_m (bound of the interpolation error, m), velocity_m_s, alarms
+                           (docs/trigger-edges.md)
   --calibration FILE       calibration from fringetally calibrate (default: live fit)
   --fit-samples N          samples for the live fit, 64..16777216 (default ${DEFAULT_FIT_SAMPLES}); retried up to 8 times
   --rate-hz R              sample rate, Hz, when the frames carry no rate field (required with --text)
@@ -81,6 +86,7 @@ const optionSpecs = {
   duration: { type: 'string' },
   record: { type: 'string' },
   summary: { type: 'string' },
+  'latch-out': { type: 'string' },
   calibration: { type: 'string' },
   'fit-samples': { type: 'string' },
   'rate-hz': { type: 'string' },
@@ -144,6 +150,7 @@ async function run(argv: readonly string[]): Promise<number> {
   if (recordExtension === '.wav' && rateHz !== undefined && !Number.isInteger(rateHz)) {
     throw new UsageError(`a .wav record needs a whole-hertz rate (got --rate-hz ${rateHz}): record to .csv instead`);
   }
+  const latchOut = values['latch-out'];
   const quiet = values.quiet === true;
   const lengthScale = lengthScaleOf(values, {});
   const environment = environmentOf(values, lengthScale.wavelengthM, lengthScale.refractiveIndex);
@@ -166,6 +173,7 @@ async function run(argv: readonly string[]): Promise<number> {
       { option: '--out', path: out },
       ...(record === undefined ? [] : [{ option: '--record', path: record }]),
       ...(values.summary === undefined ? [] : [{ option: '--summary', path: values.summary }]),
+      ...(latchOut === undefined ? [] : [{ option: '--latch-out', path: latchOut }]),
     ],
   );
   const calibration = values.calibration === undefined ? null : await readCalibrationFile(values.calibration);
@@ -211,6 +219,15 @@ async function run(argv: readonly string[]): Promise<number> {
   const stdout = out === '-' ? openStandardOutput() : undefined;
   const writer: ResultWriter = await createResultWriter(out, { format: formatText as ResultFormat, every, ...(stdout === undefined ? {} : { stdout }) });
   let recorder: CaptureWriter | null = null;
+  let edgeWriter: EdgeWriter | null = null;
+  try {
+    if (latchOut !== undefined) edgeWriter = await createEdgeWriter(latchOut);
+  } catch (error) {
+    await writer.abort();
+    await feed?.close();
+    throw error;
+  }
+  const edgeLatch = createLiveEdgeLatch();
   const rows = createRowCopies();
   let gapLines = 0;
   let started = false;
@@ -221,7 +238,7 @@ async function run(argv: readonly string[]): Promise<number> {
       samples(block) {
         const first = !started;
         started = true;
-        if (first) feed?.start(chain.axes, block.rateHz);
+        if (first) feed?.start(chain.axes, block.rateHz, chain.axes.readings$.pipe(latchEdges()));
         if (first) statusLine.log(`first samples: ${block.channelCount} channels, tracking axis ${axis}, ${block.rateHz} Hz (${chain.axes.linkStatus?.rateSource === 'option' ? '--rate-hz' : 'from the frames'})`);
         if (record === undefined) return;
         if (block.channelCount <= 2 * axis + 1) return;
@@ -263,6 +280,15 @@ async function run(argv: readonly string[]): Promise<number> {
       },
     },
   );
+  if (edgeWriter !== null) {
+    sinks.push({
+      name: `the edge output ${latchOut}`,
+      positions(positions) {
+        const edges = edgeLatch.push(positions);
+        if (edges.length > 0) return () => edgeWriter!.write(edges);
+      },
+    });
+  }
   statusLine.log(`listening on ${source.name}${calibration === null ? `; fitting the correction to the first ${fitSamples} samples (rows held back until then)` : ''}`);
 
   const controller = new AbortController();
@@ -277,6 +303,7 @@ async function run(argv: readonly string[]): Promise<number> {
     await feed?.close();
     await writer.abort();
     await (recorder as CaptureWriter | null)?.abort();
+    await edgeWriter?.abort();
     statusLine.stop();
     // The chain names its options as the library does; here they are command-line options.
     if (error instanceof Error) error.message = error.message.replace(/\brateHz\b/g, '--rate-hz');
@@ -296,12 +323,17 @@ async function run(argv: readonly string[]): Promise<number> {
   };
   await finish(sinks[1]!.name, writer);
   await finish(sinks[0]!.name, recorder);
+  if (edgeWriter !== null) {
+    // The edges whose following samples never came are written from what is known (docs/trigger-edges.md).
+    if (stalled !== sinks[2]!.name) await edgeWriter.write(edgeLatch.flush());
+    await finish(sinks[2]!.name, edgeWriter);
+  }
   if (stalled !== null) stdout?.destroy();
   const progress = summary.progress;
   const link = summary.link;
   const mqttHealth = feed?.mqttHealth ?? null;
   if (values.summary !== undefined) {
-    await writeFileAtomically(values.summary, JSON.stringify({ ...summaryRecord(summary, writer, out, record, calibration, maxBufferedBytes), mqtt: mqttHealth }, null, 2) + '\n');
+    await writeFileAtomically(values.summary, JSON.stringify({ ...summaryRecord(summary, writer, out, record, calibration, maxBufferedBytes, edgeWriter), mqtt: mqttHealth }, null, 2) + '\n');
   }
   if (!quiet) {
     const raised = alarmKinds.filter((kind) => progress.alarmsRaised[kind] > 0).map((kind) => `${alarmNames[kind]} ×${progress.alarmsRaised[kind]}`);
@@ -315,7 +347,8 @@ async function run(argv: readonly string[]): Promise<number> {
     process.stderr.write(
       [
         `stopped ${stopped}: ${progress.samplesProcessed} samples processed${rate > 0 ? ` at ${rate} Hz` : ''}; wrote ${writer.rowsWritten} rows to ${out}` +
-          (record === undefined ? '' : `, ${link?.samplesDelivered ?? 0} samples to ${record}`),
+          (record === undefined ? '' : `, ${link?.samplesDelivered ?? 0} samples to ${record}`) +
+          (edgeWriter === null ? '' : `, ${edgeWriter.rowsWritten} edge rows to ${latchOut}`),
         ...(progress.samplesProcessed > 0
           ? [`final position ${(progress.positionM * 1e6).toFixed(6)} µm${uncertaintyText(budgetOf(environment, progress.positionM, 0))}${progress.countLost ? ' — COUNT LOST: not trustworthy until re-referenced' : ''}`]
           : [`no samples received${link !== null && link.wire !== null && link.wire.headerRejects > 0 ? ` (${link.wire.headerRejects} frame headers refused: frames larger than --max-samples-per-frame ${maxSamplesPerFrame}?)` : ''}`]),
@@ -415,7 +448,15 @@ function uncertaintyText(budget: ReturnType<typeof budgetOf>): string {
   return ` ± ${(budget.expandedUncertaintyM * 1e9).toFixed(3)} nm (U, k = ${budget.coverageFactor}; periodic residual not included)`;
 }
 
-function summaryRecord(summary: LiveSummary, writer: ResultWriter, out: string, record: string | undefined, calibration: EllipseCalibration | null, maxBufferedBytes: number) {
+function summaryRecord(
+  summary: LiveSummary,
+  writer: ResultWriter,
+  out: string,
+  record: string | undefined,
+  calibration: EllipseCalibration | null,
+  maxBufferedBytes: number,
+  edgeWriter: EdgeWriter | null,
+) {
   const { progress, link } = summary;
   const fit = summary.fits.find((attempt) => attempt.result.ok)?.result;
   const okFit = fit !== undefined && fit.ok ? fit : null;
@@ -432,6 +473,7 @@ function summaryRecord(summary: LiveSummary, writer: ResultWriter, out: string, 
     out,
     rowsWritten: writer.rowsWritten,
     record: record ?? null,
+    latchOut: edgeWriter === null ? null : { path: edgeWriter.path, rowsWritten: edgeWriter.rowsWritten },
     finalPositionM: progress.samplesProcessed > 0 ? progress.positionM : null,
     countLostAtEnd: progress.countLost,
     calibrationSource: progress.calibration === 'given' ? 'file' : 'live fit',

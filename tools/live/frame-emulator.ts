@@ -9,7 +9,25 @@ import {
   type MotionSpec,
   type QuadratureSynthesizer,
 } from '../../src/core/index.js';
-import { encodeWireFrame, formatSampleLines, wireFrameLength, WireFlag, WIRE_SEQUENCE_MODULUS } from '../../src/io/wire/index.js';
+import {
+  encodeWireFrame,
+  formatSampleLines,
+  wireFrameLength,
+  WireEdgeLine,
+  WireFlag,
+  WIRE_EDGE_BYTES,
+  WIRE_EDGE_LEAD_UNITS,
+  WIRE_SEQUENCE_MODULUS,
+  type WireEdge,
+} from '../../src/io/wire/index.js';
+
+/** Rising edges on the trigger input (line 0), sent in version 2 frames: at a steady rate and/or at given times. */
+export interface TriggerEdges {
+  /** Edges at t = j / rateHz, j = 1, 2, …; Hz. */
+  readonly rateHz?: number;
+  /** Edges at these times from the first sample, s, increasing. */
+  readonly timesS?: readonly number[];
+}
 
 export interface FrameFaults {
   /** Random bytes before every Nth frame (frames N, 2N, …; 0-based count of frames made); 0: never. */
@@ -43,6 +61,8 @@ export interface FrameEmulatorOptions {
   /** `text`: `x0,y0,…` lines instead of frames (faults must all be 0). */
   readonly text: boolean;
   readonly faults: FrameFaults;
+  /** Trigger edges, timed to 2^-16 sample period (binary frames only); none when absent. */
+  readonly triggers?: TriggerEdges;
 }
 
 /** What was done to the stream so far; frame numbers count frames made, from 0. */
@@ -50,6 +70,8 @@ export interface EmulatorLog {
   framesMade: number;
   framesSent: number;
   samplesMade: number;
+  /** Trigger edges put into frames made (sent or not). */
+  edgesMade: number;
   bytesMade: number;
   readonly dropped: number[];
   readonly corrupted: number[];
@@ -85,15 +107,19 @@ export function createFrameEmulator(options: FrameEmulatorOptions): FrameEmulato
     createQuadratureSynthesizer({ ellipse: options.ellipse, noiseRms: options.noiseRms, adc: { kind: 'int16' }, seed: options.seed + k }),
   );
   const random = createRandom((options.seed * 7919 + 17) >>> 0);
-  const frameBytes = options.text ? 0 : wireFrameLength(channelCount, samplesPerFrame, options.includeRate ? WireFlag.sampleRate : 0);
-  const header = {
+  const withEdges = options.triggers !== undefined;
+  const flags = (options.includeRate ? WireFlag.sampleRate : 0) | (withEdges ? WireFlag.edges : 0);
+  const frameBytes = options.text ? 0 : wireFrameLength(channelCount, samplesPerFrame, flags);
+  const edges = withEdges ? createTriggerClock(options.triggers!, rateHz) : null;
+  const header: { sequence: number; channelCount: number; samplesPerFrame: number; sampleRateHz: number | undefined; edges: WireEdge[] | undefined } = {
     sequence: options.startSequence,
     channelCount,
     samplesPerFrame,
     sampleRateHz: options.includeRate ? rateHz : undefined,
+    edges: withEdges ? [] : undefined,
   };
   const frameSamples = new Int16Array(channelCount * samplesPerFrame);
-  const log: EmulatorLog = { framesMade: 0, framesSent: 0, samplesMade: 0, bytesMade: 0, dropped: [], corrupted: [], garbage: [] };
+  const log: EmulatorLog = { framesMade: 0, framesSent: 0, samplesMade: 0, edgesMade: 0, bytesMade: 0, dropped: [], corrupted: [], garbage: [] };
 
   let capacityFrames = 0;
   let position = new Float64Array(0);
@@ -151,13 +177,23 @@ export function createFrameEmulator(options: FrameEmulatorOptions): FrameEmulato
         }
         const valueCount = frameSamples.length;
         for (let i = 0, from = f * valueCount; i < valueCount; i++, from++) frameSamples[i] = interleaved[from]!;
+        if (edges !== null) {
+          edges.frame(frame * samplesPerFrame, samplesPerFrame, header.edges!);
+          log.edgesMade += header.edges!.length;
+          const room = used + frameBytes + header.edges!.length * WIRE_EDGE_BYTES;
+          if (room > bytes.length) {
+            const grown = new Uint8Array(2 * room + frames * frameBytes);
+            grown.set(bytes.subarray(0, used));
+            bytes = grown;
+          }
+        }
         if (isEvery(frame, faults.dropEvery)) {
           log.dropped.push(frame);
         } else {
           const length = encodeWireFrame(header, frameSamples, bytes, used);
           if (isEvery(frame, faults.corruptEvery)) {
             // Invert one payload byte: the header stays valid, so the receiver sees a CRC failure, not garbage.
-            const payloadStart = length - 4 - 2 * channelCount * samplesPerFrame;
+            const payloadStart = length - 4 - WIRE_EDGE_BYTES * (header.edges?.length ?? 0) - 2 * channelCount * samplesPerFrame;
             bytes[used + payloadStart + Math.floor(random.uniform() * 2 * channelCount * samplesPerFrame)] ^= 0xff;
             log.corrupted.push(frame);
           }
@@ -174,4 +210,40 @@ export function createFrameEmulator(options: FrameEmulatorOptions): FrameEmulato
   }
 
   return { next, frameBytes, log, peakSpeedMS: profile.peakSpeedMS };
+}
+
+/**
+ * The trigger edges of each frame, in order: an edge at time t is at absolute sample time τ = t·rate, rounded to
+ * the wire's 2^-16 period, and goes with the frame holding its first sample at or after it (docs/wire-format.md).
+ */
+function createTriggerClock(triggers: TriggerEdges, rateHz: number) {
+  // Edge times in lead units (2^-16 sample period) from the first sample, merged from both sources as they are needed.
+  const units = (tS: number) => Math.round(tS * rateHz * WIRE_EDGE_LEAD_UNITS);
+  const times = triggers.timesS ?? [];
+  let listAt = 0;
+  let nextJ = 1;
+  const nextUnits = (): number => {
+    const fromList = listAt < times.length ? units(times[listAt]!) : Infinity;
+    const fromRate = triggers.rateHz === undefined ? Infinity : units(nextJ / triggers.rateHz);
+    return Math.min(fromList, fromRate);
+  };
+  const advance = (at: number): void => {
+    if (listAt < times.length && units(times[listAt]!) === at) listAt++;
+    if (triggers.rateHz !== undefined && units(nextJ / triggers.rateHz) === at) nextJ++;
+  };
+  return {
+    /** Fills `out` with the edges whose first following sample lies in [firstSample, firstSample + samples). */
+    frame(firstSample: number, samples: number, out: WireEdge[]): void {
+      out.length = 0;
+      for (;;) {
+        const at = nextUnits();
+        const sample = Math.ceil(at / WIRE_EDGE_LEAD_UNITS);
+        if (!(sample < firstSample + samples)) return;
+        advance(at);
+        // An edge before the first sample has no sample before it to interpolate from: it is not sent.
+        if (sample <= 0) continue;
+        out.push({ sample: sample - firstSample, lead: sample * WIRE_EDGE_LEAD_UNITS - at, line: WireEdgeLine.trigger, rising: true });
+      }
+    },
+  };
 }

@@ -11,6 +11,8 @@ import {
   type MqttPublisherHealth,
   type MqttPublisherOptions,
 } from '../../src/io/feed/index.js';
+import type { Observable } from 'rxjs';
+import type { FeedEdgeInput } from '../../src/io/feed/index.js';
 import type { Axes } from '../../src/stream/index.js';
 import { numberOption, UsageError } from '../cli-kit.js';
 
@@ -135,8 +137,8 @@ export function feedSettingsOf(values: Record<string, string | boolean | string[
 }
 
 export interface LiveFeed {
-  /** Attaches the session's axes on the first samples: from then on updates flow (state `live`). Once. */
-  start(axes: Axes, rateHz: number): void;
+  /** Attaches the session's axes (and its edges) on the first samples: from then on updates flow (state `live`). Once. */
+  start(axes: Axes, rateHz: number, edges$?: Observable<FeedEdgeInput>): void;
   /** Lines for the log: where the feed is (the token never appears, only where it came from). */
   describe(): string[];
   /** The MQTT publisher's link to its broker, for the summary; null without --mqtt. */
@@ -162,8 +164,8 @@ export async function openLiveFeed(
     publisher = createMqttPublisher({ ...feedSettings.mqtt, onEvent: (event) => log(mqttEventLine(url, event)) });
   }
   return {
-    start(axes, rateHz) {
-      const source = { axes, rateHz };
+    start(axes, rateHz, edges$) {
+      const source = { axes, rateHz, ...(edges$ === undefined ? {} : { edges$ }) };
       server?.attach(source);
       publisher?.attach(source);
     },
@@ -178,7 +180,7 @@ export async function openLiveFeed(
             ]),
         ...(publisher === null
           ? []
-          : [`publishing to MQTT topics ${feedSettings.mqtt!.topicPrefix ?? 'fringetally'}/axis/X, ${publisher.statusTopic} at ${feedSettings.mqtt!.url ?? 'mqtt://127.0.0.1:1883'}`]),
+          : [`publishing to MQTT topics ${feedSettings.mqtt!.topicPrefix ?? 'fringetally'}/axis/X, ${feedSettings.mqtt!.topicPrefix ?? 'fringetally'}/edge, ${publisher.statusTopic} at ${feedSettings.mqtt!.url ?? 'mqtt://127.0.0.1:1883'}`]),
       ];
     },
     get mqttHealth() {

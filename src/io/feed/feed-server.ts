@@ -7,15 +7,17 @@ import { randomBytes } from 'node:crypto';
 import { createServer, type IncomingMessage, type ServerResponse } from 'node:http';
 import { performance } from 'node:perf_hooks';
 import type { Duplex } from 'node:stream';
-import type { Subscription } from 'rxjs';
+import type { Observable, Subscription } from 'rxjs';
 import { WebSocket, WebSocketServer } from 'ws';
 import { integerInRange, OptionError, positiveFinite } from '../../core/index.js';
 import { createUpdateGeometry, type Axes, type AxisBlockSummary, type AxisGeometryStreamOptions, type UpdateGeometry } from '../../stream/index.js';
 import { hostOfHeader, isLoopbackHost, normaliseAddress, tokenMatches } from './access.js';
 import {
   FEED_SCHEMA,
+  feedEdgeMessage,
   feedTimeBase,
   feedUpdateMessage,
+  type FeedEdgeInput,
   parseClientMessage,
   type FeedErrorMessage,
   type FeedHelloMessage,
@@ -33,6 +35,11 @@ export interface FeedSource {
   readonly geometry?: AxisGeometryStreamOptions;
   /** The axes' low-signal threshold (`lowSignalLevel` of their pipelines), shown on the page. Default 0.3, the pipeline's default. */
   readonly lowSignalLevel?: number;
+  /**
+   * Positions at the edges of digital inputs (e.g. `live.readings$.pipe(latchEdges())`): each goes to every
+   * subscribed client as an `edge` message (WebSocket) or on `<prefix>/edge` (MQTT), as it comes.
+   */
+  readonly edges$?: Observable<FeedEdgeInput>;
 }
 
 export interface FeedServerOptions {
@@ -204,6 +211,7 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
   let state: FeedState = 'waiting';
   let sourceError: FeedErrorMessage | null = null;
   let keepAlive: Subscription | null = null;
+  let edgeSubscription: Subscription | null = null;
   // The source's latest sample, for the time base of status messages.
   let latestSampleIndex = -1;
 
@@ -457,6 +465,16 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
       },
       complete: () => setState('ended'),
     });
+    // Edges are events, not states: each goes out once, as a reply, to every subscribed client (a client that
+    // does not read them is closed by the output limit like for any reply).
+    edgeSubscription = next.edges$?.subscribe({
+      next(edge) {
+        const message = feedEdgeMessage(edge);
+        for (const client of clients) if (client.updateHz !== null) reply(client, message);
+      },
+      // The keep-alive reports a failing source; the edges end with it.
+      error: () => undefined,
+    }) ?? null;
     if (state === 'waiting') setState('live');
     for (const client of clients) if (client.updateHz !== null) startUpdates(client);
   }
@@ -522,6 +540,7 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
     async close() {
       clearInterval(heartbeat);
       keepAlive?.unsubscribe();
+      edgeSubscription?.unsubscribe();
       for (const client of clients) {
         if (client.idleTimer !== null) clearTimeout(client.idleTimer);
         client.subscription?.unsubscribe();

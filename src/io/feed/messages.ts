@@ -76,6 +76,58 @@ export interface FeedGeometry {
 }
 
 /**
+ * The position of one axis at one edge of a digital input (a camera trigger, a reference mark; wire format
+ * version 2), sent as it is latched (docs/trigger-edges.md): one message per axis and edge.
+ */
+export interface FeedEdgeMessage extends FeedTimeBase {
+  readonly type: 'edge';
+  readonly schema: typeof FEED_SCHEMA;
+  readonly axis: string;
+  /** Input line: 0 trigger, 1 reference mark, 2..7 further trigger inputs. */
+  readonly line: number;
+  readonly edge: 'rising' | 'falling';
+  /** Time of the edge as a fractional sample index from the first sample; `sampleTimeS` is it over the rate, s. */
+  readonly sampleTime: number;
+  /** Position and velocity at the edge (m, m/s), and the bound of the interpolation's error, m; null when unknown. */
+  readonly positionM: number | null;
+  readonly velocityMS: number | null;
+  readonly uncertaintyM: number | null;
+  /** Alarms of the samples on either side of the edge (text names). */
+  readonly alarms: readonly string[];
+}
+
+/** What the feed needs of a latched edge (`LiveEdgePosition` from src/io/live has it). */
+export interface FeedEdgeInput {
+  readonly axis: string;
+  readonly sampleTime: number;
+  readonly rateHz: number;
+  readonly line: number;
+  readonly rising: boolean;
+  readonly positionM: number;
+  readonly velocityMS: number;
+  readonly uncertaintyM: number;
+  readonly flags: number;
+}
+
+export function feedEdgeMessage(edge: FeedEdgeInput): FeedEdgeMessage {
+  return {
+    type: 'edge',
+    schema: FEED_SCHEMA,
+    axis: edge.axis,
+    line: edge.line,
+    edge: edge.rising ? 'rising' : 'falling',
+    sampleTime: edge.sampleTime,
+    rateHz: edge.rateHz,
+    sampleTimeS: edge.sampleTime / edge.rateHz,
+    time: new Date().toISOString(),
+    positionM: finiteOrNull(edge.positionM),
+    velocityMS: finiteOrNull(edge.velocityMS),
+    uncertaintyM: finiteOrNull(edge.uncertaintyM),
+    alarms: names(edge.flags),
+  };
+}
+
+/**
  * Where the measurement is: `waiting` for its first samples (the feed listens from launch), `live`, `ended`
  * (the source completed normally) or `failed` (the source failed).
  */

@@ -10,7 +10,7 @@ import type { Subscription } from 'rxjs';
 import { integerInRange, OptionError, positiveFinite } from '../../core/index.js';
 import type { FeedSource } from './feed-server.js';
 import { createUpdateGeometry, type UpdateGeometry } from '../../stream/index.js';
-import { FEED_SCHEMA, feedAxisState, feedGeometry, feedTimeBase, type FeedAxisState, type FeedGeometry, type FeedState, type FeedTimeBase } from './messages.js';
+import { FEED_SCHEMA, feedAxisState, feedEdgeMessage, feedGeometry, feedTimeBase, type FeedAxisState, type FeedGeometry, type FeedState, type FeedTimeBase } from './messages.js';
 
 export interface MqttTlsOptions {
   /** CA certificate(s), PEM, for a broker with a private CA. Default: the system's CAs. */
@@ -74,6 +74,9 @@ export interface MqttPublisherHealth {
   readonly lastError: string | null;
   /** Update messages handed to the client. */
   readonly published: number;
+  /** Edge messages handed to the client, and those not sent because the broker was unreachable. */
+  readonly edgesPublished: number;
+  readonly edgesNotSent: number;
 }
 
 export interface MqttPublisher {
@@ -81,6 +84,8 @@ export interface MqttPublisher {
   readonly axisTopics: readonly string[];
   /** `<prefix>/geometry` when the source has a geometry (yaw, pitch, point of interest per update), else null. */
   readonly geometryTopic: string | null;
+  /** `<prefix>/edge`: one `edge` message per axis and edge (QoS 1, not retained) when the source has `edges$`, else null. */
+  readonly edgeTopic: string | null;
   /** `<prefix>/status`: retained `{"state":"online"|"offline","measurement":...}`. */
   readonly statusTopic: string;
   /** Update messages handed to the client so far. */
@@ -150,6 +155,9 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
   let axisTopics: string[] = [];
   let geometry: UpdateGeometry | null = null;
   let geometryTopic: string | null = null;
+  let edgeTopic: string | null = null;
+  let edgesPublished = 0;
+  let edgesNotSent = 0;
   // The latest sample published, for the time base of status messages.
   let latestSampleIndex = -1;
   const status = (state: 'online' | 'offline'): string => {
@@ -245,6 +253,7 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
   });
 
   let subscription: Subscription | null = null;
+  let edgeSubscription: Subscription | null = null;
   function attach(next: FeedSource): void {
     if (source !== null) throw new Error('the MQTT publisher already has a source: attach it once');
     positiveFinite('source.rateHz', next.rateHz);
@@ -259,6 +268,23 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
       if (client.connected) client.publish(statusTopic, status('online'), { qos: 1, retain: true });
     };
     setMeasurement('live');
+    if (next.edges$ !== undefined) {
+      edgeTopic = `${prefix}/edge`;
+      // Events, not states: each is sent once with QoS 1 and not retained; none is queued while the broker is away.
+      edgeSubscription = next.edges$.subscribe({
+        next(edge) {
+          if (!client.connected) {
+            edgesNotSent++;
+            return;
+          }
+          edgesPublished++;
+          client.publish(edgeTopic!, JSON.stringify(feedEdgeMessage(edge)), { qos: 1, retain: false }, (error) => {
+            if (error) lastError = error.message;
+          });
+        },
+        error: () => undefined,
+      });
+    }
     const { rateHz } = next;
     subscription = next.axes.update$({ updateHz, ready: () => client.connected && inFlight === 0 }).subscribe({
       next(update) {
@@ -304,6 +330,9 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
     get geometryTopic() {
       return geometryTopic;
     },
+    get edgeTopic() {
+      return edgeTopic;
+    },
     statusTopic,
     get published() {
       return published;
@@ -317,11 +346,14 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
         failedAttempts,
         lastError,
         published,
+        edgesPublished,
+        edgesNotSent,
       };
     },
     attach,
     async close() {
       subscription?.unsubscribe();
+      edgeSubscription?.unsubscribe();
       closing = true;
       if (retryTimer !== null) clearTimeout(retryTimer);
       if (client.connected) {

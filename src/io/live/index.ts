@@ -19,4 +19,4 @@ export {
   type LiveReading,
   type TrackLinkOptions,
 } from './track-link.js';
-export { latchEdges, type LiveEdgePosition } from './edges.js';
+export { createLiveEdgeLatch, latchEdges, type LiveEdgeLatch, type LiveEdgePosition } from './edges.js';

@@ -1,4 +1,5 @@
-// Result rows of a replay or live run: CSV or JSON Lines files (or standard output), decimated on the absolute index.
+// Result rows of a replay or live run: CSV or JSON Lines files (or standard output), decimated on the absolute index;
+// positions at trigger edges as CSV.
 export {
   createResultWriter,
   RESULT_COLUMNS,
@@ -8,3 +9,4 @@ export {
   type ResultWriter,
   type ResultWriterOptions,
 } from './result-writer.js';
+export { createEdgeWriter, EDGE_COLUMNS, EDGE_DECIMALS, type EdgeRow, type EdgeWriter } from './edge-writer.js';
