@@ -139,30 +139,12 @@ export interface Pipeline {
 }
 
 export function createPipeline(options: PipelineOptions): Pipeline {
-  const correction = createCorrection({ calibration: options.calibration ?? null });
-  const monitor = createSignalMonitor({
-    adc: options.adc,
-    lowSignalLevel: options.lowSignalLevel,
-    lowSignalClearLevel: options.lowSignalClearLevel,
-    clearHoldSamples: options.clearHoldSamples,
-  });
-  const tracker = createPhaseTracker({
-    rateHz: options.rateHz,
-    unwrap: options.unwrap,
-    bandwidthHz: options.bandwidthHz,
-    minLevel: monitor.options.lowSignalLevel,
-    overspeedStepRad: options.overspeedStepRad,
-    countLostStepRad: options.countLostStepRad,
-    heldTravelRad: options.heldTravelRad,
-    clearHoldSamples: options.clearHoldSamples,
-  });
-  const displacement = createDisplacement({
-    wavelengthM: options.wavelengthM,
-    fold: options.fold,
-    refractiveIndex: options.refractiveIndex,
-    rateHz: options.rateHz,
-    lengthScale: options.lengthScale,
-  });
+  // Each stage reads its own fields from the pipeline's options (the names are shared), which keeps the embedded
+  // bundle free of four copies of the option list.
+  const correction = createCorrection(options);
+  const monitor = createSignalMonitor(options);
+  const tracker = createPhaseTracker({ ...options, minLevel: monitor.options.lowSignalLevel });
+  const displacement = createDisplacement(options);
   let capacity = 0;
   let u = new Float64Array(0);
   let v = u;
