@@ -4,8 +4,10 @@
 // The count is kept as whole turns (an integer-valued double, exact to 2^53 fringes) beside the wrapped phase,
 // so the fraction keeps its full precision however many fringes have passed. The unwrap takes the step
 // closest to a prediction of the next step: the plain unwrapper predicts zero (so each step must stay under
-// half a fringe); the velocity-aided unwrapper predicts the loop's own next step, so what must stay under half
-// a fringe is the prediction error, not the motion. Both give the same outputs and alarms otherwise.
+// half a fringe); the velocity-aided unwrapper predicts the last measured step once that exceeds an eighth of
+// a fringe, so what must stay under half a fringe is the change of step, not the motion. (It predicted the
+// loop's next step before; the loop lags any acceleration, and with its default bandwidth it slipped hundreds
+// of fringes on motion the plain rule counts exactly.) Both give the same outputs and alarms otherwise.
 
 import { AlarmBit, pushAlarm, type AlarmEvent } from './alarms.js';
 import { integerInRange, MAX_COUNT, numberInRange, oneOf, positiveFinite } from './options.js';
@@ -18,7 +20,8 @@ export interface PhaseTrackerOptions {
   readonly rateHz: number;
   /**
    * `plain` (default): steps must stay under half a fringe per sample. `velocity-aided`: steps up to 0.9
-   * fringe per sample, provided the phase acceleration stays within `aidedAccelerationLimit` (see there).
+   * fringe per sample, provided the step changes by less than `aidedAccelerationLimit()` per sample (see there);
+   * below an eighth of a fringe per sample it is the plain rule.
    */
   readonly unwrap?: UnwrapMethod;
   /** Natural frequency of the velocity loop in Hz (critically damped, ζ = 1/√2). Default rateHz/100; range (0, rateHz/10]. */
@@ -102,11 +105,13 @@ function steadyBlock(
   beta: number,
   loop: Float64Array,
 ): boolean {
-  const pi = Math.PI, twoPi = TWO_PI;
+  const pi = Math.PI, twoPi = TWO_PI, toResidual = 1 / (alpha - 1);
   let last = lastPhase;
   let turnsNow = turns;
   let w = loop[0]!;
   let lag = loop[1]!;
+  let noise = loop[2]!;
+  let recent = loop[3]!;
   for (let i = 0; i < length; i++) {
     if (!(level[i]! >= minLevel)) return false;
     const theta = phaseRad[i]!;
@@ -123,17 +128,30 @@ function steadyBlock(
     turnsOut[i] = turnsNow;
     // The velocity loop, in the same arithmetic as the full loop of `process`.
     const residual = d - lag - w;
+    const change = residual - lag * toResidual;
+    noise += alpha * ((change < 0 ? -change : change) - noise);
+    recent += (d - recent) / 4;
     w += beta * residual;
     lag = (alpha - 1) * residual;
     stepOut[i] = w;
   }
   loop[0] = w;
   loop[1] = lag;
+  loop[2] = noise;
+  loop[3] = recent;
   return true;
 }
 
 /** Velocity-aided steps beyond 0.9 fringe per sample come too close to the fringe-per-sample alias: count lost. */
 const AIDED_MAX_STEP_RAD = 1.8 * Math.PI;
+/** Velocity-aided unwrapping predicts the last step once it exceeds an eighth of a fringe per sample (see below). */
+const AIDED_FROM_STEP_RAD = Math.PI / 4;
+
+/** The speed nearest `speed` within `band` of |estimate| (all in rad per sample). */
+function nearest(speed: number, estimate: number, band: number): number {
+  const magnitude = estimate < 0 ? -estimate : estimate;
+  return Math.min(Math.max(speed, magnitude - band), magnitude + band);
+}
 
 /** Loop gains of the tracker: alpha-beta form of a critically damped (ζ = 1/√2) type-2 loop. */
 function loopGains(rateHz: number, bandwidthHz: number): { alpha: number; beta: number } {
@@ -142,15 +160,15 @@ function loopGains(rateHz: number, bandwidthHz: number): { alpha: number; beta: 
 }
 
 /**
- * The phase acceleration (rad per sample²) under which velocity-aided unwrapping keeps an exact count: half the
- * loop's slip limit. At constant acceleration A the loop's prediction lags by A·(1 − α)/β; it slips a fringe
- * when that reaches π. The factor 2 leaves room for the transient overshoot when the acceleration changes and
- * for phase noise of up to about 0.01 rad (a few tenths of a percent of the radius). In m/s²: multiply by
- * rateHz² · λ / (2π · fold · n).
+ * The change of step per sample (phase acceleration, rad per sample²) under which velocity-aided unwrapping keeps
+ * an exact count without alarm: 3π/8. The prediction is the last measured step (the plain rule's zero below an
+ * eighth of a fringe per sample), so a step is aliased only when the step changes by π in one sample; count lost
+ * is raised from 3π/4. The bound leaves π/8 for phase noise (the second difference of white phase noise σ has
+ * σ√6) and for the switch between the two predictions, and does not depend on the sample rate or the loop.
+ * In m/s²: multiply by rateHz² · λ / (2π · fold · n), i.e. 3·λ·rateHz² / (16 · fold · n).
  */
-export function aidedAccelerationLimit(rateHz: number, bandwidthHz: number = rateHz / 100): number {
-  const { alpha, beta } = loopGains(positiveFinite('rateHz', rateHz), positiveFinite('bandwidthHz', bandwidthHz));
-  return (Math.PI * beta) / (2 * (1 - alpha));
+export function aidedAccelerationLimit(): number {
+  return (3 * Math.PI) / 8;
 }
 
 export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
@@ -177,7 +195,10 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
   let lag = 0; // loop phase estimate minus last measured phase, rad
   let heldTravel = 0;
   let resuming = false; // the next usable sample follows held ones
-  const loopState = new Float64Array(2); // [w, lag] handed to the fast path
+  let lastStep = 0; // the last one-sample step, rad (velocity-aided prediction)
+  let noise = 0; // mean |change of the loop residual| between samples, rad: the phase noise the loop sees
+  let recentStep = 0; // mean of the last few steps (gain 1/4), rad per sample
+  const loopState = new Float64Array(4); // [w, lag, noise, recentStep] handed to the fast path
   let countLost = false;
   let clearPending = false;
   let overspeedActive = false;
@@ -236,14 +257,19 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
     const overClear = 0.9 * overspeedStepRad, hold = clearHoldSamples, travelLimit = heldTravelRad;
     const pi = Math.PI, twoPi = TWO_PI, overspeedBit = 8, countLostBit = 32; // AlarmBit.overspeed, AlarmBit.countLost
     const maxStep = aided ? AIDED_MAX_STEP_RAD : Infinity;
+    const toResidual = 1 / (a - 1), compensated = a - b / 2;
     let turnsNow = turns, last = lastPhase, w = step, lagNow = lag, travel = heldTravel, resume = resuming;
-    let lost = countLost, over = overspeedActive, overRun = overspeedRun, isStarted = started;
+    let lost = countLost, over = overspeedActive, overRun = overspeedRun, isStarted = started, prevStep = lastStep, noiseNow = noise, recent = recentStep;
     loopState[0] = w;
     loopState[1] = lagNow;
+    loopState[2] = noiseNow;
+    loopState[3] = recent;
     if (!aided && isStarted && !resume && !over && steadyBlock(phaseOut, level, length, minLev, overStep, last, turnsNow, turnsOut, stepOut, a, b, loopState)) {
       // Fast path: every sample usable and every step under the overspeed threshold, so no alarm can change.
       w = loopState[0]!;
       lagNow = loopState[1]!;
+      noiseNow = loopState[2]!;
+      recent = loopState[3]!;
       if (lost) for (let i = 0; i < length; i++) flags[i] |= countLostBit;
       turnsNow = turnsOut[length - 1]!;
       last = phaseOut[length - 1]!;
@@ -258,7 +284,9 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
         let d = theta - last;
         let miss: number; // distance of the step from its prediction
         if (aided) {
-          const predicted = lagNow + w;
+          // The last measured step predicts the next (no loop lag, so any real acceleration is followed) once the
+          // motion exceeds an eighth of a fringe per sample; slower, the prediction is zero: the plain rule.
+          const predicted = prevStep > AIDED_FROM_STEP_RAD || prevStep < -AIDED_FROM_STEP_RAD ? prevStep : 0;
           const wraps = Math.round((d - predicted) / twoPi);
           d -= wraps * twoPi;
           turnsNow -= wraps;
@@ -282,7 +310,12 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
         }
         if (resume) {
           // The step across a hold spans many samples and says nothing of speed: re-acquire the phase and
-          // keep the velocity the loop had.
+          // keep the velocity the loop had. A step beyond the held-travel limit shows that the stage moved
+          // faster while unseen than the bound allowed for, so whole fringes may be missing from it too.
+          if (absStep > travelLimit && !lost) {
+            lost = true;
+            pushAlarm(events, firstIndex + i, 'countLost', true, absStep);
+          }
           resume = false;
           travel = 0;
           lagNow = 0;
@@ -297,13 +330,27 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
             over = false;
             pushAlarm(events, firstIndex + i, 'overspeed', false, absStep);
           }
+          prevStep = d;
           const residual = d - lagNow - w;
+          const change = residual - lagNow * toResidual;
+          noiseNow += a * ((change < 0 ? -change : change) - noiseNow);
+          recent += (d - recent) / 4;
           w += b * residual;
           lagNow = (a - 1) * residual;
         }
       } else {
-        // Held: the phase is unusable (low or non-finite signal). Motion the loop expects goes unseen.
-        travel += w < 0 ? -w : w;
+        // Held: the phase is unusable (low or non-finite signal); the motion goes unseen at the speed it had.
+        // The loop's velocity lags a change of speed: after a stop it still shows motion, as the stage sets off
+        // it shows too little. Two estimates with less lag but more noise correct it: the loop's velocity plus
+        // the lag its last residual r implies under constant acceleration, (α − β/2)·r, and the mean of the
+        // last few steps. Each keeps the loop's speed where that lies within 3× the estimate's noise of it, else
+        // the band's nearer edge. Both above the loop's speed (setting off): the larger; else the smaller, which
+        // is never above the loop's speed (figures: docs/signal-chain.md).
+        const absW = w < 0 ? -w : w;
+        const byLag = nearest(absW, w + compensated * lagNow * toResidual, 3 * compensated * noiseNow);
+        const byRecent = nearest(absW, recent, 0.41 * noiseNow);
+        const lower = byLag < byRecent ? byLag : byRecent;
+        travel += lower > absW ? byLag + byRecent - lower : lower;
         resume = isStarted;
         if (!lost && (lev !== lev || travel > travelLimit)) {
           lost = true;
@@ -322,6 +369,9 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
     lag = lagNow;
     heldTravel = travel;
     resuming = resume;
+    lastStep = prevStep;
+    noise = noiseNow;
+    recentStep = recent;
     countLost = lost;
     overspeedActive = over;
     overspeedRun = overRun;
@@ -337,6 +387,9 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
     lag = 0;
     heldTravel = 0;
     resuming = false;
+    lastStep = 0;
+    noise = 0;
+    recentStep = 0;
     countLost = false;
     clearPending = false;
     overspeedActive = false;
