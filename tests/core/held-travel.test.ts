@@ -1,7 +1,7 @@
 // Unseen travel while the phase is held (a beam interruption): no false count_lost when the interruption
 // starts as the stage stops, and never a wrong count without count_lost. Check values are the simulated
 // trajectories themselves (truth): a held phase re-acquired after travel T is right only while |T| < π (half a
-// fringe, common practice), and the tracker's bound is heldTravelRad = π/2 (its documented default).
+// fringe, common practice, docs/references.md), and the tracker's bound is heldTravelRad = π/2 (its documented default).
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { createPhaseTracker, createRandom, type AlarmEvent } from '../../src/core/index.js';
