@@ -99,6 +99,17 @@ describe('positions at trigger edges through the live chain', () => {
     }
   });
 
+  it('a duration that cuts a block keeps only the edges of the samples before the cut', async () => {
+    // 80 samples: the cut falls in the second frame; the edge at 79.5 belongs to sample 80, which is not kept.
+    const source = createManualByteSource();
+    const live = trackLink(source, { axes: [{ name: 'X', wavelengthM: WAVELENGTH, fold: 2, calibration: ellipse }], durationS: 80 / RATE });
+    const edges = lastValueFrom(live.readings$.pipe(latchEdges(), toArray()));
+    source.linkUp();
+    for (const frame of frames(3, [10.3, 78.5, 79.5, 100.5])) source.write(frame);
+    source.end();
+    expect((await edges).map((edge) => Math.ceil(edge.sampleTime))).toEqual([11, 79]);
+  });
+
   it('reReference zeroes or presets at the next sample on demand', () => {
     const source = createManualByteSource();
     const live = trackLink(source, { axes: [{ name: 'X', wavelengthM: WAVELENGTH, fold: 2, calibration: ellipse }] });

@@ -76,12 +76,15 @@ function files(tag: string) {
   return { out: `${tag}.csv`, summary: `${tag}.summary.json`, truth: `${tag}.truth.csv`, emulated: `${tag}.emulate.json`, record: `${tag}.record.csv` };
 }
 
-/** listen (started first, waits for the link) then emulate for DURATION; both must end by themselves. */
-async function emulateIntoListen(tag: string, emulateArgs: readonly string[], listenArgs: readonly string[] = []) {
+/**
+ * listen (started first, waits for the link) then emulate for DURATION; both must end by themselves. listen's
+ * --duration counts samples received: a run that loses frames gives the frames that arrive (`framesReceived`).
+ */
+async function emulateIntoListen(tag: string, emulateArgs: readonly string[], listenArgs: readonly string[] = [], framesReceived = (RATE * DURATION) / SPF) {
   const { device, firmware } = await ptyPair();
   const f = files(tag);
   const listen = startCli(
-    ['listen', '--port', device, ...OPTICS, '--out', f.out, '--summary', f.summary, '--duration', String(DURATION), '--record', f.record, ...listenArgs],
+    ['listen', '--port', device, ...OPTICS, '--out', f.out, '--summary', f.summary, '--duration', String((framesReceived * SPF) / RATE), '--record', f.record, ...listenArgs],
     dir,
   );
   await listen.stderrHas('link up');
@@ -140,7 +143,7 @@ describe('emulate → pty → listen', () => {
   });
 
   it('dropped frames: one input gap per frame with its lost samples at the right index, then count_lost', async () => {
-    const { summary, emulated, rows, truth } = await emulateIntoListen('drop', ['--drop-every', '47']);
+    const { summary, emulated, rows, truth } = await emulateIntoListen('drop', ['--drop-every', '47'], [], 490);
     const dropped = emulated.dropped;
     expect(dropped).toEqual([46, 93, 140, 187, 234, 281, 328, 375, 422, 469]);
     expect(summary.gaps).toEqual(dropped.map((frame) => ({ sampleIndex: (frame + 1) * SPF, lostSamples: SPF, cause: 'sequence' })));
@@ -160,7 +163,7 @@ describe('emulate → pty → listen', () => {
   });
 
   it('CRC errors: counted, the damaged frame skipped, and a gap of its samples', async () => {
-    const { summary, emulated } = await emulateIntoListen('crc', ['--corrupt-every', '43']);
+    const { summary, emulated } = await emulateIntoListen('crc', ['--corrupt-every', '43'], [], 489);
     const corrupted = emulated.corrupted;
     expect(corrupted).toHaveLength(11);
     expect(summary.wire.crcFailures).toBe(corrupted.length);

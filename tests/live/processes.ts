@@ -1,8 +1,12 @@
 // Child processes of the built CLI for the live tests: started in the background, their output collected, and
 // every one still running killed by `killAll` (afterEach), so a failing test leaves nothing behind.
 import { spawn, type ChildProcess } from 'node:child_process';
-import { readFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
+import { afterAll, afterEach, beforeAll } from 'vitest';
+import { requireSocat, startPtyPair, type PtyPair } from '../serial/socat.js';
 import { until } from '../serial/wait.js';
 
 const TOOL = fileURLToPath(new URL('../../dist/tools/fringetally.js', import.meta.url));
@@ -18,8 +22,9 @@ export interface RunningCli {
 
 const running = new Set<ChildProcess>();
 
-export function startCli(args: readonly string[], cwd: string, env: Record<string, string> = {}): RunningCli {
-  const child = spawn(process.execPath, [TOOL, ...args], { cwd, stdio: ['ignore', 'pipe', 'pipe'], env: { ...process.env, ...env } });
+/** `stdin`: a file descriptor for the child's standard input (a pseudo-terminal, for keys); default none. */
+export function startCli(args: readonly string[], cwd: string, env: Record<string, string> = {}, stdin: number | 'ignore' = 'ignore'): RunningCli {
+  const child = spawn(process.execPath, [TOOL, ...args], { cwd, stdio: [stdin, 'pipe', 'pipe'], env: { ...process.env, ...env } });
   running.add(child);
   const output = { stdout: '', stderr: '' };
   child.stdout!.on('data', (chunk: Buffer) => (output.stdout += chunk.toString()));
@@ -79,4 +84,33 @@ export function readRows(path: string): { columns: Record<string, number[]>; ala
     if (alarmColumn >= 0) alarms.push(cells[alarmColumn] ?? '');
   }
   return { columns, alarms };
+}
+
+/**
+ * A temporary folder and socat pseudo-terminal pairs for the tests of one file: registers the hooks (socat
+ * required; every child process and pair ended after each test; the folder removed at the end).
+ */
+export function usePtyPairs(prefix: string): { readonly dir: () => string; pair(): Promise<{ device: string; firmware: string }> } {
+  let dir = '';
+  let made = 0;
+  const pairs: PtyPair[] = [];
+  beforeAll(() => {
+    requireSocat();
+    dir = mkdtempSync(join(tmpdir(), prefix));
+  });
+  afterEach(async () => {
+    await killAll();
+    await Promise.all(pairs.splice(0).map((pair) => pair.stop()));
+  });
+  afterAll(() => rmSync(dir, { recursive: true, force: true }));
+  return {
+    dir: () => dir,
+    async pair() {
+      made++;
+      const device = join(dir, `device-${made}`);
+      const firmware = join(dir, `firmware-${made}`);
+      pairs.push(await startPtyPair(device, firmware));
+      return { device, firmware };
+    },
+  };
 }

@@ -33,7 +33,7 @@ Live tracking over a serial link (or pseudo-terminal): decodes fringetally wire 
 runs the pipeline and writes rows with the same columns as replay: t (s, counted from the sample stream: the first
 sample received is t = 0, lost samples included), position_m (m, relative to the first sample), velocity_m_s
 (m/s), level (corrected radius over calibrated radius), alarms (active alarms, space-separated). Stops after
---duration S seconds of samples or on SIGINT/SIGTERM; files are complete only after a clean stop.
+--duration S seconds of samples received or on SIGINT/SIGTERM; files are complete only after a clean stop.
 
 Without --calibration the correction is fitted live to the first --fit-samples samples; those rows are held back
 until the fit is made (none are lost), then written. The stage must move over at least about one fringe then.
@@ -47,7 +47,8 @@ Options:
   --out FILE|-             result file, .csv or .jsonl (or --format with -, standard output) (required)
   --format csv|jsonl       result format when the file name does not tell
   --every N                write every Nth sample (default 1)
-  --duration S             stop after S seconds of samples (default: until SIGINT/SIGTERM)
+  --duration S             stop after S seconds of samples received, round(S × rate) samples: lost samples and
+                           repeated frames do not count (default: until SIGINT/SIGTERM)
   --record FILE            also write every received sample of the axis to a capture (.csv int16 text or .wav int16)
   --summary FILE           write a JSON summary: counters, gaps, link events, alarms, calibration
   --latch-out FILE         write the position of every axis at every edge the frames carry (trigger, reference
@@ -59,7 +60,8 @@ Options:
   --fit-samples N          samples for the live fit, 64..16777216 (default ${DEFAULT_FIT_SAMPLES}); retried up to 8 times
   --rate-hz R              sample rate, Hz, when the frames carry no rate field (required with --text)
   --axis K                 axis to track in multi-axis frames: channels 2K (x) and 2K+1 (y) (default 0)
-  --max-samples-per-frame N  largest frame accepted, 1..${WIRE_MAX_SAMPLES_PER_FRAME} (default 1024)
+  --max-samples-per-frame N  largest frame accepted, 1..${WIRE_MAX_SAMPLES_PER_FRAME} (default ${WIRE_MAX_SAMPLES_PER_FRAME}, the format's maximum);
+                           larger frames are refused and counted, and the summary names the value that admits them
   --text                   read "x,y" text lines instead of binary frames (no gap detection: bring-up only)
   --channels N             with --text: integers per line, even (default 2·(axis+1))
   --retry-ms MS            first reopen delay after the port vanished, ms (default 200, doubling to 5000)
@@ -139,7 +141,7 @@ async function run(argv: readonly string[]): Promise<number> {
   if (!textMode && values.channels !== undefined) throw new UsageError('--channels applies to --text only: frames state their channel count');
   const channels = integerOption('channels', values.channels, 2 * (axis + 1), 2, 16);
   if (channels % 2 !== 0 || channels < 2 * axis + 2) throw new UsageError(`--channels must be even and at least ${2 * axis + 2} for axis ${axis} (got ${channels})`);
-  const maxSamplesPerFrame = integerOption('max-samples-per-frame', values['max-samples-per-frame'], 1024, 1, WIRE_MAX_SAMPLES_PER_FRAME);
+  const maxSamplesPerFrame = integerOption('max-samples-per-frame', values['max-samples-per-frame'], WIRE_MAX_SAMPLES_PER_FRAME, 1, WIRE_MAX_SAMPLES_PER_FRAME);
   const fitSamples = integerOption('fit-samples', values['fit-samples'], DEFAULT_FIT_SAMPLES, 64, 2 ** 24);
   const retryDelayMs = integerOption('retry-ms', values['retry-ms'], 200, 1, 600_000);
   const openRetries = integerOption('open-retries', values['open-retries'], DEFAULT_OPEN_RETRIES, 0, 1_000_000);
@@ -182,6 +184,7 @@ async function run(argv: readonly string[]): Promise<number> {
   // Every option, including the chain's, is checked here: nothing is opened before.
   let chain: ReturnType<typeof createLiveSession>;
   const sinks: LiveSink[] = [];
+  let oversizeShown = 0;
   try {
     chain = createLiveSession({
       source,
@@ -193,6 +196,12 @@ async function run(argv: readonly string[]): Promise<number> {
       },
       sinks,
       maxBufferedBytes,
+      onOversizeFrames(wire) {
+        // Once per larger size seen: the line names the value that admits them.
+        if (wire.oversizeSamplesPerFrame <= oversizeShown) return;
+        oversizeShown = wire.oversizeSamplesPerFrame;
+        statusLine.log(oversizeText(chain.axes.linkStatus, maxSamplesPerFrame)![0]!);
+      },
     });
   } catch (error) {
     if (error instanceof OptionError) throw new UsageError(error.message);
@@ -261,16 +270,18 @@ async function run(argv: readonly string[]): Promise<number> {
           if (notice.state === 'up') wasUp = true;
           const retry = notice.state === 'down' && notice.reason.startsWith('open failed') ? `; ${retryText(notice.attempt, wasUp)}` : '';
           statusLine.log(`link ${notice.state} (${notice.reason}${vanished})${notice.state === 'up' && notice.gap ? ': samples were lost, marking a gap' : ''}${retry}`);
-        } else if (notice.kind === 'gap') {
+        } else if (notice.kind === 'gap' || notice.kind === 'duplicate') {
           if (gapLines < MAX_GAP_LINES) {
             const rate = chain.axes.linkStatus?.rateHz ?? Number.NaN;
-            const t = rate > 0 ? ` at t = ${(notice.sampleIndex / rate).toFixed(6)} s` : '';
+            const t = rate > 0 ? ` at t = ${(notice.sampleIndex / rate).toFixed(6)} s (sample ${notice.sampleIndex})` : ` at sample ${notice.sampleIndex}`;
             statusLine.log(
-              notice.cause === 'resync'
-                ? `frame counter restarted or went backwards${t}: gap of unknown length, count lost`
-                : `input gap of ${notice.lostSamples} samples${t} (${notice.cause === 'link' ? 'link outage' : 'sequence jump'}): count lost`,
+              notice.kind === 'duplicate'
+                ? `repeated frame ${notice.sequence}${t} dropped: nothing lost, nothing counted twice`
+                : notice.cause === 'resync'
+                  ? `frame counter restarted or went backwards${t}: gap of unknown length, count lost`
+                  : `input gap of ${notice.lostSamples} samples${t} (${notice.cause === 'link' ? 'link outage' : 'sequence jump'}): count lost`,
             );
-          } else if (gapLines === MAX_GAP_LINES) statusLine.log('further gaps are counted, not listed');
+          } else if (gapLines === MAX_GAP_LINES) statusLine.log('further gaps and repeated frames are counted, not listed');
           gapLines++;
         } else if (notice.result.ok) {
           statusLine.log(`fitted the correction to ${notice.result.samples} of the first ${notice.heldSamples} samples (coverage ${(notice.result.coverage * 100).toFixed(0)} %): ${describeCalibration(notice.result.calibration)}`);
@@ -333,7 +344,7 @@ async function run(argv: readonly string[]): Promise<number> {
   const link = summary.link;
   const mqttHealth = feed?.mqttHealth ?? null;
   if (values.summary !== undefined) {
-    await writeFileAtomically(values.summary, JSON.stringify({ ...summaryRecord(summary, writer, out, record, calibration, maxBufferedBytes, edgeWriter), mqtt: mqttHealth }, null, 2) + '\n');
+    await writeFileAtomically(values.summary, JSON.stringify({ ...summaryRecord(summary, writer, out, record, calibration, maxBufferedBytes, edgeWriter, durationS), mqtt: mqttHealth }, null, 2) + '\n');
   }
   if (!quiet) {
     const raised = alarmKinds.filter((kind) => progress.alarmsRaised[kind] > 0).map((kind) => `${alarmNames[kind]} ×${progress.alarmsRaised[kind]}`);
@@ -342,17 +353,18 @@ async function run(argv: readonly string[]): Promise<number> {
       : link.wire === null
         ? `lines good ${link.text!.linesGood}, malformed ${link.text!.linesMalformed}`
         : `frames good ${link.wire.framesGood}, CRC failures ${link.wire.crcFailures}, resyncs ${link.wire.resyncs}, bytes skipped ${link.wire.bytesSkipped}`;
-    const stopped = { duration: `after ${durationS} s of samples`, signal: 'on a signal', 'source ended': 'because the source ended', stalled: 'because an output stalled' }[summary.stopReason];
+    const stopped = { duration: `after ${durationS} s of samples received`, signal: 'on a signal', 'source ended': 'because the source ended', stalled: 'because an output stalled' }[summary.stopReason];
     const rate = link?.rateHz ?? Number.NaN;
     process.stderr.write(
       [
-        `stopped ${stopped}: ${progress.samplesProcessed} samples processed${rate > 0 ? ` at ${rate} Hz` : ''}; wrote ${writer.rowsWritten} rows to ${out}` +
+        `stopped ${stopped}: ${link?.samplesDelivered ?? 0} samples received, ${progress.samplesProcessed} processed${rate > 0 ? ` at ${rate} Hz` : ''}; wrote ${writer.rowsWritten} rows to ${out}` +
           (record === undefined ? '' : `, ${link?.samplesDelivered ?? 0} samples to ${record}`) +
           (edgeWriter === null ? '' : `, ${edgeWriter.rowsWritten} edge rows to ${latchOut}`),
         ...(progress.samplesProcessed > 0
           ? [`final position ${(progress.positionM * 1e6).toFixed(6)} µm${uncertaintyText(budgetOf(environment, progress.positionM, 0))}${progress.countLost ? ' — COUNT LOST: not trustworthy until re-referenced' : ''}`]
-          : [`no samples received${link !== null && link.wire !== null && link.wire.headerRejects > 0 ? ` (${link.wire.headerRejects} frame headers refused: frames larger than --max-samples-per-frame ${maxSamplesPerFrame}?)` : ''}`]),
-        `${counters}; gaps ${link?.gaps ?? 0} (${link?.lostSamples ?? 0} samples lost); link outages ${link?.linkDowns ?? 0}`,
+          : ['no samples received']),
+        `${counters}; ${gapText(summary)}; link outages ${link?.linkDowns ?? 0}`,
+        ...(oversizeText(link, maxSamplesPerFrame) ?? []),
         `alarms raised: ${raised.length === 0 ? 'none' : raised.join(', ')}`,
         ...(mqttHealth === null ? [] : [`MQTT: ${mqttHealth.published} messages published; ${mqttHealth.outages} outage(s), ${(mqttHealth.outageMs / 1000).toFixed(1)} s offline${mqttHealth.connections === 0 ? ', never connected' : ''}`]),
       ].join('\n') + '\n',
@@ -379,6 +391,29 @@ function openStandardOutput(): NodeJS.WritableStream & { destroy(): void } {
   const kind = fstatSync(1);
   if (kind.isFIFO() || kind.isSocket()) return new Socket({ fd: 1, readable: false, writable: true });
   return createWriteStream('', { fd: 1, autoClose: false });
+}
+
+/** Every gap that shaped the run, by cause, and the repeated frames dropped, for the summary line. */
+function gapText(summary: LiveSummary): string {
+  const link = summary.link;
+  const { sequence, link: outage, resync } = summary.gapsByCause;
+  const causes = [
+    ...(sequence.count === 0 ? [] : [`${sequence.count} sequence jump(s), ${sequence.lostSamples} lost`]),
+    ...(outage.count === 0 ? [] : [`${outage.count} across link outages, ${outage.lostSamples} lost`]),
+    ...(resync.count === 0 ? [] : [`${resync.count} counter restart(s), length unknown`]),
+  ];
+  const gaps = `gaps ${link?.gaps ?? 0}${causes.length === 0 ? '' : ` (${causes.join('; ')})`}`;
+  return `${gaps}; repeated frames dropped ${link?.duplicates ?? 0}`;
+}
+
+/** Frames the limit refused, with the option that admits them; null when there were none. */
+function oversizeText(link: LiveSummary['link'], maxSamplesPerFrame: number): string[] | null {
+  if (link === null || link.wire === null || link.wire.oversizeHeaders === 0) return null;
+  const { oversizeHeaders, oversizeSamplesPerFrame } = link.wire;
+  return [
+    `${oversizeHeaders} frame(s) of up to ${oversizeSamplesPerFrame} samples refused: more than --max-samples-per-frame ${maxSamplesPerFrame}; ` +
+      `--max-samples-per-frame ${oversizeSamplesPerFrame} admits them`,
+  ];
 }
 
 /** The retry policy of a port that cannot be opened, for the log line. */
@@ -456,17 +491,21 @@ function summaryRecord(
   calibration: EllipseCalibration | null,
   maxBufferedBytes: number,
   edgeWriter: EdgeWriter | null,
+  durationS: number | undefined,
 ) {
   const { progress, link } = summary;
+  const rateHz = link !== null && link.rateHz > 0 ? link.rateHz : null;
   const fit = summary.fits.find((attempt) => attempt.result.ok)?.result;
   const okFit = fit !== undefined && fit.ok ? fit : null;
   return {
     stopReason: summary.stopReason,
     stalledOutput: summary.stalledSink,
     inputBufferBytes: maxBufferedBytes,
-    rateHz: link !== null && link.rateHz > 0 ? link.rateHz : null,
+    rateHz,
     rateSource: link?.rateSource ?? null,
     channelCount: link !== null && link.channelCount > 0 ? link.channelCount : null,
+    // --duration counts samples received (the trackLink rule).
+    durationSamples: durationS === undefined || rateHz === null ? null : Math.max(1, Math.round(durationS * rateHz)),
     samplesDelivered: link?.samplesDelivered ?? 0,
     samplesProcessed: progress.samplesProcessed,
     nextSampleIndex: link?.nextSampleIndex ?? 0,
@@ -484,6 +523,8 @@ function summaryRecord(
     gaps: summary.gaps.map(({ sampleIndex, lostSamples, cause }) => ({ sampleIndex, lostSamples, cause })),
     gapCount: link?.gaps ?? 0,
     lostSamples: link?.lostSamples ?? 0,
+    gapsByCause: summary.gapsByCause,
+    duplicates: { count: link?.duplicates ?? 0, frames: summary.duplicates.map(({ sampleIndex, sequence }) => ({ sampleIndex, sequence })) },
     link: {
       outages: link?.linkDowns ?? 0,
       returns: link?.linkReturns ?? 0,

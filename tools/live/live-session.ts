@@ -8,6 +8,7 @@ import { alarmKinds, type AlarmKind } from '../../src/core/index.js';
 import {
   trackLink,
   type LinkBlock,
+  type LinkDuplicate,
   type LinkGap,
   type LinkReaderStatus,
   type LiveAxes,
@@ -28,8 +29,8 @@ export interface LiveSink {
   samples?(block: LinkBlock): SinkJob | void;
   /** Every position block of the axes. Copy what the job needs: the arrays are reused. */
   positions?(positions: LivePositions): SinkJob | void;
-  /** Gaps, link changes and fit attempts, as they happen. */
-  notice?(notice: LinkGap | LinkEvent | LiveFit): void;
+  /** Gaps, repeated frames dropped, link changes and fit attempts, as they happen. */
+  notice?(notice: LinkGap | LinkDuplicate | LinkEvent | LiveFit): void;
 }
 
 export interface LiveSessionOptions {
@@ -39,6 +40,11 @@ export interface LiveSessionOptions {
   readonly sinks: readonly LiveSink[];
   /** Most bytes of input kept waiting while a sink's write is pending; positive integer. */
   readonly maxBufferedBytes: number;
+  /**
+   * Called after a chunk in which the decoder refused frames its size limit does not admit (their count grew),
+   * with the decoder's counters: the caller can name the limit to raise while the run goes on.
+   */
+  readonly onOversizeFrames?: (wire: NonNullable<LinkReaderStatus['wire']>) => void;
   /** After the signal, time left to process what was received before the session ends regardless, ms. Default 500. */
   readonly stopGraceMs?: number;
 }
@@ -64,6 +70,10 @@ export interface LiveSummary {
   /** The link reader's counters; null when the source never opened. */
   readonly link: Readonly<LinkReaderStatus> | null;
   readonly gaps: readonly LinkGap[];
+  /** Every gap by cause: how many and the samples counted lost (for `resync`, the 1 marked per gap). */
+  readonly gapsByCause: Readonly<Record<LinkGap['cause'], { readonly count: number; readonly lostSamples: number }>>;
+  /** Repeated frames dropped (the first `MAX_GAP_RECORDS`; the link status counts them all). */
+  readonly duplicates: readonly LinkDuplicate[];
   readonly links: readonly LinkEvent[];
   readonly fits: readonly LiveFit[];
 }
@@ -106,6 +116,8 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
     alarmsRaised: Object.fromEntries(alarmKinds.map((kind) => [kind, 0])) as Record<AlarmKind, number>,
   };
   const gaps: LinkGap[] = [];
+  const duplicates: LinkDuplicate[] = [];
+  const gapsByCause = { sequence: { count: 0, lostSamples: 0 }, link: { count: 0, lostSamples: 0 }, resync: { count: 0, lostSamples: 0 } };
   const links: LinkEvent[] = [];
   const fits: LiveFit[] = [];
   const jobs: { sink: LiveSink; job: SinkJob }[] = [];
@@ -140,7 +152,12 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
         }
         return;
       }
-      if (reading.kind === 'gap' && gaps.length < MAX_GAP_RECORDS) gaps.push(reading);
+      if (reading.kind === 'gap') {
+        if (gaps.length < MAX_GAP_RECORDS) gaps.push(reading);
+        gapsByCause[reading.cause].count++;
+        gapsByCause[reading.cause].lostSamples += reading.lostSamples;
+      }
+      if (reading.kind === 'duplicate' && duplicates.length < MAX_GAP_RECORDS) duplicates.push(reading);
       if (reading.kind === 'link' && links.length < MAX_LINK_RECORDS) links.push(reading);
       if (reading.kind === 'fit') {
         fits.push(reading);
@@ -180,6 +197,7 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
     if (signal?.aborted) onAbort();
     else signal?.addEventListener('abort', onAbort, { once: true });
     let stalledSink: string | null = null;
+    let oversizeSeen = 0;
     try {
       outer: for (;;) {
         const event = await Promise.race([queue.next(), interrupted]);
@@ -188,6 +206,11 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
           sourceEnded = true;
           input.complete();
         } else input.next(event);
+        const wire = axes.linkStatus?.wire;
+        if (wire && wire.oversizeHeaders > oversizeSeen) {
+          oversizeSeen = wire.oversizeHeaders;
+          options.onOversizeFrames?.(wire);
+        }
         while (jobs.length > 0) {
           const { sink, job } = jobs.shift()!;
           if ((await Promise.race([job(), interrupted])) === 'interrupted') {
@@ -205,7 +228,7 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
       subscription.unsubscribe();
     }
     const stopReason: LiveSummary['stopReason'] = overflowed ? 'stalled' : durationReached ? 'duration' : signalled ? 'signal' : 'source ended';
-    return { stopReason, stalledSink, progress, link: axes.linkStatus, gaps, links, fits };
+    return { stopReason, stalledSink, progress, link: axes.linkStatus, gaps, gapsByCause, duplicates, links, fits };
   }
 
   return {

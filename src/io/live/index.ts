@@ -2,6 +2,7 @@
 export {
   createLinkReader,
   type LinkBlock,
+  type LinkDuplicate,
   type LinkGap,
   type LinkReader,
   type LinkReaderOptions,

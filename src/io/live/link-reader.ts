@@ -36,6 +36,8 @@ export interface LinkReaderOptions {
   readonly onBlock: (block: LinkBlock) => void;
   /** Called for every gap, before the block that follows it. */
   readonly onGap?: (gap: LinkGap) => void;
+  /** Called for every repeated frame dropped (binary mode): no samples lost, none delivered twice. */
+  readonly onDuplicate?: (duplicate: LinkDuplicate) => void;
   /** Called for every link change the source reports, after the reader applied it. */
   readonly onLink?: (event: LinkEvent) => void;
 }
@@ -81,6 +83,15 @@ export interface LinkGap {
   readonly cause: 'sequence' | 'link' | 'resync';
 }
 
+/** A repeated frame, dropped: it changes neither the samples nor their indices, but the link repeated itself. */
+export interface LinkDuplicate {
+  readonly kind: 'duplicate';
+  /** Absolute index of the next sample to come when the repeat arrived. */
+  readonly sampleIndex: number;
+  /** The repeated frame's sequence number. */
+  readonly sequence: number;
+}
+
 export interface LinkReaderStatus {
   link: 'waiting' | 'up' | 'down';
   /** Outages (up → down). */
@@ -101,6 +112,8 @@ export interface LinkReaderStatus {
   lostSamples: number;
   /** Of gaps: counter restarts, whose length is unknown. */
   resyncs: number;
+  /** Repeated frames dropped. */
+  duplicates: number;
   readonly wire: Readonly<WireDecoderCounters> | null;
   readonly text: Readonly<LineDecoderCounters> | null;
 }
@@ -128,10 +141,10 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
   const textChannels = integerInRange('channelCount', options.channelCount ?? 2, 2, WIRE_MAX_CHANNELS);
   if (textChannels % 2 !== 0) throw new OptionError('channelCount', 'even', textChannels);
   if (typeof options.onBlock !== 'function') throw new OptionError('onBlock', 'a function', typeof options.onBlock);
-  const { onBlock, onGap, onLink } = options;
+  const { onBlock, onGap, onLink, onDuplicate } = options;
 
   // The decoders' callbacks run only inside push(), after everything below is initialised.
-  const wire: WireDecoder | null = mode === 'binary' ? createWireDecoder({ maxSamplesPerFrame, onFrame: onSamples, onGap: onSequenceGap }) : null;
+  const wire: WireDecoder | null = mode === 'binary' ? createWireDecoder({ maxSamplesPerFrame, onFrame: onSamples, onGap: onSequenceGap, onDuplicate: onRepeat }) : null;
   const text: LineDecoder | null = mode === 'text' ? createLineDecoder({ channelCount: textChannels, maxSamplesPerBlock: 1024, onBlock: onSamples }) : null;
   const status: LinkReaderStatus = {
     link: 'waiting',
@@ -145,6 +158,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
     gaps: 0,
     lostSamples: 0,
     resyncs: 0,
+    duplicates: 0,
     wire: wire === null ? null : wire.counters,
     text: text === null ? null : text.counters,
   };
@@ -275,6 +289,12 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
     gap(cause === 'resync' ? 1 : decoded.lostSamples, cause);
   }
 
+  function onRepeat(sequence: number): void {
+    status.duplicates++;
+    // The samples gathered from this chunk are not handed out yet: they come before the repeat.
+    onDuplicate?.({ kind: 'duplicate', sampleIndex: status.nextSampleIndex + (channels > 0 ? length / channels : 0), sequence });
+  }
+
   function applyLink(event: LinkEvent): void {
     if (event.state === 'down') {
       if (status.link === 'up') status.linkDowns++;
@@ -322,6 +342,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
         gaps: 0,
         lostSamples: 0,
         resyncs: 0,
+        duplicates: 0,
       });
       block.edgeCount = 0;
     },

@@ -16,13 +16,13 @@ import {
 } from '../../stream/index.js';
 import type { ByteSource, ByteSourceEvent, LinkEvent } from '../serial/index.js';
 import { WireEdgeLine } from '../wire/index.js';
-import { createLinkReader, type LinkBlock, type LinkGap, type LinkReaderOptions, type LinkReaderStatus } from './link-reader.js';
+import { createLinkReader, type LinkBlock, type LinkDuplicate, type LinkGap, type LinkReaderOptions, type LinkReaderStatus } from './link-reader.js';
 
 /** The link reader's settings (without its callbacks). */
-export type LinkOptions = Omit<LinkReaderOptions, 'onBlock' | 'onGap' | 'onLink'>;
+export type LinkOptions = Omit<LinkReaderOptions, 'onBlock' | 'onGap' | 'onLink' | 'onDuplicate'>;
 
-/** What a link reader hands on, in order: blocks of samples, gaps before them, link changes. */
-export type LinkReading = LinkBlock | LinkGap | LinkEvent;
+/** What a link reader hands on, in order: blocks of samples, gaps before them, repeated frames dropped, link changes. */
+export type LinkReading = LinkBlock | LinkGap | LinkDuplicate | LinkEvent;
 
 /**
  * Byte source events → link readings, with a fresh reader per subscription (so each counts from its first
@@ -38,6 +38,7 @@ export function readLink(options: LinkOptions = {}): OperatorFunction<ByteSource
         ...options,
         onBlock: (block) => subscriber.next(block),
         onGap: (gap) => subscriber.next(gap),
+        onDuplicate: (duplicate) => subscriber.next(duplicate),
         onLink: (event) => subscriber.next(event),
       });
       return events$.subscribe({
@@ -79,8 +80,9 @@ export interface TrackLinkOptions extends Omit<AxesRunnerOptions, 'axes'>, AxesV
   /** Fit attempts before the stream ends with an error; integer 1..64, default 8. */
   readonly fitAttempts?: number;
   /**
-   * The stream completes after this many seconds of samples: at absolute index round(durationS × rate), lost
-   * samples counted (at least 1 sample), cut inside a block if need be. Positive; default: never.
+   * The stream completes after this many seconds of samples received: once round(durationS × rate) samples
+   * (at least 1) have arrived, cut inside a block if need be. Lost samples do not count: a gap, a resync of
+   * unknown length or a repeated frame neither shortens nor lengthens the run. Positive; default: never.
    */
   readonly durationS?: number;
 }
@@ -107,10 +109,10 @@ export interface LiveFit {
 }
 
 /**
- * In order: every block of samples as decoded (before any fit hold), every position block, the gaps, link
- * changes and fit attempts.
+ * In order: every block of samples as decoded (before any fit hold), every position block, the gaps, repeated
+ * frames dropped, link changes and fit attempts.
  */
-export type LiveReading = LinkBlock | LivePositions | LinkGap | LinkEvent | LiveFit;
+export type LiveReading = LinkBlock | LivePositions | LinkGap | LinkDuplicate | LinkEvent | LiveFit;
 
 export interface LiveAxes extends Axes {
   /** Everything in order (see `LiveReading`). Shared with the axes. */
@@ -219,7 +221,9 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
     let nextFitAt = fitSamples;
     let attempts = 0;
     let ended = false;
-    let stopAt = Number.POSITIVE_INFINITY;
+    // Samples received so far, and how many the duration allows.
+    let received = 0;
+    let stopAfter = Number.POSITIVE_INFINITY;
     const positions: { kind: 'positions'; rateHz: number; block: LinkBlock; summaries: readonly AxisBlockSummary[] } = {
       kind: 'positions',
       rateHz: Number.NaN,
@@ -314,21 +318,34 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
       ...link,
       onBlock(block) {
         if (ended) return;
-        if (durationS !== undefined && stopAt === Number.POSITIVE_INFINITY) stopAt = Math.max(1, Math.round(durationS * block.rateHz));
+        if (durationS !== undefined && stopAfter === Number.POSITIVE_INFINITY) stopAfter = Math.max(1, Math.round(durationS * block.rateHz));
         const n = block.samplesPerFrame;
-        if (block.sampleIndex + n < stopAt) {
+        if (received + n < stopAfter) {
+          received += n;
           take(block);
           return;
         }
-        // The stop falls in this block: hand out its part before the stop, then end.
-        const keep = stopAt - block.sampleIndex;
-        if (keep > 0) take({ ...block, samples: block.samples.subarray(0, keep * block.channelCount), samplesPerFrame: keep });
+        // The stop falls in this block: hand out its part before the stop (and the edges in it), then end.
+        const keep = stopAfter - received;
+        received += keep;
+        const cut = block.sampleIndex + keep;
+        // The rest of the block is never used: its edges' arrays can be compacted in place.
+        let edgeCount = 0;
+        for (let e = 0; e < block.edgeCount; e++) {
+          if (Math.ceil(block.edgeTime[e]!) >= cut) continue;
+          block.edgeTime[edgeCount] = block.edgeTime[e]!;
+          block.edgeLine[edgeCount] = block.edgeLine[e]!;
+          block.edgeRising[edgeCount] = block.edgeRising[e]!;
+          edgeCount++;
+        }
+        take({ ...block, samples: block.samples.subarray(0, keep * block.channelCount), samplesPerFrame: keep, edgeCount });
         end();
       },
       onGap(gap) {
-        if (ended) return;
-        subscriber.next(gap);
-        if (gap.sampleIndex >= stopAt) end();
+        if (!ended) subscriber.next(gap);
+      },
+      onDuplicate(duplicate) {
+        if (!ended) subscriber.next(duplicate);
       },
       onLink: (event) => ended || subscriber.next(event),
     });

@@ -41,6 +41,8 @@ export interface WireDecoderOptions {
   readonly onFrame: (block: SampleBlock) => void;
   /** Called before the frame that follows a counted loss or a counter restart; the pipeline turns it into an input-gap event. */
   readonly onGap: (gap: InputGap) => void;
+  /** Called for every repeated frame dropped (counted in `duplicates`), with its sequence number. */
+  readonly onDuplicate?: (sequence: number) => void;
 }
 
 export interface WireDecoderConfig {
@@ -126,7 +128,7 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
   );
   if (typeof options.onFrame !== 'function') throw new TypeError(`onFrame must be a function (got ${typeof options.onFrame})`);
   if (typeof options.onGap !== 'function') throw new TypeError(`onGap must be a function (got ${typeof options.onGap})`);
-  const { onFrame, onGap } = options;
+  const { onFrame, onGap, onDuplicate } = options;
   const bufferBytes = wireMaxFrameLength(maxChannels, maxSamplesPerFrame);
   const config: WireDecoderConfig = Object.freeze({ maxChannels, maxSamplesPerFrame, bufferBytes });
 
@@ -228,6 +230,7 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     if (expectedSequence >= 0 && (counterJump >= 0 ? counterJump !== 0 : sequence !== expectedSequence)) {
       if (isRecent(sequence, crc)) {
         counters.duplicates++;
+        onDuplicate?.(sequence);
         return false;
       }
       const sequenceJump = (sequence - expectedSequence + WIRE_SEQUENCE_MODULUS) % WIRE_SEQUENCE_MODULUS;
