@@ -96,6 +96,35 @@ describe('WebSocket feed', () => {
     expect(update.axes[0]!.positionM! / METRES_PER_FRINGE).toBeCloseTo(motion.fringes, 9);
   });
 
+  it('re-reference commands: refused without a configured token even on loopback, and with a wrong one or a bad field, never reaching the handler', async () => {
+    const calls: unknown[] = [];
+    const onReference = (request: unknown) => {
+      calls.push(request);
+      return { ok: true as const, axes: ['X'], sampleIndex: 1234, presetM: 0.001 };
+    };
+    const open = await start({ onReference });
+    const c = await client(open.server.feedUrl);
+    expect(await c.next((m) => m.type === 'hello', 'hello')).toMatchObject({ readOnly: false, commands: ['reference'] });
+    c.send({ type: 'reference', token: TOKEN, id: 'a' });
+    expect(await c.next((m) => m.id === 'a', 'refusal')).toEqual({
+      type: 'error', code: 'refused', id: 'a',
+      message: 'commands need a token and this measurement has none (give it one: --token or FRINGETALLY_FEED_TOKEN); nothing changed',
+    });
+    await server!.close();
+    const guarded = await start({ onReference, token: TOKEN });
+    const g = await client(guarded.server.feedUrl);
+    g.send({ type: 'reference', token: 'x'.repeat(20), id: 'b' });
+    expect(await g.next((m) => m.id === 'b', 'refusal')).toMatchObject({ code: 'refused', message: 'wrong token; nothing changed' });
+    g.send({ type: 'reference', token: TOKEN, presetM: 'far', id: 'c' });
+    expect(await g.next((m) => m.id === 'c', 'refusal')).toMatchObject({ code: 'bad-message', message: 'presetM must be a number of metres in [-1000, 1000] (got "far"); nothing changed' });
+    g.send({ type: 'reference', token: TOKEN, move: 1, id: 'd' });
+    expect(await g.next((m) => m.id === 'd', 'refusal')).toMatchObject({ code: 'bad-message', message: 'unknown field "move" in reference; nothing changed' });
+    expect(calls).toEqual([]);
+    g.send({ type: 'reference', token: TOKEN, axis: 'X', presetM: 0.001, id: 'e' });
+    expect(await g.next((m) => m.id === 'e', 'reply')).toEqual({ type: 'referenced', axes: ['X'], sampleIndex: 1234, presetM: 0.001, id: 'e' });
+    expect(calls).toEqual([{ axis: 'X', presetM: 0.001, origin: 'WebSocket 127.0.0.1' }]);
+  });
+
   it('closes a connection whose message is oversized (1009) and keeps serving others', async () => {
     const { motion, server } = await start({ maxMessageBytes: 256 });
     const big = await client(server.feedUrl);

@@ -17,6 +17,7 @@ import { createStatusLine, formatStatus } from '../live/status-line.js';
 import { lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
 import { budgetOf, environmentOf, environmentOptionHelp, environmentOptionSpecs, withConfig } from '../environment-options.js';
 import { feedOptionHelp, feedOptionSpecs, feedSettingsOf, openLiveFeed, type LiveFeed } from '../live/live-feed.js';
+import { commandHandler, CONTROL_KEYS, PRESET_SIGNAL, startLiveControls, ZERO_SIGNAL, type LiveControls } from '../live/live-controls.js';
 
 const DEFAULT_FIT_SAMPLES = 16384;
 /** Input kept while an output is slow, MiB: about 11 s at 921600 Bd, 0.4 s of 2 channels at 10 MHz. */
@@ -69,6 +70,7 @@ Options:
                            about 31 s); once it has opened, a vanished port is retried until stopped
   --input-buffer-mib M     input kept while an output does not keep up, MiB (default ${DEFAULT_INPUT_BUFFER_MIB}); beyond it
                            listen stops with exit 1, naming the stalled output (files closed, summary written)
+  --preset-mm P            the position, mm, that the preset key p and ${PRESET_SIGNAL} set (default: no preset)
   --quiet                  no log lines, status line or summary on stderr
 ${measureOptionHelp}
 ${environmentOptionHelp}
@@ -76,6 +78,11 @@ ${feedOptionHelp}
 
 On a terminal, stderr shows a status line (position, velocity, level, alarms, frames, CRC failures, gaps, link),
 redrawn at most 5 times per second.
+
+Re-reference while listening (the position reads 0, or --preset-mm, from the next sample on, and count_lost
+clears there; the log and --summary record each one): when stdin is a terminal, key ${CONTROL_KEYS.zero} zeroes, ${CONTROL_KEYS.preset} presets,
+${CONTROL_KEYS.stop} or Ctrl-C stops; for scripts, ${ZERO_SIGNAL} zeroes and ${PRESET_SIGNAL} presets (kill -USR1 PID). With --token, the
+WebSocket feed and the MQTT topic PREFIX/command take the same as an authenticated command (docs/feed.md).
 
 ${LASER_CAUTION}`;
 
@@ -99,6 +106,7 @@ const optionSpecs = {
   'retry-ms': { type: 'string' },
   'open-retries': { type: 'string' },
   'input-buffer-mib': { type: 'string' },
+  'preset-mm': { type: 'string' },
   quiet: { type: 'boolean' },
   ...measureOptionSpecs,
   ...environmentOptionSpecs,
@@ -154,6 +162,8 @@ async function run(argv: readonly string[]): Promise<number> {
   }
   const latchOut = values['latch-out'];
   const quiet = values.quiet === true;
+  const presetMm = numberOption('preset-mm', values['preset-mm']);
+  if (presetMm !== undefined && !(Math.abs(presetMm) <= 1e6)) throw new UsageError(`--preset-mm must be a position in mm within ±1000000 (got ${values['preset-mm']})`);
   const lengthScale = lengthScaleOf(values, {});
   const environment = environmentOf(values, lengthScale.wavelengthM, lengthScale.refractiveIndex);
   const scale = {
@@ -223,6 +233,7 @@ async function run(argv: readonly string[]): Promise<number> {
           statusLine.log(`the network feed failed and sends nothing more (${error.message}); the rows go on`);
         },
         (line) => statusLine.log(line),
+        commandHandler(chain.axes),
       );
   for (const line of feed?.describe() ?? []) statusLine.log(line);
   const stdout = out === '-' ? openStandardOutput() : undefined;
@@ -283,6 +294,11 @@ async function run(argv: readonly string[]): Promise<number> {
             );
           } else if (gapLines === MAX_GAP_LINES) statusLine.log('further gaps and repeated frames are counted, not listed');
           gapLines++;
+        } else if (notice.kind === 'reference') {
+          const rate = chain.axes.linkStatus?.rateHz ?? Number.NaN;
+          const t = rate > 0 ? ` (t = ${(notice.sampleIndex / rate).toFixed(6)} s)` : '';
+          const what = notice.presetM === 0 ? 'zeroed' : `preset to ${Number((notice.presetM * 1e3).toPrecision(12))} mm`;
+          statusLine.log(`${what} axis ${notice.axes.join(', ')} at sample ${notice.sampleIndex}${t} by ${notice.origin}; count_lost cleared from there`);
         } else if (notice.result.ok) {
           statusLine.log(`fitted the correction to ${notice.result.samples} of the first ${notice.heldSamples} samples (coverage ${(notice.result.coverage * 100).toFixed(0)} %): ${describeCalibration(notice.result.calibration)}`);
         } else {
@@ -306,6 +322,14 @@ async function run(argv: readonly string[]): Promise<number> {
   const stop = () => controller.abort();
   process.on('SIGINT', stop);
   process.on('SIGTERM', stop);
+  const controls: LiveControls = startLiveControls({
+    axes: chain.axes,
+    stdin: process.stdin,
+    presetM: presetMm === undefined ? undefined : presetMm / 1e3,
+    stop,
+    log: (line) => statusLine.log(line),
+  });
+  statusLine.log(controls.help);
   let summary: LiveSummary;
   try {
     session = chain.start(controller.signal);
@@ -322,6 +346,7 @@ async function run(argv: readonly string[]): Promise<number> {
   } finally {
     process.off('SIGINT', stop);
     process.off('SIGTERM', stop);
+    controls.dispose();
   }
   statusLine.stop();
   await feed?.close();
@@ -532,6 +557,7 @@ function summaryRecord(
       events: summary.links.map(({ state, reason, gap, timeMs }) => ({ state, reason, gap, timeMs })),
     },
     alarmsRaised: Object.fromEntries(alarmKinds.map((kind) => [alarmNames[kind], progress.alarmsRaised[kind]])),
+    references: summary.references.map(({ axes, sampleIndex, presetM, origin }) => ({ axes, sampleIndex, presetM, origin })),
   };
 }
 

@@ -10,6 +10,8 @@ import {
   type MqttPublisherEvent,
   type MqttPublisherHealth,
   type MqttPublisherOptions,
+  type ReferenceOutcome,
+  type ReferenceRequest,
 } from '../../src/io/feed/index.js';
 import type { Observable } from 'rxjs';
 import type { FeedEdgeInput } from '../../src/io/feed/index.js';
@@ -36,11 +38,13 @@ export const MQTT_PASSWORD_VARIABLE = 'FRINGETALLY_MQTT_PASSWORD';
 /** Read when --serve is given without --token, so the token stays out of the process list. */
 export const FEED_TOKEN_VARIABLE = 'FRINGETALLY_FEED_TOKEN';
 
-export const feedOptionHelp = `Network feed (read-only: nothing a client sends changes the measurement):
+export const feedOptionHelp = `Network feed (read-only, but for one command: a re-reference that carries the token):
   --serve [HOST:]PORT      WebSocket feed and live page (Lissajous figure, level, readouts, alarm log) on
                            HOST (default 127.0.0.1, loopback only); any other host needs --token
-  --token T                shared token clients must present (at least 16 characters); without it, the
-                           token is read from $${FEED_TOKEN_VARIABLE} when set. It is never printed.
+  --token T                shared token (at least 16 characters) clients must present, and that re-reference
+                           commands must carry on the feed and on MQTT, even on loopback (without a token every
+                           command is refused); without it, the token is read from $${FEED_TOKEN_VARIABLE}
+                           when set. It is never printed.
   --allow-origin URL       also accept browser pages from this origin (e.g. https://hmi.lab.example); repeatable
   --proxy ADDRESS          a reverse proxy at ADDRESS passes the public host on and serves the page over
                            https (see docs/feed.md); needs a token; repeatable
@@ -52,7 +56,7 @@ export const feedOptionHelp = `Network feed (read-only: nothing a client sends c
   --mqtt-ca FILE           PEM CA certificate(s) that signed the broker's certificate (mqtts:// URLs;
                            default: the system's CAs)
   --mqtt-cert FILE, --mqtt-key FILE   PEM client certificate and key, for brokers that require them
-The feed shows the rows' own chain: the same count, zero (the first sample) and alarms.`;
+The feed shows the rows' own chain: the same count, zero (the first sample, or the latest re-reference) and alarms.`;
 
 export interface FeedSettings {
   readonly serve: {
@@ -65,6 +69,8 @@ export interface FeedSettings {
     readonly trustedProxies: readonly string[];
   } | null;
   readonly mqtt: Omit<MqttPublisherOptions, 'source'> | null;
+  /** Where the token came from (--token or the environment), for the log lines; null without a token. */
+  readonly tokenSource: string | null;
 }
 
 export function feedSettingsOf(values: Record<string, string | boolean | string[] | undefined>): FeedSettings | null {
@@ -72,9 +78,12 @@ export function feedSettingsOf(values: Record<string, string | boolean | string[
   const mqttUrl = values.mqtt as string | undefined;
   const text = (name: string) => values[name] as string | undefined;
   const list = (name: string) => (values[name] as string[] | undefined) ?? [];
-  const tokenFromEnvironment = text('token') === undefined && serveText !== undefined ? process.env[FEED_TOKEN_VARIABLE] : undefined;
+  const networked = serveText !== undefined || mqttUrl !== undefined;
+  const tokenFromEnvironment = text('token') === undefined && networked ? process.env[FEED_TOKEN_VARIABLE] : undefined;
   const token = text('token') ?? tokenFromEnvironment;
-  if (text('token') !== undefined && serveText === undefined) throw new UsageError('--token applies to --serve');
+  if (text('token') !== undefined && !networked) throw new UsageError('--token applies to --serve and --mqtt');
+  const tokenSource = token === undefined ? null : tokenFromEnvironment === undefined ? '--token' : `$${FEED_TOKEN_VARIABLE}`;
+  if (token !== undefined && token.length < 16) throw new UsageError(`the feed token (from ${tokenSource}) must be at least 16 characters (got ${token.length})`);
   for (const name of ['allow-origin', 'proxy']) {
     if (list(name).length > 0 && serveText === undefined) throw new UsageError(`--${name} applies to --serve`);
   }
@@ -90,8 +99,6 @@ export function feedSettingsOf(values: Record<string, string | boolean | string[
     const port = match === null ? NaN : Number(match[2]);
     if (match === null || !(port >= 0 && port <= 65535)) throw new UsageError(`--serve expects [HOST:]PORT (got "${serveText}")`);
     const host = match[1] === undefined ? '127.0.0.1' : match[1].replace(/^\[|\]$/g, '');
-    const tokenSource = token === undefined ? null : tokenFromEnvironment === undefined ? '--token' : `$${FEED_TOKEN_VARIABLE}`;
-    if (token !== undefined && token.length < 16) throw new UsageError(`the feed token (from ${tokenSource}) must be at least 16 characters (got ${token.length})`);
     if (token === undefined && !isLoopbackHost(host)) {
       throw new UsageError(`--serve ${serveText} is reachable from the network: set --token or $${FEED_TOKEN_VARIABLE} (at least 16 characters)`);
     }
@@ -102,7 +109,7 @@ export function feedSettingsOf(values: Record<string, string | boolean | string[
     });
     serve = { host, port, tokenSource, allowedOrigins, trustedProxies: list('proxy'), ...(token === undefined ? {} : { token }) };
   }
-  if (mqttUrl === undefined) return { serve, mqtt: null };
+  if (mqttUrl === undefined) return { serve, mqtt: null, tokenSource };
   const updateHz = numberOption('mqtt-update-hz', text('mqtt-update-hz'));
   const username = text('mqtt-username');
   let password = text('mqtt-password');
@@ -132,8 +139,9 @@ export function feedSettingsOf(values: Record<string, string | boolean | string[
     ...(username === undefined ? {} : { username, password: password! }),
     ...(updateHz === undefined ? {} : { updateHz }),
     ...(Object.keys(given).length === 0 ? {} : { tls: given }),
+    ...(token === undefined ? {} : { token }),
   };
-  return { serve, mqtt };
+  return { serve, mqtt, tokenSource };
 }
 
 export interface LiveFeed {
@@ -156,12 +164,16 @@ export async function openLiveFeed(
   /** The feed's hold on the chain failed: it sends nothing more, while the caller's own rows go on. */
   onError: (error: Error) => void,
   log: (line: string) => void,
+  /** Re-reference commands that carry the token (refused without one); see docs/feed.md. */
+  onReference: (request: ReferenceRequest) => ReferenceOutcome,
 ): Promise<LiveFeed> {
-  const server: FeedServer | null = feedSettings.serve === null ? null : await startFeedServer({ ...feedSettings.serve, onSourceError: (error) => onError(error instanceof Error ? error : new Error(String(error))) });
+  const server: FeedServer | null = feedSettings.serve === null
+    ? null
+    : await startFeedServer({ ...feedSettings.serve, onReference, onSourceError: (error) => onError(error instanceof Error ? error : new Error(String(error))) });
   let publisher: MqttPublisher | null = null;
   if (feedSettings.mqtt !== null) {
     const url = feedSettings.mqtt.url ?? 'mqtt://127.0.0.1:1883';
-    publisher = createMqttPublisher({ ...feedSettings.mqtt, onEvent: (event) => log(mqttEventLine(url, event)) });
+    publisher = createMqttPublisher({ ...feedSettings.mqtt, onReference, onEvent: (event) => log(mqttEventLine(url, event)) });
   }
   return {
     start(axes, rateHz, edges$) {
@@ -176,11 +188,15 @@ export async function openLiveFeed(
           ? []
           : [
               `live page at ${server.pageUrlForDisplay} (feed ${server.feedUrlForDisplay}` +
-                `${serve.tokenSource === null ? '' : `; <token> is the one from ${serve.tokenSource}`}); read-only, waiting for samples`,
+                `${serve.tokenSource === null ? '' : `; <token> is the one from ${serve.tokenSource}`}); ${commandText(feedSettings.tokenSource)}, waiting for samples`,
             ]),
         ...(publisher === null
           ? []
-          : [`publishing to MQTT topics ${feedSettings.mqtt!.topicPrefix ?? 'fringetally'}/axis/X, ${feedSettings.mqtt!.topicPrefix ?? 'fringetally'}/edge, ${publisher.statusTopic} at ${feedSettings.mqtt!.url ?? 'mqtt://127.0.0.1:1883'}`]),
+          : [
+              `publishing to MQTT topics ${feedSettings.mqtt!.topicPrefix ?? 'fringetally'}/axis/X, ${feedSettings.mqtt!.topicPrefix ?? 'fringetally'}/edge, ` +
+                `${publisher.statusTopic} at ${feedSettings.mqtt!.url ?? 'mqtt://127.0.0.1:1883'}; ` +
+                `${commandText(feedSettings.tokenSource)} on ${publisher.commandTopic} (replies on ${publisher.replyTopic})`,
+            ]),
       ];
     },
     get mqttHealth() {
@@ -191,6 +207,10 @@ export async function openLiveFeed(
       await publisher?.close();
     },
   };
+}
+
+function commandText(tokenSource: string | null): string {
+  return tokenSource === null ? 'read-only (re-reference commands need a token)' : `read-only but for re-reference commands carrying the token from ${tokenSource}`;
 }
 
 /** One log line per MQTT event; the publisher already limits how often they come. */

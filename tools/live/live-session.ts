@@ -14,6 +14,7 @@ import {
   type LiveAxes,
   type LiveFit,
   type LivePositions,
+  type LiveReference,
   type TrackLinkOptions,
 } from '../../src/io/live/index.js';
 import type { ByteSource, ByteSourceEvent, LinkEvent } from '../../src/io/serial/index.js';
@@ -29,8 +30,8 @@ export interface LiveSink {
   samples?(block: LinkBlock): SinkJob | void;
   /** Every position block of the axes. Copy what the job needs: the arrays are reused. */
   positions?(positions: LivePositions): SinkJob | void;
-  /** Gaps, repeated frames dropped, link changes and fit attempts, as they happen. */
-  notice?(notice: LinkGap | LinkDuplicate | LinkEvent | LiveFit): void;
+  /** Gaps, repeated frames dropped, link changes, fit attempts and re-references, as they happen. */
+  notice?(notice: LinkGap | LinkDuplicate | LinkEvent | LiveFit | LiveReference): void;
 }
 
 export interface LiveSessionOptions {
@@ -76,6 +77,8 @@ export interface LiveSummary {
   readonly duplicates: readonly LinkDuplicate[];
   readonly links: readonly LinkEvent[];
   readonly fits: readonly LiveFit[];
+  /** Re-references on demand (key, signal, command), the first `MAX_LINK_RECORDS`. */
+  readonly references: readonly LiveReference[];
 }
 
 export interface LiveSession {
@@ -120,6 +123,7 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
   const gapsByCause = { sequence: { count: 0, lostSamples: 0 }, link: { count: 0, lostSamples: 0 }, resync: { count: 0, lostSamples: 0 } };
   const links: LinkEvent[] = [];
   const fits: LiveFit[] = [];
+  const references: LiveReference[] = [];
   const jobs: { sink: LiveSink; job: SinkJob }[] = [];
   let chainEnded = false;
   let chainFailure: { error: unknown } | null = null;
@@ -159,6 +163,7 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
       }
       if (reading.kind === 'duplicate' && duplicates.length < MAX_GAP_RECORDS) duplicates.push(reading);
       if (reading.kind === 'link' && links.length < MAX_LINK_RECORDS) links.push(reading);
+      if (reading.kind === 'reference' && references.length < MAX_LINK_RECORDS) references.push(reading);
       if (reading.kind === 'fit') {
         fits.push(reading);
         if (reading.result.ok) progress.calibration = 'fitted';
@@ -228,7 +233,7 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
       subscription.unsubscribe();
     }
     const stopReason: LiveSummary['stopReason'] = overflowed ? 'stalled' : durationReached ? 'duration' : signalled ? 'signal' : 'source ended';
-    return { stopReason, stalledSink, progress, link: axes.linkStatus, gaps, gapsByCause, duplicates, links, fits };
+    return { stopReason, stalledSink, progress, link: axes.linkStatus, gaps, gapsByCause, duplicates, links, fits, references };
   }
 
   return {

@@ -1,5 +1,6 @@
-// The WebSocket position feed and its live page, over one HTTP server. Read-only by construction: the only
-// client message is a subscribe that picks the client's own update rate; nothing reaches the pipeline.
+// The WebSocket position feed and its live page, over one HTTP server. Read-only by default: the only client
+// message is a subscribe that picks the client's own update rate. With `onReference`, a re-reference command
+// that carries the token reaches the measurement; nothing else does.
 // Every client's cost is bounded: its output queue, its message rate, how long it may stay without
 // subscribing, and how long it may stay silent (ping/pong); see docs/feed.md, "Limits".
 
@@ -19,7 +20,11 @@ import {
   feedUpdateMessage,
   type FeedEdgeInput,
   parseClientMessage,
+  referenceCommandOf,
+  runReferenceCommand,
   type FeedErrorMessage,
+  type ReferenceOutcome,
+  type ReferenceRequest,
   type FeedHelloMessage,
   type FeedState,
   type FeedStatusMessage,
@@ -89,6 +94,12 @@ export interface FeedServerOptions {
    * heartbeat is dropped as dead. Default 15000; 50..600000.
    */
   readonly pingIntervalMs?: number;
+  /**
+   * Takes re-reference commands (`{"type":"reference","token",…}`, docs/feed.md): called for each one whose token
+   * matches `token` and whose fields are valid; its outcome is the reply. Without `token` every command is refused
+   * (even on loopback). Absent: the feed is read-only and refuses commands as it refuses anything but subscribe.
+   */
+  readonly onReference?: (request: ReferenceRequest) => ReferenceOutcome;
   /** Called when the source fails; default: a process warning. Clients get a `source-error` message. */
   readonly onSourceError?: (error: unknown) => void;
 }
@@ -201,6 +212,8 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
   for (const origin of allowedOrigins) {
     if (!/^https?:\/\/[^/\s]+$/.test(origin)) throw new OptionError('allowedOrigins', 'origins such as https://hmi.example (scheme and host, no path)', origin);
   }
+  const onReference = options.onReference;
+  if (onReference !== undefined && typeof onReference !== 'function') throw new OptionError('onReference', 'a function', typeof onReference);
   const onSourceError = options.onSourceError ?? ((error: unknown) => process.emitWarning(`feed source failed: ${String(error)}`));
 
   const clients = new Set<Client>();
@@ -383,7 +396,7 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
     const hello: FeedHelloMessage = {
       type: 'hello',
       schema: FEED_SCHEMA,
-      readOnly: true,
+      ...(onReference === undefined ? { readOnly: true } : { readOnly: false, commands: ['reference' as const] }),
       state,
       axes: source?.axes.names ?? [],
       updateHz: { default: defaultUpdateHz, max: maxUpdateHz },
@@ -405,7 +418,10 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
       if (client.closing) return;
       if (!takeMessageToken(client)) return closeFor(client, 'closedRate', `more than ${maxMessagesPerS} messages per second (burst ${messageBurst})`);
       if (isBinary) return reply(client, { type: 'error', code: 'bad-message', message: 'binary messages are not accepted: send JSON text' });
-      const parsed = parseClientMessage(data.toString(), maxUpdateHz);
+      const text = data.toString();
+      const command = onReference === undefined ? null : referenceCommandOf(text);
+      if (command !== null) return reply(client, runReferenceCommand(command, token, `WebSocket ${remoteAddress}`, onReference!));
+      const parsed = parseClientMessage(text, maxUpdateHz);
       if (!parsed.ok) return reply(client, parsed.error);
       if (client.idleTimer !== null) clearTimeout(client.idleTimer);
       client.idleTimer = null;

@@ -2,6 +2,7 @@
 
 import { alarmNames, alarmText, type AlarmEvent } from '../../core/index.js';
 import type { AxesUpdate, AxisUpdate, GeometryUpdate, Trace } from '../../stream/index.js';
+import { tokenMatches } from './access.js';
 
 export const FEED_SCHEMA = 1;
 
@@ -146,7 +147,9 @@ export interface FeedStatusMessage extends FeedTimeBase {
 export interface FeedHelloMessage {
   readonly type: 'hello';
   readonly schema: typeof FEED_SCHEMA;
-  readonly readOnly: true;
+  /** False only when the server takes re-reference commands (`commands` then names them); they need the token. */
+  readonly readOnly: boolean;
+  readonly commands?: readonly 'reference'[];
   readonly state: FeedState;
   readonly axes: readonly string[];
   readonly updateHz: { readonly default: number; readonly max: number };
@@ -158,12 +161,93 @@ export interface FeedHelloMessage {
   readonly subscribeTimeoutMs: number;
 }
 
-export type FeedErrorCode = 'malformed-json' | 'bad-message' | 'read-only' | 'source-error';
+/** `refused`: a re-reference command without the right token, or one the measurement cannot carry out now. */
+export type FeedErrorCode = 'malformed-json' | 'bad-message' | 'read-only' | 'source-error' | 'refused';
 
 export interface FeedErrorMessage {
   readonly type: 'error';
   readonly code: FeedErrorCode;
   readonly message: string;
+  /** The `id` of the command refused, when it had one. */
+  readonly id?: string;
+}
+
+/**
+ * The one command (WebSocket feed and MQTT): re-reference a running measurement. Zero an axis (or every axis) at
+ * its next sample, or preset it to `presetM`; the count-lost latch clears there. Needs the measurement's token,
+ * even on loopback.
+ */
+export interface FeedReferenceCommand {
+  readonly type: 'reference';
+  readonly token: string;
+  /** Axis name; default every axis. */
+  readonly axis?: string;
+  /** Position the axis reads at its next sample, m; default 0 (a zero). */
+  readonly presetM?: number;
+  /** Echoed in the reply (up to 64 characters), so a client can match replies to commands. */
+  readonly id?: string;
+}
+
+/** What a re-reference command asks of the measurement (after the token check). */
+export interface ReferenceRequest {
+  /** Axis name, or null for every axis. */
+  readonly axis: string | null;
+  readonly presetM: number;
+  /** Who asked, for the log and the summary: e.g. `WebSocket 127.0.0.1`, `MQTT`. */
+  readonly origin: string;
+}
+
+/** What the measurement did: re-referenced `axes` at absolute sample `sampleIndex`, or why it could not. */
+export type ReferenceOutcome =
+  | { readonly ok: true; readonly axes: readonly string[]; readonly sampleIndex: number; readonly presetM: number }
+  | { readonly ok: false; readonly reason: string };
+
+/** The reply to a command carried out. */
+export interface FeedReferencedMessage {
+  readonly type: 'referenced';
+  readonly axes: readonly string[];
+  /** Absolute index of the sample that reads `presetM`. */
+  readonly sampleIndex: number;
+  readonly presetM: number;
+  readonly id?: string;
+}
+
+const COMMAND_FIELDS = new Set(['type', 'token', 'axis', 'presetM', 'id']);
+
+/**
+ * Checks a re-reference command and carries it out through `handler`: the reply to send. Refused (code
+ * `refused`) without a configured token or without the right one; checked field by field (`bad-message`); a
+ * refusal never reaches the handler, so it changes nothing. Never throws (a handler's error becomes a refusal).
+ */
+export function runReferenceCommand(
+  record: Readonly<Record<string, unknown>>,
+  token: string | undefined,
+  origin: string,
+  handler: (request: ReferenceRequest) => ReferenceOutcome,
+): FeedReferencedMessage | FeedErrorMessage {
+  const id = typeof record.id === 'string' && record.id.length <= 64 ? record.id : undefined;
+  const withId = id === undefined ? {} : { id };
+  const refused = (code: FeedErrorCode, message: string): FeedErrorMessage => ({ type: 'error', code, message, ...withId });
+  if (token === undefined) return refused('refused', 'commands need a token and this measurement has none (give it one: --token or FRINGETALLY_FEED_TOKEN); nothing changed');
+  if (typeof record.token !== 'string') return refused('refused', 'a command must carry the token ("token"); nothing changed');
+  if (!tokenMatches(record.token, token)) return refused('refused', 'wrong token; nothing changed');
+  for (const key of Object.keys(record)) {
+    if (!COMMAND_FIELDS.has(key)) return refused('bad-message', `unknown field ${JSON.stringify(key)} in reference; nothing changed`);
+  }
+  if (record.id !== undefined && id === undefined) return refused('bad-message', 'id must be a string of at most 64 characters; nothing changed');
+  const { axis, presetM } = record;
+  if (axis !== undefined && typeof axis !== 'string') return refused('bad-message', `axis must be an axis name (got ${JSON.stringify(axis)}); nothing changed`);
+  if (presetM !== undefined && !(typeof presetM === 'number' && Number.isFinite(presetM) && Math.abs(presetM) <= 1e3)) {
+    return refused('bad-message', `presetM must be a number of metres in [-1000, 1000] (got ${JSON.stringify(presetM)}); nothing changed`);
+  }
+  let outcome: ReferenceOutcome;
+  try {
+    outcome = handler({ axis: axis ?? null, presetM: presetM ?? 0, origin });
+  } catch (error) {
+    outcome = { ok: false, reason: (error as Error).message };
+  }
+  if (!outcome.ok) return refused('refused', `${outcome.reason}; nothing changed`);
+  return { type: 'referenced', axes: outcome.axes, sampleIndex: outcome.sampleIndex, presetM: outcome.presetM, ...withId };
 }
 
 /** What a client may send: only this. Everything else is refused; nothing a client sends reaches the measurement. */
@@ -283,6 +367,16 @@ export function feedGeometry(geometry: GeometryUpdate): FeedGeometry {
 }
 
 export type ParsedClientMessage = { readonly ok: true; readonly message: FeedSubscribeMessage } | { readonly ok: false; readonly error: FeedErrorMessage };
+
+/** The message as an object when it is a re-reference command (`"type":"reference"`), else null; never throws. */
+export function referenceCommandOf(text: string): Readonly<Record<string, unknown>> | null {
+  try {
+    const value: unknown = JSON.parse(text);
+    return typeof value === 'object' && value !== null && !Array.isArray(value) && (value as Record<string, unknown>).type === 'reference' ? (value as Record<string, unknown>) : null;
+  } catch {
+    return null; // not JSON: parseClientMessage names the fault
+  }
+}
 
 /** Parses and checks one client message against the schema; never throws. */
 export function parseClientMessage(text: string, maxUpdateHz: number): ParsedClientMessage {

@@ -1,5 +1,6 @@
 // MQTT publisher for sites that already run a broker: one retained JSON message per axis per update, an
-// online/offline status with a last will. It never subscribes, so nothing from the broker reaches the measurement.
+// online/offline status with a last will. It subscribes to nothing unless it takes re-reference commands
+// (`onReference`); then only a command carrying the token reaches the measurement.
 // A broker that is down or goes away never stops the measurement: the publisher connects in the background,
 // retries with a doubling wait, reports each outage once (then at most once per interval) and keeps its figures.
 
@@ -10,7 +11,22 @@ import type { Subscription } from 'rxjs';
 import { integerInRange, OptionError, positiveFinite } from '../../core/index.js';
 import type { FeedSource } from './feed-server.js';
 import { createUpdateGeometry, type UpdateGeometry } from '../../stream/index.js';
-import { FEED_SCHEMA, feedAxisState, feedEdgeMessage, feedGeometry, feedTimeBase, type FeedAxisState, type FeedGeometry, type FeedState, type FeedTimeBase } from './messages.js';
+import {
+  FEED_SCHEMA,
+  feedAxisState,
+  feedEdgeMessage,
+  feedGeometry,
+  feedTimeBase,
+  referenceCommandOf,
+  runReferenceCommand,
+  type FeedAxisState,
+  type FeedErrorMessage,
+  type FeedGeometry,
+  type FeedState,
+  type FeedTimeBase,
+  type ReferenceOutcome,
+  type ReferenceRequest,
+} from './messages.js';
 
 export interface MqttTlsOptions {
   /** CA certificate(s), PEM, for a broker with a private CA. Default: the system's CAs. */
@@ -58,6 +74,13 @@ export interface MqttPublisherOptions {
   readonly reportIntervalMs?: number;
   /** Default: a process warning for `down` and `still-down`, and for `connected` after an outage. */
   readonly onEvent?: (event: MqttPublisherEvent) => void;
+  /**
+   * Takes re-reference commands on `<prefix>/command` (JSON as on the WebSocket feed, docs/feed.md) and answers on
+   * `<prefix>/command/reply`: called for each command whose token matches `token`. Absent: nothing is subscribed.
+   */
+  readonly onReference?: (request: ReferenceRequest) => ReferenceOutcome;
+  /** The shared secret commands must carry (at least 16 characters). Without it every command is refused. */
+  readonly token?: string;
 }
 
 /** The publisher's link to its broker, for a summary. */
@@ -88,6 +111,9 @@ export interface MqttPublisher {
   readonly edgeTopic: string | null;
   /** `<prefix>/status`: retained `{"state":"online"|"offline","measurement":...}`. */
   readonly statusTopic: string;
+  /** `<prefix>/command` and `<prefix>/command/reply` when the publisher takes commands, else null. */
+  readonly commandTopic: string | null;
+  readonly replyTopic: string | null;
   /** Update messages handed to the client so far. */
   readonly published: number;
   readonly health: MqttPublisherHealth;
@@ -121,6 +147,9 @@ export interface MqttStatusMessage extends FeedTimeBase {
   readonly axes: readonly string[];
 }
 
+/** Largest command payload read, bytes (as the WebSocket feed's default message limit). */
+const MAX_COMMAND_BYTES = 1024;
+
 const TOPIC_PREFIX = /^[^#+/\u0000]+(\/[^#+/\u0000]+)*$/;
 
 /**
@@ -149,6 +178,12 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
   const reportIntervalMs = integerInRange('reportIntervalMs', options.reportIntervalMs ?? 60_000, 1, 86_400_000);
   const onEvent = options.onEvent ?? defaultEventHandler(url);
   const statusTopic = `${prefix}/status`;
+  const onReference = options.onReference;
+  if (onReference !== undefined && typeof onReference !== 'function') throw new OptionError('onReference', 'a function', typeof onReference);
+  const token = options.token;
+  if (token !== undefined && (typeof token !== 'string' || token.length < 16)) throw new OptionError('token', 'a string of at least 16 characters', '(hidden)');
+  const commandTopic = onReference === undefined ? null : `${prefix}/command`;
+  const replyTopic = onReference === undefined ? null : `${prefix}/command/reply`;
 
   let source: FeedSource | null = null;
   let measurement: FeedState = 'waiting';
@@ -220,7 +255,17 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
     attemptsInOutage = 0;
     delayMs = firstDelayMs;
     client.publish(statusTopic, status('online'), { qos: 1, retain: true });
+    // A clean session forgets subscriptions: subscribe again on every connection.
+    if (commandTopic !== null) client.subscribe(commandTopic, { qos: 1 });
     onEvent({ kind: 'connected', first, outageMs, attempts });
+  });
+  client.on('message', (topic, payload) => {
+    if (topic !== commandTopic || onReference === undefined) return;
+    const record = payload.length > MAX_COMMAND_BYTES ? null : referenceCommandOf(payload.toString());
+    const answer: object = record === null
+      ? ({ type: 'error', code: 'bad-message', message: `a command is a JSON object {"type":"reference","token":…} of at most ${MAX_COMMAND_BYTES} bytes; nothing changed` } satisfies FeedErrorMessage)
+      : runReferenceCommand(record, token, 'MQTT', onReference);
+    client.publish(replyTopic!, JSON.stringify(answer), { qos: 1, retain: false });
   });
   client.on('close', () => {
     if (closing) return;
@@ -334,6 +379,8 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
       return edgeTopic;
     },
     statusTopic,
+    commandTopic,
+    replyTopic,
     get published() {
       return published;
     },

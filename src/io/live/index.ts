@@ -16,6 +16,7 @@ export {
   type LiveAxes,
   type LiveAxisOptions,
   type LiveFit,
+  type LiveReference,
   type LivePositions,
   type LiveReading,
   type TrackLinkOptions,

@@ -3,7 +3,7 @@
 // (rows, status, recorder, network feeds) subscribes to the one shared chain, so all see the same count.
 
 import { Observable, filter, map, share, type OperatorFunction, type Subscription } from 'rxjs';
-import { createTwoPassFit, integerInRange, positiveFinite, type EllipseCalibration, type EllipseFitResult } from '../../core/index.js';
+import { createTwoPassFit, integerInRange, OptionError, positiveFinite, type EllipseCalibration, type EllipseFitResult } from '../../core/index.js';
 import {
   createAxesRunner,
   createAxesView,
@@ -110,9 +110,9 @@ export interface LiveFit {
 
 /**
  * In order: every block of samples as decoded (before any fit hold), every position block, the gaps, repeated
- * frames dropped, link changes and fit attempts.
+ * frames dropped, link changes, fit attempts and re-references on demand.
  */
-export type LiveReading = LinkBlock | LivePositions | LinkGap | LinkDuplicate | LinkEvent | LiveFit;
+export type LiveReading = LinkBlock | LivePositions | LinkGap | LinkDuplicate | LinkEvent | LiveFit | LiveReference;
 
 export interface LiveAxes extends Axes {
   /** Everything in order (see `LiveReading`). Shared with the axes. */
@@ -124,11 +124,23 @@ export interface LiveAxes extends Axes {
   /** The running reader's counters (link, samples, gaps, decoder); null before the first subscription. */
   readonly linkStatus: Readonly<LinkReaderStatus> | null;
   /**
-   * Zero (or preset to `presetM`, m) one axis or every axis at the next sample, and clear its count-lost latch
-   * there: for a terminal key, a signal or an authenticated command. Before the first sample it does nothing
-   * (the first sample is the reference anyway).
+   * Zero (or preset to `presetM`, m) one axis (index or name) or every axis at the next sample, and clear its
+   * count-lost latch there: for a terminal key, a signal or an authenticated command. Returns what was done, also
+   * handed out on `readings$` before the positions it shapes; null while no position is made yet (no sample, or
+   * the live fit still holding the first samples: the first sample is the reference anyway). Throws an
+   * OptionError for an unknown axis or a non-finite preset.
    */
-  reReference(options?: { readonly axis?: number; readonly presetM?: number }): void;
+  reReference(options?: { readonly axis?: number | string; readonly presetM?: number; readonly origin?: string }): LiveReference | null;
+}
+
+/** A re-reference on demand: the axes that read `presetM` at absolute sample `sampleIndex`, and who asked. */
+export interface LiveReference {
+  readonly kind: 'reference';
+  readonly axes: readonly string[];
+  readonly sampleIndex: number;
+  readonly presetM: number;
+  /** As given to `reReference` (e.g. `key z`, `SIGUSR1`, `WebSocket 127.0.0.1`); empty when none. */
+  readonly origin: string;
 }
 
 /** A rate used only to check the axis options before the frames tell the true one; no rate rule binds at it. */
@@ -211,6 +223,8 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
   let running: AxesRunner | null = null;
   let refractiveIndex: number | null = null;
   let linkStatus: Readonly<LinkReaderStatus> | null = null;
+  // The running chain's output, for the re-references requested from outside it.
+  let emit: ((reading: LiveReading) => void) | null = null;
 
   const readings$ = new Observable<LiveReading>((subscriber) => {
     let runner: AxesRunner | null = null;
@@ -350,6 +364,9 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
       onLink: (event) => ended || subscriber.next(event),
     });
     linkStatus = reader.status;
+    emit = (reading) => {
+      if (!ended) subscriber.next(reading);
+    };
     let subscription: Subscription | null = null;
     subscription = source.open().subscribe({
       next(event) {
@@ -373,6 +390,7 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
     return () => {
       subscription?.unsubscribe();
       running = null;
+      emit = null;
     };
   }).pipe(share());
 
@@ -401,7 +419,21 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
       return linkStatus;
     },
     reReference(request = {}) {
-      (running as AxesRunner | null)?.reReference(request);
+      const { axis: named, presetM = 0, origin = '' } = request;
+      const axis = typeof named === 'string' ? probe.names.indexOf(named) : named;
+      if (axis === -1) throw new OptionError('axis', `one of ${probe.names.join(', ')}`, named);
+      const runner = running as AxesRunner | null;
+      if (runner === null) {
+        // Checked all the same, so that a bad request is refused whenever it comes.
+        probe.reReference({ ...(axis === undefined ? {} : { axis }), presetM });
+        probe.reset();
+        return null;
+      }
+      const sampleIndex = runner.nextSampleIndex;
+      runner.reReference({ ...(axis === undefined ? {} : { axis }), presetM });
+      const done: LiveReference = { kind: 'reference', axes: axis === undefined ? [...runner.names] : [runner.names[axis]!], sampleIndex, presetM, origin };
+      (emit as ((reading: LiveReading) => void) | null)?.(done);
+      return done;
     },
   };
 }
