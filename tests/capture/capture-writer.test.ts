@@ -1,6 +1,7 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { createCaptureWriter } from '../../src/io/capture/index.js';
+import { OptionError } from '../../src/core/options.js';
 import { collect, makeTempDir, quadratureCounts } from './helpers.js';
 
 const dir = makeTempDir();
@@ -100,14 +101,15 @@ describe('capture writers', () => {
   it('validates its options', async () => {
     const path = dir.file('never.wav');
     await expect(createCaptureWriter(path, { format: 'wav', rateHz: 0 })).rejects.toThrow('rateHz must be a positive finite number (got 0)');
+    await expect(createCaptureWriter(path, { format: 'wav', rateHz: 0 })).rejects.toThrow(OptionError);
     await expect(createCaptureWriter(path, { format: 'wav', rateHz: 10.5 })).rejects.toThrow(/rateHz must be an integer for WAV/);
     await expect(createCaptureWriter(path, { format: 'wav', rateHz: 10, encoding: 'decimal-text' })).rejects.toThrow(
       'encoding must be one of int16, int24, float32 for wav (got "decimal-text")',
     );
-    await expect(createCaptureWriter(path, { format: 'wav', rateHz: 10, channelNames: ['a', 'b'] })).rejects.toThrow(/channelNames applies to CSV only/);
-    await expect(createCaptureWriter(path, { format: 'csv', rateHz: 10, metadata: { rate_hz: '5' } })).rejects.toThrow(/must not set "rate_hz"/);
-    await expect(createCaptureWriter(path, { format: 'csv', rateHz: 10, metadata: { 'bad key': '5' } })).rejects.toThrow(/metadata keys must match/);
-    await expect(createCaptureWriter(path, { format: 'csv', rateHz: 10, channelNames: ['x', 'x'] })).rejects.toThrow(/channelNames must differ/);
+    await expect(createCaptureWriter(path, { format: 'wav', rateHz: 10, channelNames: ['a', 'b'] })).rejects.toThrow(/channelNames must be left out for WAV/);
+    await expect(createCaptureWriter(path, { format: 'csv', rateHz: 10, metadata: { rate_hz: '5' } })).rejects.toThrow('metadata keys must be other than "rate_hz" (give rateHz instead) (got "rate_hz")');
+    await expect(createCaptureWriter(path, { format: 'csv', rateHz: 10, metadata: { 'bad key': '5' } })).rejects.toThrow(/metadata keys must be names matching/);
+    await expect(createCaptureWriter(path, { format: 'csv', rateHz: 10, channelNames: ["x", "x"] })).rejects.toThrow(/channelNames must be two different names/);
     expect(partialFiles()).toEqual([]);
   });
 });

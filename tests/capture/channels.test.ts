@@ -60,8 +60,8 @@ describe('capture channels', () => {
   });
 
   it('refuses a bad channel list, naming the option', async () => {
-    await expect(openCapture(csv, { channels: ['a'] })).rejects.toThrow('channels must list 2 to 4 column names or 1-based numbers (got ["a"])');
-    await expect(openCapture(csv, { channels: ['a', 'b'], xChannel: 'c' })).rejects.toThrow('give it or xChannel/yChannel, not both');
+    await expect(openCapture(csv, { channels: ['a'] })).rejects.toThrow('channels must be a list of 2 to 4 column names or 1-based numbers (got ["a"])');
+    await expect(openCapture(csv, { channels: ['a', 'b'], xChannel: 'c' })).rejects.toThrow('channels must be left out when xChannel or yChannel is given');
     await expect(openCapture(csv, { channels: ['a', 'b', 'e'] })).rejects.toThrow('a column named "e" for option channels[2]');
     await expect(openCapture(csv, { channels: ['a', 'b', 0] })).rejects.toThrow('channels[2] must be an integer in 1..65535 (got 0)');
   });

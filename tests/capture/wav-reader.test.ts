@@ -170,7 +170,7 @@ describe('WAV capture errors', () => {
 
   it('rejects a time column option and a missing channel', async () => {
     const path = wavFile('opts.wav', riff([chunk('fmt ', fmtBody(1, 2, 100, 16)), chunk('data', PCM16_FRAMES)]));
-    await expect(openCapture(path, { timeColumn: 't' })).rejects.toThrow(/timeColumn applies to CSV files only/);
+    await expect(openCapture(path, { timeColumn: 't' })).rejects.toThrow(/timeColumn must be left out: .*wav is WAV, its times follow from the header's sample rate/);
     await expect(openCapture(path, { yChannel: 3 })).rejects.toThrow(/expected channel number 3 \(1-based\) for option yChannel, among ch1, ch2/);
   });
 });

@@ -2,6 +2,7 @@
 import { SerialPortMock } from 'serialport';
 import type { Subscription } from 'rxjs';
 import { afterEach, describe, expect, it } from 'vitest';
+import { OptionError } from '../../src/core/options.js';
 import {
   createSerialByteSource,
   isLinkEvent,
@@ -53,12 +54,13 @@ describe('serial source options', () => {
   it.each([
     [{ path: '' }, 'path must be a non-empty string (got "")'],
     [{ path: PATH, baudRate: 0 }, 'baudRate must be an integer in 1..20000000 (got 0)'],
-    [{ path: PATH, retryDelayMs: -1 }, 'retryDelayMs must be a number in 1..600000 (got -1)'],
-    [{ path: PATH, retryDelayMs: 100, maxRetryDelayMs: 50 }, 'maxRetryDelayMs must be a number in 100..600000 (got 50)'],
-    [{ path: PATH, backoffFactor: 0.5 }, 'backoffFactor must be a number in 1..10 (got 0.5)'],
+    [{ path: PATH, retryDelayMs: -1 }, 'retryDelayMs must be a number in [1, 600000] (got -1)'],
+    [{ path: PATH, retryDelayMs: 100, maxRetryDelayMs: 50 }, 'maxRetryDelayMs must be a number in [100, 600000] (got 50)'],
+    [{ path: PATH, backoffFactor: 0.5 }, 'backoffFactor must be a number in [1, 10] (got 0.5)'],
     [{ path: PATH, maxRetries: -2 }, 'maxRetries must be an integer >= 0 or Infinity (got -2)'],
   ])('rejects %o', (options, message) => {
     expect(() => resolveSerialSourceOptions(options)).toThrow(message);
+    expect(() => resolveSerialSourceOptions(options)).toThrow(OptionError);
   });
 
   it('fills defaults and grows the retry delay geometrically up to the ceiling', () => {

@@ -18,7 +18,7 @@ describe('createWireDecoder options', () => {
 
   it('requires both callbacks', () => {
     expect(() => createWireDecoder({ onFrame: undefined as never, onGap: noop })).toThrow('onFrame must be a function (got undefined)');
-    expect(() => createWireDecoder({ onFrame: noop, onGap: 5 as never })).toThrow('onGap must be a function (got number)');
+    expect(() => createWireDecoder({ onFrame: noop, onGap: 5 as never })).toThrow('onGap must be a function (got 5)');
   });
 
   it('sizes its buffer for the largest allowed frame', () => {

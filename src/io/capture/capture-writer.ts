@@ -1,7 +1,7 @@
 // Capture writers (CSV text, WAV PCM/float) in constant memory: a fixed encode buffer, WAV sizes patched at close.
 // WAV layout per the Microsoft/IBM RIFF/WAVE specification (1991): RIFF header, "fmt ", "fact" (float only), LIST/INFO, "data".
 import { ADC_KEY, RATE_KEY } from './metadata.js';
-import { checkPositiveFinite } from './options.js';
+import { OptionError, positiveFinite } from '../../core/options.js';
 import { openFileSink, type OutputSink } from './output-file.js';
 import { writeAscii, writeIntegerAscii } from './text-encode.js';
 import type { CaptureFormat, SampleEncoding } from './types.js';
@@ -59,35 +59,35 @@ interface ResolvedWriterOptions {
 
 function resolveWriterOptions(options: CaptureWriterOptions): ResolvedWriterOptions {
   const format = options.format;
-  if (format !== 'csv' && format !== 'wav') throw new RangeError(`format must be "csv" or "wav" (got ${JSON.stringify(format)})`);
-  const rateHz = checkPositiveFinite('rateHz', options.rateHz);
+  if (format !== 'csv' && format !== 'wav') throw new OptionError('format', '"csv" or "wav"', format);
+  const rateHz = positiveFinite('rateHz', options.rateHz);
   const allowed: readonly SampleEncoding[] = format === 'csv' ? ['decimal-text', 'integer-text'] : ['int16', 'int24', 'float32'];
   const encoding = options.encoding ?? allowed[0]!;
   if (!allowed.includes(encoding)) {
-    throw new RangeError(`encoding must be one of ${allowed.join(', ')} for ${format} (got ${JSON.stringify(encoding)})`);
+    throw new OptionError('encoding', `one of ${allowed.join(', ')} for ${format}`, encoding);
   }
   if (format === 'wav' && options.channelNames !== undefined) {
-    throw new RangeError('channelNames applies to CSV only: WAV channels are numbered (ch1 is x, ch2 is y)');
+    throw new OptionError('channelNames', 'left out for WAV, whose channels are numbered (ch1 is x, ch2 is y)', options.channelNames);
   }
   if (format === 'wav' && options.timeColumn === true) {
-    throw new RangeError('timeColumn applies to CSV only: WAV times follow from the header sample rate');
+    throw new OptionError('timeColumn', 'left out for WAV, whose times follow from the header sample rate', options.timeColumn);
   }
   if (format === 'wav' && !Number.isInteger(rateHz)) {
-    throw new RangeError(`rateHz must be an integer for WAV, whose header stores whole hertz (got ${rateHz})`);
+    throw new OptionError('rateHz', 'an integer for WAV, whose header stores whole hertz', rateHz);
   }
   const channelNames = options.channelNames ?? ['x', 'y'];
   for (const name of channelNames) {
     if (!/^[^,"\r\n#]+$/.test(name) || name.trim() !== name || name === 't') {
-      throw new RangeError(`channelNames must be non-empty names without commas, quotes, "#", line breaks, outer spaces or the name "t" (got ${JSON.stringify(name)})`);
+      throw new OptionError('channelNames', 'non-empty names without commas, quotes, "#", line breaks, outer spaces or the name "t"', name);
     }
   }
-  if (channelNames[0] === channelNames[1]) throw new RangeError(`channelNames must differ (got ${JSON.stringify(channelNames)})`);
+  if (channelNames[0] === channelNames[1]) throw new OptionError('channelNames', 'two different names', channelNames);
   const metadata = Object.entries(options.metadata ?? {});
   for (const [key, value] of metadata) {
-    if (!METADATA_KEY.test(key)) throw new RangeError(`metadata keys must match ${METADATA_KEY.source} (got ${JSON.stringify(key)})`);
-    if (key === RATE_KEY) throw new RangeError(`metadata must not set "${RATE_KEY}": give rateHz instead`);
-    if (format === 'wav' && key === ADC_KEY) throw new RangeError(`metadata must not set "${ADC_KEY}" for WAV: the header states the sample format`);
-    if (/[\r\n\0]/.test(value)) throw new RangeError(`metadata values must be one line (key ${JSON.stringify(key)})`);
+    if (!METADATA_KEY.test(key)) throw new OptionError('metadata keys', `names matching ${METADATA_KEY.source}`, key);
+    if (key === RATE_KEY) throw new OptionError('metadata keys', `other than "${RATE_KEY}" (give rateHz instead)`, key);
+    if (format === 'wav' && key === ADC_KEY) throw new OptionError('metadata keys', `other than "${ADC_KEY}" for WAV (the header states the sample format)`, key);
+    if (/[\r\n\0]/.test(value)) throw new OptionError(`metadata.${key}`, 'one line', value);
   }
   return { format, rateHz, encoding, channelNames, timeColumn: options.timeColumn ?? false, metadata };
 }

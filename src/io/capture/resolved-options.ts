@@ -1,5 +1,5 @@
 // Options of openCapture after validation, with defaults filled in; shared by the CSV and WAV readers.
-import { checkInteger, checkPositiveFinite } from './options.js';
+import { integerInRange, OptionError, positiveFinite } from '../../core/options.js';
 import type { CaptureFormat, ChannelSelector, OpenCaptureOptions } from './types.js';
 
 export const DEFAULT_BLOCK_SIZE = 4096;
@@ -22,15 +22,15 @@ export interface ResolvedCaptureOptions {
 
 export function resolveCaptureOptions(options: OpenCaptureOptions): ResolvedCaptureOptions {
   if (options.format !== undefined && options.format !== 'csv' && options.format !== 'wav') {
-    throw new RangeError(`format must be "csv" or "wav" (got ${JSON.stringify(options.format)})`);
+    throw new OptionError('format', '"csv" or "wav"', options.format);
   }
   const channels = options.channels;
   if (channels !== undefined) {
     if (!Array.isArray(channels) || channels.length < 2 || channels.length > 4) {
-      throw new RangeError(`channels must list 2 to 4 column names or 1-based numbers (got ${JSON.stringify(channels)})`);
+      throw new OptionError('channels', 'a list of 2 to 4 column names or 1-based numbers', channels);
     }
     if (options.xChannel !== undefined || options.yChannel !== undefined) {
-      throw new RangeError('channels names x and y itself (its first two entries): give it or xChannel/yChannel, not both');
+      throw new OptionError('channels', 'left out when xChannel or yChannel is given (its first two entries name x and y)', channels);
     }
   }
   return Object.freeze({
@@ -39,17 +39,17 @@ export function resolveCaptureOptions(options: OpenCaptureOptions): ResolvedCapt
     yChannel: checkSelector('yChannel', channels?.[1] ?? options.yChannel),
     extraChannels: Object.freeze((channels ?? []).slice(2).map((selector, index) => checkSelector(`channels[${index + 2}]`, selector)!)),
     timeColumn: options.timeColumn === null ? null : (checkSelector('timeColumn', options.timeColumn) ?? undefined),
-    rateHz: options.rateHz === undefined ? null : checkPositiveFinite('rateHz', options.rateHz),
-    blockSize: checkInteger('blockSize', options.blockSize ?? DEFAULT_BLOCK_SIZE, 1, MAX_BLOCK_SIZE),
-    readChunkBytes: checkInteger('readChunkBytes', options.readChunkBytes ?? DEFAULT_READ_CHUNK_BYTES, 1, MAX_READ_CHUNK_BYTES),
+    rateHz: options.rateHz === undefined ? null : positiveFinite('rateHz', options.rateHz),
+    blockSize: integerInRange('blockSize', options.blockSize ?? DEFAULT_BLOCK_SIZE, 1, MAX_BLOCK_SIZE),
+    readChunkBytes: integerInRange('readChunkBytes', options.readChunkBytes ?? DEFAULT_READ_CHUNK_BYTES, 1, MAX_READ_CHUNK_BYTES),
   });
 }
 
 function checkSelector(name: string, value: ChannelSelector | undefined): ChannelSelector | null {
   if (value === undefined) return null;
-  if (typeof value === 'number') return checkInteger(name, value, 1, 65535);
+  if (typeof value === 'number') return integerInRange(name, value, 1, 65535);
   if (typeof value !== 'string' || value === '') {
-    throw new RangeError(`${name} must be a column name or a 1-based column number (got ${JSON.stringify(value)})`);
+    throw new OptionError(name, 'a column name or a 1-based column number', value);
   }
   return value;
 }

@@ -5,13 +5,14 @@ import { CaptureFormatError } from './errors.js';
 import { integerAdc } from './metadata.js';
 import type { ResolvedCaptureOptions } from './resolved-options.js';
 import { singlePassCapture } from './single-pass.js';
+import { OptionError } from '../../core/options.js';
 import type { AdcFormat, Capture, CaptureInfo, ChannelSelector } from './types.js';
 import { readWavLayout, type WavLayout } from './wav-header.js';
 
 export async function openWavCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions): Promise<Capture> {
   const layout = await readWavLayout(file, handle);
   if (options.timeColumn !== undefined && options.timeColumn !== null) {
-    throw new RangeError(`timeColumn applies to CSV files only; ${file} is WAV, its times follow from the header's sample rate`);
+    throw new OptionError('timeColumn', `left out: ${file} is WAV, its times follow from the header's sample rate`, options.timeColumn);
   }
   const channelNames = Array.from({ length: layout.channels }, (_, index) => `ch${index + 1}`);
   const xChannel = pickChannel(file, layout, channelNames, 'xChannel', options.xChannel ?? 1);

@@ -1,6 +1,6 @@
 // Writer of replay/listen result rows (t, position, velocity, level, alarms) as CSV or JSON Lines, every Nth sample.
 import { alarmText } from '../../core/index.js';
-import { checkInteger, checkPositiveFinite } from '../capture/options.js';
+import { integerInRange, OptionError, positiveFinite } from '../../core/options.js';
 import { openFileSink, openStreamSink, type OutputSink } from '../capture/output-file.js';
 import { writeAscii, writeFixedAscii } from '../capture/text-encode.js';
 
@@ -62,9 +62,9 @@ const COMMA = 0x2c;
 /** Opens `path` (`-` for standard output) for result rows; the header (CSV) is written with the first rows or at close. */
 export async function createResultWriter(path: string, options: ResultWriterOptions): Promise<ResultWriter> {
   const format = options.format;
-  if (format !== 'csv' && format !== 'jsonl') throw new RangeError(`format must be "csv" or "jsonl" (got ${JSON.stringify(format)})`);
-  const every = checkInteger('every', options.every ?? 1, 1, 1_000_000_000);
-  const rateHz = options.rateHz === undefined ? null : checkPositiveFinite('rateHz', options.rateHz);
+  if (format !== 'csv' && format !== 'jsonl') throw new OptionError('format', '"csv" or "jsonl"', format);
+  const every = integerInRange('every', options.every ?? 1, 1, 1_000_000_000);
+  const rateHz = options.rateHz === undefined ? null : positiveFinite('rateHz', options.rateHz);
   const sink: OutputSink = path === '-' ? openStreamSink(options.stdout ?? process.stdout) : await openFileSink(path);
   const buffer = Buffer.allocUnsafe(ENCODE_BUFFER_BYTES);
   let used = 0;
@@ -98,7 +98,7 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
     for (const [name, array] of Object.entries(arrays)) {
       if (array !== null && array.length < length) throw new RangeError(`block.${name} holds ${array.length} values, fewer than length ${length}`);
     }
-    if (block.rateHz !== undefined) checkPositiveFinite('block.rateHz', block.rateHz);
+    if (block.rateHz !== undefined) positiveFinite('block.rateHz', block.rateHz);
     else if ((block.t === undefined || block.t === null) && rateHz === null) {
       throw new RangeError(`${path}: a block without t needs a rate (block.rateHz or the rateHz option) to compute t = index / rateHz`);
     }

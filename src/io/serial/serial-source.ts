@@ -2,6 +2,7 @@
 // A vanished device shows up only as `close` with `disconnected: true` (no `error`, no `end`), so the port's
 // own events are watched, not a parser's; while the device is missing `open()` fails at once (ENOENT).
 
+import { integerInRange, numberInRange, OptionError } from '../../core/options.js';
 import { Observable } from 'rxjs';
 import type { ByteSource, ByteSourceEvent, LinkEvent } from './byte-source.js';
 import { createVanishWatch } from './vanish-watch.js';
@@ -52,24 +53,17 @@ export interface SerialSourceConfig {
   readonly maxRetriesBeforeFirstOpen: number;
 }
 
-function numberIn(name: string, value: number, min: number, max: number, integer: boolean): number {
-  if (typeof value !== 'number' || Number.isNaN(value) || value < min || value > max || (integer && !Number.isInteger(value))) {
-    throw new RangeError(`${name} must be ${integer ? 'an integer' : 'a number'} in ${min}..${max} (got ${value})`);
-  }
-  return value;
-}
-
 export function resolveSerialSourceOptions(options: SerialSourceOptions): SerialSourceConfig {
   if (typeof options.path !== 'string' || options.path === '') {
-    throw new RangeError(`path must be a non-empty string (got ${JSON.stringify(options.path)})`);
+    throw new OptionError('path', 'a non-empty string', options.path);
   }
-  const baudRate = numberIn('baudRate', options.baudRate ?? 921600, 1, 20_000_000, true);
-  const retryDelayMs = numberIn('retryDelayMs', options.retryDelayMs ?? 200, 1, 600_000, false);
-  const maxRetryDelayMs = numberIn('maxRetryDelayMs', options.maxRetryDelayMs ?? Math.max(5000, retryDelayMs), retryDelayMs, 600_000, false);
-  const backoffFactor = numberIn('backoffFactor', options.backoffFactor ?? 2, 1, 10, false);
+  const baudRate = integerInRange('baudRate', options.baudRate ?? 921600, 1, 20_000_000);
+  const retryDelayMs = numberInRange('retryDelayMs', options.retryDelayMs ?? 200, 1, 600_000);
+  const maxRetryDelayMs = numberInRange('maxRetryDelayMs', options.maxRetryDelayMs ?? Math.max(5000, retryDelayMs), retryDelayMs, 600_000);
+  const backoffFactor = numberInRange('backoffFactor', options.backoffFactor ?? 2, 1, 10);
   const retries = (name: string, value: number): number => {
     if (!(value === Number.POSITIVE_INFINITY || (Number.isInteger(value) && value >= 0))) {
-      throw new RangeError(`${name} must be an integer >= 0 or Infinity (got ${value})`);
+      throw new OptionError(name, 'an integer >= 0 or Infinity', value);
     }
     return value;
   };

@@ -3,6 +3,7 @@
 // failing CRC-32C, drops repeated frames, and tells counted losses from counter restarts. Never throws on bad
 // bytes; one buffer sized for the largest allowed frame, no allocation per frame in steady state.
 
+import { integerInRange, OptionError } from '../../core/options.js';
 import type { InputGap, SampleBlock } from './block.js';
 import { crc32c } from './crc32c.js';
 import {
@@ -110,24 +111,17 @@ const RECENT_FRAMES = 16;
 const HALF_SEQUENCE = WIRE_SEQUENCE_MODULUS / 2;
 const HALF_SAMPLE_COUNTER = WIRE_SAMPLE_COUNTER_MODULUS / 2;
 
-function integerIn(name: string, value: number, min: number, max: number): number {
-  if (!Number.isInteger(value) || value < min || value > max) {
-    throw new RangeError(`${name} must be an integer in ${min}..${max} (got ${value})`);
-  }
-  return value;
-}
-
 export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
-  const maxChannels = integerIn('maxChannels', options.maxChannels ?? WIRE_MAX_CHANNELS, 2, WIRE_MAX_CHANNELS);
-  if (maxChannels % 2 !== 0) throw new RangeError(`maxChannels must be even (got ${maxChannels})`);
-  const maxSamplesPerFrame = integerIn(
+  const maxChannels = integerInRange('maxChannels', options.maxChannels ?? WIRE_MAX_CHANNELS, 2, WIRE_MAX_CHANNELS);
+  if (maxChannels % 2 !== 0) throw new OptionError('maxChannels', 'even', maxChannels);
+  const maxSamplesPerFrame = integerInRange(
     'maxSamplesPerFrame',
     options.maxSamplesPerFrame ?? WIRE_MAX_SAMPLES_PER_FRAME,
     1,
     WIRE_MAX_SAMPLES_PER_FRAME,
   );
-  if (typeof options.onFrame !== 'function') throw new TypeError(`onFrame must be a function (got ${typeof options.onFrame})`);
-  if (typeof options.onGap !== 'function') throw new TypeError(`onGap must be a function (got ${typeof options.onGap})`);
+  if (typeof options.onFrame !== 'function') throw new OptionError('onFrame', 'a function', options.onFrame);
+  if (typeof options.onGap !== 'function') throw new OptionError('onGap', 'a function', options.onGap);
   const { onFrame, onGap, onDuplicate } = options;
   const bufferBytes = wireMaxFrameLength(maxChannels, maxSamplesPerFrame);
   const config: WireDecoderConfig = Object.freeze({ maxChannels, maxSamplesPerFrame, bufferBytes });

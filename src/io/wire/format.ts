@@ -1,6 +1,7 @@
 // The fringetally serial frame, versions 1 and 2: constants, sizes and the reference encoder.
 // Layout and rules are specified in docs/wire-format.md; tools/firmware/fringetally_wire.h mirrors them in C.
 
+import { integerInRange, OptionError } from '../../core/options.js';
 import { crc32c } from './crc32c.js';
 
 /** First and second byte of every frame. */
@@ -122,11 +123,6 @@ export function wireVersionOf(header: WireFrameHeader): number {
   return flagsOf(header) & ~KNOWN_FLAGS_V1 ? WIRE_VERSION_2 : WIRE_VERSION;
 }
 
-function checkUint(name: string, value: number, min: number, max: number): void {
-  if (!Number.isInteger(value) || value < min || value > max) {
-    throw new RangeError(`${name} must be an integer in ${min}..${max} (got ${value})`);
-  }
-}
 
 /** Bytes `encodeWireFrame` will write for this header. */
 export function wireFrameLengthOf(header: WireFrameHeader): number {
@@ -141,19 +137,19 @@ export function wireFrameLengthOf(header: WireFrameHeader): number {
  * range: this is the sender's side, where a wrong argument is a programming error.
  */
 export function encodeWireFrame(header: WireFrameHeader, samples: ArrayLike<number>, out: Uint8Array, offset = 0): number {
-  checkUint('sequence', header.sequence, 0, WIRE_SEQUENCE_MODULUS - 1);
-  checkUint('channelCount', header.channelCount, 2, WIRE_MAX_CHANNELS);
-  if (header.channelCount % 2 !== 0) throw new RangeError(`channelCount must be even (got ${header.channelCount})`);
-  checkUint('samplesPerFrame', header.samplesPerFrame, 1, WIRE_MAX_SAMPLES_PER_FRAME);
-  if (header.sampleRateHz !== undefined) checkUint('sampleRateHz', header.sampleRateHz, 1, 0xffffffff);
-  if (header.timestampUs !== undefined) checkUint('timestampUs', header.timestampUs, 0, 0xffffffff);
-  if (header.sampleCounter !== undefined) checkUint('sampleCounter', header.sampleCounter, 0, 0xffffffff);
+  integerInRange('sequence', header.sequence, 0, WIRE_SEQUENCE_MODULUS - 1);
+  integerInRange('channelCount', header.channelCount, 2, WIRE_MAX_CHANNELS);
+  if (header.channelCount % 2 !== 0) throw new OptionError('channelCount', 'even', header.channelCount);
+  integerInRange('samplesPerFrame', header.samplesPerFrame, 1, WIRE_MAX_SAMPLES_PER_FRAME);
+  if (header.sampleRateHz !== undefined) integerInRange('sampleRateHz', header.sampleRateHz, 1, 0xffffffff);
+  if (header.timestampUs !== undefined) integerInRange('timestampUs', header.timestampUs, 0, 0xffffffff);
+  if (header.sampleCounter !== undefined) integerInRange('sampleCounter', header.sampleCounter, 0, 0xffffffff);
   const edges = header.edges ?? [];
-  checkUint('edges.length', edges.length, 0, WIRE_MAX_EDGES_PER_FRAME);
+  integerInRange('edges.length', edges.length, 0, WIRE_MAX_EDGES_PER_FRAME);
   edges.forEach((edge, i) => {
-    checkUint(`edges[${i}].sample`, edge.sample, 0, header.samplesPerFrame - 1);
-    checkUint(`edges[${i}].lead`, edge.lead, 0, WIRE_EDGE_LEAD_UNITS - 1);
-    checkUint(`edges[${i}].line`, edge.line, 0, WIRE_MAX_EDGE_LINE);
+    integerInRange(`edges[${i}].sample`, edge.sample, 0, header.samplesPerFrame - 1);
+    integerInRange(`edges[${i}].lead`, edge.lead, 0, WIRE_EDGE_LEAD_UNITS - 1);
+    integerInRange(`edges[${i}].line`, edge.line, 0, WIRE_MAX_EDGE_LINE);
   });
   const valueCount = header.channelCount * header.samplesPerFrame;
   if (samples.length < valueCount) {

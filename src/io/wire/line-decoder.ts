@@ -1,6 +1,7 @@
 // Text line mode for first bring-up: one sample per line, `x0,y0[,x1,y1…]` as decimal int16 integers,
 // lines ended by LF (CR before it is ignored). A byte-level state machine: no strings, no allocation per line.
 
+import { integerInRange, OptionError } from '../../core/options.js';
 import { NO_EDGES, type SampleBlock } from './block.js';
 import { WIRE_MAX_CHANNELS, WIRE_MAX_SAMPLES_PER_FRAME, WIRE_SEQUENCE_MODULUS } from './format.js';
 
@@ -60,23 +61,16 @@ const AFTER_SIGN = 1;
 const IN_DIGITS = 2;
 const AFTER_NUMBER = 3;
 
-function integerIn(name: string, value: number, min: number, max: number): number {
-  if (!Number.isInteger(value) || value < min || value > max) {
-    throw new RangeError(`${name} must be an integer in ${min}..${max} (got ${value})`);
-  }
-  return value;
-}
-
 export function createLineDecoder(options: LineDecoderOptions): LineDecoder {
-  const channelCount = integerIn('channelCount', options.channelCount ?? 2, 2, WIRE_MAX_CHANNELS);
-  if (channelCount % 2 !== 0) throw new RangeError(`channelCount must be even (got ${channelCount})`);
-  const maxSamplesPerBlock = integerIn(
+  const channelCount = integerInRange('channelCount', options.channelCount ?? 2, 2, WIRE_MAX_CHANNELS);
+  if (channelCount % 2 !== 0) throw new OptionError('channelCount', 'even', channelCount);
+  const maxSamplesPerBlock = integerInRange(
     'maxSamplesPerBlock',
     options.maxSamplesPerBlock ?? 256,
     1,
     WIRE_MAX_SAMPLES_PER_FRAME,
   );
-  if (typeof options.onBlock !== 'function') throw new TypeError(`onBlock must be a function (got ${typeof options.onBlock})`);
+  if (typeof options.onBlock !== 'function') throw new OptionError('onBlock', 'a function', options.onBlock);
   const { onBlock, onMalformed } = options;
   const config: LineDecoderConfig = Object.freeze({ channelCount, maxSamplesPerBlock });
 
