@@ -1,23 +1,238 @@
 // fringetally core: pure signal processing (typed arrays and Math only, no Node built-ins, no packages).
-export * from './alarms.js';
-export * from './correction.js';
-export * from './displacement.js';
-export * from './fit/index.js';
-export * from './monitor.js';
-export * from './options.js';
-export * from './phase.js';
-export * from './pipeline.js';
-export * from './tracker.js';
-export * from './synthesis.js';
-export * from './metrology/index.js';
-export * from './motion.js';
-export * from './periodic-error.js';
-export * from './truth-error.js';
-export * from './spectrum.js';
-export * from './allan.js';
-export * from './fit/channel-fit.js';
-export * from './channels.js';
-export * from './stability.js';
-export * from './positioning.js';
-export * from './axis-geometry.js';
-export * from './latch.js';
+export { AlarmBit, alarmKinds, alarmNames, alarmText, type AlarmEvent, type AlarmKind } from './alarms.js';
+export { createCorrection, validateCalibration, type Correction, type CorrectionOptions } from './correction.js';
+export {
+  createDisplacement,
+  validateRefractiveIndex,
+  type Displacement,
+  type DisplacementOptions,
+} from './displacement.js';
+export {
+  createConicSolver,
+  createEllipseAccumulator,
+  createEllipseFit,
+  createHarmonicCorrection,
+  createHarmonicEstimator,
+  createModelWatch,
+  createOnlineCorrection,
+  createResidualAnalyzer,
+  createTwoPassFit,
+  ELLIPSE_FIT_METHODS,
+  exceededLimits,
+  fitWarnings,
+  fromHeydemann,
+  heydemannFromConic,
+  MAX_HARMONIC_ORDER,
+  MODEL_WATCH_ALARM,
+  RESIDUAL_ORDERS,
+  residualMeaning,
+  resolveFitLimits,
+  toHeydemann,
+  type Conic,
+  type ConicSolution,
+  type ConicSolver,
+  type EllipseAccumulator,
+  type EllipseCalibration,
+  type EllipseFit,
+  type EllipseFitFailure,
+  type EllipseFitMethod,
+  type EllipseFitMethodOptions,
+  type EllipseFitOptions,
+  type EllipseFitResult,
+  type FitFrame,
+  type FitLimits,
+  type HarmonicCorrection,
+  type HarmonicEstimate,
+  type HarmonicEstimator,
+  type HarmonicEstimatorOptions,
+  type HeydemannParameters,
+  type ModelWatch,
+  type ModelWatchEvent,
+  type ModelWatchOptions,
+  type OnlineCorrection,
+  type OnlineCorrectionOptions,
+  type OnlineCorrectionStatus,
+  type PhaseHarmonics,
+  type RadiusOverTime,
+  type ResidualAnalyzer,
+  type ResidualAnalyzerOptions,
+  type ResidualMeaning,
+  type ResidualSummary,
+  type TwoPassFit,
+} from './fit/index.js';
+export {
+  adcLimits,
+  createSignalMonitor,
+  type AdcFormat,
+  type SignalMonitor,
+  type SignalMonitorOptions,
+} from './monitor.js';
+export {
+  finiteNumber,
+  integerInRange,
+  MAX_COUNT,
+  numberInRange,
+  oneOf,
+  OptionError,
+  positiveFinite,
+} from './options.js';
+export { FAST_ATAN2_MAX_ERROR_RAD, fastAtan2, TWO_PI, wrapPhase } from './phase.js';
+export {
+  createPipeline,
+  type FrontEnd,
+  type Pipeline,
+  type PipelineOptions,
+  type PipelineOutput,
+  type SampleArray,
+  type SpeedLimits,
+} from './pipeline.js';
+export {
+  aidedAccelerationLimit,
+  createPhaseTracker,
+  type PhaseTracker,
+  type PhaseTrackerOptions,
+  type PhaseTrackerOutput,
+  type UnwrapMethod,
+} from './tracker.js';
+export {
+  createQuadratureSynthesizer,
+  createRandom,
+  type QuadratureSynthesizer,
+  type QuadratureSynthesizerOptions,
+  type Random,
+} from './synthesis.js';
+export {
+  airIndexEquationNames,
+  airIndexEquations,
+  airIndexSensitivities,
+  airIndexValidity,
+  correctLength,
+  cosineErrorM,
+  createEnvironmentSchedule,
+  deadPathCorrectionM,
+  lengthAtReferenceTemperatureM,
+  materialByKey,
+  materials,
+  readingUncertaintyBudget,
+  REFERENCE_TEMPERATURE_C,
+  refractiveIndexOfAir,
+  saturationTemperatureRangeC,
+  saturationVapourPressurePa,
+  type AirConditions,
+  type AirIndexEquation,
+  type AirIndexOptions,
+  type AirIndexResult,
+  type AirIndexSensitivities,
+  type AirQuantity,
+  type CorrectedLength,
+  type CosineErrorOptions,
+  type DeadPathCorrection,
+  type DeadPathOptions,
+  type EnvironmentRecord,
+  type EnvironmentSchedule,
+  type HumidityForm,
+  type LengthCorrectionOptions,
+  type Material,
+  type MaterialCorrection,
+  type ReadingUncertaintyOptions,
+  type SourceTag,
+  type ThermalNormalisationOptions,
+  type UncertaintyBudget,
+  type UncertaintyContribution,
+  type ValidityRange,
+  type ValidityWarning,
+} from './metrology/index.js';
+export { createMotionProfile, type MotionProfile, type MotionSpec } from './motion.js';
+export {
+  createPeriodicErrorAnalyzer,
+  createPhaseDomainEstimator,
+  createWindowDetrender,
+  type PeriodicErrorAnalyzer,
+  type PeriodicErrorSummary,
+  type PhaseDomainEstimator,
+  type PhaseDomainOptions,
+  type WindowDetrender,
+  type WindowDetrenderOptions,
+} from './periodic-error.js';
+export {
+  createTruthComparison,
+  type TruthComparison,
+  type TruthComparisonOptions,
+  type TruthComparisonSummary,
+} from './truth-error.js';
+export {
+  createFft,
+  createWelchEstimator,
+  cumulativeRms,
+  lineRms,
+  periodicErrorLinesHz,
+  type Detrend,
+  type Fft,
+  type SpectralDensity,
+  type SpectralWindow,
+  type WelchEstimator,
+  type WelchOptions,
+} from './spectrum.js';
+export {
+  allanAveragingFactors,
+  createAveragingDecimator,
+  overlappingAllanDeviation,
+  type AllanDeviation,
+  type AveragingDecimator,
+  type AveragingDecimatorOptions,
+} from './allan.js';
+export {
+  channelParametersOf,
+  channelsOfEllipse,
+  createChannelMomentAccumulator,
+  demodulationMatrix,
+  ellipseOfChannels,
+  MAX_CHANNELS,
+  MAX_POWER_VARIATION,
+  MIN_CHANNELS,
+  normaliseChannels,
+  validateChannelParameters,
+  type ChannelMomentAccumulator,
+  type ChannelParameters,
+  type PowerNormalisation,
+  type PowerNormalisationResult,
+} from './fit/channel-fit.js';
+export {
+  createChannelCombiner,
+  createChannelPipeline,
+  type ChannelCombiner,
+  type ChannelCombinerOptions,
+  type ChannelPipeline,
+  type ChannelPipelineOptions,
+  type ChannelPipelineOutput,
+} from './channels.js';
+export {
+  createStabilityAnalyzer,
+  type StabilityAnalyzer,
+  type StabilityAnalyzerOptions,
+  type StabilityResult,
+  type SteadySpeed,
+} from './stability.js';
+export {
+  assignTargetRun,
+  createStopDetector,
+  PositioningRunError,
+  positioningStatistics,
+  type AxisStatistics,
+  type Stop,
+  type StopDetector,
+  type StopDetectorOptions,
+  type TargetRun,
+  type TargetRunOptions,
+  type TargetStatistics,
+} from './positioning.js';
+export {
+  createAxisGeometry,
+  type AngleModel,
+  type AxisGeometry,
+  type AxisGeometryOptions,
+  type AxisGeometryOutput,
+  type BeamPlacement,
+  type PointOfInterest,
+} from './axis-geometry.js';
+export { createEdgeLatch, type EdgeLatch, type EdgeLatchOptions, type EdgePosition } from './latch.js';

@@ -5,7 +5,6 @@
 import { afterEach, describe, expect, it, vi } from 'vitest';
 import fc from 'fast-check';
 import {
-  correctionCoefficients,
   createPipeline,
   createQuadratureSynthesizer,
   fastAtan2,
@@ -15,6 +14,7 @@ import {
   type PipelineOptions,
 } from '../../src/core/index.js';
 import * as packageRoot from '../../src/index.js';
+import { correctionCoefficients } from '../../src/core/correction.js';
 import {
   createExactFrontEnd,
   createFusedFrontEnd,

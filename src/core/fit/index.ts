@@ -3,17 +3,14 @@
 // helpers shared inside the folder stay internal.
 export { createEllipseAccumulator } from './accumulator.js';
 export type { EllipseAccumulator } from './accumulator.js';
-export { calibrationOfSolution, createConicSolver, ELLIPSE_FIT_METHODS } from './conic-solver.js';
+export { createConicSolver, ELLIPSE_FIT_METHODS } from './conic-solver.js';
 export type { ConicSolution, ConicSolver, EllipseFitMethod } from './conic-solver.js';
-export { coverageOfFit } from './coverage.js';
-export type { AccumulatorState } from './coverage.js';
 export { fromHeydemann, heydemannFromConic, toHeydemann } from './ellipse.js';
 export type { Conic, EllipseCalibration, EllipseFitFailure, EllipseFitResult, FitFrame, HeydemannParameters } from './ellipse.js';
-export { acceptFit, exceededLimits, fitWarnings, resolveFitLimits, WARN_PHASE_ERROR_RAD } from './limits.js';
+export { exceededLimits, fitWarnings, resolveFitLimits } from './limits.js';
 export type { EllipseFitOptions, FitLimits } from './limits.js';
 export { createEllipseFit } from './methods.js';
 export type { EllipseFit, EllipseFitMethodOptions } from './methods.js';
-export { MOMENT_COUNT, momentIndex, shiftMoments } from './moments.js';
 export { createOnlineCorrection } from './online.js';
 export type { OnlineCorrection, OnlineCorrectionOptions, OnlineCorrectionStatus } from './online.js';
 export { createResidualAnalyzer, RESIDUAL_ORDERS, residualMeaning } from './residual.js';

@@ -1,5 +1,38 @@
 // Network position feed: WebSocket feed with its live page, and an MQTT publisher, both read-only.
-export * from './access.js';
-export * from './feed-server.js';
-export * from './messages.js';
-export * from './mqtt-publisher.js';
+export { isLoopbackHost } from './access.js';
+export {
+  startFeedServer,
+  type FeedClientInfo,
+  type FeedServer,
+  type FeedServerCounts,
+  type FeedServerOptions,
+  type FeedSource,
+} from './feed-server.js';
+export {
+  FEED_SCHEMA,
+  type FeedAlarmEvent,
+  type FeedAxisState,
+  type FeedErrorCode,
+  type FeedErrorMessage,
+  type FeedGeometry,
+  type FeedHelloMessage,
+  type FeedState,
+  type FeedStatusMessage,
+  type FeedSubscribeMessage,
+  type FeedTimeBase,
+  type FeedUpdateMessage,
+  type FeedValueUnit,
+  type ParsedClientMessage,
+} from './messages.js';
+export {
+  createMqttPublisher,
+  startMqttPublisher,
+  type MqttAxisMessage,
+  type MqttGeometryMessage,
+  type MqttPublisher,
+  type MqttPublisherEvent,
+  type MqttPublisherHealth,
+  type MqttPublisherOptions,
+  type MqttStatusMessage,
+  type MqttTlsOptions,
+} from './mqtt-publisher.js';
