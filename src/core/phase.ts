@@ -2,9 +2,16 @@
 
 export const TWO_PI = 2 * Math.PI;
 
-/** Wraps a phase in radians into [-π, π). This is the only wrap range used in fringetally. */
+/**
+ * Wraps a phase in radians into (−π, π], the range of atan2 and of the tracker's unwrap (a step of exactly half a
+ * fringe counts forward). This is the only wrap range used in fringetally.
+ */
 export function wrapPhase(phaseRad: number): number {
-  return phaseRad - TWO_PI * Math.floor((phaseRad + Math.PI) / TWO_PI);
+  // Values already in range are returned as they are: the division below rounds, and one ulp inside −π would
+  // otherwise come back as one ulp beyond π.
+  if (phaseRad > -Math.PI && phaseRad <= Math.PI) return phaseRad;
+  const wrapped = phaseRad - TWO_PI * Math.ceil((phaseRad - Math.PI) / TWO_PI);
+  return wrapped <= -Math.PI ? wrapped + TWO_PI : wrapped > Math.PI ? wrapped - TWO_PI : wrapped;
 }
 
 /**
