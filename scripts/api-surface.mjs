@@ -57,7 +57,10 @@ export function apiSurface() {
   });
 }
 
-/** Star re-exports left in an entry point or in any index it lists (the surface is listed by name). */
+/**
+ * Star re-exports of anything but a folder's index, in an entry point or in any index it uses. Each name is listed
+ * once, in the index of the folder that defines it; an entry point may pass a folder's index on whole.
+ */
 export function starExports() {
   const found = [];
   const seen = new Set();
@@ -65,7 +68,9 @@ export function starExports() {
     if (seen.has(file)) return;
     seen.add(file);
     const text = readFileSync(join(ROOT, file), 'utf8');
-    for (const match of text.matchAll(/^export \* from '(.+)';/gm)) found.push(`${file}: ${match[0]}`);
+    for (const match of text.matchAll(/^export \* from '(.+)';/gm)) {
+      if (!match[1].endsWith('/index.js')) found.push(`${file}: ${match[0]}`);
+    }
     for (const match of text.matchAll(/from '(\.[^']*index\.js)'/g)) visit(join(dirname(file), match[1]).replace(/\.js$/, '.ts'));
   };
   for (const [, file] of ENTRY_POINTS) visit(file);

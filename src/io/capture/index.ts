@@ -4,7 +4,7 @@ export { createCaptureWriter, type CaptureWriter, type CaptureWriterOptions } fr
 export { CaptureFormatError, type CaptureFormatErrorDetails } from './errors.js';
 export { parseChannelSelector } from './options.js';
 export { ADC_FULL_SCALE_KEY, ADC_KEY, RATE_KEY, parseMetadataLine } from './metadata.js';
-export { openFileSink, openStreamSink, temporaryPathFor, writeFileAtomically, type OutputSink } from './output-file.js';
+export { openFileSink, openStreamSink, writeFileAtomically, type OutputSink } from './output-file.js';
 export { openTruthFile, type TruthReader } from './truth-reader.js';
 export { DEFAULT_BLOCK_SIZE, DEFAULT_READ_CHUNK_BYTES, MAX_BLOCK_SIZE, MAX_READ_CHUNK_BYTES } from './resolved-options.js';
 export { MAX_CSV_LINE_BYTES } from './csv-reader.js';

@@ -12,6 +12,8 @@ export {
   FEED_SCHEMA,
   type FeedAlarmEvent,
   type FeedAxisState,
+  type FeedEdgeInput,
+  type FeedEdgeMessage,
   type FeedErrorCode,
   type FeedErrorMessage,
   type FeedGeometry,

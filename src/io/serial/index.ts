@@ -10,4 +10,3 @@ export {
   type SerialSourceOptions,
 } from './serial-source.js';
 export { createManualByteSource, type ManualByteSource } from './manual-source.js';
-export { createVanishWatch, type VanishWatch } from './vanish-watch.js';
