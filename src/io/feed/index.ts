@@ -18,6 +18,8 @@ export {
   type FeedErrorMessage,
   type FeedGeometry,
   type FeedHelloMessage,
+  type FeedReferenceCommand,
+  type FeedReferencedMessage,
   type FeedState,
   type FeedStatusMessage,
   type FeedSubscribeMessage,
@@ -25,6 +27,8 @@ export {
   type FeedUpdateMessage,
   type FeedValueUnit,
   type ParsedClientMessage,
+  type ReferenceOutcome,
+  type ReferenceRequest,
 } from './messages.js';
 export {
   createMqttPublisher,
