@@ -389,6 +389,18 @@ function powerFigures(output: { power: Float32Array }, n: number, state: PowerSt
   }
 }
 
+/**
+ * Three or four outputs: the power-normalised pair the chain tracked, level·(cos φ, sin φ), back from its radius and
+ * phase, for the radius analyses (the level is that pair's radius, see createChannelPipeline).
+ */
+function normalisedPair(level: Float32Array, phaseRad: Float64Array, n: number, u: Float64Array, v: Float64Array): void {
+  for (let i = 0; i < n; i++) {
+    const r = level[i]!;
+    u[i] = r * Math.cos(phaseRad[i]!);
+    v[i] = r * Math.sin(phaseRad[i]!);
+  }
+}
+
 /** Runs the whole pipeline over a capture, writing rows to the writer if one is given. */
 export async function runCapture(path: string, options: RunOptions): Promise<RunResult> {
   const { calibration, settings, writer, progress } = options;
@@ -462,7 +474,11 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
         (combined ?? pipeline).setRefractiveIndex(index);
       }
       if (combined === null) pipeline.process(block.x, block.y, n, output, events);
-      else combined.process(block.channels, n, output, events);
+      else {
+        combined.process(block.channels, n, output, events);
+        // Before the harmonic correction moves the phase: the pair as the chain saw it.
+        normalisedPair(output.level, output.unwrappedPhaseRad, n, correctedU, correctedV);
+      }
       harmonicCorrection?.process(output.unwrappedPhaseRad, n, output.positionM, metresPerRad);
       if (writer !== undefined) {
         await writer.write({ firstIndex: block.firstIndex, length: n, t: block.t, rateHz: info.rateHz, ...output });
@@ -487,13 +503,12 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
       before.add(output.unwrappedPhaseRad, beforeError, n, valid);
       after.process(output.unwrappedPhaseRad, valid, n);
       estimator?.add(output.unwrappedPhaseRad, n, valid);
-      // The radius analyses need the corrected pair of two outputs; three or four outputs are not analysed here yet.
-      if (combined === null) {
-        correction.process(block.x, block.y, correctedU, correctedV, n);
-        residual.add(correctedU, correctedV, n, valid);
-      }
+      // The radius analyses run on the corrected pair: two outputs through the ellipse correction, three or four
+      // power-normalised (above).
+      if (combined === null) correction.process(block.x, block.y, correctedU, correctedV, n);
+      residual.add(correctedU, correctedV, n, valid);
       const already = watchEvents.length;
-      if (combined === null) watch.process(correctedU, correctedV, n, block.firstIndex, watchEvents, valid);
+      watch.process(correctedU, correctedV, n, block.firstIndex, watchEvents, valid);
       for (let k = already; k < watchEvents.length; k++) if (watchEvents[k]!.state === 'raised') watchRaised++;
       if (watchEvents.length > MAX_SPANS) watchEvents.length = MAX_SPANS;
       samples += n;

@@ -12,12 +12,13 @@ const common = ['--wavelength-nm', '632.9908', '--fold', '2', '--quiet'];
 const NM_PER_RAD = 632.9908 / (2 * 2 * Math.PI);
 const n = 12_000;
 const phase = wanderingPhase(n, 25);
+/** Source power: +4 % over the record and a 2 % wobble, as on the real recordings this feature was made for. */
+const SIMULATED_POWER = Float64Array.from({ length: n }, (_, i) => 1 + 0.04 * (i / n) + 0.02 * Math.sin((2 * Math.PI * 1.3 * i) / n));
 let dir = '';
 
 beforeAll(() => {
   dir = mkdtempSync(join(tmpdir(), 'fringetally-channels-'));
-  // Source power: +4 % over the record and a 2 % wobble, as on the real recordings this feature was made for.
-  const { channels } = detectorOutputs(UNBALANCED_THREE, phase, { power: (i) => 1 + 0.04 * (i / n) + 0.02 * Math.sin((2 * Math.PI * 1.3 * i) / n), noiseRms: 2e-4 });
+  const { channels } = detectorOutputs(UNBALANCED_THREE, phase, { power: (i) => SIMULATED_POWER[i]!, noiseRms: 2e-4 });
   const rows = ['# rate_hz: 1000', 'ref,a,b,c', ...Array.from(phase, (p, i) => `${p.toFixed(9)},${channels.map((channel) => channel[i]!.toFixed(6)).join(',')}`)];
   writeFileSync(join(dir, 'three.csv'), rows.join('\n') + '\n');
 });
@@ -53,6 +54,24 @@ describe('--channels', () => {
     const three = errorPeakToPeakNm('three.out.csv');
     expect(three).toBeLessThan(0.3);
     expect(errorPeakToPeakNm('pair.out.csv') / three).toBeGreaterThan(10);
+
+    // The source power is a reading of its own: a column after the level, the simulated power relative to its
+    // mean over the calibration capture (this capture); a pair has no such column.
+    const columns = readCsv(join(dir, 'three.out.csv'));
+    const power = numbers(columns.power!);
+    const meanPower = SIMULATED_POWER.reduce((sum, p) => sum + p, 0) / n;
+    let worst = 0;
+    power.forEach((p, i) => (worst = Math.max(worst, Math.abs(p - SIMULATED_POWER[i]! / meanPower))));
+    expect(worst).toBeLessThan(2e-3);
+    expect(Object.keys(columns)).toEqual(['t', 'position_m', 'velocity_m_s', 'level', 'power', 'alarms']);
+    expect(Object.keys(readCsv(join(dir, 'pair.out.csv')))).not.toContain('power');
+
+    // The residual analysis runs on the power-normalised pair: the 6 % power change leaves no radius drift there,
+    // while the pair's radius follows the power.
+    expect(file.residual.radiusDriftRelative).toBeLessThan(0.005);
+    expect(calibrated.stderr).toMatch(/drift {7}mean radius moved by 0\.[0-4]\d\d %/);
+    const pairFile = JSON.parse(readFileSync(join(dir, 'pair.json'), 'utf8'));
+    expect(pairFile.residual.radiusDriftRelative).toBeGreaterThan(0.03);
   });
 
   it('refuses a wrong number of outputs with the option that fixes it', async () => {

@@ -236,7 +236,8 @@ async function run(argv: readonly string[]): Promise<number> {
   }
 
   const truth = truthPath === undefined ? null : await openTruthFile(truthPath);
-  const rows = await createResultWriter(out, { format: formatText as ResultFormat, every });
+  // Three or four outputs: the source power is a reading of its own, in a column after the level.
+  const rows = await createResultWriter(out, { format: formatText as ResultFormat, every, power: channels !== undefined && channels.length > 2 });
   let result;
   const comparison = truth === null ? null : createTruthComparison({ metresPerFringe: settings.wavelengthM / (settings.fold * settings.refractiveIndex) });
   const compare = truth === null ? null : truthObserver(truth, comparison!);

@@ -3,6 +3,7 @@
 export {
   createResultWriter,
   RESULT_COLUMNS,
+  RESULT_COLUMNS_WITH_POWER,
   RESULT_DECIMALS,
   type ResultBlock,
   type ResultFormat,

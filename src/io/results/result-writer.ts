@@ -1,4 +1,5 @@
-// Writer of replay/listen result rows (t, position, velocity, level, alarms) as CSV or JSON Lines, every Nth sample.
+// Writer of replay/listen result rows (t, position, velocity, level, alarms; the source power too for three or four
+// detector outputs) as CSV or JSON Lines, every Nth sample.
 import { alarmText } from '../../core/index.js';
 import { integerInRange, OptionError, positiveFinite } from '../../core/options.js';
 import { openFileSink, openStreamSink, type OutputSink } from '../capture/output-file.js';
@@ -8,9 +9,11 @@ export type ResultFormat = 'csv' | 'jsonl';
 
 /** The columns, in order; the CSV header line and the JSONL keys. */
 export const RESULT_COLUMNS = ['t', 'position_m', 'velocity_m_s', 'level', 'alarms'] as const;
+/** The columns with the source power (option `power`): after the level. */
+export const RESULT_COLUMNS_WITH_POWER = ['t', 'position_m', 'velocity_m_s', 'level', 'power', 'alarms'] as const;
 
-/** Decimal places written: t to 1 ns, position to 1 pm, velocity to 1 nm/s, level to 1e-6 of its scale. */
-export const RESULT_DECIMALS = { t: 9, positionM: 12, velocityMS: 9, level: 6 } as const;
+/** Decimal places written: t to 1 ns, position to 1 pm, velocity to 1 nm/s, level and power to 1e-6 of their scale. */
+export const RESULT_DECIMALS = { t: 9, positionM: 12, velocityMS: 9, level: 6, power: 6 } as const;
 
 export interface ResultWriterOptions {
   /** `csv` (header line, comma-separated) or `jsonl` (one JSON object per line); required. */
@@ -21,6 +24,11 @@ export interface ResultWriterOptions {
   rateHz?: number;
   /** Stream used when the path is `-`; default process.stdout. */
   stdout?: NodeJS.WritableStream;
+  /**
+   * Write the source power of three or four detector outputs (1 = the calibration capture's mean) as a `power`
+   * column after the level; every block must then carry `power`. Default false.
+   */
+  power?: boolean;
 }
 
 /** One block of pipeline output; arrays hold at least `length` values. */
@@ -37,6 +45,8 @@ export interface ResultBlock {
   readonly level: Float32Array;
   /** Alarm flag bits per sample (AlarmBit in src/core/alarms.ts). */
   readonly flags: Uint8Array;
+  /** Source power per sample (the writer's `power` option). */
+  readonly power?: Float32Array;
 }
 
 export interface ResultWriter {
@@ -56,7 +66,7 @@ const MAX_ROW_BYTES = 1024;
 /** Alarm text of every flag byte, as bytes, built once so that rows cost no string building. */
 const ALARM_CSV: readonly Buffer[] = Array.from({ length: 256 }, (_, flags) => Buffer.from(`${alarmText(flags)}\n`, 'latin1'));
 const ALARM_JSON: readonly Buffer[] = Array.from({ length: 256 }, (_, flags) => Buffer.from(`"alarms":${JSON.stringify(alarmText(flags))}}\n`, 'latin1'));
-const JSON_KEYS = ['{"t":', ',"position_m":', ',"velocity_m_s":', ',"level":', ','].map((text) => Buffer.from(text, 'latin1'));
+const JSON_KEYS = ['{"t":', ',"position_m":', ',"velocity_m_s":', ',"level":', ',', ',"power":'].map((text) => Buffer.from(text, 'latin1'));
 const COMMA = 0x2c;
 
 /** Opens `path` (`-` for standard output) for result rows; the header (CSV) is written with the first rows or at close. */
@@ -65,6 +75,7 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
   if (format !== 'csv' && format !== 'jsonl') throw new OptionError('format', '"csv" or "jsonl"', format);
   const every = integerInRange('every', options.every ?? 1, 1, 1_000_000_000);
   const rateHz = options.rateHz === undefined ? null : positiveFinite('rateHz', options.rateHz);
+  const withPower = options.power === true;
   const sink: OutputSink = path === '-' ? openStreamSink(options.stdout ?? process.stdout) : await openFileSink(path);
   const buffer = Buffer.allocUnsafe(ENCODE_BUFFER_BYTES);
   let used = 0;
@@ -84,7 +95,7 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
   }
 
   function writeHeader(): void {
-    used = writeAscii(buffer, used, RESULT_COLUMNS.join(',') + '\n');
+    used = writeAscii(buffer, used, (withPower ? RESULT_COLUMNS_WITH_POWER : RESULT_COLUMNS).join(',') + '\n');
     headerWritten = true;
   }
 
@@ -94,7 +105,8 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
     if (!Number.isSafeInteger(block.firstIndex) || block.firstIndex < 0) {
       throw new RangeError(`block.firstIndex must be a non-negative integer (got ${block.firstIndex})`);
     }
-    const arrays = { positionM: block.positionM, velocityMS: block.velocityMS, level: block.level, flags: block.flags, t: block.t ?? null };
+    if (withPower && block.power === undefined) throw new RangeError(`${path}: a block without power, for a writer with a power column`);
+    const arrays = { positionM: block.positionM, velocityMS: block.velocityMS, level: block.level, flags: block.flags, t: block.t ?? null, power: withPower ? block.power! : null };
     for (const [name, array] of Object.entries(arrays)) {
       if (array !== null && array.length < length) throw new RangeError(`block.${name} holds ${array.length} values, fewer than length ${length}`);
     }
@@ -115,6 +127,7 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
       try {
         if (!headerWritten) writeHeader();
         const { firstIndex, length, positionM, velocityMS, level, flags } = block;
+        const power = withPower ? block.power! : null;
         const times = block.t ?? null;
         const blockRateHz = block.rateHz ?? rateHz!;
         // Rows are chosen on the absolute index, so the same rows come out however the stream is cut into blocks.
@@ -132,6 +145,10 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
             buffer[used++] = COMMA;
             used = writeNumber(buffer, used, level[i]!, RESULT_DECIMALS.level, format);
             buffer[used++] = COMMA;
+            if (power !== null) {
+              used = writeNumber(buffer, used, power[i]!, RESULT_DECIMALS.power, format);
+              buffer[used++] = COMMA;
+            }
             const alarms = ALARM_CSV[flagByte]!;
             buffer.set(alarms, used);
             used += alarms.length;
@@ -144,6 +161,10 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
             used = writeNumber(buffer, used, velocityMS[i]!, RESULT_DECIMALS.velocityMS, format);
             used = copy(buffer, used, JSON_KEYS[3]!);
             used = writeNumber(buffer, used, level[i]!, RESULT_DECIMALS.level, format);
+            if (power !== null) {
+              used = copy(buffer, used, JSON_KEYS[5]!);
+              used = writeNumber(buffer, used, power[i]!, RESULT_DECIMALS.power, format);
+            }
             used = copy(buffer, used, JSON_KEYS[4]!);
             used = copy(buffer, used, ALARM_JSON[flagByte]!);
           }
