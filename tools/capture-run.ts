@@ -165,7 +165,7 @@ function createEnvelope(maxPoints: number) {
       return { t: t.slice(0, count), min: min.slice(0, count), max: max.slice(0, count) };
     },
     /** Adds a block of values at times t (s) or, without t, at (firstIndex + i) · secondsPerSample. */
-    add(values: Float64Array, n: number, times: Float64Array | null, firstIndex: number, secondsPerSample: number): void {
+    add(values: Float64Array | Float32Array, n: number, times: Float64Array | null, firstIndex: number, secondsPerSample: number): void {
       let inBucket = bucket[0]!, low = bucket[1]!, high = bucket[2]!, start = bucket[3]!;
       let i = 0;
       while (i < n) {
@@ -300,6 +300,8 @@ export interface RunResult {
   readonly report: {
     readonly position: Envelope;
     readonly velocity: Envelope;
+    /** Three or four outputs: the source power (1 = the calibration capture's mean), else null. */
+    readonly power: Envelope | null;
     readonly raw: { x: Float64Array; y: Float64Array };
     readonly corrected: { x: Float64Array; y: Float64Array };
   };
@@ -450,6 +452,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   const maxPoints = options.maxPlotPoints ?? 2000;
   const position = createEnvelope(maxPoints);
   const velocity = createEnvelope(maxPoints);
+  const powerSeries = createEnvelope(maxPoints);
   const figure = createFigureSampler(maxPoints, calibration);
   const events: AlarmEvent[] = [];
   const alarmCounts: Record<AlarmKind, number> = { lowSignal: 0, saturation: 0, badSample: 0, overspeed: 0, inputGap: 0, countLost: 0, lowPower: 0 };
@@ -496,7 +499,10 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
       }
       const raw = rawPhases(rawKernel, block.x, block.y, n, mid, rawLevel, identity);
       beforeAndValid(block.x, block.y, n, raw, output.unwrappedPhaseRad, output.flags, beforeError, valid, mid);
-      if (combined !== null) powerFigures(output, n, power);
+      if (combined !== null) {
+        powerFigures(output, n, power);
+        powerSeries.add(output.power, n, block.t, block.firstIndex, secondsPerSample);
+      }
       position.add(output.positionM, n, block.t, block.firstIndex, secondsPerSample);
       velocity.add(output.velocityMS, n, block.t, block.firstIndex, secondsPerSample);
       figure.add(block.x, block.y, n, combined === null ? null : output);
@@ -544,6 +550,12 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     harmonicEstimate: estimator === null ? null : estimator.solve(),
     modelWatch: { events: watchEvents, raised: watchRaised, activeAtEnd: watch.active, options: watch.options },
     residual: { summary: residual.summary(), byPhase: residual.radiusByPhase(), overTime: residual.radiusOverTime() },
-    report: { position: position.series(), velocity: velocity.series(), raw: figure.raw(), corrected: figure.corrected() },
+    report: {
+      position: position.series(),
+      velocity: velocity.series(),
+      power: combined === null ? null : powerSeries.series(),
+      raw: figure.raw(),
+      corrected: figure.corrected(),
+    },
   };
 }

@@ -314,6 +314,69 @@ const unitCircle = Array.from({ length: 121 }, (_, k) => [Math.cos((k / 120) * 2
 
 const measured = (result: PeriodicErrorResult) => result.summary.samples > 0;
 
+/** Path through the finite points (x(k), values[k]); a non-finite value breaks the line. */
+function polyline(x: (k: number) => number, values: ArrayLike<number>, sx: Scale, sy: Scale): string {
+  let d = '';
+  for (let k = 0; k < values.length; k++) {
+    const v = values[k]!;
+    if (Number.isFinite(v)) d += `${k === 0 || !Number.isFinite(values[k - 1]!) ? 'M' : 'L'}${sx(x(k)).toFixed(1)} ${sy(v).toFixed(1)}`;
+  }
+  return d;
+}
+
+/** Fringe phase in degrees, labelled every 45°. */
+const PHASE_TICKS = [-180, -135, -90, -45, 0, 45, 90, 135, 180];
+
+/** The corrected radius against the corrected phase, its mean over the bins removed: what the ellipse leaves. */
+function residualPhasePlot(byPhase: Float64Array): string {
+  const bins = byPhase.length;
+  const finite = Array.from(byPhase).filter(Number.isFinite);
+  const mean = finite.reduce((a, b) => a + b, 0) / Math.max(1, finite.length);
+  const percent = Float64Array.from(byPhase, (r) => (r - mean) * 100);
+  return chart({
+    label: 'radius residual against phase',
+    width: 640,
+    plotHeight: 220,
+    x: { label: 'corrected phase (degrees)', domain: [-180, 180], nice: false, values: PHASE_TICKS },
+    y: { label: 'radius residual (%)', domain: extent(percent) },
+    body: (sx, sy) => `<path class="residual" d="${polyline((k) => -180 + ((k + 0.5) / bins) * 360, percent, sx, sy)}"/>`,
+  });
+}
+
+/** The mean corrected radius per time segment (the part locked to the phase removed): slow drift. */
+function radiusTimePlot(run: RunResult, endS: number): string {
+  const { sampleIndex, samples, meanRadius } = run.residual.overTime;
+  const percent = Float64Array.from(meanRadius, (r) => (r - 1) * 100);
+  const t = (k: number) => (sampleIndex[k]! + samples[k]! / 2) / run.info.rateHz;
+  return chart({
+    label: 'radius against time',
+    width: 900,
+    plotHeight: 200,
+    x: { label: 'time (s)', domain: [0, Math.max(endS, 1e-9)] },
+    y: { label: 'mean radius − 1 (%)', domain: extent(percent) },
+    body: (sx, sy) => `<path class="residual" d="${polyline(t, percent, sx, sy)}"/>`,
+  });
+}
+
+/** What the radius plots could mean for position, under the ghost-beam model of residual.ts. */
+function residualCaption(run: RunResult): { phase: string; time: string } {
+  const { summary } = run.residual;
+  const meaning = residualMeaning(summary, run.metresPerRad);
+  const nm2 = (m: number) => (m * 1e9).toFixed(2);
+  if (meaning.largestOrder === 0) {
+    const why = `too little of the fringe (${(summary.binCoverage * 100).toFixed(0)} % of the phase bins) to state it`;
+    return { phase: `Radius harmonics: ${why}.`, time: `Drift: ${why}.` };
+  }
+  const pair = run.power === null ? '' : ' These are of the power-normalised pair: source power changes are removed before them.';
+  return {
+    phase:
+      `Largest radius harmonic: order ${meaning.largestOrder}, ${(meaning.largestRelative * 100).toFixed(3)} % of the radius. From a ghost beam or a detector ` +
+      `nonlinearity it could mean up to ±${nm2(meaning.harmonicPositionM)} nm of periodic error in position that the ellipse cannot correct (calibrate --harmonics). ` +
+      `A once-per-fringe change (order 1) looks exactly like an offset to the fit: the data cannot tell them apart.${pair}`,
+    time: `The mean radius moved by ${(summary.radiusDriftRelative * 100).toFixed(3)} % over the capture; if the offsets moved with it, that could mean up to ${nm2(meaning.driftPositionM)} nm of position error.${pair}`,
+  };
+}
+
 function periodicPlot(before: PeriodicErrorResult, after: PeriodicErrorResult): string {
   const bins = before.binnedM.length;
   const centre = (b: number) => ((b + 0.5) / bins) * 360;
@@ -330,11 +393,8 @@ function periodicPlot(before: PeriodicErrorResult, after: PeriodicErrorResult): 
     plotHeight: 240,
     x: { label: 'fringe phase (degrees)', domain: [0, 360], nice: false, values: [0, 45, 90, 135, 180, 225, 270, 315, 360] },
     y: { label: 'periodic error (nm)', domain: extent(b, a) },
-    body: (sx, sy) => {
-      const path = (values: Float64Array) =>
-        Array.from(values, (v, k) => (Number.isFinite(v) ? `${k === 0 || !Number.isFinite(values[k - 1]!) ? 'M' : 'L'}${sx(centre(k)).toFixed(1)} ${sy(v).toFixed(1)}` : '')).join('');
-      return (b.length > 0 ? `<path class="before" d="${path(b)}"/>` : '') + (a.length > 0 ? `<path class="after" d="${path(a)}"/>` : '');
-    },
+    body: (sx, sy) =>
+      (b.length > 0 ? `<path class="before" d="${polyline(centre, b, sx, sy)}"/>` : '') + (a.length > 0 ? `<path class="after" d="${polyline(centre, a, sx, sy)}"/>` : ''),
   });
 }
 
@@ -516,6 +576,8 @@ export function reportHtml(input: ReportInput): string {
   const endS = run.samples / run.info.rateHz;
   const legend = (entries: Array<[string, string]>) => `<p class="legend">${entries.map(([cls, text]) => `<span class="key ${cls}"></span>${escape(text)}`).join(' ')}</p>`;
   const spectrum = input.spectrum ?? null;
+  const caption = residualCaption(run);
+  const power = run.report.power;
   return `<!doctype html>
 <html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1"><title>${escape(input.title)}</title>
 <style>
@@ -532,6 +594,7 @@ td { overflow-wrap: anywhere; }
 .samples { stroke: #0072B2; stroke-width: 3; stroke-linecap: round; } .model { fill: none; stroke: #D55E00; stroke-width: 1.2; stroke-dasharray: 4 3; }
 .before { fill: none; stroke: #D55E00; stroke-width: 2; } .after { fill: none; stroke: #009E73; stroke-width: 2; }
 .trace { fill: #0072B2; stroke: #0072B2; stroke-width: 0.6; stroke-linejoin: round; } .asd { fill: none; stroke: #0072B2; stroke-width: 1.2; }
+.residual { fill: none; stroke: #0072B2; stroke-width: 1.5; }
 .lane { fill: #f2f2f2; } .lane-label { font-size: 11px !important; }
 ${alarmKinds.map((kind) => `.${ALARM_CLASS[kind]} { fill: ${ALARM_COLOUR[kind]}; background: ${ALARM_COLOUR[kind]}; }`).join('\n')}
 .key { display: inline-block; width: 14px; height: 10px; margin: 0 4px 0 12px; vertical-align: middle; }
@@ -553,6 +616,15 @@ ${measured(run.before) || measured(run.after) ? legend([...(measured(run.before)
 <p>Each pixel column shows the range of values in its time slice. Alarm lanes below each plot mark when an alarm was active (hover a span for its times).</p>
 ${timePlot(run.report.position, 1e6, 'position (µm)', run, 'position against time', endS)}
 ${timePlot(run.report.velocity, 1e3, 'velocity (mm/s)', run, 'velocity against time', endS)}
+${power === null || run.power === null ? '' : `<h2>Source power</h2>
+<p>The power of the source, removed sample by sample from the three or four outputs: ${run.power.min.toFixed(4)} to ${run.power.max.toFixed(4)}, mean ${run.power.mean.toFixed(4)} (1 = the calibration capture's mean).</p>
+${timePlot(power, 1, 'source power (relative)', run, 'source power against time', endS)}`}
+<h2>What the ellipse misses</h2>
+<p>The corrected radius is 1 on the calibration's ellipse; what departs from it the ellipse did not model.</p>
+${residualPhasePlot(run.residual.byPhase)}
+<p>${escape(caption.phase)}</p>
+${radiusTimePlot(run, endS)}
+<p>${escape(caption.time)}</p>
 ${spectrum === null ? '' : `<h2>Amplitude spectral density of position</h2>
 <p>Welch's averaged periodogram (P. D. Welch, IEEE Trans. Audio Electroacoust. 15(2), 70–73, 1967): ${spectrum.segments} Hann-windowed segments of ${spectrum.segmentSamples} samples, 50 % overlap, linear trend removed per segment; resolution ${sig(spectrum.binWidthHz, 3)} Hz.</p>
 ${spectrumPlot(spectrum)}`}

@@ -2,12 +2,13 @@
 // The HTML report renders in headless Chromium (Debian chromium driven by playwright-core) with its plots drawn.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createHash } from 'node:crypto';
-import { existsSync, mkdirSync, mkdtempSync, rmSync, readFileSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, rmSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { pathToFileURL, fileURLToPath } from 'node:url';
 import { chromium, type Browser } from 'playwright-core';
 import { fringetally } from './cli.js';
+import { detectorOutputs, UNBALANCED_THREE, wanderingPhase } from '../support/detector-outputs.js';
 
 const CHROMIUM = '/usr/bin/chromium';
 const ARTIFACTS = fileURLToPath(new URL('../../test-artifacts/', import.meta.url));
@@ -54,11 +55,12 @@ describe('report', () => {
         before: count('path.before'),
         after: count('path.after'),
         traces: count('path.trace'),
+        residual: count('path.residual'),
         spans: document.querySelectorAll('rect.span-low').length,
         lanes: Array.from(document.querySelectorAll('text.lane-label')).map((label) => label.textContent),
       };
     });
-    expect(drawn.plots).toBe(6); // and the spectral density of position
+    expect(drawn.plots).toBe(8); // and the spectral density of position, the radius against phase and against time
     for (const scatter of drawn.samples) {
       expect(scatter.segments).toBeGreaterThan(500);
       expect(scatter.width).toBeGreaterThan(200); // the figure fills its plot
@@ -66,11 +68,64 @@ describe('report', () => {
     expect(drawn.before[0]!.segments).toBeGreaterThan(32);
     expect(drawn.after[0]!.segments).toBeGreaterThan(32);
     for (const trace of drawn.traces) expect(trace.width).toBeGreaterThan(500);
+    expect(drawn.residual.length).toBe(2);
+    expect(drawn.residual[0]!.segments).toBeGreaterThan(32); // 64 phase bins, nearly all covered
     expect(drawn.spans).toBeGreaterThanOrEqual(2); // the interruption, on both time plots
     expect(drawn.lanes).toContain('low_signal');
     mkdirSync(ARTIFACTS, { recursive: true });
     await page.screenshot({ path: join(ARTIFACTS, 'report.png'), fullPage: true });
     await page.close();
+  });
+
+  it('three outputs: plots the source power and the power-normalised radius, with their values', async () => {
+    // A simulated three-output head (tests/support/detector-outputs.ts, invented) whose source power rises 4 % with a
+    // 2 % wobble; the power plot's axis must span the simulated power relative to its mean, the radius plots must
+    // show no such drift (power removed), and the text states what they could mean in nm.
+    const n = 12_000;
+    const phase = wanderingPhase(n, 25);
+    const simulated = Float64Array.from({ length: n }, (_, i) => 1 + 0.04 * (i / n) + 0.02 * Math.sin((2 * Math.PI * 1.3 * i) / n));
+    const { channels } = detectorOutputs(UNBALANCED_THREE, phase, { power: (i) => simulated[i]!, noiseRms: 2e-4 });
+    writeFileSync(join(dir, 'three.csv'), ['# rate_hz: 1000', 'a,b,c', ...Array.from(phase, (_, i) => channels.map((channel) => channel[i]!.toFixed(6)).join(','))].join('\n') + '\n');
+    const common = ['--wavelength-nm', '632.9908', '--fold', '2', '--quiet'];
+    expect((await fringetally(['calibrate', 'three.csv', '--channels', 'a,b,c', '--out', 'three.json', ...common], dir)).code).toBe(0);
+    const replayed = await fringetally(['replay', 'three.csv', '--calibration', 'three.json', '--out', 'three.out.csv', '--report', 'three.html', ...common], dir);
+    expect(replayed.code, replayed.stderr).toBe(0);
+    const page = await browser.newPage({ viewport: { width: 1100, height: 1800 } });
+    await page.goto(pathToFileURL(join(dir, 'three.html')).href);
+    const seen = await page.evaluate(() =>
+      Object.fromEntries(
+        Array.from(document.querySelectorAll('svg.plot')).map((svg) => [
+          svg.getAttribute('aria-label'),
+          {
+            y: Array.from(svg.querySelectorAll('text.tick-y')).map((text) => Number(text.textContent!.replace(/\u2212/g, '-'))),
+            drawn: svg.querySelectorAll('path.trace, path.residual').length,
+          },
+        ]),
+      ),
+    );
+    const text = await page.evaluate(() => document.body.textContent ?? '');
+    await page.close();
+    const mean = simulated.reduce((a, b) => a + b, 0) / n;
+    const low = Math.min(...simulated) / mean;
+    const high = Math.max(...simulated) / mean;
+    const power = seen['source power against time']!;
+    expect(power.drawn).toBe(1);
+    // The axis covers the power's range and is not much wider (nice ticks round it out by at most a step).
+    expect(power.y[0]!).toBeLessThanOrEqual(low);
+    expect(power.y[power.y.length - 1]!).toBeGreaterThanOrEqual(high);
+    expect(power.y[power.y.length - 1]! - power.y[0]!).toBeLessThan(3 * (high - low));
+    const stated = /from the three or four outputs: ([\d.]+) to ([\d.]+), mean ([\d.]+)/.exec(text);
+    expect(stated).not.toBeNull();
+    expect(Math.abs(Number(stated![1]) - low)).toBeLessThan(2e-3);
+    expect(Math.abs(Number(stated![2]) - high)).toBeLessThan(2e-3);
+    expect(Number(stated![3])).toBeCloseTo(1, 3);
+    // The radius over time of the power-normalised pair: well under the 6 % the power moved.
+    const radius = seen['radius against time']!;
+    expect(radius.drawn).toBe(1);
+    expect(Math.max(...radius.y.map(Math.abs))).toBeLessThan(0.5); // per cent
+    expect(seen['radius residual against phase']!.drawn).toBe(1);
+    expect(text).toMatch(/could mean up to ±\d+\.\d\d nm of periodic error/);
+    expect(text).toMatch(/mean radius moved by 0\.0\d\d %/);
   });
 
   it('has round ticks, a header saying where it came from, and nothing clipped at 700 and 1400 px', async () => {
@@ -122,7 +177,7 @@ describe('report', () => {
           const steps = axis.slice(1).map((value, k) => value - axis[k]!);
           for (const step of steps) expect(Math.abs(step - steps[0]!)).toBeLessThan(1e-9 * Math.abs(steps[0]!) + 1e-12); // evenly spaced
           // Degrees of fringe phase step by 45°; everything else by 1, 2 or 5 × 10^k.
-          if (plot.label === 'periodic error against phase' && axis === plot.x) expect(steps[0]).toBe(45);
+          if ((plot.label === 'periodic error against phase' || plot.label === 'radius residual against phase') && axis === plot.x) expect(steps[0]).toBe(45);
           else expect(isRoundStep(Math.abs(steps[0]!)), `${plot.label}: ${axis.join(' ')}`).toBe(true);
         }
       }
