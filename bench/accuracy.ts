@@ -6,6 +6,8 @@
 //     made at the start, of the online correction and of the known ellipse; heap growth of the online stage.
 //  3. Real three-output recordings when ../shared/realdata exists (real-recordings.ts): pairs (classic, bias-reduced,
 //     online) and all three outputs against an independent reference; skipped with a note otherwise.
+//  4. A ghost beam on the published model of Wu & Deslattes (ghost-beam.ts): the known ellipse against the model's
+//     prediction, classic, bias-reduced, three outputs and the harmonic correction against the simulated truth.
 // Runs alone: `node dist/bench/accuracy.js [--json] [--seeds N] [--fit-samples N]` (after `npx tsc -p tsconfig.json`).
 
 import { pathToFileURL } from 'node:url';
@@ -22,6 +24,7 @@ import {
   type EllipseCalibration,
   type EllipseFitMethod,
 } from '../src/core/index.js';
+import { formatGhostBeam, runGhostBeam, type GhostBeamResult } from './ghost-beam.js';
 import { formatRealRecordings, runRealRecordings, type RealRecordingsResult } from './real-recordings.js';
 
 /** Vacuum wavelength of an unstabilised He-Ne (CIPM 2007, docs/references.md) and a single-pass fold of 2. */
@@ -94,6 +97,7 @@ export interface AccuracyResult {
   drift: DriftFigures;
   /** Real recordings, or the note why they were skipped. */
   real: RealRecordingsResult;
+  ghost: GhostBeamResult;
   seconds: number;
 }
 
@@ -323,7 +327,8 @@ export function runAccuracyBenchmark(options: AccuracyOptions = {}): AccuracyRes
   }
   const drift = runDrift(options.driftSamples ?? 400_000);
   const real = runRealRecordings();
-  return { truth: TRUTH, fitSamples, conditions, drift, real, seconds: Number(process.hrtime.bigint() - started) / 1e9 };
+  const ghost = runGhostBeam();
+  return { truth: TRUTH, fitSamples, conditions, drift, real, ghost, seconds: Number(process.hrtime.bigint() - started) / 1e9 };
 }
 
 export function formatAccuracyTable(result: AccuracyResult): string {
@@ -369,6 +374,8 @@ export function formatAccuracyTable(result: AccuracyResult): string {
   lines.push(`  online stage: ${d.onlineNsPerSample.toFixed(1)} ns/sample, heap growth over 5 steady passes ${d.onlineHeapGrowthBytes} bytes`);
   lines.push('');
   lines.push(formatRealRecordings(result.real));
+  lines.push('');
+  lines.push(formatGhostBeam(result.ghost));
   lines.push(`total ${result.seconds.toFixed(1)} s`);
   return lines.join('\n');
 }
