@@ -32,7 +32,7 @@ const GHOSTS = [
   { k: 2, g: 0.01, theta: 0.7 },
   { k: 3, g: 0.003, theta: -1.1 },
 ] as const;
-const ELLIPSE: EllipseCalibration = { offsetX: 0.06, offsetY: -0.04, amplitudeX: 1, amplitudeY: 0.93, phaseErrorRad: 0.05 };
+export const ELLIPSE: EllipseCalibration = { offsetX: 0.06, offsetY: -0.04, amplitudeX: 1, amplitudeY: 0.93, phaseErrorRad: 0.05 };
 /** Three outputs: offsets, gains and phases of an unbalanced 3×3 coupler (invented). */
 const THREE = [
   { offset: 1.0, amplitude: 0.8, phaseRad: 0 },
@@ -51,7 +51,7 @@ export interface GhostBeamResult {
 }
 
 /** The ghost-beam field at phase φ: real and imaginary parts. */
-function field(phi: number): [number, number] {
+export function field(phi: number): [number, number] {
   let re = Math.cos(phi);
   let im = Math.sin(phi);
   for (const { k, g, theta } of GHOSTS) {
@@ -110,7 +110,7 @@ function correctedPhase(calibration: EllipseCalibration, x: Float64Array, y: Flo
 }
 
 /** Peak-to-peak of the phase-binned mean of (measured − true), nm, the mean offset and sense removed. */
-function periodicErrorNm(measured: Float64Array, truth: Float64Array): number {
+export function periodicErrorNm(measured: Float64Array, truth: Float64Array): number {
   const bins = 64;
   const n = truth.length;
   const sense = Math.sign(measured[n - 1]! - measured[0]!) * Math.sign(truth[n - 1]! - truth[0]!) || 1;
@@ -129,10 +129,10 @@ function periodicErrorNm(measured: Float64Array, truth: Float64Array): number {
 }
 
 /** Calibration move: 120 fringes at steady velocity, 200 samples per fringe. */
-const calibrationMove = () => Float64Array.from({ length: 120 * 200 }, (_, i) => 0.3 + (2 * Math.PI * i) / 200);
+export const calibrationMove = () => Float64Array.from({ length: 120 * 200 }, (_, i) => 0.3 + (2 * Math.PI * i) / 200);
 
 /** Other motion: a drift plus three incommensurate oscillations, about 30 fringes back and forth. */
-function irregularMotion(): Float64Array {
+export function irregularMotion(): Float64Array {
   const samples = 60_000;
   return Float64Array.from({ length: samples }, (_, i) => {
     const t = i / samples;

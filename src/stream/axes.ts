@@ -5,7 +5,10 @@
 import { asyncScheduler, distinctUntilChanged, filter, interval, map, mergeMap, Observable, share, type Observer, type SchedulerLike, type Subscription } from 'rxjs';
 import {
   alarmText,
+  AlarmBit,
   createCorrection,
+  createHarmonicCorrection,
+  createModelWatch,
   finiteNumber,
   integerInRange,
   OptionError,
@@ -13,6 +16,11 @@ import {
   validateRefractiveIndex,
   type AlarmEvent,
   type Correction,
+  type HarmonicCorrection,
+  type ModelWatch,
+  type ModelWatchEvent,
+  type ModelWatchOptions,
+  type PhaseHarmonics,
   type Pipeline,
   type PipelineOptions,
   type SampleArray,
@@ -27,6 +35,17 @@ export interface AxisOptions extends PipelineOptions {
   readonly name?: string;
   /** Channel pair of interleaved frames: x is channel 2·channelPair, y the next. Integer 0..7; default the axis' place in the list. */
   readonly channelPair?: number;
+  /**
+   * Correction beyond the ellipse (a calibration file's `harmonics`, see createHarmonicCorrection), taken off the
+   * phase and position of every sample after the pipeline, as replay does. Default none.
+   */
+  readonly harmonics?: PhaseHarmonics;
+  /**
+   * Watch for signals that leave the calibration's model (`calibration_stale`, see createModelWatch): its events go
+   * to the summary's `modelEvents`. Only with a calibration (the level is then the corrected radius): without one
+   * there is no model to watch and the option is checked but unused. Default off.
+   */
+  readonly modelWatch?: ModelWatchOptions;
 }
 
 export interface AxesOptions extends AxesRunnerOptions, AxesViewOptions {
@@ -138,6 +157,8 @@ export interface AxisBlockSummary {
   readonly flagsSeen: number;
   readonly countLost: boolean;
   readonly events: readonly AlarmEvent[];
+  /** The block's `calibration_stale` changes (the axis' `modelWatch` option), empty without it. */
+  readonly modelEvents: readonly ModelWatchEvent[];
   readonly speedLimits: SpeedLimits;
   /** Ring of recent trace points; `traceNext` is where the next point goes, `traceFilled` how many are valid. */
   readonly traceX: Float32Array;
@@ -240,9 +261,34 @@ interface AxisStage {
   /** A re-reference not yet reached: its sample and preset. */
   pendingAt: number;
   pendingPresetM: number;
+  /** The harmonic correction and the model watch of the axis' options, with their block buffers, or null. */
+  readonly beyond: BeyondEllipse | null;
 }
 
-type MutableSummary = { -readonly [K in keyof AxisBlockSummary]: AxisBlockSummary[K] } & { events: AlarmEvent[] };
+interface BeyondEllipse {
+  readonly harmonics: HarmonicCorrection | null;
+  readonly watch: ModelWatch | null;
+  phase: Float64Array;
+  use: Uint8Array;
+}
+
+type MutableSummary = { -readonly [K in keyof AxisBlockSummary]: AxisBlockSummary[K] } & { events: AlarmEvent[]; modelEvents: ModelWatchEvent[] };
+
+/** Samples whose signal itself is in doubt stay out of the model watch (a blocked beam is not a model change). */
+const SIGNAL_TROUBLE = AlarmBit.lowSignal | AlarmBit.saturation | AlarmBit.badSample | AlarmBit.inputGap;
+
+/** The pipeline's phase through the harmonic correction (positions too), and the level into the model watch. */
+function beyondEllipse(stage: AxisStage, beyond: BeyondEllipse, out: { positionM: Float64Array; level: Float32Array; flags: Uint8Array }, length: number): void {
+  const summary = stage.summary;
+  summary.modelEvents.length = 0;
+  beyond.harmonics?.process(beyond.phase, length, out.positionM, stage.pipeline.stages.displacement.metresPerFringe / (2 * Math.PI));
+  if (beyond.watch !== null) {
+    const use = beyond.use;
+    const flags = out.flags;
+    for (let i = 0; i < length; i++) use[i] = (flags[i]! & SIGNAL_TROUBLE) === 0 ? 1 : 0;
+    beyond.watch.processRadius(out.level, length, summary.firstSampleIndex, summary.modelEvents, use);
+  }
+}
 
 /** Adds the stage's preset to a block's positions, switching to a pending one at its sample. */
 function applyPreset(stage: AxisStage, positionM: Float64Array, length: number, firstIndex: number): void {
@@ -272,6 +318,10 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
   // Creating the pipelines validates every axis' options.
   const stages: AxisStage[] = options.axes.map((axisOptions, k) => {
     const pipeline = createPipeline(axisOptions);
+    const harmonics = axisOptions.harmonics === undefined ? null : createHarmonicCorrection(axisOptions.harmonics);
+    // Checked either way; without a calibration there is no model to watch (the level is then the raw radius).
+    const checkedWatch = axisOptions.modelWatch === undefined ? null : createModelWatch(axisOptions.modelWatch);
+    const watch = axisOptions.calibration === undefined || axisOptions.calibration === null ? null : checkedWatch;
     return {
       pipeline,
       correction: createCorrection({ calibration: axisOptions.calibration ?? null }),
@@ -283,6 +333,7 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
       offsetM: 0,
       pendingAt: -1,
       pendingPresetM: 0,
+      beyond: harmonics === null && watch === null ? null : { harmonics, watch, phase: new Float64Array(0), use: new Uint8Array(0) },
     };
   });
   const summaries: readonly AxisBlockSummary[] = stages.map((stage) => stage.summary);
@@ -295,7 +346,16 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     summary.events.length = 0;
     summary.firstSampleIndex = pipeline.nextSampleIndex;
     const out = stage.buffers.views(length);
-    pipeline.process(x, y, length, out, summary.events);
+    const beyond = stage.beyond;
+    if (beyond === null) pipeline.process(x, y, length, out, summary.events);
+    else {
+      if (beyond.phase.length < length) {
+        beyond.phase = new Float64Array(length);
+        beyond.use = new Uint8Array(length);
+      }
+      pipeline.process(x, y, length, { ...out, unwrappedPhaseRad: beyond.phase }, summary.events);
+      beyondEllipse(stage, beyond, out, length);
+    }
     if (stage.offsetM !== 0 || stage.pendingAt >= 0) applyPreset(stage, out.positionM, length, summary.firstSampleIndex);
     summary.x = x;
     summary.y = y;
@@ -381,6 +441,7 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     reset() {
       stages.forEach((stage, k) => {
         stage.pipeline.reset();
+        stage.beyond?.watch?.reset();
         stage.offsetM = 0;
         stage.pendingAt = -1;
         if (refractiveIndex !== null) stage.pipeline.setRefractiveIndex(refractiveIndex);
@@ -590,6 +651,7 @@ function emptySummary(name: string, speedLimits: SpeedLimits, tracePoints: numbe
     flagsSeen: 0,
     countLost: false,
     events: [],
+    modelEvents: [],
     speedLimits,
     traceX: new Float32Array(tracePoints),
     traceY: new Float32Array(tracePoints),

@@ -3,14 +3,14 @@
 import { createWriteStream, fstatSync } from 'node:fs';
 import { Socket } from 'node:net';
 import { extname } from 'node:path';
-import { alarmKinds, alarmNames, OptionError, type EllipseCalibration } from '../../src/core/index.js';
+import { alarmKinds, alarmNames, MODEL_WATCH_ALARM, OptionError, type EllipseCalibration } from '../../src/core/index.js';
 import { createCaptureWriter, writeFileAtomically, type CaptureWriter } from '../../src/io/capture/index.js';
 import { createEdgeWriter, createResultWriter, type EdgeWriter, type ResultFormat, type ResultWriter } from '../../src/io/results/index.js';
 import { createSerialByteSource } from '../../src/io/serial/index.js';
 import { createLiveEdgeLatch, latchEdges, type LinkBlock } from '../../src/io/live/index.js';
 import type { AxisBlockSummary } from '../../src/stream/index.js';
 import { WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
-import { readCalibrationFile } from '../calibration-file.js';
+import { readCalibrationFile, readCalibrationFitResidual, readCalibrationHarmonics } from '../calibration-file.js';
 import { checkFiles, formatNumber, LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { createLiveSession, type LiveSession, type LiveSink, type LiveSummary } from '../live/live-session.js';
 import { createStatusLine, formatStatus } from '../live/status-line.js';
@@ -189,6 +189,10 @@ async function run(argv: readonly string[]): Promise<number> {
     ],
   );
   const calibration = values.calibration === undefined ? null : await readCalibrationFile(values.calibration);
+  // What replay applies beyond the ellipse: the file's harmonic correction, and the calibration_stale watch (bound
+  // from the file's fit residual, or the live fit's).
+  const harmonics = values.calibration === undefined ? undefined : await readCalibrationHarmonics(values.calibration);
+  const fitResidualRms = values.calibration === undefined ? undefined : await readCalibrationFitResidual(values.calibration);
   const maxBufferedBytes = integerOption('input-buffer-mib', values['input-buffer-mib'], DEFAULT_INPUT_BUFFER_MIB, 1, 4096) * 2 ** 20;
   const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetryDelayMs: Math.max(5000, retryDelayMs), maxRetriesBeforeFirstOpen: openRetries });
   // Every option, including the chain's, is checked here: nothing is opened before.
@@ -199,7 +203,16 @@ async function run(argv: readonly string[]): Promise<number> {
     chain = createLiveSession({
       source,
       track: {
-        axes: [{ name: 'X', channelPair: axis, ...scale, calibration: calibration ?? 'fit' }],
+        axes: [
+          {
+            name: 'X',
+            channelPair: axis,
+            ...scale,
+            calibration: calibration ?? 'fit',
+            ...(harmonics === undefined ? {} : { harmonics }),
+            modelWatch: fitResidualRms === undefined ? {} : { fitResidualRms },
+          },
+        ],
         link: textMode ? { mode: 'text', channelCount: channels, rateHz } : { maxSamplesPerFrame, ...(rateHz === undefined ? {} : { rateHz }) },
         fitSamples,
         ...(durationS === undefined ? {} : { durationS }),
@@ -303,6 +316,20 @@ async function run(argv: readonly string[]): Promise<number> {
           statusLine.log(`fitted the correction to ${notice.result.samples} of the first ${notice.heldSamples} samples (coverage ${(notice.result.coverage * 100).toFixed(0)} %): ${describeCalibration(notice.result.calibration)}`);
         } else {
           statusLine.log(`live fit over ${notice.heldSamples} samples failed (${notice.result.message})${notice.final ? '' : '; holding more samples and retrying'}`);
+        }
+      },
+    },
+    {
+      name: `the ${MODEL_WATCH_ALARM} log`,
+      positions(positions) {
+        for (const event of positions.summaries[0]!.modelEvents) {
+          const t = (event.sampleIndex / positions.rateHz).toFixed(6);
+          const what = event.cause === 'radius-change' ? `the mean radius moved by ${(event.value * 100).toFixed(2)} %` : `the radius scatters ${(event.value * 100).toFixed(2)} % RMS`;
+          statusLine.log(
+            event.state === 'raised'
+              ? `${MODEL_WATCH_ALARM} at t = ${t} s: the signal left the calibration's model (${what}): recalibrate, or check the source power and alignment`
+              : `${MODEL_WATCH_ALARM} cleared at t = ${t} s (${what})`,
+          );
         }
       },
     },

@@ -39,6 +39,8 @@ export interface ModelWatch {
    * changes. Never allocates otherwise.
    */
   process(u: ArrayLike<number>, v: ArrayLike<number>, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void;
+  /** The same for corrected radii √(u² + v²) already at hand, e.g. a pipeline's level with a calibration. */
+  processRadius(radius: ArrayLike<number>, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void;
   readonly active: boolean;
   /** The running mean radius and RMS scatter (relative). */
   readonly meanRadius: number;
@@ -66,11 +68,20 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
   let cause: ModelWatchEvent['cause'] = 'radius-change';
 
   function process(u: ArrayLike<number>, v: ArrayLike<number>, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void {
+    watch(u, v, false, length, firstIndex, events, use);
+  }
+
+  function processRadius(radius: ArrayLike<number>, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void {
+    watch(radius, radius, true, length, firstIndex, events, use);
+  }
+
+  /** The running means over a block, from (u, v) or from radii in `a` (`radiusGiven`), and the alarm's state. */
+  function watch(a: ArrayLike<number>, b: ArrayLike<number>, radiusGiven: boolean, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void {
     let w = weight, s = sum, q = squares;
     for (let i = 0; i < length; i++) {
-      const ui = u[i]!;
-      const vi = v[i]!;
-      const r = Math.sqrt(ui * ui + vi * vi);
+      const ai = a[i]!;
+      const bi = b[i]!;
+      const r = radiusGiven ? ai : Math.sqrt(ai * ai + bi * bi);
       if ((use !== undefined && !use[i]) || !(r > 0 && r < Infinity)) continue;
       w = lambda * w + 1;
       s = lambda * s + r;
@@ -106,6 +117,7 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
   reset();
   return {
     process,
+    processRadius,
     get active() {
       return active;
     },

@@ -212,8 +212,14 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
   const fitAttempts = integerInRange('fitAttempts', options.fitAttempts ?? 8, 1, 64);
   const durationS = options.durationS === undefined ? undefined : positiveFinite('durationS', options.durationS);
   const fitted = options.axes.map((axis) => axis.calibration === 'fit');
-  const runnerOptions = (rateHz: number, calibrations: readonly (EllipseCalibration | null | undefined)[]): AxesRunnerOptions => ({
-    axes: options.axes.map((axis, k) => ({ ...axis, rateHz, calibration: calibrations[k] })),
+  const runnerOptions = (rateHz: number, calibrations: readonly (EllipseCalibration | null | undefined)[], fitResiduals: readonly number[] = []): AxesRunnerOptions => ({
+    axes: options.axes.map((axis, k) => ({
+      ...axis,
+      rateHz,
+      calibration: calibrations[k],
+      // A live fit's residual sets the model watch's default scatter bound, as a calibration file's does.
+      ...(axis.modelWatch === undefined || fitResiduals[k] === undefined ? {} : { modelWatch: { fitResidualRms: fitResiduals[k], ...axis.modelWatch } }),
+    })),
     ...(options.tracePoints === undefined ? {} : { tracePoints: options.tracePoints }),
     ...(options.tracePointsPerBlock === undefined ? {} : { tracePointsPerBlock: options.tracePointsPerBlock }),
   });
@@ -230,6 +236,7 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
     let runner: AxesRunner | null = null;
     let rateHz = Number.NaN;
     const calibrations = [...given];
+    const fitResiduals: number[] = [];
     const holding = fitted.includes(true);
     const held = createHoldStore();
     let nextFitAt = fitSamples;
@@ -247,7 +254,7 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
 
     function run(block: LinkBlock): void {
       if (runner === null) {
-        runner = createAxesRunner(runnerOptions(rateHz, calibrations));
+        runner = createAxesRunner(runnerOptions(rateHz, calibrations, fitResiduals));
         if (refractiveIndex !== null) runner.setRefractiveIndex(refractiveIndex);
         running = runner;
       }
@@ -281,7 +288,10 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
         return;
       }
       results.forEach((result, k) => {
-        if (result !== null && result.ok) calibrations[k] = result.calibration;
+        if (result !== null && result.ok) {
+          calibrations[k] = result.calibration;
+          fitResiduals[k] = result.residualRms;
+        }
       });
       const { values, segments } = held;
       for (const segment of segments) {
