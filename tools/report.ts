@@ -1,13 +1,10 @@
 // Text summaries and the self-contained HTML report of calibrate and replay: inline SVG drawn when the report is
 // written, no scripts, no network.
 //
-// Axes use d3-scale (scaleLinear/scaleLog with nice domains and ticks): its tick rule (steps of 1, 2 or 5 × 10^k,
-// labels at the precision of the step) is the one readers of scientific plots expect, it needs no DOM and it is
-// small; a whole chart grammar rendered to SVG would bring far more than the few plot kinds drawn here.
+// The charts are tools/chart.ts's (d3-scale axes, shared with the spectrum and positioning reports).
 // Alarm colours are the Okabe–Ito palette (M. Okabe and K. Ito, "Color Universal Design (CUD): how to make figures
 // and presentations that are friendly to colorblind people", J*FLY, 2008), distinguishable under the common
 // colour-vision deficiencies; each alarm has a labelled lane of its own, so overlapping spans never blend.
-import { scaleLinear, scaleLog } from 'd3-scale';
 import {
   alarmKinds,
   alarmNames,
@@ -22,6 +19,7 @@ import { writeFileAtomically } from '../src/io/capture/index.js';
 import type { Envelope, PeriodicErrorResult, RunResult } from './capture-run.js';
 import type { MeasureSettings } from './capture-run.js';
 import type { UncertaintyBudget } from '../src/core/index.js';
+import { chart, escapeHtml as escape, extent, FONT_PX, polyline, type Scale } from './chart.js';
 import { formatNumber, LASER_CAUTION, toolVersion } from './cli-kit.js';
 
 /** Nanometres to the picometre; a value that rounds to zero prints without a sign. */
@@ -152,135 +150,6 @@ export interface ReportInput {
   readonly date?: Date;
 }
 
-const escape = (text: string) => text.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
-
-/** Finite extremes of some arrays, widened when empty or flat so a scale can be built. */
-function extent(...arrays: ArrayLike<number>[]): [number, number] {
-  let low = Infinity;
-  let high = -Infinity;
-  for (const values of arrays) {
-    for (let i = 0; i < values.length; i++) {
-      const value = values[i]!;
-      if (!Number.isFinite(value)) continue;
-      if (value < low) low = value;
-      if (value > high) high = value;
-    }
-  }
-  if (!Number.isFinite(low)) return [0, 1];
-  if (low === high) return low === 0 ? [-1, 1] : [low - Math.abs(low) * 0.01, high + Math.abs(high) * 0.01];
-  return [low, high];
-}
-
-/** Characters × this ≈ the width of an 12 px label in the report's sans-serif font. */
-const CHAR_PX = 7;
-const FONT_PX = 12;
-
-interface AxisSpec {
-  readonly label: string;
-  readonly domain: [number, number];
-  readonly log?: boolean;
-  /** Round the domain out to ticks (default true for linear axes). */
-  readonly nice?: boolean;
-  readonly ticks?: number;
-  /** Fixed tick values instead of the scale's own. */
-  readonly values?: readonly number[];
-}
-
-interface Scale {
-  (value: number): number;
-  ticks(count?: number): number[];
-  tickFormat(count?: number, specifier?: string): (value: number) => string;
-  domain(): number[];
-}
-
-function makeScale(axis: AxisSpec, range: [number, number]): Scale {
-  if (axis.log === true) return scaleLog().domain(axis.domain).range(range).clamp(true) as unknown as Scale;
-  const scale = scaleLinear().domain(axis.domain).range(range);
-  if (axis.nice !== false) scale.nice(axis.ticks ?? 6);
-  return scale as unknown as Scale;
-}
-
-function tickLabels(axis: AxisSpec, scale: Scale): Array<{ value: number; text: string }> {
-  const count = axis.ticks ?? 6;
-  const values = axis.values ?? scale.ticks(count);
-  const format = axis.log === true ? scale.tickFormat(count, '~g') : scale.tickFormat(count);
-  return values.map((value) => ({ value, text: format(value) }));
-}
-
-interface ChartSpec {
-  readonly className?: string;
-  readonly label: string;
-  /** Width in CSS pixels at full size; the SVG shrinks with the page (viewBox), never overflows it. */
-  readonly width: number;
-  /** Height of the plot area itself. */
-  readonly plotHeight: number;
-  readonly x: AxisSpec;
-  readonly y: AxisSpec;
-  /** Same scale on both axes (a circle looks like one): the plot area is made square. */
-  readonly square?: boolean;
-  readonly body: (sx: Scale, sy: Scale, plot: { left: number; top: number; width: number; height: number }) => string;
-  /** Labels drawn left of the plot below the axis (alarm lanes), which the left margin must hold too. */
-  readonly marginLabels?: readonly string[];
-  /** Extra height below the x axis label, drawn by `below`. */
-  readonly belowHeight?: number;
-  readonly below?: (sx: Scale, plot: { left: number; top: number; width: number; height: number }, y: number) => string;
-}
-
-/** One chart: margins sized from its own tick labels, so nothing is clipped at any page width. */
-function chart(spec: ChartSpec): string {
-  const top = 10;
-  // The y labels decide the left margin; the last x label (centred on its tick) decides the right one.
-  const provisionalY = makeScale(spec.y, [spec.plotHeight, 0]);
-  const yLabels = tickLabels(spec.y, provisionalY);
-  const left = Math.max(
-    24 + Math.max(...yLabels.map((label) => label.text.length), 1) * CHAR_PX + 8,
-    12 + Math.max(0, ...(spec.marginLabels ?? []).map((label) => label.length)) * CHAR_PX,
-  );
-  const provisionalX = makeScale(spec.x, [0, 1]);
-  const xLabels = tickLabels(spec.x, provisionalX);
-  const lastX = xLabels.length > 0 ? xLabels[xLabels.length - 1]!.text.length : 1;
-  const right = Math.max(12, Math.ceil((lastX * CHAR_PX) / 2) + 6);
-  let plotWidth = spec.width - left - right;
-  let plotHeight = spec.plotHeight;
-  if (spec.square === true) plotWidth = plotHeight = Math.min(plotWidth, plotHeight);
-  const width = left + plotWidth + right;
-  const sx = makeScale(spec.x, [left, left + plotWidth]);
-  const sy = makeScale(spec.y, [top + plotHeight, top]);
-  const plot = { left, top, width: plotWidth, height: plotHeight };
-  const axisY = top + plotHeight;
-  const xTicks = tickLabels(spec.x, sx)
-    .map(({ value, text }) => {
-      const x = sx(value).toFixed(1);
-      const label = text === '' ? '' : `<text class="tick-x${spec.x.log === true ? ' log' : ''}" x="${x}" y="${axisY + 16}" text-anchor="middle">${escape(text)}</text>`;
-      return `<line class="tick" x1="${x}" x2="${x}" y1="${axisY}" y2="${axisY + 4}"/>${label}`;
-    })
-    .join('');
-  const yTicks = tickLabels(spec.y, sy)
-    .map(({ value, text }) => {
-      const y = sy(value).toFixed(1);
-      // Log axes label only some ticks (d3's format gives the others ""): their lines stay, as minor ticks.
-      const label = text === '' ? '' : `<text class="tick-y${spec.y.log === true ? ' log' : ''}" x="${left - 6}" y="${(Number(y) + 4).toFixed(1)}" text-anchor="end">${escape(text)}</text>`;
-      return `<line class="grid" x1="${left}" x2="${left + plotWidth}" y1="${y}" y2="${y}"/>${label}`;
-    })
-    .join('');
-  const belowTop = axisY + 40;
-  const height = belowTop + (spec.belowHeight ?? 0);
-  const clipId = `clip-${spec.label.replace(/[^a-z0-9]+/gi, '-')}`;
-  return (
-    `<svg class="plot${spec.className === undefined ? '' : ` ${spec.className}`}" role="img" aria-label="${escape(spec.label)}" viewBox="0 0 ${width} ${height}" ` +
-    `style="max-width:${width}px" preserveAspectRatio="xMinYMin meet">` +
-    `<clipPath id="${clipId}"><rect x="${left}" y="${top}" width="${plotWidth}" height="${plotHeight}"/></clipPath>` +
-    yTicks +
-    `<g clip-path="url(#${clipId})">${spec.body(sx, sy, plot)}</g>` +
-    `<rect class="plot-area" x="${left}" y="${top}" width="${plotWidth}" height="${plotHeight}"/>` +
-    xTicks +
-    `<text class="axis-label" x="${(left + plotWidth / 2).toFixed(1)}" y="${axisY + 34}" text-anchor="middle">${escape(spec.x.label)}</text>` +
-    `<text class="axis-label" x="14" y="${top + plotHeight / 2}" transform="rotate(-90 14 ${top + plotHeight / 2})" text-anchor="middle">${escape(spec.y.label)}</text>` +
-    (spec.below === undefined ? '' : spec.below(sx, plot, belowTop)) +
-    `</svg>`
-  );
-}
-
 function lissajous(label: string, xs: Float64Array, ys: Float64Array, curve: Array<[number, number]>, xLabel: string, yLabel: string): string {
   const [x0, x1] = extent(xs, curve.map((p) => p[0]));
   const [y0, y1] = extent(ys, curve.map((p) => p[1]));
@@ -313,16 +182,6 @@ function ellipseCurve(c: EllipseCalibration): Array<[number, number]> {
 const unitCircle = Array.from({ length: 121 }, (_, k) => [Math.cos((k / 120) * 2 * Math.PI), Math.sin((k / 120) * 2 * Math.PI)] as [number, number]);
 
 const measured = (result: PeriodicErrorResult) => result.summary.samples > 0;
-
-/** Path through the finite points (x(k), values[k]); a non-finite value breaks the line. */
-function polyline(x: (k: number) => number, values: ArrayLike<number>, sx: Scale, sy: Scale): string {
-  let d = '';
-  for (let k = 0; k < values.length; k++) {
-    const v = values[k]!;
-    if (Number.isFinite(v)) d += `${k === 0 || !Number.isFinite(values[k - 1]!) ? 'M' : 'L'}${sx(x(k)).toFixed(1)} ${sy(v).toFixed(1)}`;
-  }
-  return d;
-}
 
 /** Fringe phase in degrees, labelled every 45°. */
 const PHASE_TICKS = [-180, -135, -90, -45, 0, 45, 90, 135, 180];

@@ -6,7 +6,7 @@ import { existsSync, mkdirSync, mkdtempSync, rmSync, readFileSync, writeFileSync
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { pathToFileURL, fileURLToPath } from 'node:url';
-import { chromium, type Browser } from 'playwright-core';
+import { chromium, type Browser, type Page } from 'playwright-core';
 import { fringetally } from './cli.js';
 import { detectorOutputs, UNBALANCED_THREE, wanderingPhase } from '../support/detector-outputs.js';
 
@@ -32,6 +32,57 @@ afterAll(async () => {
 function isRoundStep(step: number): boolean {
   const mantissa = step / 10 ** Math.floor(Math.log10(step) + 1e-9);
   return [1, 2, 5, 10].some((round) => Math.abs(mantissa - round) < 1e-6);
+}
+
+interface SeenPlot {
+  label: string | null;
+  outside: (string | null)[];
+  x: number[];
+  y: number[];
+  xLog: boolean;
+  yLog: boolean;
+  right: number;
+}
+
+/** Every plot of the page: labels outside its frame, tick values, log axes. */
+async function plotsOf(page: Page): Promise<SeenPlot[]> {
+  return page.evaluate(() =>
+    Array.from(document.querySelectorAll('svg.plot')).map((svg) => {
+      const frame = svg.getBoundingClientRect();
+      const outside = Array.from(svg.querySelectorAll('text'))
+        .filter((text) => {
+          const box = text.getBoundingClientRect();
+          return box.left < frame.left - 0.5 || box.right > frame.right + 0.5 || box.top < frame.top - 0.5 || box.bottom > frame.bottom + 0.5;
+        })
+        .map((text) => text.textContent);
+      const ticks = (cls: string) => Array.from(svg.querySelectorAll(`text.${cls}`)).map((text) => Number(text.textContent!.replace(/\u2212/g, '-').replace(/,/g, '')));
+      const log = (cls: string) => svg.querySelector(`text.${cls}.log`) !== null;
+      return { label: svg.getAttribute('aria-label'), outside, x: ticks('tick-x'), y: ticks('tick-y'), xLog: log('tick-x'), yLog: log('tick-y'), right: frame.right };
+    }),
+  );
+}
+
+/** Nothing clipped, nothing beyond the viewport, round evenly spaced ticks (45° steps for fringe phase). */
+function expectReadablePlots(plots: SeenPlot[], viewport: number, width: number): void {
+  for (const plot of plots) {
+    expect(plot.outside, `${plot.label} at ${width} px`).toEqual([]);
+    expect(plot.right).toBeLessThanOrEqual(viewport);
+    for (const [axis, log] of [[plot.x, plot.xLog], [plot.y, plot.yLog]] as const) {
+      expect(axis.every(Number.isFinite), `${plot.label}: ${axis.join(' ')}`).toBe(true);
+      if (log) {
+        // Logarithmic axes: labels at 1, 2 or 5 × 10^k only.
+        expect(axis.length, `${plot.label}`).toBeGreaterThanOrEqual(2);
+        for (const value of axis) expect(isRoundStep(value), `${plot.label}: ${axis.join(' ')}`).toBe(true);
+        continue;
+      }
+      expect(axis.length, `${plot.label}`).toBeGreaterThanOrEqual(3);
+      const steps = axis.slice(1).map((value, k) => value - axis[k]!);
+      for (const step of steps) expect(Math.abs(step - steps[0]!)).toBeLessThan(1e-9 * Math.abs(steps[0]!) + 1e-12); // evenly spaced
+      // Degrees of fringe phase step by 45°; everything else by 1, 2 or 5 × 10^k.
+      if ((plot.label === 'periodic error against phase' || plot.label === 'radius residual against phase') && axis === plot.x) expect(steps[0]).toBe(45);
+      else expect(isRoundStep(Math.abs(steps[0]!)), `${plot.label}: ${axis.join(' ')}`).toBe(true);
+    }
+  }
 }
 
 describe('report', () => {
@@ -139,22 +190,11 @@ describe('report', () => {
     for (const width of [700, 1400]) {
       const page = await browser.newPage({ viewport: { width, height: 1000 } });
       await page.goto(pathToFileURL(join(dir, 'long.html')).href);
-      const seen = await page.evaluate(() => {
-        const header = Object.fromEntries(Array.from(document.querySelectorAll('table.header tr')).map((row) => [row.querySelector('th')!.textContent, row.querySelector('td')!.textContent]));
-        const plots = Array.from(document.querySelectorAll('svg.plot')).map((svg) => {
-          const frame = svg.getBoundingClientRect();
-          const outside = Array.from(svg.querySelectorAll('text'))
-            .filter((text) => {
-              const box = text.getBoundingClientRect();
-              return box.left < frame.left - 0.5 || box.right > frame.right + 0.5 || box.top < frame.top - 0.5 || box.bottom > frame.bottom + 0.5;
-            })
-            .map((text) => text.textContent);
-          const ticks = (cls: string) => Array.from(svg.querySelectorAll(`text.${cls}`)).map((text) => Number(text.textContent!.replace(/\u2212/g, '-').replace(/,/g, '')));
-          const log = (cls: string) => svg.querySelector(`text.${cls}.log`) !== null;
-          return { label: svg.getAttribute('aria-label'), outside, x: ticks('tick-x'), y: ticks('tick-y'), xLog: log('tick-x'), yLog: log('tick-y'), right: frame.right };
-        });
-        return { header, plots, scrollWidth: document.documentElement.scrollWidth, viewport: window.innerWidth };
-      });
+      const seen = { ...(await page.evaluate(() => ({
+        header: Object.fromEntries(Array.from(document.querySelectorAll('table.header tr')).map((row) => [row.querySelector('th')!.textContent, row.querySelector('td')!.textContent])),
+        scrollWidth: document.documentElement.scrollWidth,
+        viewport: window.innerWidth,
+      }))), plots: await plotsOf(page) };
       expect(seen.scrollWidth, `no horizontal scrolling at ${width} px`).toBeLessThanOrEqual(seen.viewport);
       expect(seen.header.date).toMatch(/^\d{4}-\d{2}-\d{2} \d{2}:\d{2}:\d{2} UTC$/); // ISO 8601, 24-hour
       expect(seen.header.tool).toBe(`fringetally ${version}`);
@@ -162,26 +202,23 @@ describe('report', () => {
       expect(seen.header['capture SHA-256']).toBe(captureHash);
       expect(seen.header.calibration).toBe(`long-cal.json (sha256 ${calibrationHash})`);
       expect(seen.plots.map((plot) => plot.label)).toContain('amplitude spectral density of position');
-      for (const plot of seen.plots) {
-        expect(plot.outside, `${plot.label} at ${width} px`).toEqual([]);
-        expect(plot.right).toBeLessThanOrEqual(seen.viewport);
-        for (const [axis, log] of [[plot.x, plot.xLog], [plot.y, plot.yLog]] as const) {
-          expect(axis.every(Number.isFinite), `${plot.label}: ${axis.join(' ')}`).toBe(true);
-          if (log) {
-            // Logarithmic axes: labels at 1, 2 or 5 × 10^k only.
-            expect(axis.length, `${plot.label}`).toBeGreaterThanOrEqual(2);
-            for (const value of axis) expect(isRoundStep(value), `${plot.label}: ${axis.join(' ')}`).toBe(true);
-            continue;
-          }
-          expect(axis.length, `${plot.label}`).toBeGreaterThanOrEqual(3);
-          const steps = axis.slice(1).map((value, k) => value - axis[k]!);
-          for (const step of steps) expect(Math.abs(step - steps[0]!)).toBeLessThan(1e-9 * Math.abs(steps[0]!) + 1e-12); // evenly spaced
-          // Degrees of fringe phase step by 45°; everything else by 1, 2 or 5 × 10^k.
-          if ((plot.label === 'periodic error against phase' || plot.label === 'radius residual against phase') && axis === plot.x) expect(steps[0]).toBe(45);
-          else expect(isRoundStep(Math.abs(steps[0]!)), `${plot.label}: ${axis.join(' ')}`).toBe(true);
-        }
-      }
+      expectReadablePlots(seen.plots, seen.viewport, width);
       await page.screenshot({ path: join(ARTIFACTS, `report-${width}.png`), fullPage: true });
+      await page.close();
+    }
+  });
+  it('the spectrum report draws on the same charts (so does positioning): round ticks, decades, nothing clipped', async () => {
+    expect((await fringetally(['simulate', '--out', 'spectrum.wav', '--duration-s', '0.02', '--quiet'], dir)).code).toBe(0);
+    const spectrum = await fringetally(['spectrum', 'spectrum.wav', '--wavelength-nm', '632.9908', '--fold', '2', '--report', 'spectrum.html', '--quiet'], dir);
+    expect(spectrum.code, spectrum.stderr).toBe(0);
+    for (const width of [700, 1400]) {
+      const page = await browser.newPage({ viewport: { width, height: 1000 } });
+      await page.goto(pathToFileURL(join(dir, 'spectrum.html')).href);
+      const plots = await plotsOf(page);
+      const viewport = await page.evaluate(() => window.innerWidth);
+      expect(plots.map((plot) => plot.label)).toEqual(['amplitude spectral density', 'cumulative RMS', 'Allan deviation']);
+      expect(plots[0]).toMatchObject({ xLog: true, yLog: true });
+      expectReadablePlots(plots, viewport, width);
       await page.close();
     }
   });
