@@ -1,7 +1,7 @@
 // End to end over real pseudo-terminal pairs (socat): `fringetally emulate` writes frames of an invented motion,
 // `fringetally listen` tracks it. Positions are compared with emulate's truth file; each injected fault must show
 // in the right counters and alarms. socat is required: missing, these tests fail.
-import { existsSync, mkdtempSync, readdirSync, rmSync } from 'node:fs';
+import { existsSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
@@ -290,6 +290,25 @@ describe('listen and emulate errors', () => {
       expect(help.stdout).toMatch(/nm/);
       expect(help.stdout).toMatch(/never a safety interlock/);
     }
+  });
+
+  it('beyond the ellipse: a stale calibration is logged as calibration_stale, and the file\'s harmonics are applied', async () => {
+    // emulate's detectors (docs/live.md): offsets 800, −500, amplitudes 12 000, 10 800, quadrature error 0.06 rad.
+    // A calibration 10 % too large in both amplitudes keeps the phase but reads a radius of 1/1.1: beyond the
+    // watch's ±5 % bound. Its harmonic correction of 0.02 rad at order 1 moves each position by −0.02·cos φ rad of
+    // phase, at most 0.02 × 25.19 nm/rad = 0.504 nm (633 nm, fold 2), against the same run without it.
+    const ellipse = { format: 'fringetally-calibration', version: 1, offsetX: 800, offsetY: -500, amplitudeX: 13200, amplitudeY: 11880, phaseErrorRad: 0.06 };
+    writeFileSync(join(dir, 'stale.json'), JSON.stringify(ellipse));
+    writeFileSync(join(dir, 'stale-harmonics.json'), JSON.stringify({ ...ellipse, harmonics: { orders: 1, cos: [0.02], sin: [0] } }));
+    const plain = await emulateIntoListen('stale', [], ['--calibration', 'stale.json']);
+    expect(plain.listen.output.stderr).toMatch(/calibration_stale at t = [\d.]+ s: the signal left the calibration's model \(the mean radius moved by -9\.\d\d %\)/);
+    const corrected = await emulateIntoListen('stale-harmonics', [], ['--calibration', 'stale-harmonics.json']);
+    const a = plain.rows.columns.position_m!;
+    const b = corrected.rows.columns.position_m!;
+    expect(b).toHaveLength(a.length);
+    let largest = 0;
+    for (let i = 0; i < a.length; i++) largest = Math.max(largest, Math.abs(b[i]! - a[i]!));
+    expect(largest / (0.02 * (632.9908e-9 / (4 * Math.PI)))).toBeCloseTo(1, 2);
   });
 
   it('emulate on a port that does not exist: exit 1 naming the path', async () => {
