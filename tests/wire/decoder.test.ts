@@ -73,7 +73,9 @@ describe('wire decoder', () => {
     decoder.push(concat([syntheticFrame(5), damaged, syntheticFrame(7)]));
     expect(frames.map((f) => f.sequence)).toEqual([5, 7]);
     expect(decoder.counters.crcFailures).toBe(1);
-    expect(gaps).toEqual([{ sampleIndex: 4, kind: 'loss', lostFrames: 1, lostSamples: 4, expectedSequence: 6, receivedSequence: 7 }]);
+    // Indices count the lost samples: frame 7 starts at 4 delivered + 4 lost.
+    expect(gaps).toEqual([{ sampleIndex: 8, kind: 'loss', lostFrames: 1, lostSamples: 4, expectedSequence: 6, receivedSequence: 7 }]);
+    expect(frames.map((f) => f.sampleIndex)).toEqual([0, 8]);
     expect(decoder.counters).toMatchObject({ gaps: 1, lostSamples: 4 });
   });
 
@@ -87,7 +89,7 @@ describe('wire decoder', () => {
   it('measures a gap across the wrap: expected 65535, got 2 → 3 frames lost', () => {
     const { gaps, decoder } = collectingDecoder();
     decoder.push(concat([syntheticFrame(65534, 2, 8), syntheticFrame(2, 2, 8)]));
-    expect(gaps).toEqual([{ sampleIndex: 8, kind: 'loss', lostFrames: 3, lostSamples: 24, expectedSequence: 65535, receivedSequence: 2 }]);
+    expect(gaps).toEqual([{ sampleIndex: 32, kind: 'loss', lostFrames: 3, lostSamples: 24, expectedSequence: 65535, receivedSequence: 2 }]);
   });
 
   it('rejects frames beyond its limits as bad headers, keeps going, and tells the sizes it refused', () => {

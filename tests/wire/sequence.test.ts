@@ -34,8 +34,9 @@ describe('counter restarts and backward jumps', () => {
   it('a counter that restarts is a resync of unknown length, and the stream goes on from there', () => {
     const { decoder, frames, gaps } = collectingDecoder();
     decoder.push(concat([syntheticFrame(5000), syntheticFrame(5001), syntheticFrame(0), syntheticFrame(1)]));
-    expect(frames.map((f) => [f.sequence, f.sampleIndex])).toEqual([[5000, 0], [5001, 4], [0, 8], [1, 12]]);
-    expect(gaps).toEqual([{ sampleIndex: 8, kind: 'resync', lostFrames: NaN, lostSamples: NaN, expectedSequence: 5002, receivedSequence: 0 }]);
+    // The resync's unknown length counts as one sample in the indices.
+    expect(frames.map((f) => [f.sequence, f.sampleIndex])).toEqual([[5000, 0], [5001, 4], [0, 9], [1, 13]]);
+    expect(gaps).toEqual([{ sampleIndex: 9, kind: 'resync', lostFrames: NaN, lostSamples: NaN, expectedSequence: 5002, receivedSequence: 0 }]);
     expect(decoder.counters).toMatchObject({ gaps: 1, sequenceResyncs: 1, lostSamples: 0 });
   });
 
@@ -116,7 +117,8 @@ describe('version 2 sample counter', () => {
     // Frames of 64, 64 (lost), 16 samples: the sequence alone would count 16 lost samples, the counter 64.
     const { decoder, gaps } = collectingDecoder();
     decoder.push(concat([frame(0, 1000, 64), frame(2, 1128, 16)]));
-    expect(gaps).toEqual([{ sampleIndex: 64, kind: 'loss', lostFrames: 1, lostSamples: 64, expectedSequence: 1, receivedSequence: 2 }]);
+    // The index after the gap counts the lost samples: 64 + 64 = 128, what the device's counter says (1128 − 1000).
+    expect(gaps).toEqual([{ sampleIndex: 128, kind: 'loss', lostFrames: 1, lostSamples: 64, expectedSequence: 1, receivedSequence: 2 }]);
   });
 
   it('follows the counter across its wrap at 2^32 and reads a backward counter as a resync', () => {

@@ -15,7 +15,10 @@ export interface SampleBlock {
   readonly samplesPerFrame: number;
   /** Wire frames: the frame's u16 sequence counter. Text lines: the block counter (mod 65536). */
   readonly sequence: number;
-  /** Absolute index of the block's first sample: samples delivered since start or reset (lost ones not counted). */
+  /**
+   * Absolute index of the block's first sample, counting lost samples as every index in the library does: samples
+   * delivered plus samples a sequence gap lost (a resync of unknown length counts as one), since start or reset.
+   */
   readonly sampleIndex: number;
   /** Sample rate sent with the frame in Hz, or NaN when absent. */
   readonly sampleRateHz: number;

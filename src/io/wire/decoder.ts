@@ -234,6 +234,9 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
       counters.gaps++;
       if (resync) counters.sequenceResyncs++;
       else counters.lostSamples += lostSamples;
+      // Indices count lost samples, as everywhere in the library; a resync's length is unknown, so it counts the
+      // least, one sample (the link reader does the same).
+      nextSampleIndex += resync ? 1 : lostSamples;
       // Gaps are rare: a fresh record each time lets the consumer keep it.
       onGap({
         sampleIndex: nextSampleIndex,
