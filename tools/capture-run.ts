@@ -16,6 +16,7 @@ import {
   createPhaseDomainEstimator,
   fastAtan2,
   wrapPhase,
+  adcMidScale,
   type AdcFormat,
   type AlarmEvent,
   type AlarmKind,
@@ -44,17 +45,7 @@ const BLOCK = 4096;
 
 /** The core's ADC format for a capture: from the file (header or `adc` metadata), else int16 for int16 WAV, else none stated. */
 export function adcOf(info: CaptureInfo): { adc: AdcFormat; stated: boolean } {
-  const adc = info.adc;
-  if (adc === null) return { adc: { kind: 'float', fullScale: Number.MAX_VALUE }, stated: false };
-  if (adc.kind === 'signed' && adc.bits === 16) return { adc: { kind: 'int16' }, stated: true };
-  if (adc.kind === 'unsigned') return { adc: { kind: 'unsigned', bits: adc.bits }, stated: true };
-  // Other signed widths and float: saturated at or beyond the largest code.
-  return { adc: { kind: 'float', fullScale: adc.max }, stated: true };
-}
-
-/** The code of a zero signal: mid-scale of offset-binary converters, else 0. */
-export function midScaleOf(adc: AdcFormat): number {
-  return adc.kind === 'unsigned' ? 2 ** (adc.bits - 1) : 0;
+  return info.adc === null ? { adc: { kind: 'float', fullScale: Number.MAX_VALUE }, stated: false } : { adc: info.adc, stated: true };
 }
 
 /**
@@ -458,7 +449,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   const alarmCounts: Record<AlarmKind, number> = { lowSignal: 0, saturation: 0, badSample: 0, overspeed: 0, inputGap: 0, countLost: 0, lowPower: 0 };
   const spans: AlarmSpan[] = [];
   const open = new Map<AlarmKind, number>();
-  const mid = midScaleOf(adc);
+  const mid = adcMidScale(adc);
   const rawKernel = createWasmFrontEnd({ precision: 'f64-exact' });
   const rawLevel = new Float32Array(BLOCK);
   const identity = Float64Array.of(1, 0, 0, 1, 0);

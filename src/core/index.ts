@@ -62,6 +62,7 @@ export {
 } from './fit/index.js';
 export {
   adcLimits,
+  adcMidScale,
   createSignalMonitor,
   type AdcFormat,
   type SignalMonitor,

@@ -60,6 +60,11 @@ export function adcLimits(adc: AdcFormat): { low: number; high: number } {
   return { low: -fullScale, high: fullScale };
 }
 
+/** The code of a zero signal: mid-scale of offset-binary converters, else 0. */
+export function adcMidScale(adc: AdcFormat): number {
+  return adc.kind === 'unsigned' ? 2 ** (adc.bits - 1) : 0;
+}
+
 export function createSignalMonitor(options: SignalMonitorOptions = {}): SignalMonitor {
   const adc = options.adc ?? { kind: 'int16' };
   const { low, high } = adcLimits(adc);

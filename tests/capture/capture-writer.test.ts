@@ -61,7 +61,7 @@ describe('capture writers', () => {
     expect(got.x).toEqual([0.1, 1e-300, 0]);
     expect(got.y).toEqual([NaN, Infinity, 7]);
     expect(got.t).toEqual([0, 1 / 3, 2 / 3]);
-    expect(got.info).toMatchObject({ rateHz: 3, rateSource: 'metadata', adc: { kind: 'signed', bits: 12 } });
+    expect(got.info).toMatchObject({ rateHz: 3, rateSource: 'metadata', adc: { kind: 'float', fullScale: 2047 } });
   });
 
   it('keeps the target absent until close, writing beside it under a .partial name', async () => {

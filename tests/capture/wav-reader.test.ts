@@ -59,7 +59,7 @@ describe('WAV capture reader', () => {
       channelNames: ['ch1', 'ch2'],
       sampleEncoding: 'int16',
       totalSamples: 4,
-      adc: { kind: 'signed', bits: 16, min: -32768, max: 32767 },
+      adc: { kind: 'int16' },
     });
   });
 
@@ -69,7 +69,8 @@ describe('WAV capture reader', () => {
     expect(got.x).toEqual([-8388608, -1]);
     expect(got.y).toEqual([8388607, 1]);
     expect(got.info.sampleEncoding).toBe('int24');
-    expect(got.info.adc).toEqual({ kind: 'signed', bits: 24, min: -8388608, max: 8388607 });
+    // 24-bit codes as a symmetric full scale at the largest code: both extreme codes read as saturated.
+    expect(got.info.adc).toEqual({ kind: 'float', fullScale: 8388607 });
   });
 
   it('reads 32-bit IEEE float as stored (IEEE 754 binary32: 0x3F800000 = 1, 0xBF000000 = -0.5, 0x3E800000 = 0.25)', async () => {

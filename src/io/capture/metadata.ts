@@ -1,6 +1,6 @@
 // The `# key: value` metadata convention of capture files and the keys the readers interpret (rate, ADC code range).
 import { CaptureFormatError } from './errors.js';
-import type { AdcFormat } from './types.js';
+import type { AdcFormat } from '../../core/index.js';
 
 /** Metadata key for the sample rate in Hz. */
 export const RATE_KEY = 'rate_hz';
@@ -44,7 +44,7 @@ export function parseAdcMetadata(metadata: ReadonlyMap<string, string>, place: M
     if (text === '' || !Number.isFinite(fullScale) || fullScale <= 0) {
       throw new CaptureFormatError({ ...place, expected: `"${ADC_FULL_SCALE_KEY}" to be a positive number`, got: text });
     }
-    return { kind: 'float', bits: Number.NaN, min: -fullScale, max: fullScale };
+    return { kind: 'float', fullScale };
   }
   const match = ADC_VALUE.exec(format);
   const bits = match === null ? 0 : Number(match[2]);
@@ -59,8 +59,12 @@ export function parseAdcMetadata(metadata: ReadonlyMap<string, string>, place: M
   return integerAdc(unsigned ? 'unsigned' : 'signed', bits);
 }
 
+/**
+ * An integer converter of `bits` bits as the core's saturation check takes it: signed 16 bits is `int16`, unsigned
+ * is offset binary, and other signed widths are a symmetric full scale at their largest code, so both extreme codes
+ * read as saturated.
+ */
 export function integerAdc(kind: 'signed' | 'unsigned', bits: number): AdcFormat {
-  return kind === 'signed'
-    ? { kind, bits, min: -(2 ** (bits - 1)), max: 2 ** (bits - 1) - 1 }
-    : { kind, bits, min: 0, max: 2 ** bits - 1 };
+  if (kind === 'unsigned') return { kind: 'unsigned', bits };
+  return bits === 16 ? { kind: 'int16' } : { kind: 'float', fullScale: 2 ** (bits - 1) - 1 };
 }

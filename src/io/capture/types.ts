@@ -1,4 +1,5 @@
 // Shapes shared by the capture readers and writers: options, file description and the sample block.
+import type { AdcFormat } from '../../core/index.js';
 
 /** How the samples are stored in the file. */
 export type SampleEncoding = 'int16' | 'int24' | 'float32' | 'integer-text' | 'decimal-text';
@@ -7,18 +8,6 @@ export type CaptureFormat = 'csv' | 'wav';
 
 /** A channel picked by name (`"x"`, `"ch2"`) or by 1-based position (column 1 is the first CSV column, channel 1 the first WAV channel). */
 export type ChannelSelector = string | number;
-
-/**
- * The converter's code range, so the pipeline can tell a clipped sample. `min`/`max` are the extreme values a sample
- * can take in the units delivered (ADC counts for integers, the stored value for float).
- */
-export interface AdcFormat {
-  readonly kind: 'signed' | 'unsigned' | 'float';
-  /** Bits per sample for integer kinds; 32 for float32 WAV; NaN for text floats of unknown width. */
-  readonly bits: number;
-  readonly min: number;
-  readonly max: number;
-}
 
 /** Where `rateHz` came from. */
 export type RateSource = 'option' | 'header' | 'metadata' | 't-column';
@@ -43,7 +32,10 @@ export interface CaptureInfo {
   readonly totalSamples: number | null;
   /** Key/value pairs from `# key: value` lines (CSV) or the LIST/INFO comment (WAV), in file order. */
   readonly metadata: ReadonlyMap<string, string>;
-  /** Code range from the WAV header or the `adc` metadata key; null when the file does not say. */
+  /**
+   * The converter's format from the WAV header or the `adc` metadata key, as the pipeline's saturation check takes
+   * it (the core's type, see `integerAdc` for integer widths); null when the file does not say.
+   */
   readonly adc: AdcFormat | null;
   /** Things the file does not agree with itself about that do not stop reading it (e.g. WAV chunk sizes), in words. */
   readonly warnings: readonly string[];

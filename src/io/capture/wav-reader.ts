@@ -6,7 +6,8 @@ import { integerAdc } from './metadata.js';
 import type { ResolvedCaptureOptions } from './resolved-options.js';
 import { singlePassCapture } from './single-pass.js';
 import { OptionError } from '../../core/options.js';
-import type { AdcFormat, Capture, CaptureInfo, ChannelSelector } from './types.js';
+import type { AdcFormat } from '../../core/index.js';
+import type { Capture, CaptureInfo, ChannelSelector } from './types.js';
 import { readWavLayout, type WavLayout } from './wav-header.js';
 
 export async function openWavCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions): Promise<Capture> {
@@ -183,5 +184,5 @@ function pickChannel(file: string, layout: WavLayout, names: readonly string[], 
 function adcOf(layout: WavLayout): AdcFormat {
   if (layout.encoding === 'int16') return integerAdc('signed', 16);
   if (layout.encoding === 'int24') return integerAdc('signed', 24);
-  return { kind: 'float', bits: 32, min: -1, max: 1 };
+  return { kind: 'float', fullScale: 1 };
 }

@@ -1,18 +1,14 @@
 // The sample block both decoders hand out, the input-gap record, and the per-axis split the pipeline needs.
 import type { SampleArray } from '../../core/index.js';
+import type { FrameBlock } from '../../stream/index.js';
 
 /**
- * A block of interleaved int16 samples: `samples[s * channelCount + c]` is sample s of channel c.
- * Channel 2k is x and channel 2k + 1 is y of axis k.
+ * The stream layer's `FrameBlock` (interleaved int16 samples, channel 2k is x and 2k + 1 is y of axis k) as the
+ * decoders hand it out, with what the link tells about it: sequence, index, rate, device time and edges. One
+ * concept, one type: a decoder's block goes into `deinterleaveAxis` or `createAxes` as it is.
  * The object and its `samples` view are reused: read them inside the callback, copy what must outlive it.
  */
-export interface SampleBlock {
-  /** Interleaved values, length channelCount × samplesPerFrame. */
-  readonly samples: Int16Array;
-  /** Even, 2..16. */
-  readonly channelCount: number;
-  /** Samples per channel in this block. */
-  readonly samplesPerFrame: number;
+export interface SampleBlock extends FrameBlock {
   /** Wire frames: the frame's u16 sequence counter. Text lines: the block counter (mod 65536). */
   readonly sequence: number;
   /**
