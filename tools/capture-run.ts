@@ -14,6 +14,7 @@ import {
   createHarmonicEstimator,
   createCorrection,
   createPhaseDomainEstimator,
+  createAnalysisSchedule,
   fastAtan2,
   wrapPhase,
   adcMidScale,
@@ -277,6 +278,8 @@ export interface RunResult {
   readonly beforeNotApplicable: string | null;
   /** The corrected phase's periodic error, in the phase domain (see createPhaseDomainEstimator): any motion a cubic follows over 512 samples. */
   readonly after: PeriodicErrorResult;
+  /** The periodic-error and radius analyses looked at every `analysedEvery`-th block of 4096 samples (1: all of them; see createAnalysisSchedule). */
+  readonly analysedEvery: number;
   /** Where the signal left the calibration's model (`calibration_stale`, see createModelWatch): the first events, and how often it was raised. */
   /** The harmonic estimate asked for by `estimateHarmonics`, else null. */
   readonly harmonicEstimate: HarmonicEstimate | null;
@@ -321,6 +324,8 @@ export interface RunOptions {
    * set once per block, at the block's middle. It rescales the reading, never the fringe count.
    */
   readonly refractiveIndexAt?: (tS: number) => number;
+  /** Samples the periodic-error and radius analyses look at before they take every n-th block (createAnalysisSchedule); default 2^20. */
+  readonly analysisBudgetSamples?: number;
 }
 
 const MAX_SPANS = 1000;
@@ -340,26 +345,19 @@ function rawPhases(kernel: WasmFrontEnd | null, xs: Float64Array, ys: Float64Arr
   return kernel.process(xs, ys, n, identity, -Infinity, Infinity, Number.MIN_VALUE, level, 0, 0);
 }
 
-/**
- * Per-sample analysis of one block: which samples are trustworthy, and the uncorrected phase's error (from
- * `raw`, the uncorrected phases, when given). A plain function, so V8 optimises its loop (it would not inside the
- * async replay loop).
- */
-function beforeAndValid(
-  xs: Float64Array,
-  ys: Float64Array,
-  n: number,
-  raw: Float64Array | null,
-  unwrappedPhaseRad: Float64Array,
-  flags: Uint8Array,
-  beforeError: Float64Array,
-  valid: Uint8Array,
-  mid: number,
-): void {
+/** Which samples are trustworthy: the signal itself is not in doubt. */
+function validOf(flags: Uint8Array, n: number, valid: Uint8Array): void {
   const trouble = SIGNAL_TROUBLE;
   for (let i = 0; i < n; i++) valid[i] = (flags[i]! & trouble) === 0 ? 1 : 0;
-  if (raw !== null) for (let i = 0; i < n; i++) beforeError[i] = wrapPhase(raw[i]! - unwrappedPhaseRad[i]!);
-  else for (let i = 0; i < n; i++) beforeError[i] = wrapPhase(fastAtan2(ys[i]! - mid, xs[i]! - mid) - unwrappedPhaseRad[i]!);
+}
+
+/**
+ * The uncorrected phase's error against the corrected one (from `raw`, the uncorrected phases, when given). A plain
+ * function, so V8 optimises its loop (it would not inside the async replay loop).
+ */
+function beforeError(xs: Float64Array, ys: Float64Array, n: number, raw: Float64Array | null, unwrappedPhaseRad: Float64Array, error: Float64Array, mid: number): void {
+  if (raw !== null) for (let i = 0; i < n; i++) error[i] = wrapPhase(raw[i]! - unwrappedPhaseRad[i]!);
+  else for (let i = 0; i < n; i++) error[i] = wrapPhase(fastAtan2(ys[i]! - mid, xs[i]! - mid) - unwrappedPhaseRad[i]!);
 }
 
 interface PowerState {
@@ -427,7 +425,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     power: new Float32Array(BLOCK),
   };
   const power: PowerState = { min: Infinity, max: -Infinity, sum: 0, count: 0 };
-  const beforeError = new Float64Array(BLOCK);
+  const errorBefore = new Float64Array(BLOCK);
   const valid = new Uint8Array(BLOCK);
   const before = createPeriodicErrorAnalyzer();
   const after = createPhaseDomainEstimator();
@@ -453,6 +451,8 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   const rawKernel = createWasmFrontEnd({ precision: 'f64-exact' });
   const rawLevel = new Float32Array(BLOCK);
   const identity = Float64Array.of(1, 0, 0, 1, 0);
+  const schedule = createAnalysisSchedule({ blockSamples: BLOCK, totalSamples: info.totalSamples, budgetSamples: options.analysisBudgetSamples });
+  let blockIndex = 0;
   const secondsPerSample = 1 / info.rateHz;
   const metresPerRad = pipeline.stages.displacement.metresPerFringe / (2 * Math.PI);
   let samples = 0;
@@ -488,8 +488,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
           if (start !== undefined && spans.length < MAX_SPANS) spans.push({ kind: event.kind, startS: start, endS: t });
         }
       }
-      const raw = rawPhases(rawKernel, block.x, block.y, n, mid, rawLevel, identity);
-      beforeAndValid(block.x, block.y, n, raw, output.unwrappedPhaseRad, output.flags, beforeError, valid, mid);
+      validOf(output.flags, n, valid);
       if (combined !== null) {
         powerFigures(output, n, power);
         powerSeries.add(output.power, n, block.t, block.firstIndex, secondsPerSample);
@@ -497,13 +496,20 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
       position.add(output.positionM, n, block.t, block.firstIndex, secondsPerSample);
       velocity.add(output.velocityMS, n, block.t, block.firstIndex, secondsPerSample);
       figure.add(block.x, block.y, n, combined === null ? null : output);
-      before.add(output.unwrappedPhaseRad, beforeError, n, valid);
-      after.process(output.unwrappedPhaseRad, valid, n);
       estimator?.add(output.unwrappedPhaseRad, n, valid);
       // The radius analyses run on the corrected pair: two outputs through the ellipse correction, three or four
       // power-normalised (above).
       if (combined === null) correction.process(block.x, block.y, correctedU, correctedV, n);
-      residual.add(correctedU, correctedV, n, valid);
+      if (schedule.take(blockIndex++)) {
+        const raw = rawPhases(rawKernel, block.x, block.y, n, mid, rawLevel, identity);
+        beforeError(block.x, block.y, n, raw, output.unwrappedPhaseRad, errorBefore, mid);
+        before.add(output.unwrappedPhaseRad, errorBefore, n, valid);
+        after.process(output.unwrappedPhaseRad, valid, n);
+        residual.add(correctedU, correctedV, n, valid);
+      } else {
+        after.skip(n);
+        residual.skip(n);
+      }
       const already = watchEvents.length;
       watch.process(correctedU, correctedV, n, block.firstIndex, watchEvents, valid);
       for (let k = already; k < watchEvents.length; k++) if (watchEvents[k]!.state === 'raised') watchRaised++;
@@ -538,6 +544,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
         ? 'the signals are unipolar (DC-coupled): the zero of the converter lies outside the figure, so the phase about it is not a fringe phase'
         : null,
     after: toMetres(after),
+    analysedEvery: schedule.every,
     harmonicEstimate: estimator === null ? null : estimator.solve(),
     modelWatch: { events: watchEvents, raised: watchRaised, activeAtEnd: watch.active, options: watch.options },
     residual: { summary: residual.summary(), byPhase: residual.radiusByPhase(), overTime: residual.radiusOverTime() },

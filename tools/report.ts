@@ -60,11 +60,17 @@ function periodicRow(label: string, result: PeriodicErrorResult, metresPerRad: n
   );
 }
 
+/** A long capture's analyses take every n-th block (createAnalysisSchedule): said where their figures are. */
+function analysedShare(run: RunResult): string {
+  return `one block of 4096 samples in every ${run.analysedEvery}, spread over the whole capture`;
+}
+
 export function formatPeriodicError(run: RunResult): string[] {
   return [
     'periodic error (amplitudes of the harmonics; p-p and RMS of the phase-binned mean):',
     run.beforeNotApplicable === null ? periodicRow('  before', run.before, run.metresPerRad) : `  before  not applicable: ${run.beforeNotApplicable}`,
     periodicRow('  after ', run.after, run.metresPerRad),
+    ...(run.analysedEvery > 1 ? [`  (periodic error and radius analysed on ${analysedShare(run)})`] : []),
   ];
 }
 
@@ -414,6 +420,7 @@ export function reportHtml(input: ReportInput): string {
   };
   pe('before correction', run.before);
   pe('after correction', run.after);
+  if (run.analysedEvery > 1) rows.push(['periodic error and radius analysed on', analysedShare(run)]);
   rows.push(['final position', `${(run.finalPositionM * 1e6).toFixed(6)} µm${run.countLostAtEnd ? ' — COUNT LOST: not trustworthy' : ''}`]);
   rows.push(['unambiguous speed limit', `${sig(run.speedLimits.unambiguousMS)} m/s (overspeed alarm at ${sig(run.speedLimits.overspeedMS)} m/s)`]);
   rows.push(['alarms raised', alarmKinds.map((kind) => `${alarmNames[kind]} ${run.alarmCounts[kind]}`).join(', ')]);

@@ -155,6 +155,7 @@ export {
   type WindowDetrender,
   type WindowDetrenderOptions,
 } from './periodic-error.js';
+export { createAnalysisSchedule, type AnalysisSchedule, type AnalysisScheduleOptions } from './analysis-schedule.js';
 export {
   createTruthComparison,
   type TruthComparison,

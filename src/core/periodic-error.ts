@@ -225,6 +225,11 @@ export interface PhaseDomainOptions {
 export interface PhaseDomainEstimator {
   /** Unwrapped corrected phase (rad) and a 0/1 mask of trustworthy samples; windows with a masked sample are left out. */
   process(unwrappedPhaseRad: ArrayLike<number>, valid: ArrayLike<number>, length: number): void;
+  /**
+   * Lets `length` samples pass unanalysed, exactly as `process` with all of them masked (the windows they touch are
+   * left out), at no per-sample cost: for an analysis of every n-th block of a long run.
+   */
+  skip(length: number): void;
   /** The periodic error e(φ) = Σ a_k cos kφ + b_k sin kφ found, summarised as the binned analyzer does. */
   summary(): PeriodicErrorSummary;
   /** e(φ) at the bin centres, rad (NaN before any window was used). */
@@ -310,9 +315,20 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
     const origin = phase[0]!;
     for (let j = 0; j < size; j++) {
       const p = phase[j]!;
-      for (let k = 1; k <= orders; k++) {
-        harmonic[(2 * k - 2) * size + j] = Math.cos(k * p);
-        harmonic[(2 * k - 1) * size + j] = Math.sin(k * p);
+      // cos kφ, sin kφ by angle addition from cos φ, sin φ: two calls instead of 2·orders, within a few units in
+      // the last place of Math.cos(kφ) (orders ≤ 8; tests/core/phase-domain.test.ts holds the estimate to them).
+      const c1 = Math.cos(p);
+      const s1 = Math.sin(p);
+      let ck = c1;
+      let sk = s1;
+      harmonic[j] = c1;
+      harmonic[size + j] = s1;
+      for (let k = 2; k <= orders; k++) {
+        const next = ck * c1 - sk * s1;
+        sk = sk * c1 + ck * s1;
+        ck = next;
+        harmonic[(2 * k - 2) * size + j] = ck;
+        harmonic[(2 * k - 1) * size + j] = sk;
       }
       harmonicPhase[j] = p;
       phase[j] = p - origin;
@@ -407,6 +423,12 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
           clean = true;
         }
       }
+    },
+    skip(length) {
+      if (!(length > 0)) return;
+      // A window that ends inside the skipped stretch is dropped as a masked one would be; the next starts clean.
+      filled = (filled + length) % size;
+      clean = filled === 0;
     },
     summary,
     binnedMeanRad,

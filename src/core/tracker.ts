@@ -106,8 +106,9 @@ function steadyBlock(
   loop: Float64Array,
 ): boolean {
   const pi = Math.PI, twoPi = TWO_PI, toResidual = 1 / (alpha - 1);
-  let last = lastPhase;
-  let turnsNow = turns;
+  // `- 0` (an identity) types them as numbers: from closure variables they stayed boxed, a heap number a sample.
+  let last = lastPhase - 0;
+  let turnsNow = turns - 0;
   let w = loop[0]!;
   let lag = loop[1]!;
   let noise = loop[2]!;
@@ -255,7 +256,7 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
     // State in locals for the loop: V8 keeps them in registers rather than in the closure's context.
     const a = alpha, b = beta, minLev = minLevel, lostStep = countLostStepRad, overStep = overspeedStepRad;
     const overClear = 0.9 * overspeedStepRad, hold = clearHoldSamples, travelLimit = heldTravelRad;
-    const pi = Math.PI, twoPi = TWO_PI, overspeedBit = 8, countLostBit = 32; // AlarmBit.overspeed, AlarmBit.countLost
+    const pi = Math.PI, twoPi = TWO_PI; // 8 and 32 below: AlarmBit.overspeed, AlarmBit.countLost
     const maxStep = aided ? AIDED_MAX_STEP_RAD : Infinity;
     const toResidual = 1 / (a - 1), compensated = a - b / 2;
     let turnsNow = turns, last = lastPhase, w = step, lagNow = lag, travel = heldTravel, resume = resuming;
@@ -270,7 +271,7 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
       lagNow = loopState[1]!;
       noiseNow = loopState[2]!;
       recent = loopState[3]!;
-      if (lost) for (let i = 0; i < length; i++) flags[i] |= countLostBit;
+      if (lost) for (let i = 0; i < length; i++) flags[i] |= 32;
       turnsNow = turnsOut[length - 1]!;
       last = phaseOut[length - 1]!;
     } else for (let i = 0; i < length; i++) {
@@ -360,7 +361,7 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
       turnsOut[i] = turnsNow;
       phaseOut[i] = last;
       stepOut[i] = w;
-      flags[i] |= (over ? overspeedBit : 0) | (lost ? countLostBit : 0);
+      flags[i] |= (over ? 8 : 0) | (lost ? 32 : 0);
     }
     flags[0] |= firstBits;
     turns = turnsNow;

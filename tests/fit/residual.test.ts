@@ -99,4 +99,47 @@ describe('residual analysis', () => {
       { numRuns: 10 },
     );
   });
+
+  it('skip(n) gives the same result as n unused samples, for any blocks', () => {
+    const { u, v } = signal((_, p, n) => [1.01 * Math.cos(p) + 0.002 * n(), Math.sin(p) * (1 + 0.003 * Math.cos(3 * p)) + 0.002 * n()]);
+    fc.assert(
+      fc.property(fc.array(fc.tuple(fc.integer({ min: 1, max: 20_000 }), fc.boolean()), { minLength: 1, maxLength: 20 }), (blocks) => {
+        const unused = createResidualAnalyzer();
+        const skipping = createResidualAnalyzer();
+        const zeros = new Uint8Array(N);
+        let start = 0;
+        for (const [length, skip] of blocks) {
+          const n = Math.min(length, N - start);
+          const [bu, bv] = [u.subarray(start, start + n), v.subarray(start, start + n)];
+          unused.add(bu, bv, n, skip ? zeros : undefined);
+          if (skip) skipping.skip(n);
+          else skipping.add(bu, bv, n);
+          start += n;
+        }
+        // One more analysed sample, so that both have seen the same run length in their time segments.
+        unused.add(u, v, 1);
+        skipping.add(u, v, 1);
+        expect(skipping.summary()).toEqual(unused.summary());
+        expect(Array.from(skipping.radiusByPhase())).toEqual(Array.from(unused.radiusByPhase()));
+        expect(skipping.radiusOverTime()).toEqual(unused.radiusOverTime());
+      }),
+      { numRuns: 20 },
+    );
+  });
+
+  it('compares the drift of a run analysed one block in four (skip), segments holding a quarter of their samples', () => {
+    const { u, v } = signal((i, p, n) => {
+      const r = 1 + 0.04 * (i / N); // invented: the radius grows by 4 % over the run
+      return [r * Math.cos(p) + 0.002 * n(), r * Math.sin(p) + 0.002 * n()];
+    });
+    const every = createResidualAnalyzer();
+    const quarter = createResidualAnalyzer();
+    for (let start = 0, block = 0; start < N; start += 1024, block++) {
+      every.add(u.subarray(start, start + 1024), v.subarray(start, start + 1024), 1024);
+      if (block % 4 === 0) quarter.add(u.subarray(start, start + 1024), v.subarray(start, start + 1024), 1024);
+      else quarter.skip(1024);
+    }
+    expect(every.summary().radiusDriftRelative).toBeCloseTo(0.04, 2);
+    expect(quarter.summary().radiusDriftRelative).toBeCloseTo(0.04, 2);
+  });
 });

@@ -77,7 +77,9 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
 
   /** The running means over a block, from (u, v) or from radii in `a` (`radiusGiven`), and the alarm's state. */
   function watch(a: ArrayLike<number>, b: ArrayLike<number>, radiusGiven: boolean, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void {
-    let w = weight, s = sum, q = squares;
+    // `- 0` (an identity) types them as numbers: a loop that starts from closure variables kept them boxed and
+    // allocated a heap number per sample (48 bytes a sample, 16 % of a replay's time in GC).
+    let w = weight - 0, s = sum - 0, q = squares - 0;
     for (let i = 0; i < length; i++) {
       const ai = a[i]!;
       const bi = b[i]!;

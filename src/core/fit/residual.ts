@@ -67,6 +67,8 @@ export interface ResidualAnalyzer {
    * values are counted in time but not analysed. Never allocates.
    */
   add(u: ArrayLike<number>, v: ArrayLike<number>, length: number, use?: ArrayLike<number>): void;
+  /** Lets `length` samples pass unanalysed, exactly as `add` with all of them unused (counted in time only). */
+  skip(length: number): void;
   summary(): ResidualSummary;
   /** Mean radius − 1 per phase bin, bin b covering [2πb/bins − π, 2π(b+1)/bins − π); NaN where empty. */
   radiusByPhase(): Float64Array;
@@ -93,9 +95,9 @@ export function createResidualAnalyzer(options: ResidualAnalyzerOptions = {}): R
   const squares = new Float64Array(NOISE_LEVELS);
   const differences = new Float64Array(NOISE_LEVELS);
   let segmentSamples = 1; // samples per segment, doubling as the capture grows
-  let sampleIndex = 0;
-  let analysed = 0;
-  let radiusSum = 0;
+  // Sample index, samples analysed and Σ radius, in a typed array: the loop keeps closure numbers boxed and
+  // allocated a heap number per sample.
+  const totals = new Float64Array(3);
 
   function pushNoise(value: number): void {
     for (let level = 0; level < NOISE_LEVELS; level++) {
@@ -139,6 +141,7 @@ export function createResidualAnalyzer(options: ResidualAnalyzerOptions = {}): R
   }
 
   function add(u: ArrayLike<number>, v: ArrayLike<number>, length: number, use?: ArrayLike<number>): void {
+    let sampleIndex = totals[0]!, analysed = totals[1]!, radiusSum = totals[2]!;
     for (let i = 0; i < length; i++, sampleIndex++) {
       const ui = u[i]!;
       const vi = v[i]!;
@@ -169,6 +172,9 @@ export function createResidualAnalyzer(options: ResidualAnalyzerOptions = {}): R
       analysed++;
       radiusSum += r;
     }
+    totals[0] = sampleIndex;
+    totals[1] = analysed;
+    totals[2] = radiusSum;
   }
 
   /** Cosine and sine coefficients of r − 1 per order (index k), from the binned means; false when too few bins hold samples. */
@@ -222,9 +228,12 @@ export function createResidualAnalyzer(options: ResidualAnalyzerOptions = {}): R
       segmentMeans(means, a, b, true);
       let low = Infinity;
       let high = -Infinity;
+      // A segment with under half the samples of the fullest (the last one, or one mostly masked) is too noisy to
+      // compare; the fullest, not the segment's length, so that a run analysed block by block (skip) compares too.
+      let fullest = 0;
+      for (let k = 0; k < segments; k++) fullest = Math.max(fullest, segmentSums[k * stride + 1]!);
       for (let k = 0; k < segments; k++) {
-        // A segment with under half its samples (the last one, or one mostly masked) is too noisy to compare.
-        if (!(segmentSums[k * stride + 1]! >= segmentSamples / 2)) continue;
+        if (!(segmentSums[k * stride + 1]! >= fullest / 2)) continue;
         low = Math.min(low, means[k]!);
         high = Math.max(high, means[k]!);
       }
@@ -244,9 +253,9 @@ export function createResidualAnalyzer(options: ResidualAnalyzerOptions = {}): R
     }
     const slope = levels >= 3 ? (levels * sxy - sx * sy) / (levels * sxx - sx * sx) : NaN;
     return {
-      samples: analysed,
+      samples: totals[1]!,
       binCoverage,
-      meanRadius: analysed > 0 ? radiusSum / analysed : NaN,
+      meanRadius: totals[1]! > 0 ? totals[2]! / totals[1]! : NaN,
       radiusHarmonics,
       radiusHarmonicPhasesRad,
       radiusDriftRelative,
@@ -283,14 +292,15 @@ export function createResidualAnalyzer(options: ResidualAnalyzerOptions = {}): R
     squares.fill(0);
     differences.fill(0);
     segmentSamples = 1;
-    sampleIndex = 0;
-    analysed = 0;
-    radiusSum = 0;
+    totals.fill(0);
   }
 
   reset();
   return {
     add,
+    skip(length) {
+      if (length > 0) totals[0] += length;
+    },
     summary,
     radiusByPhase() {
       return binSums.map((sum, bin) => (binCounts[bin]! > 0 ? sum / binCounts[bin]! : NaN));
