@@ -73,6 +73,55 @@ describe('CSV reader properties', () => {
   });
 });
 
+// Number texts as acquisition software writes them: signs, exponents of either case and sign, points at either
+// end, leading zeros, and mantissas too long for the one-pass row parser (which leaves those rows to the general
+// parser). Reference: ECMAScript Number() (StringToNumber), which rounds decimal text correctly to the nearest double.
+const numberText = fc.oneof(
+  fc.tuple(fc.double({ min: -1e6, max: 1e6, noNaN: true }), fc.integer({ min: 0, max: 20 })).map(([v, d]) => v.toFixed(d)),
+  fc.tuple(fc.double({ noNaN: true, noDefaultInfinity: true }), fc.integer({ min: 0, max: 20 })).map(([v, d]) => v.toExponential(d)),
+  fc.stringMatching(/^[+-]?[0-9]{1,18}(\.[0-9]{0,18})?([eE][+-]?[0-9]{1,3})?$/),
+  fc.stringMatching(/^[+-]?\.[0-9]{1,12}$/),
+  fc.integer({ min: -40_000, max: 40_000 }).map(String),
+);
+
+describe('CSV number texts', () => {
+  it('reads every number text as Number() does, whatever the chunk and block sizes', async () => {
+    await fc.assert(
+      fc.asyncProperty(fc.array(fc.tuple(numberText, numberText, fc.boolean()), { minLength: 1, maxLength: 80 }), sizes, async (rows, options) => {
+        const text = `# rate_hz: 1\nx,y\n${rows.map(([x, y, crlf]) => `${x},${y}${crlf ? '\r\n' : '\n'}`).join('')}`;
+        const got = await collect(write('csv', text), options);
+        expect(got.error).toBeNull();
+        const same = (a: readonly number[], b: readonly number[]) => a.length === b.length && a.every((v, i) => Object.is(v, b[i]));
+        expect(same(got.x, rows.map(([x]) => Number(x)))).toBe(true);
+        expect(same(got.y, rows.map(([, y]) => Number(y)))).toBe(true);
+      }),
+      { numRuns: 200 },
+    );
+  });
+
+  it('names the file and line of a field that is not a number, after the good rows before it', async () => {
+    await fc.assert(
+      fc.asyncProperty(
+        fc.array(fc.tuple(numberText, numberText), { maxLength: 60 }),
+        fc.constantFrom('1e', '--1', '1.2.3', '.', '+', '1e+', '0x10', '12abc', 'e5', '1 2'),
+        fc.boolean(),
+        sizes,
+        async (rows, bad, inX, options) => {
+          const path = write('csv', `# rate_hz: 1\nx,y\n${rows.map(([x, y]) => `${x},${y}\n`).join('')}${inX ? `${bad},1` : `1,${bad}`}\n2,2\n`);
+          const got = await collect(path, options);
+          expect(got.x.map((v) => Object.is(v, -0) ? 'neg0' : v)).toEqual(rows.map(([x]) => Object.is(Number(x), -0) ? 'neg0' : Number(x)));
+          expect(got.error).toBeInstanceOf(CaptureFormatError);
+          const error = got.error as CaptureFormatError;
+          expect(error.line).toBe(rows.length + 3);
+          expect(error.message).toContain(`${path} line ${rows.length + 3}`);
+          expect(error.message).toContain(`column "${inX ? 'x' : 'y'}"`);
+        },
+      ),
+      { numRuns: 150 },
+    );
+  });
+});
+
 describe('WAV reader properties', () => {
   const encodings = [
     { bits: 16, tag: 1, min: -32768, max: 32767 },

@@ -2,7 +2,7 @@
 import type { FileHandle } from 'node:fs/promises';
 import { CaptureFormatError } from './errors.js';
 import { parseAdcMetadata, parseMetadataLine, parseRateMetadata, RATE_KEY } from './metadata.js';
-import { createParsedNumber, parseNumberBytes, type ParsedNumber } from './parse-number.js';
+import { createParsedNumber, FastRowParser, parseNumberBytes, type ParsedNumber } from './parse-number.js';
 import type { ResolvedCaptureOptions } from './resolved-options.js';
 import { singlePassCapture } from './single-pass.js';
 import type { Capture, CaptureInfo, ChannelSelector, RateSource } from './types.js';
@@ -196,6 +196,7 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
   const yBuffer = new Float64Array(blockSize);
   const tBuffer = plan.t === -1 ? null : new Float64Array(blockSize);
   let pendingError: Error | null = null;
+  const fastRows = new FastRowParser(plan);
 
   async function fillBlock(): Promise<number> {
     if (pendingError !== null) throw pendingError;
@@ -203,6 +204,15 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
     try {
       while (count < blockSize) {
         if (bufferStart === bufferEnd && !(await refill())) break;
+        // Whole rows of plain numbers in one pass over the chunk; anything else (a comment, a blank or bad row, a
+        // number the fast path does not take, the chunk's last partial line) goes to the row parser below.
+        const rows = fastRows.parse(buffer, bufferStart, bufferEnd, count, blockSize, xBuffer, yBuffer, tBuffer, extraBuffers);
+        if (rows > 0) {
+          count += rows;
+          lineNumber += rows;
+          bufferStart = fastRows.position;
+          continue;
+        }
         const newline = rowParser.parse(buffer, bufferStart, bufferEnd, endOfFile, count, xBuffer, yBuffer, tBuffer);
         if (newline === -1) {
           await refill();
