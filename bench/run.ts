@@ -15,7 +15,7 @@ import { liveBenchmarks } from './cases/live.js';
 import { cCases, JS_MINIMAL_CASE, jsMinimalCase, machine } from './cases/reference.js';
 import { replayCases } from './cases/replay.js';
 import { toolCases } from './cases/tools.js';
-import { listenCases } from './cases/listen.js';
+import { listenCases, listenMemoryCases } from './cases/listen.js';
 import { streamCase, streamCaseNames } from './cases/stream.js';
 import { measure, type BenchResult } from './harness.js';
 
@@ -31,6 +31,7 @@ const { values } = parseArgs({
     tools: { type: 'boolean', default: false },
     'tools-samples': { type: 'string', default: String(3e7) },
     'tools-memory-samples': { type: 'string', default: `${1e7},${1e8}` },
+    'listen-memory-samples': { type: 'string', default: `${1e7},${1e8}` },
     all: { type: 'boolean', default: false },
     'heap-samples': { type: 'string', default: String(1e8) },
     case: { type: 'string' },
@@ -120,13 +121,18 @@ if (values.replay || values.all) {
 let tools: Record<string, number> | null = null;
 if (values.tools || values.all) {
   const [short, long] = values['tools-memory-samples'].split(',').map(Number) as [number, number];
-  const measured = [...(await toolCases({ samples: Number(values['tools-samples']), memorySamples: [short, long] })), ...(await listenCases())];
+  const listenLengths = values['listen-memory-samples'].split(',').map(Number) as [number, number];
+  const measured = [
+    ...(await toolCases({ samples: Number(values['tools-samples']), memorySamples: [short, long] })),
+    ...(await listenCases()),
+    ...(await listenMemoryCases(listenLengths)),
+  ];
   results.push(...measured);
   log('measured calibrate and replay end to end');
   // The tools against the bare default pipeline of this run (wall clock, start-up included, against CPU time).
   const bare = results.find((result) => result.name === 'pipeline/int16/block4096')!.samplesPerSecond;
   tools = Object.fromEntries(
-    measured.filter((result) => result.name.endsWith('/end-to-end') || result.name.startsWith('listen/')).map((result) => [result.name, result.samplesPerSecond / bare]),
+    measured.filter((result) => result.name.endsWith('/end-to-end') || (result.name.startsWith('listen/') && Number.isFinite(result.samplesPerSecond))).map((result) => [result.name, result.samplesPerSecond / bare]),
   );
 }
 if (values.stream || values.all) {

@@ -1,10 +1,14 @@
 // `--tools` also measures listen's chain without a serial port: wire frames (2 channels, 256 samples a frame,
 // the core cases' int16 signal) pushed in 4096-byte chunks from an in-memory byte source through the live session
 // (decoder, pipeline) into the result writer (CSV, every row; --every 10000 beside it), as `listen` runs them.
-// Wall clock and process CPU time from the first chunk to the session's end.
+// Wall clock and process CPU time from the first chunk to the session's end. Memory: the same chain over 10^7 and
+// 10^8 samples (frames encoded as they are fed, --every 10000), each in a process of its own, and the growth of its
+// peak resident memory between them: it must not grow with the run.
+import { spawnSync } from 'node:child_process';
 import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { fileURLToPath, pathToFileURL } from 'node:url';
 import type { EllipseCalibration } from '../../src/core/index.js';
 import { createResultWriter } from '../../src/io/results/index.js';
 import { createManualByteSource } from '../../src/io/serial/index.js';
@@ -66,6 +70,99 @@ async function listenOnce(chunks: readonly Uint8Array[], out: string, every: num
   return { wall: Number(process.hrtime.bigint() - wallStart) / 1e9, cpu: (cpu.user + cpu.system) / 1e6 };
 }
 
+/**
+ * Listen's chain over `samples` samples, --every 10000, with the frames encoded as they are fed (the bench signal
+ * repeated), yielding to the event loop after every chunk so the session keeps up as it would with a port.
+ */
+async function listenStream(samples: number, out: string): Promise<void> {
+  const cycle = 1 << 20; // the signal repeated: 2^20 samples, so the process holds little beside the chain
+  const { x, y } = benchSignal(cycle);
+  const frameBytes = wireFrameLength(2, SAMPLES_PER_FRAME, 1);
+  const framesPerChunk = 16;
+  const chunk = new Uint8Array(framesPerChunk * frameBytes);
+  const interleaved = new Int16Array(2 * SAMPLES_PER_FRAME);
+  const writer = await createResultWriter(out, { format: 'csv', every: 10_000 });
+  const source = createManualByteSource();
+  let stopped = '';
+  const session = createLiveSession({
+    source,
+    track: { axes: [{ wavelengthM: 632.9908e-9, fold: 2, refractiveIndex: 1, calibration: ellipse }] },
+    maxBufferedBytes: 1 << 20,
+    sinks: [
+      {
+        name: 'rows',
+        positions({ summaries, rateHz }) {
+          const { firstSampleIndex, length, output } = summaries[0]!;
+          const block = { firstIndex: firstSampleIndex, length, rateHz, positionM: output.positionM.slice(0, length), velocityMS: output.velocityMS.slice(0, length), level: output.level.slice(0, length), flags: output.flags.slice(0, length) };
+          return () => writer.write(block);
+        },
+      },
+    ],
+  }).start();
+  void session.done.then((summary) => {
+    stopped = summary.stopReason;
+  });
+  source.linkUp();
+  const frames = Math.ceil(samples / SAMPLES_PER_FRAME);
+  for (let f = 0; f < frames && stopped === ''; f += framesPerChunk) {
+    const count = Math.min(framesPerChunk, frames - f);
+    for (let k = 0; k < count; k++) {
+      const at = ((f + k) * SAMPLES_PER_FRAME) % cycle;
+      for (let i = 0; i < SAMPLES_PER_FRAME; i++) {
+        interleaved[2 * i] = x[at + i]!;
+        interleaved[2 * i + 1] = y[at + i]!;
+      }
+      encodeWireFrame({ sequence: (f + k) % 65536, channelCount: 2, samplesPerFrame: SAMPLES_PER_FRAME, sampleRateHz: 10_000_000 }, interleaved, chunk, k * frameBytes);
+    }
+    // A copy per chunk, as a port hands out a new buffer each time.
+    source.write(chunk.slice(0, count * frameBytes));
+    await new Promise((resolve) => setImmediate(resolve));
+  }
+  source.end();
+  const summary = await session.done;
+  await writer.close();
+  if (summary.stopReason !== 'source ended') throw new Error(`listen chain stopped: ${summary.stopReason}`);
+}
+
+const USAGE = fileURLToPath(new URL('../report-usage.js', import.meta.url));
+
+/** Peak resident memory of listen's chain over 10^7 and 10^8 samples, each in a process of its own. */
+export async function listenMemoryCases(lengths: readonly [number, number] = [1e7, 1e8]): Promise<BenchResult[]> {
+  const directory = await mkdtemp(join(tmpdir(), 'fringetally-bench-listen-memory-'));
+  const results: BenchResult[] = [];
+  const peaks: number[] = [];
+  try {
+    for (const samples of lengths) {
+      const start = process.hrtime.bigint();
+      const child = spawnSync(process.execPath, ['--import', USAGE, fileURLToPath(import.meta.url), '--stream', String(samples), join(directory, 'rows.csv')], {
+        stdio: ['ignore', 'ignore', 'pipe', 'pipe'],
+        encoding: 'utf8',
+      });
+      const wall = Number(process.hrtime.bigint() - start) / 1e9;
+      if (child.status !== 0) throw new Error(`listen memory case exited with ${child.status}: ${child.stderr}`);
+      const usage = JSON.parse(String(child.output[3])) as { cpuSeconds: number; maxRssKiB: number };
+      peaks.push(usage.maxRssKiB);
+      results.push({
+        name: `listen/in-memory/2ch/${SAMPLES_PER_FRAME}spf/every10000/${samples}/memory`,
+        samplesPerSecond: samples / usage.cpuSeconds,
+        nsPerSample: (usage.cpuSeconds * 1e9) / samples,
+        passes: 1,
+        extra: { samples, wallSamplesPerSecond: samples / wall, peakRssMiB: usage.maxRssKiB / 1024 },
+      });
+    }
+    results.push({
+      name: `listen/in-memory/${lengths[0]}-to-${lengths[1]}/peak-rss-growth`,
+      samplesPerSecond: Number.NaN,
+      nsPerSample: Number.NaN,
+      passes: 1,
+      extra: { peakRssGrowthMiB: (peaks[1]! - peaks[0]!) / 1024 },
+    });
+  } finally {
+    await rm(directory, { recursive: true, force: true });
+  }
+  return results;
+}
+
 export async function listenCases(passes = 5): Promise<BenchResult[]> {
   const chunks = wireChunks();
   const directory = await mkdtemp(join(tmpdir(), 'fringetally-bench-listen-'));
@@ -89,4 +186,9 @@ export async function listenCases(passes = 5): Promise<BenchResult[]> {
     await rm(directory, { recursive: true, force: true });
   }
   return results;
+}
+
+// node dist/bench/cases/listen.js --stream SAMPLES OUT: one memory run (started by listenMemoryCases).
+if (process.argv[1] !== undefined && import.meta.url === pathToFileURL(process.argv[1]).href && process.argv[2] === '--stream') {
+  await listenStream(Number(process.argv[3]), process.argv[4]!);
 }

@@ -50,7 +50,9 @@ export function queueObservable<T>(observable: Observable<T>, options: EventQueu
   }
 
   function take(): T {
-    const item = items[head++]!;
+    const item = items[head]!;
+    // Drop the queue's reference now: a taken chunk kept until the next compaction held up to 1024 chunks.
+    (items as (T | undefined)[])[head++] = undefined;
     size -= sizeOf(item);
     // Compact now and then instead of shifting on every take.
     if (head > 1024 && head * 2 > items.length) {

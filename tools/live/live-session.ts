@@ -182,8 +182,27 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
 
   async function loop(): Promise<LiveSummary> {
     let overflowed = false;
-    let interrupt: () => void = () => undefined;
-    const interrupted = new Promise<'interrupted'>((resolve) => (interrupt = () => resolve('interrupted')));
+    // One wait at a time, each interruptible. Not Promise.race against one long-lived promise: every race left a
+    // reaction on it that held the race's result, so each input chunk stayed in memory for the whole session.
+    let interruptedNow = false;
+    let wake: (() => void) | null = null;
+    const interrupt = () => {
+      interruptedNow = true;
+      wake?.();
+    };
+    // Settles in the order Promise.race([promise, interrupted]) would: the promise's own result first when it is
+    // already there, the interruption one microtask after interrupt().
+    const untilInterrupted = <T>(promise: Promise<T>): Promise<T | 'interrupted'> =>
+      new Promise<T | 'interrupted'>((resolve, reject) => {
+        promise.then(resolve, reject);
+        const mine = () => void Promise.resolve().then(() => resolve('interrupted'));
+        if (interruptedNow) return mine();
+        wake = mine;
+        const release = () => {
+          if (wake === mine) wake = null;
+        };
+        promise.then(release, release);
+      });
     const queue = queueObservable<ByteSourceEvent>(options.source.open(), {
       maxSize: options.maxBufferedBytes,
       sizeOf: (event) => (event instanceof Uint8Array ? event.length : 0),
@@ -205,7 +224,7 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
     let oversizeSeen = 0;
     try {
       outer: for (;;) {
-        const event = await Promise.race([queue.next(), interrupted]);
+        const event = await untilInterrupted(queue.next());
         if (event === 'interrupted') break;
         if (event === null) {
           sourceEnded = true;
@@ -218,7 +237,7 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
         }
         while (jobs.length > 0) {
           const { sink, job } = jobs.shift()!;
-          if ((await Promise.race([job(), interrupted])) === 'interrupted') {
+          if ((await untilInterrupted(job())) === 'interrupted') {
             stalledSink = sink.name;
             break outer;
           }
