@@ -56,6 +56,9 @@ export interface CalibrationResidual {
   /** Mean corrected radius over the capture (1 for the fit's own capture) and the share of 5.6° phase bins reached. */
   readonly meanRadius: number | null;
   readonly binCoverage: number;
+  /** Samples analysed, and the blocks they came from: one block of 4096 in `analysedEvery` of a long capture (createAnalysisSchedule). */
+  readonly samples: number;
+  readonly analysedEvery: number;
   /** Always true for one capture: a once-per-fringe amplitude change locked to the phase looks exactly like an offset to the fit. */
   readonly offsetIndistinguishableFromModulation: true;
 }
@@ -76,7 +79,7 @@ export const HARMONIC_ASSUMPTION =
 
 const finiteOrNull = (value: number): number | null => (Number.isFinite(value) ? value : null);
 
-export function calibrationResidualOf(summary: ResidualSummary): CalibrationResidual {
+export function calibrationResidualOf(summary: ResidualSummary, analysedEvery: number): CalibrationResidual {
   return {
     radiusHarmonics: summary.radiusHarmonics.map(finiteOrNull),
     radiusDriftRelative: finiteOrNull(summary.radiusDriftRelative),
@@ -84,6 +87,8 @@ export function calibrationResidualOf(summary: ResidualSummary): CalibrationResi
     noiseSpectralSlope: finiteOrNull(summary.noiseSpectralSlope),
     meanRadius: finiteOrNull(summary.meanRadius),
     binCoverage: summary.binCoverage,
+    samples: summary.samples,
+    analysedEvery,
     offsetIndistinguishableFromModulation: true,
   };
 }
@@ -99,7 +104,7 @@ export function calibrationFileOf(
   fit: Extract<EllipseFitResult, { ok: true }>,
   info: CaptureInfo,
   channels?: readonly ChannelParameters[],
-  residual?: ResidualSummary,
+  residual?: { readonly summary: ResidualSummary; readonly analysedEvery: number },
   harmonics?: CalibrationHarmonics,
 ): CalibrationFile {
   const integer = info.sampleEncoding === 'int16' || info.sampleEncoding === 'int24' || info.sampleEncoding === 'integer-text';
@@ -114,7 +119,7 @@ export function calibrationFileOf(
     fit: { samples: fit.samples, coverage: fit.coverage, residualRms: fit.residualRms },
     capture: { file: info.file, format: info.format, rateHz: info.rateHz, sampleEncoding: info.sampleEncoding },
     ...(harmonics === undefined ? {} : { harmonics }),
-    ...(residual === undefined ? {} : { residual: calibrationResidualOf(residual) }),
+    ...(residual === undefined ? {} : { residual: calibrationResidualOf(residual.summary, residual.analysedEvery) }),
     createdAt: new Date().toISOString(),
   };
 }

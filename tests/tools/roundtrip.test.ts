@@ -130,6 +130,9 @@ describe('round trip', () => {
     expect(file.harmonics.fringes).toBeGreaterThan(100);
     expect(file.residual.radiusHarmonics).toHaveLength(8);
     expect(typeof file.residual.radiusDriftRelative).toBe('number');
+    // A short capture: every block analysed, every sample with a clean signal counted.
+    expect(file.residual).toMatchObject({ analysedEvery: 1 });
+    expect(file.residual.samples).toBeGreaterThan(0);
     const replayed = await fringetally(['replay', 'steady.csv', ...common, '--calibration', 'steady-cal.json', '--out', 'steady.out.csv'], dir);
     expect(replayed.code, replayed.stderr).toBe(0);
     expect(replayed.stderr).toMatch(/applying the calibration's harmonic correction \(orders 1\.\.3\)/);

@@ -109,7 +109,7 @@ async function run(argv: readonly string[]): Promise<number> {
     estimate === null
       ? undefined
       : { orders: harmonicOrders!, ...estimate.harmonics, assumption: HARMONIC_ASSUMPTION, fringes: estimate.fringes, residualRmsRad: estimate.residualRmsRad };
-  const file = calibrationFileOf(fit, info, channels, result.residual.summary, harmonics);
+  const file = calibrationFileOf(fit, info, channels, { summary: result.residual.summary, analysedEvery: result.analysedEvery }, harmonics);
   await writeFileAtomically(values.out, JSON.stringify(file, null, 2) + '\n');
   if (report !== undefined) {
     const provenance = { commandLine: ['fringetally', 'calibrate', ...argv], inputHash: await fileHash(path), calibrationSource: 'fitted to this capture' };
