@@ -3,7 +3,8 @@
 // latency from a block entering to its position being emitted.
 
 import { Subject, type Subscription } from 'rxjs';
-import { createPipeline, type AlarmEvent, type EllipseCalibration, type PipelineOptions } from '../../src/core/index.js';
+import { type AlarmEvent, type EllipseCalibration, type PipelineOptions } from '../../src/core/index.js';
+import { createPipeline } from '../../src/accel/index.js';
 import { createAxes, type FrameBlock } from '../../src/stream/index.js';
 import { defaultMeasureOptions, measure, type BenchCase, type BenchResult, type MeasureOptions } from '../harness.js';
 import { benchSignal, BLOCK } from './core.js';
@@ -55,7 +56,7 @@ function axesCase(name: string, axisCount: number): BenchCase {
   };
 }
 
-/** Baseline: the bare pipeline on the same samples, already split per axis. */
+/** Baseline: the bare pipeline on the same samples, already split per axis: the accelerated one the axes use. */
 function directCase(name: string): BenchCase {
   const { x, y } = benchSignal(SAMPLES_PER_CHANNEL);
   const pipeline = createPipeline(axisOptions);
