@@ -1,6 +1,7 @@
 // Operator: updates of several parallel axes in, yaw, pitch and the displacement of a point of interest out (the
 // geometry and its conventions are in src/core/axis-geometry.ts), with their combined standard uncertainties.
-import { Observable, type OperatorFunction } from 'rxjs';
+import type { OperatorFunction } from 'rxjs';
+import { blockOperator } from './block-operator.js';
 import { createAxisGeometry, OptionError, type AxisGeometryOptions } from '../core/index.js';
 import type { AxesUpdate } from './axes.js';
 
@@ -73,23 +74,13 @@ export function axisGeometry(options: AxisGeometryStreamOptions): OperatorFuncti
   if (options.axes !== undefined && options.axes.length !== options.beams.length) {
     throw new OptionError('axes', `one axis name per beam (${options.beams.length})`, options.axes);
   }
-  return (source) =>
-    new Observable<GeometryUpdate>((subscriber) => {
-      let solver: UpdateGeometry | null = null;
-      return source.subscribe({
-        next(update) {
-          if (solver === null) {
-            try {
-              solver = createUpdateGeometry(options, update.axes.map((axis) => axis.name));
-            } catch (error) {
-              subscriber.error(error);
-              return;
-            }
-          }
-          subscriber.next(solver.solve(update));
-        },
-        error: (error: unknown) => subscriber.error(error),
-        complete: () => subscriber.complete(),
-      });
-    });
+  return blockOperator(() => {
+    let solver: UpdateGeometry | null = null;
+    return {
+      next(update, out) {
+        solver ??= createUpdateGeometry(options, update.axes.map((axis) => axis.name));
+        out.push(solver.solve(update));
+      },
+    };
+  });
 }

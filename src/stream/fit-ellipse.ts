@@ -1,6 +1,7 @@
 // Operator: Heydemann (1981) ellipse fit over a sliding count of samples, one fit result per `everySamples`.
 
-import { Observable, type OperatorFunction } from 'rxjs';
+import type { OperatorFunction } from 'rxjs';
+import { blockOperator } from './block-operator.js';
 import { createEllipseAccumulator, integerInRange, type EllipseFitOptions, type EllipseFitResult } from '../core/index.js';
 import { checkAxisBlock, type AxisBlock } from './blocks.js';
 
@@ -16,37 +17,27 @@ export interface FitEllipseOptions extends EllipseFitOptions {
 export function fitEllipse(options: FitEllipseOptions): OperatorFunction<AxisBlock, EllipseFitResult> {
   const everySamples = integerInRange('everySamples', options.everySamples, 6, 2 ** 40);
   createEllipseAccumulator(options);
-  return (source) =>
-    new Observable<EllipseFitResult>((subscriber) => {
-      const accumulator = createEllipseAccumulator(options);
-      const subscription = source.subscribe({
-        next(block) {
-          try {
-            checkAxisBlock(block);
-          } catch (error) {
-            subscriber.error(error);
-            return;
+  return blockOperator(() => {
+    const accumulator = createEllipseAccumulator(options);
+    return {
+      next(block, out) {
+        checkAxisBlock(block);
+        let done = 0;
+        while (done < block.length) {
+          const take = Math.min(block.length - done, everySamples - accumulator.samples - accumulator.skippedNonFinite);
+          const x = done === 0 && take === block.length ? block.x : block.x.subarray(done, done + take);
+          const y = done === 0 && take === block.length ? block.y : block.y.subarray(done, done + take);
+          accumulator.add(x, y, take);
+          done += take;
+          if (accumulator.samples + accumulator.skippedNonFinite === everySamples) {
+            out.push(accumulator.solve());
+            accumulator.reset();
           }
-          let done = 0;
-          while (done < block.length && !subscriber.closed) {
-            const take = Math.min(block.length - done, everySamples - accumulator.samples - accumulator.skippedNonFinite);
-            const x = done === 0 && take === block.length ? block.x : block.x.subarray(done, done + take);
-            const y = done === 0 && take === block.length ? block.y : block.y.subarray(done, done + take);
-            accumulator.add(x, y, take);
-            done += take;
-            if (accumulator.samples + accumulator.skippedNonFinite === everySamples) {
-              const result = accumulator.solve();
-              accumulator.reset();
-              subscriber.next(result);
-            }
-          }
-        },
-        error: (error: unknown) => subscriber.error(error),
-        complete: () => subscriber.complete(),
-      });
-      return () => {
-        subscription.unsubscribe();
+        }
+      },
+      teardown() {
         accumulator.reset();
-      };
-    });
+      },
+    };
+  });
 }

@@ -1,6 +1,7 @@
 // Operator: the whole core signal chain (correction → monitor → phase tracker → displacement) over blocks.
 
-import { Observable, type OperatorFunction } from 'rxjs';
+import type { OperatorFunction } from 'rxjs';
+import { blockOperator } from './block-operator.js';
 import { createPipeline } from '../accel/pipeline.js';
 import type { AlarmEvent, PipelineOptions } from '../core/index.js';
 import { checkAxisBlock, type AxisBlock, type PositionBlock } from './blocks.js';
@@ -40,35 +41,24 @@ export function createPositionBuffers(initialCapacity: number) {
  */
 export function trackPosition(options: PipelineOptions): OperatorFunction<AxisBlock, PositionBlock> {
   createPipeline(options); // validates the options now, at the call site
-  return (source) =>
-    new Observable<PositionBlock>((subscriber) => {
-      const pipeline = createPipeline(options);
-      let buffers: ReturnType<typeof createPositionBuffers> | null = createPositionBuffers(options.blockCapacity ?? 4096);
-      const events: AlarmEvent[] = [];
-      const subscription = source.subscribe({
-        next(block) {
-          let output: PositionBlock;
-          try {
-            checkAxisBlock(block);
-            if (block.gapBefore) pipeline.markGap(block.gapBefore);
-            const firstSampleIndex = pipeline.nextSampleIndex;
-            const views = buffers!.views(block.length);
-            events.length = 0;
-            pipeline.process(block.x, block.y, block.length, views, events);
-            output = { firstSampleIndex, length: block.length, ...views, events, countLost: pipeline.countLost };
-          } catch (error) {
-            subscriber.error(error);
-            return;
-          }
-          subscriber.next(output);
-        },
-        error: (error: unknown) => subscriber.error(error),
-        complete: () => subscriber.complete(),
-      });
-      return () => {
-        subscription.unsubscribe();
+  return blockOperator(() => {
+    const pipeline = createPipeline(options);
+    let buffers: ReturnType<typeof createPositionBuffers> | null = createPositionBuffers(options.blockCapacity ?? 4096);
+    const events: AlarmEvent[] = [];
+    return {
+      next(block, out) {
+        checkAxisBlock(block);
+        if (block.gapBefore) pipeline.markGap(block.gapBefore);
+        const firstSampleIndex = pipeline.nextSampleIndex;
+        const views = buffers!.views(block.length);
+        events.length = 0;
+        pipeline.process(block.x, block.y, block.length, views, events);
+        out.push({ firstSampleIndex, length: block.length, ...views, events, countLost: pipeline.countLost });
+      },
+      teardown() {
         buffers = null;
         events.length = 0;
-      };
-    });
+      },
+    };
+  });
 }
