@@ -173,6 +173,8 @@ export interface ChannelPipeline {
   readonly speedLimits: Pipeline['speedLimits'];
   readonly countLost: boolean;
   readonly stages: Pipeline['stages'] & { readonly combiner: ChannelCombiner };
+  /** The power-normalised pair of the latest block (u = cos φ, v = sin φ on the model): views valid until the next call. */
+  readonly pair: { readonly u: Float64Array; readonly v: Float64Array };
 }
 
 /**
@@ -236,5 +238,8 @@ export function createChannelPipeline(options: ChannelPipelineOptions): ChannelP
       return pipeline.countLost;
     },
     stages: { ...pipeline.stages, combiner },
+    get pair() {
+      return { u, v };
+    },
   };
 }

@@ -6,6 +6,7 @@ import { asyncScheduler, distinctUntilChanged, filter, interval, map, mergeMap, 
 import {
   alarmText,
   AlarmBit,
+  createChannelPipeline,
   createCorrection,
   createHarmonicCorrection,
   createModelWatch,
@@ -15,6 +16,8 @@ import {
   positiveFinite,
   validateRefractiveIndex,
   type AlarmEvent,
+  type ChannelParameters,
+  type ChannelPipeline,
   type Correction,
   type HarmonicCorrection,
   type ModelWatch,
@@ -33,7 +36,11 @@ import { createPositionBuffers } from './track-position.js';
 export interface AxisOptions extends PipelineOptions {
   /** Name in updates, feeds and logs: 1..32 characters of A–Z, a–z, 0–9, `_`, `-`. Default `axis<k>`. */
   readonly name?: string;
-  /** Channel pair of interleaved frames: x is channel 2·channelPair, y the next. Integer 0..7; default the axis' place in the list. */
+  /**
+   * Axis of interleaved frames this axis reads: without a channel layout x is channel 2·channelPair and y the
+   * next; with one (`FrameBlock.axisOutputs`), the outputs of that axis of the layout. Integer 0..7; default the
+   * axis' place in the list.
+   */
   readonly channelPair?: number;
   /**
    * Correction beyond the ellipse (a calibration file's `harmonics`, see createHarmonicCorrection), taken off the
@@ -46,6 +53,12 @@ export interface AxisOptions extends PipelineOptions {
    * there is no model to watch and the option is checked but unused. Default off.
    */
   readonly modelWatch?: ModelWatchOptions;
+  /**
+   * Three or four detector outputs per axis: every output's parameters (from a calibration file of that layout).
+   * The outputs are combined sample by sample into the power-normalised pair (`createChannelPipeline`); the axis
+   * then takes only frames whose layout gives its frame axis as many outputs. `calibration` must be absent or null.
+   */
+  readonly channels?: readonly ChannelParameters[];
 }
 
 export interface AxesOptions extends AxesRunnerOptions, AxesViewOptions {
@@ -247,13 +260,26 @@ export interface AxesRunner {
   reset(): void;
 }
 
+/** What the runner needs of either chain: the two-output pipeline or the 3–4-output one. */
+type AxisChain = Pick<Pipeline, 'markGap' | 'reReference' | 'setRefractiveIndex' | 'reset' | 'nextSampleIndex' | 'speedLimits' | 'countLost'>;
+
 interface AxisStage {
-  readonly pipeline: Pipeline;
+  readonly pipeline: AxisChain;
+  /** Exactly one of these runs the axis. */
+  readonly plain: Pipeline | null;
+  readonly combined: ChannelPipeline | null;
+  /** Detector outputs the axis takes: 2 for `plain`, 3 or 4 for `combined`. */
+  readonly outputs: number;
+  /** Axis of the frames the axis reads (`channelPair`). */
+  readonly frameAxis: number;
+  /** The outputs of the latest block, split (3–4-output axes), and their source power. */
+  inputs: Int16Array[];
+  power: Float32Array;
+  /** The output views with the power, rebuilt only when the views change (no record per block). */
+  combinedOut: (AxisSamples & { power: Float32Array }) | null;
   readonly correction: Correction;
   readonly summary: MutableSummary;
   readonly buffers: ReturnType<typeof createPositionBuffers>;
-  /** First channel of the axis in interleaved frames. */
-  readonly channel: number;
   x: Int16Array;
   y: Int16Array;
   /** Added to the pipeline's position: the preset of the latest re-reference (0 after a zero). */
@@ -281,7 +307,7 @@ const SIGNAL_TROUBLE = AlarmBit.lowSignal | AlarmBit.saturation | AlarmBit.badSa
 function beyondEllipse(stage: AxisStage, beyond: BeyondEllipse, out: { positionM: Float64Array; level: Float32Array; flags: Uint8Array }, length: number): void {
   const summary = stage.summary;
   summary.modelEvents.length = 0;
-  beyond.harmonics?.process(beyond.phase, length, out.positionM, stage.pipeline.stages.displacement.metresPerFringe / (2 * Math.PI));
+  beyond.harmonics?.process(beyond.phase, length, out.positionM, stage.plain!.stages.displacement.metresPerFringe / (2 * Math.PI));
   if (beyond.watch !== null) {
     const use = beyond.use;
     const flags = out.flags;
@@ -317,17 +343,41 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
   let refractiveIndex: number | null = null;
   // Creating the pipelines validates every axis' options.
   const stages: AxisStage[] = options.axes.map((axisOptions, k) => {
-    const pipeline = createPipeline(axisOptions);
+    const frameAxis = integerInRange(`axes[${k}].channelPair`, axisOptions.channelPair ?? k, 0, 7);
+    const { channels, name: _name, channelPair: _pair, ...pipelineOptions } = axisOptions;
+    let combined: ChannelPipeline | null = null;
+    if (channels !== undefined) {
+      if (axisOptions.calibration !== undefined && axisOptions.calibration !== null) {
+        throw new OptionError(`axes[${k}].calibration`, 'null or absent when channels are given (the outputs\' parameters calibrate the axis)', axisOptions.calibration);
+      }
+      if (axisOptions.harmonics !== undefined) throw new OptionError(`axes[${k}].harmonics`, 'absent when channels are given (the harmonic correction is of a two-output ellipse)', 'given');
+      const { calibration: _calibration, frontEnd: _frontEnd, harmonics: _harmonics, modelWatch: _watch, ...rest } = pipelineOptions;
+      try {
+        combined = createChannelPipeline({ ...rest, channels });
+      } catch (error) {
+        if (error instanceof OptionError) throw new OptionError(`axes[${k}].${error.option}`, error.rule, error.value);
+        throw error;
+      }
+    }
+    const plain = combined === null ? createPipeline(axisOptions) : null;
+    const pipeline: AxisChain = combined ?? plain!;
     const harmonics = axisOptions.harmonics === undefined ? null : createHarmonicCorrection(axisOptions.harmonics);
-    // Checked either way; without a calibration there is no model to watch (the level is then the raw radius).
+    // Checked either way; without a calibration of the ellipse there is no model to watch (the level is then the raw
+    // radius, or the power-normalised one of 3–4 outputs).
     const checkedWatch = axisOptions.modelWatch === undefined ? null : createModelWatch(axisOptions.modelWatch);
     const watch = axisOptions.calibration === undefined || axisOptions.calibration === null ? null : checkedWatch;
     return {
       pipeline,
-      correction: createCorrection({ calibration: axisOptions.calibration ?? null }),
+      plain,
+      combined,
+      outputs: combined === null ? 2 : combined.stages.combiner.channels.length,
+      frameAxis,
+      inputs: [],
+      power: new Float32Array(0),
+      combinedOut: null,
+      correction: createCorrection({ calibration: combined === null ? (axisOptions.calibration ?? null) : null }),
       summary: emptySummary(names[k]!, pipeline.speedLimits, tracePoints),
       buffers: createPositionBuffers(axisOptions.blockCapacity ?? 4096),
-      channel: 2 * integerInRange(`axes[${k}].channelPair`, axisOptions.channelPair ?? k, 0, 7),
       x: new Int16Array(0),
       y: new Int16Array(0),
       offsetM: 0,
@@ -337,23 +387,33 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     };
   });
   const summaries: readonly AxisBlockSummary[] = stages.map((stage) => stage.summary);
-  const channelsNeeded = Math.max(...stages.map((stage) => stage.channel + 2));
+  const axesNeeded = Math.max(...stages.map((stage) => stage.frameAxis + 1));
+  const firstChannel = new Int32Array(9);
   const pick = { x: new Float64Array(tracePerBlock), y: new Float64Array(tracePerBlock), u: new Float64Array(tracePerBlock), v: new Float64Array(tracePerBlock) };
 
-  function processAxis(stage: AxisStage, x: AxisBlock['x'], y: AxisBlock['y'], length: number, gapBefore: number): void {
+  function processAxis(stage: AxisStage, rawX: AxisBlock['x'], rawY: AxisBlock['y'], length: number, gapBefore: number): void {
     const { pipeline, summary } = stage;
     if (gapBefore > 0) pipeline.markGap(gapBefore);
     summary.events.length = 0;
     summary.firstSampleIndex = pipeline.nextSampleIndex;
     const out = stage.buffers.views(length);
+    let x = rawX;
+    let y = rawY;
     const beyond = stage.beyond;
-    if (beyond === null) pipeline.process(x, y, length, out, summary.events);
+    if (stage.combined !== null) {
+      if (stage.power.length < length) stage.power = new Float32Array(length);
+      if (stage.combinedOut?.positionM !== out.positionM || stage.combinedOut.power !== stage.power) stage.combinedOut = { ...out, power: stage.power };
+      stage.combined.process(stage.inputs, length, stage.combinedOut, summary.events);
+      // The trace and the summary's samples are the power-normalised pair (on the unit circle).
+      x = stage.combined.pair.u;
+      y = stage.combined.pair.v;
+    } else if (beyond === null) stage.plain!.process(x, y, length, out, summary.events);
     else {
       if (beyond.phase.length < length) {
         beyond.phase = new Float64Array(length);
         beyond.use = new Uint8Array(length);
       }
-      pipeline.process(x, y, length, { ...out, unwrappedPhaseRad: beyond.phase }, summary.events);
+      stage.plain!.process(x, y, length, { ...out, unwrappedPhaseRad: beyond.phase }, summary.events);
       beyondEllipse(stage, beyond, out, length);
     }
     if (stage.offsetM !== 0 || stage.pendingAt >= 0) applyPreset(stage, out.positionM, length, summary.firstSampleIndex);
@@ -387,31 +447,55 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     process(block) {
       if ('samples' in block) {
         checkFrameBlock(block);
-        if (block.channelCount < channelsNeeded) {
-          throw new OptionError('block.channelCount', `at least ${channelsNeeded} for the axes' channels`, block.channelCount);
+        const layout = block.axisOutputs;
+        const frameAxes = layout === undefined ? block.channelCount >> 1 : layout.length;
+        if (frameAxes < axesNeeded) {
+          if (layout === undefined || layout.every((outputs) => outputs === 2)) {
+            throw new OptionError('block.channelCount', `at least ${2 * axesNeeded} for the axes' channels`, block.channelCount);
+          }
+          throw new OptionError('block.axisOutputs', `outputs for at least ${axesNeeded} axes`, layout);
         }
+        for (let a = 0; a < frameAxes; a++) firstChannel[a + 1] = firstChannel[a]! + (layout === undefined ? 2 : layout[a]!);
         const n = block.samplesPerFrame;
         const stride = block.channelCount;
         const samples = block.samples;
         for (let k = 0; k < axisCount; k++) {
           const stage = stages[k]!;
+          const outputs = firstChannel[stage.frameAxis + 1]! - firstChannel[stage.frameAxis]!;
+          if (outputs !== stage.outputs) {
+            throw new OptionError(
+              `axes[${k}]`,
+              `frames whose axis ${stage.frameAxis} has the ${stage.outputs} detector outputs the axis is set up for` +
+                (stage.outputs === 2 ? ' (give the parameters of 3 or 4 outputs as channels)' : ''),
+              `${outputs} outputs`,
+            );
+          }
           if (stage.x.length < n) {
             stage.x = new Int16Array(n);
             stage.y = new Int16Array(n);
+            stage.inputs = stage.combined === null ? [] : Array.from({ length: stage.outputs }, () => new Int16Array(n));
           }
           // Split inline: locals keep the loop in registers (see DEVELOPERS.md).
           const x = stage.x;
           const y = stage.y;
-          let at = stage.channel;
-          for (let s = 0; s < n; s++) {
-            x[s] = samples[at]!;
-            y[s] = samples[at + 1]!;
-            at += stride;
+          let at = firstChannel[stage.frameAxis]!;
+          if (stage.combined === null) {
+            for (let s = 0; s < n; s++) {
+              x[s] = samples[at]!;
+              y[s] = samples[at + 1]!;
+              at += stride;
+            }
+          } else {
+            for (let c = 0; c < stage.outputs; c++) {
+              const input = stage.inputs[c]!;
+              for (let s = 0, from = at + c; s < n; s++, from += stride) input[s] = samples[from]!;
+            }
           }
           processAxis(stage, x, y, n, block.gapBefore ?? 0);
         }
       } else {
         if (axisCount !== 1) throw new OptionError('block', `FrameBlocks for ${axisCount} axes (an AxisBlock carries one axis)`, 'an AxisBlock');
+        if (stages[0]!.combined !== null) throw new OptionError('block', `FrameBlocks for an axis of ${stages[0]!.outputs} detector outputs (an AxisBlock carries a pair)`, 'an AxisBlock');
         checkAxisBlock(block);
         processAxis(stages[0]!, block.x, block.y, block.length, block.gapBefore ?? 0);
       }
@@ -668,7 +752,7 @@ function summarise(
   out: { positionM: Float64Array; velocityMS: Float64Array; level: Float32Array; flags: Uint8Array },
   length: number,
   lostBefore: number,
-  pipeline: Pipeline,
+  pipeline: AxisChain,
 ): void {
   summary.length = length;
   summary.lostBefore = lostBefore;

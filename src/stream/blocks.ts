@@ -22,8 +22,13 @@ export interface AxisBlock {
  */
 export interface FrameBlock {
   readonly samples: Int16Array;
-  /** Even, 2..16. */
+  /** 2..16; even without `axisOutputs`. */
   readonly channelCount: number;
+  /**
+   * Detector outputs of each axis in channel order (2, 3 or 4 each, summing to `channelCount`): a frame's channel
+   * layout (wire format version 3). Absent: pairs, channel 2k is x and 2k + 1 is y of axis k.
+   */
+  readonly axisOutputs?: readonly number[];
   /** Samples per channel in this block. */
   readonly samplesPerFrame: number;
   /** Samples per channel lost in transport just before this block (0 or absent: none). */
@@ -66,9 +71,18 @@ export function checkAxisBlock(block: AxisBlock): void {
 }
 
 export function checkFrameBlock(block: FrameBlock): void {
-  const { channelCount, samplesPerFrame } = block;
-  if (!Number.isInteger(channelCount) || channelCount < 2 || channelCount > 16 || channelCount % 2 !== 0) {
-    throw new OptionError('block.channelCount', 'an even integer in 2..16', channelCount);
+  const { channelCount, samplesPerFrame, axisOutputs } = block;
+  if (axisOutputs === undefined) {
+    if (!Number.isInteger(channelCount) || channelCount < 2 || channelCount > 16 || channelCount % 2 !== 0) {
+      throw new OptionError('block.channelCount', 'an even integer in 2..16', channelCount);
+    }
+  } else {
+    let sum = 0;
+    for (const outputs of axisOutputs) {
+      if (!(Number.isInteger(outputs) && outputs >= 2 && outputs <= 4)) throw new OptionError('block.axisOutputs', 'outputs per axis, each an integer in 2..4', axisOutputs);
+      sum += outputs;
+    }
+    if (sum !== channelCount || channelCount > 16) throw new OptionError('block.channelCount', `the sum of axisOutputs (${sum}), at most 16`, channelCount);
   }
   if (!Number.isInteger(samplesPerFrame) || samplesPerFrame < 0 || samplesPerFrame * channelCount > block.samples.length) {
     throw new OptionError('block.samplesPerFrame', `an integer in 0..samples.length / channelCount = ${Math.floor(block.samples.length / channelCount)}`, samplesPerFrame);

@@ -4,6 +4,8 @@ import { createWireDecoder, type InputGap, type SampleBlock, type WireDecoder, t
 export interface CopiedBlock {
   sequence: number;
   channelCount: number;
+  /** The packed channel layout (0: pairs). */
+  channelLayout: number;
   samplesPerFrame: number;
   sampleIndex: number;
   sampleRateHz: number;
@@ -18,6 +20,7 @@ export function copyBlock(block: SampleBlock): CopiedBlock {
   return {
     sequence: block.sequence,
     channelCount: block.channelCount,
+    channelLayout: block.channelLayout,
     samplesPerFrame: block.samplesPerFrame,
     sampleIndex: block.sampleIndex,
     sampleRateHz: block.sampleRateHz,

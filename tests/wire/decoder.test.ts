@@ -11,7 +11,6 @@ describe('createWireDecoder options', () => {
     [{ maxSamplesPerFrame: 4097 }, 'maxSamplesPerFrame must be an integer in 1..4096 (got 4097)'],
     [{ maxSamplesPerFrame: 1.5 }, 'maxSamplesPerFrame must be an integer in 1..4096 (got 1.5)'],
     [{ maxChannels: 18 }, 'maxChannels must be an integer in 2..16 (got 18)'],
-    [{ maxChannels: 3 }, 'maxChannels must be even (got 3)'],
   ])('rejects %o', (options, message) => {
     expect(() => createWireDecoder({ ...options, onFrame: noop, onGap: noop })).toThrow(message);
   });
@@ -23,8 +22,8 @@ describe('createWireDecoder options', () => {
 
   it('sizes its buffer for the largest allowed frame', () => {
     const decoder = createWireDecoder({ maxChannels: 4, maxSamplesPerFrame: 100, onFrame: noop, onGap: noop });
-    // Fixed header, three u32 fields and the edge count, samples, 256 edge records of 6 bytes, CRC.
-    expect(decoder.config).toEqual({ maxChannels: 4, maxSamplesPerFrame: 100, bufferBytes: 10 + 14 + 4 * 100 * 2 + 256 * 6 + 4 });
+    // Fixed header, four u32 fields (rate, timestamp, counter, layout) and the edge count, samples, 256 edge records of 6 bytes, CRC.
+    expect(decoder.config).toEqual({ maxChannels: 4, maxSamplesPerFrame: 100, bufferBytes: 10 + 18 + 4 * 100 * 2 + 256 * 6 + 4 });
   });
 
   it('admits by default the largest frame the format allows (4096 samples per frame)', () => {
@@ -100,9 +99,26 @@ describe('wire decoder', () => {
     expect(decoder.counters).toMatchObject({ oversizeHeaders: 2, oversizeSamplesPerFrame: 5, oversizeChannels: 4 });
   });
 
+  it('version 3: hands out the channel layout; a layout that contradicts the channel count is a bad header', () => {
+    const good = syntheticFrame(0, 3, 4, { channelLayout: [3] });
+    const { decoder, frames } = collectingDecoder();
+    decoder.push(good);
+    expect(frames.map((f) => [f.channelCount, f.channelLayout])).toEqual([[3, 3]]);
+    // The layout field is the last optional field, just before the samples (no other field here: offset 10).
+    for (const layout of [4, 0x23, 5, 0x30]) {
+      const bad = syntheticFrame(1, 3, 4, { channelLayout: [3] });
+      bad[10] = layout;
+      const { decoder: fresh, frames: none } = collectingDecoder();
+      fresh.push(bad);
+      expect(none, `layout 0x${layout.toString(16)}`).toEqual([]);
+      expect(fresh.counters.headerRejects).toBe(1);
+    }
+  });
+
   it('rejects unknown flag bits, versions and sample formats', () => {
-    // Version 3 does not exist; format 2 is reserved; flag bit 2 (the sample counter) is version 2 only.
-    for (const [offset, value] of [[2, 3], [3, 2], [5, 4]] as const) {
+    // Version 4 does not exist; format 2 is reserved; flag bit 2 (the sample counter) is version 2 and up, bit 4
+    // (the channel layout) version 3; three channels need a layout.
+    for (const [offset, value] of [[2, 4], [3, 2], [5, 4], [5, 16], [4, 3]] as const) {
       const frame = syntheticFrame(0);
       frame[offset] = value;
       const { decoder, frames } = collectingDecoder();

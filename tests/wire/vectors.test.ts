@@ -1,7 +1,7 @@
 // Shared vectors: the TypeScript encoder, the C encoder and the decoder must agree byte for byte.
 import { readFileSync } from 'node:fs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { crc32c, encodeWireFrame, wireFrameLengthOf } from '../../src/io/wire/index.js';
+import { axisOutputsOf, crc32c, encodeWireFrame, wireFrameLengthOf } from '../../src/io/wire/index.js';
 import { collectingDecoder } from './collect.js';
 import { buildFirmwareProgram, type FirmwareProgram } from './firmware-c.js';
 import { firmwareFrameCommand, frameVectors, hexToBytes, rejectedVectors } from './vectors.js';
@@ -83,6 +83,8 @@ describe('shared vectors', () => {
       const { header, samples } = frameVectors[i]!;
       expect(frame.sequence).toBe(header.sequence);
       expect(frame.channelCount).toBe(header.channelCount);
+      // Outputs of axis k in bits 4k..4k+3 (docs/wire-format.md, "Channel layout"); pairs when absent.
+      expect(axisOutputsOf(frame.channelCount, frame.channelLayout)).toEqual(header.channelLayout ?? new Array(header.channelCount / 2).fill(2));
       expect(frame.samplesPerFrame).toBe(header.samplesPerFrame);
       expect(frame.sampleRateHz).toBe(header.sampleRateHz ?? Number.NaN);
       expect(frame.timestampUs).toBe(header.timestampUs ?? Number.NaN);

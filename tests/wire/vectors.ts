@@ -1,6 +1,6 @@
 // The shared wire test vectors (tests/wire/wire-vectors.json), typed.
 import { readFileSync } from 'node:fs';
-import type { WireFrameHeader } from '../../src/io/wire/index.js';
+import { packChannelLayout, type WireFrameHeader } from '../../src/io/wire/index.js';
 
 export interface FrameVector {
   readonly name: string;
@@ -29,7 +29,8 @@ export function firmwareFrameCommand(header: WireFrameHeader, samples: readonly 
     (header.sampleRateHz === undefined ? 0 : 1) |
     (header.timestampUs === undefined ? 0 : 2) |
     (header.sampleCounter === undefined ? 0 : 4) |
-    (header.edges === undefined ? 0 : 8);
+    (header.edges === undefined ? 0 : 8) |
+    (header.channelLayout === undefined ? 0 : 16);
   const edges = header.edges ?? [];
   return [
     'frame',
@@ -40,10 +41,20 @@ export function firmwareFrameCommand(header: WireFrameHeader, samples: readonly 
     header.sampleRateHz ?? 0,
     header.timestampUs ?? 0,
     header.sampleCounter ?? 0,
+    header.channelLayout === undefined ? 0 : layoutField(header.channelLayout),
     edges.length,
     ...samples,
     ...edges.flatMap((edge) => [edge.sample, edge.lead, edge.line, edge.rising ? 1 : 0]),
   ].join(' ');
+}
+
+/** The packed layout field; a layout the encoder refuses is sent as its plain nibbles, for the C encoder to refuse too. */
+function layoutField(outputs: readonly number[]): number {
+  try {
+    return packChannelLayout(outputs);
+  } catch {
+    return outputs.reduce((packed, count, k) => packed + (count & 15) * 16 ** k, 0);
+  }
 }
 
 export function hexToBytes(hex: string): Uint8Array {

@@ -3,7 +3,7 @@
 import { writeFile } from 'node:fs/promises';
 import { SerialPort } from 'serialport';
 import { createCaptureWriter, type CaptureWriter } from '../../src/io/capture/index.js';
-import { WIRE_MAX_EDGES_PER_FRAME, WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
+import { WIRE_MAX_CHANNELS, WIRE_MAX_EDGES_PER_FRAME, WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
 import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { ellipseOf, motionOf, noiseOf, scenarioOptionSpecs } from '../scenario-options.js';
 import { createFrameEmulator, type TriggerEdges } from '../live/frame-emulator.js';
@@ -29,6 +29,10 @@ Port and frames:
   --include-rate           write the sample-rate field in every frame (else the receiver needs --rate-hz)
   --start-sequence N       sequence number of the first frame, 0..65535 (default 0)
   --axes N                 axes per frame, 1..8 (default 1); axis k carries (k + 1) times the motion
+  --outputs N              detector outputs per axis: 2 (default, the ellipse below), 3 (120° apart) or 4
+                           (0/90/180/270°), sent with a channel layout (wire format version 3); 3 and 4 use
+                           invented outputs I_k = P·(o_k + a_k·cos(φ − θ_k)), offsets 11500..12500 and amplitudes
+                           9500..10500 counts (docs/live.md lists them); at most 16 channels in all
   --text                   write "x,y" text lines instead of binary frames (no sequence counter)
   --duration S             seconds of samples to send, rounded up to whole frames (default: until stopped)
 
@@ -51,7 +55,11 @@ Motion (--motion constant|trapezoid|vibration, default constant):
   --frequency-hz F         vibration: frequency, Hz (default 200)
   --drift-m-s V            vibration: drift velocity, m/s (default 0)
 
-Detectors (ADC counts, x = aX·cos φ + oX, y = aY·sin(φ + e) + oY):
+Source power of three or four outputs (P(t) = 1 + M·sin(2π F t), the same factor on every output):
+  --power-modulation M     relative amplitude of the power's variation, 0..0.5 (default 0)
+  --power-frequency-hz F   its frequency, Hz (default 10)
+
+Detectors of two outputs (ADC counts, x = aX·cos φ + oX, y = aY·sin(φ + e) + oY):
   --offset-x C, --offset-y C          offsets, counts (default 800, -500)
   --amplitude-x C, --amplitude-y C    amplitudes, counts (default 12000, 10800)
   --phase-error-rad E                 quadrature error e, rad (default 0.06)
@@ -81,6 +89,9 @@ const optionSpecs = {
   'include-rate': { type: 'boolean' },
   'start-sequence': { type: 'string' },
   axes: { type: 'string' },
+  outputs: { type: 'string' },
+  'power-modulation': { type: 'string' },
+  'power-frequency-hz': { type: 'string' },
   text: { type: 'boolean' },
   duration: { type: 'string' },
   'trigger-hz': { type: 'string' },
@@ -134,6 +145,15 @@ async function run(argv: readonly string[]): Promise<number> {
   const samplesPerFrame = integerIn('samples-per-frame', num('samples-per-frame') ?? 64, 1, WIRE_MAX_SAMPLES_PER_FRAME);
   const startSequence = integerIn('start-sequence', num('start-sequence') ?? 0, 0, 65535);
   const axes = integerIn('axes', num('axes') ?? 1, 1, 8);
+  const outputs = integerIn('outputs', num('outputs') ?? 2, 2, 4) as 2 | 3 | 4;
+  if (outputs * axes > WIRE_MAX_CHANNELS) throw new UsageError(`--axes ${axes} with --outputs ${outputs} makes ${outputs * axes} channels; a frame carries at most ${WIRE_MAX_CHANNELS}`);
+  const powerModulation = num('power-modulation');
+  const powerFrequencyHz = num('power-frequency-hz');
+  if ((powerModulation !== undefined || powerFrequencyHz !== undefined) && outputs === 2) {
+    throw new UsageError('--power-modulation and --power-frequency-hz need --outputs 3 or 4 (two outputs cannot tell the power from the signal)');
+  }
+  if (powerModulation !== undefined && !(powerModulation >= 0 && powerModulation <= 0.5)) throw new UsageError(`--power-modulation must be in 0..0.5 (got ${powerModulation})`);
+  if (powerFrequencyHz !== undefined) positive('power-frequency-hz', powerFrequencyHz);
   const durationS = num('duration');
   if (durationS !== undefined) positive('duration', durationS);
   const wavelengthM = positive('wavelength-nm', num('wavelength-nm')) * 1e-9;
@@ -153,6 +173,7 @@ async function run(argv: readonly string[]): Promise<number> {
   if (textMode && (faults.garbageEvery || faults.dropEvery || faults.corruptEvery)) {
     throw new UsageError('--garbage-every, --drop-every and --corrupt-every apply to binary frames, not --text');
   }
+  if (textMode && outputs !== 2) throw new UsageError('--outputs 3 or 4 needs binary frames (the layout travels in them), not --text');
   if (textMode && (values['include-rate'] || text('start-sequence') !== undefined)) {
     throw new UsageError('--include-rate and --start-sequence apply to binary frames, not --text');
   }
@@ -172,6 +193,8 @@ async function run(argv: readonly string[]): Promise<number> {
       fold,
       refractiveIndex,
       ellipse: ellipseOf(values),
+      outputs,
+      ...(outputs === 2 ? {} : { power: { modulation: powerModulation ?? 0, frequencyHz: powerFrequencyHz ?? 10 } }),
       noiseRms: noiseOf(values),
       seed,
       includeRate: values['include-rate'] === true,
@@ -188,6 +211,7 @@ async function run(argv: readonly string[]): Promise<number> {
   const framesPerSecond = rateHz / samplesPerFrame;
   const totalFrames = durationS === undefined ? Number.POSITIVE_INFINITY : Math.ceil((durationS * rateHz) / samplesPerFrame);
   const bytesPerSecond = framesPerSecond * (textMode ? 14 * axes * samplesPerFrame : emulator.frameBytes);
+  if (!quiet && outputs !== 2) process.stderr.write(`note: ${outputs} detector outputs per axis (invented, docs/live.md); listen needs a calibration of them\n`);
   if (!quiet && bytesPerSecond > baudRate / 10) {
     process.stderr.write(
       `note: about ${Math.round(bytesPerSecond)} bytes/s is more than ${baudRate} Bd carries (about ${baudRate / 10} bytes/s with 8N1); ` +
@@ -293,6 +317,7 @@ async function run(argv: readonly string[]): Promise<number> {
     rateHz,
     samplesPerFrame,
     axes,
+    outputs,
     text: textMode,
     startSequence,
     framesMade: log.framesMade,

@@ -10,7 +10,7 @@ import { createSerialByteSource } from '../../src/io/serial/index.js';
 import { createLiveEdgeLatch, latchEdges, type LinkBlock } from '../../src/io/live/index.js';
 import type { AxisBlockSummary } from '../../src/stream/index.js';
 import { WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
-import { readCalibrationFile, readCalibrationFitResidual, readCalibrationHarmonics } from '../calibration-file.js';
+import { readCalibrationFitResidual, readCalibrationHarmonics, readCalibrationLayout } from '../calibration-file.js';
 import { checkFiles, formatNumber, LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { createLiveSession, type LiveSession, type LiveSink, type LiveSummary } from '../live/live-session.js';
 import { createStatusLine, formatStatus } from '../live/status-line.js';
@@ -57,7 +57,9 @@ Options:
                            (fractional sample index), axis, line, edge (rising|falling), position_m,
                            uncertainty_m (bound of the interpolation error, m), velocity_m_s, alarms
                            (docs/trigger-edges.md)
-  --calibration FILE       calibration from fringetally calibrate (default: live fit)
+  --calibration FILE       calibration from fringetally calibrate (default: live fit); a calibration of 3 or 4
+                           detector outputs (calibrate --channels) tracks an axis whose frames carry as many
+                           (wire format version 3): they are combined into the power-normalised pair
   --fit-samples N          samples for the live fit, 64..16777216 (default ${DEFAULT_FIT_SAMPLES}); retried up to 8 times
   --rate-hz R              sample rate, Hz, when the frames carry no rate field (required with --text)
   --axis K                 axis to track in multi-axis frames: channels 2K (x) and 2K+1 (y) (default 0)
@@ -188,11 +190,19 @@ async function run(argv: readonly string[]): Promise<number> {
       ...(latchOut === undefined ? [] : [{ option: '--latch-out', path: latchOut }]),
     ],
   );
-  const calibration = values.calibration === undefined ? null : await readCalibrationFile(values.calibration);
+  const layout = values.calibration === undefined ? null : await readCalibrationLayout(values.calibration);
+  const calibration = layout?.ellipse ?? null;
   // What replay applies beyond the ellipse: the file's harmonic correction, and the calibration_stale watch (bound
   // from the file's fit residual, or the live fit's).
   const harmonics = values.calibration === undefined ? undefined : await readCalibrationHarmonics(values.calibration);
   const fitResidualRms = values.calibration === undefined ? undefined : await readCalibrationFitResidual(values.calibration);
+  // Three or four outputs: their parameters calibrate the axis (the live fit takes two outputs only).
+  const axisCalibration =
+    layout === null
+      ? { calibration: 'fit' as const }
+      : layout.ellipse === null
+        ? { channels: layout.channels, calibration: null }
+        : { calibration: layout.ellipse, ...(harmonics === undefined ? {} : { harmonics }) };
   const maxBufferedBytes = integerOption('input-buffer-mib', values['input-buffer-mib'], DEFAULT_INPUT_BUFFER_MIB, 1, 4096) * 2 ** 20;
   const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetryDelayMs: Math.max(5000, retryDelayMs), maxRetriesBeforeFirstOpen: openRetries });
   // Every option, including the chain's, is checked here: nothing is opened before.
@@ -203,16 +213,7 @@ async function run(argv: readonly string[]): Promise<number> {
     chain = createLiveSession({
       source,
       track: {
-        axes: [
-          {
-            name: 'X',
-            channelPair: axis,
-            ...scale,
-            calibration: calibration ?? 'fit',
-            ...(harmonics === undefined ? {} : { harmonics }),
-            modelWatch: fitResidualRms === undefined ? {} : { fitResidualRms },
-          },
-        ],
+        axes: [{ name: 'X', channelPair: axis, ...scale, ...axisCalibration, modelWatch: fitResidualRms === undefined ? {} : { fitResidualRms } }],
         link: textMode ? { mode: 'text', channelCount: channels, rateHz } : { maxSamplesPerFrame, ...(rateHz === undefined ? {} : { rateHz }) },
         fitSamples,
         ...(durationS === undefined ? {} : { durationS }),
@@ -271,10 +272,17 @@ async function run(argv: readonly string[]): Promise<number> {
       samples(block) {
         const first = !started;
         started = true;
-        if (first) feed?.start(chain.axes, block.rateHz, chain.axes.readings$.pipe(latchEdges()));
-        if (first) statusLine.log(`first samples: ${block.channelCount} channels, tracking axis ${axis}, ${block.rateHz} Hz (${chain.axes.linkStatus?.rateSource === 'option' ? '--rate-hz' : 'from the frames'})`);
+        const outputs = block.axisOutputs[axis];
+        if (first) feed?.start(chain.axes, block.rateHz, chain.axes.readings$.pipe(latchEdges()), outputs === undefined ? [] : [outputs]);
+        if (first) {
+          statusLine.log(
+            `first samples: ${block.channelCount} channels, tracking axis ${axis}${outputs === undefined || outputs === 2 ? '' : ` (${outputs} detector outputs)`}, ` +
+              `${block.rateHz} Hz (${chain.axes.linkStatus?.rateSource === 'option' ? '--rate-hz' : 'from the frames'})`,
+          );
+        }
         if (record === undefined) return;
-        if (block.channelCount <= 2 * axis + 1) return;
+        if (outputs === undefined) return;
+        if (outputs !== 2) throw new Error(`--record writes the two outputs of a pair; the frames carry ${outputs} for axis ${axis}: leave --record out`);
         const copy = copyAxis(block, axis);
         return async () => {
           if (first) recorder = await openRecord(record, recordExtension, block.rateHz, port, axis, scale);
@@ -343,7 +351,7 @@ async function run(argv: readonly string[]): Promise<number> {
       },
     });
   }
-  statusLine.log(`listening on ${source.name}${calibration === null ? `; fitting the correction to the first ${fitSamples} samples (rows held back until then)` : ''}`);
+  statusLine.log(`listening on ${source.name}${layout === null ? `; fitting the correction to the first ${fitSamples} samples (rows held back until then)` : ''}`);
 
   const controller = new AbortController();
   const stop = () => controller.abort();
@@ -474,13 +482,14 @@ function retryText(attempt: number, wasUp: boolean): string {
 }
 let maxRetriesShown = DEFAULT_OPEN_RETRIES;
 
-/** Axis `axis` of an interleaved block, copied: the block is reused before the record's write runs. */
+/** Axis `axis` (a pair) of an interleaved block, copied: the block is reused before the record's write runs. */
 function copyAxis(block: LinkBlock, axis: number): { x: Int16Array; y: Int16Array; length: number } {
   const n = block.samplesPerFrame;
   const x = new Int16Array(n);
   const y = new Int16Array(n);
   const stride = block.channelCount;
-  let at = 2 * axis;
+  let at = 0;
+  for (let a = 0; a < axis; a++) at += block.axisOutputs[a]!;
   for (let i = 0; i < n; i++) {
     x[i] = block.samples[at]!;
     y[i] = block.samples[at + 1]!;
@@ -569,6 +578,7 @@ function summaryRecord(
     countLostAtEnd: progress.countLost,
     calibrationSource: progress.calibration === 'given' ? 'file' : 'live fit',
     calibration: okFit?.calibration ?? calibration,
+    detectorOutputs: link !== null && link.axisOutputs.length > 0 ? link.axisOutputs : null,
     fit: okFit === null ? null : { samples: okFit.samples, coverage: okFit.coverage, residualRms: okFit.residualRms },
     wire: link?.wire ? { ...link.wire } : null,
     text: link?.text ? { ...link.text } : null,

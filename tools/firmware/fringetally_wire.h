@@ -1,5 +1,5 @@
 /*
- * fringetally_wire.h - header-only encoder for the fringetally serial frame, versions 1 and 2.
+ * fringetally_wire.h - header-only encoder for the fringetally serial frame, versions 1 to 3.
  * For firmware: C99, no dynamic memory, no library calls, output independent of the CPU's byte order.
  * Layout, CRC and sequence rules: docs/wire-format.md. CRC-32C (Castagnoli) with a 16-entry table.
  *
@@ -7,7 +7,8 @@
  * buffer), write the samples at out + ft_wire_header_size(), then ft_wire_write_header(), then ft_wire_finish().
  * The header size depends on the flags only, so the samples' place is known before the edges are; write the
  * header once the frame's sampling has ended, when the edge count is final.
- * A frame is version 2 when it carries the sample counter or edges, else version 1.
+ * A frame is version 3 when it carries a channel layout, else version 2 when it carries the sample counter or
+ * edges, else version 1.
  */
 #ifndef FRINGETALLY_WIRE_H
 #define FRINGETALLY_WIRE_H
@@ -19,12 +20,14 @@
 #define FT_WIRE_SYNC1 0x5Au
 #define FT_WIRE_VERSION 1u
 #define FT_WIRE_VERSION_2 2u
+#define FT_WIRE_VERSION_3 3u
 #define FT_WIRE_FORMAT_INT16LE 1u
 #define FT_WIRE_FLAG_SAMPLE_RATE 0x01u
 #define FT_WIRE_FLAG_TIMESTAMP 0x02u
 #define FT_WIRE_FLAG_SAMPLE_COUNTER 0x04u /* version 2 */
 #define FT_WIRE_FLAG_EDGES 0x08u          /* version 2 */
-#define FT_WIRE_KNOWN_FLAGS 0x0Fu
+#define FT_WIRE_FLAG_CHANNEL_LAYOUT 0x10u /* version 3 */
+#define FT_WIRE_KNOWN_FLAGS 0x1Fu
 #define FT_WIRE_FIXED_HEADER_BYTES 10u
 #define FT_WIRE_EDGE_BYTES 6u
 #define FT_WIRE_CRC_BYTES 4u
@@ -36,7 +39,7 @@
 #define FT_WIRE_EDGE_LINE_REFERENCE_MARK 1u
 /* Largest frame: header, every optional field, payload, the most edges, CRC. */
 #define FT_WIRE_MAX_FRAME_BYTES                                                                          \
-  (FT_WIRE_FIXED_HEADER_BYTES + 14u + FT_WIRE_MAX_CHANNELS * FT_WIRE_MAX_SAMPLES_PER_FRAME * 2u +        \
+  (FT_WIRE_FIXED_HEADER_BYTES + 18u + FT_WIRE_MAX_CHANNELS * FT_WIRE_MAX_SAMPLES_PER_FRAME * 2u +        \
    FT_WIRE_MAX_EDGES_PER_FRAME * FT_WIRE_EDGE_BYTES + FT_WIRE_CRC_BYTES)
 
 /* One edge of a digital input, timed against the sample clock (e.g. by a timer's capture unit). */
@@ -49,7 +52,7 @@ typedef struct {
 
 typedef struct {
   uint16_t sequence;          /* +1 per frame, wraps 65535 -> 0 */
-  uint8_t channel_count;      /* even, 2..16; channel 2k = x, 2k+1 = y of axis k */
+  uint8_t channel_count;      /* 2..16: even without a layout (channel 2k = x, 2k+1 = y of axis k), else the layout's sum */
   uint8_t flags;              /* FT_WIRE_FLAG_* bits; others must be 0 */
   uint16_t samples_per_frame; /* samples per channel, 1..4096 */
   uint32_t sample_rate_hz;    /* sent when FT_WIRE_FLAG_SAMPLE_RATE is set (must be >= 1) */
@@ -57,7 +60,22 @@ typedef struct {
   uint32_t sample_counter;    /* count of the frame's first sample, +samples_per_frame per frame, sent when FT_WIRE_FLAG_SAMPLE_COUNTER is set */
   uint16_t edge_count;        /* edges in `edges`, 0..256, sent when FT_WIRE_FLAG_EDGES is set */
   const ft_wire_edge *edges;  /* edge_count records (may be NULL when edge_count is 0) */
+  uint32_t channel_layout;    /* detector outputs (2..4) of axis k in bits 4k..4k+3, 0 after the last axis;
+                                 sent when FT_WIRE_FLAG_CHANNEL_LAYOUT is set, e.g. 0x3 for one three-output axis */
 } ft_wire_header;
+
+/* True when `layout` lists 1..8 axes of 2..4 outputs each (then zeros) whose sum is `channel_count`. */
+static inline int ft_wire_layout_valid(uint32_t layout, unsigned channel_count) {
+  unsigned sum = 0u;
+  if (layout == 0u) return 0;
+  while (layout != 0u) {
+    unsigned outputs = (unsigned)(layout & 0x0Fu);
+    if (outputs < 2u || outputs > 4u) return 0;
+    sum += outputs;
+    layout >>= 4;
+  }
+  return sum == channel_count;
+}
 
 /* CRC-32C, reflected polynomial 0x82F63B78, processed a nibble at a time (64-byte table). */
 static inline uint32_t ft_wire_crc32c_update(uint32_t state, const uint8_t *data, size_t length) {
@@ -84,6 +102,7 @@ static inline size_t ft_wire_header_size(const ft_wire_header *header) {
   if (header->flags & FT_WIRE_FLAG_TIMESTAMP) size += 4u;
   if (header->flags & FT_WIRE_FLAG_SAMPLE_COUNTER) size += 4u;
   if (header->flags & FT_WIRE_FLAG_EDGES) size += 2u;
+  if (header->flags & FT_WIRE_FLAG_CHANNEL_LAYOUT) size += 4u;
   return size;
 }
 
@@ -95,7 +114,9 @@ static inline size_t ft_wire_edges_sent(const ft_wire_header *header) {
 /* Bytes of the whole frame, or 0 when the header or an edge is invalid. */
 static inline size_t ft_wire_frame_size(const ft_wire_header *header) {
   size_t e, edges = ft_wire_edges_sent(header);
-  if (header->channel_count < 2u || header->channel_count > FT_WIRE_MAX_CHANNELS || (header->channel_count & 1u) != 0u) {
+  if (header->channel_count < 2u || header->channel_count > FT_WIRE_MAX_CHANNELS) return 0;
+  if ((header->flags & FT_WIRE_FLAG_CHANNEL_LAYOUT) ? !ft_wire_layout_valid(header->channel_layout, header->channel_count)
+                                                    : (header->channel_count & 1u) != 0u) {
     return 0;
   }
   if (header->samples_per_frame < 1u || header->samples_per_frame > FT_WIRE_MAX_SAMPLES_PER_FRAME) return 0;
@@ -131,8 +152,10 @@ static inline size_t ft_wire_write_header(const ft_wire_header *header, uint8_t 
   if (frame_size == 0u || frame_size > capacity) return 0;
   *at++ = FT_WIRE_SYNC0;
   *at++ = FT_WIRE_SYNC1;
-  /* Version 1 whenever the frame needs no version 2 field, so version 1 readers keep working. */
-  *at++ = (header->flags & (FT_WIRE_FLAG_SAMPLE_COUNTER | FT_WIRE_FLAG_EDGES)) ? FT_WIRE_VERSION_2 : FT_WIRE_VERSION;
+  /* The lowest version that has every field used, so readers of earlier versions keep working. */
+  *at++ = (header->flags & FT_WIRE_FLAG_CHANNEL_LAYOUT)                               ? FT_WIRE_VERSION_3
+          : (header->flags & (FT_WIRE_FLAG_SAMPLE_COUNTER | FT_WIRE_FLAG_EDGES)) ? FT_WIRE_VERSION_2
+                                                                                  : FT_WIRE_VERSION;
   *at++ = FT_WIRE_FORMAT_INT16LE;
   *at++ = header->channel_count;
   *at++ = header->flags;
@@ -142,6 +165,7 @@ static inline size_t ft_wire_write_header(const ft_wire_header *header, uint8_t 
   if (header->flags & FT_WIRE_FLAG_TIMESTAMP) at = ft_wire_put_u32(at, header->timestamp_us);
   if (header->flags & FT_WIRE_FLAG_SAMPLE_COUNTER) at = ft_wire_put_u32(at, header->sample_counter);
   if (header->flags & FT_WIRE_FLAG_EDGES) at = ft_wire_put_u16(at, header->edge_count);
+  if (header->flags & FT_WIRE_FLAG_CHANNEL_LAYOUT) at = ft_wire_put_u32(at, header->channel_layout);
   return (size_t)(at - out);
 }
 

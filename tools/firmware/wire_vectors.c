@@ -2,7 +2,7 @@
  * wire_vectors.c - test driver for fringetally_wire.h: reads commands on stdin, one per line, and prints
  * one hex line per command, so the TypeScript tests can compare the C encoder with the shared vectors.
  *   crc HEXBYTES                                      -> CRC-32C as 8 hex digits (up to 4096 bytes)
- *   frame SEQ CHANNELS SPF FLAGS RATE TS COUNTER E S0 S1 ... [SAMPLE LEAD LINE RISING] x E
+ *   frame SEQ CHANNELS SPF FLAGS RATE TS COUNTER LAYOUT E S0 S1 ... [SAMPLE LEAD LINE RISING] x E
  *                                                     -> the frame in hex, or "error" when encoding refuses
  */
 #include <stdio.h>
@@ -44,13 +44,13 @@ static int run_crc(void) {
 }
 
 static int run_frame(void) {
-  unsigned long sequence, channels, samples_per_frame, flags, rate, timestamp, counter, edges;
+  unsigned long sequence, channels, samples_per_frame, flags, rate, timestamp, counter, layout, edges;
   unsigned long sample, lead, line, rising;
   ft_wire_header header;
   size_t count, i, size;
   long value;
-  if (scanf("%lu %lu %lu %lu %lu %lu %lu %lu", &sequence, &channels, &samples_per_frame, &flags, &rate, &timestamp,
-            &counter, &edges) != 8) {
+  if (scanf("%lu %lu %lu %lu %lu %lu %lu %lu %lu", &sequence, &channels, &samples_per_frame, &flags, &rate, &timestamp,
+            &counter, &layout, &edges) != 9) {
     return 1;
   }
   header.sequence = (uint16_t)sequence;
@@ -60,6 +60,7 @@ static int run_frame(void) {
   header.sample_rate_hz = (uint32_t)rate;
   header.timestamp_us = (uint32_t)timestamp;
   header.sample_counter = (uint32_t)counter;
+  header.channel_layout = (uint32_t)layout;
   /* One record more than allowed may be read, so that the encoder is the one to refuse 257 edges. */
   if (edges > FT_WIRE_MAX_EDGES_PER_FRAME + 1u) return 1;
   header.edge_count = (uint16_t)edges;

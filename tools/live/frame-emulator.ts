@@ -5,6 +5,7 @@ import {
   createMotionProfile,
   createQuadratureSynthesizer,
   createRandom,
+  type ChannelParameters,
   type EllipseCalibration,
   type MotionSpec,
   type QuadratureSynthesizer,
@@ -20,6 +21,32 @@ import {
   WIRE_SEQUENCE_MODULUS,
   type WireEdge,
 } from '../../src/io/wire/index.js';
+
+/**
+ * The detector outputs emulated for three and four outputs per axis (invented, unequal on purpose), in ADC counts
+ * at the mean source power: I_k = P·(offset + amplitude·cos(φ − phaseRad)), DC-coupled (every output positive).
+ * Three outputs 120° apart (a 3×3 coupler), four at 0/90/180/270° (two balanced pairs).
+ */
+export const EMULATED_OUTPUTS: Readonly<Record<3 | 4, readonly ChannelParameters[]>> = {
+  3: [
+    { offset: 12000, amplitude: 10000, phaseRad: 0 },
+    { offset: 11500, amplitude: 9500, phaseRad: (2 * Math.PI) / 3 },
+    { offset: 12500, amplitude: 10500, phaseRad: (4 * Math.PI) / 3 },
+  ],
+  4: [
+    { offset: 12000, amplitude: 10000, phaseRad: 0 },
+    { offset: 11800, amplitude: 9800, phaseRad: Math.PI / 2 },
+    { offset: 12200, amplitude: 10200, phaseRad: Math.PI },
+    { offset: 11900, amplitude: 9900, phaseRad: (3 * Math.PI) / 2 },
+  ],
+};
+
+/** The source power factor P(t) = 1 + modulation·sin(2π·frequencyHz·t) of three- and four-output detectors. */
+export interface SourcePower {
+  /** Relative amplitude of the power's variation, 0..0.5. */
+  readonly modulation: number;
+  readonly frequencyHz: number;
+}
 
 /** Rising edges on the trigger input (line 0), sent in version 2 frames: at a steady rate and/or at given times. */
 export interface TriggerEdges {
@@ -49,8 +76,12 @@ export interface FrameEmulatorOptions {
   readonly wavelengthM: number;
   readonly fold: number;
   readonly refractiveIndex: number;
-  /** Detector ellipse in ADC counts. */
+  /** Detector ellipse in ADC counts (two outputs per axis). */
   readonly ellipse: EllipseCalibration;
+  /** Detector outputs per axis: 2 (the ellipse), or 3 or 4 (`EMULATED_OUTPUTS`, sent with a channel layout). Default 2. */
+  readonly outputs?: 2 | 3 | 4;
+  /** Three or four outputs: the source power's variation. Default constant (P = 1). */
+  readonly power?: SourcePower;
   /** Gaussian noise per channel, counts RMS. */
   readonly noiseRms: number;
   readonly seed: number;
@@ -100,7 +131,9 @@ export interface FrameEmulator {
 
 export function createFrameEmulator(options: FrameEmulatorOptions): FrameEmulator {
   const { rateHz, samplesPerFrame, axes, faults } = options;
-  const channelCount = 2 * axes;
+  const outputs = options.outputs ?? 2;
+  const channelCount = outputs * axes;
+  const layout = outputs === 2 ? undefined : Array.from({ length: axes }, () => outputs);
   const profile = createMotionProfile(options.motion, rateHz);
   const radPerMetre = (2 * Math.PI * options.fold * options.refractiveIndex) / options.wavelengthM;
   const synthesizers: QuadratureSynthesizer[] = Array.from({ length: axes }, (_, k) =>
@@ -108,16 +141,25 @@ export function createFrameEmulator(options: FrameEmulatorOptions): FrameEmulato
   );
   const random = createRandom((options.seed * 7919 + 17) >>> 0);
   const withEdges = options.triggers !== undefined;
-  const flags = (options.includeRate ? WireFlag.sampleRate : 0) | (withEdges ? WireFlag.edges : 0);
+  const flags = (options.includeRate ? WireFlag.sampleRate : 0) | (withEdges ? WireFlag.edges : 0) | (layout === undefined ? 0 : WireFlag.channelLayout);
   const frameBytes = options.text ? 0 : wireFrameLength(channelCount, samplesPerFrame, flags);
   const edges = withEdges ? createTriggerClock(options.triggers!, rateHz) : null;
-  const header: { sequence: number; channelCount: number; samplesPerFrame: number; sampleRateHz: number | undefined; edges: WireEdge[] | undefined } = {
+  const header: {
+    sequence: number;
+    channelCount: number;
+    samplesPerFrame: number;
+    sampleRateHz: number | undefined;
+    edges: WireEdge[] | undefined;
+    channelLayout: number[] | undefined;
+  } = {
     sequence: options.startSequence,
     channelCount,
     samplesPerFrame,
     sampleRateHz: options.includeRate ? rateHz : undefined,
     edges: withEdges ? [] : undefined,
+    channelLayout: layout,
   };
+  const detectors = outputs === 2 ? null : createDetectorOutputs(EMULATED_OUTPUTS[outputs], options.power, options.noiseRms, options.seed, rateHz);
   const frameSamples = new Int16Array(channelCount * samplesPerFrame);
   const log: EmulatorLog = { framesMade: 0, framesSent: 0, samplesMade: 0, edgesMade: 0, bytesMade: 0, dropped: [], corrupted: [], garbage: [] };
 
@@ -155,6 +197,10 @@ export function createFrameEmulator(options: FrameEmulatorOptions): FrameEmulato
     for (let i = 0; i < samples; i++) phase[i] = position[i]! * radPerMetre;
     for (let k = 0; k < axes; k++) {
       for (let i = 0; i < samples; i++) axisPhase[i] = phase[i]! * (k + 1);
+      if (detectors !== null) {
+        detectors.process(axisPhase, firstSample, samples, interleaved, outputs * k, channelCount);
+        continue;
+      }
       synthesizers[k]!.process(axisPhase, x, y, samples);
       for (let i = 0, at = 2 * k; i < samples; i++, at += channelCount) {
         interleaved[at] = x[i]!;
@@ -243,6 +289,28 @@ function createTriggerClock(triggers: TriggerEdges, rateHz: number) {
         // An edge before the first sample has no sample before it to interpolate from: it is not sent.
         if (sample <= 0) continue;
         out.push({ sample: sample - firstSample, lead: sample * WIRE_EDGE_LEAD_UNITS - at, line: WireEdgeLine.trigger, rising: true });
+      }
+    },
+  };
+}
+
+/**
+ * Three or four detector outputs per axis: I_k = P(t)·(offset_k + amplitude_k·cos(φ − phaseRad_k)) plus Gaussian
+ * noise, rounded to int16 (clamped at full scale), written interleaved from channel `first` with stride `stride`.
+ */
+function createDetectorOutputs(layout: readonly ChannelParameters[], power: SourcePower | undefined, noiseRms: number, seed: number, rateHz: number) {
+  const random = createRandom((seed * 104729 + 3) >>> 0);
+  const omega = power === undefined ? 0 : (2 * Math.PI * power.frequencyHz) / rateHz;
+  const modulation = power?.modulation ?? 0;
+  return {
+    process(phase: Float64Array, firstSample: number, samples: number, out: Int16Array, first: number, stride: number): void {
+      for (let i = 0, at = first; i < samples; i++, at += stride) {
+        const p = 1 + modulation * Math.sin(omega * (firstSample + i));
+        for (let k = 0; k < layout.length; k++) {
+          const { offset, amplitude, phaseRad } = layout[k]!;
+          const value = Math.round(p * (offset + amplitude * Math.cos(phase[i]! - phaseRad)) + noiseRms * random.gaussian());
+          out[at + k] = Math.max(-32768, Math.min(32767, value));
+        }
       }
     },
   };

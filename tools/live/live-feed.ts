@@ -146,7 +146,7 @@ export function feedSettingsOf(values: Record<string, string | boolean | string[
 
 export interface LiveFeed {
   /** Attaches the session's axes (and its edges) on the first samples: from then on updates flow (state `live`). Once. */
-  start(axes: Axes, rateHz: number, edges$?: Observable<FeedEdgeInput>): void;
+  start(axes: Axes, rateHz: number, edges$?: Observable<FeedEdgeInput>, detectorOutputs?: readonly number[]): void;
   /** Lines for the log: where the feed is (the token never appears, only where it came from). */
   describe(): string[];
   /** The MQTT publisher's link to its broker, for the summary; null without --mqtt. */
@@ -176,8 +176,8 @@ export async function openLiveFeed(
     publisher = createMqttPublisher({ ...feedSettings.mqtt, onReference, onEvent: (event) => log(mqttEventLine(url, event)) });
   }
   return {
-    start(axes, rateHz, edges$) {
-      const source = { axes, rateHz, ...(edges$ === undefined ? {} : { edges$ }) };
+    start(axes, rateHz, edges$, detectorOutputs) {
+      const source = { axes, rateHz, ...(edges$ === undefined ? {} : { edges$ }), ...(detectorOutputs === undefined ? {} : { detectorOutputs }) };
       server?.attach(source);
       publisher?.attach(source);
     },

@@ -45,6 +45,8 @@ export interface FeedSource {
    * subscribed client as an `edge` message (WebSocket) or on `<prefix>/edge` (MQTT), as it comes.
    */
   readonly edges$?: Observable<FeedEdgeInput>;
+  /** Detector outputs of each axis (2, 3 or 4), reported in `status` messages. Default: not reported (null). */
+  readonly detectorOutputs?: readonly number[];
 }
 
 export interface FeedServerOptions {
@@ -338,6 +340,7 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
       state,
       axes: source?.axes.names ?? [],
       lowSignalLevel: source === null ? null : (source.lowSignalLevel ?? 0.3),
+      detectorOutputs: source?.detectorOutputs ?? null,
       ...feedTimeBase(source?.rateHz ?? null, latestSampleIndex),
     };
   }

@@ -142,6 +142,8 @@ export interface FeedStatusMessage extends FeedTimeBase {
   readonly axes: readonly string[];
   /** The low-signal threshold of the `level` values (1 on the calibrated ellipse); null while waiting. */
   readonly lowSignalLevel: number | null;
+  /** Detector outputs of each axis (2 a quadrature pair, 3 or 4 combined into one), in `axes` order; null when the source does not say. */
+  readonly detectorOutputs: readonly number[] | null;
 }
 
 export interface FeedHelloMessage {

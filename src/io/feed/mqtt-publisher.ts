@@ -145,6 +145,8 @@ export interface MqttStatusMessage extends FeedTimeBase {
   readonly state: 'online' | 'offline';
   readonly measurement: FeedState;
   readonly axes: readonly string[];
+  /** As in the feed's status: detector outputs of each axis, or null. */
+  readonly detectorOutputs: readonly number[] | null;
 }
 
 /** Largest command payload read, bytes (as the WebSocket feed's default message limit). */
@@ -202,6 +204,7 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
       state,
       measurement,
       axes: source?.axes.names ?? [],
+      detectorOutputs: source?.detectorOutputs ?? null,
       ...feedTimeBase(source?.rateHz ?? null, latestSampleIndex),
     };
     return JSON.stringify(message);

@@ -8,6 +8,7 @@ import { integerInRange, oneOf, OptionError, positiveFinite } from '../../core/i
 import type { FrameBlock } from '../../stream/index.js';
 import type { ByteSourceEvent, LinkEvent } from '../serial/index.js';
 import {
+  axisOutputsOf,
   createLineDecoder,
   createWireDecoder,
   WIRE_MAX_CHANNELS,
@@ -50,6 +51,8 @@ export interface LinkBlock extends FrameBlock {
   readonly kind: 'samples';
   readonly samples: Int16Array;
   readonly channelCount: number;
+  /** Detector outputs of each axis (2 each unless the frames carry a channel layout, wire format version 3). */
+  readonly axisOutputs: readonly number[];
   /** Samples per channel in this block. */
   readonly samplesPerFrame: number;
   /** Samples lost just before this block (0: none). */
@@ -104,6 +107,8 @@ export interface LinkReaderStatus {
   rateSource: 'frames' | 'option' | null;
   /** Channels of the latest block; 0 until the first samples. */
   channelCount: number;
+  /** Detector outputs of each axis of the latest block (2 each unless the frames carry a channel layout); empty until the first samples. */
+  axisOutputs: readonly number[];
   samplesDelivered: number;
   /** Next absolute index: delivered plus lost. */
   nextSampleIndex: number;
@@ -153,6 +158,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
     rateHz: Number.NaN,
     rateSource: null,
     channelCount: 0,
+    axisOutputs: [],
     samplesDelivered: 0,
     nextSampleIndex: 0,
     gaps: 0,
@@ -167,12 +173,14 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
   let buffer = new Int16Array(4096);
   let length = 0;
   let channels = 0;
+  let layout = 0;
   let pendingGap = 0;
   let linkGapPending = false;
   const block = {
     kind: 'samples' as const,
     samples: buffer.subarray(0, 0),
     channelCount: 0,
+    axisOutputs: [] as readonly number[],
     samplesPerFrame: 0,
     gapBefore: 0,
     sampleIndex: 0,
@@ -213,6 +221,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
     const n = length / channels;
     block.samples = buffer.subarray(0, length);
     block.channelCount = channels;
+    block.axisOutputs = status.axisOutputs;
     block.samplesPerFrame = n;
     block.gapBefore = pendingGap;
     block.sampleIndex = status.nextSampleIndex;
@@ -263,10 +272,13 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
       linkGapPending = false;
       gap(1, 'link');
     }
-    if (decoded.channelCount !== channels) {
+    if (decoded.channelCount !== channels || decoded.channelLayout !== layout) {
       flush();
       channels = decoded.channelCount;
+      layout = decoded.channelLayout;
       status.channelCount = channels;
+      // The decoder let only valid layouts through.
+      status.axisOutputs = Object.freeze(axisOutputsOf(channels, layout)!);
     }
     const values = decoded.samplesPerFrame * channels;
     if (length + values > buffer.length) {
@@ -328,6 +340,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
       text?.reset();
       length = 0;
       channels = 0;
+      layout = 0;
       pendingGap = 0;
       linkGapPending = false;
       Object.assign(status, {
@@ -337,6 +350,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
         rateHz: Number.NaN,
         rateSource: null,
         channelCount: 0,
+        axisOutputs: [],
         samplesDelivered: 0,
         nextSampleIndex: 0,
         gaps: 0,

@@ -156,6 +156,7 @@ function createHoldStore() {
     start: number;
     samples: number;
     channelCount: number;
+    axisOutputs: readonly number[];
     gapBefore: number;
     sampleIndex: number;
     rateHz: number;
@@ -183,6 +184,7 @@ function createHoldStore() {
         start: used,
         samples: block.samplesPerFrame,
         channelCount: block.channelCount,
+        axisOutputs: block.axisOutputs,
         gapBefore: block.gapBefore,
         sampleIndex: block.sampleIndex,
         rateHz: block.rateHz,
@@ -212,6 +214,11 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
   const fitAttempts = integerInRange('fitAttempts', options.fitAttempts ?? 8, 1, 64);
   const durationS = options.durationS === undefined ? undefined : positiveFinite('durationS', options.durationS);
   const fitted = options.axes.map((axis) => axis.calibration === 'fit');
+  options.axes.forEach((axis, k) => {
+    if (fitted[k] && axis.channels !== undefined) {
+      throw new OptionError(`axes[${k}].calibration`, 'a fixed calibration (null) for 3 or 4 outputs: the live fit takes two outputs per axis', 'fit');
+    }
+  });
   const runnerOptions = (rateHz: number, calibrations: readonly (EllipseCalibration | null | undefined)[], fitResiduals: readonly number[] = []): AxesRunnerOptions => ({
     axes: options.axes.map((axis, k) => ({
       ...axis,
@@ -304,6 +311,7 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
             kind: 'samples',
             samples: values.subarray(from, from + n * segment.channelCount),
             channelCount: segment.channelCount,
+            axisOutputs: segment.axisOutputs,
             samplesPerFrame: n,
             gapBefore: done === 0 ? segment.gapBefore : 0,
             sampleIndex: segment.sampleIndex + done,
@@ -470,6 +478,19 @@ function referenceAtMarks(runner: AxesRunner, block: LinkBlock): void {
 }
 
 /**
+ * The first channel of frame axis `axis` in interleaved frames of this layout (pairs when absent). The live fit
+ * takes two outputs: an axis with 3 or 4 ends the stream with an error naming the fix.
+ */
+function firstChannelOf(axisOutputs: readonly number[], axis: number): number {
+  if (axisOutputs[axis] !== 2) {
+    throw new Error(`the frames carry ${axisOutputs[axis] ?? 'no'} detector outputs for axis ${axis}: the live fit takes two; give a calibration of those outputs (fringetally calibrate --channels)`);
+  }
+  let first = 0;
+  for (let a = 0; a < axis; a++) first += axisOutputs[a]!;
+  return first;
+}
+
+/**
  * The two-pass fit of one axis over the held samples (`createTwoPassFit`: all samples, then only those near the
  * first fit's ellipse), so that a blocked beam or a glitch during the first samples does not pull the fit.
  */
@@ -481,7 +502,7 @@ function fitAxis(held: ReturnType<typeof createHoldStore>, channelPair: number):
     for (const segment of held.segments) {
       for (let done = 0; done < segment.samples; done += REPLAY_BLOCK) {
         const n = Math.min(REPLAY_BLOCK, segment.samples - done);
-        let at = segment.start + done * segment.channelCount + 2 * channelPair;
+        let at = segment.start + done * segment.channelCount + firstChannelOf(segment.axisOutputs, channelPair);
         for (let i = 0; i < n; i++) {
           x[i] = held.values[at]!;
           y[i] = held.values[at + 1]!;

@@ -3,12 +3,18 @@ import type { SampleArray } from '../../core/index.js';
 import type { FrameBlock } from '../../stream/index.js';
 
 /**
- * The stream layer's `FrameBlock` (interleaved int16 samples, channel 2k is x and 2k + 1 is y of axis k) as the
- * decoders hand it out, with what the link tells about it: sequence, index, rate, device time and edges. One
- * concept, one type: a decoder's block goes into `deinterleaveAxis` or `createAxes` as it is.
+ * The stream layer's `FrameBlock` (interleaved int16 samples, channel 2k is x and 2k + 1 is y of axis k, or with a
+ * channel layout the axes' detector outputs one after the other) as the decoders hand it out, with what the link
+ * tells about it: sequence, index, rate, device time and edges. One concept, one type: a decoder's block goes into
+ * `deinterleaveAxis` or `createAxes` as it is.
  * The object and its `samples` view are reused: read them inside the callback, copy what must outlive it.
  */
 export interface SampleBlock extends FrameBlock {
+  /**
+   * Version 3 frames: the packed channel layout (detector outputs of axis k in bits 4k..4k+3, see
+   * `axisOutputsOf`); 0 when the frame has none (pairs).
+   */
+  readonly channelLayout: number;
   /** Wire frames: the frame's u16 sequence counter. Text lines: the block counter (mod 65536). */
   readonly sequence: number;
   /**
@@ -42,6 +48,9 @@ export const NO_EDGES = Object.freeze({
   edgeLine: new Uint8Array(0),
   edgeRising: new Uint8Array(0),
 });
+
+/** The channel layout of a block without one: pairs. */
+export const NO_LAYOUT = 0;
 
 /**
  * Samples lost in transport, found from a jump of the sequence counter (or of the sample counter, when the

@@ -1,4 +1,4 @@
-// Incremental decoder for the fringetally wire frame, versions 1 and 2 (docs/wire-format.md): byte chunks in,
+// Incremental decoder for the fringetally wire frame, versions 1 to 3 (docs/wire-format.md): byte chunks in,
 // sample blocks out. Keeps partial frames across chunks, hunts for the sync marker after garbage, drops frames
 // failing CRC-32C, drops repeated frames, and tells counted losses from counter restarts. Never throws on bad
 // bytes; one buffer sized for the largest allowed frame, no allocation per frame in steady state.
@@ -21,9 +21,11 @@ import {
   WIRE_SYNC_1,
   WIRE_VERSION,
   WIRE_VERSION_2,
+  WIRE_VERSION_3,
   WireEdgePolarity,
   WireFlag,
   WireSampleFormat,
+  axisOutputsOf,
   readU32,
   wireFlagsKnown,
   wireHeaderLength,
@@ -31,7 +33,7 @@ import {
 } from './format.js';
 
 export interface WireDecoderOptions {
-  /** Largest channel count accepted; even, 2..16. Default 16. Frames with more are rejected (`oversizeHeaders`). */
+  /** Largest channel count accepted; 2..16. Default 16. Frames with more are rejected (`oversizeHeaders`). */
   readonly maxChannels?: number;
   /**
    * Largest samples per frame accepted; 1..4096. Default 4096, the format's maximum. Sets the buffer size with
@@ -113,7 +115,6 @@ const HALF_SAMPLE_COUNTER = WIRE_SAMPLE_COUNTER_MODULUS / 2;
 
 export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
   const maxChannels = integerInRange('maxChannels', options.maxChannels ?? WIRE_MAX_CHANNELS, 2, WIRE_MAX_CHANNELS);
-  if (maxChannels % 2 !== 0) throw new OptionError('maxChannels', 'even', maxChannels);
   const maxSamplesPerFrame = integerInRange(
     'maxSamplesPerFrame',
     options.maxSamplesPerFrame ?? WIRE_MAX_SAMPLES_PER_FRAME,
@@ -147,6 +148,7 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
   const block = {
     samples: sampleStore.subarray(0, 0),
     channelCount: 0,
+    channelLayout: 0,
     samplesPerFrame: 0,
     sequence: 0,
     sampleIndex: 0,
@@ -187,19 +189,24 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
    */
   function frameLengthAt(bytes: Uint8Array, p: number, available: number): number {
     const version = bytes[p + 2]!;
-    if ((version !== WIRE_VERSION && version !== WIRE_VERSION_2) || bytes[p + 3] !== WireSampleFormat.int16le) return 0;
+    if ((version !== WIRE_VERSION && version !== WIRE_VERSION_2 && version !== WIRE_VERSION_3) || bytes[p + 3] !== WireSampleFormat.int16le) return 0;
     const channels = bytes[p + 4]!;
     const flags = bytes[p + 5]!;
     const samplesPerFrame = bytes[p + 8]! | (bytes[p + 9]! << 8);
-    if (channels < 2 || channels > WIRE_MAX_CHANNELS || channels % 2 !== 0) return 0;
+    const layout = (flags & WireFlag.channelLayout) !== 0;
+    // Without a layout the channels are pairs; with one, the layout's sum (checked below).
+    if (channels < 2 || channels > WIRE_MAX_CHANNELS || (!layout && channels % 2 !== 0)) return 0;
     if (!wireFlagsKnown(flags, version) || samplesPerFrame < 1 || samplesPerFrame > WIRE_MAX_SAMPLES_PER_FRAME) return 0;
     const headerLength = wireHeaderLength(flags);
     if (available < headerLength) return -1;
+    // The layout is the last optional field, the edge count the one before it.
+    const edgeCountAt = p + headerLength - (layout ? 4 : 0) - 2;
     let edgeCount = 0;
     if (flags & WireFlag.edges) {
-      edgeCount = bytes[p + headerLength - 2]! | (bytes[p + headerLength - 1]! << 8);
+      edgeCount = bytes[edgeCountAt]! | (bytes[edgeCountAt + 1]! << 8);
       if (edgeCount > WIRE_MAX_EDGES_PER_FRAME) return 0;
     }
+    if (layout && axisOutputsOf(channels, readU32(bytes, p + headerLength - 4)) === null) return 0;
     if (channels > maxChannels || samplesPerFrame > maxSamplesPerFrame) {
       // Allowed by the format, refused by the limits: count it, so the caller can name the limit to raise.
       counters.oversizeHeaders++;
@@ -266,6 +273,7 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     let timestampUs = Number.NaN;
     let sampleCounter = Number.NaN;
     let edgeCount = 0;
+    let channelLayout = 0;
     if (flags & WireFlag.sampleRate) {
       sampleRateHz = readU32(bytes, at);
       at += 4;
@@ -281,6 +289,10 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     if (flags & WireFlag.edges) {
       edgeCount = bytes[at]! | (bytes[at + 1]! << 8);
       at += 2;
+    }
+    if (flags & WireFlag.channelLayout) {
+      channelLayout = readU32(bytes, at);
+      at += 4;
     }
     if (!checkSequence(sequence, sampleCounter, samplesPerFrame, readU32(bytes, p + length - WIRE_CRC_BYTES))) return false;
 
@@ -309,6 +321,7 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     // A new view only when the frame size changes, so steady streams allocate nothing.
     if (block.samples.length !== valueCount) block.samples = sampleStore.subarray(0, valueCount);
     block.channelCount = channels;
+    block.channelLayout = channelLayout;
     block.samplesPerFrame = samplesPerFrame;
     block.sequence = sequence;
     block.sampleIndex = nextSampleIndex;

@@ -1,4 +1,4 @@
-// The fringetally serial frame, versions 1 and 2: constants, sizes and the reference encoder.
+// The fringetally serial frame, versions 1 to 3: constants, sizes and the reference encoder.
 // Layout and rules are specified in docs/wire-format.md; tools/firmware/fringetally_wire.h mirrors them in C.
 
 import { integerInRange, OptionError } from '../../core/options.js';
@@ -9,8 +9,10 @@ export const WIRE_SYNC_0 = 0xa5;
 export const WIRE_SYNC_1 = 0x5a;
 /** The version this code writes when a frame needs none of the version 2 fields. */
 export const WIRE_VERSION = 1;
-/** The version that adds the sample counter and the edge records; the decoder reads both. */
+/** The version that adds the sample counter and the edge records; the decoder reads every version. */
 export const WIRE_VERSION_2 = 2;
+/** The version that adds the channel layout (2, 3 or 4 detector outputs per axis). */
+export const WIRE_VERSION_3 = 3;
 /** Sample-format codes (header byte 3). */
 export const WireSampleFormat = { int16le: 1 } as const;
 /** Flag bits (header byte 5). Optional fields follow the fixed header in bit order; all other bits must be zero. */
@@ -23,9 +25,12 @@ export const WireFlag = {
   sampleCounter: 4,
   /** Version 2: a u16 edge count E; E edge records of 6 bytes follow the samples. */
   edges: 8,
+  /** Version 3: a u32 channel layout, the detector outputs of each axis (4 bits per axis, see `packChannelLayout`). */
+  channelLayout: 16,
 } as const;
 const KNOWN_FLAGS_V1 = WireFlag.sampleRate | WireFlag.timestamp;
 const KNOWN_FLAGS_V2 = KNOWN_FLAGS_V1 | WireFlag.sampleCounter | WireFlag.edges;
+const KNOWN_FLAGS_V3 = KNOWN_FLAGS_V2 | WireFlag.channelLayout;
 
 /** Bytes of the fixed header: sync(2) version(1) format(1) channels(1) flags(1) sequence(2) samplesPerFrame(2). */
 export const WIRE_FIXED_HEADER_BYTES = 10;
@@ -33,6 +38,11 @@ export const WIRE_FIXED_HEADER_BYTES = 10;
 export const WIRE_OPTIONAL_FIELD_BYTES = 4;
 /** Bytes of the edge-count field (u16). */
 export const WIRE_EDGE_COUNT_BYTES = 2;
+/** Detector outputs one axis may have in a channel layout: 2 (a quadrature pair), 3 (about 120° apart) or 4. */
+export const WIRE_MIN_AXIS_OUTPUTS = 2;
+export const WIRE_MAX_AXIS_OUTPUTS = 4;
+/** Axes a channel layout can describe: one 4-bit field each in a u32. */
+export const WIRE_MAX_LAYOUT_AXES = 8;
 /** Bytes of one edge record: sample u16, lead u16, line u8, polarity u8. */
 export const WIRE_EDGE_BYTES = 6;
 export const WIRE_CRC_BYTES = 4;
@@ -69,7 +79,10 @@ export interface WireEdge {
 export interface WireFrameHeader {
   /** u16 frame counter, 0..65535, +1 per frame, wraps. */
   readonly sequence: number;
-  /** Number of interleaved channels, even, 2..16; channel 2k is x and 2k+1 is y of axis k. */
+  /**
+   * Number of interleaved channels, 2..16: even without a channel layout (channel 2k is x and 2k+1 is y of axis
+   * k); with one, the sum of its outputs (the axes' outputs follow each other).
+   */
   readonly channelCount: number;
   /** Samples per channel in this frame, 1..4096. */
   readonly samplesPerFrame: number;
@@ -81,6 +94,42 @@ export interface WireFrameHeader {
   readonly sampleCounter?: number | undefined;
   /** Version 2: edges inside the frame's span, at most 256, or undefined to leave the field out. */
   readonly edges?: readonly WireEdge[] | undefined;
+  /** Version 3: detector outputs of each axis in channel order (each 2..4, 1..8 axes), or undefined to leave it out. */
+  readonly channelLayout?: readonly number[] | undefined;
+}
+
+/**
+ * The channel layout as sent: axis k's outputs in bits 4k..4k+3, the axes from bit 0 up, 0 after the last.
+ * Throws an OptionError for an axis count or an output count out of range.
+ */
+export function packChannelLayout(outputs: readonly number[]): number {
+  integerInRange('channelLayout.length', outputs.length, 1, WIRE_MAX_LAYOUT_AXES);
+  let packed = 0;
+  outputs.forEach((count, k) => {
+    integerInRange(`channelLayout[${k}]`, count, WIRE_MIN_AXIS_OUTPUTS, WIRE_MAX_AXIS_OUTPUTS);
+    packed += count * 16 ** k;
+  });
+  return packed;
+}
+
+/**
+ * The detector outputs of each axis of a frame: from its packed channel layout, or pairs when it has none
+ * (`packed` 0). Null when the layout is invalid: an output count out of 2..4, a field after the first 0, or a sum
+ * other than `channelCount`.
+ */
+export function axisOutputsOf(channelCount: number, packed: number): number[] | null {
+  if (packed === 0) return channelCount % 2 === 0 ? Array.from({ length: channelCount / 2 }, () => 2) : null;
+  const outputs: number[] = [];
+  let rest = packed;
+  let sum = 0;
+  while (rest !== 0) {
+    const count = rest % 16;
+    if (count < WIRE_MIN_AXIS_OUTPUTS || count > WIRE_MAX_AXIS_OUTPUTS) return null;
+    outputs.push(count);
+    sum += count;
+    rest = Math.floor(rest / 16);
+  }
+  return sum === channelCount ? outputs : null;
 }
 
 /** Bytes before the samples for a flags byte: fixed header plus the optional fields. */
@@ -90,7 +139,8 @@ export function wireHeaderLength(flags: number): number {
     (flags & WireFlag.sampleRate ? WIRE_OPTIONAL_FIELD_BYTES : 0) +
     (flags & WireFlag.timestamp ? WIRE_OPTIONAL_FIELD_BYTES : 0) +
     (flags & WireFlag.sampleCounter ? WIRE_OPTIONAL_FIELD_BYTES : 0) +
-    (flags & WireFlag.edges ? WIRE_EDGE_COUNT_BYTES : 0)
+    (flags & WireFlag.edges ? WIRE_EDGE_COUNT_BYTES : 0) +
+    (flags & WireFlag.channelLayout ? WIRE_OPTIONAL_FIELD_BYTES : 0)
   );
 }
 
@@ -101,12 +151,12 @@ export function wireFrameLength(channelCount: number, samplesPerFrame: number, f
 
 /** Largest frame the given limits allow (every optional field present, the most edges). */
 export function wireMaxFrameLength(maxChannels: number, maxSamplesPerFrame: number): number {
-  return wireFrameLength(maxChannels, maxSamplesPerFrame, KNOWN_FLAGS_V2, WIRE_MAX_EDGES_PER_FRAME);
+  return wireFrameLength(maxChannels, maxSamplesPerFrame, KNOWN_FLAGS_V3, WIRE_MAX_EDGES_PER_FRAME);
 }
 
 /** True when a flags byte has only bits the given version defines. */
 export function wireFlagsKnown(flags: number, version = WIRE_VERSION): boolean {
-  return (flags & ~(version === WIRE_VERSION ? KNOWN_FLAGS_V1 : KNOWN_FLAGS_V2)) === 0;
+  return (flags & ~(version === WIRE_VERSION ? KNOWN_FLAGS_V1 : version === WIRE_VERSION_2 ? KNOWN_FLAGS_V2 : KNOWN_FLAGS_V3)) === 0;
 }
 
 function flagsOf(header: WireFrameHeader): number {
@@ -114,13 +164,18 @@ function flagsOf(header: WireFrameHeader): number {
     (header.sampleRateHz === undefined ? 0 : WireFlag.sampleRate) |
     (header.timestampUs === undefined ? 0 : WireFlag.timestamp) |
     (header.sampleCounter === undefined ? 0 : WireFlag.sampleCounter) |
-    (header.edges === undefined ? 0 : WireFlag.edges)
+    (header.edges === undefined ? 0 : WireFlag.edges) |
+    (header.channelLayout === undefined ? 0 : WireFlag.channelLayout)
   );
 }
 
-/** The version a header needs: 2 when it uses a version 2 field, else 1 (so version 1 readers keep working). */
+/**
+ * The version a header needs: the lowest that defines every field it uses (3 for a channel layout, 2 for the
+ * sample counter or edges, else 1), so readers of the earlier versions keep working with frames that need nothing newer.
+ */
 export function wireVersionOf(header: WireFrameHeader): number {
-  return flagsOf(header) & ~KNOWN_FLAGS_V1 ? WIRE_VERSION_2 : WIRE_VERSION;
+  const flags = flagsOf(header);
+  return flags & ~KNOWN_FLAGS_V2 ? WIRE_VERSION_3 : flags & ~KNOWN_FLAGS_V1 ? WIRE_VERSION_2 : WIRE_VERSION;
 }
 
 
@@ -139,7 +194,11 @@ export function wireFrameLengthOf(header: WireFrameHeader): number {
 export function encodeWireFrame(header: WireFrameHeader, samples: ArrayLike<number>, out: Uint8Array, offset = 0): number {
   integerInRange('sequence', header.sequence, 0, WIRE_SEQUENCE_MODULUS - 1);
   integerInRange('channelCount', header.channelCount, 2, WIRE_MAX_CHANNELS);
-  if (header.channelCount % 2 !== 0) throw new OptionError('channelCount', 'even', header.channelCount);
+  const layout = header.channelLayout === undefined ? 0 : packChannelLayout(header.channelLayout);
+  if (header.channelLayout === undefined && header.channelCount % 2 !== 0) throw new OptionError('channelCount', 'even without a channelLayout', header.channelCount);
+  if (axisOutputsOf(header.channelCount, layout) === null) {
+    throw new OptionError('channelCount', `the sum of channelLayout's outputs [${header.channelLayout!.join(', ')}]`, header.channelCount);
+  }
   integerInRange('samplesPerFrame', header.samplesPerFrame, 1, WIRE_MAX_SAMPLES_PER_FRAME);
   if (header.sampleRateHz !== undefined) integerInRange('sampleRateHz', header.sampleRateHz, 1, 0xffffffff);
   if (header.timestampUs !== undefined) integerInRange('timestampUs', header.timestampUs, 0, 0xffffffff);
@@ -173,6 +232,7 @@ export function encodeWireFrame(header: WireFrameHeader, samples: ArrayLike<numb
   if (header.timestampUs !== undefined) at = writeU32(out, at, header.timestampUs);
   if (header.sampleCounter !== undefined) at = writeU32(out, at, header.sampleCounter);
   if (header.edges !== undefined) at = writeU16(out, at, edges.length);
+  if (header.channelLayout !== undefined) at = writeU32(out, at, layout);
   for (let i = 0; i < valueCount; i++) {
     const value = samples[i]!;
     if (!Number.isInteger(value) || value < -32768 || value > 32767) {

@@ -6,8 +6,11 @@ export {
   WIRE_EDGE_COUNT_BYTES,
   WIRE_EDGE_LEAD_UNITS,
   WIRE_FIXED_HEADER_BYTES,
+  WIRE_MAX_AXIS_OUTPUTS,
   WIRE_MAX_CHANNELS,
   WIRE_MAX_EDGE_LINE,
+  WIRE_MAX_LAYOUT_AXES,
+  WIRE_MIN_AXIS_OUTPUTS,
   WIRE_MAX_EDGES_PER_FRAME,
   WIRE_MAX_SAMPLES_PER_FRAME,
   WIRE_OPTIONAL_FIELD_BYTES,
@@ -17,11 +20,14 @@ export {
   WIRE_SYNC_1,
   WIRE_VERSION,
   WIRE_VERSION_2,
+  WIRE_VERSION_3,
   WireEdgeLine,
   WireEdgePolarity,
   WireFlag,
   WireSampleFormat,
+  axisOutputsOf,
   encodeWireFrame,
+  packChannelLayout,
   wireFrameLength,
   wireFrameLengthOf,
   wireHeaderLength,
@@ -30,7 +36,7 @@ export {
   type WireEdge,
   type WireFrameHeader,
 } from './format.js';
-export { NO_EDGES, splitAxis, type InputGap, type SampleArray, type SampleBlock } from './block.js';
+export { NO_EDGES, NO_LAYOUT, splitAxis, type InputGap, type SampleArray, type SampleBlock } from './block.js';
 export {
   createWireDecoder,
   type WireDecoder,

@@ -2,7 +2,7 @@
 // lines ended by LF (CR before it is ignored). A byte-level state machine: no strings, no allocation per line.
 
 import { integerInRange, OptionError } from '../../core/options.js';
-import { NO_EDGES, type SampleBlock } from './block.js';
+import { NO_EDGES, NO_LAYOUT, type SampleBlock } from './block.js';
 import { WIRE_MAX_CHANNELS, WIRE_MAX_SAMPLES_PER_FRAME, WIRE_SEQUENCE_MODULUS } from './format.js';
 
 /** Why a line was rejected. */
@@ -82,6 +82,7 @@ export function createLineDecoder(options: LineDecoderOptions): LineDecoder {
   const block = {
     samples: sampleStore.subarray(0, 0),
     channelCount,
+    channelLayout: NO_LAYOUT,
     samplesPerFrame: 0,
     sequence: 0,
     sampleIndex: 0,
