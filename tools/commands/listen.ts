@@ -15,6 +15,16 @@ import { checkFiles, formatNumber, LASER_CAUTION, numberOption, parseCommandLine
 import { createLiveSession, type LiveSession, type LiveSink, type LiveSummary } from '../live/live-session.js';
 import { createStatusLine, formatStatus } from '../live/status-line.js';
 import { lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
+import {
+  createAngleRowWriter,
+  geometryOf,
+  geometryOptionHelp,
+  geometryOptionSpecs,
+  hasGeometry,
+  measuredText,
+  type AngleRowBlock,
+  type AngleRowWriter,
+} from '../geometry-options.js';
 import { budgetOf, environmentOf, environmentOptionHelp, environmentOptionSpecs, withConfig } from '../environment-options.js';
 import { feedOptionHelp, feedOptionSpecs, feedSettingsOf, openLiveFeed, type LiveFeed } from '../live/live-feed.js';
 import { commandHandler, CONTROL_KEYS, PRESET_SIGNAL, startLiveControls, ZERO_SIGNAL, type LiveControls } from '../live/live-controls.js';
@@ -76,6 +86,12 @@ Options:
   --quiet                  no log lines, status line or summary on stderr
 ${measureOptionHelp}
 ${environmentOptionHelp}
+
+Angles of several parallel axes: with one --beam per axis (2..8), listen tracks frame axes 0..N−1 (each with the
+--calibration given, or its own live fit) and its rows (CSV) carry t, position_m_1 … position_m_N, the angle
+columns of fringetally angles (yaw_rad, pitch_rad, point_m and their standard uncertainties; an angle the beams
+do not measure is empty) and alarms (of all axes); the feed and MQTT carry the geometry too (docs/analysis.md).
+${geometryOptionHelp}
 ${feedOptionHelp}
 
 On a terminal, stderr shows a status line (position, velocity, level, alarms, frames, CRC failures, gaps, link),
@@ -113,6 +129,7 @@ const optionSpecs = {
   ...measureOptionSpecs,
   ...environmentOptionSpecs,
   ...feedOptionSpecs,
+  ...geometryOptionSpecs,
 } as const;
 
 function integerOption(name: string, text: string | undefined, fallback: number, min: number, max: number): number {
@@ -129,8 +146,8 @@ function describeCalibration(calibration: EllipseCalibration): string {
 async function run(argv: readonly string[]): Promise<number> {
   const parsed = parseCommandLine(argv, optionSpecs, false);
   // The repeatable feed options stay out of the config merge, which takes single values.
-  const { 'allow-origin': allowOrigins, proxy: proxies, ...single } = parsed.values;
-  const { 'allow-origin': _allowOriginSpec, proxy: _proxySpec, ...singleSpecs } = optionSpecs;
+  const { 'allow-origin': allowOrigins, proxy: proxies, beam: beams, ...single } = parsed.values;
+  const { 'allow-origin': _allowOriginSpec, proxy: _proxySpec, beam: _beamSpec, ...singleSpecs } = optionSpecs;
   const values = withConfig(single, singleSpecs) as typeof single;
   const port = values.port;
   if (port === undefined) throw new UsageError('--port is required');
@@ -146,6 +163,16 @@ async function run(argv: readonly string[]): Promise<number> {
   const rateHz = numberOption('rate-hz', values['rate-hz']);
   if (rateHz !== undefined && !(rateHz > 0)) throw new UsageError(`--rate-hz must be positive (got ${values['rate-hz']})`);
   const axis = integerOption('axis', values.axis, 0, 0, 7);
+  // Several axes with their geometry: frame axes 0..N−1, one per --beam.
+  if (hasGeometry({ ...values, beam: beams }) && (beams?.length ?? 0) === 0) {
+    throw new UsageError('--point, --model and --u-* describe the geometry of --beam axes: give one --beam per axis');
+  }
+  const angles = beams === undefined || beams.length === 0 ? null : geometryOf({ ...values, beam: beams }, beams.length, 'axis');
+  if (angles !== null) {
+    if (values.axis !== undefined) throw new UsageError('--axis picks one axis; with --beam listen tracks axes 0..N−1, one per --beam');
+    if (formatText !== 'csv') throw new UsageError('rows with angles (--beam) are CSV: use .csv or --format csv');
+    if (values.record !== undefined) throw new UsageError('--record writes one axis; leave it out with --beam');
+  }
   const textMode = values.text === true;
   if (textMode && rateHz === undefined) throw new UsageError('--text needs --rate-hz: text lines carry no sample rate');
   if (!textMode && values.channels !== undefined) throw new UsageError('--channels applies to --text only: frames state their channel count');
@@ -213,7 +240,16 @@ async function run(argv: readonly string[]): Promise<number> {
     chain = createLiveSession({
       source,
       track: {
-        axes: [{ name: 'X', channelPair: axis, ...scale, ...axisCalibration, modelWatch: fitResidualRms === undefined ? {} : { fitResidualRms } }],
+        axes:
+          angles === null
+            ? [{ name: 'X', channelPair: axis, ...scale, ...axisCalibration, modelWatch: fitResidualRms === undefined ? {} : { fitResidualRms } }]
+            : Array.from({ length: angles.geometry.beams }, (_, k) => ({
+                name: `X${k + 1}`,
+                channelPair: k,
+                ...scale,
+                ...axisCalibration,
+                modelWatch: fitResidualRms === undefined ? {} : { fitResidualRms },
+              })),
         link: textMode ? { mode: 'text', channelCount: channels, rateHz } : { maxSamplesPerFrame, ...(rateHz === undefined ? {} : { rateHz }) },
         fitSamples,
         ...(durationS === undefined ? {} : { durationS }),
@@ -251,7 +287,10 @@ async function run(argv: readonly string[]): Promise<number> {
       );
   for (const line of feed?.describe() ?? []) statusLine.log(line);
   const stdout = out === '-' ? openStandardOutput() : undefined;
-  const writer: ResultWriter = await createResultWriter(out, { format: formatText as ResultFormat, every, ...(stdout === undefined ? {} : { stdout }) });
+  const writer: ResultWriter | AngleRowWriter =
+    angles === null
+      ? await createResultWriter(out, { format: formatText as ResultFormat, every, ...(stdout === undefined ? {} : { stdout }) })
+      : await createAngleRowWriter(out, { geometry: angles.geometry, every, ...(stdout === undefined ? {} : { stdout }) });
   let recorder: CaptureWriter | null = null;
   let edgeWriter: EdgeWriter | null = null;
   try {
@@ -273,7 +312,15 @@ async function run(argv: readonly string[]): Promise<number> {
         const first = !started;
         started = true;
         const outputs = block.axisOutputs[axis];
-        if (first) feed?.start(chain.axes, block.rateHz, chain.axes.readings$.pipe(latchEdges()), outputs === undefined ? [] : [outputs]);
+        if (first) {
+          const tracked = angles === null ? [axis] : Array.from({ length: angles.geometry.beams }, (_, k) => k);
+          feed?.start(chain.axes, block.rateHz, {
+            edges$: chain.axes.readings$.pipe(latchEdges()),
+            detectorOutputs: tracked.map((k) => block.axisOutputs[k] ?? 0),
+            ...(angles === null ? {} : { geometry: angles.options }),
+          });
+          if (angles !== null) statusLine.log(`axes X1..X${angles.geometry.beams} (frame axes 0..${angles.geometry.beams - 1}): ${measuredText(angles.geometry)} and the point of interest in the rows`);
+        }
         if (first) {
           statusLine.log(
             `first samples: ${block.channelCount} channels, tracking axis ${axis}${outputs === undefined || outputs === 2 ? '' : ` (${outputs} detector outputs)`}, ` +
@@ -293,8 +340,12 @@ async function run(argv: readonly string[]): Promise<number> {
     {
       name: out === '-' ? 'the result output (standard output)' : `the result output ${out}`,
       positions(positions) {
+        if (angles !== null) {
+          const block = angleBlock(positions.summaries, positions.rateHz);
+          return () => (writer as AngleRowWriter).write(block);
+        }
         const block = rows.copy(positions.summaries[0]!, positions.rateHz);
-        return () => writer.write(block).finally(() => rows.release(block));
+        return () => (writer as ResultWriter).write(block).finally(() => rows.release(block));
       },
       notice(notice) {
         if (notice.kind === 'link') {
@@ -498,6 +549,14 @@ function copyAxis(block: LinkBlock, axis: number): { x: Int16Array; y: Int16Arra
   return { x, y, length: n };
 }
 
+/** Every axis' positions and the OR of their alarm bits for one block, copied (the summaries are reused). */
+function angleBlock(summaries: readonly AxisBlockSummary[], rateHz: number): AngleRowBlock {
+  const length = summaries[0]!.length;
+  const flags = new Uint8Array(length);
+  for (const summary of summaries) for (let i = 0; i < length; i++) flags[i] |= summary.output.flags[i]!;
+  return { firstIndex: summaries[0]!.firstSampleIndex, length, rateHz, positionM: summaries.map((summary) => summary.output.positionM.slice(0, length)), flags };
+}
+
 /** Copies of position blocks for the result writer, from a small pool so that steady streams allocate little. */
 function createRowCopies() {
   const pool: ResultBlockCopy[] = [];
@@ -546,7 +605,7 @@ function uncertaintyText(budget: ReturnType<typeof budgetOf>): string {
 
 function summaryRecord(
   summary: LiveSummary,
-  writer: ResultWriter,
+  writer: { readonly rowsWritten: number },
   out: string,
   record: string | undefined,
   calibration: EllipseCalibration | null,

@@ -13,8 +13,7 @@ import {
   type ReferenceOutcome,
   type ReferenceRequest,
 } from '../../src/io/feed/index.js';
-import type { Observable } from 'rxjs';
-import type { FeedEdgeInput } from '../../src/io/feed/index.js';
+import type { FeedSource } from '../../src/io/feed/index.js';
 import type { Axes } from '../../src/stream/index.js';
 import { numberOption, UsageError } from '../cli-kit.js';
 
@@ -146,7 +145,7 @@ export function feedSettingsOf(values: Record<string, string | boolean | string[
 
 export interface LiveFeed {
   /** Attaches the session's axes (and its edges) on the first samples: from then on updates flow (state `live`). Once. */
-  start(axes: Axes, rateHz: number, edges$?: Observable<FeedEdgeInput>, detectorOutputs?: readonly number[]): void;
+  start(axes: Axes, rateHz: number, extras?: Pick<FeedSource, 'edges$' | 'detectorOutputs' | 'geometry'>): void;
   /** Lines for the log: where the feed is (the token never appears, only where it came from). */
   describe(): string[];
   /** The MQTT publisher's link to its broker, for the summary; null without --mqtt. */
@@ -176,8 +175,8 @@ export async function openLiveFeed(
     publisher = createMqttPublisher({ ...feedSettings.mqtt, onReference, onEvent: (event) => log(mqttEventLine(url, event)) });
   }
   return {
-    start(axes, rateHz, edges$, detectorOutputs) {
-      const source = { axes, rateHz, ...(edges$ === undefined ? {} : { edges$ }), ...(detectorOutputs === undefined ? {} : { detectorOutputs }) };
+    start(axes, rateHz, extras = {}) {
+      const source: FeedSource = { ...extras, axes, rateHz };
       server?.attach(source);
       publisher?.attach(source);
     },
