@@ -1,4 +1,5 @@
-// Operator: one axis' x and y out of interleaved multi-channel frames (channel 2k is x, 2k + 1 is y of axis k).
+// Operator: one axis' x and y out of interleaved multi-channel frames (channel 2k is x, 2k + 1 is y of axis k, or
+// the axis' two outputs in a frame with a channel layout).
 
 import type { OperatorFunction } from 'rxjs';
 import { blockOperator } from './block-operator.js';
@@ -22,15 +23,22 @@ export function deinterleaveAxis(options: DeinterleaveAxisOptions): OperatorFunc
     return {
       next(frame, out) {
         checkFrameBlock(frame);
-        const { channelCount, samplesPerFrame, samples } = frame;
-        if (2 * axis + 1 >= channelCount) {
-          throw new RangeError(`axis ${axis} needs channels ${2 * axis} and ${2 * axis + 1} (frame has ${channelCount})`);
+        const { channelCount, samplesPerFrame, samples, axisOutputs } = frame;
+        let first = 2 * axis;
+        if (axisOutputs !== undefined) {
+          if (axisOutputs[axis] !== undefined && axisOutputs[axis] !== 2) {
+            throw new RangeError(`axis ${axis} has ${axisOutputs[axis]} detector outputs, not a pair: give createAxes an axis with their channels`);
+          }
+          first = axisOutputs.slice(0, axis).reduce((sum, outputs) => sum + outputs, 0);
+        }
+        if (first + 1 >= channelCount) {
+          throw new RangeError(`axis ${axis} needs channels ${first} and ${first + 1} (frame has ${channelCount})`);
         }
         if (x.length < samplesPerFrame) {
           x = new Int16Array(samplesPerFrame);
           y = new Int16Array(samplesPerFrame);
         }
-        let at = 2 * axis;
+        let at = first;
         for (let s = 0; s < samplesPerFrame; s++) {
           x[s] = samples[at]!;
           y[s] = samples[at + 1]!;

@@ -206,6 +206,15 @@ describe('operator options', () => {
     await expect(lastValueFrom(from([oneAxis]).pipe(deinterleaveAxis({ axis: 1 })))).rejects.toThrow('axis 1 needs channels 2 and 3 (frame has 2)');
   });
 
+  it('deinterleaveAxis follows a channel layout: a pair after three outputs, and refuses an axis of three', async () => {
+    // Layout [3, 2]: channels 0..2 are axis 0's outputs, 3 and 4 axis 1's x and y (docs/wire-format.md).
+    const samples = Int16Array.from({ length: 10 }, (_, i) => i);
+    const layoutFrame = { samples, channelCount: 5, samplesPerFrame: 2, axisOutputs: [3, 2] };
+    const pair = await lastValueFrom(from([layoutFrame]).pipe(deinterleaveAxis({ axis: 1 }), map((block) => [Array.from(block.x.subarray(0, 2)), Array.from(block.y.subarray(0, 2))])));
+    expect(pair).toEqual([[3, 8], [4, 9]]);
+    await expect(lastValueFrom(from([layoutFrame]).pipe(deinterleaveAxis({ axis: 0 })))).rejects.toThrow('axis 0 has 3 detector outputs, not a pair');
+  });
+
   it('trackPosition gives each subscriber its own pipeline, counting from zero', async () => {
     const track = from([a, b]).pipe(trackPosition(axisOptions), map((out) => out.firstSampleIndex), toArray());
     expect(await lastValueFrom(track)).toEqual([0, 200]);
