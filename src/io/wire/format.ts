@@ -38,8 +38,9 @@ export const WIRE_FIXED_HEADER_BYTES = 10;
 export const WIRE_OPTIONAL_FIELD_BYTES = 4;
 /** Bytes of the edge-count field (u16). */
 export const WIRE_EDGE_COUNT_BYTES = 2;
-/** Detector outputs one axis may have in a channel layout: 2 (a quadrature pair), 3 (about 120° apart) or 4. */
+/** Fewest detector outputs one axis may have in a channel layout: 2 (a quadrature pair). */
 export const WIRE_MIN_AXIS_OUTPUTS = 2;
+/** Most detector outputs one axis may have in a channel layout: 4 (two balanced pairs); 3 are about 120° apart. */
 export const WIRE_MAX_AXIS_OUTPUTS = 4;
 /** Axes a channel layout can describe: one 4-bit field each in a u32. */
 export const WIRE_MAX_LAYOUT_AXES = 8;
