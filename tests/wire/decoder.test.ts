@@ -104,6 +104,11 @@ describe('wire decoder', () => {
     const { decoder, frames } = collectingDecoder();
     decoder.push(good);
     expect(frames.map((f) => [f.channelCount, f.channelLayout])).toEqual([[3, 3]]);
+    // The block carries the outputs per axis too, so it goes into createAxes as it is.
+    let outputs: readonly number[] | undefined;
+    const direct = createWireDecoder({ onFrame: (block) => (outputs = block.axisOutputs), onGap: noop });
+    direct.push(good);
+    expect(outputs).toEqual([3]);
     // The layout field is the last optional field, just before the samples (no other field here: offset 10).
     for (const layout of [4, 0x23, 5, 0x30]) {
       const bad = syntheticFrame(1, 3, 4, { channelLayout: [3] });

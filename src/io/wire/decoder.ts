@@ -149,6 +149,7 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     samples: sampleStore.subarray(0, 0),
     channelCount: 0,
     channelLayout: 0,
+    axisOutputs: undefined as readonly number[] | undefined,
     samplesPerFrame: 0,
     sequence: 0,
     sampleIndex: 0,
@@ -320,6 +321,10 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     }
     // A new view only when the frame size changes, so steady streams allocate nothing.
     if (block.samples.length !== valueCount) block.samples = sampleStore.subarray(0, valueCount);
+    // The outputs per axis of a layout, so the block goes into createAxes as it is; a new array only when it changes.
+    if (channelLayout !== block.channelLayout || channels !== block.channelCount) {
+      block.axisOutputs = channelLayout === 0 ? undefined : Object.freeze(axisOutputsOf(channels, channelLayout)!);
+    }
     block.channelCount = channels;
     block.channelLayout = channelLayout;
     block.samplesPerFrame = samplesPerFrame;
