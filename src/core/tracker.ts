@@ -311,9 +311,10 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
         }
         if (resume) {
           // The step across a hold spans many samples and says nothing of speed: re-acquire the phase and
-          // keep the velocity the loop had. A step beyond the held-travel limit shows that the stage moved
-          // faster while unseen than the bound allowed for, so whole fringes may be missing from it too.
-          if (absStep > travelLimit && !lost) {
+          // keep the velocity the loop had. A step beyond the travel allowed for (what was added up while held,
+          // one more sample, and the held-travel limit) shows that the stage moved faster while unseen than
+          // assumed, so whole fringes may be missing from it too.
+          if (absStep > travelLimit + travel + (w < 0 ? -w : w) && !lost) {
             lost = true;
             pushAlarm(events, firstIndex + i, 'countLost', true, absStep);
           }

