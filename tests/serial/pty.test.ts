@@ -113,7 +113,8 @@ describe('serial byte source over socat pseudo-terminals', () => {
     writeSync(fd, concat([syntheticFrame(5), syntheticFrame(6)]));
     await until(() => decoded.frames.length === 4, 'frames after reconnection');
     expect(decoded.frames.map((f) => f.sequence)).toEqual([0, 1, 5, 6]);
-    expect(gaps).toEqual([{ sampleIndex: 8, kind: 'loss', lostFrames: 3, lostSamples: 12, expectedSequence: 2, receivedSequence: 5 }]);
+    // Indices count the lost samples (docs/wire-format.md): frame 5 starts at 8 delivered + 12 lost.
+    expect(gaps).toEqual([{ sampleIndex: 20, kind: 'loss', lostFrames: 3, lostSamples: 12, expectedSequence: 2, receivedSequence: 5 }]);
     expect(decoded.decoder.counters.crcFailures).toBe(0);
   });
 });
