@@ -3,6 +3,7 @@
 // command line, or from a JSON config file (--config) whose keys are the option names without the dashes.
 import { readFileSync } from 'node:fs';
 import {
+  airIndexAt,
   airIndexSensitivities,
   materials,
   readingUncertaintyBudget,
@@ -10,6 +11,7 @@ import {
   REFERENCE_TEMPERATURE_C,
   type AirIndexEquation,
   type AirIndexOptions,
+  type EnvironmentSchedule,
   type UncertaintyBudget,
 } from '../src/core/index.js';
 import { closestName, inUserTerms, numberOption, OPTION_RANGES, UsageError, type FlagOf } from './cli-kit.js';
@@ -225,4 +227,34 @@ export function budgetOf(environment: Environment, lengthM: number, periodicResi
           },
         }),
   });
+}
+
+/**
+ * The index of air per block from an environment log (replay: the whole file; listen: the file as it grows, so
+ * `schedule` gives the latest), each validity warning written once through `warn`.
+ */
+export function environmentLogIndex(
+  file: string,
+  schedule: () => EnvironmentSchedule,
+  vacuumWavelengthM: number,
+  equation: AirIndexEquation,
+  warn: (line: string) => void,
+): (tS: number) => number {
+  const warned = new Set<string>();
+  return (tS) => {
+    const result = airIndexAt(schedule(), tS, { vacuumWavelengthM, equation });
+    for (const warning of result.warnings) {
+      if (warned.has(warning.message)) continue;
+      warned.add(warning.message);
+      warn(`${file} at t = ${tS.toFixed(3)} s: warning: ${warning.message}`);
+    }
+    return result.n;
+  };
+}
+
+/** --equation, checked. */
+export function equationOf(values: Record<string, unknown>): AirIndexEquation {
+  const equation = (values.equation ?? 'ciddor') as AirIndexEquation;
+  if (!['ciddor', 'edlen', 'shopfloor'].includes(equation)) throw new UsageError(`--equation must be ciddor, edlen or shopfloor (got "${equation}")`);
+  return equation;
 }

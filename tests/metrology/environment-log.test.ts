@@ -1,8 +1,12 @@
 // The environment log: linear interpolation between readings (values hand-worked from the invented readings
-// below), held outside them, and the reader's errors naming the file and line.
+// below), held outside them, the reader's errors naming the file and line, and a log followed as it grows.
+import { appendFileSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { createEnvironmentSchedule } from '../../src/core/index.js';
-import { parseEnvironmentLog } from '../../src/io/capture/index.js';
+import { followEnvironmentLog, parseEnvironmentLog } from '../../src/io/capture/index.js';
+import { until } from '../serial/wait.js';
 
 describe('environment schedule', () => {
   const log = parseEnvironmentLog('t,temperature,pressure,humidity,co2\n0,20,101000,40,400\n10,22,101100,50,500\n30,21,101100,50,600\n', 'air.log');
@@ -37,5 +41,30 @@ describe('environment schedule', () => {
     expect(() => createEnvironmentSchedule([])).toThrow('records must be at least one reading (got 0)');
     expect(() => createEnvironmentSchedule([reading, { ...reading, tS: 0 }])).toThrow('records[1].tS must be greater than records[0].tS = 0 (got 0)');
     expect(() => createEnvironmentSchedule([reading, { ...reading, tS: 1, co2Ppm: 400 }])).toThrow('records[1].co2Ppm must be NaN (the first reading has no CO2) (got 400)');
+  });
+});
+
+describe('followEnvironmentLog', () => {
+  it('gives the readings now and again as the file grows; a line without its newline waits for it', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'fringetally-follow-'));
+    try {
+      const path = join(dir, 'air.csv');
+      writeFileSync(path, 't,temperature,pressure,humidity\n0,20,101325,50\n1,21');
+      const seen: number[][] = [];
+      const subscription = followEnvironmentLog(path, { intervalMs: 10 }).subscribe((schedule) => seen.push(schedule.records.map((record) => record.tS)));
+      try {
+        await until(() => seen.length === 1, 'the first schedule');
+        appendFileSync(path, ',101325,50\n2,22,101325,50\n');
+        await until(() => seen.length === 2, 'the grown schedule');
+        expect(seen).toEqual([[0], [0, 1, 2]]);
+        appendFileSync(path, '1.5,22,101325,50\n');
+        const failure = await new Promise<Error>((resolve) => followEnvironmentLog(path, { intervalMs: 10 }).subscribe({ error: resolve }));
+        expect(failure.message).toBe(`${path} line 5: expected t greater than the line before (2 s), got "1.5"`);
+      } finally {
+        subscription.unsubscribe();
+      }
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
   });
 });

@@ -27,6 +27,7 @@ import {
 } from '../geometry-options.js';
 import { budgetOf, environmentOf, environmentOptionHelp, environmentOptionSpecs, withConfig } from '../environment-options.js';
 import { feedOptionHelp, feedOptionSpecs, feedSettingsOf, openLiveFeed, type LiveFeed } from '../live/live-feed.js';
+import { openEnvironmentLog } from '../live/live-environment.js';
 import { commandHandler, CONTROL_KEYS, PRESET_SIGNAL, startLiveControls, ZERO_SIGNAL, type LiveControls } from '../live/live-controls.js';
 
 const DEFAULT_FIT_SAMPLES = 16384;
@@ -82,6 +83,11 @@ Options:
                            about 31 s); once it has opened, a vanished port is retried until stopped
   --input-buffer-mib M     input kept while an output does not keep up, MiB (default ${DEFAULT_INPUT_BUFFER_MIB}); beyond it
                            listen stops with exit 1, naming the stalled output (files closed, summary written)
+  --environment-log FILE   air that changes during the run, followed as a sensor appends to it: CSV with a
+                           header naming t (s from the first sample), temperature (°C), pressure (Pa),
+                           humidity (% relative) and optionally co2 (µmol/mol), as replay reads it; at least one
+                           reading at the start; interpolated, the latest held beyond it. Replaces the fixed air
+                           conditions; the index rescales the reading, never the count
   --preset-mm P            the position, mm, that the preset key p and ${PRESET_SIGNAL} set (default: no preset)
   --quiet                  no log lines, status line or summary on stderr
 ${measureOptionHelp}
@@ -125,6 +131,7 @@ const optionSpecs = {
   'open-retries': { type: 'string' },
   'input-buffer-mib': { type: 'string' },
   'preset-mm': { type: 'string' },
+  'environment-log': { type: 'string' },
   quiet: { type: 'boolean' },
   ...measureOptionSpecs,
   ...environmentOptionSpecs,
@@ -209,6 +216,7 @@ async function run(argv: readonly string[]): Promise<number> {
     [
       ...(values.calibration === undefined ? [] : [{ option: '--calibration', path: values.calibration }]),
       ...(values.config === undefined ? [] : [{ option: '--config', path: values.config }]),
+      ...(values['environment-log'] === undefined ? [] : [{ option: '--environment-log', path: values['environment-log'] }]),
     ],
     [
       { option: '--out', path: out },
@@ -230,6 +238,7 @@ async function run(argv: readonly string[]): Promise<number> {
       : layout.ellipse === null
         ? { channels: layout.channels, calibration: null }
         : { calibration: layout.ellipse, ...(harmonics === undefined ? {} : { harmonics }) };
+  const environmentLog = await openEnvironmentLog(values, lengthScale, environment, notes);
   const maxBufferedBytes = integerOption('input-buffer-mib', values['input-buffer-mib'], DEFAULT_INPUT_BUFFER_MIB, 1, 4096) * 2 ** 20;
   const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetryDelayMs: Math.max(5000, retryDelayMs), maxRetriesBeforeFirstOpen: openRetries });
   // Every option, including the chain's, is checked here: nothing is opened before.
@@ -253,6 +262,7 @@ async function run(argv: readonly string[]): Promise<number> {
         link: textMode ? { mode: 'text', channelCount: channels, rateHz } : { maxSamplesPerFrame, ...(rateHz === undefined ? {} : { rateHz }) },
         fitSamples,
         ...(durationS === undefined ? {} : { durationS }),
+        ...(environmentLog === null ? {} : { refractiveIndexAt: environmentLog.indexAt }),
       },
       sinks,
       maxBufferedBytes,
@@ -416,6 +426,7 @@ async function run(argv: readonly string[]): Promise<number> {
     log: (line) => statusLine.log(line),
   });
   statusLine.log(controls.help);
+  environmentLog?.start((line) => statusLine.log(line));
   let summary: LiveSummary;
   try {
     session = chain.start(controller.signal);
@@ -433,6 +444,7 @@ async function run(argv: readonly string[]): Promise<number> {
     process.off('SIGINT', stop);
     process.off('SIGTERM', stop);
     controls.dispose();
+    environmentLog?.stop();
   }
   statusLine.stop();
   await feed?.close();
@@ -455,7 +467,10 @@ async function run(argv: readonly string[]): Promise<number> {
   const link = summary.link;
   const mqttHealth = feed?.mqttHealth ?? null;
   if (values.summary !== undefined) {
-    await writeFileAtomically(values.summary, JSON.stringify({ ...summaryRecord(summary, writer, out, record, calibration, maxBufferedBytes, edgeWriter, durationS), mqtt: mqttHealth }, null, 2) + '\n');
+    await writeFileAtomically(
+      values.summary,
+      JSON.stringify({ ...summaryRecord(summary, writer, out, record, calibration, maxBufferedBytes, edgeWriter, durationS), environmentLog: environmentLog?.summary() ?? null, mqtt: mqttHealth }, null, 2) + '\n',
+    );
   }
   if (!quiet) {
     const raised = alarmKinds.filter((kind) => progress.alarmsRaised[kind] > 0).map((kind) => `${alarmNames[kind]} ×${progress.alarmsRaised[kind]}`);

@@ -1,6 +1,6 @@
 // `fringetally replay`: the whole pipeline over a capture file, rows of position, velocity, level and alarms.
 import { extname } from 'node:path';
-import { alarmKinds, alarmNames, refractiveIndexOfAir, type AirIndexEquation, type PhaseHarmonics } from '../../src/core/index.js';
+import { alarmKinds, alarmNames, type PhaseHarmonics } from '../../src/core/index.js';
 import { readEnvironmentLog } from '../../src/io/capture/index.js';
 import { createResultWriter, type ResultFormat } from '../../src/io/results/index.js';
 import { createTruthComparison, createWelchEstimator, type TruthComparison, type WelchEstimator } from '../../src/core/index.js';
@@ -12,7 +12,7 @@ import { readCalibrationFitResidual, readCalibrationHarmonics, readCalibrationLa
 import { captureOptionHelp, captureOptionSpecs, captureOptionsOf, lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
 import { createProgress } from '../progress.js';
 import { formatModelWatch, formatPeriodicError, formatPower, formatTruthError, writeReportFile, type PositionSpectrum } from '../report.js';
-import { budgetOf, environmentOf, environmentOptionHelp, environmentOptionSpecs, withConfig } from '../environment-options.js';
+import { budgetOf, environmentLogIndex, environmentOf, environmentOptionHelp, environmentOptionSpecs, equationOf, withConfig } from '../environment-options.js';
 
 const help = `Usage: fringetally replay <capture.csv|capture.wav> --wavelength-nm L --fold N --out result.csv|result.jsonl
                           [--calibration cal.json] [--every N] [--report report.html] [options]
@@ -151,29 +151,11 @@ async function run(argv: readonly string[]): Promise<number> {
       throw new UsageError('give either --environment-log or fixed air conditions (--temperature-c … or --refractive-index), not both');
     }
     const schedule = await readEnvironmentLog(environmentLogPath);
-    const equation = (values.equation ?? 'ciddor') as AirIndexEquation;
-    if (!['ciddor', 'edlen', 'shopfloor'].includes(equation)) throw new UsageError(`--equation must be ciddor, edlen or shopfloor (got "${equation}")`);
-    const warned = new Set<string>();
-    refractiveIndexAt = (tS) => {
-      const air = schedule.at(tS);
-      const result = refractiveIndexOfAir({
-        temperatureC: air.temperatureC,
-        pressurePa: air.pressurePa,
-        relativeHumidityPct: air.relativeHumidityPct,
-        ...(Number.isNaN(air.co2Ppm) ? {} : { co2Ppm: air.co2Ppm }),
-        vacuumWavelengthM: scale.wavelengthM,
-        equation,
-      });
-      for (const warning of result.warnings) {
-        if (!warned.has(warning.message)) {
-          warned.add(warning.message);
-          process.stderr.write(`fringetally replay: ${environmentLogPath} at t = ${tS.toFixed(3)} s: warning: ${warning.message}\n`);
-        }
-      }
-      return result.n;
-    };
-    const first = refractiveIndexAt(schedule.records[0]!.tS);
-    const last = refractiveIndexAt(schedule.records.at(-1)!.tS);
+    const equation = equationOf(values);
+    const indexAt = environmentLogIndex(environmentLogPath, () => schedule, scale.wavelengthM, equation, (line) => process.stderr.write(`fringetally replay: ${line}\n`));
+    refractiveIndexAt = indexAt;
+    const first = indexAt(schedule.records[0]!.tS);
+    const last = indexAt(schedule.records.at(-1)!.tS);
     const vacuumNote = notes.findIndex((note) => note.startsWith('no refractive index'));
     if (vacuumNote >= 0) notes.splice(vacuumNote, 1);
     notes.push(

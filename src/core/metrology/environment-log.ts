@@ -2,6 +2,7 @@
 // first and last reading outside it. The index of air from them rescales the reading, never the fringe count.
 
 import { OptionError } from '../options.js';
+import { refractiveIndexOfAir, type AirIndexEquation, type AirIndexResult } from './air-index.js';
 
 /** One reading of the air sensors. */
 export interface EnvironmentRecord {
@@ -65,4 +66,20 @@ export function createEnvironmentSchedule(records: readonly EnvironmentRecord[])
       };
     },
   };
+}
+
+/**
+ * The index of air for the conditions the schedule gives at `tS` (interpolated as `at` does), with the equation's
+ * validity warnings: what a run sets per block of samples, replayed or live.
+ */
+export function airIndexAt(schedule: EnvironmentSchedule, tS: number, options: { readonly vacuumWavelengthM: number; readonly equation?: AirIndexEquation }): AirIndexResult {
+  const air = schedule.at(tS);
+  return refractiveIndexOfAir({
+    temperatureC: air.temperatureC,
+    pressurePa: air.pressurePa,
+    relativeHumidityPct: air.relativeHumidityPct,
+    ...(Number.isNaN(air.co2Ppm) ? {} : { co2Ppm: air.co2Ppm }),
+    vacuumWavelengthM: options.vacuumWavelengthM,
+    equation: options.equation ?? 'ciddor',
+  });
 }

@@ -38,4 +38,4 @@ export {
   type UncertaintyBudget,
   type UncertaintyContribution,
 } from './uncertainty.js';
-export { createEnvironmentSchedule, type EnvironmentRecord, type EnvironmentSchedule } from './environment-log.js';
+export { airIndexAt, createEnvironmentSchedule, type EnvironmentRecord, type EnvironmentSchedule } from './environment-log.js';

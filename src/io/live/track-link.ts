@@ -77,6 +77,13 @@ export interface TrackLinkOptions extends Omit<AxesRunnerOptions, 'axes'>, AxesV
    * pipelines first, so none is lost. A failed fit is retried every as many further samples.
    */
   readonly fitSamples?: number;
+  /**
+   * Air that changes during the run: the refractive index for a sample time (s from the first sample, lost
+   * samples counted), set on every axis before each block from the time of its middle sample (e.g. from
+   * `airIndexAt` over a followed environment log). The index rescales the reading, never the count. Default: the
+   * axes' own `refractiveIndex` (and `setRefractiveIndex`).
+   */
+  readonly refractiveIndexAt?: (tS: number) => number;
   /** Fit attempts before the stream ends with an error; integer 1..64, default 8. */
   readonly fitAttempts?: number;
   /**
@@ -213,6 +220,8 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
   const fitSamples = integerInRange('fitSamples', options.fitSamples ?? 16_384, 64, 2 ** 24);
   const fitAttempts = integerInRange('fitAttempts', options.fitAttempts ?? 8, 1, 64);
   const durationS = options.durationS === undefined ? undefined : positiveFinite('durationS', options.durationS);
+  const { refractiveIndexAt } = options;
+  if (refractiveIndexAt !== undefined && typeof refractiveIndexAt !== 'function') throw new OptionError('refractiveIndexAt', 'a function of the sample time', typeof refractiveIndexAt);
   const fitted = options.axes.map((axis) => axis.calibration === 'fit');
   options.axes.forEach((axis, k) => {
     if (fitted[k] && axis.channels !== undefined) {
@@ -265,6 +274,7 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
         if (refractiveIndex !== null) runner.setRefractiveIndex(refractiveIndex);
         running = runner;
       }
+      if (refractiveIndexAt !== undefined) runner.setRefractiveIndex(refractiveIndexAt((block.sampleIndex + block.samplesPerFrame / 2) / block.rateHz));
       if (options.referenceMarks !== false) referenceAtMarks(runner, block);
       positions.rateHz = rateHz;
       positions.block = block;
