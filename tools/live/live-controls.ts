@@ -1,5 +1,6 @@
 // The local controls of a running `fringetally listen`: keys on the terminal (when stdin is one) and signals for
 // scripts. Each re-references through the one chain (`LiveAxes.reReference`); nothing here decides a position.
+import { fstatSync, readFileSync } from 'node:fs';
 import type { LiveAxes, LiveReference } from '../../src/io/live/index.js';
 import type { ReferenceOutcome, ReferenceRequest } from '../../src/io/feed/index.js';
 
@@ -36,8 +37,8 @@ export interface LiveControls {
 
 /**
  * Starts the controls: `z` (or SIGUSR1) zeroes every axis at its next sample, `p` (or SIGUSR2) presets it to
- * `presetM` when given, `q` and Ctrl-C call `stop`. Keys only when `stdin` is a terminal (it is put in raw mode
- * and restored by `dispose`).
+ * `presetM` when given, `q` and Ctrl-C call `stop`. Keys only when `stdin` is a terminal and listen is not a
+ * background job on it (it is put in raw mode and restored by `dispose`).
  */
 export function startLiveControls(options: {
   readonly axes: LiveAxes;
@@ -61,7 +62,7 @@ export function startLiveControls(options: {
   const onPreset = () => act('preset', PRESET_SIGNAL);
   process.on(ZERO_SIGNAL, onZero);
   process.on(PRESET_SIGNAL, onPreset);
-  const keys = stdin.isTTY === true;
+  const keys = stdin.isTTY === true && inForeground((stdin as NodeJS.ReadStream & { fd: number }).fd);
   const onData = (chunk: Buffer | string) => {
     for (const key of chunk.toString()) {
       if (key === CONTROL_KEYS.zero) act('zero', `key ${key}`);
@@ -94,4 +95,23 @@ export function startLiveControls(options: {
 
 function formatMm(valueM: number): string {
   return String(Number((valueM * 1e3).toPrecision(12)));
+}
+
+/**
+ * False when `fd` is the controlling terminal and this process is a background job on it (`listen … &`): raw
+ * mode or a read would stop it (SIGTTOU, SIGTTIN) and take the terminal from the shell. Linux tells through
+ * /proc/self/stat (pgrp, tty_nr, tpgid; proc(5)); where it cannot be read, foreground is assumed.
+ */
+function inForeground(fd: number): boolean {
+  let stat: string;
+  try {
+    stat = readFileSync('/proc/self/stat', 'utf8');
+  } catch {
+    return true; // no /proc (not Linux): assumed, as stated above
+  }
+  const fields = stat.slice(stat.lastIndexOf(')') + 2).split(' ');
+  const [pgrp, ttyNr, tpgid] = [Number(fields[2]), Number(fields[4]), Number(fields[5])];
+  // A terminal that is not the controlling one has no job control: keys are safe on it.
+  if (ttyNr !== fstatSync(fd).rdev) return true;
+  return tpgid === pgrp;
 }
