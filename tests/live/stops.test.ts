@@ -4,39 +4,21 @@
 // time from the signal to the exit and prints it (the figure is reported, not asserted: no timed assertions);
 // the deadline in `finished` only keeps a hang from blocking the suite. Frames are an invented constant motion.
 import { spawn } from 'node:child_process';
-import { existsSync, mkdtempSync, readdirSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { existsSync, readdirSync } from 'node:fs';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
-import { requireSocat, startPtyPair, type PtyPair } from '../serial/socat.js';
+import { beforeAll, describe, expect, it } from 'vitest';
 import { until } from '../serial/wait.js';
-import { finished, killAll, readJson, startCli, type RunningCli } from './processes.js';
+import { finished, readJson, startCli, usePtyPairs, type RunningCli } from './processes.js';
 
 const OPTICS = ['--wavelength-nm', '632.9908', '--fold', '2'];
 const EMULATE = ['--rate-hz', '100000', '--velocity-m-s', '0.001', ...OPTICS, '--include-rate', '--quiet'];
 const TOOL = fileURLToPath(new URL('../../dist/tools/fringetally.js', import.meta.url));
 
+const ptys = usePtyPairs('fringetally-stops-');
 let dir = '';
-let run = 0;
-const pairs: PtyPair[] = [];
-beforeAll(() => {
-  requireSocat();
-  dir = mkdtempSync(join(tmpdir(), 'fringetally-stops-'));
-});
-afterEach(async () => {
-  await killAll();
-  await Promise.all(pairs.splice(0).map((pair) => pair.stop()));
-});
-afterAll(() => rmSync(dir, { recursive: true, force: true }));
-
-async function ptyPair(): Promise<{ device: string; firmware: string }> {
-  run++;
-  const device = join(dir, `device-${run}`);
-  const firmware = join(dir, `firmware-${run}`);
-  pairs.push(await startPtyPair(device, firmware));
-  return { device, firmware };
-}
+beforeAll(() => (dir = ptys.dir()));
+const ptyPair = () => ptys.pair();
 
 /** Sends the signal, waits for the exit and reports the time it took. */
 async function signalAndTime(cli: RunningCli, signal: NodeJS.Signals, what: string): Promise<number | string> {
