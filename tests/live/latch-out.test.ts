@@ -3,17 +3,15 @@
 // --latch-out` writes the position at each, and the same edges reach a WebSocket client and an MQTT subscriber
 // (Mosquitto). Each position is checked against the motion's formula, x(t) = A·sin(2πft), within the bound the
 // library states plus the samples' own error (measured on listen's own rows against the same formula).
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import mqtt from 'mqtt';
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import { WebSocket } from 'ws';
 import { startBroker, type Broker } from '../feed/broker.js';
-import { requireSocat, startPtyPair, type PtyPair } from '../serial/socat.js';
 import { until } from '../serial/wait.js';
 import { fringetally } from '../tools/cli.js';
-import { finished, killAll, readJson, readRows, startCli } from './processes.js';
+import { finished, readJson, readRows, startCli, usePtyPairs } from './processes.js';
 
 const RATE = 50_000;
 const SPF = 100;
@@ -32,17 +30,11 @@ const OPTICS = ['--wavelength-nm', '632.9908', '--fold', '2'];
 /** Rounding of the files: rows to 1e-12 m (±5e-13), edge rows to 1e-15 m. */
 const ROUNDING_M = 1e-12;
 
+const ptys = usePtyPairs('fringetally-latch-');
 let dir = '';
-const pairs: PtyPair[] = [];
 beforeAll(() => {
-  requireSocat();
-  dir = mkdtempSync(join(tmpdir(), 'fringetally-latch-'));
+  dir = ptys.dir();
 });
-afterEach(async () => {
-  await killAll();
-  await Promise.all(pairs.splice(0).map((pair) => pair.stop()));
-});
-afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 /** The edge times emulate sends, as absolute sample times rounded to the wire's 2^-16 period (docs/wire-format.md). */
 function expectedSampleTimes(): number[] {
@@ -65,9 +57,7 @@ describe('listen --latch-out over a pty', () => {
   it('every trigger edge at its sub-sample time, its position on the motion within the stated bound, in the file, the feed and MQTT', async () => {
     const broker: Broker = await startBroker({});
     try {
-      const device = join(dir, 'device');
-      const firmware = join(dir, 'firmware');
-      pairs.push(await startPtyPair(device, firmware));
+      const { device, firmware } = await ptys.pair();
       // The detectors' exact ellipse (emulate's defaults), so that no fit residual adds to the samples' error.
       writeFileSync(
         join(dir, 'exact.json'),

@@ -5,15 +5,13 @@
 // at (0, 0), (10, 0) and (0, 10) mm: ψ = (r1 − r2)/10 mm, θ = (r3 − r1)/10 mm, the point (5, 5) mm reads
 // r1 − 5 mm·ψ + 5 mm·θ = (r2 + r3)/2; with r_k = k·v·t that is ψ = −100·v·t, θ = 200·v·t (rad/m), point
 // 2.5·v·t. Uncertainties (GUM, uncorrelated readings of u = 1 nm): u(ψ) = u(θ) = √2·u/10 mm, u(point) = u·√(1/4 + 1/4).
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import { WebSocket } from 'ws';
-import { requireSocat, startPtyPair, type PtyPair } from '../serial/socat.js';
 import { until } from '../serial/wait.js';
 import { fringetally } from '../tools/cli.js';
-import { finished, killAll, readJson, readRows, startCli } from './processes.js';
+import { finished, readJson, readRows, startCli, usePtyPairs } from './processes.js';
 
 const RATE = 100_000;
 const DURATION = 0.2;
@@ -25,22 +23,16 @@ const POSITION_TOLERANCE_M = 2e-9;
 /** Rounding of the rows: positions to 1e-12 m, angles to 1e-12 rad. */
 const ROUNDING = 1e-12;
 
+const ptys = usePtyPairs('fringetally-angles-');
 let dir = '';
-const pairs: PtyPair[] = [];
 beforeAll(() => {
-  requireSocat();
-  dir = mkdtempSync(join(tmpdir(), 'fringetally-angles-'));
+  dir = ptys.dir();
   // The detectors' exact ellipse (emulate's defaults, the same on every axis).
   writeFileSync(
     join(dir, 'exact.json'),
     JSON.stringify({ format: 'fringetally-calibration', version: 1, offsetX: 800, offsetY: -500, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 }),
   );
 });
-afterEach(async () => {
-  await killAll();
-  await Promise.all(pairs.splice(0).map((pair) => pair.stop()));
-});
-afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 interface Update {
   type: string;
@@ -50,9 +42,7 @@ interface Update {
 
 describe('listen with several axes and their geometry', () => {
   it('rows carry yaw, pitch and the point of interest beside the three positions, on the hand-worked geometry; the feed carries them too', async () => {
-    const device = join(dir, 'device');
-    const firmware = join(dir, 'firmware');
-    pairs.push(await startPtyPair(device, firmware));
+    const { device, firmware } = await ptys.pair();
     const listen = startCli(
       ['listen', '--port', device, ...OPTICS, '--calibration', 'exact.json', '--out', 'angles.csv', '--summary', 'angles.json', '--duration', String(DURATION),
         '--serve', '127.0.0.1:0', ...GEOMETRY],

@@ -2,15 +2,13 @@
 // --outputs 3` sends version 3 frames (channel layout: one axis of three outputs 120° apart) whose source power
 // swings by ±20 %, `fringetally listen` with a calibration of those outputs tracks them. Positions are checked
 // against the motion's formula (constant velocity from 0: x = v·t); the feed's status reports the layout.
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import { WebSocket } from 'ws';
 import { EMULATED_OUTPUTS } from '../../tools/live/frame-emulator.js';
-import { requireSocat, startPtyPair, type PtyPair } from '../serial/socat.js';
 import { until } from '../serial/wait.js';
-import { finished, killAll, readJson, readRows, startCli } from './processes.js';
+import { finished, readJson, readRows, startCli, usePtyPairs } from './processes.js';
 
 const RATE = 100_000;
 const DURATION = 0.5;
@@ -23,30 +21,15 @@ const OPTICS = ['--wavelength-nm', '632.9908', '--fold', '2'];
  */
 const POSITION_TOLERANCE_M = 2e-9;
 
+const ptys = usePtyPairs('fringetally-outputs-');
+const ptyPair = ptys.pair;
 let dir = '';
-let run = 0;
-const pairs: PtyPair[] = [];
 beforeAll(() => {
-  requireSocat();
-  dir = mkdtempSync(join(tmpdir(), 'fringetally-outputs-'));
+  dir = ptys.dir();
   // The calibration of the emulated outputs (the layout emulate documents), as `calibrate --channels` writes it.
   const channels = EMULATED_OUTPUTS[3].map((channel, k) => ({ name: `d${k + 1}`, ...channel }));
   writeFileSync(join(dir, 'three.json'), JSON.stringify({ format: 'fringetally-calibration', version: 2, layout: { model: 'emulated', channels } }));
 });
-afterEach(async () => {
-  await killAll();
-  await Promise.all(pairs.splice(0).map((pair) => pair.stop()));
-});
-afterAll(() => rmSync(dir, { recursive: true, force: true }));
-
-async function ptyPair(): Promise<{ device: string; firmware: string }> {
-  run++;
-  const device = join(dir, `device-${run}`);
-  const firmware = join(dir, `firmware-${run}`);
-  pairs.push(await startPtyPair(device, firmware));
-  return { device, firmware };
-}
-
 const emulateArgs = (firmware: string) => [
   'emulate', '--port', firmware, '--rate-hz', String(RATE), '--velocity-m-s', String(VELOCITY), ...OPTICS, '--duration', String(DURATION),
   '--samples-per-frame', '100', '--include-rate', '--outputs', '3', '--power-modulation', '0.2', '--power-frequency-hz', '37', '--quiet',
