@@ -1,6 +1,6 @@
 // The feed's JSON message schema (version 1), shared by the WebSocket feed, the MQTT publisher and the page.
 
-import { alarmNames, alarmText, type AlarmEvent } from '../../core/index.js';
+import { alarmNames, alarmText, type AlarmEvent, type EdgePosition } from '../../core/index.js';
 import type { AxesUpdate, AxisUpdate, GeometryUpdate, Trace } from '../../stream/index.js';
 import { tokenMatches } from './access.js';
 
@@ -97,17 +97,10 @@ export interface FeedEdgeMessage extends FeedTimeBase {
   readonly alarms: readonly string[];
 }
 
-/** What the feed needs of a latched edge (`LiveEdgePosition` from src/io/live has it). */
-export interface FeedEdgeInput {
+/** What the feed needs of a latched edge: the core's edge position with its axis and rate (`LiveEdgePosition` has them). */
+export interface FeedEdgeInput extends EdgePosition {
   readonly axis: string;
-  readonly sampleTime: number;
   readonly rateHz: number;
-  readonly line: number;
-  readonly rising: boolean;
-  readonly positionM: number;
-  readonly velocityMS: number;
-  readonly uncertaintyM: number;
-  readonly flags: number;
 }
 
 export function feedEdgeMessage(edge: FeedEdgeInput): FeedEdgeMessage {
