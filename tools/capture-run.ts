@@ -3,10 +3,8 @@
 
 import {
   AlarmBit,
-  channelParametersOf,
-  createChannelMomentAccumulator,
   createChannelPipeline,
-  createTwoPassFit,
+  createDetectorFit,
   createPeriodicErrorAnalyzer,
   createResidualAnalyzer,
   createModelWatch,
@@ -25,8 +23,6 @@ import {
   type EllipseCalibration,
   type EllipseFitMethodOptions,
   type EllipseFitResult,
-  normaliseChannels,
-  type PowerNormalisation,
   type PeriodicErrorSummary,
   type RadiusOverTime,
   type ModelWatchEvent,
@@ -50,36 +46,24 @@ export function adcOf(info: CaptureInfo): { adc: AdcFormat; stated: boolean } {
 }
 
 /**
- * Fits the ellipse with the library's two-pass gated fit (`createTwoPassFit`), reading the file once per pass.
+ * Fits the ellipse with the library's detector fit (`createDetectorFit`: for 3 or 4 outputs a source-power pass
+ * first, then the two-pass gated fit), reading the file once per pass.
  */
 export async function fitCapture(
   path: string,
   open: OpenCaptureOptions,
   fitOptions: EllipseFitMethodOptions,
   progress: Progress,
-): Promise<{ fit: EllipseFitResult; info: CaptureInfo; totalSamples: number; channels?: ChannelParameters[] }> {
-  const power = (open.channels?.length ?? 2) > 2 ? await powerPass(path, open, progress) : null;
-  const normalised = power?.normalisation ?? null;
-  if (typeof normalised === 'string') {
-    return { fit: { ok: false, reason: 'degenerate', message: normalised, samples: 0, coverage: Number.NaN }, info: power!.info, totalSamples: 0 };
-  }
-  const fit = createTwoPassFit(fitOptions);
-  const pairX = new Float64Array(BLOCK);
-  const pairY = new Float64Array(BLOCK);
-  const powerScratch = new Float64Array(BLOCK);
+): Promise<{ fit: EllipseFitResult; info: CaptureInfo; totalSamples: number; channels?: readonly ChannelParameters[] }> {
+  const fit = createDetectorFit({ ...fitOptions, channelCount: open.channels?.length ?? 2 });
+  const labels = [' (source power)', '', ' (refined)'];
   let totalSamples = 0;
   for (;;) {
     const capture = await openCapture(path, { ...open, blockSize: BLOCK });
-    progress.start(`fit ${path}${fit.pass === 1 ? '' : ' (refined)'}`, capture.info.totalSamples);
+    progress.start(`fit ${path}${labels[fit.pass]}`, capture.info.totalSamples);
     try {
       for await (const block of capture.blocks()) {
-        if (normalised === null) {
-          fit.add(block.x, block.y, block.length);
-        } else {
-          // Three or four outputs: the ellipse passes fit the power-normalised pair.
-          normaliseChannels(normalised, block.channels, block.length, pairX, pairY, powerScratch);
-          fit.add(pairX, pairY, block.length);
-        }
+        fit.add(fit.channelCount === 2 ? [block.x, block.y] : block.channels, block.length);
         totalSamples = block.firstIndex + block.length;
         progress.update(totalSamples);
       }
@@ -87,33 +71,16 @@ export async function fitCapture(
       progress.stop();
       await capture.close();
     }
+    const pass = fit.pass;
     const result = fit.endPass();
-    if (result !== null) {
-      if (!result.ok || normalised === null) return { fit: result, info: capture.info, totalSamples };
-      return { fit: result, info: capture.info, totalSamples, channels: channelParametersOf(normalised, result.calibration) };
+    if (result === null) continue;
+    if (!result.ok && pass === 0) {
+      // The source-power pass refused the outputs: name them.
+      return { fit: { ...result, message: `outputs ${capture.info.channels.join(',')}: ${result.message}` }, info: capture.info, totalSamples };
     }
+    const { channels, ...ellipse } = result;
+    return { fit: ellipse as EllipseFitResult, info: capture.info, totalSamples, ...(channels === undefined ? {} : { channels }) };
   }
-}
-
-/**
- * Three or four outputs: the first pass finds the source-power combination (channel-fit.ts); the ellipse passes
- * then fit the power-normalised pair. Returns the refusal message when the outputs do not allow it.
- */
-async function powerPass(path: string, open: OpenCaptureOptions, progress: Progress): Promise<{ normalisation: PowerNormalisation | string; info: CaptureInfo }> {
-  const capture = await openCapture(path, { ...open, blockSize: BLOCK });
-  const moments = createChannelMomentAccumulator({ channelCount: capture.info.channels.length });
-  progress.start(`fit ${path} (source power)`, capture.info.totalSamples);
-  try {
-    for await (const block of capture.blocks()) {
-      moments.add(block.channels, block.length);
-      progress.update(block.firstIndex + block.length);
-    }
-  } finally {
-    progress.stop();
-    await capture.close();
-  }
-  const result = moments.solve();
-  return { normalisation: result.ok ? result.normalisation : `outputs ${capture.info.channels.join(',')}: ${result.message}`, info: capture.info };
 }
 
 export interface MeasureSettings {

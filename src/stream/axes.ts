@@ -189,6 +189,8 @@ export interface AxisSamples {
   readonly level: Float32Array;
   /** `AlarmBit` flags per sample. */
   readonly flags: Uint8Array;
+  /** Three or four detector outputs: the source power per sample (1 = the calibration's mean power); absent for a pair. */
+  readonly power?: Float32Array;
 }
 
 export interface Axis {
@@ -275,8 +277,8 @@ interface AxisStage {
   /** The outputs of the latest block, split (3–4-output axes), and their source power. */
   inputs: Int16Array[];
   power: Float32Array;
-  /** The output views with the power, rebuilt only when the views change (no record per block). */
-  combinedOut: (AxisSamples & { power: Float32Array }) | null;
+  /** The output views with the power (and the phase for `beyond`), rebuilt only when the views change (no record per block). */
+  combinedOut: (AxisSamples & { power: Float32Array; unwrappedPhaseRad?: Float64Array }) | null;
   readonly correction: Correction;
   readonly summary: MutableSummary;
   readonly buffers: ReturnType<typeof createPositionBuffers>;
@@ -307,13 +309,18 @@ const SIGNAL_TROUBLE = AlarmBit.lowSignal | AlarmBit.saturation | AlarmBit.badSa
 function beyondEllipse(stage: AxisStage, beyond: BeyondEllipse, out: { positionM: Float64Array; level: Float32Array; flags: Uint8Array }, length: number): void {
   const summary = stage.summary;
   summary.modelEvents.length = 0;
-  beyond.harmonics?.process(beyond.phase, length, out.positionM, stage.plain!.stages.displacement.metresPerFringe / (2 * Math.PI));
+  beyond.harmonics?.process(beyond.phase, length, out.positionM, (stage.plain ?? stage.combined)!.stages.displacement.metresPerFringe / (2 * Math.PI));
   if (beyond.watch !== null) {
     const use = beyond.use;
     const flags = out.flags;
     for (let i = 0; i < length; i++) use[i] = (flags[i]! & SIGNAL_TROUBLE) === 0 ? 1 : 0;
     beyond.watch.processRadius(out.level, length, summary.firstSampleIndex, summary.modelEvents, use);
   }
+}
+
+function growBeyond(beyond: BeyondEllipse, length: number): void {
+  beyond.phase = new Float64Array(length);
+  beyond.use = new Uint8Array(length);
 }
 
 /** Adds the stage's preset to a block's positions, switching to a pending one at its sample. */
@@ -350,7 +357,6 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
       if (axisOptions.calibration !== undefined && axisOptions.calibration !== null) {
         throw new OptionError(`axes[${k}].calibration`, 'null or absent when channels are given (the outputs\' parameters calibrate the axis)', axisOptions.calibration);
       }
-      if (axisOptions.harmonics !== undefined) throw new OptionError(`axes[${k}].harmonics`, 'absent when channels are given (the harmonic correction is of a two-output ellipse)', 'given');
       const { calibration: _calibration, frontEnd: _frontEnd, harmonics: _harmonics, modelWatch: _watch, ...rest } = pipelineOptions;
       try {
         combined = createChannelPipeline({ ...rest, channels });
@@ -362,10 +368,10 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     const plain = combined === null ? createPipeline(axisOptions) : null;
     const pipeline: AxisChain = combined ?? plain!;
     const harmonics = axisOptions.harmonics === undefined ? null : createHarmonicCorrection(axisOptions.harmonics);
-    // Checked either way; without a calibration of the ellipse there is no model to watch (the level is then the raw
-    // radius, or the power-normalised one of 3–4 outputs).
+    // Checked either way; without a calibration there is no model to watch (the level is then the raw radius). With
+    // 3–4 outputs the level is the power-normalised radius of their calibrated model, as replay watches it.
     const checkedWatch = axisOptions.modelWatch === undefined ? null : createModelWatch(axisOptions.modelWatch);
-    const watch = axisOptions.calibration === undefined || axisOptions.calibration === null ? null : checkedWatch;
+    const watch = combined === null && (axisOptions.calibration === undefined || axisOptions.calibration === null) ? null : checkedWatch;
     return {
       pipeline,
       plain,
@@ -402,24 +408,25 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     const beyond = stage.beyond;
     if (stage.combined !== null) {
       if (stage.power.length < length) stage.power = new Float32Array(length);
-      if (stage.combinedOut?.positionM !== out.positionM || stage.combinedOut.power !== stage.power) stage.combinedOut = { ...out, power: stage.power };
+      if (beyond !== null && beyond.phase.length < length) growBeyond(beyond, length);
+      if (stage.combinedOut?.positionM !== out.positionM || stage.combinedOut.power !== stage.power || (beyond !== null && stage.combinedOut.unwrappedPhaseRad !== beyond.phase)) {
+        stage.combinedOut = { ...out, power: stage.power, ...(beyond === null ? {} : { unwrappedPhaseRad: beyond.phase }) };
+      }
       stage.combined.process(stage.inputs, length, stage.combinedOut, summary.events);
+      if (beyond !== null) beyondEllipse(stage, beyond, out, length);
       // The trace and the summary's samples are the power-normalised pair (on the unit circle).
       x = stage.combined.pair.u;
       y = stage.combined.pair.v;
     } else if (beyond === null) stage.plain!.process(x, y, length, out, summary.events);
     else {
-      if (beyond.phase.length < length) {
-        beyond.phase = new Float64Array(length);
-        beyond.use = new Uint8Array(length);
-      }
+      if (beyond.phase.length < length) growBeyond(beyond, length);
       stage.plain!.process(x, y, length, { ...out, unwrappedPhaseRad: beyond.phase }, summary.events);
       beyondEllipse(stage, beyond, out, length);
     }
     if (stage.offsetM !== 0 || stage.pendingAt >= 0) applyPreset(stage, out.positionM, length, summary.firstSampleIndex);
     summary.x = x;
     summary.y = y;
-    summary.output = out;
+    summary.output = stage.combinedOut ?? out;
     summarise(summary, out, length, gapBefore, pipeline);
     if (tracePoints > 0 && length > 0) {
       const count = Math.min(tracePerBlock, length);

@@ -1,6 +1,6 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
-import { createCaptureWriter } from '../../src/io/capture/index.js';
+import { createCaptureWriter, openCapture } from '../../src/io/capture/index.js';
 import { OptionError } from '../../src/core/options.js';
 import { collect, makeTempDir, quadratureCounts } from './helpers.js';
 
@@ -25,6 +25,38 @@ describe('capture writers', () => {
       '52494646' + '34000000' + '57415645' + '666d7420' + '10000000' + '0100' + '0200' + '22560000' + '88580100' + '0400' + '1000' + '64617461' + '10000000',
     );
     expect(bytes.subarray(44).toString('hex')).toBe('00000000' + '24171ef3' + '3c133c14' + '16f918f9');
+  });
+
+  it('writes three or four detector outputs per sample (WAV header of 3 channels, CSV of 4 named columns) that read back exactly', async () => {
+    // Three channels: block align 3 × 2 bytes, bytes/s = rate × 6 (RIFF/WAVE specification, 1991).
+    const wav = dir.file('three.wav');
+    const three = await createCaptureWriter(wav, { format: 'wav', rateHz: 1000, encoding: 'int16', channelCount: 3 });
+    const outputs = [Int16Array.of(100, -2, 32767), Int16Array.of(5, 6, -32768), Int16Array.of(-7, 8, 9)];
+    await three.writeChannels(outputs, 3);
+    await three.close();
+    const bytes = readFileSync(wav);
+    expect(bytes.subarray(20, 36).toString('hex')).toBe('0100' + '0300' + 'e8030000' + '70170000' + '0600' + '1000');
+    expect(bytes.readUInt32LE(40)).toBe(18);
+    const csv = dir.file('four.csv');
+    const four = await createCaptureWriter(csv, { format: 'csv', rateHz: 10, encoding: 'integer-text', channelNames: ['d1', 'd2', 'd3', 'd4'] });
+    await four.writeChannels([...outputs, Int16Array.of(1, 2, 3)], 3);
+    await four.close();
+    expect(readFileSync(csv, 'utf8').split('\n').slice(1, 3)).toEqual(['d1,d2,d3,d4', '100,5,-7,1']);
+    for (const [path, channels, expected] of [
+      [wav, [1, 2, 3], outputs],
+      [csv, ['d1', 'd2', 'd3', 'd4'], [...outputs, Int16Array.of(1, 2, 3)]],
+    ] as const) {
+      const capture = await openCapture(path, { channels: [...channels] });
+      const read: number[][] = channels.map(() => []);
+      for await (const block of capture.blocks()) block.channels.forEach((channel, k) => read[k]!.push(...channel.subarray(0, block.length)));
+      await capture.close();
+      expect(read).toEqual(expected.map((channel) => [...channel]));
+    }
+    await expect(createCaptureWriter(dir.file('five.csv'), { format: 'csv', rateHz: 1, channelCount: 5 })).rejects.toThrow(/channelCount must be an integer in 2\.\.4/);
+    await expect(createCaptureWriter(dir.file('names.csv'), { format: 'csv', rateHz: 1, channelCount: 3, channelNames: ['a', 'b'] })).rejects.toThrow(/channelNames must be 3 names/);
+    const pair = await createCaptureWriter(dir.file('pair.csv'), { format: 'csv', rateHz: 1 });
+    await expect(pair.writeChannels(outputs, 3)).rejects.toThrow(/takes 2 channels \(x, y\); got 3/);
+    await pair.abort();
   });
 
   it('writes float32 with a fact chunk and metadata in LIST/INFO, and reads back the same values and metadata', async () => {
@@ -109,7 +141,7 @@ describe('capture writers', () => {
     await expect(createCaptureWriter(path, { format: 'wav', rateHz: 10, channelNames: ['a', 'b'] })).rejects.toThrow(/channelNames must be left out for WAV/);
     await expect(createCaptureWriter(path, { format: 'csv', rateHz: 10, metadata: { rate_hz: '5' } })).rejects.toThrow('metadata keys must be other than "rate_hz" (give rateHz instead) (got "rate_hz")');
     await expect(createCaptureWriter(path, { format: 'csv', rateHz: 10, metadata: { 'bad key': '5' } })).rejects.toThrow(/metadata keys must be names matching/);
-    await expect(createCaptureWriter(path, { format: 'csv', rateHz: 10, channelNames: ["x", "x"] })).rejects.toThrow(/channelNames must be two different names/);
+    await expect(createCaptureWriter(path, { format: 'csv', rateHz: 10, channelNames: ["x", "x"] })).rejects.toThrow(/channelNames must be different names/);
     expect(partialFiles()).toEqual([]);
   });
 });

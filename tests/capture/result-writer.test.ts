@@ -122,6 +122,25 @@ describe('result writer', () => {
     expect(readdirSync(dir.path)).toEqual(['rows.csv']);
   });
 
+  it("power 'auto': the first block decides the power column (listen learns the output count from the frames)", async () => {
+    const withPower = { ...series(3), power: Float32Array.of(1, 0.5, 0.25) };
+    const texts: string[] = [];
+    for (const first of [withPower, series(3)]) {
+      const path = dir.file(`auto-${texts.length}.csv`);
+      const writer = await createResultWriter(path, { format: 'csv', rateHz: 10, power: 'auto' });
+      await writer.write(first);
+      await writer.close();
+      texts.push(readFileSync(path, 'utf8'));
+    }
+    expect(texts[0]!.split('\n').slice(0, 2)).toEqual(['t,position_m,velocity_m_s,level,power,alarms', '0.000000000,0.000000000000,0.000000000,0.750000,1.000000,low_signal overspeed']);
+    expect(texts[1]!.split('\n')[0]).toBe(RESULT_COLUMNS.join(','));
+    const decided = await createResultWriter(dir.file('auto-then.csv'), { format: 'csv', rateHz: 10, power: 'auto' });
+    await decided.write(withPower);
+    await expect(decided.write(series(3, 3))).rejects.toThrow(/a block without power, for a writer with a power column/);
+    await decided.abort();
+    await expect(createResultWriter(dir.file('bad.csv'), { format: 'csv', power: 'yes' as unknown as boolean })).rejects.toThrow(/power must be true, false or 'auto'/);
+  });
+
   it('takes the rate from the block when given there', async () => {
     const text = await toText([{ ...series(2, 4), rateHz: 2 }], { format: 'csv', rateHz: 1000 });
     expect(text.split('\n').slice(1, 3).map((line) => line.split(',')[0])).toEqual(['2.000000000', '2.500000000']);

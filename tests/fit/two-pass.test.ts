@@ -3,7 +3,8 @@
 // within the gate; any split of the samples into blocks gives the same result. The ellipse is invented.
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { createEllipseAccumulator, createQuadratureSynthesizer, createTwoPassFit } from '../../src/core/index.js';
+import { createDetectorFit, createEllipseAccumulator, createQuadratureSynthesizer, createTwoPassFit, wrapPhase } from '../../src/core/index.js';
+import { detectorOutputs, FOUR_OUTPUTS, UNBALANCED_THREE, wanderingPhase } from '../support/detector-outputs.js';
 import '../support/property-seed.js';
 
 const ellipse = { offsetX: 120, offsetY: -80, amplitudeX: 9000, amplitudeY: 8200, phaseErrorRad: 0.07 };
@@ -92,5 +93,81 @@ describe('two-pass gated fit', () => {
     const byDefault = runTwoPass(x, y, []);
     expect(byDefault).toEqual(runTwoPass(x, y, [], 'hyper'));
     expect(byDefault).not.toEqual(runTwoPass(x, y, [], 'heydemann'));
+  });
+});
+
+describe('detector fit (2, 3 or 4 outputs; calibrate and listen)', () => {
+  /** Feeds the outputs split at `cuts` once per pass until the fit ends. */
+  function runDetector(channels: readonly Float64Array[], cuts: readonly number[]) {
+    const fit = createDetectorFit({ channelCount: channels.length });
+    const n = channels[0]!.length;
+    for (;;) {
+      let start = 0;
+      for (const cut of [...cuts, n]) {
+        const end = Math.min(Math.max(cut, start), n);
+        fit.add(channels.map((channel) => channel.subarray(start, end)), end - start);
+        start = end;
+      }
+      const result = fit.endPass();
+      if (result !== null) return result;
+    }
+  }
+
+  it('is the two-pass fit itself for a pair', () => {
+    const { x, y } = capture(500);
+    const pair = runDetector([x, y], [1000, 4097]);
+    expect(pair).toEqual(runTwoPass(x, y, [1000, 4097]));
+    expect(pair.ok && pair.channels).toBe(undefined);
+  });
+
+  it('recovers every output of three and four under a drifting source with a blocked beam, and the gate keeps the beam out', () => {
+    // Invented layouts (tests/support/detector-outputs.ts); 30 fringes of wandering motion, source power +4 % over
+    // the record, then 3000 samples with the beam mostly blocked (every output near its offset·P: the pair's radius
+    // about 0.2), which the second pass leaves out.
+    const n = 20_000;
+    const blocked = 3000;
+    const phase = wanderingPhase(n + blocked, 30);
+    for (const layout of [UNBALANCED_THREE, FOUR_OUTPUTS]) {
+      const dimmed = layout.map((channel) => ({ ...channel, amplitude: 0.2 * channel.amplitude }));
+      const moving = detectorOutputs(layout, phase.subarray(0, n), { power: (i) => 1 + (0.04 * i) / n, noiseRms: 1e-4 });
+      const dark = detectorOutputs(dimmed, phase.subarray(n), { power: () => 1.04, noiseRms: 1e-4, seed: 2 });
+      const channels = moving.channels.map((channel, k) => Float64Array.from([...channel, ...dark.channels[k]!]));
+      const result = runDetector(channels, []);
+      expect(result.ok).toBe(true);
+      if (!result.ok) return;
+      expect(result.samples).toBe(n);
+      // Offsets and gains at the mean power over the fitted samples (the blocked ones take part in the power pass).
+      const meanPower = [...moving.power, ...dark.power].reduce((sum, p) => sum + p, 0) / (n + blocked);
+      result.channels!.forEach((channel, k) => {
+        expect(channel.offset / (layout[k]!.offset * meanPower)).toBeCloseTo(1, 2);
+        expect(channel.amplitude / (layout[k]!.amplitude * meanPower)).toBeCloseTo(1, 2);
+        expect(Math.abs(wrapPhase(channel.phaseRad - layout[k]!.phaseRad))).toBeLessThan(5e-3);
+      });
+      // Any split into blocks gives the same outputs but for the rounding of sums split differently.
+      fc.assert(
+        fc.property(fc.array(fc.integer({ min: 0, max: n + blocked }), { maxLength: 5 }), (cuts) => {
+          const split = runDetector(channels, [...cuts].sort((a, b) => a - b));
+          expect(split.ok && split.samples).toBe(n);
+          if (!split.ok) return;
+          split.channels!.forEach((channel, k) => {
+            expect(Math.abs(channel.offset - result.channels![k]!.offset)).toBeLessThan(1e-9);
+            expect(Math.abs(channel.phaseRad - result.channels![k]!.phaseRad)).toBeLessThan(1e-9);
+          });
+        }),
+        { numRuns: 10 },
+      );
+    }
+  });
+
+  it('refuses outputs without a steady power combination in the power pass, before any ellipse pass', () => {
+    const n = 4000;
+    // AC-coupled outputs (no offsets): nothing combines into a steady power.
+    const { channels } = detectorOutputs(UNBALANCED_THREE.map((channel) => ({ ...channel, offset: 0 })), wanderingPhase(n, 10), { noiseRms: 1e-3 });
+    const fit = createDetectorFit({ channelCount: 3 });
+    expect(fit.pass).toBe(0);
+    fit.add(channels, n);
+    expect(fit.endPass()).toMatchObject({ ok: false, reason: 'degenerate' });
+    expect(() => fit.add(channels.slice(0, 2), n)).toThrow(/channels must be 3 sample arrays/);
+    expect(() => createDetectorFit({ channelCount: 5 })).toThrow(/channelCount must be an integer in 2\.\.4/);
   });
 });

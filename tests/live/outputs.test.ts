@@ -1,12 +1,15 @@
 // Three detector outputs per axis end to end over a real pseudo-terminal pair (socat): `fringetally emulate
 // --outputs 3` sends version 3 frames (channel layout: one axis of three outputs 120° apart) whose source power
-// swings by ±20 %, `fringetally listen` with a calibration of those outputs tracks them. Positions are checked
-// against the motion's formula (constant velocity from 0: x = v·t); the feed's status reports the layout.
-import { writeFileSync } from 'node:fs';
+// swings by ±20 %, `fringetally listen` tracks them with a calibration of those outputs or its own live fit.
+// Positions are checked against the motion's formula (constant velocity from 0: x = v·t), the power column against
+// emulate's P(t) (both invented models, docs/live.md); the feed's status reports the layout.
+import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { WebSocket } from 'ws';
+import { wrapPhase } from '../../src/core/index.js';
 import { EMULATED_OUTPUTS } from '../../tools/live/frame-emulator.js';
+import { fringetally } from '../tools/cli.js';
 import { until } from '../serial/wait.js';
 import { finished, readJson, readRows, startCli, usePtyPairs } from './processes.js';
 
@@ -20,6 +23,37 @@ const OPTICS = ['--wavelength-nm', '632.9908', '--fold', '2'];
  * that did not remove the source power would leave its ±20 % times the offsets (~2400 counts, ~0.24 rad, 12 nm).
  */
 const POSITION_TOLERANCE_M = 2e-9;
+/** Samples held for the live fit (listen --fit-samples). */
+const FIT_SAMPLES = 16_384;
+/** emulate's source power, --power-modulation 0.2 at --power-frequency-hz 37 (docs/live.md): P = 1 + 0.2·sin(2π·37·t). */
+const emulatedPower = (i: number) => 1 + 0.2 * Math.sin((2 * Math.PI * 37 * i) / RATE);
+
+/** The mean of emulate's power over the first `samples` samples: a live fit's unit of power. */
+function emulatedMeanPower(samples: number): number {
+  let sum = 0;
+  for (let i = 0; i < samples; i++) sum += emulatedPower(i);
+  return sum / samples;
+}
+
+/**
+ * The power column against emulate's P(t) over the unit's mean. Noise of 20 counts on each output, over the sum of
+ * the offsets (36 000 counts), gives 20·√3/36 000 = 9.6e-4 RMS of power for the near-symmetric layout (the
+ * estimate is about the outputs' sum over their offsets); a power not removed would leave the ±20 % swing itself.
+ */
+function checkPower(power: readonly number[], unit: number): void {
+  expect(power).toHaveLength(RATE * DURATION);
+  let sum = 0;
+  let squares = 0;
+  power.forEach((p, i) => {
+    const error = p - emulatedPower(i) / unit;
+    sum += error;
+    squares += error * error;
+  });
+  expect(Math.abs(sum / power.length)).toBeLessThan(2e-4);
+  expect(Math.sqrt(squares / power.length)).toBeLessThan(1.3e-3);
+  // The column does follow the swing (±20 %), not a constant.
+  expect(Math.max(...power) - Math.min(...power)).toBeGreaterThan(0.38);
+}
 
 const ptys = usePtyPairs('fringetally-outputs-');
 const ptyPair = ptys.pair;
@@ -72,13 +106,89 @@ describe('three detector outputs over a pty', () => {
     expect(Math.max(...level!)).toBeLessThan(1.05);
   });
 
-  it('without a calibration of three outputs, listen stops with exit 1 naming the fix', async () => {
+  it('without a calibration, listen fits the three outputs live (as calibrate --channels): positions, and the power column against the emulated power', async () => {
     const { device, firmware } = await ptyPair();
-    const listen = startCli(['listen', '--port', device, ...OPTICS, '--out', 'fit.csv', '--duration', String(DURATION), '--fit-samples', '1000'], dir);
+    const listen = startCli(['listen', '--port', device, ...OPTICS, '--out', 'fit.csv', '--summary', 'fit.json', '--duration', String(DURATION), '--fit-samples', String(FIT_SAMPLES)], dir);
     await listen.stderrHas('link up');
     const emulate = startCli(emulateArgs(firmware), dir);
-    expect(await finished(listen), listen.output.stderr).toBe(1);
-    await finished(emulate).catch(() => undefined);
-    expect(listen.output.stderr).toMatch(/the frames carry 3 detector outputs for axis 0: the live fit takes two; give a calibration of those outputs \(fringetally calibrate --channels\)/);
+    expect(await finished(emulate), emulate.output.stderr).toBe(0);
+    expect(await finished(listen), listen.output.stderr).toBe(0);
+    const fitted = /fitted the correction to (\d+) of the first (\d+) samples \(coverage \d+ %\): 3 outputs: offsets ([-\d., ]+); amplitudes ([-\d., ]+); phases ([-\d., ]+) rad/.exec(listen.output.stderr);
+    expect(fitted, listen.output.stderr).not.toBeNull();
+    const held = Number(fitted![2]);
+    // Held samples come in whole blocks as read.
+    expect(held).toBeGreaterThanOrEqual(FIT_SAMPLES);
+    // The outputs' parameters against emulate's layout (docs/live.md), all relative to the mean power over the
+    // fitted samples; phases relative to output 1, as the calibration file's convention.
+    const meanPower = emulatedMeanPower(held);
+    const numbers = (text: string) => text.split(', ').map(Number);
+    numbers(fitted![3]!).forEach((offset, k) => expect(Math.abs(offset / meanPower - EMULATED_OUTPUTS[3][k]!.offset)).toBeLessThan(10));
+    numbers(fitted![4]!).forEach((amplitude, k) => expect(Math.abs(amplitude / meanPower - EMULATED_OUTPUTS[3][k]!.amplitude)).toBeLessThan(10));
+    numbers(fitted![5]!).forEach((phase, k) => expect(Math.abs(wrapPhase(phase - EMULATED_OUTPUTS[3][k]!.phaseRad))).toBeLessThan(1e-3));
+    const summary = readJson<{ calibrationSource: string; calibration: unknown; channels: { offset: number }[]; fit: { samples: number }; samplesProcessed: number }>(join(dir, 'fit.json'));
+    expect(summary).toMatchObject({ calibrationSource: 'live fit', calibration: null, samplesProcessed: RATE * DURATION, fit: { samples: held } });
+    expect(summary.channels).toHaveLength(3);
+    const rows = readRows(join(dir, 'fit.csv'));
+    expect(rows.alarms.every((alarms) => alarms === '')).toBe(true);
+    expect(Object.keys(rows.columns)).toEqual(['t', 'position_m', 'velocity_m_s', 'level', 'power', 'alarms']);
+    const { position_m: position, power } = rows.columns;
+    expect(position).toHaveLength(RATE * DURATION);
+    let worst = 0;
+    position!.forEach((p, i) => (worst = Math.max(worst, Math.abs(p - (VELOCITY * i) / RATE))));
+    expect(worst).toBeLessThan(POSITION_TOLERANCE_M);
+    checkPower(power!, meanPower);
+  });
+
+  it('--record keeps every output: replay --calibration of the recording writes the rows listen wrote, byte for byte', async () => {
+    const { device, firmware } = await ptyPair();
+    const listen = startCli(['listen', '--port', device, ...OPTICS, '--calibration', 'three.json', '--out', 'recorded.csv', '--record', 'record.csv', '--duration', String(DURATION)], dir);
+    await listen.stderrHas('link up');
+    const emulate = startCli(emulateArgs(firmware), dir);
+    expect(await finished(emulate), emulate.output.stderr).toBe(0);
+    expect(await finished(listen), listen.output.stderr).toBe(0);
+    const record = readRows(join(dir, 'record.csv'));
+    // Named as the calibration's outputs, so replay finds them without --channels.
+    expect(Object.keys(record.columns)).toEqual(['d1', 'd2', 'd3']);
+    expect(record.columns.d1).toHaveLength(RATE * DURATION);
+    const replay = await fringetally(['replay', 'record.csv', '--calibration', 'three.json', ...OPTICS, '--out', 'replayed.csv', '--quiet'], dir);
+    expect(replay.code, replay.stderr).toBe(0);
+    expect(readFileSync(join(dir, 'replayed.csv'), 'utf8')).toBe(readFileSync(join(dir, 'recorded.csv'), 'utf8'));
+    // The rows carry the source power of the calibration (mean 1 at the layout emulate uses).
+    checkPower(readRows(join(dir, 'recorded.csv')).columns.power!, 1);
+  });
+
+  it("a calibration file's harmonics are applied to three outputs, and a stale one raises calibration_stale", async () => {
+    // The harmonic correction takes e(φ) = 0.02·cos φ rad off the phase (docs/calibration-format.md), so every position
+    // moves by −0.02·cos φ · λ/(4π) (fold 2) against the run without it, φ = 4π·v·t/λ being emulate's phase (it
+    // starts at 0). Amplitudes 10 % too large (offsets kept) read the power-normalised radius as 1/1.1: −9.09 %,
+    // beyond the watch's ±5 % (a gain common to every output would cancel in the power normalisation).
+    const layout = EMULATED_OUTPUTS[3].map((channel, k) => ({ name: `d${k + 1}`, ...channel }));
+    const file = (channels: readonly object[], extra: object = {}) => JSON.stringify({ format: 'fringetally-calibration', version: 2, layout: { model: 'emulated', channels }, ...extra });
+    writeFileSync(join(dir, 'harmonics.json'), file(layout, { harmonics: { orders: 1, cos: [0.02], sin: [0] } }));
+    writeFileSync(join(dir, 'stale.json'), file(layout.map((channel) => ({ ...channel, amplitude: channel.amplitude * 1.1 }))));
+    const runs: Record<string, number[]> = {};
+    for (const name of ['three', 'harmonics', 'stale']) {
+      const { device, firmware } = await ptyPair();
+      const listen = startCli(['listen', '--port', device, ...OPTICS, '--calibration', `${name}.json`, '--out', `${name}-rows.csv`, '--duration', String(DURATION)], dir);
+      await listen.stderrHas('link up');
+      const emulate = startCli(emulateArgs(firmware), dir);
+      expect(await finished(emulate), emulate.output.stderr).toBe(0);
+      expect(await finished(listen), listen.output.stderr).toBe(0);
+      runs[name] = readRows(join(dir, `${name}-rows.csv`)).columns.position_m!;
+      if (name === 'stale') expect(listen.output.stderr).toMatch(/calibration_stale at t = [\d.]+ s: the signal left the calibration's model \(the mean radius moved by -9\.0\d %\)/);
+      else expect(listen.output.stderr).not.toContain('calibration_stale');
+    }
+    const metresPerRad = 632.9908e-9 / (4 * Math.PI);
+    let worst = 0;
+    let largest = 0;
+    runs.harmonics!.forEach((p, i) => {
+      const phase = (4 * Math.PI * VELOCITY * i) / RATE / 632.9908e-9;
+      const shift = p - runs.three![i]!;
+      largest = Math.max(largest, Math.abs(shift));
+      worst = Math.max(worst, Math.abs(shift + 0.02 * Math.cos(phase) * metresPerRad));
+    });
+    // 0.02 rad × 50.4 nm/rad = 1.007 nm at most; the noise moves φ by ~1.5 mrad, the shift by 0.02 × that.
+    expect(largest / (0.02 * metresPerRad)).toBeCloseTo(1, 2);
+    expect(worst).toBeLessThan(1e-10);
   });
 });

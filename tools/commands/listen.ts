@@ -3,7 +3,7 @@
 import { createWriteStream, fstatSync } from 'node:fs';
 import { Socket } from 'node:net';
 import { extname } from 'node:path';
-import { alarmKinds, alarmNames, MODEL_WATCH_ALARM, OptionError, type EllipseCalibration } from '../../src/core/index.js';
+import { alarmKinds, alarmNames, MODEL_WATCH_ALARM, OptionError, type ChannelParameters, type EllipseCalibration } from '../../src/core/index.js';
 import { createCaptureWriter, writeFileAtomically, type CaptureWriter } from '../../src/io/capture/index.js';
 import { createEdgeWriter, createResultWriter, type EdgeWriter, type ResultFormat, type ResultWriter } from '../../src/io/results/index.js';
 import { createSerialByteSource } from '../../src/io/serial/index.js';
@@ -49,6 +49,9 @@ sample received is t = 0, lost samples included), position_m (m, relative to the
 
 Without --calibration the correction is fitted live to the first --fit-samples samples; those rows are held back
 until the fit is made (none are lost), then written. The stage must move over at least about one fringe then.
+With 3 or 4 detector outputs per axis (wire format version 3) the live fit is calibrate --channels' fit: the
+source power first, then the ellipse of the power-normalised pair; the rows then carry a power column after the
+level (the source power, 1 = its mean over the fitted samples or the calibration capture), as replay writes it.
 Lost samples (sequence gaps, CRC failures, link outages) enter the pipeline as an input gap: input_gap on the next
 row, and count_lost on every row after it. After a link outage at least 1 sample is counted lost; the frame
 counter gives the true number when the device kept counting (see docs/live.md).
@@ -61,7 +64,9 @@ Options:
   --every N                write every Nth sample (default 1)
   --duration S             stop after S seconds of samples received, round(S × rate) samples: lost samples and
                            repeated frames do not count (default: until SIGINT/SIGTERM)
-  --record FILE            also write every received sample of the axis to a capture (.csv int16 text or .wav int16)
+  --record FILE            also write every received sample of the axis to a capture (.csv int16 text or .wav int16):
+                           x, y for a pair; every output for 3 or 4 (columns named as in the calibration, else
+                           ch1..chN), which replay --channels reads back
   --summary FILE           write a JSON summary: counters, gaps, link events, alarms, calibration
   --latch-out FILE         write the position of every axis at every edge the frames carry (trigger, reference
                            mark; wire format version 2), one CSV row per axis and edge: t (s), sample_time
@@ -150,6 +155,11 @@ function describeCalibration(calibration: EllipseCalibration): string {
   return `offsets ${offsetX.toFixed(1)}, ${offsetY.toFixed(1)}; amplitudes ${amplitudeX.toFixed(1)}, ${amplitudeY.toFixed(1)}; phase error ${phaseErrorRad.toFixed(4)} rad`;
 }
 
+function describeChannels(channels: readonly ChannelParameters[]): string {
+  const list = (values: number[], digits: number) => values.map((value) => value.toFixed(digits)).join(', ');
+  return `${channels.length} outputs: offsets ${list(channels.map((c) => c.offset), 1)}; amplitudes ${list(channels.map((c) => c.amplitude), 1)}; phases ${list(channels.map((c) => c.phaseRad), 4)} rad`;
+}
+
 async function run(argv: readonly string[]): Promise<number> {
   const parsed = parseCommandLine(argv, optionSpecs, false);
   // The repeatable feed options stay out of the config merge, which takes single values.
@@ -231,13 +241,14 @@ async function run(argv: readonly string[]): Promise<number> {
   // from the file's fit residual, or the live fit's).
   const harmonics = values.calibration === undefined ? undefined : await readCalibrationHarmonics(values.calibration);
   const fitResidualRms = values.calibration === undefined ? undefined : await readCalibrationFitResidual(values.calibration);
-  // Three or four outputs: their parameters calibrate the axis (the live fit takes two outputs only).
+  // Three or four outputs: their parameters calibrate the axis (a live fit finds them when the frames carry as many).
   const axisCalibration =
     layout === null
       ? { calibration: 'fit' as const }
-      : layout.ellipse === null
-        ? { channels: layout.channels, calibration: null }
-        : { calibration: layout.ellipse, ...(harmonics === undefined ? {} : { harmonics }) };
+      : {
+          ...(layout.ellipse === null ? { channels: layout.channels, calibration: null } : { calibration: layout.ellipse }),
+          ...(harmonics === undefined ? {} : { harmonics }),
+        };
   const environmentLog = await openEnvironmentLog(values, lengthScale, environment, notes);
   const maxBufferedBytes = integerOption('input-buffer-mib', values['input-buffer-mib'], DEFAULT_INPUT_BUFFER_MIB, 1, 4096) * 2 ** 20;
   const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetryDelayMs: Math.max(5000, retryDelayMs), maxRetriesBeforeFirstOpen: openRetries });
@@ -299,7 +310,8 @@ async function run(argv: readonly string[]): Promise<number> {
   const stdout = out === '-' ? openStandardOutput() : undefined;
   const writer: ResultWriter | AngleRowWriter =
     angles === null
-      ? await createResultWriter(out, { format: formatText as ResultFormat, every, ...(stdout === undefined ? {} : { stdout }) })
+      ? // A power column when the axis has 3 or 4 outputs, as replay writes it (the frames tell).
+        await createResultWriter(out, { format: formatText as ResultFormat, every, power: 'auto', ...(stdout === undefined ? {} : { stdout }) })
       : await createAngleRowWriter(out, { geometry: angles.geometry, every, ...(stdout === undefined ? {} : { stdout }) });
   let recorder: CaptureWriter | null = null;
   let edgeWriter: EdgeWriter | null = null;
@@ -339,11 +351,10 @@ async function run(argv: readonly string[]): Promise<number> {
         }
         if (record === undefined) return;
         if (outputs === undefined) return;
-        if (outputs !== 2) throw new Error(`--record writes the two outputs of a pair; the frames carry ${outputs} for axis ${axis}: leave --record out`);
         const copy = copyAxis(block, axis);
         return async () => {
-          if (first) recorder = await openRecord(record, recordExtension, block.rateHz, port, axis, scale);
-          await recorder!.write(copy.x, copy.y, copy.length);
+          if (first) recorder = await openRecord(record, recordExtension, block.rateHz, port, axis, scale, recordNames(outputs, layout?.names ?? []));
+          await recorder!.writeChannels(copy.channels, copy.length);
         };
       },
     },
@@ -382,7 +393,8 @@ async function run(argv: readonly string[]): Promise<number> {
           const what = notice.presetM === 0 ? 'zeroed' : `preset to ${Number((notice.presetM * 1e3).toPrecision(12))} mm`;
           statusLine.log(`${what} axis ${notice.axes.join(', ')} at sample ${notice.sampleIndex}${t} by ${notice.origin}; count_lost cleared from there`);
         } else if (notice.result.ok) {
-          statusLine.log(`fitted the correction to ${notice.result.samples} of the first ${notice.heldSamples} samples (coverage ${(notice.result.coverage * 100).toFixed(0)} %): ${describeCalibration(notice.result.calibration)}`);
+          const what = notice.result.channels === undefined ? describeCalibration(notice.result.calibration) : describeChannels(notice.result.channels);
+          statusLine.log(`fitted the correction to ${notice.result.samples} of the first ${notice.heldSamples} samples (coverage ${(notice.result.coverage * 100).toFixed(0)} %): ${what}`);
         } else {
           statusLine.log(`live fit over ${notice.heldSamples} samples failed (${notice.result.message})${notice.final ? '' : '; holding more samples and retrying'}`);
         }
@@ -469,7 +481,7 @@ async function run(argv: readonly string[]): Promise<number> {
   if (values.summary !== undefined) {
     await writeFileAtomically(
       values.summary,
-      JSON.stringify({ ...summaryRecord(summary, writer, out, record, calibration, maxBufferedBytes, edgeWriter, durationS), environmentLog: environmentLog?.summary() ?? null, mqtt: mqttHealth }, null, 2) + '\n',
+      JSON.stringify({ ...summaryRecord(summary, writer, out, record, calibration, layout?.ellipse === null ? layout.channels : null, maxBufferedBytes, edgeWriter, durationS), environmentLog: environmentLog?.summary() ?? null, mqtt: mqttHealth }, null, 2) + '\n',
     );
   }
   if (!quiet) {
@@ -548,20 +560,28 @@ function retryText(attempt: number, wasUp: boolean): string {
 }
 let maxRetriesShown = DEFAULT_OPEN_RETRIES;
 
-/** Axis `axis` (a pair) of an interleaved block, copied: the block is reused before the record's write runs. */
-function copyAxis(block: LinkBlock, axis: number): { x: Int16Array; y: Int16Array; length: number } {
+/** Every output of axis `axis` of an interleaved block, copied: the block is reused before the record's write runs. */
+function copyAxis(block: LinkBlock, axis: number): { channels: Int16Array[]; length: number } {
   const n = block.samplesPerFrame;
-  const x = new Int16Array(n);
-  const y = new Int16Array(n);
+  const outputs = block.axisOutputs[axis]!;
   const stride = block.channelCount;
-  let at = 0;
-  for (let a = 0; a < axis; a++) at += block.axisOutputs[a]!;
-  for (let i = 0; i < n; i++) {
-    x[i] = block.samples[at]!;
-    y[i] = block.samples[at + 1]!;
-    at += stride;
-  }
-  return { x, y, length: n };
+  let first = 0;
+  for (let a = 0; a < axis; a++) first += block.axisOutputs[a]!;
+  const channels = Array.from({ length: outputs }, (_, c) => {
+    const channel = new Int16Array(n);
+    for (let i = 0, at = first + c; i < n; i++, at += stride) channel[i] = block.samples[at]!;
+    return channel;
+  });
+  return { channels, length: n };
+}
+
+/**
+ * The record's column names: x, y for a pair; for 3 or 4 outputs the calibration's names when it has as many (so
+ * that `replay --calibration` finds them), else ch1…chN (`replay --channels 1,2,3` picks them either way).
+ */
+function recordNames(outputs: number, calibrationNames: readonly string[]): string[] | undefined {
+  if (outputs === 2) return undefined;
+  return calibrationNames.length === outputs ? [...calibrationNames] : Array.from({ length: outputs }, (_, k) => `ch${k + 1}`);
 }
 
 /** Every axis' positions and the OR of their alarm bits for one block, copied (the summaries are reused). */
@@ -590,6 +610,12 @@ function createRowCopies() {
       block.velocityMS.set(summary.output.velocityMS.subarray(0, n));
       block.level.set(summary.output.level.subarray(0, n));
       block.flags.set(summary.output.flags.subarray(0, n));
+      const power = summary.output.power;
+      if (power === undefined) delete block.power;
+      else {
+        if (block.power === undefined || block.power.length < n) block.power = new Float32Array(block.positionM.length);
+        block.power.set(power.subarray(0, n));
+      }
       return block;
     },
     release(block: ResultBlockCopy): void {
@@ -597,9 +623,17 @@ function createRowCopies() {
     },
   };
 }
-type ResultBlockCopy = { firstIndex: number; length: number; rateHz: number; positionM: Float64Array; velocityMS: Float64Array; level: Float32Array; flags: Uint8Array };
+type ResultBlockCopy = { firstIndex: number; length: number; rateHz: number; positionM: Float64Array; velocityMS: Float64Array; level: Float32Array; flags: Uint8Array; power?: Float32Array };
 
-async function openRecord(record: string, extension: string, rateHz: number, port: string, axis: number, scale: { wavelengthM: number; fold: number; refractiveIndex: number }): Promise<CaptureWriter> {
+async function openRecord(
+  record: string,
+  extension: string,
+  rateHz: number,
+  port: string,
+  axis: number,
+  scale: { wavelengthM: number; fold: number; refractiveIndex: number },
+  names: readonly string[] | undefined,
+): Promise<CaptureWriter> {
   if (extension === '.wav' && !Number.isInteger(rateHz)) throw new Error(`a .wav record needs a whole-hertz rate (got ${rateHz} Hz): record to .csv`);
   const metadata = {
     source: `fringetally listen ${port}, axis ${axis}; samples lost in transport are absent (see the listen summary for gaps)`,
@@ -607,9 +641,10 @@ async function openRecord(record: string, extension: string, rateHz: number, por
     fold: String(scale.fold),
     refractive_index: String(scale.refractiveIndex),
   };
+  const channelCount = names?.length ?? 2;
   return createCaptureWriter(record, extension === '.wav'
-    ? { format: 'wav', rateHz, encoding: 'int16', metadata }
-    : { format: 'csv', rateHz, encoding: 'integer-text', metadata: { ...metadata, adc: 'int16' } });
+    ? { format: 'wav', rateHz, encoding: 'int16', channelCount, metadata }
+    : { format: 'csv', rateHz, encoding: 'integer-text', ...(names === undefined ? {} : { channelNames: names }), metadata: { ...metadata, adc: 'int16' } });
 }
 
 /** The reading's uncertainty (GUM) for the summary line; the residual periodic error is not measured live. */
@@ -624,6 +659,7 @@ function summaryRecord(
   out: string,
   record: string | undefined,
   calibration: EllipseCalibration | null,
+  channels: readonly ChannelParameters[] | null,
   maxBufferedBytes: number,
   edgeWriter: EdgeWriter | null,
   durationS: number | undefined,
@@ -651,7 +687,9 @@ function summaryRecord(
     finalPositionM: progress.samplesProcessed > 0 ? progress.positionM : null,
     countLostAtEnd: progress.countLost,
     calibrationSource: progress.calibration === 'given' ? 'file' : 'live fit',
-    calibration: okFit?.calibration ?? calibration,
+    // Three or four outputs: their parameters calibrate the axis (the fit's ellipse is of their normalised pair).
+    calibration: okFit?.channels === undefined ? (okFit?.calibration ?? calibration) : null,
+    channels: okFit?.channels ?? channels,
     detectorOutputs: link !== null && link.axisOutputs.length > 0 ? link.axisOutputs : null,
     fit: okFit === null ? null : { samples: okFit.samples, coverage: okFit.coverage, residualRms: okFit.residualRms },
     wire: link?.wire ? { ...link.wire } : null,

@@ -1,11 +1,22 @@
 // The fit calibrate, replay and listen make: two passes over the same samples, the second keeping only the
 // samples near the first pass's ellipse, so that a blocked beam (samples near the centre) or a glitch does not
-// pull the fit. The caller feeds the samples once per pass, so a file is read twice and nothing is stored.
+// pull the fit. The caller feeds the samples once per pass, so a file is read twice and nothing is stored. With 3 or
+// 4 detector outputs a pass before them finds the source power (createDetectorFit), so a file is read three times.
 
 import { createCorrection } from '../correction.js';
 import { createEllipseAccumulator } from './accumulator.js';
 import type { EllipseCalibration, EllipseFitResult } from './ellipse.js';
 import { createEllipseFit, type EllipseFitMethodOptions } from './methods.js';
+import {
+  channelParametersOf,
+  createChannelMomentAccumulator,
+  MAX_CHANNELS,
+  MIN_CHANNELS,
+  normaliseChannels,
+  type ChannelParameters,
+  type PowerNormalisation,
+} from './channel-fit.js';
+import { integerInRange, OptionError } from '../options.js';
 
 /** Corrected radii kept by the second pass: within [1 − GATE, 1 + GATE] of the first fit's radius. */
 const GATE = 0.5;
@@ -93,5 +104,94 @@ export function createTwoPassFit(options: EllipseFitMethodOptions = {}): TwoPass
     get gate() {
       return gate;
     },
+  };
+}
+
+/**
+ * A fit of 2, 3 or 4 detector outputs: for 3 or 4, the ellipse of the power-normalised pair and every output's
+ * offset, gain and phase (`channels`, the layout a calibration file of them records); absent for a pair.
+ */
+export type DetectorFitResult = EllipseFitResult & { readonly channels?: readonly ChannelParameters[] };
+
+export interface DetectorFit {
+  readonly channelCount: number;
+  /**
+   * 0 while the source-power combination of 3 or 4 outputs is summed (`createChannelMomentAccumulator`), then 1
+   * and 2 as `TwoPassFit`'s passes (over the power-normalised pair for 3 or 4 outputs).
+   */
+  readonly pass: 0 | 1 | 2;
+  /** Adds `length` samples of every output (`channels[k][i]`, as many arrays as `channelCount`) to the current pass. */
+  add(channels: readonly ArrayLike<number>[], length: number): void;
+  /**
+   * Ends the current pass: null while the caller must feed the same samples again, else the result (a failure
+   * as soon as a pass fails).
+   */
+  endPass(): DetectorFitResult | null;
+  reset(): void;
+}
+
+/**
+ * The fit calibrate and listen make of one axis, whatever its output count: the two-pass gated fit of a pair, or,
+ * for 3 or 4 outputs, a first pass that finds the source power as the steadiest combination of the outputs, then
+ * the two-pass fit of the power-normalised pair. Constant memory apart from a scratch pair as long as the longest
+ * block added. Options as `createTwoPassFit`, plus `channelCount` (integer 2..4).
+ */
+export function createDetectorFit(options: EllipseFitMethodOptions & { readonly channelCount: number }): DetectorFit {
+  const { channelCount, ...fitOptions } = options;
+  const k = integerInRange('channelCount', channelCount, MIN_CHANNELS, MAX_CHANNELS);
+  const fit = createTwoPassFit(fitOptions);
+  const moments = k > 2 ? createChannelMomentAccumulator({ channelCount: k }) : null;
+  let normalisation: PowerNormalisation | null = null;
+  let pairX = new Float64Array(0);
+  let pairY = pairX;
+  let power = pairX;
+
+  function add(channels: readonly ArrayLike<number>[], length: number): void {
+    if (channels.length !== k) throw new OptionError('channels', `${k} sample arrays, one per output`, channels.length);
+    if (moments === null) fit.add(channels[0]!, channels[1]!, length);
+    else if (normalisation === null) moments.add(channels, length);
+    else {
+      if (pairX.length < length) {
+        pairX = new Float64Array(length);
+        pairY = new Float64Array(length);
+        power = new Float64Array(length);
+      }
+      normaliseChannels(normalisation, channels, length, pairX, pairY, power);
+      fit.add(pairX, pairY, length);
+    }
+  }
+
+  function endPass(): DetectorFitResult | null {
+    if (moments !== null && normalisation === null) {
+      const solved = moments.solve();
+      moments.reset();
+      if (!solved.ok) {
+        const reason = solved.reason === 'too-few-samples' ? 'too-few-samples' : 'degenerate';
+        return { ok: false, reason, message: solved.message, samples: solved.samples, coverage: Number.NaN };
+      }
+      normalisation = solved.normalisation;
+      return null;
+    }
+    const result = fit.endPass();
+    if (result === null || !result.ok || normalisation === null) return result;
+    const channels = channelParametersOf(normalisation, result.calibration);
+    normalisation = null;
+    return { ...result, channels };
+  }
+
+  function reset(): void {
+    fit.reset();
+    moments?.reset();
+    normalisation = null;
+  }
+
+  return {
+    channelCount: k,
+    get pass() {
+      return moments !== null && normalisation === null ? 0 : fit.pass;
+    },
+    add,
+    endPass,
+    reset,
   };
 }

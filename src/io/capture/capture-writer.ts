@@ -1,7 +1,7 @@
 // Capture writers (CSV text, WAV PCM/float) in constant memory: a fixed encode buffer, WAV sizes patched at close.
 // WAV layout per the Microsoft/IBM RIFF/WAVE specification (1991): RIFF header, "fmt ", "fact" (float only), LIST/INFO, "data".
 import { ADC_KEY, RATE_KEY } from './metadata.js';
-import { OptionError, positiveFinite } from '../../core/options.js';
+import { integerInRange, OptionError, positiveFinite } from '../../core/options.js';
 import { openFileSink, type OutputSink } from './output-file.js';
 import { writeAscii, writeIntegerAscii } from './text-encode.js';
 import type { CaptureFormat, SampleEncoding } from './types.js';
@@ -17,8 +17,13 @@ export interface CaptureWriterOptions {
    * WAV: `int16` (default), `int24` (integers in range only) or `float32` (values rounded to float32).
    */
   encoding?: SampleEncoding;
-  /** CSV column names of x and y; default `["x", "y"]`. Not for WAV, whose channels are numbered. */
-  channelNames?: readonly [string, string];
+  /**
+   * CSV column names of the channels (x, y, then any further detector outputs); default `["x", "y"]`, or `ch1`…`chN`
+   * for `channelCount` N > 2. Not for WAV, whose channels are numbered.
+   */
+  channelNames?: readonly string[];
+  /** Channels per sample, 2..4 (a pair, or three or four detector outputs); default the names' count, else 2. */
+  channelCount?: number;
   /** CSV only: write a first column `t` = index / rateHz in seconds; default false. */
   timeColumn?: boolean;
   /** `key: value` pairs: `# key: value` lines in CSV, the LIST/INFO comment in WAV. Keys `[A-Za-z][A-Za-z0-9_.-]*`. */
@@ -28,8 +33,10 @@ export interface CaptureWriterOptions {
 export interface CaptureWriter {
   readonly path: string;
   readonly samplesWritten: number;
-  /** Appends `length` samples of x and y. After any error, only `abort()` is accepted. */
+  /** Appends `length` samples of x and y (a writer of two channels). After any error, only `abort()` is accepted. */
   write(x: ArrayLike<number>, y: ArrayLike<number>, length: number): Promise<void>;
+  /** Appends `length` samples of every channel (`channels[k][i]`, `channelCount` arrays). */
+  writeChannels(channels: readonly ArrayLike<number>[], length: number): Promise<void>;
   /** Flushes, patches the WAV sizes and renames the temporary file to `path`. */
   close(): Promise<void>;
   /** Removes the temporary file; `path` is never created. Safe after a failed write or close. */
@@ -37,8 +44,8 @@ export interface CaptureWriter {
 }
 
 const ENCODE_BUFFER_BYTES = 65_536;
-/** Room kept free for one encoded CSV row: three shortest-round-trip doubles (at most 24 chars each) and separators. */
-const MAX_CSV_ROW_BYTES = 96;
+/** Room kept free for one encoded CSV row: five shortest-round-trip doubles (at most 24 chars each) and separators. */
+const MAX_CSV_ROW_BYTES = 160;
 const MAX_WAV_DATA_BYTES = 0xffffffff - 1024;
 const METADATA_KEY = /^[A-Za-z][A-Za-z0-9_.-]*$/;
 
@@ -52,7 +59,7 @@ interface ResolvedWriterOptions {
   readonly format: CaptureFormat;
   readonly rateHz: number;
   readonly encoding: SampleEncoding;
-  readonly channelNames: readonly [string, string];
+  readonly channelNames: readonly string[];
   readonly timeColumn: boolean;
   readonly metadata: readonly (readonly [string, string])[];
 }
@@ -75,13 +82,15 @@ function resolveWriterOptions(options: CaptureWriterOptions): ResolvedWriterOpti
   if (format === 'wav' && !Number.isInteger(rateHz)) {
     throw new OptionError('rateHz', 'an integer for WAV, whose header stores whole hertz', rateHz);
   }
-  const channelNames = options.channelNames ?? ['x', 'y'];
+  const channelCount = integerInRange('channelCount', options.channelCount ?? options.channelNames?.length ?? 2, 2, 4);
+  const channelNames = options.channelNames ?? (channelCount === 2 ? ['x', 'y'] : Array.from({ length: channelCount }, (_, k) => `ch${k + 1}`));
+  if (channelNames.length !== channelCount) throw new OptionError('channelNames', `${channelCount} names, one per channel`, channelNames);
   for (const name of channelNames) {
     if (!/^[^,"\r\n#]+$/.test(name) || name.trim() !== name || name === 't') {
       throw new OptionError('channelNames', 'non-empty names without commas, quotes, "#", line breaks, outer spaces or the name "t"', name);
     }
   }
-  if (channelNames[0] === channelNames[1]) throw new OptionError('channelNames', 'two different names', channelNames);
+  if (new Set(channelNames).size !== channelNames.length) throw new OptionError('channelNames', 'different names', channelNames);
   const metadata = Object.entries(options.metadata ?? {});
   for (const [key, value] of metadata) {
     if (!METADATA_KEY.test(key)) throw new OptionError('metadata keys', `names matching ${METADATA_KEY.source}`, key);
@@ -92,9 +101,13 @@ function resolveWriterOptions(options: CaptureWriterOptions): ResolvedWriterOpti
   return { format, rateHz, encoding, channelNames, timeColumn: options.timeColumn ?? false, metadata };
 }
 
-function checkLength(x: ArrayLike<number>, y: ArrayLike<number>, length: number): void {
-  if (!Number.isInteger(length) || length < 0 || length > x.length || length > y.length) {
-    throw new RangeError(`length must be an integer in 0..${Math.min(x.length, y.length)} (the shorter of x and y) (got ${length})`);
+function checkChannels(channels: readonly ArrayLike<number>[], length: number, options: ResolvedWriterOptions): void {
+  if (channels.length !== options.channelNames.length) {
+    throw new RangeError(`the writer takes ${options.channelNames.length} channels (${options.channelNames.join(', ')}); got ${channels.length}`);
+  }
+  const shortest = Math.min(...channels.map((channel) => channel.length));
+  if (!Number.isInteger(length) || length < 0 || length > shortest) {
+    throw new RangeError(`length must be an integer in 0..${shortest} (the shortest channel) (got ${length})`);
   }
 }
 
@@ -142,40 +155,45 @@ function createCsvWriter(path: string, sink: OutputSink, options: ResolvedWriter
     return writeIntegerAscii(buffer, at, value);
   }
 
+  async function writeChannels(channels: readonly ArrayLike<number>[], length: number): Promise<void> {
+    life.checkUsable();
+    checkChannels(channels, length, options);
+    const count = channels.length;
+    try {
+      if (!headerWritten) {
+        const text = Buffer.from(preamble(), 'utf8');
+        await sink.write(text, text.length);
+        headerWritten = true;
+      }
+      for (let i = 0; i < length; i++) {
+        if (state.used > ENCODE_BUFFER_BYTES - MAX_CSV_ROW_BYTES) await life.flush();
+        const index = state.samplesWritten + i;
+        let at = state.used;
+        if (options.timeColumn) {
+          at = writeAscii(buffer, at, String(index / options.rateHz));
+          buffer[at++] = COMMA;
+        }
+        for (let c = 0; c < count; c++) {
+          if (c > 0) buffer[at++] = COMMA;
+          at = writeValue(at, channels[c]![i]!, c, index);
+        }
+        buffer[at++] = LF;
+        state.used = at;
+      }
+      state.samplesWritten += length;
+    } catch (error) {
+      state.failed = true;
+      throw error;
+    }
+  }
+
   return {
     path,
     get samplesWritten() {
       return state.samplesWritten;
     },
-    async write(x, y, length) {
-      life.checkUsable();
-      checkLength(x, y, length);
-      try {
-        if (!headerWritten) {
-          const text = Buffer.from(preamble(), 'utf8');
-          await sink.write(text, text.length);
-          headerWritten = true;
-        }
-        for (let i = 0; i < length; i++) {
-          if (state.used > ENCODE_BUFFER_BYTES - MAX_CSV_ROW_BYTES) await life.flush();
-          const index = state.samplesWritten + i;
-          let at = state.used;
-          if (options.timeColumn) {
-            at = writeAscii(buffer, at, String(index / options.rateHz));
-            buffer[at++] = COMMA;
-          }
-          at = writeValue(at, x[i]!, 0, index);
-          buffer[at++] = COMMA;
-          at = writeValue(at, y[i]!, 1, index);
-          buffer[at++] = LF;
-          state.used = at;
-        }
-        state.samplesWritten += length;
-      } catch (error) {
-        state.failed = true;
-        throw error;
-      }
-    },
+    write: (x, y, length) => writeChannels([x, y], length),
+    writeChannels,
     async close() {
       life.checkUsable();
       try {
@@ -201,7 +219,8 @@ function createWavWriter(path: string, sink: OutputSink, options: ResolvedWriter
   const { buffer, state } = life;
   const encoding = options.encoding;
   const bytesPerSample = encoding === 'int16' ? 2 : encoding === 'int24' ? 3 : 4;
-  const blockAlign = 2 * bytesPerSample;
+  const count = options.channelNames.length;
+  const blockAlign = count * bytesPerSample;
   const header = wavHeader(options, bytesPerSample);
   const framesPerFlush = Math.floor(ENCODE_BUFFER_BYTES / blockAlign);
   const limit = encoding === 'int16' ? 32767 : 8388607;
@@ -209,7 +228,40 @@ function createWavWriter(path: string, sink: OutputSink, options: ResolvedWriter
 
   function checkInteger(value: number, channel: number, index: number): void {
     if (!Number.isInteger(value) || value < -limit - 1 || value > limit) {
-      throw new RangeError(`${path}: sample ${index} of ${channel === 0 ? 'x' : 'y'} is ${value}; ${encoding} WAV takes integers in ${-limit - 1}..${limit}`);
+      throw new RangeError(`${path}: sample ${index} of ${channel === 0 ? 'x' : channel === 1 ? 'y' : `channel ${channel + 1}`} is ${value}; ${encoding} WAV takes integers in ${-limit - 1}..${limit}`);
+    }
+  }
+
+  async function writeChannels(channels: readonly ArrayLike<number>[], length: number): Promise<void> {
+    life.checkUsable();
+    checkChannels(channels, length, options);
+    try {
+      if ((state.samplesWritten + length) * blockAlign > MAX_WAV_DATA_BYTES - header.bytes.length) {
+        throw new RangeError(`${path}: a WAV file holds at most 4 GiB; ${state.samplesWritten + length} frames of ${blockAlign} bytes exceed it`);
+      }
+      if (!headerWritten) {
+        await sink.write(header.bytes, header.bytes.length);
+        headerWritten = true;
+      }
+      for (let i = 0; i < length; i++) {
+        if (state.used + blockAlign > framesPerFlush * blockAlign) await life.flush();
+        let at = state.used;
+        for (let c = 0; c < count; c++) {
+          const value = channels[c]![i]!;
+          if (encoding === 'float32') buffer.writeFloatLE(value, at);
+          else {
+            checkInteger(value, c, state.samplesWritten + i);
+            if (encoding === 'int16') buffer.writeInt16LE(value, at);
+            else buffer.writeIntLE(value, at, 3);
+          }
+          at += bytesPerSample;
+        }
+        state.used = at;
+      }
+      state.samplesWritten += length;
+    } catch (error) {
+      state.failed = true;
+      throw error;
     }
   }
 
@@ -218,44 +270,8 @@ function createWavWriter(path: string, sink: OutputSink, options: ResolvedWriter
     get samplesWritten() {
       return state.samplesWritten;
     },
-    async write(x, y, length) {
-      life.checkUsable();
-      checkLength(x, y, length);
-      try {
-        if ((state.samplesWritten + length) * blockAlign > MAX_WAV_DATA_BYTES - header.bytes.length) {
-          throw new RangeError(`${path}: a WAV file holds at most 4 GiB; ${state.samplesWritten + length} frames of ${blockAlign} bytes exceed it`);
-        }
-        if (!headerWritten) {
-          await sink.write(header.bytes, header.bytes.length);
-          headerWritten = true;
-        }
-        for (let i = 0; i < length; i++) {
-          if (state.used + blockAlign > framesPerFlush * blockAlign) await life.flush();
-          const at = state.used;
-          const xValue = x[i]!;
-          const yValue = y[i]!;
-          if (encoding === 'float32') {
-            buffer.writeFloatLE(xValue, at);
-            buffer.writeFloatLE(yValue, at + 4);
-          } else {
-            checkInteger(xValue, 0, state.samplesWritten + i);
-            checkInteger(yValue, 1, state.samplesWritten + i);
-            if (encoding === 'int16') {
-              buffer.writeInt16LE(xValue, at);
-              buffer.writeInt16LE(yValue, at + 2);
-            } else {
-              buffer.writeIntLE(xValue, at, 3);
-              buffer.writeIntLE(yValue, at + 3, 3);
-            }
-          }
-          state.used = at + blockAlign;
-        }
-        state.samplesWritten += length;
-      } catch (error) {
-        state.failed = true;
-        throw error;
-      }
-    },
+    write: (x, y, length) => writeChannels([x, y], length),
+    writeChannels,
     async close() {
       life.checkUsable();
       try {
@@ -293,7 +309,7 @@ interface WavHeader {
 /** The header up to and including the data chunk header, with sizes 0 until `close` patches them. */
 function wavHeader(options: ResolvedWriterOptions, bytesPerSample: number): WavHeader {
   const float = options.encoding === 'float32';
-  const channels = 2;
+  const channels = options.channelNames.length;
   const fmtBytes = float ? 18 : 16;
   const comment = options.metadata.map(([key, value]) => `${key}: ${value}`).join('\n');
   const commentBytes = comment === '' ? null : Buffer.from(comment + '\0', 'utf8');

@@ -3,7 +3,7 @@
 // (rows, status, recorder, network feeds) subscribes to the one shared chain, so all see the same count.
 
 import { Observable, filter, map, share, type OperatorFunction, type Subscription } from 'rxjs';
-import { createTwoPassFit, integerInRange, OptionError, positiveFinite, type EllipseCalibration, type EllipseFitResult } from '../../core/index.js';
+import { createDetectorFit, integerInRange, OptionError, positiveFinite, type ChannelParameters, type DetectorFitResult, type EllipseCalibration, type EllipseFitResult } from '../../core/index.js';
 import {
   createAxesRunner,
   createAxesView,
@@ -57,7 +57,8 @@ export function readLink(options: LinkOptions = {}): OperatorFunction<ByteSource
 
 /**
  * One axis of a live link: the pipeline options without the rate (it comes from the frames or `link.rateHz`).
- * `calibration: 'fit'` fits the correction live to the first samples (see `TrackLinkOptions.fitSamples`).
+ * `calibration: 'fit'` fits the correction live to the first samples (see `TrackLinkOptions.fitSamples`): of a pair,
+ * or of every output when the frames carry 3 or 4 for the axis (the axis is then calibrated by their parameters).
  */
 export type LiveAxisOptions = Omit<AxisOptions, 'rateHz' | 'calibration'> & { readonly calibration?: EllipseCalibration | null | 'fit' };
 
@@ -73,7 +74,8 @@ export interface TrackLinkOptions extends Omit<AxesRunnerOptions, 'axes'>, AxesV
   readonly referenceMarks?: boolean;
   /**
    * Samples held back for a live fit; integer 64..2^24, default 16384. No position is made until every axis
-   * with `calibration: 'fit'` has its fit (two passes, the second gated on the first); then the held samples go through the
+   * with `calibration: 'fit'` has its fit (as calibrate's: two passes, the second gated on the first, after a pass
+   * for the source power with 3 or 4 outputs); then the held samples go through the
    * pipelines first, so none is lost. A failed fit is retried every as many further samples.
    */
   readonly fitSamples?: number;
@@ -109,7 +111,8 @@ export interface LivePositions {
 export interface LiveFit {
   readonly kind: 'fit';
   readonly axis: string;
-  readonly result: EllipseFitResult;
+  /** For 3 or 4 detector outputs the ellipse of the power-normalised pair, and every output's parameters (`channels`). */
+  readonly result: DetectorFitResult;
   readonly heldSamples: number;
   /** True on success, and on the failure after which no further attempt is made. */
   readonly final: boolean;
@@ -225,14 +228,21 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
   const fitted = options.axes.map((axis) => axis.calibration === 'fit');
   options.axes.forEach((axis, k) => {
     if (fitted[k] && axis.channels !== undefined) {
-      throw new OptionError(`axes[${k}].calibration`, 'a fixed calibration (null) for 3 or 4 outputs: the live fit takes two outputs per axis', 'fit');
+      throw new OptionError(`axes[${k}].calibration`, 'null when channels are given (the live fit finds the outputs\' parameters itself)', 'fit');
     }
   });
-  const runnerOptions = (rateHz: number, calibrations: readonly (EllipseCalibration | null | undefined)[], fitResiduals: readonly number[] = []): AxesRunnerOptions => ({
+  const runnerOptions = (
+    rateHz: number,
+    calibrations: readonly (EllipseCalibration | null | undefined)[],
+    fitResiduals: readonly number[] = [],
+    fittedChannels: readonly (readonly ChannelParameters[] | undefined)[] = [],
+  ): AxesRunnerOptions => ({
     axes: options.axes.map((axis, k) => ({
       ...axis,
       rateHz,
       calibration: calibrations[k],
+      // A live fit of 3 or 4 outputs calibrates the axis by their parameters, as a calibration file of them does.
+      ...(fittedChannels[k] === undefined ? {} : { channels: fittedChannels[k] }),
       // A live fit's residual sets the model watch's default scatter bound, as a calibration file's does.
       ...(axis.modelWatch === undefined || fitResiduals[k] === undefined ? {} : { modelWatch: { fitResidualRms: fitResiduals[k], ...axis.modelWatch } }),
     })),
@@ -253,6 +263,7 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
     let rateHz = Number.NaN;
     const calibrations = [...given];
     const fitResiduals: number[] = [];
+    const fittedChannels: (readonly ChannelParameters[] | undefined)[] = [];
     const holding = fitted.includes(true);
     const held = createHoldStore();
     let nextFitAt = fitSamples;
@@ -270,7 +281,7 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
 
     function run(block: LinkBlock): void {
       if (runner === null) {
-        runner = createAxesRunner(runnerOptions(rateHz, calibrations, fitResiduals));
+        runner = createAxesRunner(runnerOptions(rateHz, calibrations, fitResiduals, fittedChannels));
         if (refractiveIndex !== null) runner.setRefractiveIndex(refractiveIndex);
         running = runner;
       }
@@ -306,7 +317,9 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
       }
       results.forEach((result, k) => {
         if (result !== null && result.ok) {
-          calibrations[k] = result.calibration;
+          // Three or four outputs: their parameters calibrate the axis, the ellipse is that of their normalised pair.
+          if (result.channels === undefined) calibrations[k] = result.calibration;
+          else fittedChannels[k] = result.channels;
           fitResiduals[k] = result.residualRms;
         }
       });
@@ -487,45 +500,43 @@ function referenceAtMarks(runner: AxesRunner, block: LinkBlock): void {
   }
 }
 
-/**
- * The first channel of frame axis `axis` in interleaved frames of this layout (pairs when absent). The live fit
- * takes two outputs: an axis with 3 or 4 ends the stream with an error naming the fix.
- */
-function firstChannelOf(axisOutputs: readonly number[], axis: number): number {
-  if (axisOutputs[axis] !== 2) {
-    throw new Error(`the frames carry ${axisOutputs[axis] ?? 'no'} detector outputs for axis ${axis}: the live fit takes two; give a calibration of those outputs (fringetally calibrate --channels)`);
-  }
+/** The first channel of frame axis `axis` in interleaved frames of this layout, and its output count. */
+function channelsOf(axisOutputs: readonly number[], axis: number): { first: number; count: number } {
+  const count = axisOutputs[axis];
+  if (count === undefined) throw new Error(`the frames carry ${axisOutputs.length} axes: there is no axis ${axis} to fit`);
   let first = 0;
   for (let a = 0; a < axis; a++) first += axisOutputs[a]!;
-  return first;
+  return { first, count };
 }
 
 /**
- * The two-pass fit of one axis over the held samples (`createTwoPassFit`: all samples, then only those near the
- * first fit's ellipse), so that a blocked beam or a glitch during the first samples does not pull the fit.
+ * The fit of one axis over the held samples, as calibrate makes it (`createDetectorFit`: for 3 or 4 outputs the
+ * source power first; then all samples, then only those near the first fit's ellipse), so that a blocked beam or
+ * a glitch during the first samples does not pull the fit. The held frames must give the axis one output count.
  */
-function fitAxis(held: ReturnType<typeof createHoldStore>, channelPair: number): EllipseFitResult {
-  const x = new Float64Array(REPLAY_BLOCK);
-  const y = new Float64Array(REPLAY_BLOCK);
+function fitAxis(held: ReturnType<typeof createHoldStore>, frameAxis: number): DetectorFitResult {
+  const { count } = channelsOf(held.segments[0]!.axisOutputs, frameAxis);
+  const inputs = Array.from({ length: count }, () => new Float64Array(REPLAY_BLOCK));
   /** Feeds every held sample of the axis, block by block, to `take`. */
   const each = (take: (length: number) => void): void => {
     for (const segment of held.segments) {
+      const layout = channelsOf(segment.axisOutputs, frameAxis);
+      if (layout.count !== count) throw new Error(`the frames changed axis ${frameAxis} from ${count} to ${layout.count} detector outputs during the live fit`);
       for (let done = 0; done < segment.samples; done += REPLAY_BLOCK) {
         const n = Math.min(REPLAY_BLOCK, segment.samples - done);
-        let at = segment.start + done * segment.channelCount + firstChannelOf(segment.axisOutputs, channelPair);
-        for (let i = 0; i < n; i++) {
-          x[i] = held.values[at]!;
-          y[i] = held.values[at + 1]!;
-          at += segment.channelCount;
+        const from = segment.start + done * segment.channelCount + layout.first;
+        for (let c = 0; c < count; c++) {
+          const input = inputs[c]!;
+          for (let i = 0, at = from + c; i < n; i++, at += segment.channelCount) input[i] = held.values[at]!;
         }
         take(n);
       }
     }
   };
-  const fit = createTwoPassFit();
-  each((n) => fit.add(x, y, n));
-  const first = fit.endPass();
-  if (first !== null) return first;
-  each((n) => fit.add(x, y, n));
-  return fit.endPass()!;
+  const fit = createDetectorFit({ channelCount: count });
+  for (;;) {
+    each((n) => fit.add(inputs, n));
+    const result = fit.endPass();
+    if (result !== null) return result;
+  }
 }

@@ -26,9 +26,10 @@ export interface ResultWriterOptions {
   stdout?: NodeJS.WritableStream;
   /**
    * Write the source power of three or four detector outputs (1 = the calibration capture's mean) as a `power`
-   * column after the level; every block must then carry `power`. Default false.
+   * column after the level; every block must then carry `power`. `'auto'`: the first block decides (a column when it
+   * carries `power`), for a live source whose output count the frames tell. Default false.
    */
-  power?: boolean;
+  power?: boolean | 'auto';
 }
 
 /** One block of pipeline output; arrays hold at least `length` values. */
@@ -75,7 +76,9 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
   if (format !== 'csv' && format !== 'jsonl') throw new OptionError('format', '"csv" or "jsonl"', format);
   const every = integerInRange('every', options.every ?? 1, 1, 1_000_000_000);
   const rateHz = options.rateHz === undefined ? null : positiveFinite('rateHz', options.rateHz);
-  const withPower = options.power === true;
+  if (options.power !== undefined && options.power !== true && options.power !== false && options.power !== 'auto') throw new OptionError('power', "true, false or 'auto'", options.power);
+  // Null until the first block decides ('auto').
+  let withPower: boolean | null = options.power === 'auto' ? null : options.power === true;
   const sink: OutputSink = path === '-' ? openStreamSink(options.stdout ?? process.stdout) : await openFileSink(path);
   const buffer = Buffer.allocUnsafe(ENCODE_BUFFER_BYTES);
   let used = 0;
@@ -105,6 +108,7 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
     if (!Number.isSafeInteger(block.firstIndex) || block.firstIndex < 0) {
       throw new RangeError(`block.firstIndex must be a non-negative integer (got ${block.firstIndex})`);
     }
+    withPower ??= block.power !== undefined;
     if (withPower && block.power === undefined) throw new RangeError(`${path}: a block without power, for a writer with a power column`);
     const arrays = { positionM: block.positionM, velocityMS: block.velocityMS, level: block.level, flags: block.flags, t: block.t ?? null, power: withPower ? block.power! : null };
     for (const [name, array] of Object.entries(arrays)) {
