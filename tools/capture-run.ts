@@ -24,6 +24,7 @@ import {
   type EllipseFitMethodOptions,
   type EllipseFitResult,
   type PeriodicErrorSummary,
+  type PhaseDomainEstimator,
   type RadiusOverTime,
   type ModelWatchEvent,
   type HarmonicEstimate,
@@ -220,6 +221,31 @@ export interface AlarmSpan {
   readonly endS: number;
 }
 
+/**
+ * Whether the raw outputs' zero lies outside their figure, so the phase about it is no fringe phase: two outputs by the
+ * ellipse, three or four by each output's own offset and amplitude (their pair is power-normalised, centred on zero).
+ */
+function unipolar(layout: readonly ChannelParameters[] | undefined, calibration: EllipseCalibration, mid: number): boolean {
+  if (layout !== undefined) return layout.some((c) => Math.abs(c.offset - mid) > c.amplitude);
+  return Math.abs(calibration.offsetX - mid) > calibration.amplitudeX || Math.abs(calibration.offsetY - mid) > calibration.amplitudeY;
+}
+
+/** The reason, in the user's units, when no window of the phase-domain method could be used. */
+function afterNotMeasured(after: PhaseDomainEstimator, metresPerRad: number): string | null {
+  const { fitted, used, smallestMisfitRad } = after.windows;
+  if (used > 0) return null;
+  const { windowSpanRad, maxWindowSamples, maxMisfitRad } = after.options;
+  const windows = `${windowSpanRad / (2 * Math.PI)} fringes of phase or ${maxWindowSamples} samples`;
+  if (fitted === 0) return `not measured: no stretch of clean signal spans ${windows} to measure it`;
+  const nmOf = (rad: number) => (rad * metresPerRad * 1e9).toFixed(2);
+  return (
+    `not measurable on this motion: in every one of the ${fitted} clean windows (${windows} each) the motion departs ` +
+    `from a cubic in time by at least ${smallestMisfitRad.toFixed(4)} rad (${nmOf(smallestMisfitRad)} nm) RMS beyond the ` +
+    `noise, more than the ${maxMisfitRad} rad (${nmOf(maxMisfitRad)} nm) the method allows: motion this irregular cannot be ` +
+    `told from a periodic error. Record a smooth move over a few fringes to measure it; the radius analysis indicates its size`
+  );
+}
+
 export interface PeriodicErrorResult {
   readonly summary: PeriodicErrorSummary;
   /** Mean error per phase bin, metres. */
@@ -243,8 +269,10 @@ export interface RunResult {
   readonly before: PeriodicErrorResult;
   /** Why "before" means nothing for this capture (unipolar signals), else null. */
   readonly beforeNotApplicable: string | null;
-  /** The corrected phase's periodic error, in the phase domain (see createPhaseDomainEstimator): any motion a cubic follows over 512 samples. */
+  /** The corrected phase's periodic error, in the phase domain (see createPhaseDomainEstimator): any motion a cubic follows over two fringes. */
   readonly after: PeriodicErrorResult;
+  /** Why "after" could not be measured on this capture (with how far the motion was from what the method needs), else null. */
+  readonly afterNotMeasured: string | null;
   /** The periodic-error and radius analyses looked at every `analysedEvery`-th block of 4096 samples (1: all of them; see createAnalysisSchedule). */
   readonly analysedEvery: number;
   /** Where the signal left the calibration's model (`calibration_stale`, see createModelWatch): the first events, and how often it was raised. */
@@ -506,11 +534,11 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     alarmSpans: spans,
     power: combined === null ? null : { min: power.min, max: power.max, mean: power.sum / power.count },
     before: toMetres(before),
-    beforeNotApplicable:
-      Math.abs(calibration.offsetX - mid) > calibration.amplitudeX || Math.abs(calibration.offsetY - mid) > calibration.amplitudeY
-        ? 'the signals are unipolar (DC-coupled): the zero of the converter lies outside the figure, so the phase about it is not a fringe phase'
-        : null,
+    beforeNotApplicable: unipolar(layout, calibration, mid)
+      ? 'the signals are unipolar (DC-coupled): the zero of the converter lies outside the figure, so the phase about it is not a fringe phase'
+      : null,
     after: toMetres(after),
+    afterNotMeasured: afterNotMeasured(after, metresPerRad),
     analysedEvery: schedule.every,
     harmonicEstimate: estimator === null ? null : estimator.solve(),
     modelWatch: { events: watchEvents, raised: watchRaised, activeAtEnd: watch.active, options: watch.options },

@@ -50,9 +50,9 @@ export function formatPower(power: { min: number; max: number; mean: number }): 
   return `power       source power ${power.min.toFixed(4)} to ${power.max.toFixed(4)} (mean ${power.mean.toFixed(4)}; 1 = mean of the calibration capture), removed sample by sample`;
 }
 
-function periodicRow(label: string, result: PeriodicErrorResult, metresPerRad: number): string {
+function periodicRow(label: string, result: PeriodicErrorResult, metresPerRad: number, notMeasured: string | null): string {
   const s = result.summary;
-  if (s.samples === 0) return `${label}  no stretch of motion that a cubic in time follows over 512 samples, with a clean signal, to measure it`;
+  if (notMeasured !== null) return `${label}  ${notMeasured}`;
   return (
     `${label}  p-p ${nm(s.peakToPeakRad * metresPerRad)} nm, RMS ${nm(s.rmsRad * metresPerRad)} nm, ` +
     `1st harmonic ${nm(s.firstHarmonicRad * metresPerRad)} nm, 2nd harmonic ${nm(s.secondHarmonicRad * metresPerRad)} nm ` +
@@ -65,11 +65,16 @@ function analysedShare(run: RunResult): string {
   return `one block of 4096 samples in every ${run.analysedEvery}, spread over the whole capture`;
 }
 
+/** "Before" bins every clean sample: it is missing only when none was clean. */
+function notMeasuredBefore(run: RunResult): string | null {
+  return run.before.summary.samples === 0 ? 'no sample with a clean signal to measure it' : null;
+}
+
 export function formatPeriodicError(run: RunResult): string[] {
   return [
     'periodic error (amplitudes of the harmonics; p-p and RMS of the phase-binned mean):',
-    run.beforeNotApplicable === null ? periodicRow('  before', run.before, run.metresPerRad) : `  before  not applicable: ${run.beforeNotApplicable}`,
-    periodicRow('  after ', run.after, run.metresPerRad),
+    run.beforeNotApplicable === null ? periodicRow('  before', run.before, run.metresPerRad, notMeasuredBefore(run)) : `  before  not applicable: ${run.beforeNotApplicable}`,
+    periodicRow('  after ', run.after, run.metresPerRad, run.afterNotMeasured),
     ...(run.analysedEvery > 1 ? [`  (periodic error and radius analysed on ${analysedShare(run)})`] : []),
   ];
 }
@@ -242,7 +247,22 @@ function residualCaption(run: RunResult): { phase: string; time: string } {
   };
 }
 
-function periodicPlot(before: PeriodicErrorResult, after: PeriodicErrorResult): string {
+const legend = (entries: Array<[string, string]>) => `<p class="legend">${entries.map(([cls, text]) => `<span class="key ${cls}"></span>${escape(text)}`).join(' ')}</p>`;
+
+/** The periodic-error plot with its legend; a curve left out (not applicable, not measured) is named with the reason. */
+function periodicSection(run: RunResult): string {
+  const beforeShown = run.beforeNotApplicable === null && measured(run.before);
+  const afterShown = run.afterNotMeasured === null && measured(run.after);
+  const reasons = [
+    ...(run.beforeNotApplicable === null ? [] : [`Before correction: not applicable: ${run.beforeNotApplicable}.`]),
+    ...(run.afterNotMeasured === null ? [] : [`After correction: ${run.afterNotMeasured}.`]),
+  ].map((text) => `<p>${escape(text)}</p>`);
+  if (!beforeShown && !afterShown) return reasons.join('');
+  const keys: Array<[string, string]> = [...(beforeShown ? [['before', 'before correction'] as [string, string]] : []), ...(afterShown ? [['after', 'after correction'] as [string, string]] : [])];
+  return reasons.join('') + legend(keys) + periodicPlot(run.before, run.after, beforeShown, afterShown);
+}
+
+function periodicPlot(before: PeriodicErrorResult, after: PeriodicErrorResult, beforeShown: boolean, afterShown: boolean): string {
   const bins = before.binnedM.length;
   const centre = (b: number) => ((b + 0.5) / bins) * 360;
   const toNm = (values: Float64Array) => {
@@ -250,8 +270,8 @@ function periodicPlot(before: PeriodicErrorResult, after: PeriodicErrorResult): 
     const mean = finite.reduce((a, b) => a + b, 0) / Math.max(1, finite.length);
     return Float64Array.from(values, (v) => (v - mean) * 1e9);
   };
-  const b = measured(before) ? toNm(before.binnedM) : new Float64Array(0);
-  const a = measured(after) ? toNm(after.binnedM) : new Float64Array(0);
+  const b = beforeShown ? toNm(before.binnedM) : new Float64Array(0);
+  const a = afterShown ? toNm(after.binnedM) : new Float64Array(0);
   return chart({
     label: 'periodic error against phase',
     width: 640,
@@ -407,19 +427,16 @@ export function reportHtml(input: ReportInput): string {
     rows.push(['fit residual', `${sig(fit.residualRms * 100, 3)} % of the radius`]);
     rows.push(['phase coverage', `${fit.coverage.toFixed(3)} of a fringe`]);
   }
-  const pe = (label: string, r: PeriodicErrorResult) => {
+  const pe = (label: string, r: PeriodicErrorResult, notMeasured: string | null) => {
     const s = r.summary;
     rows.push([
       `periodic error ${label}`,
-      label === 'before' && run.beforeNotApplicable !== null
-        ? `not applicable: ${run.beforeNotApplicable}`
-        : s.samples === 0
-        ? 'not measured (no clean motion that a cubic follows over 512 samples)'
-        : `p-p ${nm(s.peakToPeakRad * run.metresPerRad)} nm, RMS ${nm(s.rmsRad * run.metresPerRad)} nm, 1st ${nm(s.firstHarmonicRad * run.metresPerRad)} nm, 2nd ${nm(s.secondHarmonicRad * run.metresPerRad)} nm`,
+      notMeasured ??
+        `p-p ${nm(s.peakToPeakRad * run.metresPerRad)} nm, RMS ${nm(s.rmsRad * run.metresPerRad)} nm, 1st ${nm(s.firstHarmonicRad * run.metresPerRad)} nm, 2nd ${nm(s.secondHarmonicRad * run.metresPerRad)} nm`,
     ]);
   };
-  pe('before correction', run.before);
-  pe('after correction', run.after);
+  pe('before correction', run.before, run.beforeNotApplicable === null ? notMeasuredBefore(run) : `not applicable: ${run.beforeNotApplicable}`);
+  pe('after correction', run.after, run.afterNotMeasured);
   if (run.analysedEvery > 1) rows.push(['periodic error and radius analysed on', analysedShare(run)]);
   rows.push(['final position', `${(run.finalPositionM * 1e6).toFixed(6)} µm${run.countLostAtEnd ? ' — COUNT LOST: not trustworthy' : ''}`]);
   rows.push(['unambiguous speed limit', `${sig(run.speedLimits.unambiguousMS)} m/s (overspeed alarm at ${sig(run.speedLimits.overspeedMS)} m/s)`]);
@@ -440,7 +457,6 @@ export function reportHtml(input: ReportInput): string {
   const table = (entries: Array<[string, string]>, className: string) =>
     `<table class="${className}">${entries.map(([k, v]) => `<tr><th>${escape(k)}</th><td>${escape(v)}</td></tr>`).join('')}</table>`;
   const endS = run.samples / run.info.rateHz;
-  const legend = (entries: Array<[string, string]>) => `<p class="legend">${entries.map(([cls, text]) => `<span class="key ${cls}"></span>${escape(text)}`).join(' ')}</p>`;
   const spectrum = input.spectrum ?? null;
   const caption = residualCaption(run);
   const power = run.report.power;
@@ -477,7 +493,7 @@ ${input.budget === null ? '<p>No environment given: no uncertainty budget (the r
 ${legend([['samples', 'samples'], ['model', 'fitted ellipse (left), unit circle (right)']])}
 <div class="figures">${lissajous('Lissajous figure before correction', run.report.raw.x, run.report.raw.y, ellipseCurve(calibration), 'x (capture units)', 'y (capture units)')}${lissajous('Lissajous figure after correction', run.report.corrected.x, run.report.corrected.y, unitCircle, 'u = cos φ', 'v = sin φ')}</div>
 <h2>Periodic error against phase</h2>
-${measured(run.before) || measured(run.after) ? legend([...(measured(run.before) ? [['before', 'before correction'] as [string, string]] : []), ...(measured(run.after) ? [['after', 'after correction'] as [string, string]] : [['', 'after correction: not measured (no steady motion)'] as [string, string]])]) + periodicPlot(run.before, run.after) : '<p>Not measured: no steady motion in the capture.</p>'}
+${periodicSection(run)}
 <h2>Position and velocity</h2>
 <p>Each pixel column shows the range of values in its time slice. Alarm lanes below each plot mark when an alarm was active (hover a span for its times).</p>
 ${timePlot(run.report.position, 1e6, 'position (µm)', run, 'position against time', endS)}

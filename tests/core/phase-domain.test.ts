@@ -39,14 +39,37 @@ describe('phase-domain periodic error', () => {
     expect(steady.summary().samples).toBe(0);
   });
 
-  it('reads nothing on a periodic-error-free phase, and masked windows are left out', () => {
+  it('reads nothing on a periodic-error-free phase, and a masked sample leaves its window out', () => {
     const { measured } = capture(100_000, 0);
     const valid = new Uint8Array(measured.length).fill(1);
+    // A wild sample, masked: were its window used, the estimate would read it.
+    measured[1000] = measured[1000]! + 3;
     valid[1000] = 0;
     const estimator = createPhaseDomainEstimator();
     estimator.process(measured, valid, measured.length);
+    expect(estimator.windows.used).toBeGreaterThan(50);
     expect(estimator.summary().peakToPeakRad).toBeLessThan(1e-3); // 0.05 nm at 633 nm, fold 2
-    expect(estimator.windows.used).toBe(Math.floor(100_000 / 512) - 1);
+    const unmasked = createPhaseDomainEstimator({ maxMisfitRad: 10 });
+    unmasked.process(measured, new Uint8Array(measured.length).fill(1), measured.length);
+    expect(unmasked.summary().peakToPeakRad).toBeGreaterThan(3e-3);
+  });
+
+  it('does not read a smooth wander it cannot follow as periodic error (windows of two fringes, misfit bound)', () => {
+    // 25 fringes in 12 000 samples with two superposed swings (invented); no periodic error at all, so the truth is
+    // zero. Fixed windows of 512 samples with a 0.05 rad bound on what the cubic leaves read 0.72 nm p-p here.
+    const n = 12_000;
+    const phase = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const t = i / n;
+      phase[i] = 2 * Math.PI * 25 * (0.6 * t + 0.25 * Math.sin(2 * Math.PI * 3.3 * t) + 0.1 * Math.sin(2 * Math.PI * 7.1 * t + 1));
+    }
+    const estimator = createPhaseDomainEstimator();
+    estimator.process(phase, new Uint8Array(n).fill(1), n);
+    expect(estimator.windows.used).toBeGreaterThan(20);
+    expect(estimator.summary().peakToPeakRad).toBeLessThan(2e-3); // 0.1 nm at 633 nm, fold 2
+    const loose = createPhaseDomainEstimator({ maxMisfitRad: 0.05, windowSpanRad: 1e9, maxWindowSamples: 512 });
+    loose.process(phase, new Uint8Array(n).fill(1), n);
+    expect(loose.summary().peakToPeakRad).toBeGreaterThan(0.01); // the fixed windows' error this replaces
   });
 
   it('equals the least-squares fit of per-window cubics and shared harmonics that ml-matrix solves (within 1e-10 rad)', () => {
@@ -58,7 +81,7 @@ describe('phase-domain periodic error', () => {
     const { measured } = capture(size * windows, 0.02);
     // Faster motion than capture()'s so that short windows span the phase: 6 windows of 64 samples.
     for (let i = 0; i < measured.length; i++) measured[i] = measured[i]! * 40 + 1e4;
-    const estimator = createPhaseDomainEstimator({ windowSamples: size, orders, maxResidualRad: 1e3 });
+    const estimator = createPhaseDomainEstimator({ maxWindowSamples: size, windowSpanRad: 1e9, orders, maxMisfitRad: 1e3 });
     estimator.process(measured, new Uint8Array(measured.length).fill(1), measured.length);
     expect(estimator.windows.used).toBe(windows);
     const columns = 4 * windows + 2 * orders;
@@ -85,6 +108,40 @@ describe('phase-domain periodic error', () => {
       for (let k = 1; k <= orders; k++) e += x.get(4 * windows + 2 * k - 2, 0) * Math.cos(k * centre) + x.get(4 * windows + 2 * k - 1, 0) * Math.sin(k * centre);
       expect(Math.abs(binned[b]! - e)).toBeLessThan(1e-10);
     }
+  });
+
+  it('on a wander no cubic follows, uses no window and reports how far the best one was (ml-matrix least squares)', () => {
+    // A random walk of the phase (red, like the thermal drift of a resting interferometer; invented) in windows of
+    // 512 samples that span far less than two fringes, so each is judged by what its cubic alone leaves beyond the
+    // noise (second differences). Checked against ml-matrix's QR least squares of each window (third-party: solve).
+    const random = createRandom(4);
+    const size = 512;
+    const windows = 6;
+    const wander = new Float64Array(size * windows);
+    for (let i = 1; i < wander.length; i++) wander[i] = wander[i - 1]! + 0.003 * random.gaussian();
+    const estimator = createPhaseDomainEstimator({ maxWindowSamples: size });
+    estimator.process(wander, new Uint8Array(wander.length).fill(1), wander.length);
+    let smallest = Infinity;
+    for (let w = 0; w < windows; w++) {
+      const design = new Matrix(size, 4);
+      const target = new Matrix(size, 1);
+      let curvature = 0;
+      for (let j = 0; j < size; j++) {
+        const t = (2 * j) / (size - 1) - 1;
+        for (let d = 0; d < 4; d++) design.set(j, d, t ** d);
+        target.set(j, 0, wander[w * size + j]!);
+        if (j >= 2) curvature += (wander[w * size + j]! - 2 * wander[w * size + j - 1]! + wander[w * size + j - 2]!) ** 2;
+      }
+      const residual = target.sub(design.mmul(solve(design, target)));
+      smallest = Math.min(smallest, Math.sqrt(residual.norm() ** 2 / size - curvature / (6 * (size - 2))));
+    }
+    expect(estimator.windows.fitted).toBe(windows);
+    expect(estimator.windows.used).toBe(0);
+    expect(smallest).toBeGreaterThan(estimator.options.maxMisfitRad);
+    expect(estimator.windows.smallestMisfitRad).toBeCloseTo(smallest, 8);
+    expect(Number.isNaN(estimator.summary().peakToPeakRad)).toBe(true);
+    estimator.reset();
+    expect(estimator.windows).toEqual({ fitted: 0, used: 0, smallestMisfitRad: NaN });
   });
 
   it('skip(n) gives the same result as n masked samples, for any blocks', () => {

@@ -7,6 +7,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fringetally, numbers, readCsv } from './cli.js';
 import { detectorOutputs, UNBALANCED_THREE, wanderingPhase } from '../support/detector-outputs.js';
+import { createRandom } from '../../src/core/index.js';
 
 const common = ['--wavelength-nm', '632.9908', '--fold', '2', '--quiet'];
 const NM_PER_RAD = 632.9908 / (2 * 2 * Math.PI);
@@ -34,7 +35,7 @@ function errorPeakToPeakNm(result: string): number {
 
 describe('--channels', () => {
   it('calibrates three outputs, writes every output to a version 2 file, and replays far closer to the truth than a pair', async () => {
-    const calibrated = await fringetally(['calibrate', 'three.csv', '--channels', 'a,b,c', '--out', 'three.json', ...common.slice(0, 4)], dir);
+    const calibrated = await fringetally(['calibrate', 'three.csv', '--channels', 'a,b,c', '--out', 'three.json', '--report', 'three.html', ...common.slice(0, 4)], dir);
     expect(calibrated.code, calibrated.stderr).toBe(0);
     expect(calibrated.stderr).toMatch(/output 3 {4}c: offset/);
     expect(calibrated.stderr).toMatch(/source power 0\.9\d+ to 1\.0\d+/);
@@ -72,6 +73,38 @@ describe('--channels', () => {
     expect(calibrated.stderr).toMatch(/drift {7}mean radius moved by 0\.[0-4]\d\d %/);
     const pairFile = JSON.parse(readFileSync(join(dir, 'pair.json'), 'utf8'));
     expect(pairFile.residual.radiusDriftRelative).toBeGreaterThan(0.03);
+
+    // The outputs are unipolar (every offset beyond its amplitude): "before" has no meaning and says why; "after" is
+    // measured on the smooth wander (a cubic follows it over 512 samples) and finds the simulated head clean.
+    expect(calibrated.stderr).toMatch(/before {2}not applicable: the signals are unipolar/);
+    const after = /after {3}p-p (\d+\.\d+) nm/.exec(calibrated.stderr);
+    expect(after, calibrated.stderr).not.toBeNull();
+    expect(Number(after![1])).toBeLessThan(0.3);
+    // The report draws no "before" curve for them, says why, and draws "after".
+    const html = readFileSync(join(dir, 'three.html'), 'utf8');
+    expect(html).toContain('<p>Before correction: not applicable: the signals are unipolar');
+    expect(html).not.toContain('<path class="before"');
+    expect(html).toContain('<path class="after"');
+  });
+
+  it('says why "after" cannot be measured on a wander no cubic follows, with how far it was', async () => {
+    // A random walk of the phase (red, like a resting interferometer's thermal drift; invented), 3 outputs.
+    const random = createRandom(12);
+    const walk = new Float64Array(8192);
+    for (let i = 1; i < walk.length; i++) walk[i] = walk[i - 1]! + 0.1 * random.gaussian();
+    const { channels } = detectorOutputs(UNBALANCED_THREE, walk, { noiseRms: 2e-4 });
+    const rows = ['# rate_hz: 1', 'a,b,c', ...Array.from(walk, (_, i) => channels.map((channel) => channel[i]!.toFixed(6)).join(','))];
+    writeFileSync(join(dir, 'walk.csv'), rows.join('\n') + '\n');
+    const result = await fringetally(['calibrate', 'walk.csv', '--channels', 'a,b,c', '--out', 'walk.json', '--report', 'walk.html', ...common.slice(0, 4)], dir);
+    expect(result.code, result.stderr).toBe(0);
+    const said = /after {3}not measurable on this motion: in every one of the (\d+) clean windows \(2 fringes of phase or 4096 samples each\) the motion departs from a cubic in time by at least (\d\.\d+) rad \((\d+\.\d+) nm\) RMS beyond the noise, more than the 0\.003 rad \(0\.15 nm\)/.exec(result.stderr);
+    expect(said, result.stderr).not.toBeNull();
+    expect(Number(said![1])).toBeGreaterThan(0);
+    expect(Number(said![2])).toBeGreaterThan(0.003);
+    expect(Number(said![3])).toBeCloseTo(Number(said![2]) * NM_PER_RAD, 1);
+    const html = readFileSync(join(dir, 'walk.html'), 'utf8');
+    expect(html).toContain('<p>After correction: not measurable on this motion:');
+    expect(html).not.toContain('<path class="after"');
   });
 
   it('refuses a wrong number of outputs with the option that fixes it', async () => {

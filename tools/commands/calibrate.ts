@@ -47,9 +47,11 @@ ${captureOptionHelp}
 
 Periodic error "before" is the phase error of the uncorrected signals (ADC mid-scale removed only) against
 the corrected phase; it is "not applicable" for unipolar (DC-coupled) signals, whose zero lies outside the
-figure. "After" is measured in the phase domain: over windows of 512 samples the corrected phase is fitted as a
-cubic in time (the motion, its own per window) plus harmonics 1-4 of the phase shared by all windows, so slow and
-irregular motion (reversals, stops) counts too; windows with an alarm on the signal are left out.`;
+figure. "After" is measured in the phase domain: the corrected phase is cut into windows that each span two
+fringes (or hold 4096 samples), fitted in each as a cubic in time (the motion, its own per window) plus harmonics
+1-4 of the phase shared by all windows, so slow and irregular motion (reversals, stops) counts too. A window is
+used only where the cubic follows the motion to within 0.003 rad RMS beyond the noise (motion it cannot follow would
+read as periodic error), and not where an alarm is on the signal; when no window qualifies the summary says why.`;
 
 async function run(argv: readonly string[]): Promise<number> {
   const { values, positionals } = parseCommandLine(
