@@ -4,6 +4,7 @@
 // `createWasmFrontEnd` returns null: the caller then leaves `frontEnd` unset and the plain pipeline runs.
 import type { FrontEnd, SampleArray } from '../core/index.js';
 import { FRONT_END_WASM_BASE64 } from './front-end-wasm.js';
+import { instantiate } from './wasm.js';
 
 /**
  * `f32` (default, fastest): f32x4 lanes; phase within `F32_MAX_PHASE_ERROR_RAD` of `fastAtan2`, level within
@@ -54,26 +55,12 @@ interface KernelExports {
   ): number;
 }
 
-function decode(base64: string): Uint8Array<ArrayBuffer> {
-  const text = atob(base64);
-  const bytes = new Uint8Array(text.length);
-  for (let i = 0; i < text.length; i++) bytes[i] = text.charCodeAt(i);
-  return bytes;
-}
-
-// Compiled once per process: every pipeline of the Node entry points makes a front end.
-let compiled: WebAssembly.Module | undefined;
-
 /** The kernel, or null when this engine lacks WebAssembly or its SIMD extension. */
 export function createWasmFrontEnd(options: WasmFrontEndOptions = {}): WasmFrontEnd | null {
   const precision = options.precision ?? 'f32';
-  let kernel: KernelExports;
-  try {
-    compiled ??= new WebAssembly.Module(decode(FRONT_END_WASM_BASE64));
-    kernel = new WebAssembly.Instance(compiled, {}).exports as unknown as KernelExports;
-  } catch {
-    return null; // no WebAssembly SIMD here: the caller keeps the JavaScript stages
-  }
+  const instance = instantiate<KernelExports>(FRONT_END_WASM_BASE64);
+  if (instance === null) return null; // the caller keeps the JavaScript stages
+  const kernel: KernelExports = instance;
   const exact = precision === 'f64-exact';
   let capacity = 0;
   // Memory layout, each region aligned: phases (f64), levels (f32), x and y samples (i16, or f64 for the exact

@@ -29,9 +29,9 @@ import {
   type SampleArray,
   type SpeedLimits,
 } from '../core/index.js';
+import { createAxisKernels, type AxisRegion } from '../accel/axis-kernels.js';
 import { createPipeline } from '../accel/pipeline.js';
 import { checkAxisBlock, checkFrameBlock, type AxisBlock, type FrameBlock } from './blocks.js';
-import { createPositionBuffers } from './track-position.js';
 
 export interface AxisOptions extends PipelineOptions {
   /** Name in updates, feeds and logs: 1..32 characters of A–Z, a–z, 0–9, `_`, `-`. Default `axis<k>`. */
@@ -274,16 +274,12 @@ interface AxisStage {
   readonly outputs: number;
   /** Axis of the frames the axis reads (`channelPair`). */
   readonly frameAxis: number;
-  /** The outputs of the latest block, split (3–4-output axes), and their source power. */
-  inputs: Int16Array[];
+  /** Views of exactly one block's length on the axis' region of the kernels, remade only when either changes. */
+  views: BlockViews | null;
+  /** Source power per sample of a 3–4-output axis (grown to the longest block). */
   power: Float32Array;
-  /** The output views with the power (and the phase for `beyond`), rebuilt only when the views change (no record per block). */
-  combinedOut: (AxisSamples & { power: Float32Array; unwrappedPhaseRad?: Float64Array }) | null;
   readonly correction: Correction;
   readonly summary: MutableSummary;
-  readonly buffers: ReturnType<typeof createPositionBuffers>;
-  x: Int16Array;
-  y: Int16Array;
   /** Added to the pipeline's position: the preset of the latest re-reference (0 after a zero). */
   offsetM: number;
   /** A re-reference not yet reached: its sample and preset. */
@@ -291,6 +287,18 @@ interface AxisStage {
   pendingPresetM: number;
   /** The harmonic correction and the model watch of the axis' options, with their block buffers, or null. */
   readonly beyond: BeyondEllipse | null;
+}
+
+interface BlockViews {
+  readonly region: AxisRegion;
+  readonly length: number;
+  /** The pair split out of the frames (x, y), or the 3–4 outputs. */
+  readonly inputs: readonly Int16Array[];
+  readonly out: AxisSamples;
+  /** `out` with the source power (3–4-output axes; and the unwrapped phase for `beyond`), else null. */
+  readonly combinedOut: (AxisSamples & { power: Float32Array; unwrappedPhaseRad?: Float64Array }) | null;
+  /** `out` with the unwrapped phase (a pair with harmonics or a model watch), else null. */
+  readonly beyondOut: (AxisSamples & { unwrappedPhaseRad: Float64Array }) | null;
 }
 
 interface BeyondEllipse {
@@ -378,14 +386,10 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
       combined,
       outputs: combined === null ? 2 : combined.stages.combiner.channels.length,
       frameAxis,
-      inputs: [],
+      views: null,
       power: new Float32Array(0),
-      combinedOut: null,
       correction: createCorrection({ calibration: combined === null ? (axisOptions.calibration ?? null) : null }),
       summary: emptySummary(names[k]!, pipeline.speedLimits, tracePoints),
-      buffers: createPositionBuffers(axisOptions.blockCapacity ?? 4096),
-      x: new Int16Array(0),
-      y: new Int16Array(0),
       offsetM: 0,
       pendingAt: -1,
       pendingPresetM: 0,
@@ -393,41 +397,68 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     };
   });
   const summaries: readonly AxisBlockSummary[] = stages.map((stage) => stage.summary);
+  // The split of the frames and the block summaries (WebAssembly SIMD where it exists); the pipelines read from
+  // and write into its memory.
+  const kernels = createAxisKernels(
+    stages.map((stage) => stage.outputs),
+    Math.max(...options.axes.map((axis) => axis.blockCapacity ?? 4096)),
+  );
   const axesNeeded = Math.max(...stages.map((stage) => stage.frameAxis + 1));
   const firstChannel = new Int32Array(9);
   const pick = { x: new Float64Array(tracePerBlock), y: new Float64Array(tracePerBlock), u: new Float64Array(tracePerBlock), v: new Float64Array(tracePerBlock) };
 
-  function processAxis(stage: AxisStage, rawX: AxisBlock['x'], rawY: AxisBlock['y'], length: number, gapBefore: number): void {
+  function viewsOf(stage: AxisStage, region: AxisRegion, length: number): BlockViews {
+    const out: AxisSamples = {
+      positionM: region.positionM.subarray(0, length),
+      velocityMS: region.velocityMS.subarray(0, length),
+      level: region.level.subarray(0, length),
+      flags: region.flags.subarray(0, length),
+    };
+    if (stage.combined !== null && stage.power.length < length) stage.power = new Float32Array(length);
+    const beyond = stage.beyond;
+    if (beyond !== null && beyond.phase.length < length) growBeyond(beyond, length);
+    const phase = beyond === null ? {} : { unwrappedPhaseRad: beyond.phase };
+    return {
+      region,
+      length,
+      inputs: region.inputs.map((input) => input.subarray(0, length)),
+      out,
+      combinedOut: stage.combined === null ? null : { ...out, power: stage.power.subarray(0, length), ...phase },
+      beyondOut: beyond === null || stage.combined !== null ? null : { ...out, unwrappedPhaseRad: beyond.phase },
+    };
+  }
+
+  /** Runs axis k over one block: its samples are the split ones in the kernels' region, or `raw` (an AxisBlock). */
+  function processAxis(k: number, raw: AxisBlock | null, length: number, gapBefore: number): void {
+    const stage = stages[k]!;
     const { pipeline, summary } = stage;
     if (gapBefore > 0) pipeline.markGap(gapBefore);
     summary.events.length = 0;
     summary.firstSampleIndex = pipeline.nextSampleIndex;
-    const out = stage.buffers.views(length);
-    let x = rawX;
-    let y = rawY;
+    const region = kernels.regions[k]!;
+    let views = stage.views;
+    if (views === null || views.region !== region || views.length !== length) views = stage.views = viewsOf(stage, region, length);
+    const out = views.out;
+    let x: SampleArray = raw === null ? views.inputs[0]! : raw.x;
+    let y: SampleArray = raw === null ? views.inputs[1]! : raw.y;
     const beyond = stage.beyond;
     if (stage.combined !== null) {
-      if (stage.power.length < length) stage.power = new Float32Array(length);
-      if (beyond !== null && beyond.phase.length < length) growBeyond(beyond, length);
-      if (stage.combinedOut?.positionM !== out.positionM || stage.combinedOut.power !== stage.power || (beyond !== null && stage.combinedOut.unwrappedPhaseRad !== beyond.phase)) {
-        stage.combinedOut = { ...out, power: stage.power, ...(beyond === null ? {} : { unwrappedPhaseRad: beyond.phase }) };
-      }
-      stage.combined.process(stage.inputs, length, stage.combinedOut, summary.events);
+      stage.combined.process(views.inputs, length, views.combinedOut!, summary.events);
       if (beyond !== null) beyondEllipse(stage, beyond, out, length);
       // The trace and the summary's samples are the power-normalised pair (on the unit circle).
       x = stage.combined.pair.u;
       y = stage.combined.pair.v;
     } else if (beyond === null) stage.plain!.process(x, y, length, out, summary.events);
     else {
-      if (beyond.phase.length < length) growBeyond(beyond, length);
-      stage.plain!.process(x, y, length, { ...out, unwrappedPhaseRad: beyond.phase }, summary.events);
+      stage.plain!.process(x, y, length, views.beyondOut!, summary.events);
       beyondEllipse(stage, beyond, out, length);
     }
     if (stage.offsetM !== 0 || stage.pendingAt >= 0) applyPreset(stage, out.positionM, length, summary.firstSampleIndex);
     summary.x = x;
     summary.y = y;
-    summary.output = stage.combinedOut ?? out;
+    summary.output = views.combinedOut ?? out;
     summarise(summary, out, length, gapBefore, pipeline);
+    if (length > 0) kernels.summarise(k, length, summary);
     if (tracePoints > 0 && length > 0) {
       const count = Math.min(tracePerBlock, length);
       const step = length / count;
@@ -464,8 +495,6 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
         }
         for (let a = 0; a < frameAxes; a++) firstChannel[a + 1] = firstChannel[a]! + (layout === undefined ? 2 : layout[a]!);
         const n = block.samplesPerFrame;
-        const stride = block.channelCount;
-        const samples = block.samples;
         for (let k = 0; k < axisCount; k++) {
           const stage = stages[k]!;
           const outputs = firstChannel[stage.frameAxis + 1]! - firstChannel[stage.frameAxis]!;
@@ -477,34 +506,18 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
               `${outputs} outputs`,
             );
           }
-          if (stage.x.length < n) {
-            stage.x = new Int16Array(n);
-            stage.y = new Int16Array(n);
-            stage.inputs = stage.combined === null ? [] : Array.from({ length: stage.outputs }, () => new Int16Array(n));
-          }
-          // Split inline: locals keep the loop in registers (see DEVELOPERS.md).
-          const x = stage.x;
-          const y = stage.y;
-          let at = firstChannel[stage.frameAxis]!;
-          if (stage.combined === null) {
-            for (let s = 0; s < n; s++) {
-              x[s] = samples[at]!;
-              y[s] = samples[at + 1]!;
-              at += stride;
-            }
-          } else {
-            for (let c = 0; c < stage.outputs; c++) {
-              const input = stage.inputs[c]!;
-              for (let s = 0, from = at + c; s < n; s++, from += stride) input[s] = samples[from]!;
-            }
-          }
-          processAxis(stage, x, y, n, block.gapBefore ?? 0);
+        }
+        kernels.load(block.samples, n, block.channelCount);
+        for (let k = 0; k < axisCount; k++) {
+          kernels.split(k, firstChannel[stages[k]!.frameAxis]!);
+          processAxis(k, null, n, block.gapBefore ?? 0);
         }
       } else {
         if (axisCount !== 1) throw new OptionError('block', `FrameBlocks for ${axisCount} axes (an AxisBlock carries one axis)`, 'an AxisBlock');
         if (stages[0]!.combined !== null) throw new OptionError('block', `FrameBlocks for an axis of ${stages[0]!.outputs} detector outputs (an AxisBlock carries a pair)`, 'an AxisBlock');
         checkAxisBlock(block);
-        processAxis(stages[0]!, block.x, block.y, block.length, block.gapBefore ?? 0);
+        kernels.reserve(block.length);
+        processAxis(0, block, block.length, block.gapBefore ?? 0);
       }
       return summaries;
     },
@@ -753,14 +766,8 @@ function emptySummary(name: string, speedLimits: SpeedLimits, tracePoints: numbe
   };
 }
 
-/** One pass over the block's outputs for latest, min and max; the latest values stay when the block is empty. */
-function summarise(
-  summary: MutableSummary,
-  out: { positionM: Float64Array; velocityMS: Float64Array; level: Float32Array; flags: Uint8Array },
-  length: number,
-  lostBefore: number,
-  pipeline: AxisChain,
-): void {
+/** The block's latest values (they stay when the block is empty); its extremes come from the kernels. */
+function summarise(summary: MutableSummary, out: AxisSamples, length: number, lostBefore: number, pipeline: AxisChain): void {
   summary.length = length;
   summary.lostBefore = lostBefore;
   summary.sampleIndex = pipeline.nextSampleIndex - 1;
@@ -771,27 +778,10 @@ function summarise(
     summary.flagsSeen = 0;
     return;
   }
-  const { positionM, velocityMS, level, flags } = out;
-  let pMin = Infinity, pMax = -Infinity, vMin = Infinity, vMax = -Infinity, lMin = Infinity, seen = 0;
-  for (let i = 0; i < length; i++) {
-    const p = positionM[i]!, v = velocityMS[i]!, l = level[i]!;
-    if (p < pMin) pMin = p;
-    if (p > pMax) pMax = p;
-    if (v < vMin) vMin = v;
-    if (v > vMax) vMax = v;
-    if (l < lMin) lMin = l;
-    seen |= flags[i]!;
-  }
-  summary.positionM = positionM[length - 1]!;
-  summary.velocityMS = velocityMS[length - 1]!;
-  summary.level = level[length - 1]!;
-  summary.flags = flags[length - 1]!;
-  summary.positionMinM = finiteOrNaN(pMin);
-  summary.positionMaxM = finiteOrNaN(pMax);
-  summary.velocityMinMS = finiteOrNaN(vMin);
-  summary.velocityMaxMS = finiteOrNaN(vMax);
-  summary.levelMin = finiteOrNaN(lMin);
-  summary.flagsSeen = seen;
+  summary.positionM = out.positionM[length - 1]!;
+  summary.velocityMS = out.velocityMS[length - 1]!;
+  summary.level = out.level[length - 1]!;
+  summary.flags = out.flags[length - 1]!;
 }
 
 function finiteOrNaN(value: number): number {
