@@ -27,7 +27,7 @@ import {
 } from '../geometry-options.js';
 import { budgetOf, environmentOf, environmentOptionHelp, environmentOptionSpecs, withConfig } from '../environment-options.js';
 import { feedOptionHelp, feedOptionSpecs, feedSettingsOf, openLiveFeed, type LiveFeed } from '../live/live-feed.js';
-import { openEnvironmentLog } from '../live/live-environment.js';
+import { openEnvironmentLog, openEnvironmentTopic } from '../live/live-environment.js';
 import { commandHandler, CONTROL_KEYS, PRESET_SIGNAL, startLiveControls, ZERO_SIGNAL, type LiveControls } from '../live/live-controls.js';
 
 const DEFAULT_FIT_SAMPLES = 16384;
@@ -93,6 +93,11 @@ Options:
                            humidity (% relative) and optionally co2 (µmol/mol), as replay reads it; at least one
                            reading at the start; interpolated, the latest held beyond it. Replaces the fixed air
                            conditions; the index rescales the reading, never the count
+  --environment-topic TOPIC  air that changes during the run, read from an MQTT topic on the broker of --mqtt:
+                           each message a JSON object {"temperatureC":…,"pressurePa":…,"relativeHumidityPct":…}
+                           (optionally "co2Ppm"; others ignored), taking effect from the next block of samples
+                           and held; --temperature-c, --pressure-pa and --humidity-pct give the air until the first
+                           reading. A broker that is down leaves the latest reading in force (the summary says so)
   --preset-mm P            the position, mm, that the preset key p and ${PRESET_SIGNAL} set (default: no preset)
   --quiet                  no log lines, status line or summary on stderr
 ${measureOptionHelp}
@@ -137,6 +142,7 @@ const optionSpecs = {
   'input-buffer-mib': { type: 'string' },
   'preset-mm': { type: 'string' },
   'environment-log': { type: 'string' },
+  'environment-topic': { type: 'string' },
   quiet: { type: 'boolean' },
   ...measureOptionSpecs,
   ...environmentOptionSpecs,
@@ -249,7 +255,9 @@ async function run(argv: readonly string[]): Promise<number> {
           ...(layout.ellipse === null ? { channels: layout.channels, calibration: null } : { calibration: layout.ellipse }),
           ...(harmonics === undefined ? {} : { harmonics }),
         };
-  const environmentLog = await openEnvironmentLog(values, lengthScale, environment, notes);
+  const environmentLog = values['environment-topic'] === undefined ? await openEnvironmentLog(values, lengthScale, environment, notes) : null;
+  const environmentTopic = openEnvironmentTopic(values, lengthScale, environment, feedSettings?.mqtt ?? null, notes);
+  const changingAir = environmentLog ?? environmentTopic;
   const maxBufferedBytes = integerOption('input-buffer-mib', values['input-buffer-mib'], DEFAULT_INPUT_BUFFER_MIB, 1, 4096) * 2 ** 20;
   const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetryDelayMs: Math.max(5000, retryDelayMs), maxRetriesBeforeFirstOpen: openRetries });
   // Every option, including the chain's, is checked here: nothing is opened before.
@@ -273,7 +281,7 @@ async function run(argv: readonly string[]): Promise<number> {
         link: textMode ? { mode: 'text', channelCount: channels, rateHz } : { maxSamplesPerFrame, ...(rateHz === undefined ? {} : { rateHz }) },
         fitSamples,
         ...(durationS === undefined ? {} : { durationS }),
-        ...(environmentLog === null ? {} : { refractiveIndexAt: environmentLog.indexAt }),
+        ...(changingAir === null ? {} : { refractiveIndexAt: changingAir.indexAt }),
       },
       sinks,
       maxBufferedBytes,
@@ -438,7 +446,7 @@ async function run(argv: readonly string[]): Promise<number> {
     log: (line) => statusLine.log(line),
   });
   statusLine.log(controls.help);
-  environmentLog?.start((line) => statusLine.log(line));
+  changingAir?.start((line) => statusLine.log(line));
   let summary: LiveSummary;
   try {
     session = chain.start(controller.signal);
@@ -456,7 +464,7 @@ async function run(argv: readonly string[]): Promise<number> {
     process.off('SIGINT', stop);
     process.off('SIGTERM', stop);
     controls.dispose();
-    environmentLog?.stop();
+    changingAir?.stop();
   }
   statusLine.stop();
   await feed?.close();
@@ -481,7 +489,7 @@ async function run(argv: readonly string[]): Promise<number> {
   if (values.summary !== undefined) {
     await writeFileAtomically(
       values.summary,
-      JSON.stringify({ ...summaryRecord(summary, writer, out, record, calibration, layout?.ellipse === null ? layout.channels : null, maxBufferedBytes, edgeWriter, durationS), environmentLog: environmentLog?.summary() ?? null, mqtt: mqttHealth }, null, 2) + '\n',
+      JSON.stringify({ ...summaryRecord(summary, writer, out, record, calibration, layout?.ellipse === null ? layout.channels : null, maxBufferedBytes, edgeWriter, durationS), environmentLog: environmentLog?.summary() ?? null, environmentTopic: environmentTopic?.summary() ?? null, mqtt: mqttHealth }, null, 2) + '\n',
     );
   }
   if (!quiet) {
@@ -499,11 +507,12 @@ async function run(argv: readonly string[]): Promise<number> {
           (record === undefined ? '' : `, ${link?.samplesDelivered ?? 0} samples to ${record}`) +
           (edgeWriter === null ? '' : `, ${edgeWriter.rowsWritten} edge rows to ${latchOut}`),
         ...(progress.samplesProcessed > 0
-          ? [`final position ${(progress.positionM * 1e6).toFixed(6)} µm${uncertaintyText(budgetOf(environment, progress.positionM, 0))}${progress.countLost ? ' — COUNT LOST: not trustworthy until re-referenced' : ''}`]
+          ? [`final position ${(progress.positionM * 1e6).toFixed(6)} µm${environmentTopic === null ? uncertaintyText(budgetOf(environment, progress.positionM, 0)) : ''}${progress.countLost ? ' — COUNT LOST: not trustworthy until re-referenced' : ''}`]
           : ['no samples received']),
         `${counters}; ${gapText(summary)}; link outages ${link?.linkDowns ?? 0}`,
         ...(oversizeText(link, maxSamplesPerFrame) ?? []),
         `alarms raised: ${raised.length === 0 ? 'none' : raised.join(', ')}`,
+        ...(environmentTopic === null ? [] : [environmentTopic.finalLine()]),
         ...(mqttHealth === null ? [] : [`MQTT: ${mqttHealth.published} messages published; ${mqttHealth.outages} outage(s), ${(mqttHealth.outageMs / 1000).toFixed(1)} s offline${mqttHealth.connections === 0 ? ', never connected' : ''}`]),
       ].join('\n') + '\n',
     );

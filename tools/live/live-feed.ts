@@ -213,10 +213,11 @@ function commandText(tokenSource: string | null): string {
 }
 
 /** One log line per MQTT event; the publisher already limits how often they come. */
-function mqttEventLine(url: string, event: MqttPublisherEvent): string {
+/** A log line for an MQTT link's event; `goesOn` says what continues during an outage. */
+export function mqttEventLine(url: string, event: MqttPublisherEvent, goesOn = 'the measurement goes on'): string {
   switch (event.kind) {
     case 'down':
-      return `MQTT broker at ${url} unreachable (${event.message}); retrying with backoff, the measurement goes on`;
+      return `MQTT broker at ${url} unreachable (${event.message}); retrying with backoff, ${goesOn}`;
     case 'still-down':
       return `MQTT broker at ${url} still unreachable after ${(event.outageMs / 1000).toFixed(0)} s and ${event.attempts} attempts (${event.message})`;
     case 'connected':

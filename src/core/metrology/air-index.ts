@@ -108,7 +108,8 @@ export interface AirIndexResult {
   readonly warnings: readonly ValidityWarning[];
 }
 
-const DEFAULT_CO2_PPM = 450;
+/** CO2 mole fraction the index equations take when none is given, µmol/mol: the reference content of Birch & Downs and Ciddor. */
+export const DEFAULT_CO2_PPM = 450;
 const KELVIN_OFFSET = 273.15;
 /** Below this the dispersion terms approach their poles (about 130 nm and 160 nm): no meaningful value. */
 const MIN_WAVELENGTH_M = 200e-9;

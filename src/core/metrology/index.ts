@@ -6,6 +6,7 @@ export {
   airIndexEquations,
   airIndexSensitivities,
   airIndexValidity,
+  DEFAULT_CO2_PPM,
   refractiveIndexOfAir,
   type AirConditions,
   type AirIndexEquation,

@@ -40,5 +40,12 @@ export {
   type MqttPublisherHealth,
   type MqttPublisherOptions,
   type MqttStatusMessage,
-  type MqttTlsOptions,
 } from './mqtt-publisher.js';
+export { type MqttConnectionOptions, type MqttLinkEvent, type MqttLinkHealth, type MqttTlsOptions } from './mqtt-link.js';
+export {
+  followEnvironmentTopic,
+  parseEnvironmentMessage,
+  type EnvironmentReading,
+  type EnvironmentTopicEvent,
+  type EnvironmentTopicOptions,
+} from './environment-topic.js';

@@ -4,12 +4,10 @@
 // A broker that is down or goes away never stops the measurement: the publisher connects in the background,
 // retries with a doubling wait, reports each outage once (then at most once per interval) and keeps its figures.
 
-import { randomBytes } from 'node:crypto';
-import { performance } from 'node:perf_hooks';
-import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
 import type { Subscription } from 'rxjs';
-import { integerInRange, OptionError, positiveFinite } from '../../core/index.js';
+import { OptionError, positiveFinite } from '../../core/index.js';
 import type { FeedSource } from './feed-server.js';
+import { DEFAULT_MQTT_URL, openMqttLink, resolveMqttConnection, warnMqttEvents, type MqttConnectionOptions, type MqttLinkEvent, type MqttLinkHealth } from './mqtt-link.js';
 import { createUpdateGeometry, type UpdateGeometry } from '../../stream/index.js';
 import {
   FEED_SCHEMA,
@@ -28,29 +26,12 @@ import {
   type ReferenceRequest,
 } from './messages.js';
 
-export interface MqttTlsOptions {
-  /** CA certificate(s), PEM, for a broker with a private CA. Default: the system's CAs. */
-  readonly ca?: string | Buffer;
-  /** Client certificate and key, PEM, for brokers that require them. */
-  readonly cert?: string | Buffer;
-  readonly key?: string | Buffer;
-  /** Check the broker's certificate. Default true; false only for tests against self-signed brokers. */
-  readonly rejectUnauthorized?: boolean;
-}
-
 /** What the publisher tells its owner: the broker came (back), went away, or is still away. */
-export type MqttPublisherEvent =
-  | { readonly kind: 'connected'; readonly first: boolean; readonly outageMs: number; readonly attempts: number }
-  /** The first failure of an outage: the first connection failed, or a connection was lost. */
-  | { readonly kind: 'down'; readonly message: string; readonly retryInMs: number }
-  /** The outage goes on: at most one per `reportIntervalMs`, with the failed attempts since it began. */
-  | { readonly kind: 'still-down'; readonly message: string; readonly attempts: number; readonly outageMs: number; readonly retryInMs: number };
+export type MqttPublisherEvent = MqttLinkEvent;
 
-export interface MqttPublisherOptions {
+export interface MqttPublisherOptions extends MqttConnectionOptions {
   /** What to publish. Absent: the publisher connects at once, publishes status `waiting` and publishes updates from `attach(source)`. */
   readonly source?: FeedSource;
-  /** Broker URL: `mqtt://host:port` or `mqtts://host:port` (TLS). Default `mqtt://127.0.0.1:1883`. */
-  readonly url?: string;
   /** Topic prefix without wildcards or leading/trailing `/`. Default `fringetally`. */
   readonly topicPrefix?: string;
   /** Updates per second per axis, (0, 100]. Default 10. */
@@ -59,19 +40,6 @@ export interface MqttPublisherOptions {
   readonly qos?: 0 | 1;
   /** Retain the latest update, so a subscriber that (re)connects gets it at once. Default true. */
   readonly retain?: boolean;
-  readonly username?: string;
-  readonly password?: string;
-  readonly tls?: MqttTlsOptions;
-  /** Default `fringetally-` and 8 random hex digits. */
-  readonly clientId?: string;
-  /** Wait before the first retry after a failed or lost connection, ms; it doubles per failed attempt. Default 1000; 100..600000. */
-  readonly reconnectPeriodMs?: number;
-  /** Longest wait between retries, ms. Default 30000; at least `reconnectPeriodMs`, up to 3600000. */
-  readonly maxReconnectPeriodMs?: number;
-  /** One connection attempt gives up after this long, ms. Default 10000; 100..600000. */
-  readonly connectTimeoutMs?: number;
-  /** During an outage, `still-down` is reported at most once per this many ms. Default 60000; 1..86400000. */
-  readonly reportIntervalMs?: number;
   /** Default: a process warning for `down` and `still-down`, and for `connected` after an outage. */
   readonly onEvent?: (event: MqttPublisherEvent) => void;
   /**
@@ -84,17 +52,7 @@ export interface MqttPublisherOptions {
 }
 
 /** The publisher's link to its broker, for a summary. */
-export interface MqttPublisherHealth {
-  readonly connected: boolean;
-  /** Connections made (the first and every reconnection). */
-  readonly connections: number;
-  /** Outages begun (a failed first connection or a lost connection), and their total length so far, ms (the current one included). */
-  readonly outages: number;
-  readonly outageMs: number;
-  /** Connection attempts that failed. */
-  readonly failedAttempts: number;
-  /** The last error the client reported, or null. */
-  readonly lastError: string | null;
+export interface MqttPublisherHealth extends MqttLinkHealth {
   /** Update messages handed to the client. */
   readonly published: number;
   /** Edge messages handed to the client, and those not sent because the broker was unreachable. */
@@ -160,8 +118,7 @@ const TOPIC_PREFIX = /^[^#+/\u0000]+(\/[^#+/\u0000]+)*$/;
  * Throws only for invalid options.
  */
 export function createMqttPublisher(options: MqttPublisherOptions): MqttPublisher {
-  const url = options.url ?? 'mqtt://127.0.0.1:1883';
-  if (!/^mqtts?:\/\/[^/]+/.test(url)) throw new OptionError('url', 'an mqtt:// or mqtts:// URL', url);
+  const connection = resolveMqttConnection(options);
   const prefix = options.topicPrefix ?? 'fringetally';
   if (!TOPIC_PREFIX.test(prefix)) throw new OptionError('topicPrefix', 'MQTT topic levels without +, # or empty levels', prefix);
   const updateHz = positiveFinite('updateHz', options.updateHz ?? 10);
@@ -171,14 +128,7 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
   const qos = options.qos ?? 0;
   if (qos !== 0 && qos !== 1) throw new OptionError('qos', '0 or 1', qos);
   const retain = options.retain ?? true;
-  if ((options.username === undefined) !== (options.password === undefined)) {
-    throw new OptionError('password', 'given together with username', options.password === undefined ? undefined : '(hidden)');
-  }
-  const firstDelayMs = integerInRange('reconnectPeriodMs', options.reconnectPeriodMs ?? 1000, 100, 600_000);
-  const maxDelayMs = integerInRange('maxReconnectPeriodMs', options.maxReconnectPeriodMs ?? Math.max(30_000, firstDelayMs), firstDelayMs, 3_600_000);
-  const connectTimeout = integerInRange('connectTimeoutMs', options.connectTimeoutMs ?? 10_000, 100, 600_000);
-  const reportIntervalMs = integerInRange('reportIntervalMs', options.reportIntervalMs ?? 60_000, 1, 86_400_000);
-  const onEvent = options.onEvent ?? defaultEventHandler(url);
+  const onEvent = options.onEvent ?? warnMqttEvents(connection.url);
   const statusTopic = `${prefix}/status`;
   const onReference = options.onReference;
   if (onReference !== undefined && typeof onReference !== 'function') throw new OptionError('onReference', 'a function', typeof onReference);
@@ -210,58 +160,24 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
     return JSON.stringify(message);
   };
 
-  const clientOptions: IClientOptions = {
-    clientId: options.clientId ?? `fringetally-${randomBytes(4).toString('hex')}`,
-    // Retries are scheduled here, with a doubling wait; the client's own fixed-period retry stays off.
-    reconnectPeriod: 0,
-    connectTimeout,
-    // Offline updates are dropped, never queued: the next one carries the latest values.
-    queueQoSZero: false,
-    clean: true,
-    will: { topic: statusTopic, payload: Buffer.from(status('offline')), qos: 1, retain: true },
-    ...(options.username === undefined ? {} : { username: options.username, password: options.password }),
-    ...(options.tls ?? {}),
-  };
-
-  let closing = false;
-  let connections = 0;
-  let outages = 0;
-  let outageMsDone = 0;
-  let outageSince: number | null = null;
-  let attemptsInOutage = 0;
-  let failedAttempts = 0;
-  let lastError: string | null = null;
-  let lastReportMs = -Infinity;
-  let delayMs = firstDelayMs;
-  let retryTimer: NodeJS.Timeout | null = null;
-  let wasConnected = false;
   let published = 0;
   let seq = 0;
   // Acknowledgements of a lost connection never come: in-flight counts belong to one connection.
   let inFlight = 0;
   let generation = 0;
 
-  const client: MqttClient = mqtt.connect(url, clientOptions);
-  client.on('error', (error) => {
-    lastError = error.message;
+  const link = openMqttLink(connection, {
+    will: { topic: statusTopic, payload: Buffer.from(status('offline')), qos: 1, retain: true },
+    onConnect() {
+      generation++;
+      inFlight = 0;
+      client.publish(statusTopic, status('online'), { qos: 1, retain: true });
+      // A clean session forgets subscriptions: subscribe again on every connection.
+      if (commandTopic !== null) client.subscribe(commandTopic, { qos: 1 });
+    },
+    onEvent,
   });
-  client.on('connect', () => {
-    const first = connections === 0;
-    connections++;
-    generation++;
-    inFlight = 0;
-    wasConnected = true;
-    const outageMs = outageSince === null ? 0 : performance.now() - outageSince;
-    if (outageSince !== null) outageMsDone += outageMs;
-    const attempts = attemptsInOutage;
-    outageSince = null;
-    attemptsInOutage = 0;
-    delayMs = firstDelayMs;
-    client.publish(statusTopic, status('online'), { qos: 1, retain: true });
-    // A clean session forgets subscriptions: subscribe again on every connection.
-    if (commandTopic !== null) client.subscribe(commandTopic, { qos: 1 });
-    onEvent({ kind: 'connected', first, outageMs, attempts });
-  });
+  const client = link.client;
   client.on('message', (topic, payload) => {
     if (topic !== commandTopic || onReference === undefined) return;
     const record = payload.length > MAX_COMMAND_BYTES ? null : referenceCommandOf(payload.toString());
@@ -270,36 +186,6 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
       : runReferenceCommand(record, token, 'MQTT', onReference);
     client.publish(replyTopic!, JSON.stringify(answer), { qos: 1, retain: false });
   });
-  client.on('close', () => {
-    if (closing) return;
-    const now = performance.now();
-    const retryInMs = delayMs;
-    if (wasConnected || outageSince === null) {
-      // A lost connection, or the first attempt failing: an outage begins.
-      outages++;
-      outageSince = now;
-      if (!wasConnected) {
-        failedAttempts++;
-        attemptsInOutage++;
-      }
-      wasConnected = false;
-      lastReportMs = now;
-      onEvent({ kind: 'down', message: lastError ?? 'connection closed by the broker', retryInMs });
-    } else {
-      failedAttempts++;
-      attemptsInOutage++;
-      if (now - lastReportMs >= reportIntervalMs) {
-        lastReportMs = now;
-        onEvent({ kind: 'still-down', message: lastError ?? 'connection closed', attempts: attemptsInOutage, outageMs: now - outageSince, retryInMs });
-      }
-    }
-    retryTimer = setTimeout(() => {
-      retryTimer = null;
-      if (!closing) client.reconnect();
-    }, retryInMs);
-    delayMs = Math.min(maxDelayMs, delayMs * 2);
-  });
-
   let subscription: Subscription | null = null;
   let edgeSubscription: Subscription | null = null;
   function attach(next: FeedSource): void {
@@ -327,7 +213,7 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
           }
           edgesPublished++;
           client.publish(edgeTopic!, JSON.stringify(feedEdgeMessage(edge)), { qos: 1, retain: false }, (error) => {
-            if (error) lastError = error.message;
+            if (error) link.noteError(error.message);
           });
         },
         error: () => undefined,
@@ -349,7 +235,7 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
           published++;
           client.publish(axisTopics[k]!, JSON.stringify(message), { qos, retain }, (error) => {
             if (sentIn === generation) inFlight--;
-            if (error) lastError = error.message;
+            if (error) link.noteError(error.message);
           });
         });
         if (geometry !== null) {
@@ -358,12 +244,12 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
           published++;
           client.publish(geometryTopic!, JSON.stringify(message), { qos, retain }, (error) => {
             if (sentIn === generation) inFlight--;
-            if (error) lastError = error.message;
+            if (error) link.noteError(error.message);
           });
         }
       },
       error: (error: unknown) => {
-        lastError = `measurement source failed: ${String(error)}`;
+        link.noteError(`measurement source failed: ${String(error)}`);
         setMeasurement('failed');
       },
       complete: () => setMeasurement('ended'),
@@ -389,12 +275,7 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
     },
     get health() {
       return {
-        connected: client.connected,
-        connections,
-        outages,
-        outageMs: outageMsDone + (outageSince === null ? 0 : performance.now() - outageSince),
-        failedAttempts,
-        lastError,
+        ...link.health,
         published,
         edgesPublished,
         edgesNotSent,
@@ -404,12 +285,7 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
     async close() {
       subscription?.unsubscribe();
       edgeSubscription?.unsubscribe();
-      closing = true;
-      if (retryTimer !== null) clearTimeout(retryTimer);
-      if (client.connected) {
-        await new Promise<void>((resolve) => client.publish(statusTopic, status('offline'), { qos: 1, retain: true }, () => resolve()));
-      }
-      await client.endAsync(!client.connected);
+      await link.close(() => new Promise<void>((resolve) => client.publish(statusTopic, status('offline'), { qos: 1, retain: true }, () => resolve())));
     },
   };
 }
@@ -422,7 +298,7 @@ export function createMqttPublisher(options: MqttPublisherOptions): MqttPublishe
 export async function startMqttPublisher(options: MqttPublisherOptions): Promise<MqttPublisher> {
   let settle: ((event: MqttPublisherEvent) => void) | null = null;
   const first = new Promise<MqttPublisherEvent>((resolve) => (settle = resolve));
-  const onEvent = options.onEvent ?? defaultEventHandler(options.url ?? 'mqtt://127.0.0.1:1883');
+  const onEvent = options.onEvent ?? warnMqttEvents(options.url ?? DEFAULT_MQTT_URL);
   const publisher = createMqttPublisher({
     ...options,
     onEvent(event) {
@@ -436,16 +312,7 @@ export async function startMqttPublisher(options: MqttPublisherOptions): Promise
   const outcome = await first;
   if (outcome.kind !== 'connected') {
     await publisher.close();
-    throw new Error(`MQTT broker at ${options.url ?? 'mqtt://127.0.0.1:1883'} refused or failed the connection: ${outcome.message}`);
+    throw new Error(`MQTT broker at ${options.url ?? DEFAULT_MQTT_URL} refused or failed the connection: ${outcome.message}`);
   }
   return publisher;
-}
-
-function defaultEventHandler(url: string): (event: MqttPublisherEvent) => void {
-  return (event) => {
-    if (event.kind === 'down') process.emitWarning(`MQTT broker at ${url} unreachable (${event.message}); retrying in ${Math.round(event.retryInMs)} ms, the measurement goes on`);
-    else if (event.kind === 'still-down') {
-      process.emitWarning(`MQTT broker at ${url} still unreachable after ${(event.outageMs / 1000).toFixed(0)} s and ${event.attempts} attempts (${event.message})`);
-    } else if (!event.first || event.attempts > 0) process.emitWarning(`MQTT broker at ${url} connected after an outage of ${(event.outageMs / 1000).toFixed(1)} s`);
-  };
 }
