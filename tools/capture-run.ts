@@ -39,7 +39,8 @@ import { openCapture, type CaptureInfo, type OpenCaptureOptions } from '../src/i
 import type { ResultWriter } from '../src/io/results/index.js';
 import type { Progress } from './progress.js';
 
-const BLOCK = 4096;
+/** Samples per block read from a capture (the analyses' schedule counts these blocks). */
+export const CAPTURE_BLOCK_SAMPLES = 4096;
 
 /** The core's ADC format for a capture: from the file (header or `adc` metadata), else int16 for int16 WAV, else none stated. */
 export function adcOf(info: CaptureInfo): { adc: AdcFormat; stated: boolean } {
@@ -60,7 +61,7 @@ export async function fitCapture(
   const labels = [' (source power)', '', ' (refined)'];
   let totalSamples = 0;
   for (;;) {
-    const capture = await openCapture(path, { ...open, blockSize: BLOCK });
+    const capture = await openCapture(path, { ...open, blockSize: CAPTURE_BLOCK_SAMPLES });
     progress.start(`fit ${path}${labels[fit.pass]}`, capture.info.totalSamples);
     try {
       for await (const block of capture.blocks()) {
@@ -390,7 +391,7 @@ function normalisedPair(level: Float32Array, phaseRad: Float64Array, n: number, 
 /** Runs the whole pipeline over a capture, writing rows to the writer if one is given. */
 export async function runCapture(path: string, options: RunOptions): Promise<RunResult> {
   const { calibration, settings, writer, progress } = options;
-  const capture = await openCapture(path, { ...options.open, blockSize: BLOCK });
+  const capture = await openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES });
   const info = capture.info;
   const fromFile = adcOf(info);
   const adc = options.adc ?? fromFile.adc;
@@ -412,22 +413,22 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   const pipeline = createPipeline({ ...chain, calibration });
   const combined = layout === undefined ? null : createChannelPipeline({ ...chain, channels: layout });
   const output = {
-    positionM: new Float64Array(BLOCK),
-    velocityMS: new Float64Array(BLOCK),
-    level: new Float32Array(BLOCK),
-    flags: new Uint8Array(BLOCK),
-    unwrappedPhaseRad: new Float64Array(BLOCK),
-    power: new Float32Array(BLOCK),
+    positionM: new Float64Array(CAPTURE_BLOCK_SAMPLES),
+    velocityMS: new Float64Array(CAPTURE_BLOCK_SAMPLES),
+    level: new Float32Array(CAPTURE_BLOCK_SAMPLES),
+    flags: new Uint8Array(CAPTURE_BLOCK_SAMPLES),
+    unwrappedPhaseRad: new Float64Array(CAPTURE_BLOCK_SAMPLES),
+    power: new Float32Array(CAPTURE_BLOCK_SAMPLES),
   };
   const power: PowerState = { min: Infinity, max: -Infinity, sum: 0, count: 0 };
-  const errorBefore = new Float64Array(BLOCK);
-  const valid = new Uint8Array(BLOCK);
+  const errorBefore = new Float64Array(CAPTURE_BLOCK_SAMPLES);
+  const valid = new Uint8Array(CAPTURE_BLOCK_SAMPLES);
   const before = createPeriodicErrorAnalyzer();
   const after = createPhaseDomainEstimator();
   const residual = createResidualAnalyzer();
   const correction = createCorrection({ calibration });
-  const correctedU = new Float64Array(BLOCK);
-  const correctedV = new Float64Array(BLOCK);
+  const correctedU = new Float64Array(CAPTURE_BLOCK_SAMPLES);
+  const correctedV = new Float64Array(CAPTURE_BLOCK_SAMPLES);
   const harmonicCorrection = options.harmonics === undefined ? null : createHarmonicCorrection(options.harmonics);
   const estimator = options.estimateHarmonics === undefined ? null : createHarmonicEstimator(options.estimateHarmonics);
   const watch = createModelWatch(options.modelWatch);
@@ -444,9 +445,9 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   const open = new Map<AlarmKind, number>();
   const mid = adcMidScale(adc);
   const rawKernel = createWasmFrontEnd({ precision: 'f64-exact' });
-  const rawLevel = new Float32Array(BLOCK);
+  const rawLevel = new Float32Array(CAPTURE_BLOCK_SAMPLES);
   const identity = Float64Array.of(1, 0, 0, 1, 0);
-  const schedule = createAnalysisSchedule({ blockSamples: BLOCK, totalSamples: info.totalSamples, budgetSamples: options.analysisBudgetSamples });
+  const schedule = createAnalysisSchedule({ blockSamples: CAPTURE_BLOCK_SAMPLES, totalSamples: info.totalSamples, budgetSamples: options.analysisBudgetSamples });
   let blockIndex = 0;
   const secondsPerSample = 1 / info.rateHz;
   const metresPerRad = pipeline.stages.displacement.metresPerFringe / (2 * Math.PI);

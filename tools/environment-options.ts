@@ -5,6 +5,8 @@ import { readFileSync } from 'node:fs';
 import {
   airIndexAt,
   airIndexSensitivities,
+  DEFAULT_AIR_INDEX_EQUATION,
+  DEFAULT_CO2_PPM,
   materials,
   readingUncertaintyBudget,
   refractiveIndexOfAir,
@@ -43,8 +45,8 @@ export const environmentOptionHelp = `Environment (refractive index of air; with
   --temperature-c T          air temperature, °C
   --pressure-pa P            air pressure, Pa
   --humidity-pct RH          relative humidity, %   (or --dew-point-c TD, °C, or --vapour-pressure-pa PV, Pa)
-  --co2-ppm C                CO2 mole fraction, µmol/mol (default 450)
-  --equation NAME            ciddor (default), edlen or shopfloor
+  --co2-ppm C                CO2 mole fraction, µmol/mol (default ${DEFAULT_CO2_PPM})
+  --equation NAME            ciddor, edlen or shopfloor (default ${DEFAULT_AIR_INDEX_EQUATION})
 Material and geometry:
   --material KEY             normalise the reading to 20 °C for this material (aluminium, steel, silicon,
                              granite, fe-ni36, fused-silica, glass-ceramic), or --expansion-per-k A (1/K)
@@ -131,8 +133,7 @@ export function environmentOf(values: Values, vacuumWavelengthM: number, explici
     if (explicitIndex !== undefined) throw new UsageError('give either --refractive-index or the air conditions, not both');
     if (temperatureC === undefined || pressurePa === undefined) throw new UsageError('the air conditions need both --temperature-c and --pressure-pa');
     if (humidity.length !== 1) throw new UsageError('give the humidity once: --humidity-pct, --dew-point-c or --vapour-pressure-pa');
-    const equation = (text(values, 'equation') ?? 'ciddor') as AirIndexEquation;
-    if (!['ciddor', 'edlen', 'shopfloor'].includes(equation)) throw new UsageError(`--equation must be ciddor, edlen or shopfloor (got "${equation}")`);
+    const equation = equationOf(values);
     const co2Ppm = numberOption('co2-ppm', text(values, 'co2-ppm'));
     const humidityValue = numberOption(humidity[0]!, text(values, humidity[0]!))!;
     air = {
@@ -254,7 +255,7 @@ export function environmentLogIndex(
 
 /** --equation, checked. */
 export function equationOf(values: Record<string, unknown>): AirIndexEquation {
-  const equation = (values.equation ?? 'ciddor') as AirIndexEquation;
+  const equation = (values.equation ?? DEFAULT_AIR_INDEX_EQUATION) as AirIndexEquation;
   if (!['ciddor', 'edlen', 'shopfloor'].includes(equation)) throw new UsageError(`--equation must be ciddor, edlen or shopfloor (got "${equation}")`);
   return equation;
 }

@@ -47,8 +47,9 @@ export function hasGeometry(values: Values): boolean {
 export function geometryOf(values: Values, axisCount: number, what: string): { options: AxisGeometryOptions; geometry: AxisGeometry } {
   const beamTexts = values.beam ?? [];
   if (beamTexts.length !== axisCount) throw new UsageError(`give one --beam X,Y per ${what} (${axisCount} ${what === 'axis' ? 'axes' : `${what}s`}, ${beamTexts.length} --beam)`);
-  const model = values.model ?? 'exact';
-  if (model !== 'exact' && model !== 'small-angle') throw new UsageError(`--model must be exact or small-angle (got "${model}")`);
+  // Absent: the library's default model.
+  const model = values.model;
+  if (model !== undefined && model !== 'exact' && model !== 'small-angle') throw new UsageError(`--model must be exact or small-angle (got "${model}")`);
   const uncertainty = (flag: 'u-reading-nm' | 'u-beam-mm' | 'u-point-mm', scale: number) => {
     const value = numberOption(flag, values[flag]) ?? 0;
     if (value < 0) throw new UsageError(`--${flag} must not be negative (got ${value})`);
@@ -62,7 +63,7 @@ export function geometryOf(values: Values, axisCount: number, what: string): { o
     return { xM: x * 1e-3, yM: y * 1e-3, readingUncertaintyM: uReading, placementUncertaintyM: uBeam };
   });
   const [px, py, pz] = values.point === undefined ? [0, 0, 0] : coordinates('point', values.point, 2, 3);
-  const options: AxisGeometryOptions = { beams, pointOfInterest: { xM: px! * 1e-3, yM: py! * 1e-3, zM: (pz ?? 0) * 1e-3, uncertaintyM: uPoint }, model: model as AngleModel };
+  const options: AxisGeometryOptions = { beams, pointOfInterest: { xM: px! * 1e-3, yM: py! * 1e-3, zM: (pz ?? 0) * 1e-3, uncertaintyM: uPoint }, ...(model === undefined ? {} : { model: model as AngleModel }) };
   try {
     return { options, geometry: createAxisGeometry(options) };
   } catch (error) {

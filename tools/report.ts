@@ -16,7 +16,7 @@ import {
   type TruthComparisonSummary,
 } from '../src/core/index.js';
 import { writeFileAtomically } from '../src/io/capture/index.js';
-import type { Envelope, PeriodicErrorResult, RunResult } from './capture-run.js';
+import { CAPTURE_BLOCK_SAMPLES, type Envelope, type PeriodicErrorResult, type RunResult } from './capture-run.js';
 import type { MeasureSettings } from './capture-run.js';
 import type { UncertaintyBudget } from '../src/core/index.js';
 import { chart, escapeHtml as escape, extent, FONT_PX, polyline, type Scale } from './chart.js';
@@ -62,7 +62,7 @@ function periodicRow(label: string, result: PeriodicErrorResult, metresPerRad: n
 
 /** A long capture's analyses take every n-th block (createAnalysisSchedule): said where their figures are. */
 function analysedShare(run: RunResult): string {
-  return `one block of 4096 samples in every ${run.analysedEvery}, spread over the whole capture`;
+  return `one block of ${CAPTURE_BLOCK_SAMPLES} samples in every ${run.analysedEvery}, spread over the whole capture`;
 }
 
 /** "Before" bins every clean sample: it is missing only when none was clean. */

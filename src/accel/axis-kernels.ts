@@ -61,11 +61,11 @@ const MAX_CHANNELS = 16;
 
 /**
  * The kernels for axes of `outputsPerAxis[k]` detector outputs each (2, 3 or 4), with room for `capacity`
- * samples per axis (default 4096; grows with the blocks): WebAssembly SIMD where it exists, else JavaScript.
+ * samples per axis (0..2^26; grows with the blocks): WebAssembly SIMD where it exists, else JavaScript.
  */
-export function createAxisKernels(outputsPerAxis: readonly number[], capacity = 4096): AxisKernels {
+export function createAxisKernels(outputsPerAxis: readonly number[], capacity: number): AxisKernels {
   outputsPerAxis.forEach((outputs, k) => integerInRange(`outputsPerAxis[${k}]`, outputs, 2, 4));
-  integerInRange('capacity', capacity, 1, 2 ** 26);
+  integerInRange('capacity', capacity, 0, 2 ** 26);
   return createWasmAxisKernels(outputsPerAxis, capacity) ?? createJsAxisKernels(outputsPerAxis, capacity);
 }
 
@@ -132,7 +132,7 @@ export function createJsAxisKernels(outputsPerAxis: readonly number[], initialCa
       into.flagsSeen = seen;
     },
   };
-  kernels.reserve(initialCapacity);
+  kernels.reserve(Math.max(1, initialCapacity)); // regions exist before the first block
   return kernels;
 }
 
@@ -221,7 +221,7 @@ export function createWasmAxisKernels(outputsPerAxis: readonly number[], initial
       into.flagsSeen = seen;
     },
   };
-  kernels.reserve(initialCapacity);
+  kernels.reserve(Math.max(1, initialCapacity)); // regions exist before the first block
   return kernels;
 }
 

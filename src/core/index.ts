@@ -82,6 +82,7 @@ export {
   type SpectralWindow,
   type WelchEstimator,
   type WelchOptions,
+  WELCH_DEFAULTS,
 } from './spectrum.js';
 export {
   allanAveragingFactors,

@@ -28,8 +28,16 @@ export interface PeriodicErrorAnalyzer {
   reset(): void;
 }
 
+/** Phase bins per fringe of the binned error, when none is given. */
+const DEFAULT_BINS = 64;
+/**
+ * Largest RMS residual, rad, a smooth-motion model may leave in a window (or a whole move) that is used: 0.05, about
+ * 2.5 nm at 633 nm, fold 2. The default of the window detrender and of the harmonic fit (fit/harmonics.ts).
+ */
+export const DEFAULT_MAX_MOTION_RESIDUAL_RAD = 0.05;
+
 export function createPeriodicErrorAnalyzer(options: { readonly bins?: number } = {}): PeriodicErrorAnalyzer {
-  const bins = integerInRange('bins', options.bins ?? 64, 8, 4096);
+  const bins = integerInRange('bins', options.bins ?? DEFAULT_BINS, 8, 4096);
   const sums = new Float64Array(bins);
   const counts = new Float64Array(bins);
   const binPerRad = bins / TWO_PI;
@@ -133,7 +141,7 @@ export interface WindowDetrender {
 export function createWindowDetrender(analyzer: PeriodicErrorAnalyzer, options: WindowDetrenderOptions = {}): WindowDetrender {
   const size = integerInRange('windowSamples', options.windowSamples ?? 256, 16, 65536);
   const minTravelRad = TWO_PI * numberInRange('minFringes', options.minFringes ?? 3, 0, 1e9);
-  const maxResidualRad = positiveFinite('maxResidualRad', options.maxResidualRad ?? 0.05);
+  const maxResidualRad = positiveFinite('maxResidualRad', options.maxResidualRad ?? DEFAULT_MAX_MOTION_RESIDUAL_RAD);
   const phase = new Float64Array(size);
   const residual = new Float64Array(size);
   let filled = 0;
@@ -270,7 +278,7 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
   const orders = integerInRange('orders', options.orders ?? 4, 1, 8);
   const windowSpanRad = positiveFinite('windowSpanRad', options.windowSpanRad ?? 2 * TWO_PI);
   const capacity = integerInRange('maxWindowSamples', options.maxWindowSamples ?? 4096, MIN_WINDOW_SAMPLES, 65536);
-  const bins = integerInRange('bins', options.bins ?? 64, 8, 4096);
+  const bins = integerInRange('bins', options.bins ?? DEFAULT_BINS, 8, 4096);
   const maxMisfitRad = positiveFinite('maxMisfitRad', options.maxMisfitRad ?? 0.003);
   const m = 2 * orders;
   const phase = new Float64Array(capacity);

@@ -120,13 +120,16 @@ export interface WelchEstimator {
   reset(): void;
 }
 
+/** The estimator's defaults, stated once (the spectrum tool's options default to them too, but for its longer segment). */
+export const WELCH_DEFAULTS = Object.freeze({ segmentSamples: 4096, overlap: 0.5, window: 'hann' as SpectralWindow, detrend: 'linear' as Detrend });
+
 export function createWelchEstimator(options: WelchOptions): WelchEstimator {
   const rateHz = positiveFinite('rateHz', options.rateHz);
-  const size = integerInRange('segmentSamples', options.segmentSamples ?? 4096, 16, 2 ** 22);
+  const size = integerInRange('segmentSamples', options.segmentSamples ?? WELCH_DEFAULTS.segmentSamples, 16, 2 ** 22);
   if ((size & (size - 1)) !== 0) throw new OptionError('segmentSamples', 'a power of two', size);
-  const overlap = numberInRange('overlap', options.overlap ?? 0.5, 0, 0.95);
-  const window = oneOf('window', options.window ?? 'hann', ['hann', 'rectangular'] as const);
-  const detrend = oneOf('detrend', options.detrend ?? 'linear', ['none', 'mean', 'linear'] as const);
+  const overlap = numberInRange('overlap', options.overlap ?? WELCH_DEFAULTS.overlap, 0, 0.95);
+  const window = oneOf('window', options.window ?? WELCH_DEFAULTS.window, ['hann', 'rectangular'] as const);
+  const detrend = oneOf('detrend', options.detrend ?? WELCH_DEFAULTS.detrend, ['none', 'mean', 'linear'] as const);
   const resolved = Object.freeze({ rateHz, segmentSamples: size, overlap, window, detrend });
   const hop = Math.max(1, Math.round(size * (1 - overlap)));
   const bins = (size >> 1) + 1;

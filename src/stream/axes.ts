@@ -399,9 +399,10 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
   const summaries: readonly AxisBlockSummary[] = stages.map((stage) => stage.summary);
   // The split of the frames and the block summaries (WebAssembly SIMD where it exists); the pipelines read from
   // and write into its memory.
+  // Room for the blocks the options announce (`blockCapacity`); without it the first block sets it.
   const kernels = createAxisKernels(
     stages.map((stage) => stage.outputs),
-    Math.max(...options.axes.map((axis) => axis.blockCapacity ?? 4096)),
+    Math.max(0, ...options.axes.map((axis) => axis.blockCapacity ?? 0)),
   );
   const axesNeeded = Math.max(...stages.map((stage) => stage.frameAxis + 1));
   const firstChannel = new Int32Array(9);

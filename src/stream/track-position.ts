@@ -43,7 +43,7 @@ export function trackPosition(options: PipelineOptions): OperatorFunction<AxisBl
   createPipeline(options); // validates the options now, at the call site
   return blockOperator(() => {
     const pipeline = createPipeline(options);
-    let buffers: ReturnType<typeof createPositionBuffers> | null = createPositionBuffers(options.blockCapacity ?? 4096);
+    let buffers: ReturnType<typeof createPositionBuffers> | null = createPositionBuffers(options.blockCapacity ?? 0); // grows to the first block without it
     const events: AlarmEvent[] = [];
     return {
       next(block, out) {

@@ -35,7 +35,7 @@ function expectSame(actual: BlockExtremes, expected: BlockExtremes): void {
 
 describe('axis kernels', () => {
   it('are WebAssembly SIMD in this Node', () => {
-    expect(createAxisKernels([2]).kind).toBe('wasm-simd');
+    expect(createAxisKernels([2], 0).kind).toBe('wasm-simd');
   });
 
   it('split every axis of any layout and block length as the interleaving rule reads it, growing past their capacity', () => {

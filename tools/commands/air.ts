@@ -3,6 +3,8 @@
 import {
   airIndexEquationNames,
   airIndexEquations,
+  DEFAULT_AIR_INDEX_EQUATION,
+  DEFAULT_CO2_PPM,
   refractiveIndexOfAir,
   type AirIndexEquation,
   type AirIndexOptions,
@@ -21,7 +23,7 @@ Options:
   --humidity-pct RH          relative humidity, % (0 to 100)
   --dew-point-c TD           dew point (frost point below 0 °C), °C; instead of --humidity-pct
   --vapour-pressure-pa PV    partial pressure of water vapour, Pa; instead of --humidity-pct
-  --co2-ppm C                CO2 mole fraction, µmol/mol (default 450)
+  --co2-ppm C                CO2 mole fraction, µmol/mol (default ${DEFAULT_CO2_PPM})
   --wavelength-nm L          vacuum wavelength, nm (e.g. 632.9908 for an unstabilised He-Ne)
   --equation NAME            ciddor (Ciddor 1996, default), edlen (Birch & Downs modified Edlén,
                              NIST water-vapour term) or shopfloor (NIST shop-floor formula, 633 nm only)
@@ -66,7 +68,7 @@ async function run(argv: readonly string[]): Promise<number> {
         : `give the humidity only once (got ${humidityFlags.map((flag) => `--${flag}`).join(' and ')})`,
     );
   }
-  const equationText = values.equation ?? 'ciddor';
+  const equationText = values.equation ?? DEFAULT_AIR_INDEX_EQUATION;
   if (!(airIndexEquations as readonly string[]).includes(equationText)) {
     throw new UsageError(`--equation must be one of ${airIndexEquations.join(', ')} (got "${equationText}")`);
   }

@@ -7,6 +7,7 @@ import { captureOptionHelp, captureOptionSpecs, captureOptionsOf, lengthScaleOf,
 import { createProgress } from '../progress.js';
 import { formatCalibration, formatChannels, formatPeriodicError, formatPower, formatResidual, writeReportFile } from '../report.js';
 import {
+  createEllipseFit,
   ELLIPSE_FIT_METHODS,
   exceededLimits,
   fitWarnings,
@@ -123,7 +124,7 @@ async function run(argv: readonly string[]): Promise<number> {
       `capture     ${path} (${info.format}, ${result.samples} samples at ${info.rateHz} Hz, ${info.sampleEncoding})`,
       ...(channels === undefined ? formatCalibration(fit.calibration, file.units) : formatChannels(file.layout.channels, file.units)),
       ...(result.power === null ? [] : [formatPower(result.power)]),
-      `fit         ${fitOptions.method ?? 'hyper'}, ${channels === undefined ? '' : 'power-normalised pair: '}residual ${(fit.residualRms * 100).toFixed(3)} % of the radius, phase coverage ${fit.coverage.toFixed(3)} of a fringe, ${fit.samples} samples`,
+      `fit         ${createEllipseFit(fitOptions).method}, ${channels === undefined ? '' : 'power-normalised pair: '}residual ${(fit.residualRms * 100).toFixed(3)} % of the radius, phase coverage ${fit.coverage.toFixed(3)} of a fringe, ${fit.samples} samples`,
       ...formatPeriodicError(result),
       ...formatResidual(result),
       ...(harmonics === undefined

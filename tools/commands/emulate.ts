@@ -3,6 +3,7 @@
 import { writeFile } from 'node:fs/promises';
 import { SerialPort } from 'serialport';
 import { createCaptureWriter, type CaptureWriter } from '../../src/io/capture/index.js';
+import { SERIAL_SOURCE_DEFAULTS } from '../../src/io/serial/index.js';
 import { WIRE_MAX_CHANNELS, WIRE_MAX_EDGES_PER_FRAME, WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
 import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { ellipseOf, motionOf, noiseOf, scenarioOptionSpecs } from '../scenario-options.js';
@@ -22,7 +23,7 @@ the port takes nothing for ${STALL_MS / 1000} s (nothing reads it), it stops wit
 
 Port and frames:
   --port PATH              serial device or pseudo-terminal to write to (required)
-  --baud N                 baud rate, Bd (default 921600). A pty ignores it; a real UART carries about N/10 bytes/s
+  --baud N                 baud rate, Bd (default ${SERIAL_SOURCE_DEFAULTS.baudRate}). A pty ignores it; a real UART carries about N/10 bytes/s
                            and a stream beyond that is warned about
   --rate-hz R              sample rate, Hz, integer (required)
   --samples-per-frame N    samples per frame, 1..${WIRE_MAX_SAMPLES_PER_FRAME} (default 64)
@@ -140,7 +141,7 @@ async function run(argv: readonly string[]): Promise<number> {
   const num = (name: keyof typeof values) => numberOption(name, text(name));
   const port = text('port');
   if (port === undefined) throw new UsageError('--port is required');
-  const baudRate = integerIn('baud', num('baud') ?? 921600, 1, 20_000_000);
+  const baudRate = integerIn('baud', num('baud') ?? SERIAL_SOURCE_DEFAULTS.baudRate, 1, 20_000_000);
   const rateHz = integerIn('rate-hz', positive('rate-hz', num('rate-hz')), 1, 0xffffffff);
   const samplesPerFrame = integerIn('samples-per-frame', num('samples-per-frame') ?? 64, 1, WIRE_MAX_SAMPLES_PER_FRAME);
   const startSequence = integerIn('start-sequence', num('start-sequence') ?? 0, 0, 65535);

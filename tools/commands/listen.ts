@@ -6,8 +6,8 @@ import { extname } from 'node:path';
 import { alarmKinds, alarmNames, MODEL_WATCH_ALARM, OptionError, type ChannelParameters, type EllipseCalibration } from '../../src/core/index.js';
 import { createCaptureWriter, writeFileAtomically, type CaptureWriter } from '../../src/io/capture/index.js';
 import { createEdgeWriter, createResultWriter, type EdgeWriter, type ResultFormat, type ResultWriter } from '../../src/io/results/index.js';
-import { createSerialByteSource } from '../../src/io/serial/index.js';
-import { createLiveEdgeLatch, latchEdges, type LinkBlock } from '../../src/io/live/index.js';
+import { createSerialByteSource, SERIAL_SOURCE_DEFAULTS } from '../../src/io/serial/index.js';
+import { createLiveEdgeLatch, latchEdges, LIVE_FIT_DEFAULTS, type LinkBlock } from '../../src/io/live/index.js';
 import type { AxisBlockSummary } from '../../src/stream/index.js';
 import { WIRE_MAX_SAMPLES_PER_FRAME } from '../../src/io/wire/index.js';
 import { readCalibrationFitResidual, readCalibrationHarmonics, readCalibrationLayout } from '../calibration-file.js';
@@ -30,7 +30,6 @@ import { feedOptionHelp, feedOptionSpecs, feedSettingsOf, openLiveFeed, type Liv
 import { openEnvironmentLog, openEnvironmentTopic } from '../live/live-environment.js';
 import { commandHandler, CONTROL_KEYS, PRESET_SIGNAL, startLiveControls, ZERO_SIGNAL, type LiveControls } from '../live/live-controls.js';
 
-const DEFAULT_FIT_SAMPLES = 16384;
 /** Input kept while an output is slow, MiB: about 11 s at 921600 Bd, 0.4 s of 2 channels at 10 MHz. */
 const DEFAULT_INPUT_BUFFER_MIB = 1;
 /** Failed opens of a port that never opened before listen gives up: with the default delays about 31 s. */
@@ -58,7 +57,7 @@ counter gives the true number when the device kept counting (see docs/live.md).
 
 Options:
   --port PATH              serial device or pseudo-terminal (required); reopened with backoff when it vanishes
-  --baud N                 baud rate, Bd (default 921600)
+  --baud N                 baud rate, Bd (default ${SERIAL_SOURCE_DEFAULTS.baudRate})
   --out FILE|-             result file, .csv or .jsonl (or --format with -, standard output) (required)
   --format csv|jsonl       result format when the file name does not tell
   --every N                write every Nth sample (default 1)
@@ -76,14 +75,14 @@ Options:
   --calibration FILE       calibration from fringetally calibrate (default: live fit); a calibration of 3 or 4
                            detector outputs (calibrate --channels) tracks an axis whose frames carry as many
                            (wire format version 3): they are combined into the power-normalised pair
-  --fit-samples N          samples for the live fit, 64..16777216 (default ${DEFAULT_FIT_SAMPLES}); retried up to 8 times
+  --fit-samples N          samples for the live fit, 64..16777216 (default ${LIVE_FIT_DEFAULTS.fitSamples}); retried up to ${LIVE_FIT_DEFAULTS.fitAttempts} times
   --rate-hz R              sample rate, Hz, when the frames carry no rate field (required with --text)
   --axis K                 axis to track in multi-axis frames: channels 2K (x) and 2K+1 (y) (default 0)
   --max-samples-per-frame N  largest frame accepted, 1..${WIRE_MAX_SAMPLES_PER_FRAME} (default ${WIRE_MAX_SAMPLES_PER_FRAME}, the format's maximum);
                            larger frames are refused and counted, and the summary names the value that admits them
   --text                   read "x,y" text lines instead of binary frames (no gap detection: bring-up only)
   --channels N             with --text: integers per line, even (default 2·(axis+1))
-  --retry-ms MS            first reopen delay after the port vanished, ms (default 200, doubling to 5000)
+  --retry-ms MS            first reopen delay after the port vanished, ms (default ${SERIAL_SOURCE_DEFAULTS.retryDelayMs}, doubling to ${SERIAL_SOURCE_DEFAULTS.maxRetryDelayMs})
   --open-retries N         failed opens of a port that has not opened yet before giving up (default ${DEFAULT_OPEN_RETRIES},
                            about 31 s); once it has opened, a vanished port is retried until stopped
   --input-buffer-mib M     input kept while an output does not keep up, MiB (default ${DEFAULT_INPUT_BUFFER_MIB}); beyond it
@@ -179,7 +178,7 @@ async function run(argv: readonly string[]): Promise<number> {
   const extension = extname(out).toLowerCase();
   const formatText = values.format ?? (extension === '.jsonl' ? 'jsonl' : extension === '.csv' ? 'csv' : undefined);
   if (formatText !== 'csv' && formatText !== 'jsonl') throw new UsageError(`cannot tell the result format of "${out}": use .csv, .jsonl or --format csv|jsonl`);
-  const baudRate = integerOption('baud', values.baud, 921600, 1, 20_000_000);
+  const baudRate = integerOption('baud', values.baud, SERIAL_SOURCE_DEFAULTS.baudRate, 1, 20_000_000);
   const every = integerOption('every', values.every, 1, 1, 1_000_000_000);
   const durationS = numberOption('duration', values.duration);
   if (durationS !== undefined && !(durationS > 0)) throw new UsageError(`--duration must be positive (got ${values.duration})`);
@@ -202,8 +201,8 @@ async function run(argv: readonly string[]): Promise<number> {
   const channels = integerOption('channels', values.channels, 2 * (axis + 1), 2, 16);
   if (channels % 2 !== 0 || channels < 2 * axis + 2) throw new UsageError(`--channels must be even and at least ${2 * axis + 2} for axis ${axis} (got ${channels})`);
   const maxSamplesPerFrame = integerOption('max-samples-per-frame', values['max-samples-per-frame'], WIRE_MAX_SAMPLES_PER_FRAME, 1, WIRE_MAX_SAMPLES_PER_FRAME);
-  const fitSamples = integerOption('fit-samples', values['fit-samples'], DEFAULT_FIT_SAMPLES, 64, 2 ** 24);
-  const retryDelayMs = integerOption('retry-ms', values['retry-ms'], 200, 1, 600_000);
+  const fitSamples = integerOption('fit-samples', values['fit-samples'], LIVE_FIT_DEFAULTS.fitSamples, 64, 2 ** 24);
+  const retryDelayMs = integerOption('retry-ms', values['retry-ms'], SERIAL_SOURCE_DEFAULTS.retryDelayMs, 1, 600_000);
   const openRetries = integerOption('open-retries', values['open-retries'], DEFAULT_OPEN_RETRIES, 0, 1_000_000);
   maxRetriesShown = openRetries;
   const record = values.record;
@@ -259,7 +258,7 @@ async function run(argv: readonly string[]): Promise<number> {
   const environmentTopic = openEnvironmentTopic(values, lengthScale, environment, feedSettings?.mqtt ?? null, notes);
   const changingAir = environmentLog ?? environmentTopic;
   const maxBufferedBytes = integerOption('input-buffer-mib', values['input-buffer-mib'], DEFAULT_INPUT_BUFFER_MIB, 1, 4096) * 2 ** 20;
-  const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetryDelayMs: Math.max(5000, retryDelayMs), maxRetriesBeforeFirstOpen: openRetries });
+  const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetriesBeforeFirstOpen: openRetries });
   // Every option, including the chain's, is checked here: nothing is opened before.
   let chain: ReturnType<typeof createLiveSession>;
   const sinks: LiveSink[] = [];

@@ -1,11 +1,14 @@
 // `fringetally spectrum`: vibration and stability of a position record: amplitude spectral density (Welch),
 // cumulative RMS, overlapping Allan deviation, and the periodic-error lines at a steady speed; CSV and a report.
 import { rename, writeFile } from 'node:fs/promises';
-import { createStabilityAnalyzer, lineRms, type Detrend, type SpectralWindow, type StabilityAnalyzer, type StabilityResult } from '../../src/core/index.js';
+import { createStabilityAnalyzer, lineRms, WELCH_DEFAULTS, type Detrend, type SpectralWindow, type StabilityAnalyzer, type StabilityResult } from '../../src/core/index.js';
 import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { factTable, lineChart, logDecimate, page } from '../chart.js';
 import { readPositions, positionInputHelp, positionInputSpecs, type PositionInput } from '../position-input.js';
 import { createProgress } from '../progress.js';
+
+/** Longer than the library's segment: a capture's spectrum wants finer bins than a live one. */
+const DEFAULT_SEGMENT_SAMPLES = 16384;
 
 const help = `Usage: fringetally spectrum <capture> [--out spectrum.csv] [--allan-out allan.csv] [--report report.html] [options]
 
@@ -21,10 +24,10 @@ Output:
   --report FILE          self-contained HTML report with the three plots
   --quiet                no progress bar and no summary
 Spectrum:
-  --segment N            samples per segment, a power of two (default 16384; bin width = rate / N)
-  --overlap F            overlap of consecutive segments, 0..0.95 (default 0.5)
-  --window W             hann (default) or rectangular
-  --detrend D            linear (default: removes a steady move per segment), mean or none
+  --segment N            samples per segment, a power of two (default ${DEFAULT_SEGMENT_SAMPLES}; bin width = rate / N)
+  --overlap F            overlap of consecutive segments, 0..0.95 (default ${WELCH_DEFAULTS.overlap})
+  --window W             hann or rectangular (default ${WELCH_DEFAULTS.window})
+  --detrend D            linear (removes a steady move per segment), mean or none (default ${WELCH_DEFAULTS.detrend})
 
 ${positionInputHelp}
 
@@ -117,15 +120,15 @@ async function run(argv: readonly string[]): Promise<number> {
   const allanOut = values['allan-out'];
   const report = values.report;
   if (out === undefined && allanOut === undefined && report === undefined) throw new UsageError('give at least one of --out, --allan-out and --report');
-  const segmentSamples = numberOption('segment', values.segment) ?? 16384;
+  const segmentSamples = numberOption('segment', values.segment) ?? DEFAULT_SEGMENT_SAMPLES;
   if (!Number.isInteger(segmentSamples) || segmentSamples < 16 || (segmentSamples & (segmentSamples - 1)) !== 0) {
     throw new UsageError(`--segment must be a power of two of at least 16 samples (got ${values.segment})`);
   }
-  const overlap = numberOption('overlap', values.overlap) ?? 0.5;
+  const overlap = numberOption('overlap', values.overlap) ?? WELCH_DEFAULTS.overlap;
   if (!(overlap >= 0 && overlap <= 0.95)) throw new UsageError(`--overlap must be in 0..0.95 (got ${values.overlap})`);
-  const window = values.window ?? 'hann';
+  const window = values.window ?? WELCH_DEFAULTS.window;
   if (window !== 'hann' && window !== 'rectangular') throw new UsageError(`--window must be hann or rectangular (got "${window}")`);
-  const detrend = values.detrend ?? 'linear';
+  const detrend = values.detrend ?? WELCH_DEFAULTS.detrend;
   if (detrend !== 'linear' && detrend !== 'mean' && detrend !== 'none') throw new UsageError(`--detrend must be linear, mean or none (got "${detrend}")`);
   const quiet = values.quiet === true;
   const say = (line: string) => {

@@ -3,6 +3,9 @@
 import { readFileSync } from 'node:fs';
 import {
   createMqttPublisher,
+  DEFAULT_MQTT_TOPIC_PREFIX,
+  DEFAULT_MQTT_UPDATE_HZ,
+  DEFAULT_MQTT_URL,
   isLoopbackHost,
   startFeedServer,
   type FeedServer,
@@ -48,10 +51,10 @@ export const feedOptionHelp = `Network feed (read-only, but for one command: a r
   --proxy ADDRESS          a reverse proxy at ADDRESS passes the public host on and serves the page over
                            https (see docs/feed.md); needs a token; repeatable
   --mqtt URL               also publish to an MQTT broker, e.g. mqtt://127.0.0.1:1883
-  --mqtt-topic PREFIX      topic prefix (default fringetally)
+  --mqtt-topic PREFIX      topic prefix (default ${DEFAULT_MQTT_TOPIC_PREFIX})
   --mqtt-username U, --mqtt-password P   credentials for brokers that need them; without
                            --mqtt-password, the password is read from $${MQTT_PASSWORD_VARIABLE}
-  --mqtt-update-hz R       publishing rate, Hz (default 10)
+  --mqtt-update-hz R       publishing rate, Hz (default ${DEFAULT_MQTT_UPDATE_HZ})
   --mqtt-ca FILE           PEM CA certificate(s) that signed the broker's certificate (mqtts:// URLs;
                            default: the system's CAs)
   --mqtt-cert FILE, --mqtt-key FILE   PEM client certificate and key, for brokers that require them
@@ -171,7 +174,7 @@ export async function openLiveFeed(
     : await startFeedServer({ ...feedSettings.serve, onReference, onSourceError: (error) => onError(error instanceof Error ? error : new Error(String(error))) });
   let publisher: MqttPublisher | null = null;
   if (feedSettings.mqtt !== null) {
-    const url = feedSettings.mqtt.url ?? 'mqtt://127.0.0.1:1883';
+    const url = feedSettings.mqtt.url ?? DEFAULT_MQTT_URL;
     publisher = createMqttPublisher({ ...feedSettings.mqtt, onReference, onEvent: (event) => log(mqttEventLine(url, event)) });
   }
   return {
@@ -192,8 +195,8 @@ export async function openLiveFeed(
         ...(publisher === null
           ? []
           : [
-              `publishing to MQTT topics ${feedSettings.mqtt!.topicPrefix ?? 'fringetally'}/axis/X, ${feedSettings.mqtt!.topicPrefix ?? 'fringetally'}/edge, ` +
-                `${publisher.statusTopic} at ${feedSettings.mqtt!.url ?? 'mqtt://127.0.0.1:1883'}; ` +
+              `publishing to MQTT topics ${feedSettings.mqtt!.topicPrefix ?? DEFAULT_MQTT_TOPIC_PREFIX}/axis/X, ${feedSettings.mqtt!.topicPrefix ?? DEFAULT_MQTT_TOPIC_PREFIX}/edge, ` +
+                `${publisher.statusTopic} at ${feedSettings.mqtt!.url ?? DEFAULT_MQTT_URL}; ` +
                 `${commandText(feedSettings.tokenSource)} on ${publisher.commandTopic} (replies on ${publisher.replyTopic})`,
             ]),
       ];

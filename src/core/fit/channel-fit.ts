@@ -8,6 +8,7 @@
 
 import { validateCalibration } from '../correction.js';
 import type { EllipseCalibration } from './ellipse.js';
+import { resolveFitLimits } from './limits.js';
 import { choleskyInPlace, symmetricEigenInPlace } from './numerics.js';
 import { finiteNumber, integerInRange, OptionError, positiveFinite } from '../options.js';
 import { wrapPhase } from '../phase.js';
@@ -237,9 +238,12 @@ export interface ChannelMomentAccumulator {
  * Sums of the outputs and of their products (K + K² numbers, constant memory). Merging is exact: sums are kept
  * about the first sample seen, so their powers stay near the signals' own size.
  */
+/** The ellipse fits' default, asked of them (stated there once; the embedded bundle has no room for a constant). */
+const DEFAULT_FIT_MIN_SAMPLES = resolveFitLimits({}).minSamples;
+
 export function createChannelMomentAccumulator(options: { readonly channelCount: number; readonly minSamples?: number }): ChannelMomentAccumulator {
   const k = integerInRange('channelCount', options.channelCount, 3, MAX_CHANNELS);
-  const minSamples = integerInRange('minSamples', options.minSamples ?? 32, 6, 2 ** 53 - 1);
+  const minSamples = integerInRange('minSamples', options.minSamples ?? DEFAULT_FIT_MIN_SAMPLES, 6, 2 ** 53 - 1);
   const shift = new Float64Array(k);
   const first = new Float64Array(k);
   const second = new Float64Array(k * k);

@@ -13,6 +13,8 @@ import { MOMENT_COUNT, momentIndex, shiftMoments } from './moments.js';
 import { createGeneralizedEigenSolver } from './numerics.js';
 
 export const ELLIPSE_FIT_METHODS = ['heydemann', 'taubin', 'hyper'] as const;
+/** The method when none is named (the batch fit's and the online correction's default). */
+export const DEFAULT_ELLIPSE_FIT_METHOD = 'hyper';
 export type EllipseFitMethod = (typeof ELLIPSE_FIT_METHODS)[number];
 
 /** Exponents (i, j) of the five conic features a², b², ab, a, b. */

@@ -15,6 +15,7 @@
 
 import { integerInRange, numberInRange, positiveFinite } from '../options.js';
 import { choleskyInPlace } from './numerics.js';
+import { DEFAULT_MAX_MOTION_RESIDUAL_RAD } from '../periodic-error.js';
 
 /** Highest order the correction supports. */
 export const MAX_HARMONIC_ORDER = 8;
@@ -59,7 +60,7 @@ export function createHarmonicEstimator(options: HarmonicEstimatorOptions): Harm
   const orders = integerInRange('orders', options.orders, 1, MAX_HARMONIC_ORDER);
   const totalSamples = integerInRange('totalSamples', options.totalSamples, 16, 2 ** 53 - 1);
   const minFringes = numberInRange('minFringes', options.minFringes ?? 100, 1, Infinity);
-  const maxResidualRad = positiveFinite('maxResidualRad', options.maxResidualRad ?? 0.05);
+  const maxResidualRad = positiveFinite('maxResidualRad', options.maxResidualRad ?? DEFAULT_MAX_MOTION_RESIDUAL_RAD);
   const unknowns = POLYNOMIAL_TERMS + 2 * orders;
   const normal = new Float64Array(unknowns * unknowns);
   const rhs = new Float64Array(unknowns);

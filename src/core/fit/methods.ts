@@ -3,7 +3,7 @@
 
 import { oneOf } from '../options.js';
 import type { EllipseAccumulator } from './accumulator.js';
-import { createConicSolver, ELLIPSE_FIT_METHODS, type EllipseFitMethod } from './conic-solver.js';
+import { createConicSolver, DEFAULT_ELLIPSE_FIT_METHOD, ELLIPSE_FIT_METHODS, type EllipseFitMethod } from './conic-solver.js';
 import type { EllipseFitResult } from './ellipse.js';
 import { fitResult, resolveFitLimits, type EllipseFitOptions } from './limits.js';
 
@@ -23,7 +23,7 @@ export interface EllipseFit {
 }
 
 export function createEllipseFit(options: EllipseFitMethodOptions = {}): EllipseFit {
-  const method = oneOf('method', options.method ?? 'hyper', ELLIPSE_FIT_METHODS);
+  const method = oneOf('method', options.method ?? DEFAULT_ELLIPSE_FIT_METHOD, ELLIPSE_FIT_METHODS);
   const limits = resolveFitLimits(options);
   const solver = createConicSolver(method);
   return { method, solve: (accumulator) => fitResult(solver, accumulator.state, limits) };

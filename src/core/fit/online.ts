@@ -7,7 +7,7 @@
 import { correctionCoefficients, validateCalibration } from '../correction.js';
 import { integerInRange, numberInRange, oneOf, OptionError } from '../options.js';
 import { fastAtan2, TWO_PI, wrapPhase } from '../phase.js';
-import { createConicSolver, ELLIPSE_FIT_METHODS, type EllipseFitMethod } from './conic-solver.js';
+import { createConicSolver, DEFAULT_ELLIPSE_FIT_METHOD, ELLIPSE_FIT_METHODS, type EllipseFitMethod } from './conic-solver.js';
 import type { EllipseCalibration } from './ellipse.js';
 import { MOMENT_COUNT } from './moments.js';
 
@@ -75,7 +75,7 @@ export function createOnlineCorrection(options: OnlineCorrectionOptions): Online
   const coverageWindow = integerInRange('coverageWindowSamples', options.coverageWindowSamples ?? Math.round(forgettingSamples), 64, 2 ** 31);
   const updateInterval = integerInRange('updateIntervalSamples', options.updateIntervalSamples ?? 1024, 16, 2 ** 31);
   const blendSamples = integerInRange('blendSamples', options.blendSamples ?? 1024, 1, 2 ** 31);
-  const method = oneOf('method', options.method ?? 'hyper', ELLIPSE_FIT_METHODS);
+  const method = oneOf('method', options.method ?? DEFAULT_ELLIPSE_FIT_METHOD, ELLIPSE_FIT_METHODS);
   const maxChange = numberInRange('maxChange', options.maxChange ?? 0.05, 0, 1, true);
   const lambda = 1 - 1 / forgettingSamples;
   // A solve needs the memory mostly filled: half the asymptotic weight Σλ^k = forgettingSamples.

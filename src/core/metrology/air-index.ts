@@ -108,6 +108,9 @@ export interface AirIndexResult {
   readonly warnings: readonly ValidityWarning[];
 }
 
+/** The equation when none is named: Ciddor 1996, the NIST toolbox's general recommendation. */
+export const DEFAULT_AIR_INDEX_EQUATION: AirIndexEquation = 'ciddor';
+
 /** CO2 mole fraction the index equations take when none is given, µmol/mol: the reference content of Birch & Downs and Ciddor. */
 export const DEFAULT_CO2_PPM = 450;
 const KELVIN_OFFSET = 273.15;
@@ -209,7 +212,7 @@ export function airIndexSensitivities(options: AirIndexOptions): AirIndexSensiti
 }
 
 function resolveConditions(options: AirIndexOptions): ResolvedConditions {
-  const equation = oneOf('equation', options.equation ?? 'ciddor', airIndexEquations);
+  const equation = oneOf('equation', options.equation ?? DEFAULT_AIR_INDEX_EQUATION, airIndexEquations);
   const temperatureC = finiteNumber('temperatureC', options.temperatureC);
   const saturationPa = saturationVapourPressurePa(temperatureC);
   const pressurePa = positiveFinite('pressurePa', options.pressurePa);

@@ -2,7 +2,7 @@
 // first and last reading outside it. The index of air from them rescales the reading, never the fringe count.
 
 import { OptionError } from '../options.js';
-import { refractiveIndexOfAir, type AirIndexEquation, type AirIndexResult } from './air-index.js';
+import { DEFAULT_AIR_INDEX_EQUATION, refractiveIndexOfAir, type AirIndexEquation, type AirIndexResult } from './air-index.js';
 
 /** One reading of the air sensors. */
 export interface EnvironmentRecord {
@@ -80,6 +80,6 @@ export function airIndexAt(schedule: EnvironmentSchedule, tS: number, options: {
     relativeHumidityPct: air.relativeHumidityPct,
     ...(Number.isNaN(air.co2Ppm) ? {} : { co2Ppm: air.co2Ppm }),
     vacuumWavelengthM: options.vacuumWavelengthM,
-    equation: options.equation ?? 'ciddor',
+    equation: options.equation ?? DEFAULT_AIR_INDEX_EQUATION,
   });
 }

@@ -6,6 +6,7 @@ export {
   airIndexEquations,
   airIndexSensitivities,
   airIndexValidity,
+  DEFAULT_AIR_INDEX_EQUATION,
   DEFAULT_CO2_PPM,
   refractiveIndexOfAir,
   type AirConditions,

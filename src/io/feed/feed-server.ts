@@ -10,7 +10,10 @@ import { performance } from 'node:perf_hooks';
 import type { Duplex } from 'node:stream';
 import type { Observable, Subscription } from 'rxjs';
 import { WebSocket, WebSocketServer } from 'ws';
-import { integerInRange, OptionError, positiveFinite } from '../../core/index.js';
+import { createSignalMonitor, integerInRange, OptionError, positiveFinite } from '../../core/index.js';
+
+/** The pipeline's own default threshold, asked of the monitor (stated there once; the embedded bundle has no room for a constant). */
+const PIPELINE_LOW_SIGNAL_LEVEL = createSignalMonitor().options.lowSignalLevel;
 import { createUpdateGeometry, type Axes, type AxisBlockSummary, type AxisGeometryStreamOptions, type UpdateGeometry } from '../../stream/index.js';
 import { hostOfHeader, isLoopbackHost, normaliseAddress, tokenMatches } from './access.js';
 import {
@@ -339,7 +342,7 @@ export async function startFeedServer(options: FeedServerOptions): Promise<FeedS
       schema: FEED_SCHEMA,
       state,
       axes: source?.axes.names ?? [],
-      lowSignalLevel: source === null ? null : (source.lowSignalLevel ?? 0.3),
+      lowSignalLevel: source === null ? null : (source.lowSignalLevel ?? PIPELINE_LOW_SIGNAL_LEVEL),
       detectorOutputs: source?.detectorOutputs ?? null,
       ...feedTimeBase(source?.rateHz ?? null, latestSampleIndex),
     };

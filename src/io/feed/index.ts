@@ -32,6 +32,8 @@ export {
 } from './messages.js';
 export {
   createMqttPublisher,
+  DEFAULT_MQTT_TOPIC_PREFIX,
+  DEFAULT_MQTT_UPDATE_HZ,
   startMqttPublisher,
   type MqttAxisMessage,
   type MqttGeometryMessage,
@@ -41,7 +43,7 @@ export {
   type MqttPublisherOptions,
   type MqttStatusMessage,
 } from './mqtt-publisher.js';
-export { type MqttConnectionOptions, type MqttLinkEvent, type MqttLinkHealth, type MqttTlsOptions } from './mqtt-link.js';
+export { DEFAULT_MQTT_URL, type MqttConnectionOptions, type MqttLinkEvent, type MqttLinkHealth, type MqttTlsOptions } from './mqtt-link.js';
 export {
   followEnvironmentTopic,
   parseEnvironmentMessage,

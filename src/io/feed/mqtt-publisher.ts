@@ -107,6 +107,11 @@ export interface MqttStatusMessage extends FeedTimeBase {
   readonly detectorOutputs: readonly number[] | null;
 }
 
+/** Topic prefix when none is given. */
+export const DEFAULT_MQTT_TOPIC_PREFIX = 'fringetally';
+/** Updates per second per axis when no rate is given. */
+export const DEFAULT_MQTT_UPDATE_HZ = 10;
+
 /** Largest command payload read, bytes (as the WebSocket feed's default message limit). */
 const MAX_COMMAND_BYTES = 1024;
 
@@ -119,9 +124,9 @@ const TOPIC_PREFIX = /^[^#+/\u0000]+(\/[^#+/\u0000]+)*$/;
  */
 export function createMqttPublisher(options: MqttPublisherOptions): MqttPublisher {
   const connection = resolveMqttConnection(options);
-  const prefix = options.topicPrefix ?? 'fringetally';
+  const prefix = options.topicPrefix ?? DEFAULT_MQTT_TOPIC_PREFIX;
   if (!TOPIC_PREFIX.test(prefix)) throw new OptionError('topicPrefix', 'MQTT topic levels without +, # or empty levels', prefix);
-  const updateHz = positiveFinite('updateHz', options.updateHz ?? 10);
+  const updateHz = positiveFinite('updateHz', options.updateHz ?? DEFAULT_MQTT_UPDATE_HZ);
   if (updateHz > 100) throw new OptionError('updateHz', 'a positive finite number up to 100', updateHz);
   // A geometry naming a missing axis is refused here, before the client starts connecting in the background.
   if (options.source?.geometry !== undefined) createUpdateGeometry(options.source.geometry, options.source.axes.names);

@@ -9,6 +9,7 @@ export {
   type LinkReaderStatus,
 } from './link-reader.js';
 export {
+  LIVE_FIT_DEFAULTS,
   readLink,
   trackLink,
   type LinkOptions,

@@ -155,6 +155,9 @@ export interface LiveReference {
 
 /** A rate used only to check the axis options before the frames tell the true one; no rate rule binds at it. */
 const PROBE_RATE_HZ = 1e12;
+
+/** The live fit's defaults: samples held back for it, and attempts before the stream ends with an error. */
+export const LIVE_FIT_DEFAULTS = Object.freeze({ fitSamples: 16_384, fitAttempts: 8 });
 /** Samples per block when the held samples go through the pipelines after a live fit. */
 const REPLAY_BLOCK = 16_384;
 
@@ -220,8 +223,8 @@ function createHoldStore() {
  */
 export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAxes {
   const link = options.link ?? {};
-  const fitSamples = integerInRange('fitSamples', options.fitSamples ?? 16_384, 64, 2 ** 24);
-  const fitAttempts = integerInRange('fitAttempts', options.fitAttempts ?? 8, 1, 64);
+  const fitSamples = integerInRange('fitSamples', options.fitSamples ?? LIVE_FIT_DEFAULTS.fitSamples, 64, 2 ** 24);
+  const fitAttempts = integerInRange('fitAttempts', options.fitAttempts ?? LIVE_FIT_DEFAULTS.fitAttempts, 1, 64);
   const durationS = options.durationS === undefined ? undefined : positiveFinite('durationS', options.durationS);
   const { refractiveIndexAt } = options;
   if (refractiveIndexAt !== undefined && typeof refractiveIndexAt !== 'function') throw new OptionError('refractiveIndexAt', 'a function of the sample time', typeof refractiveIndexAt);

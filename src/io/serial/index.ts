@@ -4,6 +4,7 @@ export {
   createSerialByteSource,
   resolveSerialSourceOptions,
   retryDelayFor,
+  SERIAL_SOURCE_DEFAULTS,
   type SerialByteSource,
   type SerialPortHandle,
   type SerialSourceConfig,

@@ -17,6 +17,17 @@ export interface SerialPortHandle {
   on(event: 'error', listener: (error: Error) => void): unknown;
 }
 
+/** The serial source's defaults, stated once (the tools' options default to them too). */
+export const SERIAL_SOURCE_DEFAULTS = Object.freeze({
+  /** Bd. */
+  baudRate: 921600,
+  /** First reopen delay, ms. */
+  retryDelayMs: 200,
+  /** Ceiling of the growing delay, ms (or retryDelayMs when that is longer). */
+  maxRetryDelayMs: 5000,
+  backoffFactor: 2,
+});
+
 export interface SerialSourceOptions {
   /** Device path, e.g. `/dev/ttyUSB0` or a pty link. Required, non-empty. */
   readonly path: string;
@@ -57,10 +68,11 @@ export function resolveSerialSourceOptions(options: SerialSourceOptions): Serial
   if (typeof options.path !== 'string' || options.path === '') {
     throw new OptionError('path', 'a non-empty string', options.path);
   }
-  const baudRate = integerInRange('baudRate', options.baudRate ?? 921600, 1, 20_000_000);
-  const retryDelayMs = numberInRange('retryDelayMs', options.retryDelayMs ?? 200, 1, 600_000);
-  const maxRetryDelayMs = numberInRange('maxRetryDelayMs', options.maxRetryDelayMs ?? Math.max(5000, retryDelayMs), retryDelayMs, 600_000);
-  const backoffFactor = numberInRange('backoffFactor', options.backoffFactor ?? 2, 1, 10);
+  const defaults = SERIAL_SOURCE_DEFAULTS;
+  const baudRate = integerInRange('baudRate', options.baudRate ?? defaults.baudRate, 1, 20_000_000);
+  const retryDelayMs = numberInRange('retryDelayMs', options.retryDelayMs ?? defaults.retryDelayMs, 1, 600_000);
+  const maxRetryDelayMs = numberInRange('maxRetryDelayMs', options.maxRetryDelayMs ?? Math.max(defaults.maxRetryDelayMs, retryDelayMs), retryDelayMs, 600_000);
+  const backoffFactor = numberInRange('backoffFactor', options.backoffFactor ?? defaults.backoffFactor, 1, 10);
   const retries = (name: string, value: number): number => {
     if (!(value === Number.POSITIVE_INFINITY || (Number.isInteger(value) && value >= 0))) {
       throw new OptionError(name, 'an integer >= 0 or Infinity', value);
