@@ -111,6 +111,11 @@ export interface AxisUpdate {
   readonly countLost: boolean;
   readonly events: readonly AlarmEvent[];
   readonly eventsDropped: number;
+  /** `calibration_stale` (the axis' `modelWatch`) on the latest sample, and whether it was on at any time since the previous update. */
+  readonly calibrationStale: boolean;
+  readonly calibrationStaleSeen: boolean;
+  /** Its changes since the previous update (at most `maxEventsPerUpdate`, the rest counted in `eventsDropped`). */
+  readonly modelEvents: readonly ModelWatchEvent[];
   readonly trace?: Trace;
 }
 
@@ -172,6 +177,8 @@ export interface AxisBlockSummary {
   readonly events: readonly AlarmEvent[];
   /** The block's `calibration_stale` changes (the axis' `modelWatch` option), empty without it. */
   readonly modelEvents: readonly ModelWatchEvent[];
+  /** `calibration_stale` active after the block's last sample. */
+  readonly calibrationStale: boolean;
   readonly speedLimits: SpeedLimits;
   /** Ring of recent trace points; `traceNext` is where the next point goes, `traceFilled` how many are valid. */
   readonly traceX: Float32Array;
@@ -323,6 +330,7 @@ function beyondEllipse(stage: AxisStage, beyond: BeyondEllipse, out: { positionM
     const flags = out.flags;
     for (let i = 0; i < length; i++) use[i] = (flags[i]! & SIGNAL_TROUBLE) === 0 ? 1 : 0;
     beyond.watch.processRadius(out.level, length, summary.firstSampleIndex, summary.modelEvents, use);
+    summary.calibrationStale = beyond.watch.active;
   }
 }
 
@@ -757,6 +765,7 @@ function emptySummary(name: string, speedLimits: SpeedLimits, tracePoints: numbe
     countLost: false,
     events: [],
     modelEvents: [],
+    calibrationStale: false,
     speedLimits,
     traceX: new Float32Array(tracePoints),
     traceY: new Float32Array(tracePoints),
@@ -795,6 +804,8 @@ function createAccumulator(name: string, maxEvents: number) {
   let positionM = Number.NaN, velocityMS = Number.NaN, level = Number.NaN, flags = 0, countLost = false;
   let pMin = Infinity, pMax = -Infinity, vMin = Infinity, vMax = -Infinity, lMin = Infinity, seen = 0;
   let events: AlarmEvent[] = [];
+  let modelEvents: ModelWatchEvent[] = [];
+  let stale = false, staleSeen = false;
   let dropped = 0;
   return {
     /** Starts from the chain's current state: latest values, no samples or events of its own yet. */
@@ -805,6 +816,7 @@ function createAccumulator(name: string, maxEvents: number) {
       velocityMS = vMin = vMax = s.velocityMS;
       level = lMin = s.level;
       flags = seen = s.flags;
+      stale = staleSeen = s.calibrationStale;
     },
     merge(s: AxisBlockSummary): void {
       samples += s.length + s.lostBefore;
@@ -826,6 +838,13 @@ function createAccumulator(name: string, maxEvents: number) {
         if (events.length < maxEvents) events.push(event);
         else dropped++;
       }
+      for (const event of s.modelEvents) {
+        if (modelEvents.length < maxEvents) modelEvents.push(event);
+        else dropped++;
+        if (event.state === 'raised') staleSeen = true;
+      }
+      stale = s.calibrationStale;
+      if (stale) staleSeen = true;
     },
     take(trace: AxisBlockSummary | null): AxisUpdate {
       const update: AxisUpdate = {
@@ -845,6 +864,9 @@ function createAccumulator(name: string, maxEvents: number) {
         countLost,
         events,
         eventsDropped: dropped,
+        calibrationStale: stale,
+        calibrationStaleSeen: staleSeen,
+        modelEvents,
         ...(trace === null ? {} : { trace: copyTrace(trace) }),
       };
       samples = 0;
@@ -852,6 +874,8 @@ function createAccumulator(name: string, maxEvents: number) {
       pMax = vMax = -Infinity;
       seen = 0;
       events = [];
+      modelEvents = [];
+      staleSeen = stale;
       dropped = 0;
       return update;
     },

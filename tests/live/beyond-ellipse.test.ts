@@ -16,6 +16,7 @@ import {
   type PhaseHarmonics,
 } from '../../src/core/index.js';
 import { trackLink, type LiveAxisOptions } from '../../src/io/live/index.js';
+import type { AxisUpdate } from '../../src/stream/index.js';
 import { createManualByteSource } from '../../src/io/serial/index.js';
 import { encodeWireFrame, wireMaxFrameLength } from '../../src/io/wire/index.js';
 import { calibrationMove, ELLIPSE, field, irregularMotion, periodicErrorNm } from '../../bench/ghost-beam.js';
@@ -70,12 +71,18 @@ function live(x: Int16Array, y: Int16Array, axis: LiveAxisOptions) {
   const n = x.length;
   const positionM = new Float64Array(n);
   const modelEvents: { sampleIndex: number; state: string; cause: string }[] = [];
+  // The state after each block, as the summaries give it.
+  const staleAfter: { sampleIndex: number; stale: boolean }[] = [];
   const subscription = chain.readings$.subscribe((reading) => {
     if (reading.kind !== 'positions') return;
     const summary = reading.summaries[0]!;
     positionM.set(summary.output.positionM.subarray(0, summary.length), summary.firstSampleIndex);
     for (const event of summary.modelEvents) modelEvents.push({ sampleIndex: event.sampleIndex, state: event.state, cause: event.cause });
+    staleAfter.push({ sampleIndex: summary.sampleIndex, stale: summary.calibrationStale });
   });
+  // What the feed and MQTT read: one update per block (no updateHz), as AxisUpdate.
+  const updates: AxisUpdate[] = [];
+  const updating = chain.update$().subscribe((update) => updates.push(update.axes[0]!));
   source.linkUp();
   const frame = new Uint8Array(wireMaxFrameLength(2, SPF));
   const interleaved = new Int16Array(2 * SPF);
@@ -88,7 +95,8 @@ function live(x: Int16Array, y: Int16Array, axis: LiveAxisOptions) {
     source.write(frame.slice(0, length));
   }
   subscription.unsubscribe();
-  return { positionM, modelEvents };
+  updating.unsubscribe();
+  return { positionM, modelEvents, staleAfter, updates };
 }
 
 describe('the live chain beyond the ellipse', () => {
@@ -125,5 +133,24 @@ describe('the live chain beyond the ellipse', () => {
     expect(watched.modelEvents[0]!.sampleIndex).toBeGreaterThan(30_000);
     expect(live(x, y, { ...axis, modelWatch: {} }).modelEvents).toEqual([]); // the unchanged signal: no alarm
     expect(live(dimmed.x, dimmed.y, axis).modelEvents).toEqual([]); // not asked for
+  });
+
+  it('hands calibration_stale to update subscribers (the feed and MQTT): its events, and its state from the raise to the clear', () => {
+    // Dimmed by 10 % between samples 20 000 and 40 000 (of 60 000), then back: raised after the drop, cleared after the
+    // return. The scatter bound is widened past the ghosts' own radius scatter, which sits near the default's clear level.
+    const dimmed = detect(truth, (i) => (i >= 20_000 && i < 40_000 ? 0.9 : 1));
+    const watched = live(dimmed.x, dimmed.y, { ...axis, modelWatch: { maxRadiusRms: 0.05 } });
+    expect(watched.modelEvents.map((event) => event.state)).toContain('cleared');
+    // The updates carry exactly the summaries' events, in order, with their causes.
+    expect(watched.updates.flatMap((update) => update.modelEvents.map(({ sampleIndex, state, cause }) => ({ sampleIndex, state, cause })))).toEqual(watched.modelEvents);
+    // The state after each update is the watch's after that block: raised from the block of the first raise to the last clear.
+    expect(watched.updates.map((update) => update.calibrationStale)).toEqual(watched.staleAfter.map((block) => block.stale));
+    expect(watched.updates.some((update) => update.calibrationStale)).toBe(true);
+    expect(watched.updates.at(-1)!.calibrationStale).toBe(false);
+    // An update whose span held a raise reports it seen, even when a clear came in the same span.
+    for (const update of watched.updates) {
+      if (update.modelEvents.some((event) => event.state === 'raised')) expect(update.calibrationStaleSeen).toBe(true);
+      if (!update.calibrationStale && update.modelEvents.length === 0) expect(update.calibrationStaleSeen).toBe(false);
+    }
   });
 });

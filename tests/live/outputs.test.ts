@@ -6,7 +6,9 @@
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { beforeAll, describe, expect, it } from 'vitest';
+import mqtt from 'mqtt';
 import { WebSocket } from 'ws';
+import { startBroker, type Broker } from '../feed/broker.js';
 import { wrapPhase } from '../../src/core/index.js';
 import { EMULATED_OUTPUTS } from '../../tools/live/frame-emulator.js';
 import { fringetally } from '../tools/cli.js';
@@ -23,6 +25,18 @@ const OPTICS = ['--wavelength-nm', '632.9908', '--fold', '2'];
  * that did not remove the source power would leave its ±20 % times the offsets (~2400 counts, ~0.24 rad, 12 nm).
  */
 const POSITION_TOLERANCE_M = 2e-9;
+/** emulate's three outputs as a calibration file names them (d1..d3). */
+const LAYOUT = EMULATED_OUTPUTS[3].map((channel, k) => ({ name: `d${k + 1}`, ...channel }));
+const calibrationFile = (channels: readonly object[], extra: object = {}) =>
+  JSON.stringify({ format: 'fringetally-calibration', version: 2, layout: { model: 'emulated', channels }, ...extra });
+
+interface AxisState {
+  sampleIndex: number;
+  alarms: string[];
+  alarmsSeen: string[];
+  events: { kind: string; state: string; value: number; unit: string; cause?: string; sampleIndex: number }[];
+}
+
 /** Samples held for the live fit (listen --fit-samples). */
 const FIT_SAMPLES = 16_384;
 /** emulate's source power, --power-modulation 0.2 at --power-frequency-hz 37 (docs/live.md): P = 1 + 0.2·sin(2π·37·t). */
@@ -61,8 +75,7 @@ let dir = '';
 beforeAll(() => {
   dir = ptys.dir();
   // The calibration of the emulated outputs (the layout emulate documents), as `calibrate --channels` writes it.
-  const channels = EMULATED_OUTPUTS[3].map((channel, k) => ({ name: `d${k + 1}`, ...channel }));
-  writeFileSync(join(dir, 'three.json'), JSON.stringify({ format: 'fringetally-calibration', version: 2, layout: { model: 'emulated', channels } }));
+  writeFileSync(join(dir, 'three.json'), calibrationFile(LAYOUT));
 });
 const emulateArgs = (firmware: string) => [
   'emulate', '--port', firmware, '--rate-hz', String(RATE), '--velocity-m-s', String(VELOCITY), ...OPTICS, '--duration', String(DURATION),
@@ -157,17 +170,13 @@ describe('three detector outputs over a pty', () => {
     checkPower(readRows(join(dir, 'recorded.csv')).columns.power!, 1);
   });
 
-  it("a calibration file's harmonics are applied to three outputs, and a stale one raises calibration_stale", async () => {
+  it("a calibration file's harmonics are applied to three outputs", async () => {
     // The harmonic correction takes e(φ) = 0.02·cos φ rad off the phase (docs/calibration-format.md), so every position
     // moves by −0.02·cos φ · λ/(4π) (fold 2) against the run without it, φ = 4π·v·t/λ being emulate's phase (it
-    // starts at 0). Amplitudes 10 % too large (offsets kept) read the power-normalised radius as 1/1.1: −9.09 %,
-    // beyond the watch's ±5 % (a gain common to every output would cancel in the power normalisation).
-    const layout = EMULATED_OUTPUTS[3].map((channel, k) => ({ name: `d${k + 1}`, ...channel }));
-    const file = (channels: readonly object[], extra: object = {}) => JSON.stringify({ format: 'fringetally-calibration', version: 2, layout: { model: 'emulated', channels }, ...extra });
-    writeFileSync(join(dir, 'harmonics.json'), file(layout, { harmonics: { orders: 1, cos: [0.02], sin: [0] } }));
-    writeFileSync(join(dir, 'stale.json'), file(layout.map((channel) => ({ ...channel, amplitude: channel.amplitude * 1.1 }))));
+    // starts at 0).
+    writeFileSync(join(dir, 'harmonics.json'), calibrationFile(LAYOUT, { harmonics: { orders: 1, cos: [0.02], sin: [0] } }));
     const runs: Record<string, number[]> = {};
-    for (const name of ['three', 'harmonics', 'stale']) {
+    for (const name of ['three', 'harmonics']) {
       const { device, firmware } = await ptyPair();
       const listen = startCli(['listen', '--port', device, ...OPTICS, '--calibration', `${name}.json`, '--out', `${name}-rows.csv`, '--duration', String(DURATION)], dir);
       await listen.stderrHas('link up');
@@ -175,8 +184,7 @@ describe('three detector outputs over a pty', () => {
       expect(await finished(emulate), emulate.output.stderr).toBe(0);
       expect(await finished(listen), listen.output.stderr).toBe(0);
       runs[name] = readRows(join(dir, `${name}-rows.csv`)).columns.position_m!;
-      if (name === 'stale') expect(listen.output.stderr).toMatch(/calibration_stale at t = [\d.]+ s: the signal left the calibration's model \(the mean radius moved by -9\.0\d %\)/);
-      else expect(listen.output.stderr).not.toContain('calibration_stale');
+      expect(listen.output.stderr).not.toContain('calibration_stale');
     }
     const metresPerRad = 632.9908e-9 / (4 * Math.PI);
     let worst = 0;
@@ -190,5 +198,63 @@ describe('three detector outputs over a pty', () => {
     // 0.02 rad × 50.4 nm/rad = 1.007 nm at most; the noise moves φ by ~1.5 mrad, the shift by 0.02 × that.
     expect(largest / (0.02 * metresPerRad)).toBeCloseTo(1, 2);
     expect(worst).toBeLessThan(1e-10);
+  });
+
+  it('a stale calibration of three outputs raises calibration_stale on stderr, on the WebSocket feed and on MQTT', async () => {
+    // Amplitudes 10 % too large (offsets kept) read the power-normalised radius as 1/1.1: −9.09 %, beyond the watch's
+    // ±5 % (a gain common to every output would cancel in the power normalisation).
+    writeFileSync(join(dir, 'stale.json'), calibrationFile(LAYOUT.map((channel) => ({ ...channel, amplitude: channel.amplitude * 1.1 }))));
+    const expectedChange = 1 / 1.1 - 1;
+    const broker: Broker = await startBroker({});
+    try {
+      const { device, firmware } = await ptyPair();
+      const subscriber = await mqtt.connectAsync(broker.url, { reconnectPeriod: 0 });
+      const published: AxisState[] = [];
+      subscriber.on('message', (_topic, payload) => published.push(JSON.parse(payload.toString()) as AxisState));
+      await subscriber.subscribeAsync('stale/axis/X', { qos: 1 });
+      const listen = startCli(
+        ['listen', '--port', device, ...OPTICS, '--calibration', 'stale.json', '--out', 'stale-rows.csv', '--duration', String(DURATION),
+          '--serve', '127.0.0.1:0', '--mqtt', broker.url, '--mqtt-topic', 'stale'],
+        dir,
+      );
+      await listen.stderrHas('link up');
+      await listen.stderrHas(/feed ws:\S+\)/);
+      await listen.stderrHas(`MQTT broker at ${broker.url} connected`);
+      const updates: AxisState[] = [];
+      let subscribed = false;
+      const socket = new WebSocket(/feed (ws:\S+)\)/.exec(listen.output.stderr)![1]!);
+      socket.on('message', (data) => {
+        const message = JSON.parse(String(data)) as { type: string; axes: AxisState[] };
+        if (message.type === 'subscribed') subscribed = true;
+        if (message.type === 'update') updates.push(message.axes[0]!);
+      });
+      socket.on('open', () => socket.send(JSON.stringify({ type: 'subscribe', updateHz: 50 })));
+      await until(() => subscribed, 'the feed to confirm the subscription');
+      const emulate = startCli(emulateArgs(firmware), dir);
+      expect(await finished(emulate), emulate.output.stderr).toBe(0);
+      expect(await finished(listen), listen.output.stderr).toBe(0);
+      const logged = /calibration_stale at t = ([\d.]+) s: the signal left the calibration's model \(the mean radius moved by (-[\d.]+) %\)/.exec(listen.output.stderr);
+      expect(logged, listen.output.stderr).not.toBeNull();
+      expect(Number(logged![2]) / 100).toBeCloseTo(expectedChange, 3);
+      const raisedAt = Math.round(Number(logged![1]) * RATE);
+      await until(() => published.some((state) => state.events.some((event) => event.kind === 'calibration_stale')), 'calibration_stale on MQTT');
+      socket.close();
+      await subscriber.endAsync();
+      for (const [name, states] of [['WebSocket', updates], ['MQTT', published]] as const) {
+        const events = states.flatMap((state) => state.events).filter((event) => event.kind === 'calibration_stale');
+        // One raise, where stderr put it, with the radius change and its cause; never cleared (the gain stays wrong).
+        expect(events, name).toHaveLength(1);
+        expect(events[0]).toMatchObject({ kind: 'calibration_stale', state: 'raised', unit: 'relative radius', cause: 'radius-change', sampleIndex: raisedAt });
+        expect(events[0]!.value).toBeCloseTo(expectedChange, 3);
+        // Active in the state from then on, as any alarm: in `alarms` of the last state and `alarmsSeen` of the raise's.
+        expect(states.at(-1)!.alarms, name).toContain('calibration_stale');
+        const raising = states.find((state) => state.events.some((event) => event.kind === 'calibration_stale'))!;
+        expect(raising.alarmsSeen, name).toContain('calibration_stale');
+        // Not active in a state whose latest sample comes before the raise.
+        for (const state of states) if (state.sampleIndex < raisedAt) expect(state.alarms, name).not.toContain('calibration_stale');
+      }
+    } finally {
+      await broker.stop();
+    }
   });
 });

@@ -1,6 +1,6 @@
 // The feed's JSON message schema (version 1), shared by the WebSocket feed, the MQTT publisher and the page.
 
-import { alarmNames, alarmText, type AlarmEvent, type EdgePosition } from '../../core/index.js';
+import { alarmNames, alarmText, MODEL_WATCH_ALARM, type AlarmEvent, type EdgePosition, type ModelWatchEvent } from '../../core/index.js';
 import type { AxesUpdate, AxisUpdate, GeometryUpdate, Trace } from '../../stream/index.js';
 import { tokenMatches } from './access.js';
 
@@ -9,9 +9,11 @@ export const FEED_SCHEMA = 1;
 /**
  * The unit of an alarm event's `value`: `level` (normalised signal level, 1 on the calibrated ellipse),
  * `input units` (a raw sample as the source gave it, ADC counts for int16 frames), `rad/sample` (phase step
- * between two samples), `rad` (phase travel while the signal was held), `samples` (lost in transport).
+ * between two samples), `rad` (phase travel while the signal was held), `samples` (lost in transport),
+ * `relative power` (source power, 1 at the calibration's mean), `relative radius` (`calibration_stale`: the mean
+ * radius's change, or the radius scatter's RMS, relative to the calibrated radius).
  */
-export type FeedValueUnit = 'level' | 'input units' | 'rad/sample' | 'rad' | 'samples' | 'relative power';
+export type FeedValueUnit = 'level' | 'input units' | 'rad/sample' | 'rad' | 'samples' | 'relative power' | 'relative radius';
 
 /** An alarm state change as sent: `kind` is the text name (`low_signal`...), `value` and `unit` null when it has none. */
 export interface FeedAlarmEvent {
@@ -20,6 +22,8 @@ export interface FeedAlarmEvent {
   readonly state: 'raised' | 'cleared';
   readonly value: number | null;
   readonly unit: FeedValueUnit | null;
+  /** `calibration_stale` only: what left the calibration's model, `radius-change` or `radius-scatter`. */
+  readonly cause?: ModelWatchEvent['cause'];
 }
 
 /** The time base of a message: sample rate, the sample time of its latest sample, and when it was made. */
@@ -45,10 +49,14 @@ export interface FeedAxisState {
   readonly velocityMaxMS: number | null;
   readonly level: number | null;
   readonly levelMin: number | null;
-  /** Alarms active on the latest sample, and all seen since the previous update (text names). */
+  /**
+   * Alarms active on the latest sample, and all seen since the previous update (text names; `calibration_stale`
+   * too, from the axis' model watch).
+   */
   readonly alarms: readonly string[];
   readonly alarmsSeen: readonly string[];
   readonly countLost: boolean;
+  /** Alarm changes since the previous update, by sample index (`calibration_stale`'s among them). */
   readonly events: readonly FeedAlarmEvent[];
   readonly eventsDropped: number;
   readonly trace?: Trace;
@@ -298,6 +306,11 @@ export function feedEvents(events: readonly AlarmEvent[]): FeedAlarmEvent[] {
   }));
 }
 
+/** A `calibration_stale` change as sent. */
+function feedModelEvent(event: ModelWatchEvent): FeedAlarmEvent {
+  return { sampleIndex: event.sampleIndex, kind: MODEL_WATCH_ALARM, state: event.state, value: finiteOrNull(event.value), unit: 'relative radius', cause: event.cause };
+}
+
 /** The time base at `sampleIndex` (−1 before any sample), made now. */
 export function feedTimeBase(rateHz: number | null, sampleIndex: number): FeedTimeBase {
   return {
@@ -321,10 +334,10 @@ export function feedAxisState(axis: AxisUpdate, withTrace = true): FeedAxisState
     velocityMaxMS: finiteOrNull(axis.velocityMaxMS),
     level: finiteOrNull(axis.level),
     levelMin: finiteOrNull(axis.levelMin),
-    alarms: names(axis.flags),
-    alarmsSeen: names(axis.flagsSeen),
+    alarms: axis.calibrationStale ? [...names(axis.flags), MODEL_WATCH_ALARM] : names(axis.flags),
+    alarmsSeen: axis.calibrationStaleSeen ? [...names(axis.flagsSeen), MODEL_WATCH_ALARM] : names(axis.flagsSeen),
     countLost: axis.countLost,
-    events: feedEvents(axis.events),
+    events: axis.modelEvents.length === 0 ? feedEvents(axis.events) : [...feedEvents(axis.events), ...axis.modelEvents.map(feedModelEvent)].sort((a, b) => a.sampleIndex - b.sampleIndex),
     eventsDropped: axis.eventsDropped,
     ...(axis.trace && withTrace ? { trace: roundTrace(axis.trace) } : {}),
   };

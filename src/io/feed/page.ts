@@ -243,6 +243,7 @@ export function feedPage(nonce: string): string {
       case "rad": return event.value.toFixed(3) + " rad (" + (event.value / (2 * Math.PI)).toFixed(3) + " fringe)";
       case "samples": return group3(event.value) + " samples lost";
       case "input units": return group3(event.value) + " ADC counts";
+      case "relative radius": return (event.value * 100).toFixed(2) + " % of the calibrated radius" + (event.cause === "radius-scatter" ? " (RMS scatter)" : " (mean change)");
       default: return String(event.value) + (event.unit ? " " + event.unit : "");
     }
   }
