@@ -200,7 +200,7 @@ describe('three detector outputs over a pty', () => {
     expect(worst).toBeLessThan(1e-10);
   });
 
-  it('a stale calibration of three outputs raises calibration_stale on stderr, on the WebSocket feed and on MQTT', async () => {
+  it('a stale calibration of three outputs raises calibration_stale on stderr, on the WebSocket feed and on MQTT; low_power travels alike', async () => {
     // Amplitudes 10 % too large (offsets kept) read the power-normalised radius as 1/1.1: −9.09 %, beyond the watch's
     // ±5 % (a gain common to every output would cancel in the power normalisation).
     writeFileSync(join(dir, 'stale.json'), calibrationFile(LAYOUT.map((channel) => ({ ...channel, amplitude: channel.amplitude * 1.1 }))));
@@ -253,6 +253,33 @@ describe('three detector outputs over a pty', () => {
         // Not active in a state whose latest sample comes before the raise.
         for (const state of states) if (state.sampleIndex < raisedAt) expect(state.alarms, name).not.toContain('calibration_stale');
       }
+
+      // low_power travels the same way: a calibration 2.2 times too bright (every offset and amplitude) reads the
+      // source power as P/2.2, below the default 0.5 from the first sample on (P(0) = 1, so 1/2.2 = 0.4545) and never
+      // back above the 0.6 that clears it (P ≤ 1.2). The phase is untouched: a common gain cancels.
+      writeFileSync(join(dir, 'bright.json'), calibrationFile(LAYOUT.map((channel) => ({ ...channel, offset: channel.offset * 2.2, amplitude: channel.amplitude * 2.2 }))));
+      const dim = await ptyPair();
+      const lowPower: AxisState[] = [];
+      const second = await mqtt.connectAsync(broker.url, { reconnectPeriod: 0 });
+      second.on('message', (_topic, payload) => lowPower.push(JSON.parse(payload.toString()) as AxisState));
+      await second.subscribeAsync('bright/axis/X', { qos: 1 });
+      const bright = startCli(
+        ['listen', '--port', dim.device, ...OPTICS, '--calibration', 'bright.json', '--out', 'bright-rows.csv', '--duration', String(DURATION), '--mqtt', broker.url, '--mqtt-topic', 'bright'],
+        dir,
+      );
+      await bright.stderrHas(`MQTT broker at ${broker.url} connected`);
+      const emulateBright = startCli(emulateArgs(dim.firmware), dir);
+      expect(await finished(emulateBright), emulateBright.output.stderr).toBe(0);
+      expect(await finished(bright), bright.output.stderr).toBe(0);
+      await until(() => lowPower.some((state) => state.events.some((event) => event.kind === 'low_power')), 'low_power on MQTT');
+      await second.endAsync();
+      const powerEvents = lowPower.flatMap((state) => state.events).filter((event) => event.kind === 'low_power');
+      expect(powerEvents).toHaveLength(1);
+      expect(powerEvents[0]).toMatchObject({ state: 'raised', unit: 'relative power', sampleIndex: 0 });
+      expect(powerEvents[0]!.value).toBeCloseTo(1 / 2.2, 2);
+      expect(lowPower.at(-1)!.alarms).toContain('low_power');
+      const brightRows = readRows(join(dir, 'bright-rows.csv'));
+      expect(brightRows.alarms.every((alarms) => alarms === 'low_power')).toBe(true);
     } finally {
       await broker.stop();
     }
