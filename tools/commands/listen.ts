@@ -410,14 +410,18 @@ async function run(argv: readonly string[]): Promise<number> {
     {
       name: `the ${MODEL_WATCH_ALARM} log`,
       positions(positions) {
-        for (const event of positions.summaries[0]!.modelEvents) {
-          const t = (event.sampleIndex / positions.rateHz).toFixed(6);
-          const what = event.cause === 'radius-change' ? `the mean radius moved by ${(event.value * 100).toFixed(2)} %` : `the radius scatters ${(event.value * 100).toFixed(2)} % RMS`;
-          statusLine.log(
-            event.state === 'raised'
-              ? `${MODEL_WATCH_ALARM} at t = ${t} s: the signal left the calibration's model (${what}): recalibrate, or check the source power and alignment`
-              : `${MODEL_WATCH_ALARM} cleared at t = ${t} s (${what})`,
-          );
+        // Every tracked axis (several with --beam), named when there are several.
+        for (const summary of positions.summaries) {
+          const axisName = positions.summaries.length > 1 ? ` on axis ${summary.name}` : '';
+          for (const event of summary.modelEvents) {
+            const t = (event.sampleIndex / positions.rateHz).toFixed(6);
+            const what = event.cause === 'radius-change' ? `the mean radius moved by ${(event.value * 100).toFixed(2)} %` : `the radius scatters ${(event.value * 100).toFixed(2)} % RMS`;
+            statusLine.log(
+              event.state === 'raised'
+                ? `${MODEL_WATCH_ALARM}${axisName} at t = ${t} s: the signal left the calibration's model (${what}): recalibrate, or check the source power and alignment`
+                : `${MODEL_WATCH_ALARM}${axisName} cleared at t = ${t} s (${what})`,
+            );
+          }
         }
       },
     },
