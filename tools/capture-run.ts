@@ -464,10 +464,13 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
         (combined ?? pipeline).setRefractiveIndex(index);
       }
       if (combined === null) pipeline.process(block.x, block.y, n, output, events);
-      else {
-        combined.process(block.channels, n, output, events);
-        // Before the harmonic correction moves the phase: the pair as the chain saw it.
-        normalisedPair(output.level, output.unwrappedPhaseRad, n, correctedU, correctedV);
+      else combined.process(block.channels, n, output, events);
+      const analysed = schedule.take(blockIndex++);
+      // The radius analysis runs on the corrected pair: two outputs through the ellipse correction, three or four
+      // power-normalised, taken before the harmonic correction moves the phase (the pair as the chain saw it).
+      if (analysed) {
+        if (combined === null) correction.process(block.x, block.y, correctedU, correctedV, n);
+        else normalisedPair(output.level, output.unwrappedPhaseRad, n, correctedU, correctedV);
       }
       harmonicCorrection?.process(output.unwrappedPhaseRad, n, output.positionM, metresPerRad);
       if (writer !== undefined) {
@@ -493,10 +496,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
       velocity.add(output.velocityMS, n, block.t, block.firstIndex, secondsPerSample);
       figure.add(block.x, block.y, n, combined === null ? null : output);
       estimator?.add(output.unwrappedPhaseRad, n, valid);
-      // The radius analyses run on the corrected pair: two outputs through the ellipse correction, three or four
-      // power-normalised (above).
-      if (combined === null) correction.process(block.x, block.y, correctedU, correctedV, n);
-      if (schedule.take(blockIndex++)) {
+      if (analysed) {
         const raw = rawPhases(rawKernel, block.x, block.y, n, mid, rawLevel, identity);
         beforeError(block.x, block.y, n, raw, output.unwrappedPhaseRad, errorBefore, mid);
         before.add(output.unwrappedPhaseRad, errorBefore, n, valid);
@@ -507,7 +507,8 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
         residual.skip(n);
       }
       const already = watchEvents.length;
-      watch.process(correctedU, correctedV, n, block.firstIndex, watchEvents, valid);
+      // On the chain's level (the corrected radius; for 3-4 outputs the power-normalised one), as the live chain.
+      watch.processRadius(output.level, n, block.firstIndex, watchEvents, valid);
       for (let k = already; k < watchEvents.length; k++) if (watchEvents[k]!.state === 'raised') watchRaised++;
       if (watchEvents.length > MAX_SPANS) watchEvents.length = MAX_SPANS;
       samples += n;

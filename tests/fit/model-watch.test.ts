@@ -2,6 +2,8 @@
 // scatter 3× the fit's residual, at least 1 %), and a ghost beam of weight g adds a radius term g·cos((k−1)φ + θ)
 // whose RMS is g/√2 (Wu & Deslattes, Appl. Opt. 37(28), 1998, published; see docs/references.md). Signals are invented.
 import { describe, expect, it } from 'vitest';
+import fc from 'fast-check';
+import '../support/property-seed.js';
 import { createModelWatch, createRandom, OptionError, type ModelWatchEvent } from '../../src/core/index.js';
 
 function run(radiusAt: (i: number) => number, ghostAt: (i: number) => number, length: number, block = 1000) {
@@ -53,6 +55,63 @@ describe('calibration_stale', () => {
     const { events } = run(() => 1, (i) => (i >= 40_000 ? 0.03 : 0), 100_000);
     expect(events).toHaveLength(1);
     expect(events[0]).toMatchObject({ state: 'raised', cause: 'radius-scatter' });
+  });
+
+  it('decides exactly as the plain test of mean and RMS, sample by sample, with radii hovering at its bounds', () => {
+    // The watch skips the divide and square root unless a cheap test comes within a millionth of a bound; this is
+    // the plain form of the same decisions, written out here as the reference.
+    function plain(radius: Float64Array, windowSamples: number, maxChange: number, maxRms: number): ModelWatchEvent[] {
+      const lambda = 1 - 1 / windowSamples;
+      const events: ModelWatchEvent[] = [];
+      let w = 0, s = 0, q = 0, active = false;
+      let cause: ModelWatchEvent['cause'] = 'radius-change';
+      for (let i = 0; i < radius.length; i++) {
+        const r = radius[i]!;
+        w = lambda * w + 1;
+        s = lambda * s + r;
+        q = lambda * q + r * r;
+        if (w < windowSamples / 2) continue;
+        const mean = s / w;
+        const rms = Math.sqrt(Math.max(0, q / w - mean * mean));
+        const change = Math.abs(mean - 1);
+        if (!active) {
+          if (change > maxChange || rms > maxRms) {
+            active = true;
+            cause = change > maxChange ? 'radius-change' : 'radius-scatter';
+            events.push({ sampleIndex: i, state: 'raised', cause, value: cause === 'radius-change' ? mean - 1 : rms });
+          }
+        } else if (change < 0.8 * maxChange && rms < 0.8 * maxRms) {
+          active = false;
+          events.push({ sampleIndex: i, state: 'cleared', cause, value: cause === 'radius-change' ? mean - 1 : rms });
+        }
+      }
+      return events;
+    }
+    fc.assert(
+      fc.property(
+        fc.integer({ min: 16, max: 256 }),
+        fc.double({ min: 0.01, max: 0.2, noNaN: true }),
+        fc.double({ min: 0.005, max: 0.05, noNaN: true }),
+        fc.array(fc.tuple(fc.double({ min: -1.3, max: 1.3, noNaN: true }), fc.double({ min: 0, max: 1.5, noNaN: true }), fc.integer({ min: 1, max: 400 })), { minLength: 1, maxLength: 12 }),
+        fc.integer({ min: 1, max: 500 }),
+        (windowSamples, maxRadiusChange, maxRadiusRms, stretches, block) => {
+          // Stretches whose mean change and scatter sit at chosen fractions of the bounds (1 = on the bound).
+          const values: number[] = [];
+          for (const [changeFraction, scatterFraction, length] of stretches) {
+            for (let k = 0; k < length; k++) values.push(1 + changeFraction * maxRadiusChange + (k % 2 === 0 ? 1 : -1) * scatterFraction * maxRadiusRms);
+          }
+          const radius = Float64Array.from(values);
+          const watch = createModelWatch({ windowSamples, maxRadiusChange, maxRadiusRms });
+          const events: ModelWatchEvent[] = [];
+          for (let start = 0; start < radius.length; start += block) {
+            const chunk = radius.subarray(start, Math.min(radius.length, start + block));
+            watch.processRadius(chunk, chunk.length, start, events);
+          }
+          expect(events).toEqual(plain(radius, windowSamples, maxRadiusChange, maxRadiusRms));
+        },
+      ),
+      { numRuns: 300 },
+    );
   });
 
   it('checks its options once', () => {

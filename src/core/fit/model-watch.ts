@@ -61,6 +61,11 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
   const lambda = 1 - 1 / windowSamples;
   // Clears only well inside the bound, so a signal at the bound does not chatter.
   const clearFraction = 0.8;
+  // The cheap tests' margins (see `watch`): a relative millionth, far beyond their rounding (~1e-12 of the bound).
+  const changeSure = maxRadiusChange * (1 - 1e-6);
+  const spreadSure = maxRadiusRms * maxRadiusRms * (1 - 1e-6);
+  const clearChangeSure = clearFraction * maxRadiusChange * (1 + 1e-6);
+  const clearSpreadSure = (clearFraction * maxRadiusRms) ** 2 * (1 + 1e-6);
   let weight = 0;
   let sum = 0;
   let squares = 0;
@@ -90,6 +95,11 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
       q = lambda * q + r * r;
       // Judge only once the memory is mostly filled.
       if (w < windowSamples / 2) continue;
+      // Without a divide or a square root: |mean − 1|·w = |s − w| and RMS²·w² = q·w − s². Only where either comes
+      // within a millionth of its bound does the exact test below decide, so the decisions are the exact test's.
+      const changeW = s > w ? s - w : w - s;
+      const spreadW = q * w - s * s;
+      if (!active ? changeW < changeSure * w && spreadW < spreadSure * w * w : changeW > clearChangeSure * w || spreadW > clearSpreadSure * w * w) continue;
       const mean = s / w;
       const rms = Math.sqrt(Math.max(0, q / w - mean * mean));
       const change = Math.abs(mean - 1);
