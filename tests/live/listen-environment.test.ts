@@ -29,6 +29,26 @@ function emulatorOf() {
   });
 }
 
+/** Air before and after the reading both tests give (invented: 20 °C, 101 325 Pa → 35 °C, 80 kPa; 50 % RH). */
+const INDEX_BEFORE = refractiveIndexOfAir({ temperatureC: 20, pressurePa: 101325, relativeHumidityPct: 50, vacuumWavelengthM: WAVELENGTH_M }).n;
+const INDEX_AFTER = refractiveIndexOfAir({ temperatureC: 35, pressurePa: 80000, relativeHumidityPct: 50, vacuumWavelengthM: WAVELENGTH_M }).n;
+
+/**
+ * The largest |row − expected| of a result file: the count is the motion's in vacuum, the reading it divided by the
+ * index in force, INDEX_BEFORE up to sample `stepSample` and INDEX_AFTER from there.
+ */
+function worstAgainstIndexStep(rowsPath: string, truth: readonly number[], stepSample: number, rowCount: number): number {
+  const rows = readRows(rowsPath);
+  expect(rows.columns.t).toHaveLength(rowCount);
+  let worst = 0;
+  rows.columns.t!.forEach((t, r) => {
+    const index = Math.round(t * RATE);
+    const expected = (truth[index]! - truth[0]!) / (index < stepSample ? INDEX_BEFORE : INDEX_AFTER);
+    worst = Math.max(worst, Math.abs(rows.columns.position_m![r]! - expected));
+  });
+  return worst;
+}
+
 /** Writes `count` frames of the emulator to the pty, keeping the true positions. */
 function framesTo(firmware: string, emulator: ReturnType<typeof createFrameEmulator>, truth: number[], count: number): void {
   const fd = openSync(firmware, 'w');
@@ -77,20 +97,9 @@ describe('listen --environment-log', () => {
     listen.child.kill('SIGINT');
     expect(await finished(listen), listen.output.stderr).toBe(0);
 
-    const before = refractiveIndexOfAir({ temperatureC: 20, pressurePa: 101325, relativeHumidityPct: 50, vacuumWavelengthM: WAVELENGTH_M }).n;
-    const after = refractiveIndexOfAir({ temperatureC: 35, pressurePa: 80000, relativeHumidityPct: 50, vacuumWavelengthM: WAVELENGTH_M }).n;
     // The step must matter here: (1/after − 1/before) over 320 µm is about 22 nm.
-    expect(Math.abs(1 / after - 1 / before) * VELOCITY * 0.04).toBeGreaterThan(5 * TOLERANCE_M);
-    const rows = readRows(join(dir, 'air.csv.rows.csv'));
-    expect(rows.columns.t).toHaveLength(80 * SPF);
-    let worst = 0;
-    rows.columns.t!.forEach((t, r) => {
-      const index = Math.round(t * RATE);
-      // The count is the motion's in vacuum; the reading is it divided by the index in force.
-      const expected = (truth[index]! - truth[0]!) / (index < 40 * SPF ? before : after);
-      worst = Math.max(worst, Math.abs(rows.columns.position_m![r]! - expected));
-    });
-    expect(worst).toBeLessThan(TOLERANCE_M);
+    expect(Math.abs(1 / INDEX_AFTER - 1 / INDEX_BEFORE) * VELOCITY * 0.04).toBeGreaterThan(5 * TOLERANCE_M);
+    expect(worstAgainstIndexStep(join(dir, 'air.csv.rows.csv'), truth, 40 * SPF, 80 * SPF)).toBeLessThan(TOLERANCE_M);
     const summary = readJson<{ environmentLog: { readings: number; lastReadingS: number; error: string | null } }>(join(dir, 'air.json'));
     expect(summary.environmentLog).toMatchObject({ readings: 3, lastReadingS: 0.04, error: null });
   });
@@ -153,18 +162,8 @@ describe('listen --environment-topic', () => {
       expect(await finished(listen), listen.output.stderr).toBe(0);
       expect(listen.output.stderr).toMatch(/environment topic lab\/air: 1 reading\(s\) taken, 1 refused; 1 broker outage\(s\), [\d.]+ s without the broker: the latest reading held meanwhile/);
 
-      const before = refractiveIndexOfAir({ temperatureC: 20, pressurePa: 101325, relativeHumidityPct: 50, vacuumWavelengthM: WAVELENGTH_M }).n;
-      const after = refractiveIndexOfAir({ temperatureC: 35, pressurePa: 80000, relativeHumidityPct: 50, vacuumWavelengthM: WAVELENGTH_M }).n;
-      const rows = readRows(join(dir, 'rows.csv'));
-      expect(rows.columns.t).toHaveLength(100 * SPF);
-      let worst = 0;
-      rows.columns.t!.forEach((t, r) => {
-        const index = Math.round(t * RATE);
-        // The reading arrived after frame 40 was processed and before frame 41 was written.
-        const expected = (truth[index]! - truth[0]!) / (index < 40 * SPF ? before : after);
-        worst = Math.max(worst, Math.abs(rows.columns.position_m![r]! - expected));
-      });
-      expect(worst).toBeLessThan(TOLERANCE_M);
+      // The reading arrived after frame 40 was processed and before frame 41 was written.
+      expect(worstAgainstIndexStep(join(dir, 'rows.csv'), truth, 40 * SPF, 100 * SPF)).toBeLessThan(TOLERANCE_M);
       const summary = readJson<{ environmentTopic: Record<string, unknown> }>(join(dir, 'summary.json'));
       expect(summary.environmentTopic).toMatchObject({ topic: 'lab/air', readings: 1, rejected: 1, connected: false, connections: 1, outages: 1, latest: { temperatureC: 35, pressurePa: 80000, relativeHumidityPct: 50 } });
       // It took effect at the latest block before it came: within frame 40 or before.
