@@ -4,7 +4,7 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import '../support/property-seed.js';
-import { createModelWatch, createRandom, OptionError, type ModelWatchEvent } from '../../src/core/index.js';
+import { createModelWatch, createRandom, MODEL_WATCH_CHUNK_SAMPLES, OptionError, type ModelWatchEvent } from '../../src/core/index.js';
 
 function run(radiusAt: (i: number) => number, ghostAt: (i: number) => number, length: number, block = 1000) {
   const watch = createModelWatch({ fitResidualRms: 0.002 });
@@ -57,19 +57,30 @@ describe('calibration_stale', () => {
     expect(events[0]).toMatchObject({ state: 'raised', cause: 'radius-scatter' });
   });
 
-  it('decides exactly as the plain test of mean and RMS, sample by sample, with radii hovering at its bounds', () => {
-    // The watch skips the divide and square root unless a cheap test comes within a millionth of a bound; this is
-    // the plain form of the same decisions, written out here as the reference.
-    function plain(radius: Float64Array, windowSamples: number, maxChange: number, maxRms: number): ModelWatchEvent[] {
-      const lambda = 1 - 1 / windowSamples;
+  it('decides exactly as the plain form of its definition, chunk by chunk, with radii hovering at its bounds and samples left out', () => {
+    // The definition written out plainly as the reference: valid radii taken 16 at a time into exponentially
+    // forgetting sums, the alarm judged on each chunk's last sample from the mean and RMS. The watch under test
+    // carries partial chunks across blocks of any size and skips masked and non-finite samples.
+    function plain(radius: Float64Array, use: Uint8Array, windowSamples: number, maxChange: number, maxRms: number): ModelWatchEvent[] {
+      const decay = (1 - 1 / windowSamples) ** MODEL_WATCH_CHUNK_SAMPLES;
       const events: ModelWatchEvent[] = [];
       let w = 0, s = 0, q = 0, active = false;
       let cause: ModelWatchEvent['cause'] = 'radius-change';
+      const chunk: number[] = [];
       for (let i = 0; i < radius.length; i++) {
         const r = radius[i]!;
-        w = lambda * w + 1;
-        s = lambda * s + r;
-        q = lambda * q + r * r;
+        if (!use[i] || !Number.isFinite(r) || r <= 0) continue;
+        chunk.push(r);
+        if (chunk.length < MODEL_WATCH_CHUNK_SAMPLES) continue;
+        let cs = 0, cq = 0;
+        for (const value of chunk) {
+          cs += value;
+          cq += value * value;
+        }
+        chunk.length = 0;
+        w = decay * w + MODEL_WATCH_CHUNK_SAMPLES;
+        s = decay * s + cs;
+        q = decay * q + cq;
         if (w < windowSamples / 2) continue;
         const mean = s / w;
         const rms = Math.sqrt(Math.max(0, q / w - mean * mean));
@@ -94,24 +105,49 @@ describe('calibration_stale', () => {
         fc.double({ min: 0.005, max: 0.05, noNaN: true }),
         fc.array(fc.tuple(fc.double({ min: -1.3, max: 1.3, noNaN: true }), fc.double({ min: 0, max: 1.5, noNaN: true }), fc.integer({ min: 1, max: 400 })), { minLength: 1, maxLength: 12 }),
         fc.integer({ min: 1, max: 500 }),
-        (windowSamples, maxRadiusChange, maxRadiusRms, stretches, block) => {
-          // Stretches whose mean change and scatter sit at chosen fractions of the bounds (1 = on the bound).
+        fc.integer({ min: 0, max: 40 }),
+        (windowSamples, maxRadiusChange, maxRadiusRms, stretches, block, holeEvery) => {
+          // Stretches whose mean change and scatter sit at chosen fractions of the bounds (1 = on the bound); with
+          // holeEvery > 0, every holeEvery-th sample masked and every (holeEvery + 3)-th not finite.
           const values: number[] = [];
           for (const [changeFraction, scatterFraction, length] of stretches) {
             for (let k = 0; k < length; k++) values.push(1 + changeFraction * maxRadiusChange + (k % 2 === 0 ? 1 : -1) * scatterFraction * maxRadiusRms);
           }
-          const radius = Float64Array.from(values);
+          const radius = Float64Array.from(values, (r, i) => (holeEvery > 0 && i % (holeEvery + 3) === 0 ? Number.NaN : r));
+          const use = Uint8Array.from(values, (_, i) => (holeEvery > 0 && i % holeEvery === 0 ? 0 : 1));
           const watch = createModelWatch({ windowSamples, maxRadiusChange, maxRadiusRms });
           const events: ModelWatchEvent[] = [];
           for (let start = 0; start < radius.length; start += block) {
-            const chunk = radius.subarray(start, Math.min(radius.length, start + block));
-            watch.processRadius(chunk, chunk.length, start, events);
+            const end = Math.min(radius.length, start + block);
+            watch.processRadius(radius.subarray(start, end), end - start, start, events, use.subarray(start, end));
           }
-          expect(events).toEqual(plain(radius, windowSamples, maxRadiusChange, maxRadiusRms));
+          expect(events).toEqual(plain(radius, use, windowSamples, maxRadiusChange, maxRadiusRms));
         },
       ),
       { numRuns: 300 },
     );
+  });
+
+  it('reads the same from (u, v) as from their radii, and starts afresh after reset', () => {
+    const random = createRandom(5);
+    const length = 20_000;
+    const u = new Float64Array(length);
+    const v = new Float64Array(length);
+    const radius = new Float64Array(length);
+    for (let i = 0; i < length; i++) {
+      const r = (i < 10_000 ? 1 : 0.9) + 0.004 * random.gaussian();
+      u[i] = r * Math.cos(i / 30);
+      v[i] = r * Math.sin(i / 30);
+      radius[i] = Math.sqrt(u[i]! * u[i]! + v[i]! * v[i]!);
+    }
+    const watch = createModelWatch();
+    const fromPair: ModelWatchEvent[] = [];
+    watch.process(u, v, length, 0, fromPair);
+    expect(fromPair.map((e) => e.state)).toEqual(['raised']);
+    watch.reset();
+    const fromRadius: ModelWatchEvent[] = [];
+    watch.processRadius(radius, length, 0, fromRadius);
+    expect(fromRadius).toEqual(fromPair);
   });
 
   it('checks its options once', () => {

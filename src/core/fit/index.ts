@@ -17,7 +17,7 @@ export { createResidualAnalyzer, RESIDUAL_ORDERS, residualMeaning } from './resi
 export type { RadiusOverTime, ResidualAnalyzer, ResidualAnalyzerOptions, ResidualMeaning, ResidualSummary } from './residual.js';
 export { createHarmonicCorrection, createHarmonicEstimator, MAX_HARMONIC_ORDER } from './harmonics.js';
 export type { HarmonicCorrection, HarmonicEstimate, HarmonicEstimator, HarmonicEstimatorOptions, PhaseHarmonics } from './harmonics.js';
-export { createModelWatch, MODEL_WATCH_ALARM } from './model-watch.js';
+export { createModelWatch, MODEL_WATCH_ALARM, MODEL_WATCH_CHUNK_SAMPLES } from './model-watch.js';
 export type { ModelWatch, ModelWatchEvent, ModelWatchOptions } from './model-watch.js';
 export { createDetectorFit, createTwoPassFit } from './two-pass.js';
 export type { DetectorFit, DetectorFitResult, TwoPassFit } from './two-pass.js';

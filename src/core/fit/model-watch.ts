@@ -11,7 +11,7 @@
 import { integerInRange, numberInRange } from '../options.js';
 
 export interface ModelWatchOptions {
-  /** Samples the running means remember (exponential forgetting). Default 4096; integer 16..2^31. */
+  /** Samples the running means remember (exponential forgetting, taken in MODEL_WATCH_CHUNK_SAMPLES at a time). Default 4096; integer 16..2^31. */
   readonly windowSamples?: number;
   /** Largest accepted |mean radius − 1| over the window, relative to the calibrated radius. Default 0.05; (0, 1]. */
   readonly maxRadiusChange?: number;
@@ -52,77 +52,94 @@ export interface ModelWatch {
 /** The alarm's name in text output. */
 export const MODEL_WATCH_ALARM = 'calibration_stale';
 
+/**
+ * Valid samples the running means take in at once, and how often the alarm is judged: per sample, the exponential
+ * recurrence is a chain of dependent multiply-adds that cost a replay more than the rest of its analyses; summed in
+ * chunks it is a few additions a sample. An event falls on the last sample of its chunk, at most 15 samples after
+ * the sample-by-sample form would put it, against a memory of thousands.
+ */
+export const MODEL_WATCH_CHUNK_SAMPLES = 16;
+
 export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
   const windowSamples = integerInRange('windowSamples', options.windowSamples ?? 4096, 16, 2 ** 31);
   const maxRadiusChange = numberInRange('maxRadiusChange', options.maxRadiusChange ?? 0.05, 0, 1, true);
   const fitResidual = options.fitResidualRms === undefined ? 0 : numberInRange('fitResidualRms', options.fitResidualRms, 0, 1);
   const maxRadiusRms = numberInRange('maxRadiusRms', options.maxRadiusRms ?? Math.max(0.01, 3 * fitResidual), 0, 1, true);
   const resolved = Object.freeze({ windowSamples, maxRadiusChange, maxRadiusRms });
-  const lambda = 1 - 1 / windowSamples;
+  const chunk = MODEL_WATCH_CHUNK_SAMPLES;
+  // Each sample of the memory decays by 1 − 1/windowSamples per sample that follows it, applied a chunk at a time.
+  const decay = (1 - 1 / windowSamples) ** chunk;
   // Clears only well inside the bound, so a signal at the bound does not chatter.
   const clearFraction = 0.8;
-  // The cheap tests' margins (see `watch`): a relative millionth, far beyond their rounding (~1e-12 of the bound).
-  const changeSure = maxRadiusChange * (1 - 1e-6);
-  const spreadSure = maxRadiusRms * maxRadiusRms * (1 - 1e-6);
-  const clearChangeSure = clearFraction * maxRadiusChange * (1 + 1e-6);
-  const clearSpreadSure = (clearFraction * maxRadiusRms) ** 2 * (1 + 1e-6);
   let weight = 0;
   let sum = 0;
   let squares = 0;
+  // The chunk being filled: its valid samples so far, their radii's sum and sum of squares.
+  const pending = new Float64Array(3);
   let active = false;
   let cause: ModelWatchEvent['cause'] = 'radius-change';
 
   function process(u: ArrayLike<number>, v: ArrayLike<number>, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void {
-    watch(u, v, false, length, firstIndex, events, use);
+    let n = pending[0]!, cs = pending[1]!, cq = pending[2]!;
+    for (let i = 0; i < length; i++) {
+      const ui = u[i]!;
+      const vi = v[i]!;
+      const r = Math.sqrt(ui * ui + vi * vi);
+      if ((use !== undefined && !use[i]) || !(r > 0 && r < Infinity)) continue;
+      cs += r;
+      cq += r * r;
+      if (++n < chunk) continue;
+      takeChunk(cs, cq, firstIndex + i, events);
+      n = cs = cq = 0;
+    }
+    pending[0] = n;
+    pending[1] = cs;
+    pending[2] = cq;
   }
 
   function processRadius(radius: ArrayLike<number>, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void {
-    watch(radius, radius, true, length, firstIndex, events, use);
+    let n = pending[0]!, cs = pending[1]!, cq = pending[2]!;
+    for (let i = 0; i < length; i++) {
+      const r = radius[i]!;
+      if ((use !== undefined && !use[i]) || !(r > 0 && r < Infinity)) continue;
+      cs += r;
+      cq += r * r;
+      if (++n < chunk) continue;
+      takeChunk(cs, cq, firstIndex + i, events);
+      n = cs = cq = 0;
+    }
+    pending[0] = n;
+    pending[1] = cs;
+    pending[2] = cq;
   }
 
-  /** The running means over a block, from (u, v) or from radii in `a` (`radiusGiven`), and the alarm's state. */
-  function watch(a: ArrayLike<number>, b: ArrayLike<number>, radiusGiven: boolean, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void {
-    // `- 0` (an identity) types them as numbers: a loop that starts from closure variables kept them boxed and
-    // allocated a heap number per sample (48 bytes a sample, 16 % of a replay's time in GC).
-    let w = weight - 0, s = sum - 0, q = squares - 0;
-    for (let i = 0; i < length; i++) {
-      const ai = a[i]!;
-      const bi = b[i]!;
-      const r = radiusGiven ? ai : Math.sqrt(ai * ai + bi * bi);
-      if ((use !== undefined && !use[i]) || !(r > 0 && r < Infinity)) continue;
-      w = lambda * w + 1;
-      s = lambda * s + r;
-      q = lambda * q + r * r;
-      // Judge only once the memory is mostly filled.
-      if (w < windowSamples / 2) continue;
-      // Without a divide or a square root: |mean − 1|·w = |s − w| and RMS²·w² = q·w − s². Only where either comes
-      // within a millionth of its bound does the exact test below decide, so the decisions are the exact test's.
-      const changeW = s > w ? s - w : w - s;
-      const spreadW = q * w - s * s;
-      if (!active ? changeW < changeSure * w && spreadW < spreadSure * w * w : changeW > clearChangeSure * w || spreadW > clearSpreadSure * w * w) continue;
-      const mean = s / w;
-      const rms = Math.sqrt(Math.max(0, q / w - mean * mean));
-      const change = Math.abs(mean - 1);
-      if (!active) {
-        if (change > maxRadiusChange || rms > maxRadiusRms) {
-          active = true;
-          cause = change > maxRadiusChange ? 'radius-change' : 'radius-scatter';
-          events.push({ sampleIndex: firstIndex + i, state: 'raised', cause, value: cause === 'radius-change' ? mean - 1 : rms });
-        }
-      } else if (change < clearFraction * maxRadiusChange && rms < clearFraction * maxRadiusRms) {
-        active = false;
-        events.push({ sampleIndex: firstIndex + i, state: 'cleared', cause, value: cause === 'radius-change' ? mean - 1 : rms });
+  /** A full chunk's sums into the running means, and the alarm's state judged at its last sample. */
+  function takeChunk(chunkSum: number, chunkSquares: number, sampleIndex: number, events: ModelWatchEvent[]): void {
+    weight = decay * weight + chunk;
+    sum = decay * sum + chunkSum;
+    squares = decay * squares + chunkSquares;
+    // Judge only once the memory is mostly filled.
+    if (weight < windowSamples / 2) return;
+    const mean = sum / weight;
+    const rms = Math.sqrt(Math.max(0, squares / weight - mean * mean));
+    const change = Math.abs(mean - 1);
+    if (!active) {
+      if (change > maxRadiusChange || rms > maxRadiusRms) {
+        active = true;
+        cause = change > maxRadiusChange ? 'radius-change' : 'radius-scatter';
+        events.push({ sampleIndex, state: 'raised', cause, value: cause === 'radius-change' ? mean - 1 : rms });
       }
+    } else if (change < clearFraction * maxRadiusChange && rms < clearFraction * maxRadiusRms) {
+      active = false;
+      events.push({ sampleIndex, state: 'cleared', cause, value: cause === 'radius-change' ? mean - 1 : rms });
     }
-    weight = w;
-    sum = s;
-    squares = q;
   }
 
   function reset(): void {
     weight = 0;
     sum = 0;
     squares = 0;
+    pending.fill(0);
     active = false;
   }
 
