@@ -66,15 +66,28 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
   const extraBuffers = extraChannels.map(() => new Float64Array(blockSize));
   let pendingError: Error | null = null;
 
-  /** Keeps a partial frame, reads the next chunk after it; false when the data chunk is used up. */
+  // The next chunk is read while this one is decoded (the read runs on libuv's thread pool), then copied in.
+  const staging = Buffer.allocUnsafe(options.readChunkBytes);
+  let ahead: Promise<number> | null = null;
+
+  function readAhead(): void {
+    const wanted = Math.min(options.readChunkBytes, dataEnd - filePosition);
+    ahead = wanted === 0 ? Promise.resolve(0) : handle.read(staging, 0, wanted, filePosition).then((result) => result.bytesRead);
+    // Awaited (and so thrown) by the next refill; this only keeps a pass that ends early from leaving it unhandled.
+    ahead.catch(() => undefined);
+  }
+
+  /** Keeps a partial frame, takes the next chunk after it; false when the data chunk is used up. */
   async function refill(): Promise<boolean> {
     if (reachedEnd) return false;
     const carried = bufferEnd - bufferStart;
     buffer.copy(buffer, 0, bufferStart, bufferEnd);
     bufferStart = 0;
     bufferEnd = carried;
-    const wanted = Math.min(options.readChunkBytes, dataEnd - filePosition);
-    const { bytesRead } = wanted === 0 ? { bytesRead: 0 } : await handle.read(buffer, bufferEnd, wanted, filePosition);
+    if (ahead === null) readAhead();
+    const bytesRead = await ahead!;
+    ahead = null;
+    staging.copy(buffer, bufferEnd, 0, bytesRead);
     bufferEnd += bytesRead;
     filePosition += bytesRead;
     if (bytesRead === 0) {
@@ -95,6 +108,7 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
       }
       return false;
     }
+    readAhead();
     return true;
   }
 
