@@ -20,6 +20,23 @@ export const captureOptionHelp = `Capture options:
   --time-column NAME|N  CSV time column in seconds (default: t when present); "none" ignores it
   --rate-hz R           sample rate, Hz, for CSV files without a t column or rate_hz metadata`;
 
+export const analysisThreadOptionSpecs = {
+  'analysis-thread': { type: 'string' },
+} as const;
+
+export const analysisThreadOptionHelp = `  --analysis-thread auto|on|off
+                         run the analyses (periodic error, radius residual, calibration_stale, the report's
+                         series) on a second thread beside the pipeline: the same results, sooner on two cores
+                         (default auto: on for captures of 2^22 samples or more on a machine with two cores)`;
+
+/** --analysis-thread: true, false or 'auto'. */
+export function analysisThreadOf(values: Record<string, string | boolean | undefined>): boolean | 'auto' {
+  const value = (values['analysis-thread'] as string | undefined) ?? 'auto';
+  if (value === 'auto') return 'auto';
+  if (value === 'on' || value === 'off') return value === 'on';
+  throw new UsageError(`--analysis-thread takes auto, on or off (got "${value}")`);
+}
+
 export const measureOptionSpecs = {
   'wavelength-nm': { type: 'string' },
   fold: { type: 'string' },

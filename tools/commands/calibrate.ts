@@ -3,7 +3,17 @@ import { writeFileAtomically } from '../../src/io/capture/index.js';
 import { checkFiles, fileHash, parseCommandLine, numberOption, say, UsageError, type Command } from '../cli-kit.js';
 import { fitCapture, runCapture } from '../capture-run.js';
 import { calibrationFileOf, HARMONIC_ASSUMPTION } from '../calibration-file.js';
-import { captureOptionHelp, captureOptionSpecs, captureOptionsOf, lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
+import {
+  analysisThreadOf,
+  analysisThreadOptionHelp,
+  analysisThreadOptionSpecs,
+  captureOptionHelp,
+  captureOptionSpecs,
+  captureOptionsOf,
+  lengthScaleOf,
+  measureOptionHelp,
+  measureOptionSpecs,
+} from '../measure-options.js';
 import { createProgress } from '../progress.js';
 import { formatCalibration, formatChannels, formatPeriodicError, formatPower, formatResidual, writeReportFile } from '../report.js';
 import {
@@ -45,6 +55,7 @@ Options:
 ${measureOptionHelp}
   (calibrate uses them only to express the periodic error in nm; defaults 632.9908 nm and fold 2)
 ${captureOptionHelp}
+${analysisThreadOptionHelp}
 
 Periodic error "before" is the phase error of the uncorrected signals (ADC mid-scale removed only) against
 the corrected phase; it is "not applicable" for unipolar (DC-coupled) signals, whose zero lies outside the
@@ -68,6 +79,7 @@ async function run(argv: readonly string[]): Promise<number> {
       quiet: { type: 'boolean' },
       ...measureOptionSpecs,
       ...captureOptionSpecs,
+  ...analysisThreadOptionSpecs,
     },
     true,
   );
@@ -77,6 +89,7 @@ async function run(argv: readonly string[]): Promise<number> {
   const quiet = values.quiet === true;
   const scale = lengthScaleOf(values, { wavelengthNm: 632.9908, fold: 2 });
   const open = captureOptionsOf(values);
+  const analysisThread = analysisThreadOf(values);
   const fitOptions = fitOptionsOf(values);
   const harmonicOrders = numberOption('harmonics', values.harmonics);
   if (harmonicOrders !== undefined && !(Number.isInteger(harmonicOrders) && harmonicOrders >= 1 && harmonicOrders <= MAX_HARMONIC_ORDER)) {
@@ -96,6 +109,7 @@ async function run(argv: readonly string[]): Promise<number> {
   const settings = { ...scale, refractiveIndex: scale.refractiveIndex ?? 1 };
   const notes = [...scale.notes, ...(scale.refractiveIndex === undefined ? ['periodic error in nm at n = 1 (vacuum wavelength)'] : [])];
   const result = await runCapture(path, {
+      analysisThread,
     open,
     calibration: fit.calibration,
     ...(channels === undefined ? {} : { channels }),

@@ -9,7 +9,17 @@ import type { ResultBlock, ResultWriter } from '../../src/io/results/index.js';
 import { checkFiles, fileHash, formatNumber, LASER_CAUTION, numberOption, parseCommandLine, say as sayOnStderr, UsageError, type Command } from '../cli-kit.js';
 import { fitCapture, runCapture } from '../capture-run.js';
 import { readCalibrationFitResidual, readCalibrationHarmonics, readCalibrationLayout } from '../calibration-file.js';
-import { captureOptionHelp, captureOptionSpecs, captureOptionsOf, lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
+import {
+  analysisThreadOf,
+  analysisThreadOptionHelp,
+  analysisThreadOptionSpecs,
+  captureOptionHelp,
+  captureOptionSpecs,
+  captureOptionsOf,
+  lengthScaleOf,
+  measureOptionHelp,
+  measureOptionSpecs,
+} from '../measure-options.js';
 import { createProgress } from '../progress.js';
 import { formatModelWatch, formatPeriodicError, formatPower, formatTruthError, writeReportFile, type PositionSpectrum } from '../report.js';
 import { budgetOf, environmentLogIndex, environmentOf, environmentOptionHelp, environmentOptionSpecs, equationOf, withConfig } from '../environment-options.js';
@@ -41,6 +51,7 @@ Options:
 ${measureOptionHelp}
 ${environmentOptionHelp}
 ${captureOptionHelp}
+${analysisThreadOptionHelp}
 
 The summary gives the final reading with its combined and expanded uncertainty (GUM) when the environment is
 given; the report holds the whole budget.
@@ -59,6 +70,7 @@ const optionSpecs = {
   ...measureOptionSpecs,
   ...environmentOptionSpecs,
   ...captureOptionSpecs,
+  ...analysisThreadOptionSpecs,
 } as const;
 
 /** A result writer that also hands every block to `observe` (truth comparison, spectrum) before writing it. */
@@ -164,6 +176,7 @@ async function run(argv: readonly string[]): Promise<number> {
     );
   }
   let open = captureOptionsOf(values);
+  const analysisThread = analysisThreadOf(values);
   const progress = createProgress(quiet);
   const say = (lines: string | readonly string[]) => {
     if (!quiet) sayOnStderr(lines);
@@ -231,6 +244,7 @@ async function run(argv: readonly string[]): Promise<number> {
       await compare?.(block);
     });
     result = await runCapture(path, {
+      analysisThread,
       open,
       calibration,
       ...(channels === undefined ? {} : { channels }),

@@ -1,0 +1,87 @@
+// The capture analyses on a worker thread (--analysis-thread): the same results as in line, to the last bit, for
+// two outputs with alarms and a harmonic correction, and for three outputs with a time column, a correction and a
+// schedule that leaves blocks out; a failure inside the worker reaches the caller. The check value is the in-line
+// run itself. Captures invented: simulate's scenario, and tests/support/detector-outputs.ts.
+// The worker runs the compiled tools (dist/tools, built by the test command before the tests).
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve } from 'node:path';
+import { pathToFileURL } from 'node:url';
+import { fringetally } from './cli.js';
+import { detectorOutputs, UNBALANCED_THREE, wanderingPhase } from '../support/detector-outputs.js';
+import type { RunOptions, RunResult } from '../../tools/capture-run.js';
+import { createProgress } from '../../tools/progress.js';
+
+type RunCapture = (path: string, options: RunOptions) => Promise<RunResult>;
+let runCapture: RunCapture;
+let dir = '';
+const settings = { wavelengthM: 632.9908e-9, fold: 2, refractiveIndex: 1 };
+const common = ['--wavelength-nm', '632.9908', '--fold', '2'];
+
+beforeAll(async () => {
+  ({ runCapture } = (await import(pathToFileURL(resolve('dist/tools/capture-run.js')).href)) as { runCapture: RunCapture });
+  dir = mkdtempSync(join(tmpdir(), 'fringetally-thread-'));
+  const simulated = await fringetally(
+    ['simulate', '--out', 'two.wav', '--duration-s', '0.06', '--interrupt', '0.02:0.002', '--overspeed', '0.04:0.001:0.3', '--quiet'],
+    dir,
+  );
+  expect(simulated.code, simulated.stderr).toBe(0);
+  // Three outputs of a drifting source, with times: 30 001 samples, so the last block is short.
+  const n = 30_001;
+  const phase = wanderingPhase(n, 40);
+  const { channels } = detectorOutputs(UNBALANCED_THREE, phase, { power: (i) => 1 + 0.05 * Math.sin((2 * Math.PI * i) / n), noiseRms: 2e-4 });
+  const rows = ['t,a,b,c', ...Array.from(phase, (_, i) => `${(i * 1e-4).toFixed(4)},${channels.map((channel) => channel[i]!.toFixed(6)).join(',')}`)];
+  writeFileSync(join(dir, 'three.csv'), rows.join('\n') + '\n');
+});
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+const both = async (path: string, options: Omit<RunOptions, 'analysisThread' | 'progress' | 'settings'>) => {
+  const run = (analysisThread: boolean) => runCapture(join(dir, path), { ...options, settings, progress: createProgress(true), analysisThread });
+  return { inline: await run(false), threaded: await run(true) };
+};
+
+describe('analyses on a worker thread', () => {
+  it('two outputs with alarms and a harmonic correction: every result the same as in line', async () => {
+    // simulate's ellipse with amplitudes 10 % too large: the mean radius reads 0.91, calibration_stale is raised.
+    const calibration = { offsetX: 800, offsetY: -500, amplitudeX: 13200, amplitudeY: 11880, phaseErrorRad: 0.06 };
+    const { inline, threaded } = await both('two.wav', { open: {}, calibration, harmonics: { cos: [0.001, 0.0005], sin: [-0.0007, 0] } });
+    expect(inline.alarmCounts.lowSignal).toBeGreaterThan(0);
+    expect(inline.modelWatch.raised).toBeGreaterThan(0);
+    expect(inline.after.summary.samples).toBeGreaterThan(0);
+    expect(threaded).toEqual(inline);
+  });
+
+  it('three outputs with times, a harmonic correction and blocks left out: every result the same as in line', async () => {
+    const { inline, threaded } = await both('three.csv', {
+      open: { channels: ['a', 'b', 'c'] },
+      calibration: { offsetX: 0, offsetY: 0, amplitudeX: 1, amplitudeY: 1, phaseErrorRad: 0 },
+      channels: UNBALANCED_THREE,
+      harmonics: { cos: [0.002], sin: [0.001] },
+      analysisBudgetSamples: 2 * 4096,
+    });
+    expect(inline.analysedEvery).toBe(4);
+    expect(inline.power).not.toBeNull();
+    expect(inline.report.position.t.at(-1)).toBeGreaterThan(2.9); // times from the t column (0.1 ms a sample)
+    expect(threaded).toEqual(inline);
+  });
+
+  it('a failure inside the worker reaches the caller, named', async () => {
+    const options = { open: {}, calibration: { offsetX: 0, offsetY: 0, amplitudeX: 1, amplitudeY: 1, phaseErrorRad: 0 }, settings, modelWatch: { windowSamples: 3 } };
+    await expect(runCapture(join(dir, 'two.wav'), { ...options, progress: createProgress(true), analysisThread: false })).rejects.toThrow(/windowSamples/);
+    await expect(runCapture(join(dir, 'two.wav'), { ...options, progress: createProgress(true), analysisThread: true })).rejects.toThrow(/capture analyses: .*windowSamples/);
+  });
+
+  it('replay --analysis-thread on and off write the same rows and summary; a wrong value is named', async () => {
+    for (const mode of ['on', 'off']) {
+      const replayed = await fringetally(['replay', 'two.wav', ...common, '--out', `two-${mode}.csv`, '--every', '7', '--analysis-thread', mode], dir);
+      expect(replayed.code, replayed.stderr).toBe(0);
+      writeFileSync(join(dir, `two-${mode}.txt`), replayed.stderr);
+    }
+    expect(readFileSync(join(dir, 'two-on.csv'), 'utf8')).toBe(readFileSync(join(dir, 'two-off.csv'), 'utf8'));
+    expect(readFileSync(join(dir, 'two-on.txt'), 'utf8').replace('two-on.csv', 'two-off.csv')).toBe(readFileSync(join(dir, 'two-off.txt'), 'utf8'));
+    const wrong = await fringetally(['replay', 'two.wav', ...common, '--out', 'x.csv', '--analysis-thread', 'sometimes'], dir);
+    expect(wrong.code).toBe(2);
+    expect(wrong.stderr).toMatch(/--analysis-thread takes auto, on or off \(got "sometimes"\)/);
+  });
+});

@@ -1,0 +1,413 @@
+// The analyses of a capture run beside the pipeline: periodic error before and after the correction, the radius
+// residual, calibration_stale, the source power, and the decimated series and figures the report draws. They read
+// what the pipeline wrote for each block and never change it, so they can run on another thread
+// (capture-analysis-thread.ts) while the pipeline goes on with the next blocks: the same code, the same results.
+
+import {
+  AlarmBit,
+  createPeriodicErrorAnalyzer,
+  createResidualAnalyzer,
+  createModelWatch,
+  createHarmonicEstimator,
+  createCorrection,
+  createPhaseDomainEstimator,
+  createAnalysisSchedule,
+  fastAtan2,
+  wrapPhase,
+  type ChannelParameters,
+  type EllipseCalibration,
+  type HarmonicEstimate,
+  type ModelWatchEvent,
+  type ModelWatchOptions,
+  type PeriodicErrorSummary,
+  type PhaseDomainEstimator,
+  type RadiusOverTime,
+  type ResidualSummary,
+} from '../src/core/index.js';
+import { createWasmFrontEnd, type WasmFrontEnd } from '../src/accel/index.js';
+
+/** Samples per block read from a capture (the analyses' schedule counts these blocks). */
+export const CAPTURE_BLOCK_SAMPLES = 4096;
+/** Most calibration_stale events kept. */
+export const MAX_SPANS = 1000;
+
+/** A decimated time series: min and max of each bucket, with the bucket doubling when the store is full. */
+export interface Envelope {
+  readonly t: Float64Array;
+  readonly min: Float64Array;
+  readonly max: Float64Array;
+}
+
+// Both collectors keep their points in typed arrays of fixed size: plain arrays that change element kind and
+// length deoptimise the per-block loops, which then box every double.
+function createEnvelope(maxPoints: number) {
+  const t = new Float64Array(maxPoints);
+  const min = new Float64Array(maxPoints);
+  const max = new Float64Array(maxPoints);
+  const bucket = new Float64Array([0, Infinity, -Infinity, 0]); // samples in it, min, max, time of its first sample
+  let stride = 1;
+  let count = 0;
+  function halve(): void {
+    const half = count >> 1;
+    for (let k = 0; k < half; k++) {
+      t[k] = t[2 * k]!;
+      min[k] = Math.min(min[2 * k]!, min[2 * k + 1]!);
+      max[k] = Math.max(max[2 * k]!, max[2 * k + 1]!);
+    }
+    count = half;
+    stride *= 2;
+  }
+  return {
+    series(): Envelope {
+      return { t: t.slice(0, count), min: min.slice(0, count), max: max.slice(0, count) };
+    },
+    /** Adds a block of values at times t (s) or, without t, at (firstIndex + i) · secondsPerSample. */
+    add(values: Float64Array | Float32Array, n: number, times: Float64Array | null, firstIndex: number, secondsPerSample: number): void {
+      let inBucket = bucket[0]!, low = bucket[1]!, high = bucket[2]!, start = bucket[3]!;
+      let i = 0;
+      while (i < n) {
+        if (inBucket === 0) start = times === null ? (firstIndex + i) * secondsPerSample : times[i]!;
+        // The rest of the bucket, or of the block, in a loop that only compares.
+        const end = Math.min(n, i + stride - inBucket);
+        inBucket += end - i;
+        for (; i < end; i++) {
+          const value = values[i]!;
+          if (value < low) low = value;
+          if (value > high) high = value;
+        }
+        if (inBucket >= stride) {
+          t[count] = start;
+          min[count] = low;
+          max[count] = high;
+          count++;
+          inBucket = 0;
+          low = Infinity;
+          high = -Infinity;
+          if (count === maxPoints) halve();
+        }
+      }
+      bucket[0] = inBucket;
+      bucket[1] = low;
+      bucket[2] = high;
+      bucket[3] = start;
+    },
+  };
+}
+
+/**
+ * Every stride-th sample for the Lissajous figures, raw and corrected, the stride doubling when the store is
+ * full, so points spread over the whole capture. Only the kept samples are corrected: by the calibration, or for
+ * three or four outputs as the combined pair level·(cos φ, sin φ) from the channel pipeline's output.
+ */
+function createFigureSampler(maxPoints: number, calibration: EllipseCalibration) {
+  const rawX = new Float64Array(maxPoints);
+  const rawY = new Float64Array(maxPoints);
+  const corrU = new Float64Array(maxPoints);
+  const corrV = new Float64Array(maxPoints);
+  const { offsetX, offsetY, amplitudeX, amplitudeY, phaseErrorRad } = calibration;
+  const sinE = Math.sin(phaseErrorRad);
+  const cosE = Math.cos(phaseErrorRad);
+  let count = 0;
+  let stride = 1;
+  let skip = 0; // samples still to pass before the next kept one
+  const slice = (array: Float64Array) => array.slice(0, count);
+  return {
+    raw: () => ({ x: slice(rawX), y: slice(rawY) }),
+    corrected: () => ({ x: slice(corrU), y: slice(corrV) }),
+    add(xs: Float64Array, ys: Float64Array, n: number, combined: { level: Float32Array; unwrappedPhaseRad: Float64Array } | null): void {
+      let i = skip;
+      for (; i < n; i += stride) {
+        const x = xs[i]!;
+        const y = ys[i]!;
+        // Non-finite samples are drawn at the centre: the figure shows them and its scales survive.
+        const finite = x - x === 0 && y - y === 0;
+        if (combined === null) {
+          const cu = finite ? (x - offsetX) / amplitudeX : 0;
+          corrU[count] = cu;
+          corrV[count] = finite ? ((y - offsetY) / amplitudeY - cu * sinE) / cosE : 0;
+        } else {
+          const level = combined.level[i]!;
+          const phase = combined.unwrappedPhaseRad[i]!;
+          corrU[count] = level === level ? level * Math.cos(phase) : 0;
+          corrV[count] = level === level ? level * Math.sin(phase) : 0;
+        }
+        rawX[count] = finite ? x : offsetX;
+        rawY[count] = finite ? y : offsetY;
+        if (++count === maxPoints) {
+          const half = count >> 1;
+          for (let k = 0; k < half; k++) {
+            rawX[k] = rawX[2 * k]!;
+            rawY[k] = rawY[2 * k]!;
+            corrU[k] = corrU[2 * k]!;
+            corrV[k] = corrV[2 * k]!;
+          }
+          count = half;
+          stride *= 2;
+          i += stride - (stride >> 1); // the next kept sample is a whole new stride after this one
+        }
+      }
+      skip = i - n;
+    },
+  };
+}
+
+/** The reason, in the user's units, when no window of the phase-domain method could be used. */
+function afterNotMeasured(after: PhaseDomainEstimator, metresPerRad: number): string | null {
+  const { fitted, used, smallestMisfitRad } = after.windows;
+  if (used > 0) return null;
+  const { windowSpanRad, maxWindowSamples, maxMisfitRad } = after.options;
+  const windows = `${windowSpanRad / (2 * Math.PI)} fringes of phase or ${maxWindowSamples} samples`;
+  if (fitted === 0) return `not measured: no stretch of clean signal spans ${windows} to measure it`;
+  const nmOf = (rad: number) => (rad * metresPerRad * 1e9).toFixed(2);
+  return (
+    `not measurable on this motion: in every one of the ${fitted} clean windows (${windows} each) the motion departs ` +
+    `from a cubic in time by at least ${smallestMisfitRad.toFixed(4)} rad (${nmOf(smallestMisfitRad)} nm) RMS beyond the ` +
+    `noise, more than the ${maxMisfitRad} rad (${nmOf(maxMisfitRad)} nm) the method allows: motion this irregular cannot be ` +
+    `told from a periodic error. Record a smooth move over a few fringes to measure it; the radius analysis indicates its size`
+  );
+}
+
+/** Samples whose signal itself is in doubt stay out of the periodic-error analysis. */
+const SIGNAL_TROUBLE = AlarmBit.lowSignal | AlarmBit.saturation | AlarmBit.badSample | AlarmBit.inputGap;
+
+/**
+ * The uncorrected phase fastAtan2(y − mid, x − mid) of a block, by the exact WebAssembly kernel with the identity
+ * correction u = 1·x − mid, v = (0·x + 1·y) − mid: the same doubles (but +0 for a y of −0, which changes at most
+ * the sign of an exact zero), so the same phases; null when it declines the block (a non-finite sample, or
+ * x = y = mid, where fastAtan2's 0/0 rule applies) or is missing.
+ */
+function rawPhases(kernel: WasmFrontEnd | null, xs: Float64Array, ys: Float64Array, n: number, mid: number, level: Float32Array, identity: Float64Array): Float64Array | null {
+  if (kernel === null) return null;
+  identity[1] = -mid;
+  identity[4] = -mid;
+  return kernel.process(xs, ys, n, identity, -Infinity, Infinity, Number.MIN_VALUE, level, 0, 0);
+}
+
+/** Which samples are trustworthy: the signal itself is not in doubt. */
+function validOf(flags: Uint8Array, n: number, valid: Uint8Array): void {
+  const trouble = SIGNAL_TROUBLE;
+  for (let i = 0; i < n; i++) valid[i] = (flags[i]! & trouble) === 0 ? 1 : 0;
+}
+
+/**
+ * The uncorrected phase's error against the corrected one (from `raw`, the uncorrected phases, when given). A plain
+ * function, so V8 optimises its loop (it would not inside the async replay loop).
+ */
+function beforeError(xs: Float64Array, ys: Float64Array, n: number, raw: Float64Array | null, unwrappedPhaseRad: Float64Array, error: Float64Array, mid: number): void {
+  if (raw !== null) for (let i = 0; i < n; i++) error[i] = wrapPhase(raw[i]! - unwrappedPhaseRad[i]!);
+  else for (let i = 0; i < n; i++) error[i] = wrapPhase(fastAtan2(ys[i]! - mid, xs[i]! - mid) - unwrappedPhaseRad[i]!);
+}
+
+interface PowerState {
+  min: number;
+  max: number;
+  sum: number;
+  count: number;
+}
+
+/** Three or four outputs: the power's range and mean. */
+function powerFigures(output: { power: Float32Array }, n: number, state: PowerState): void {
+  for (let i = 0; i < n; i++) {
+    const p = output.power[i]!;
+    if (p === p) {
+      if (p < state.min) state.min = p;
+      if (p > state.max) state.max = p;
+      state.sum += p;
+      state.count++;
+    }
+  }
+}
+
+/**
+ * Three or four outputs: the power-normalised pair the chain tracked, level·(cos φ, sin φ), back from its radius and
+ * phase, for the radius analyses (the level is that pair's radius, see createChannelPipeline).
+ */
+function normalisedPair(level: Float32Array, phaseRad: Float64Array, n: number, u: Float64Array, v: Float64Array): void {
+  for (let i = 0; i < n; i++) {
+    const r = level[i]!;
+    u[i] = r * Math.cos(phaseRad[i]!);
+    v[i] = r * Math.sin(phaseRad[i]!);
+  }
+}
+
+export interface PeriodicErrorResult {
+  readonly summary: PeriodicErrorSummary;
+  /** Mean error per phase bin, metres. */
+  readonly binnedM: Float64Array;
+}
+
+/** What the analyses need to know of the run, fixed before its first block (plain data: it crosses to a thread). */
+export interface AnalysisConfig {
+  readonly calibration: EllipseCalibration;
+  /** Layout of 3 or 4 outputs, else null. */
+  readonly layout: readonly ChannelParameters[] | null;
+  /** The ADC's mid-scale, the zero of the uncorrected phase. */
+  readonly mid: number;
+  readonly rateHz: number;
+  readonly totalSamples: number | null;
+  readonly metresPerRad: number;
+  readonly maxPlotPoints: number;
+  readonly modelWatch?: ModelWatchOptions;
+  readonly estimateHarmonics?: { readonly orders: number; readonly totalSamples: number };
+  readonly analysisBudgetSamples?: number;
+}
+
+/** The pipeline's output of one block, as the analyses read it. */
+export interface BlockOutput {
+  readonly positionM: Float64Array;
+  readonly velocityMS: Float64Array;
+  readonly level: Float32Array;
+  readonly flags: Uint8Array;
+  readonly unwrappedPhaseRad: Float64Array;
+  readonly power: Float32Array;
+}
+
+/** One block of the run: the capture's samples and the pipeline's output for them. */
+export interface AnalysedBlock {
+  readonly firstIndex: number;
+  readonly length: number;
+  /** Times from the capture (s), else null (sample index / rate). */
+  readonly t: Float64Array | null;
+  readonly x: Float64Array;
+  readonly y: Float64Array;
+  readonly output: BlockOutput;
+  /** Three or four outputs with a harmonic correction: the phase before it (the pair as the chain saw it), else null. */
+  readonly phaseBeforeHarmonics: Float64Array | null;
+}
+
+export interface AnalysisResults {
+  /** Three or four outputs: the source power's range and mean over the capture (1 = the calibration capture's mean). */
+  readonly power: { readonly min: number; readonly max: number; readonly mean: number } | null;
+  readonly before: PeriodicErrorResult;
+  readonly after: PeriodicErrorResult;
+  readonly afterNotMeasured: string | null;
+  readonly analysedEvery: number;
+  readonly harmonicEstimate: HarmonicEstimate | null;
+  readonly modelWatch: { readonly events: readonly ModelWatchEvent[]; readonly raised: number; readonly activeAtEnd: boolean; readonly options: ReturnType<typeof createModelWatch>['options'] };
+  readonly residual: {
+    readonly summary: ResidualSummary;
+    /** Mean radius − 1 per phase bin (relative), bins over [−π, π). */
+    readonly byPhase: Float64Array;
+    readonly overTime: RadiusOverTime;
+  };
+  readonly report: {
+    readonly position: Envelope;
+    readonly velocity: Envelope;
+    /** Three or four outputs: the source power (1 = the calibration capture's mean), else null. */
+    readonly power: Envelope | null;
+    readonly raw: { x: Float64Array; y: Float64Array };
+    readonly corrected: { x: Float64Array; y: Float64Array };
+  };
+}
+
+/** Output arrays for one block of CAPTURE_BLOCK_SAMPLES. */
+export function createBlockOutput(buffer?: SharedArrayBuffer, offset = 0): BlockOutput {
+  const n = CAPTURE_BLOCK_SAMPLES;
+  if (buffer === undefined) {
+    return { positionM: new Float64Array(n), velocityMS: new Float64Array(n), level: new Float32Array(n), flags: new Uint8Array(n), unwrappedPhaseRad: new Float64Array(n), power: new Float32Array(n) };
+  }
+  return {
+    positionM: new Float64Array(buffer, offset, n),
+    velocityMS: new Float64Array(buffer, offset + 8 * n, n),
+    unwrappedPhaseRad: new Float64Array(buffer, offset + 16 * n, n),
+    level: new Float32Array(buffer, offset + 24 * n, n),
+    power: new Float32Array(buffer, offset + 28 * n, n),
+    flags: new Uint8Array(buffer, offset + 32 * n, n),
+  };
+}
+/** Bytes of one block's output in a shared buffer (a multiple of 8). */
+export const BLOCK_OUTPUT_BYTES = 33 * CAPTURE_BLOCK_SAMPLES;
+
+export interface CaptureAnalyses {
+  add(block: AnalysedBlock): void;
+  finish(): AnalysisResults;
+}
+
+export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
+  const { calibration, mid, rateHz, metresPerRad } = config;
+  const layout = config.layout;
+  const combined = layout !== null;
+  const power: PowerState = { min: Infinity, max: -Infinity, sum: 0, count: 0 };
+  const errorBefore = new Float64Array(CAPTURE_BLOCK_SAMPLES);
+  const valid = new Uint8Array(CAPTURE_BLOCK_SAMPLES);
+  const before = createPeriodicErrorAnalyzer();
+  const after = createPhaseDomainEstimator();
+  const residual = createResidualAnalyzer();
+  const correction = createCorrection({ calibration });
+  const correctedU = new Float64Array(CAPTURE_BLOCK_SAMPLES);
+  const correctedV = new Float64Array(CAPTURE_BLOCK_SAMPLES);
+  const estimator = config.estimateHarmonics === undefined ? null : createHarmonicEstimator(config.estimateHarmonics);
+  const watch = createModelWatch(config.modelWatch);
+  const watchEvents: ModelWatchEvent[] = [];
+  let watchRaised = 0;
+  const position = createEnvelope(config.maxPlotPoints);
+  const velocity = createEnvelope(config.maxPlotPoints);
+  const powerSeries = createEnvelope(config.maxPlotPoints);
+  const figure = createFigureSampler(config.maxPlotPoints, calibration);
+  const rawKernel = createWasmFrontEnd({ precision: 'f64-exact' });
+  const rawLevel = new Float32Array(CAPTURE_BLOCK_SAMPLES);
+  const identity = Float64Array.of(1, 0, 0, 1, 0);
+  const schedule = createAnalysisSchedule({ blockSamples: CAPTURE_BLOCK_SAMPLES, totalSamples: config.totalSamples, budgetSamples: config.analysisBudgetSamples });
+  let blockIndex = 0;
+  const secondsPerSample = 1 / rateHz;
+
+  return {
+    add(block) {
+      const { x, y, output, firstIndex, length: n } = block;
+      const analysed = schedule.take(blockIndex++);
+      // The radius analysis runs on the corrected pair: two outputs through the ellipse correction, three or four
+      // power-normalised, taken before the harmonic correction moves the phase (the pair as the chain saw it).
+      if (analysed) {
+        if (!combined) correction.process(x, y, correctedU, correctedV, n);
+        else normalisedPair(output.level, block.phaseBeforeHarmonics ?? output.unwrappedPhaseRad, n, correctedU, correctedV);
+      }
+      validOf(output.flags, n, valid);
+      if (combined) {
+        powerFigures(output, n, power);
+        powerSeries.add(output.power, n, block.t, firstIndex, secondsPerSample);
+      }
+      position.add(output.positionM, n, block.t, firstIndex, secondsPerSample);
+      velocity.add(output.velocityMS, n, block.t, firstIndex, secondsPerSample);
+      figure.add(x, y, n, combined ? output : null);
+      estimator?.add(output.unwrappedPhaseRad, n, valid);
+      if (analysed) {
+        const raw = rawPhases(rawKernel, x, y, n, mid, rawLevel, identity);
+        beforeError(x, y, n, raw, output.unwrappedPhaseRad, errorBefore, mid);
+        before.add(output.unwrappedPhaseRad, errorBefore, n, valid);
+        after.process(output.unwrappedPhaseRad, valid, n);
+        residual.add(correctedU, correctedV, n, valid);
+      } else {
+        after.skip(n);
+        residual.skip(n);
+      }
+      const already = watchEvents.length;
+      // On the chain's level (the corrected radius; for 3-4 outputs the power-normalised one), as the live chain.
+      watch.processRadius(output.level, n, firstIndex, watchEvents, valid);
+      for (let k = already; k < watchEvents.length; k++) if (watchEvents[k]!.state === 'raised') watchRaised++;
+      if (watchEvents.length > MAX_SPANS) watchEvents.length = MAX_SPANS;
+    },
+    finish() {
+      const toMetres = (analyzer: { summary(): PeriodicErrorSummary; binnedMeanRad(): Float64Array }): PeriodicErrorResult => ({
+        summary: analyzer.summary(),
+        binnedM: analyzer.binnedMeanRad().map((rad) => rad * metresPerRad),
+      });
+      return {
+        power: combined ? { min: power.min, max: power.max, mean: power.sum / power.count } : null,
+        before: toMetres(before),
+        after: toMetres(after),
+        afterNotMeasured: afterNotMeasured(after, metresPerRad),
+        analysedEvery: schedule.every,
+        harmonicEstimate: estimator === null ? null : estimator.solve(),
+        modelWatch: { events: watchEvents, raised: watchRaised, activeAtEnd: watch.active, options: watch.options },
+        residual: { summary: residual.summary(), byPhase: residual.radiusByPhase(), overTime: residual.radiusOverTime() },
+        report: {
+          position: position.series(),
+          velocity: velocity.series(),
+          power: combined ? powerSeries.series() : null,
+          raw: figure.raw(),
+          corrected: figure.corrected(),
+        },
+      };
+    },
+  };
+}

@@ -1,0 +1,181 @@
+// The capture analyses (capture-analyses.ts) on a worker thread: the pipeline's thread writes each block's output
+// straight into a slot of a shared ring, copies the capture's samples beside it, and goes on with the next block
+// while the worker analyses this one. On two cores a replay then takes about as long as its pipeline alone, not
+// the sum of both. The worker runs the same code on the same data in the same order: the same results.
+
+import { Worker } from 'node:worker_threads';
+import {
+  BLOCK_OUTPUT_BYTES,
+  CAPTURE_BLOCK_SAMPLES,
+  createBlockOutput,
+  type AnalysedBlock,
+  type AnalysisConfig,
+  type AnalysisResults,
+  type BlockOutput,
+} from './capture-analyses.js';
+
+/** Blocks in flight between the two threads. */
+const RING_SLOTS = 16;
+/**
+ * A waiting worker is woken once this many blocks wait for it, not for each: a wake-up is a system call and a
+ * thread switch, which cost as much as copying a block's samples, more on a busy machine.
+ */
+const WAKE_BATCH = 8;
+// Control words: blocks handed over, blocks analysed, finish asked, and whether the worker or the pipeline's side
+// is (about to be) waiting: a wake-up is sent only then, not for every block.
+const WRITTEN = 0;
+const READ = 1;
+const FINISH = 2;
+const WORKER_WAITING = 3;
+const PIPELINE_WAITING = 4;
+const CONTROL_BYTES = 24;
+/** A slot: the pipeline's output, then x, y, times and the phase before harmonics (f64 each), then its header. */
+const SAMPLES_BYTES = 8 * CAPTURE_BLOCK_SAMPLES;
+const HEADER_BYTES = 32;
+const SLOT_BYTES = BLOCK_OUTPUT_BYTES + 4 * SAMPLES_BYTES + HEADER_BYTES;
+
+/** A slot's arrays over the shared buffer, the same on both threads. */
+export interface RingSlot {
+  readonly output: BlockOutput;
+  readonly x: Float64Array;
+  readonly y: Float64Array;
+  readonly t: Float64Array;
+  readonly phaseBeforeHarmonics: Float64Array;
+  /** firstIndex, length, whether t holds times, whether phaseBeforeHarmonics holds a phase. */
+  readonly header: Float64Array;
+}
+
+export interface AnalysisRing {
+  readonly control: Int32Array;
+  readonly slots: readonly RingSlot[];
+}
+
+export function ringOf(buffer: SharedArrayBuffer): AnalysisRing {
+  const slots: RingSlot[] = [];
+  for (let k = 0; k < RING_SLOTS; k++) {
+    const at = CONTROL_BYTES + k * SLOT_BYTES;
+    const samples = (index: number) => new Float64Array(buffer, at + BLOCK_OUTPUT_BYTES + index * SAMPLES_BYTES, CAPTURE_BLOCK_SAMPLES);
+    slots.push({
+      output: createBlockOutput(buffer, at),
+      x: samples(0),
+      y: samples(1),
+      t: samples(2),
+      phaseBeforeHarmonics: samples(3),
+      header: new Float64Array(buffer, at + BLOCK_OUTPUT_BYTES + 4 * SAMPLES_BYTES, 4),
+    });
+  }
+  return { control: new Int32Array(buffer, 0, CONTROL_BYTES / 4), slots };
+}
+
+/** The block in a slot, as the analyses take it (views of the slot's arrays, `length` long). */
+export function blockInSlot(slot: RingSlot): AnalysedBlock {
+  const [firstIndex, length, hasTimes, hasPhase] = slot.header as unknown as [number, number, number, number];
+  const view = <T extends Float64Array | Float32Array | Uint8Array>(array: T) => (length === CAPTURE_BLOCK_SAMPLES ? array : (array.subarray(0, length) as T));
+  const o = slot.output;
+  return {
+    firstIndex,
+    length,
+    t: hasTimes ? view(slot.t) : null,
+    x: view(slot.x),
+    y: view(slot.y),
+    output: { positionM: view(o.positionM), velocityMS: view(o.velocityMS), level: view(o.level), flags: view(o.flags), unwrappedPhaseRad: view(o.unwrappedPhaseRad), power: view(o.power) },
+    phaseBeforeHarmonics: hasPhase ? view(slot.phaseBeforeHarmonics) : null,
+  };
+}
+
+export const WORKER_CONTROL = { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING } as const;
+
+/** The pipeline's side of the ring. */
+export interface AnalysisThread {
+  /** The arrays the pipeline writes the next block's output into, once the worker is done with their slot. */
+  next(): Promise<BlockOutput>;
+  /** The array to keep the phase in before a harmonic correction (three or four outputs), in the same slot. */
+  phaseSlot(): Float64Array;
+  /** Hands the block over: its samples (and times, and the phase before harmonics if kept) are copied into the slot of `next`'s arrays. */
+  add(block: Omit<AnalysedBlock, 'output'>): void;
+  /** Waits for the worker to analyse every block handed over and returns its results. */
+  finish(): Promise<AnalysisResults>;
+  /** Stops the worker (after a failure on the pipeline's side). */
+  terminate(): Promise<void>;
+}
+
+type WaitAsync = (array: Int32Array, index: number, value: number, timeoutMs: number) => { async: false; value: string } | { async: true; value: Promise<string> };
+const waitAsync = (Atomics as unknown as { waitAsync: WaitAsync }).waitAsync;
+
+/** Starts the worker (the compiled capture-analysis-worker.js beside this file). */
+export function startAnalysisThread(config: AnalysisConfig): AnalysisThread {
+  const buffer = new SharedArrayBuffer(CONTROL_BYTES + RING_SLOTS * SLOT_BYTES);
+  const ring = ringOf(buffer);
+  const { control, slots } = ring;
+  const worker = new Worker(new URL('./capture-analysis-worker.js', import.meta.url), { workerData: { config, buffer } });
+  let failure: Error | null = null;
+  let settled = false;
+  const results = new Promise<AnalysisResults>((resolve, reject) => {
+    const fail = (error: Error) => {
+      failure ??= error;
+      settled = true;
+      reject(failure);
+    };
+    worker.on('message', (message: { results?: AnalysisResults; error?: { message: string; stack?: string } }) => {
+      if (message.results !== undefined) {
+        settled = true;
+        resolve(message.results);
+      } else if (message.error !== undefined) {
+        const error = new Error(`capture analyses: ${message.error.message}`);
+        if (message.error.stack !== undefined) error.stack = message.error.stack;
+        fail(error);
+      }
+    });
+    worker.on('error', fail);
+    worker.on('exit', (code) => {
+      if (!settled) fail(new Error(`capture analyses: the worker thread stopped (exit code ${code}) before its results`));
+    });
+  });
+  // Until finish() awaits it, a failure is seen through `failure`.
+  results.catch(() => undefined);
+  let written = 0;
+
+  return {
+    async next() {
+      while (written - Atomics.load(control, READ) >= RING_SLOTS) {
+        if (failure !== null) throw failure;
+        const read = Atomics.load(control, READ);
+        Atomics.store(control, PIPELINE_WAITING, 1);
+        // Checked again after the flag is up, so a slot freed in between is not waited for (the timeout only
+        // re-checks for a failure of the worker).
+        if (written - Atomics.load(control, READ) >= RING_SLOTS) {
+          const wait = waitAsync(control, READ, read, 200);
+          if (wait.async) await wait.value;
+        }
+        Atomics.store(control, PIPELINE_WAITING, 0);
+      }
+      if (failure !== null) throw failure;
+      return slots[written % RING_SLOTS]!.output;
+    },
+    phaseSlot() {
+      return slots[written % RING_SLOTS]!.phaseBeforeHarmonics;
+    },
+    add(block) {
+      const slot = slots[written % RING_SLOTS]!;
+      slot.x.set(block.x.subarray(0, block.length));
+      slot.y.set(block.y.subarray(0, block.length));
+      if (block.t !== null) slot.t.set(block.t.subarray(0, block.length));
+      slot.header[0] = block.firstIndex;
+      slot.header[1] = block.length;
+      slot.header[2] = block.t === null ? 0 : 1;
+      slot.header[3] = block.phaseBeforeHarmonics === null ? 0 : 1;
+      written++;
+      Atomics.store(control, WRITTEN, written);
+      if (written - Atomics.load(control, READ) >= WAKE_BATCH && Atomics.load(control, WORKER_WAITING) === 1) Atomics.notify(control, WRITTEN);
+    },
+    async finish() {
+      Atomics.store(control, FINISH, 1);
+      Atomics.notify(control, WRITTEN);
+      return await results;
+    },
+    async terminate() {
+      settled = true;
+      await worker.terminate();
+    },
+  };
+}

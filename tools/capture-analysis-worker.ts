@@ -1,0 +1,35 @@
+// The worker of capture-analysis-thread.ts: takes blocks from the shared ring in order, analyses them, frees their
+// slots, and posts the results once the pipeline's side asks to finish and every block is done.
+
+import { parentPort, workerData } from 'node:worker_threads';
+import { createCaptureAnalyses, type AnalysisConfig } from './capture-analyses.js';
+import { blockInSlot, ringOf, WORKER_CONTROL } from './capture-analysis-thread.js';
+
+const { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING } = WORKER_CONTROL;
+const { config, buffer } = workerData as { config: AnalysisConfig; buffer: SharedArrayBuffer };
+const { control, slots } = ringOf(buffer);
+
+try {
+  const analyses = createCaptureAnalyses(config);
+  let read = 0;
+  for (;;) {
+    const written = Atomics.load(control, WRITTEN);
+    if (read < written) {
+      analyses.add(blockInSlot(slots[read % slots.length]!));
+      read++;
+      Atomics.store(control, READ, read);
+      if (Atomics.load(control, PIPELINE_WAITING) === 1) Atomics.notify(control, READ);
+      continue;
+    }
+    // Every block handed over is done: finished if asked, else wait for the next (the timeout only re-checks).
+    if (Atomics.load(control, FINISH) === 1 && Atomics.load(control, WRITTEN) === read) break;
+    // The flag first, then the count again, so a block handed over in between is not slept through.
+    Atomics.store(control, WORKER_WAITING, 1);
+    if (Atomics.load(control, WRITTEN) === written) Atomics.wait(control, WRITTEN, written, 100);
+    Atomics.store(control, WORKER_WAITING, 0);
+  }
+  parentPort!.postMessage({ results: analyses.finish() });
+} catch (caught) {
+  const error = caught instanceof Error ? caught : new Error(String(caught));
+  parentPort!.postMessage({ error: { message: error.message, stack: error.stack } });
+}
