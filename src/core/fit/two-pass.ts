@@ -37,15 +37,51 @@ export interface TwoPassFit {
   reset(): void;
 }
 
+/**
+ * Copies the pairs of [start, end) whose corrected radius hypot(u, v) lies in [lowRadius, highRadius] to keptX,
+ * keptY and returns their count; u, v from `coefficients` as `correctionCoefficients` writes them (u = c0·x + c1,
+ * v = c2·x + c3·y + c4), as `Correction.process` computes them. Compares u² + v² with the squared radii and defers
+ * to Math.hypot within a millionth of either, so the decisions are hypot's (both lie within a few ulps of the
+ * exact radius) without a square root per pair. A kept pair has a finite radius, so both its values are finite.
+ */
+export function keepWithin(
+  x: ArrayLike<number>,
+  y: ArrayLike<number>,
+  start: number,
+  end: number,
+  coefficients: Float64Array,
+  lowRadius: number,
+  highRadius: number,
+  keptX: Float64Array,
+  keptY: Float64Array,
+): number {
+  const kux = coefficients[0]!, ku0 = coefficients[1]!, kvx = coefficients[2]!, kvy = coefficients[3]!, kv0 = coefficients[4]!;
+  const low2 = lowRadius * lowRadius, high2 = highRadius * highRadius;
+  const surelyAbove = low2 * (1 + 1e-6), surelyBelow = low2 * (1 - 1e-6), surelyUnder = high2 * (1 - 1e-6), surelyOver = high2 * (1 + 1e-6);
+  let kept = 0;
+  for (let i = start; i < end; i++) {
+    const xi = x[i]!;
+    const yi = y[i]!;
+    const u = kux * xi + ku0;
+    const v = kvx * xi + kvy * yi + kv0;
+    const r2 = u * u + v * v;
+    if (!(r2 > surelyAbove && r2 < surelyUnder)) {
+      if (r2 < surelyBelow || r2 > surelyOver) continue;
+      const radius = Math.hypot(u, v);
+      if (!(radius >= lowRadius && radius <= highRadius)) continue;
+    }
+    keptX[kept] = xi;
+    keptY[kept] = yi;
+    kept++;
+  }
+  return kept;
+}
+
 /** Options as `createEllipseFit` (method default 'hyper'). */
 export function createTwoPassFit(options: EllipseFitMethodOptions = {}): TwoPassFit {
   const fit = createEllipseFit(options);
   const accumulator = createEllipseAccumulator(options);
   const correction = createCorrection();
-  const chunkX = new Float64Array(CHUNK);
-  const chunkY = new Float64Array(CHUNK);
-  const u = new Float64Array(CHUNK);
-  const v = new Float64Array(CHUNK);
   const keptX = new Float64Array(CHUNK);
   const keptY = new Float64Array(CHUNK);
   let gate: EllipseCalibration | null = null;
@@ -56,21 +92,7 @@ export function createTwoPassFit(options: EllipseFitMethodOptions = {}): TwoPass
       return;
     }
     for (let start = 0; start < length; start += CHUNK) {
-      const n = Math.min(CHUNK, length - start);
-      for (let i = 0; i < n; i++) {
-        chunkX[i] = x[start + i]!;
-        chunkY[i] = y[start + i]!;
-      }
-      correction.process(chunkX, chunkY, u, v, n);
-      let kept = 0;
-      for (let i = 0; i < n; i++) {
-        const radius = Math.hypot(u[i]!, v[i]!);
-        if (radius >= 1 - GATE && radius <= 1 + GATE) {
-          keptX[kept] = chunkX[i]!;
-          keptY[kept] = chunkY[i]!;
-          kept++;
-        }
-      }
+      const kept = keepWithin(x, y, start, Math.min(length, start + CHUNK), correction.coefficients, 1 - GATE, 1 + GATE, keptX, keptY);
       accumulator.add(keptX, keptY, kept);
     }
   }
