@@ -1,6 +1,7 @@
 // `--tools` also measures listen's chain without a serial port: wire frames (2 channels, 256 samples a frame,
 // the core cases' int16 signal) pushed in 4096-byte chunks from an in-memory byte source through the live session
-// (decoder, pipeline) into the result writer (CSV, every row; --every 10000 beside it), as `listen` runs them.
+// (decoder, pipeline) into the result writer through listen's rows sink (CSV, every row; --every 10000 beside it),
+// as `listen` runs them.
 // Wall clock and process CPU time from the first chunk to the session's end. Memory: the same chain over 10^7 and
 // 10^8 samples (frames encoded as they are fed, --every 10000), each in a process of its own, and the growth of its
 // peak resident memory between them: it must not grow with the run.
@@ -14,6 +15,7 @@ import { createResultWriter } from '../../src/io/results/index.js';
 import { createManualByteSource } from '../../src/io/serial/index.js';
 import { encodeWireFrame, wireFrameLength } from '../../src/io/wire/index.js';
 import { createLiveSession } from '../../tools/live/live-session.js';
+import { resultRows } from '../../tools/live/result-rows.js';
 import type { BenchResult } from '../harness.js';
 import { benchSignal, TOTAL_SAMPLES } from './core.js';
 
@@ -50,15 +52,8 @@ async function listenOnce(chunks: readonly Uint8Array[], out: string, every: num
     track: { axes: [{ wavelengthM: 632.9908e-9, fold: 2, refractiveIndex: 1, calibration: ellipse }] },
     maxBufferedBytes: 2 ** 30,
     sinks: [
-      {
-        name: 'rows',
-        // The writer's job runs after the chunk: it gets a copy, as listen's does.
-        positions({ summaries, rateHz }) {
-          const { firstSampleIndex, length, output } = summaries[0]!;
-          const block = { firstIndex: firstSampleIndex, length, rateHz, positionM: output.positionM.slice(0, length), velocityMS: output.velocityMS.slice(0, length), level: output.level.slice(0, length), flags: output.flags.slice(0, length) };
-          return () => writer.write(block);
-        },
-      },
+      // Listen's own rows sink.
+      { name: 'rows', positions: resultRows(writer) },
     ],
   }).start();
   source.linkUp();
@@ -89,14 +84,7 @@ async function listenStream(samples: number, out: string): Promise<void> {
     track: { axes: [{ wavelengthM: 632.9908e-9, fold: 2, refractiveIndex: 1, calibration: ellipse }] },
     maxBufferedBytes: 1 << 20,
     sinks: [
-      {
-        name: 'rows',
-        positions({ summaries, rateHz }) {
-          const { firstSampleIndex, length, output } = summaries[0]!;
-          const block = { firstIndex: firstSampleIndex, length, rateHz, positionM: output.positionM.slice(0, length), velocityMS: output.velocityMS.slice(0, length), level: output.level.slice(0, length), flags: output.flags.slice(0, length) };
-          return () => writer.write(block);
-        },
-      },
+      { name: 'rows', positions: resultRows(writer) },
     ],
   }).start();
   void session.done.then((summary) => {

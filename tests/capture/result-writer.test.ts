@@ -108,6 +108,52 @@ describe('result writer', () => {
     );
   });
 
+  // Listen hands the writer the pipeline's own arrays, reused for the next block as soon as write() returns.
+  it('reads a block during the write call: arrays overwritten before the write settles change nothing', async () => {
+    const whole = series(5000);
+    const expected = await toText([whole], { format: 'csv', rateHz: 1000 });
+    const stdout = new PassThrough();
+    const parts: Buffer[] = [];
+    stdout.on('data', (part: Buffer) => parts.push(part));
+    const writer = await createResultWriter('-', { format: 'csv', rateHz: 1000, stdout });
+    const reused = series(1000);
+    for (let start = 0; start < 5000; start += 1000) {
+      const piece = slice(whole, start, start + 1000);
+      reused.positionM.set(piece.positionM);
+      reused.velocityMS.set(piece.velocityMS);
+      reused.level.set(piece.level);
+      reused.flags.set(piece.flags);
+      const written = writer.write({ ...reused, firstIndex: start });
+      for (const array of [reused.positionM, reused.velocityMS, reused.level, reused.flags]) array.fill(7);
+      await written;
+    }
+    await writer.close();
+    // 5000 rows are about 300 kB: more than the writer's buffer, so its bytes went out in several writes.
+    expect(parts.length).toBeGreaterThan(1);
+    expect(Buffer.concat(parts).toString('utf8')).toBe(expected);
+  });
+
+  // A live source can hand out several blocks in one chunk (a live fit's held samples, a gap): their writes are
+  // called before the first settles, and one of them may start writing bytes while the next formats rows.
+  it('writes overlapping writes in order, to a file and to a stream', async () => {
+    const whole = series(6000);
+    const expected = await toText([whole], { format: 'csv', rateHz: 1000 });
+    const own = makeTempDir();
+    const path = own.file('overlap.csv');
+    const stdout = new PassThrough();
+    const parts: Buffer[] = [];
+    stdout.on('data', (part: Buffer) => parts.push(part));
+    for (const writer of [await createResultWriter(path, { format: 'csv', rateHz: 1000 }), await createResultWriter('-', { format: 'csv', rateHz: 1000, stdout })]) {
+      const writes: Promise<void>[] = [];
+      for (let start = 0; start < 6000; start += 1500) writes.push(writer.write(slice(whole, start, start + 1500)));
+      await Promise.all(writes);
+      await writer.close();
+    }
+    expect(readFileSync(path, 'utf8')).toBe(expected);
+    expect(Buffer.concat(parts).toString('utf8')).toBe(expected);
+    own.remove();
+  });
+
   it('writes a file under a temporary name, renamed at close; abort leaves nothing', async () => {
     const path = dir.file('rows.csv');
     const writer = await createResultWriter(path, { format: 'csv', rateHz: 10, every: 2 });

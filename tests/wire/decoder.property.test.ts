@@ -249,3 +249,46 @@ describe('frames split at every boundary', () => {
     }
   });
 });
+
+// Frames of 32 values or more are copied as int16 straight from the chunk's memory when their samples start at an
+// even address, and byte by byte otherwise: both must give the samples sent, from Buffers and from views into
+// larger memory alike.
+describe('large frames at any byte alignment', () => {
+  it('decode to the samples sent, however the stream is cut, offset in memory or wrapped', () => {
+    const largeFrame = (sequence: number) =>
+      fc
+        .record({ channelCount: fc.constantFrom(2, 4, 6), samplesPerFrame: fc.integer({ min: 16, max: 64 }) })
+        .chain((shape) =>
+          fc
+            .array(fc.integer({ min: -32768, max: 32767 }), { minLength: shape.channelCount * shape.samplesPerFrame, maxLength: shape.channelCount * shape.samplesPerFrame })
+            .map((samples): SentFrame => {
+              const header = { sequence, ...shape, sampleRateHz: 1000 };
+              return { header, samples, bytes: frameBytes(header, samples) };
+            }),
+        );
+    fc.assert(
+      fc.property(
+        fc.tuple(largeFrame(0), largeFrame(1), largeFrame(2), largeFrame(3)),
+        fc.uint8Array({ maxLength: 5 }).filter((noise) => !noise.includes(WIRE_SYNC_0)),
+        cutsArbitrary,
+        fc.nat({ max: 3 }),
+        fc.constantFrom('view', 'buffer'),
+        (sent, noise, cuts, offset, kind) => {
+          const stream = concat([noise, ...sent.map((f) => f.bytes)]);
+          const chunks = split(stream, cuts).map((chunk) => {
+            // The chunk at `offset` bytes into a larger memory, as a port's pooled buffers hand it out.
+            const memory = new Uint8Array(chunk.length + offset + 3);
+            memory.set(chunk, offset);
+            return kind === 'buffer' ? Buffer.from(memory.buffer, offset, chunk.length) : memory.subarray(offset, offset + chunk.length);
+          });
+          const collector = collectingDecoder({ maxChannels: 6, maxSamplesPerFrame: 64 });
+          for (const chunk of chunks) collector.decoder.push(chunk);
+          expect(collector.frames).toHaveLength(sent.length);
+          collector.frames.forEach((frame, i) => expect(matches(frame, sent[i]!)).toBe(true));
+          expect(collector.gaps).toEqual([]);
+        },
+      ),
+      { numRuns: 200 },
+    );
+  });
+});

@@ -14,6 +14,7 @@ import { readCalibrationFitResidual, readCalibrationHarmonics, readCalibrationLa
 import { checkFiles, formatNumber, LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { createLiveSession, type LiveSession, type LiveSink, type LiveSummary } from '../live/live-session.js';
 import { createStatusLine, formatStatus } from '../live/status-line.js';
+import { resultRows } from '../live/result-rows.js';
 import { lengthScaleOf, measureOptionHelp, measureOptionSpecs } from '../measure-options.js';
 import {
   createAngleRowWriter,
@@ -330,7 +331,7 @@ async function run(argv: readonly string[]): Promise<number> {
     throw error;
   }
   const edgeLatch = createLiveEdgeLatch();
-  const rows = createRowCopies();
+  const rows = angles === null ? resultRows(writer as ResultWriter) : null;
   let gapLines = 0;
   let started = false;
   let wasUp = false;
@@ -372,8 +373,7 @@ async function run(argv: readonly string[]): Promise<number> {
           const block = angleBlock(positions.summaries, positions.rateHz);
           return () => (writer as AngleRowWriter).write(block);
         }
-        const block = rows.copy(positions.summaries[0]!, positions.rateHz);
-        return () => (writer as ResultWriter).write(block).finally(() => rows.release(block));
+        return rows!(positions);
       },
       notice(notice) {
         if (notice.kind === 'link') {
@@ -603,39 +603,6 @@ function angleBlock(summaries: readonly AxisBlockSummary[], rateHz: number): Ang
   for (const summary of summaries) for (let i = 0; i < length; i++) flags[i] |= summary.output.flags[i]!;
   return { firstIndex: summaries[0]!.firstSampleIndex, length, rateHz, positionM: summaries.map((summary) => summary.output.positionM.slice(0, length)), flags };
 }
-
-/** Copies of position blocks for the result writer, from a small pool so that steady streams allocate little. */
-function createRowCopies() {
-  const pool: ResultBlockCopy[] = [];
-  return {
-    copy(summary: AxisBlockSummary, rateHz: number): ResultBlockCopy {
-      const n = summary.length;
-      let block = pool.pop();
-      if (block === undefined || block.positionM.length < n) {
-        const capacity = Math.max(n, 4096);
-        block = { firstIndex: 0, length: 0, rateHz, positionM: new Float64Array(capacity), velocityMS: new Float64Array(capacity), level: new Float32Array(capacity), flags: new Uint8Array(capacity) };
-      }
-      block.firstIndex = summary.firstSampleIndex;
-      block.length = n;
-      block.rateHz = rateHz;
-      block.positionM.set(summary.output.positionM.subarray(0, n));
-      block.velocityMS.set(summary.output.velocityMS.subarray(0, n));
-      block.level.set(summary.output.level.subarray(0, n));
-      block.flags.set(summary.output.flags.subarray(0, n));
-      const power = summary.output.power;
-      if (power === undefined) delete block.power;
-      else {
-        if (block.power === undefined || block.power.length < n) block.power = new Float32Array(block.positionM.length);
-        block.power.set(power.subarray(0, n));
-      }
-      return block;
-    },
-    release(block: ResultBlockCopy): void {
-      if (pool.length < 8) pool.push(block);
-    },
-  };
-}
-type ResultBlockCopy = { firstIndex: number; length: number; rateHz: number; positionM: Float64Array; velocityMS: Float64Array; level: Float32Array; flags: Uint8Array; power?: Float32Array };
 
 async function openRecord(
   record: string,

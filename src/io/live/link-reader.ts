@@ -289,7 +289,8 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
       buffer = grown;
     }
     appendEdges(decoded, status.nextSampleIndex + length / channels);
-    buffer.set(decoded.samples.subarray(0, values), length);
+    // The decoder's view is the frame's values exactly (a new view only when the frame size changes).
+    buffer.set(decoded.samples.length === values ? decoded.samples : decoded.samples.subarray(0, values), length);
     length += values;
   }
 

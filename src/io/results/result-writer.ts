@@ -53,6 +53,12 @@ export interface ResultBlock {
 export interface ResultWriter {
   readonly path: string;
   readonly rowsWritten: number;
+  /**
+   * Adds the block's rows. The block is read during the call, before the promise is returned (its rows are
+   * formatted into the writer's buffer then), so the caller may reuse the arrays at once; the bytes go out when
+   * the buffer holds 64 KiB or more, and the promise settles when they are out (at once otherwise). Writes may
+   * overlap (a live source can hand out several blocks at once): their bytes go out in order.
+   */
   write(block: ResultBlock): Promise<void>;
   /** Flushes; a file is renamed from its temporary name to `path`. */
   close(): Promise<void>;
@@ -60,6 +66,7 @@ export interface ResultWriter {
   abort(): Promise<void>;
 }
 
+/** Bytes buffered before they are written; a block with more rows grows the buffer to hold them all. */
 const ENCODE_BUFFER_BYTES = 65_536;
 /** Room kept for one row: four numbers (toFixed gives at most ~45 chars below 1e21, more above), keys and all alarm names. */
 const MAX_ROW_BYTES = 1024;
@@ -80,16 +87,38 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
   // Null until the first block decides ('auto').
   let withPower: boolean | null = options.power === 'auto' ? null : options.power === true;
   const sink: OutputSink = path === '-' ? openStreamSink(options.stdout ?? process.stdout) : await openFileSink(path);
-  const buffer = Buffer.allocUnsafe(ENCODE_BUFFER_BYTES);
+  let buffer: Buffer = Buffer.allocUnsafe(ENCODE_BUFFER_BYTES + MAX_ROW_BYTES);
   let used = 0;
   let headerWritten = format === 'jsonl';
   let rowsWritten = 0;
   let failed = false;
   let finished = false;
 
-  async function flush(): Promise<void> {
-    if (used > 0) await sink.write(buffer, used);
+  // Bytes being written: the buffer they are in goes with them and formatting goes on in another, so a write
+  // called while an earlier one is out neither waits nor touches bytes in flight.
+  let writing: Promise<void> = Promise.resolve();
+  let spare: Buffer | null = null;
+
+  /** Queues the buffered bytes after those already being written; settles when they are out. */
+  function flush(): Promise<void> {
+    if (used === 0) return writing;
+    const out = buffer;
+    const length = used;
+    buffer = spare !== null && spare.length >= out.length ? spare : Buffer.allocUnsafe(out.length);
+    spare = null;
     used = 0;
+    writing = writing.then(async () => {
+      await sink.write(out, length);
+      spare = out;
+    });
+    return writing;
+  }
+
+  /** Doubles the buffer, keeping what it holds: the rows of one block are formatted before any is written. */
+  function grow(): void {
+    const grown = Buffer.allocUnsafe(2 * buffer.length);
+    buffer.copy(grown, 0, 0, used);
+    buffer = grown;
   }
 
   function checkUsable(): void {
@@ -110,10 +139,12 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
     }
     withPower ??= block.power !== undefined;
     if (withPower && block.power === undefined) throw new RangeError(`${path}: a block without power, for a writer with a power column`);
-    const arrays = { positionM: block.positionM, velocityMS: block.velocityMS, level: block.level, flags: block.flags, t: block.t ?? null, power: withPower ? block.power! : null };
-    for (const [name, array] of Object.entries(arrays)) {
-      if (array !== null && array.length < length) throw new RangeError(`block.${name} holds ${array.length} values, fewer than length ${length}`);
-    }
+    checkLength('positionM', block.positionM, length);
+    checkLength('velocityMS', block.velocityMS, length);
+    checkLength('level', block.level, length);
+    checkLength('flags', block.flags, length);
+    if (block.t !== undefined && block.t !== null) checkLength('t', block.t, length);
+    if (withPower) checkLength('power', block.power!, length);
     if (block.rateHz !== undefined) positiveFinite('block.rateHz', block.rateHz);
     else if ((block.t === undefined || block.t === null) && rateHz === null) {
       throw new RangeError(`${path}: a block without t needs a rate (block.rateHz or the rateHz option) to compute t = index / rateHz`);
@@ -137,7 +168,7 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
         // Rows are chosen on the absolute index, so the same rows come out however the stream is cut into blocks.
         const firstRow = Math.ceil(firstIndex / every) * every - firstIndex;
         for (let i = firstRow; i < length; i += every) {
-          if (used > ENCODE_BUFFER_BYTES - MAX_ROW_BYTES) await flush();
+          if (used > buffer.length - MAX_ROW_BYTES) grow();
           const t = times === null ? (firstIndex + i) / blockRateHz : times[i]!;
           const flagByte = flags[i]!;
           if (format === 'csv') {
@@ -174,6 +205,7 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
           }
           rowsWritten++;
         }
+        if (used >= ENCODE_BUFFER_BYTES) await flush();
       } catch (error) {
         failed = true;
         throw error;
@@ -206,6 +238,10 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
 function writeNumber(bytes: Buffer, at: number, value: number, decimals: number, format: ResultFormat): number {
   if (Number.isFinite(value)) return writeFixedAscii(bytes, at, value, decimals);
   return writeAscii(bytes, at, format === 'csv' ? String(value) : 'null');
+}
+
+function checkLength(name: string, array: ArrayLike<number>, length: number): void {
+  if (array.length < length) throw new RangeError(`block.${name} holds ${array.length} values, fewer than length ${length}`);
 }
 
 function copy(bytes: Buffer, at: number, text: Buffer): number {

@@ -3,15 +3,25 @@
 
 const REFLECTED_POLY = 0x82f63b78;
 
-/** One 256-entry table for byte-at-a-time updates (1 KiB, built once at load). */
+/**
+ * Eight 256-entry tables (8 KiB, built once at load) for slicing-by-8: table k gives the CRC of a byte followed by
+ * k zero bytes, so eight bytes fold in with one dependent step instead of eight (about twice the byte-at-a-time
+ * speed; the frame CRC is a third of the wire decoder's work).
+ */
 const table = buildTable();
 
 function buildTable(): Uint32Array {
-  const entries = new Uint32Array(256);
+  const entries = new Uint32Array(8 * 256);
   for (let byte = 0; byte < 256; byte++) {
     let crc = byte;
     for (let bit = 0; bit < 8; bit++) crc = crc & 1 ? (crc >>> 1) ^ REFLECTED_POLY : crc >>> 1;
     entries[byte] = crc >>> 0;
+  }
+  for (let k = 1; k < 8; k++) {
+    for (let byte = 0; byte < 256; byte++) {
+      const previous = entries[(k - 1) * 256 + byte]!;
+      entries[k * 256 + byte] = entries[previous & 0xff]! ^ (previous >>> 8);
+    }
   }
   return entries;
 }
@@ -20,7 +30,21 @@ function buildTable(): Uint32Array {
  * CRC-32C of `bytes[start, end)`. Allocation-free; returns an unsigned 32-bit integer.
  */
 export function crc32c(bytes: Uint8Array, start = 0, end = bytes.length): number {
+  const t = table;
   let crc = 0xffffffff;
-  for (let i = start; i < end; i++) crc = table[(crc ^ bytes[i]!) & 0xff]! ^ (crc >>> 8);
+  let i = start;
+  for (; i + 8 <= end; i += 8) {
+    const low = crc ^ (bytes[i]! | (bytes[i + 1]! << 8) | (bytes[i + 2]! << 16) | (bytes[i + 3]! << 24));
+    crc =
+      t[1792 + (low & 0xff)]! ^
+      t[1536 + ((low >>> 8) & 0xff)]! ^
+      t[1280 + ((low >>> 16) & 0xff)]! ^
+      t[1024 + (low >>> 24)]! ^
+      t[768 + bytes[i + 4]!]! ^
+      t[512 + bytes[i + 5]!]! ^
+      t[256 + bytes[i + 6]!]! ^
+      t[bytes[i + 7]!]!;
+  }
+  for (; i < end; i++) crc = t[(crc ^ bytes[i]!) & 0xff]! ^ (crc >>> 8);
   return (crc ^ 0xffffffff) >>> 0;
 }
