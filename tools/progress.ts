@@ -1,5 +1,9 @@
 // Progress on stderr for long files: a bar when stderr is a terminal (cli-progress), nothing otherwise or with --quiet.
-import cliProgress from 'cli-progress';
+// The bar's package is loaded only when a bar is drawn: it costs a scripted (quiet or piped) run tens of ms of start-up.
+import { createRequire } from 'node:module';
+import type cliProgressModule from 'cli-progress';
+
+const require = createRequire(import.meta.url);
 
 export interface Progress {
   /** `total` in samples, or null when the file does not say (the bar then shows a count only). */
@@ -12,7 +16,8 @@ const silent: Progress = { start() {}, update() {}, stop() {} };
 
 export function createProgress(quiet: boolean): Progress {
   if (quiet || !process.stderr.isTTY) return silent;
-  let bar: cliProgress.SingleBar | null = null;
+  const cliProgress = require('cli-progress') as typeof cliProgressModule;
+  let bar: cliProgressModule.SingleBar | null = null;
   let lastUpdate = 0;
   let latest = 0;
   return {

@@ -5,7 +5,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { createEnvironmentSchedule } from '../../src/core/index.js';
-import { followEnvironmentLog, parseEnvironmentLog } from '../../src/io/capture/index.js';
+import { parseEnvironmentLog } from '../../src/io/capture/index.js';
+import { followEnvironmentLog } from '../../src/io/live/index.js';
 import { until } from '../serial/wait.js';
 
 describe('environment schedule', () => {

@@ -4,7 +4,8 @@
 // `followEnvironmentTopic`, `airIndexAt`); the chain sets it per block (`trackLink`'s `refractiveIndexAt`).
 import type { Observable, Subscription } from 'rxjs';
 import type { EnvironmentSchedule } from '../../src/core/index.js';
-import { followEnvironmentLog, readEnvironmentLog } from '../../src/io/capture/index.js';
+import { readEnvironmentLog } from '../../src/io/capture/index.js';
+import { followEnvironmentLog } from '../../src/io/live/index.js';
 import { followEnvironmentTopic, type MqttConnectionOptions, type MqttLinkHealth } from '../../src/io/feed/index.js';
 import { UsageError } from '../cli-kit.js';
 import { environmentLogIndex, equationOf, type Environment } from '../environment-options.js';

@@ -1,10 +1,8 @@
 // The environment log of a run: CSV with a header naming the columns t (s), temperature (°C), pressure (Pa),
 // humidity (% relative) and optionally co2 (µmol/mol), one reading per line. See docs/capture-formats.md.
 
-import { unwatchFile, watchFile } from 'node:fs';
 import { readFile } from 'node:fs/promises';
-import { Observable } from 'rxjs';
-import { createEnvironmentSchedule, integerInRange, type EnvironmentRecord, type EnvironmentSchedule } from '../../core/index.js';
+import { createEnvironmentSchedule, type EnvironmentRecord, type EnvironmentSchedule } from '../../core/index.js';
 import { CaptureFormatError } from './errors.js';
 
 const REQUIRED = ['t', 'temperature', 'pressure', 'humidity'] as const;
@@ -62,50 +60,4 @@ export async function readEnvironmentLog(path: string): Promise<EnvironmentSched
     throw new Error(`${path}: cannot read the environment log (${(error as Error).message})`);
   }
   return parseEnvironmentLog(text, path);
-}
-
-/**
- * Follows an environment log that a sensor appends to during a live run: the schedule of its complete lines now,
- * and again each time it changes (checked every `intervalMs`, default 500 ms, 10..60000). A line still being
- * written (no newline yet) waits for its newline. The stream errors (file and line named) when the file cannot
- * be read or a line is malformed; it never completes by itself.
- */
-export function followEnvironmentLog(path: string, options: { readonly intervalMs?: number } = {}): Observable<EnvironmentSchedule> {
-  const intervalMs = integerInRange('intervalMs', options.intervalMs ?? 500, 10, 60_000);
-  return new Observable<EnvironmentSchedule>((subscriber) => {
-    let complete = '';
-    let reading = false;
-    let again = false;
-    const read = async (): Promise<void> => {
-      if (reading) {
-        again = true; // a change during the read: read once more after it
-        return;
-      }
-      reading = true;
-      try {
-        do {
-          again = false;
-          let text: string;
-          try {
-            text = await readFile(path, 'utf8');
-          } catch (error) {
-            throw new Error(`${path}: cannot read the environment log (${(error as Error).message})`);
-          }
-          const lines = text.slice(0, text.lastIndexOf('\n') + 1);
-          if (lines !== complete && !subscriber.closed) {
-            complete = lines;
-            subscriber.next(parseEnvironmentLog(lines, path));
-          }
-        } while (again && !subscriber.closed);
-      } catch (error) {
-        subscriber.error(error);
-      } finally {
-        reading = false;
-      }
-    };
-    const onChange = () => void read();
-    watchFile(path, { interval: intervalMs, persistent: false }, onChange);
-    void read();
-    return () => unwatchFile(path, onChange);
-  });
 }

@@ -18,4 +18,4 @@ export type {
   RateSource,
   SampleEncoding,
 } from './types.js';
-export { followEnvironmentLog, parseEnvironmentLog, readEnvironmentLog } from './environment-log.js';
+export { parseEnvironmentLog, readEnvironmentLog } from './environment-log.js';

@@ -1,4 +1,5 @@
 // Live link: bytes from a byte source to gap-aware sample blocks, and to positions per axis.
+export { followEnvironmentLog } from './environment-follow.js';
 export {
   createLinkReader,
   type LinkBlock,
