@@ -11,7 +11,6 @@ import {
   createHarmonicEstimator,
   createCorrection,
   createPhaseDomainEstimator,
-  createAnalysisSchedule,
   fastAtan2,
   wrapPhase,
   type ChannelParameters,
@@ -99,7 +98,7 @@ function createEnvelope(maxPoints: number) {
  * full, so points spread over the whole capture. Only the kept samples are corrected: by the calibration, or for
  * three or four outputs as the combined pair level·(cos φ, sin φ) from the channel pipeline's output.
  */
-function createFigureSampler(maxPoints: number, calibration: EllipseCalibration) {
+export function createFigureSampler(maxPoints: number, calibration: EllipseCalibration) {
   const rawX = new Float64Array(maxPoints);
   const rawY = new Float64Array(maxPoints);
   const corrU = new Float64Array(maxPoints);
@@ -244,12 +243,10 @@ export interface AnalysisConfig {
   /** The ADC's mid-scale, the zero of the uncorrected phase. */
   readonly mid: number;
   readonly rateHz: number;
-  readonly totalSamples: number | null;
   readonly metresPerRad: number;
   readonly maxPlotPoints: number;
   readonly modelWatch?: ModelWatchOptions;
   readonly estimateHarmonics?: { readonly orders: number; readonly totalSamples: number };
-  readonly analysisBudgetSamples?: number;
 }
 
 /** The pipeline's output of one block, as the analyses read it. */
@@ -268,8 +265,13 @@ export interface AnalysedBlock {
   readonly length: number;
   /** Times from the capture (s), else null (sample index / rate). */
   readonly t: Float64Array | null;
-  readonly x: Float64Array;
-  readonly y: Float64Array;
+  /**
+   * Whether the periodic-error and radius analyses take this block (the run's createAnalysisSchedule); only then
+   * are the capture's samples x, y needed, else null.
+   */
+  readonly analysed: boolean;
+  readonly x: Float64Array | null;
+  readonly y: Float64Array | null;
   readonly output: BlockOutput;
   /** Three or four outputs with a harmonic correction: the phase before it (the pair as the chain saw it), else null. */
   readonly phaseBeforeHarmonics: Float64Array | null;
@@ -281,7 +283,6 @@ export interface AnalysisResults {
   readonly before: PeriodicErrorResult;
   readonly after: PeriodicErrorResult;
   readonly afterNotMeasured: string | null;
-  readonly analysedEvery: number;
   readonly harmonicEstimate: HarmonicEstimate | null;
   readonly modelWatch: { readonly events: readonly ModelWatchEvent[]; readonly raised: number; readonly activeAtEnd: boolean; readonly options: ReturnType<typeof createModelWatch>['options'] };
   readonly residual: {
@@ -295,8 +296,6 @@ export interface AnalysisResults {
     readonly velocity: Envelope;
     /** Three or four outputs: the source power (1 = the calibration capture's mean), else null. */
     readonly power: Envelope | null;
-    readonly raw: { x: Float64Array; y: Float64Array };
-    readonly corrected: { x: Float64Array; y: Float64Array };
   };
 }
 
@@ -343,22 +342,18 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
   const position = createEnvelope(config.maxPlotPoints);
   const velocity = createEnvelope(config.maxPlotPoints);
   const powerSeries = createEnvelope(config.maxPlotPoints);
-  const figure = createFigureSampler(config.maxPlotPoints, calibration);
   const rawKernel = createWasmFrontEnd({ precision: 'f64-exact' });
   const rawLevel = new Float32Array(CAPTURE_BLOCK_SAMPLES);
   const identity = Float64Array.of(1, 0, 0, 1, 0);
-  const schedule = createAnalysisSchedule({ blockSamples: CAPTURE_BLOCK_SAMPLES, totalSamples: config.totalSamples, budgetSamples: config.analysisBudgetSamples });
-  let blockIndex = 0;
   const secondsPerSample = 1 / rateHz;
 
   return {
     add(block) {
-      const { x, y, output, firstIndex, length: n } = block;
-      const analysed = schedule.take(blockIndex++);
+      const { x, y, output, firstIndex, length: n, analysed } = block;
       // The radius analysis runs on the corrected pair: two outputs through the ellipse correction, three or four
       // power-normalised, taken before the harmonic correction moves the phase (the pair as the chain saw it).
       if (analysed) {
-        if (!combined) correction.process(x, y, correctedU, correctedV, n);
+        if (!combined) correction.process(x!, y!, correctedU, correctedV, n);
         else normalisedPair(output.level, block.phaseBeforeHarmonics ?? output.unwrappedPhaseRad, n, correctedU, correctedV);
       }
       validOf(output.flags, n, valid);
@@ -368,11 +363,10 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
       }
       position.add(output.positionM, n, block.t, firstIndex, secondsPerSample);
       velocity.add(output.velocityMS, n, block.t, firstIndex, secondsPerSample);
-      figure.add(x, y, n, combined ? output : null);
       estimator?.add(output.unwrappedPhaseRad, n, valid);
       if (analysed) {
-        const raw = rawPhases(rawKernel, x, y, n, mid, rawLevel, identity);
-        beforeError(x, y, n, raw, output.unwrappedPhaseRad, errorBefore, mid);
+        const raw = rawPhases(rawKernel, x!, y!, n, mid, rawLevel, identity);
+        beforeError(x!, y!, n, raw, output.unwrappedPhaseRad, errorBefore, mid);
         before.add(output.unwrappedPhaseRad, errorBefore, n, valid);
         after.process(output.unwrappedPhaseRad, valid, n);
         residual.add(correctedU, correctedV, n, valid);
@@ -396,7 +390,6 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
         before: toMetres(before),
         after: toMetres(after),
         afterNotMeasured: afterNotMeasured(after, metresPerRad),
-        analysedEvery: schedule.every,
         harmonicEstimate: estimator === null ? null : estimator.solve(),
         modelWatch: { events: watchEvents, raised: watchRaised, activeAtEnd: watch.active, options: watch.options },
         residual: { summary: residual.summary(), byPhase: residual.radiusByPhase(), overTime: residual.radiusOverTime() },
@@ -404,8 +397,6 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
           position: position.series(),
           velocity: velocity.series(),
           power: combined ? powerSeries.series() : null,
-          raw: figure.raw(),
-          corrected: figure.corrected(),
         },
       };
     },

@@ -31,7 +31,7 @@ const PIPELINE_WAITING = 4;
 const CONTROL_BYTES = 24;
 /** A slot: the pipeline's output, then x, y, times and the phase before harmonics (f64 each), then its header. */
 const SAMPLES_BYTES = 8 * CAPTURE_BLOCK_SAMPLES;
-const HEADER_BYTES = 32;
+const HEADER_BYTES = 40;
 const SLOT_BYTES = BLOCK_OUTPUT_BYTES + 4 * SAMPLES_BYTES + HEADER_BYTES;
 
 /** A slot's arrays over the shared buffer, the same on both threads. */
@@ -41,7 +41,7 @@ export interface RingSlot {
   readonly y: Float64Array;
   readonly t: Float64Array;
   readonly phaseBeforeHarmonics: Float64Array;
-  /** firstIndex, length, whether t holds times, whether phaseBeforeHarmonics holds a phase. */
+  /** firstIndex, length, whether t holds times, whether phaseBeforeHarmonics holds a phase, whether analysed (x, y copied). */
   readonly header: Float64Array;
 }
 
@@ -61,7 +61,7 @@ export function ringOf(buffer: SharedArrayBuffer): AnalysisRing {
       y: samples(1),
       t: samples(2),
       phaseBeforeHarmonics: samples(3),
-      header: new Float64Array(buffer, at + BLOCK_OUTPUT_BYTES + 4 * SAMPLES_BYTES, 4),
+      header: new Float64Array(buffer, at + BLOCK_OUTPUT_BYTES + 4 * SAMPLES_BYTES, 5),
     });
   }
   return { control: new Int32Array(buffer, 0, CONTROL_BYTES / 4), slots };
@@ -69,15 +69,16 @@ export function ringOf(buffer: SharedArrayBuffer): AnalysisRing {
 
 /** The block in a slot, as the analyses take it (views of the slot's arrays, `length` long). */
 export function blockInSlot(slot: RingSlot): AnalysedBlock {
-  const [firstIndex, length, hasTimes, hasPhase] = slot.header as unknown as [number, number, number, number];
+  const [firstIndex, length, hasTimes, hasPhase, analysed] = slot.header as unknown as [number, number, number, number, number];
   const view = <T extends Float64Array | Float32Array | Uint8Array>(array: T) => (length === CAPTURE_BLOCK_SAMPLES ? array : (array.subarray(0, length) as T));
   const o = slot.output;
   return {
     firstIndex,
     length,
     t: hasTimes ? view(slot.t) : null,
-    x: view(slot.x),
-    y: view(slot.y),
+    analysed: analysed === 1,
+    x: analysed ? view(slot.x) : null,
+    y: analysed ? view(slot.y) : null,
     output: { positionM: view(o.positionM), velocityMS: view(o.velocityMS), level: view(o.level), flags: view(o.flags), unwrappedPhaseRad: view(o.unwrappedPhaseRad), power: view(o.power) },
     phaseBeforeHarmonics: hasPhase ? view(slot.phaseBeforeHarmonics) : null,
   };
@@ -91,7 +92,10 @@ export interface AnalysisThread {
   next(): Promise<BlockOutput>;
   /** The array to keep the phase in before a harmonic correction (three or four outputs), in the same slot. */
   phaseSlot(): Float64Array;
-  /** Hands the block over: its samples (and times, and the phase before harmonics if kept) are copied into the slot of `next`'s arrays. */
+  /**
+   * Hands the block over: its times and, for an analysed block, its samples are copied into the slot of `next`'s
+   * arrays (the phase before harmonics is already there, see phaseSlot).
+   */
   add(block: Omit<AnalysedBlock, 'output'>): void;
   /** Waits for the worker to analyse every block handed over and returns its results. */
   finish(): Promise<AnalysisResults>;
@@ -157,13 +161,16 @@ export function startAnalysisThread(config: AnalysisConfig): AnalysisThread {
     },
     add(block) {
       const slot = slots[written % RING_SLOTS]!;
-      slot.x.set(block.x.subarray(0, block.length));
-      slot.y.set(block.y.subarray(0, block.length));
+      if (block.analysed) {
+        slot.x.set(block.x!.subarray(0, block.length));
+        slot.y.set(block.y!.subarray(0, block.length));
+      }
       if (block.t !== null) slot.t.set(block.t.subarray(0, block.length));
       slot.header[0] = block.firstIndex;
       slot.header[1] = block.length;
       slot.header[2] = block.t === null ? 0 : 1;
       slot.header[3] = block.phaseBeforeHarmonics === null ? 0 : 1;
+      slot.header[4] = block.analysed ? 1 : 0;
       written++;
       Atomics.store(control, WRITTEN, written);
       if (written - Atomics.load(control, READ) >= WAKE_BATCH && Atomics.load(control, WORKER_WAITING) === 1) Atomics.notify(control, WRITTEN);

@@ -7,6 +7,7 @@ import {
   createChannelPipeline,
   createDetectorFit,
   createHarmonicCorrection,
+  createAnalysisSchedule,
   adcMidScale,
   type AdcFormat,
   type AlarmEvent,
@@ -23,7 +24,15 @@ import {
 import { createPipeline } from '../src/accel/index.js';
 import { openCapture, type CaptureInfo, type OpenCaptureOptions } from '../src/io/capture/index.js';
 import type { ResultWriter } from '../src/io/results/index.js';
-import { CAPTURE_BLOCK_SAMPLES, MAX_SPANS, createBlockOutput, createCaptureAnalyses, type AnalysisConfig, type AnalysisResults } from './capture-analyses.js';
+import {
+  CAPTURE_BLOCK_SAMPLES,
+  MAX_SPANS,
+  createBlockOutput,
+  createCaptureAnalyses,
+  createFigureSampler,
+  type AnalysisConfig,
+  type AnalysisResults,
+} from './capture-analyses.js';
 import { startAnalysisThread } from './capture-analysis-thread.js';
 import type { Progress } from './progress.js';
 
@@ -98,7 +107,7 @@ function unipolar(layout: readonly ChannelParameters[] | undefined, calibration:
   return Math.abs(calibration.offsetX - mid) > calibration.amplitudeX || Math.abs(calibration.offsetY - mid) > calibration.amplitudeY;
 }
 
-export interface RunResult extends AnalysisResults {
+export interface RunResult extends Omit<AnalysisResults, 'report'> {
   readonly info: CaptureInfo;
   readonly samples: number;
   readonly metresPerRad: number;
@@ -111,6 +120,13 @@ export interface RunResult extends AnalysisResults {
   readonly alarmSpans: readonly AlarmSpan[];
   /** Why "before" means nothing for this capture (unipolar signals), else null. */
   readonly beforeNotApplicable: string | null;
+  /** The periodic-error and radius analyses looked at every `analysedEvery`-th block of 4096 samples (1: all of them; see createAnalysisSchedule). */
+  readonly analysedEvery: number;
+  /** The series and figures the report draws. */
+  readonly report: AnalysisResults['report'] & {
+    readonly raw: { x: Float64Array; y: Float64Array };
+    readonly corrected: { x: Float64Array; y: Float64Array };
+  };
 }
 
 export interface RunOptions {
@@ -193,13 +209,15 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     layout: layout ?? null,
     mid,
     rateHz: info.rateHz,
-    totalSamples: info.totalSamples,
     metresPerRad,
     maxPlotPoints: options.maxPlotPoints ?? 2000,
     ...(options.modelWatch === undefined ? {} : { modelWatch: options.modelWatch }),
     ...(options.estimateHarmonics === undefined ? {} : { estimateHarmonics: options.estimateHarmonics }),
-    ...(options.analysisBudgetSamples === undefined ? {} : { analysisBudgetSamples: options.analysisBudgetSamples }),
   };
+  const schedule = createAnalysisSchedule({ blockSamples: CAPTURE_BLOCK_SAMPLES, totalSamples: info.totalSamples, budgetSamples: options.analysisBudgetSamples });
+  let blockIndex = 0;
+  // The figures keep a few samples a block: drawn here, so that the analyses need the samples of analysed blocks only.
+  const figure = createFigureSampler(config.maxPlotPoints, calibration);
   const thread = useAnalysisThread(options.analysisThread ?? 'auto', info.totalSamples) ? startAnalysisThread(config) : null;
   const inline = thread === null ? createCaptureAnalyses(config) : null;
   const inlineOutput = createBlockOutput();
@@ -247,9 +265,11 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
           if (start !== undefined && spans.length < MAX_SPANS) spans.push({ kind: event.kind, startS: start, endS: t });
         }
       }
-      const analysed = { firstIndex: block.firstIndex, length: n, t: block.t, x: block.x, y: block.y, phaseBeforeHarmonics };
-      if (thread === null) inline!.add({ ...analysed, output });
-      else thread.add(analysed);
+      figure.add(block.x, block.y, n, combined === null ? null : output);
+      const analysed = schedule.take(blockIndex++);
+      const handed = { firstIndex: block.firstIndex, length: n, t: block.t, analysed, x: analysed ? block.x : null, y: analysed ? block.y : null, phaseBeforeHarmonics };
+      if (thread === null) inline!.add({ ...handed, output });
+      else thread.add(handed);
       samples += n;
       finalPositionM = output.positionM[n - 1]!;
       progress.update(block.firstIndex + n);
@@ -265,6 +285,8 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   for (const [kind, start] of open) if (spans.length < MAX_SPANS) spans.push({ kind, startS: start, endS: Number.NaN });
   return {
     ...analyses,
+    analysedEvery: schedule.every,
+    report: { ...analyses.report, raw: figure.raw(), corrected: figure.corrected() },
     info,
     samples,
     metresPerRad,
