@@ -1,6 +1,7 @@
 // `--tools`: calibrate and replay end to end, as a user runs them: a process of the tool per run, start-up
 // included, on an int16 WAV of an invented signal (bench/cases/capture.ts `generate`), replay with
-// `--every 10000`. Figures: wall-clock samples/s, the process's CPU time and peak resident memory (read by
+// `--every 10000`, its analyses on a second thread (the default) and in line. Figures: wall-clock samples/s, the
+// process's CPU time and peak resident memory (read by
 // bench/report-usage.ts), and for memory the same replay on a short and a long capture: the peak must not grow
 // with the run.
 import { spawnSync } from 'node:child_process';
@@ -69,6 +70,8 @@ export async function toolCases(options: ToolBenchOptions = {}): Promise<BenchRe
     results.push(result(`calibrate/wav/int16/${samples}/end-to-end`, samples, calibrate));
     const replayArgs = (file: string) => ['replay', file, '--calibration', calibration, '--every', '10000', '--out', join(directory, 'result.csv'), ...measure];
     results.push(result(`replay/wav/int16/${samples}/every10000/end-to-end`, samples, medianRun(replayArgs(capture), passes)));
+    // The same with the analyses in line (one thread): what the analysis thread buys on this machine.
+    results.push(result(`replay/wav/int16/${samples}/every10000/end-to-end/analyses-inline`, samples, medianRun([...replayArgs(capture), '--analysis-thread', 'off'], passes)));
     await rm(capture);
     const peaks: ToolRun[] = [];
     for (const length of [short, long]) {
