@@ -21,7 +21,7 @@ import {
   type SpeedLimits,
   type UnwrapMethod,
 } from '../src/core/index.js';
-import { createPipeline } from '../src/accel/index.js';
+import { createFastEllipseAccumulator, createPipeline } from '../src/accel/index.js';
 import { openCapture, type CaptureInfo, type OpenCaptureOptions } from '../src/io/capture/index.js';
 import type { ResultWriter } from '../src/io/results/index.js';
 import {
@@ -45,7 +45,8 @@ export function adcOf(info: CaptureInfo): { adc: AdcFormat; stated: boolean } {
 
 /**
  * Fits the ellipse with the library's detector fit (`createDetectorFit`: for 3 or 4 outputs a source-power pass
- * first, then the two-pass gated fit), reading the file once per pass.
+ * first, then the two-pass gated fit), reading the file once per pass; the sums in WebAssembly where it exists
+ * (`createFastEllipseAccumulator`: the same sums to the bit).
  */
 export async function fitCapture(
   path: string,
@@ -53,7 +54,7 @@ export async function fitCapture(
   fitOptions: EllipseFitMethodOptions,
   progress: Progress,
 ): Promise<{ fit: EllipseFitResult; info: CaptureInfo; totalSamples: number; channels?: readonly ChannelParameters[] }> {
-  const fit = createDetectorFit({ ...fitOptions, channelCount: open.channels?.length ?? 2 });
+  const fit = createDetectorFit({ ...fitOptions, channelCount: open.channels?.length ?? 2, accumulator: createFastEllipseAccumulator() });
   const labels = [' (source power)', '', ' (refined)'];
   let totalSamples = 0;
   for (;;) {

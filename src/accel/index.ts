@@ -10,3 +10,4 @@ export {
 } from './front-end.js';
 export { createFusedFrontEnd, type FusedFrontEndOptions } from './fused-front-end.js';
 export { createExactFrontEnd, createPipeline, type ExactFrontEnd, type ExactFrontEndKind } from './pipeline.js';
+export { createFastEllipseAccumulator, createWasmEllipseAccumulator } from './ellipse-accumulator.js';

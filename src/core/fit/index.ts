@@ -20,4 +20,4 @@ export type { HarmonicCorrection, HarmonicEstimate, HarmonicEstimator, HarmonicE
 export { createModelWatch, MODEL_WATCH_ALARM, MODEL_WATCH_CHUNK_SAMPLES } from './model-watch.js';
 export type { ModelWatch, ModelWatchEvent, ModelWatchOptions } from './model-watch.js';
 export { createDetectorFit, createTwoPassFit } from './two-pass.js';
-export type { DetectorFit, DetectorFitResult, TwoPassFit } from './two-pass.js';
+export type { DetectorFit, DetectorFitResult, TwoPassFit, TwoPassFitOptions } from './two-pass.js';

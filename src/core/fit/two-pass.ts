@@ -4,7 +4,7 @@
 // 4 detector outputs a pass before them finds the source power (createDetectorFit), so a file is read three times.
 
 import { createCorrection } from '../correction.js';
-import { createEllipseAccumulator } from './accumulator.js';
+import { createEllipseAccumulator, type EllipseAccumulator } from './accumulator.js';
 import type { EllipseCalibration, EllipseFitResult } from './ellipse.js';
 import { createEllipseFit, type EllipseFitMethodOptions } from './methods.js';
 import {
@@ -77,10 +77,22 @@ export function keepWithin(
   return kept;
 }
 
-/** Options as `createEllipseFit` (method default 'hyper'). */
-export function createTwoPassFit(options: EllipseFitMethodOptions = {}): TwoPassFit {
-  const fit = createEllipseFit(options);
-  const accumulator = createEllipseAccumulator(options);
+/** Options of `createTwoPassFit` (and of `createDetectorFit`): those of `createEllipseFit`, and where the sums are kept. */
+export interface TwoPassFitOptions extends EllipseFitMethodOptions {
+  /**
+   * The accumulator of the passes' sums, reset by the fit; default a new `createEllipseAccumulator`. Any
+   * accumulator that keeps the same sums gives the same fit: src/accel's `createFastEllipseAccumulator` does,
+   * faster.
+   */
+  readonly accumulator?: EllipseAccumulator;
+}
+
+/** Options as `createEllipseFit` (method default 'hyper'), plus the accumulator. */
+export function createTwoPassFit(options: TwoPassFitOptions = {}): TwoPassFit {
+  const { accumulator: given, ...fitOptions } = options;
+  const fit = createEllipseFit(fitOptions);
+  const accumulator = given ?? createEllipseAccumulator(fitOptions);
+  accumulator.reset();
   const correction = createCorrection();
   const keptX = new Float64Array(CHUNK);
   const keptY = new Float64Array(CHUNK);
@@ -158,7 +170,7 @@ export interface DetectorFit {
  * the two-pass fit of the power-normalised pair. Constant memory apart from a scratch pair as long as the longest
  * block added. Options as `createTwoPassFit`, plus `channelCount` (integer 2..4).
  */
-export function createDetectorFit(options: EllipseFitMethodOptions & { readonly channelCount: number }): DetectorFit {
+export function createDetectorFit(options: TwoPassFitOptions & { readonly channelCount: number }): DetectorFit {
   const { channelCount, ...fitOptions } = options;
   const k = integerInRange('channelCount', channelCount, MIN_CHANNELS, MAX_CHANNELS);
   const fit = createTwoPassFit(fitOptions);

@@ -1,0 +1,118 @@
+// The WebAssembly accumulator (src/accel/ellipse-accumulator.ts) against the core's createEllipseAccumulator:
+// after any sequence of adds (any block sizes, across the kernel's 4096-pair chunks), merges and resets, the same
+// moment sums, coverage grid, shift and skipped count, bit for bit, and so the same fits. Samples are invented: an
+// invented ellipse at drawn radii, with glitches that zoom the grid out and non-finite values.
+import { describe, expect, it } from 'vitest';
+import fc from 'fast-check';
+import { createEllipseAccumulator, createTwoPassFit, type EllipseAccumulator } from '../../src/core/index.js';
+import { createFastEllipseAccumulator, createWasmEllipseAccumulator } from '../../src/accel/index.js';
+import '../support/property-seed.js';
+
+const ellipse = { offsetX: 37, offsetY: -21, amplitudeX: 9000, amplitudeY: 7600, phaseErrorRad: 0.3 };
+
+const pairs = fc
+  .array(
+    fc.record({
+      phase: fc.double({ min: -4, max: 4, noNaN: true }),
+      radius: fc.oneof(fc.constant(0), fc.double({ min: 0, max: 1.6, noNaN: true })),
+      glitch: fc.oneof(fc.constant(null), fc.constant(null), fc.constantFrom(Number.NaN, Infinity, -Infinity, 3e5, -1e9, 0.25)),
+      integer: fc.boolean(),
+      repeat: fc.oneof(fc.constant(1), fc.integer({ min: 1, max: 3000 })),
+    }),
+    { minLength: 0, maxLength: 40 },
+  )
+  .map((points) => {
+    const x: number[] = [];
+    const y: number[] = [];
+    for (const { phase, radius, glitch, integer, repeat } of points) {
+      const at = (value: number) => (integer ? Math.round(value) : value);
+      // A run of `repeat` pairs stepping along the ellipse, so that blocks cross the kernel's chunks.
+      for (let k = 0; k < repeat; k++) {
+        const p = phase + k * 0.01;
+        x.push(at(ellipse.offsetX + ellipse.amplitudeX * radius * Math.cos(p)));
+        y.push(k === 0 && glitch !== null ? glitch : at(ellipse.offsetY + ellipse.amplitudeY * radius * Math.sin(p + ellipse.phaseErrorRad)));
+      }
+    }
+    return { x: Float64Array.from(x), y: Float64Array.from(y) };
+  });
+
+type Step = { kind: 'add'; x: Float64Array; y: Float64Array } | { kind: 'merge'; x: Float64Array; y: Float64Array } | { kind: 'reset' };
+const steps = fc.array(
+  fc.oneof(
+    { weight: 6, arbitrary: pairs.map((p): Step => ({ kind: 'add', ...p })) },
+    { weight: 1, arbitrary: pairs.map((p): Step => ({ kind: 'merge', ...p })) },
+    { weight: 1, arbitrary: fc.constant<Step>({ kind: 'reset' }) },
+  ),
+  { minLength: 1, maxLength: 8 },
+);
+
+function expectSameState(actual: EllipseAccumulator, expected: EllipseAccumulator): void {
+  const [a, e] = [actual.state, expected.state];
+  expect([a.shiftX, a.shiftY, a.gridHalfWidth]).toEqual([e.shiftX, e.shiftY, e.gridHalfWidth]);
+  expect(Array.from(a.moments)).toEqual(Array.from(e.moments));
+  expect(Array.from(a.occupancy)).toEqual(Array.from(e.occupancy));
+  expect(actual.skippedNonFinite).toBe(expected.skippedNonFinite);
+  expect(actual.samples).toBe(expected.samples);
+}
+
+describe('WebAssembly ellipse accumulator', () => {
+  const wasm = createWasmEllipseAccumulator();
+
+  it('exists on this engine (WebAssembly SIMD), else the fast accumulator is the core one', () => {
+    expect(wasm).not.toBeNull();
+    expect(typeof createFastEllipseAccumulator().add).toBe('function');
+  });
+
+  it('keeps the core accumulator’s sums, grid, shift and counts to the bit after any adds, merges and resets', () => {
+    fc.assert(
+      fc.property(steps, (sequence) => {
+        const fast = createWasmEllipseAccumulator()!;
+        const core = createEllipseAccumulator();
+        for (const step of sequence) {
+          if (step.kind === 'reset') {
+            fast.reset();
+            core.reset();
+          } else if (step.kind === 'add') {
+            fast.add(step.x, step.y, step.x.length);
+            core.add(step.x, step.y, step.x.length);
+          } else {
+            const other = createEllipseAccumulator();
+            other.add(step.x, step.y, step.x.length);
+            fast.merge(other);
+            core.merge(other);
+          }
+          expectSameState(fast, core);
+        }
+        expect(fast.solve()).toEqual(core.solve());
+      }),
+      { numRuns: 150 },
+    );
+  });
+
+  it('gives the two-pass fit the core accumulator gives, for any block size', () => {
+    const n = 20_000;
+    const x = new Float64Array(n);
+    const y = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const phase = (6 * Math.PI * i) / n;
+      const radius = i > 15_000 && i < 16_000 ? 0.3 : 1 + 0.01 * Math.sin(i * 1.7);
+      x[i] = Math.round(ellipse.offsetX + ellipse.amplitudeX * radius * Math.cos(phase));
+      y[i] = Math.round(ellipse.offsetY + ellipse.amplitudeY * radius * Math.sin(phase + ellipse.phaseErrorRad));
+    }
+    fc.assert(
+      fc.property(fc.integer({ min: 1, max: 9000 }), (block) => {
+        const run = (fit: ReturnType<typeof createTwoPassFit>) => {
+          for (;;) {
+            for (let start = 0; start < n; start += block) fit.add(x.subarray(start, start + block), y.subarray(start, start + block), Math.min(block, n - start));
+            const result = fit.endPass();
+            if (result !== null) return result;
+          }
+        };
+        const core = run(createTwoPassFit());
+        expect(core.ok).toBe(true);
+        expect(run(createTwoPassFit({ accumulator: createWasmEllipseAccumulator()! }))).toEqual(core);
+      }),
+      { numRuns: 15 },
+    );
+  });
+});
