@@ -2,7 +2,8 @@
 // the core cases' int16 signal) pushed in 4096-byte chunks from an in-memory byte source through the live session
 // (decoder, pipeline) into the result writer through listen's rows sink (CSV, every row; --every 10000 beside it),
 // as `listen` runs them.
-// Wall clock and process CPU time from the first chunk to the session's end. Memory: the same chain over 10^7 and
+// Wall clock and process CPU time from the first chunk to the session's end; passes of the bare default pipeline
+// alternate with the chain's in the same process, and `overBarePipeline` is the median ratio of their speeds. Memory: the same chain over 10^7 and
 // 10^8 samples (frames encoded as they are fed, --every 10000), each in a process of its own, and the growth of its
 // peak resident memory between them: it must not grow with the run.
 import { spawnSync } from 'node:child_process';
@@ -10,14 +11,15 @@ import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
-import type { EllipseCalibration } from '../../src/core/index.js';
+import { createPipeline } from '../../src/accel/index.js';
+import type { AlarmEvent, EllipseCalibration } from '../../src/core/index.js';
 import { createResultWriter } from '../../src/io/results/index.js';
 import { createManualByteSource } from '../../src/io/serial/index.js';
 import { encodeWireFrame, wireFrameLength } from '../../src/io/wire/index.js';
 import { createLiveSession } from '../../tools/live/live-session.js';
 import { resultRows } from '../../tools/live/result-rows.js';
-import type { BenchResult } from '../harness.js';
-import { benchSignal, TOTAL_SAMPLES } from './core.js';
+import { median, type BenchResult } from '../harness.js';
+import { benchSignal, BLOCK, TOTAL_SAMPLES } from './core.js';
 
 // The calibration benchSignal draws its ellipse from (bench/cases/core.ts).
 const ellipse: EllipseCalibration = { offsetX: 700, offsetY: -450, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 };
@@ -42,7 +44,12 @@ function wireChunks(): Uint8Array[] {
   return chunks;
 }
 
-async function listenOnce(chunks: readonly Uint8Array[], out: string, every: number): Promise<{ wall: number; cpu: number }> {
+/**
+ * One run of the chain. Queued: every chunk written at once, so chunks wait in the session's input and are taken
+ * together (up to 64 KiB); paced: one chunk per turn of the event loop, each a block of its own, as from a port
+ * that the chain keeps up with.
+ */
+async function listenOnce(chunks: readonly Uint8Array[], out: string, every: number, paced = false): Promise<{ wall: number; cpu: number }> {
   const writer = await createResultWriter(out, { format: 'csv', every });
   const source = createManualByteSource();
   const wallStart = process.hrtime.bigint();
@@ -57,7 +64,10 @@ async function listenOnce(chunks: readonly Uint8Array[], out: string, every: num
     ],
   }).start();
   source.linkUp();
-  for (const chunk of chunks) source.write(chunk);
+  for (const chunk of chunks) {
+    source.write(chunk);
+    if (paced) await new Promise((resolve) => setImmediate(resolve));
+  }
   source.end();
   await session.done;
   await writer.close();
@@ -151,23 +161,55 @@ export async function listenMemoryCases(lengths: readonly [number, number] = [1e
   return results;
 }
 
+/**
+ * Passes of the bare default pipeline over the same signal in 4096-sample blocks (the core case
+ * `pipeline/int16/block4096`), to alternate with the chain's: on a shared machine the speed of both moves between
+ * runs, their ratio within one process much less. Returns one pass's process CPU time, s.
+ */
+function barePipeline(): () => number {
+  const { x, y } = benchSignal(TOTAL_SAMPLES);
+  const pipeline = createPipeline({ rateHz: 10_000_000, wavelengthM: 632.9908e-9, fold: 2, calibration: ellipse, adc: { kind: 'int16' } });
+  const output = { positionM: new Float64Array(BLOCK), velocityMS: new Float64Array(BLOCK), level: new Float32Array(BLOCK), flags: new Uint8Array(BLOCK) };
+  const events: AlarmEvent[] = [];
+  return () => {
+    pipeline.reset();
+    const start = process.cpuUsage();
+    for (let at = 0; at < TOTAL_SAMPLES; at += BLOCK) {
+      pipeline.process(x.subarray(at, at + BLOCK), y.subarray(at, at + BLOCK), BLOCK, output, events);
+      events.length = 0;
+    }
+    const used = process.cpuUsage(start);
+    return (used.user + used.system) / 1e6;
+  };
+}
+
 export async function listenCases(passes = 5): Promise<BenchResult[]> {
   const chunks = wireChunks();
+  const bare = barePipeline();
   const directory = await mkdtemp(join(tmpdir(), 'fringetally-bench-listen-'));
   const results: BenchResult[] = [];
   try {
-    for (const every of [1, 10_000]) {
-      await listenOnce(chunks, join(directory, 'rows.csv'), every); // warm-up
+    for (const [every, paced] of [[1, false], [10_000, false], [10_000, true]] as const) {
+      // Warm-up, then passes of the chain and of the bare pipeline alternating; medians, and the median of the
+      // pairs' ratios (the chain's samples per second over the bare pipeline's, both in process CPU time).
+      bare();
+      await listenOnce(chunks, join(directory, 'rows.csv'), every, paced);
       const runs: { wall: number; cpu: number }[] = [];
-      for (let pass = 0; pass < passes; pass++) runs.push(await listenOnce(chunks, join(directory, 'rows.csv'), every));
+      const bareSeconds: number[] = [];
+      const ratios: number[] = [];
+      for (let pass = 0; pass < passes; pass++) {
+        bareSeconds.push(bare());
+        runs.push(await listenOnce(chunks, join(directory, 'rows.csv'), every, paced));
+        ratios.push(bareSeconds[pass]! / runs[pass]!.cpu);
+      }
       runs.sort((a, b) => a.cpu - b.cpu);
       const run = runs[runs.length >> 1]!;
       results.push({
-        name: `listen/in-memory/2ch/${SAMPLES_PER_FRAME}spf/every${every}`,
+        name: `listen/in-memory/2ch/${SAMPLES_PER_FRAME}spf/every${every}${paced ? '/chunk-at-a-time' : ''}`,
         samplesPerSecond: TOTAL_SAMPLES / run.cpu,
         nsPerSample: (run.cpu * 1e9) / TOTAL_SAMPLES,
         passes,
-        extra: { wallSamplesPerSecond: TOTAL_SAMPLES / run.wall },
+        extra: { wallSamplesPerSecond: TOTAL_SAMPLES / run.wall, barePipelineSamplesPerSecond: TOTAL_SAMPLES / median(bareSeconds), overBarePipeline: median(ratios) },
       });
     }
   } finally {

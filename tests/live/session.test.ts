@@ -57,13 +57,51 @@ describe('live session', () => {
     expect(fit.ok && fit.calibration.phaseErrorRad).toBeCloseTo(0.06, 2);
   });
 
+  it('takes byte chunks waiting in its input together (64 KiB at most): fewer, longer blocks, the same positions', async () => {
+    const run = async (paced: boolean) => {
+      const source = createManualByteSource();
+      const blocks: number[] = [];
+      const positions: number[] = [];
+      const sink: LiveSink = {
+        name: 'rows',
+        positions({ summaries }) {
+          blocks.push(summaries[0]!.length);
+          positions.push(...summaries[0]!.output.positionM);
+        },
+      };
+      const live = createLiveSession({ source, track: { axes: [{ ...OPTICS, calibration: ellipse }] }, sinks: [sink], maxBufferedBytes: 1 << 20 }).start();
+      const frames = emulator({ motion: { kind: 'constant', velocityMS: 0.05 } });
+      source.linkUp();
+      // 400 chunks of 3 frames (150 samples, 650 bytes each): 260 kB in all.
+      for (let k = 0; k < 400; k++) {
+        source.write(frames.next(3).bytes.slice());
+        if (paced) await tick();
+      }
+      source.end();
+      await live.done;
+      return { blocks, positions };
+    };
+    const paced = await run(true);
+    const queued = await run(false);
+    expect(paced.blocks.every((length) => length === 150)).toBe(true);
+    // Whole chunks up to 65 536 bytes: 100 chunks (65 000 bytes) a block.
+    expect(queued.blocks).toEqual([15_000, 15_000, 15_000, 15_000]);
+    expect(queued.positions).toEqual(paced.positions);
+  });
+
   it('ends with an error naming the fix when the live fit fails for good', async () => {
     const { source, chain } = session({ axes: [{ ...OPTICS, calibration: 'fit' }], fitSamples: 64, fitAttempts: 2 });
     const live = chain.start();
     // No motion: every sample on one point of the ellipse, nothing to fit. Attempts at 100 and 150 samples held.
     const still = emulator({ motion: { kind: 'constant', velocityMS: 0 } });
-    for (let k = 0; k < 4; k++) source.write(still.next(1).bytes.slice()); // a copy: the emulator reuses its buffer and the session queues chunks
-    await expect(live.done).rejects.toThrow(/cannot fit the correction of axis axis0 to the first 150 samples .*move the stage over at least one fringe/);
+    const failed = expect(live.done).rejects.toThrow(/cannot fit the correction of axis axis0 to the first 150 samples .*move the stage over at least one fringe/);
+    // A copy: the emulator reuses its buffer and the session queues chunks. One at a time, so that each is a block of
+    // its own (chunks waiting together are taken as one block, and attempts are made at the end of a block).
+    for (let k = 0; k < 4; k++) {
+      source.write(still.next(1).bytes.slice());
+      await tick();
+    }
+    await failed;
   });
 
   it('stops exactly after the duration, even inside a chunk', async () => {

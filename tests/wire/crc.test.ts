@@ -1,5 +1,6 @@
 import fc from 'fast-check';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { crc32cWords } from '../../src/io/wire/crc32c.js';
 import { crc32c } from '../../src/io/wire/index.js';
 import { buildFirmwareProgram, type FirmwareProgram } from './firmware-c.js';
 
@@ -47,11 +48,17 @@ describe('CRC-32C (TypeScript)', () => {
       return (crc ^ 0xffffffff) >>> 0;
     };
     fc.assert(
-      fc.property(fc.uint8Array({ maxLength: 80 }), fc.nat(), fc.nat(), (bytes, a, b) => {
+      fc.property(fc.uint8Array({ maxLength: 80 }), fc.nat(), fc.nat(), fc.nat({ max: 7 }), (bytes, a, b, offset) => {
         const start = bytes.length === 0 ? 0 : a % (bytes.length + 1);
         const end = start + (b % (bytes.length - start + 1));
-        expect(crc32c(bytes, start, end)).toBe(bitwise(bytes, start, end));
-        expect(crc32c(Buffer.from(bytes), start, end)).toBe(bitwise(bytes, start, end));
+        const expected = bitwise(bytes, start, end);
+        expect(crc32c(bytes, start, end)).toBe(expected);
+        expect(crc32c(Buffer.from(bytes), start, end)).toBe(expected);
+        // The word loop (little-endian hosts) at every alignment of the bytes in their memory.
+        const memory = new ArrayBuffer(bytes.length + offset + 5);
+        const placed = new Uint8Array(memory, offset, bytes.length);
+        placed.set(bytes);
+        expect(crc32cWords(placed, new Int32Array(memory, 0, memory.byteLength >> 2), start, end)).toBe(expected);
       }),
       { numRuns: 500 },
     );

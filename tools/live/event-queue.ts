@@ -6,6 +6,10 @@ import type { Observable, Subscription } from 'rxjs';
 export interface EventQueue<T> {
   /** The next value; null once the observable completed or `stop()` was called and the queue is empty. Rejects with the observable's error. */
   next(): Promise<T | null>;
+  /** The next value when one is waiting (taken), else undefined: never waits. */
+  poll(): T | undefined;
+  /** The next value when one is waiting, left in the queue; else undefined. */
+  peek(): T | undefined;
   /** Unsubscribes: no further values are queued, those already queued are still handed out. */
   stop(): void;
   /** Values waiting to be taken. */
@@ -101,6 +105,12 @@ export function queueObservable<T>(observable: Observable<T>, options: EventQueu
       return new Promise<T | null>((resolve, reject) => {
         waiting = { resolve, reject };
       });
+    },
+    poll() {
+      return head < items.length ? take() : undefined;
+    },
+    peek() {
+      return head < items.length ? items[head] : undefined;
     },
     stop,
     get length() {

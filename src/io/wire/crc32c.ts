@@ -26,6 +26,9 @@ function buildTable(): Uint32Array {
   return entries;
 }
 
+/** Table as int32, for the word loop: its XORs stay int32 (no conversion from values above 2^31). */
+const tableInt32 = new Int32Array(table.buffer);
+
 /**
  * CRC-32C of `bytes[start, end)`. Allocation-free; returns an unsigned 32-bit integer.
  */
@@ -47,4 +50,33 @@ export function crc32c(bytes: Uint8Array, start = 0, end = bytes.length): number
   }
   for (; i < end; i++) crc = t[(crc ^ bytes[i]!) & 0xff]! ^ (crc >>> 8);
   return (crc ^ 0xffffffff) >>> 0;
+}
+
+/**
+ * CRC-32C of `bytes[start, end)`, as `crc32c`, given also the bytes' memory as int32 (`words`: an Int32Array over
+ * `bytes.buffer` from its start, read little-endian, i.e. on a little-endian host): eight bytes come in two loads
+ * instead of eight (about a third faster). Allocation-free.
+ */
+export function crc32cWords(bytes: Uint8Array, words: Int32Array, start: number, end: number): number {
+  const t = tableInt32;
+  const base = bytes.byteOffset;
+  let crc = -1;
+  let i = start;
+  while (i < end && ((base + i) & 3) !== 0) crc = t[(crc ^ bytes[i++]!) & 0xff]! ^ (crc >>> 8);
+  for (; i + 8 <= end; i += 8) {
+    const at = (base + i) >> 2;
+    const low = crc ^ words[at]!;
+    const high = words[at + 1]!;
+    crc =
+      t[1792 + (low & 0xff)]! ^
+      t[1536 + ((low >>> 8) & 0xff)]! ^
+      t[1280 + ((low >>> 16) & 0xff)]! ^
+      t[1024 + (low >>> 24)]! ^
+      t[768 + (high & 0xff)]! ^
+      t[512 + ((high >>> 8) & 0xff)]! ^
+      t[256 + ((high >>> 16) & 0xff)]! ^
+      t[high >>> 24]!;
+  }
+  for (; i < end; i++) crc = t[(crc ^ bytes[i]!) & 0xff]! ^ (crc >>> 8);
+  return (crc ^ -1) >>> 0;
 }

@@ -5,7 +5,7 @@
 
 import { integerInRange, OptionError } from '../../core/options.js';
 import type { InputGap, SampleBlock } from './block.js';
-import { crc32c } from './crc32c.js';
+import { crc32c, crc32cWords } from './crc32c.js';
 import {
   WIRE_CRC_BYTES,
   WIRE_EDGE_BYTES,
@@ -135,8 +135,9 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
   const config: WireDecoderConfig = Object.freeze({ maxChannels, maxSamplesPerFrame, bufferBytes });
 
   const buffer = new Uint8Array(bufferBytes);
-  // The buffer's bytes read as int16 (null on a big-endian host); a chunk's get a view of their own in push.
+  // The buffer's bytes read as int16 and int32 (null on a big-endian host); a chunk's get views of their own in push.
   const bufferWords = LITTLE_ENDIAN_HOST ? new Int16Array(buffer.buffer, 0, bufferBytes >> 1) : null;
+  const bufferQuads = LITTLE_ENDIAN_HOST ? new Int32Array(buffer.buffer, 0, bufferBytes >> 2) : null;
   const sampleStore = new Int16Array(maxChannels * maxSamplesPerFrame);
   const counters: WireDecoderCounters = {
     bytesIn: 0,
@@ -360,7 +361,7 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
    * Decodes every complete frame in `bytes[start, end)` and returns the index where the unfinished tail
    * begins (end when nothing is left). Works on the internal buffer and, to avoid copying, on chunks.
    */
-  function parse(bytes: Uint8Array, words: Int16Array | null, start: number, end: number): number {
+  function parse(bytes: Uint8Array, words: Int16Array | null, quads: Int32Array | null, start: number, end: number): number {
     let p = start;
     while (p < end) {
       if (bytes[p] !== WIRE_SYNC_0) {
@@ -387,7 +388,8 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
         continue;
       }
       if (available < length) break;
-      if (crc32c(bytes, p, p + length - WIRE_CRC_BYTES) !== readU32(bytes, p + length - WIRE_CRC_BYTES)) {
+      const crc = quads === null ? crc32c(bytes, p, p + length - WIRE_CRC_BYTES) : crc32cWords(bytes, quads, p, p + length - WIRE_CRC_BYTES);
+      if (crc !== readU32(bytes, p + length - WIRE_CRC_BYTES)) {
         // Retry from the next byte: the real frame start may lie inside this false or damaged candidate.
         counters.crcFailures++;
         skip(1);
@@ -431,7 +433,7 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
       const copied = Math.min(bytesWanted(), bufferBytes - filled, chunk.length - read);
       copyIntoBuffer(chunk, read, copied);
       read += copied;
-      const tail = parse(buffer, bufferWords, 0, filled);
+      const tail = parse(buffer, bufferWords, bufferQuads, 0, filled);
       const left = filled - tail;
       if (left <= copied) {
         // What is left came from this chunk: carry on reading the chunk itself.
@@ -444,8 +446,10 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     }
     if (read < chunk.length) {
       // Fast path: frames are decoded straight from the chunk; only its unfinished tail is kept.
-      const words = LITTLE_ENDIAN_HOST ? new Int16Array(chunk.buffer, 0, chunk.buffer.byteLength >> 1) : null;
-      const tail = parse(chunk, words, read, chunk.length);
+      const memory = chunk.buffer;
+      const tail = LITTLE_ENDIAN_HOST
+        ? parse(chunk, new Int16Array(memory, 0, memory.byteLength >> 1), new Int32Array(memory, 0, memory.byteLength >> 2), read, chunk.length)
+        : parse(chunk, null, null, read, chunk.length);
       copyIntoBuffer(chunk, tail, chunk.length - tail);
     }
     return framesInPush;
