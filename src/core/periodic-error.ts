@@ -304,8 +304,13 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
   let samples = 0;
   let smallestMisfitRad = NaN;
 
+  // The size the cubic's regressors and factor were last made for: steady motion cuts windows of the same size.
+  let preparedSize = 0;
+
   /** The cubic's regressors over `size` samples (t in [−1, 1]) and the Cholesky factor of their Gram matrix. */
   function prepareCubic(size: number): void {
+    if (size === preparedSize) return;
+    preparedSize = size;
     for (let j = 0; j < size; j++) {
       const t = (2 * j) / (size - 1) - 1;
       poly[j] = 1;

@@ -144,6 +144,23 @@ describe('phase-domain periodic error', () => {
     expect(estimator.windows).toEqual({ fitted: 0, used: 0, smallestMisfitRad: NaN });
   });
 
+  it('gives a run the same result whatever windows came before it (the cubic is prepared again for a new window size)', () => {
+    const { measured } = capture(60_000, 0.01);
+    const valid = new Uint8Array(measured.length).fill(1);
+    const fresh = createPhaseDomainEstimator();
+    fresh.process(measured, valid, measured.length);
+    // Windows of another stretch first (other sizes: the window ends where the phase has spanned two fringes), then
+    // a reset and the same run as the fresh estimator's.
+    const reused = createPhaseDomainEstimator();
+    reused.process(measured.subarray(31_000, 37_000), valid, 6000);
+    expect(reused.windows.fitted).toBeGreaterThan(3);
+    reused.reset();
+    reused.process(measured, valid, measured.length);
+    expect(fresh.windows.used).toBeGreaterThan(20);
+    expect(reused.summary()).toEqual(fresh.summary());
+    expect(reused.binnedMeanRad()).toEqual(fresh.binnedMeanRad());
+  });
+
   it('skip(n) gives the same result as n masked samples, for any blocks', () => {
     const { measured } = capture(40_000, 0.01);
     fc.assert(
