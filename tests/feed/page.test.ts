@@ -57,6 +57,25 @@ interface Screen {
   readonly phone?: boolean;
 }
 
+/**
+ * Plotted (coloured) pixels on the raw, corrected and level canvases (points are blue on the raw figure, green on
+ * the corrected one and on the level trace; frames and ticks are grey, the threshold line red), or null while any
+ * is at or under its `minimum`. Runs in the page, as a function (its content policy forbids evaluating strings).
+ */
+function inkCounts(minimum: readonly number[]): number[] | null {
+  const counts = (['raw', 'corrected', 'levels'] as const).map((cls) => {
+    const canvas = document.querySelector(`#axis-X canvas.${cls}`)!;
+    const data = canvas.getContext!('2d').getImageData(0, 0, canvas.width!, canvas.height!).data;
+    let count = 0;
+    for (let i = 0; i < data.length; i += 4) {
+      const [r, g, b] = [data[i]!, data[i + 1]!, data[i + 2]!];
+      if (cls === 'raw' ? b > r + 60 && b > g + 20 : g > r + 40 && g > b + 20) count++;
+    }
+    return count;
+  });
+  return counts.every((count, k) => count > minimum[k]!) ? counts : null;
+}
+
 async function scenario({ width, height, phone = false }: Screen): Promise<void> {
   const motion = createMotion();
   const axes = createAxes(motion.source, { axes: [{ ...axisOptions, name: 'X' }], tracePoints: 512, tracePointsPerBlock: 64 });
@@ -105,24 +124,12 @@ async function scenario({ width, height, phone = false }: Screen): Promise<void>
     expect(box.top).toBeLessThan(height);
   }
 
-  // Figures drawn: count plotted (coloured) pixels on each canvas.
-  // Points: blue on the raw figure, green on the corrected one and on the level trace (frames and ticks are grey,
-  // the threshold line red).
-  const inked = await page.evaluate(() =>
-    (['raw', 'corrected', 'levels'] as const).map((cls) => {
-      const canvas = document.querySelector(`#axis-X canvas.${cls}`)!;
-      const data = canvas.getContext!('2d').getImageData(0, 0, canvas.width!, canvas.height!).data;
-      let count = 0;
-      for (let i = 0; i < data.length; i += 4) {
-        const [r, g, b] = [data[i]!, data[i + 1]!, data[i + 2]!];
-        if (cls === 'raw' ? b > r + 60 && b > g + 20 : g > r + 40 && g > b + 20) count++;
-      }
-      return count;
-    }),
-  );
-  expect(inked[0]).toBeGreaterThan(200);
-  expect(inked[1]).toBeGreaterThan(200);
-  expect(inked[2]).toBeGreaterThan(100);
+  // Figures drawn: count plotted (coloured) pixels on each canvas. The stage first turns a fringe per block for a
+  // whole trace (8 blocks of 64 points), so the points spread round the ellipse: at rest, as after moveTo's waits,
+  // they would all sit on one spot, and how many of the 512 did depended on how long moveTo waited.
+  // Waits (and fails at its timeout) until more than 200, 200 and 100 pixels are plotted.
+  for (let k = 0; k < 8; k++) motion.move(1, 500);
+  await page.waitForFunction(inkCounts, [200, 200, 100]);
   // Raw points reach |offset| + amplitude = 900 + 12 000 counts: the round scale above is ±20 000 (1-2-5 steps).
   expect(await page.getAttribute('#axis-X canvas.raw', 'data-scale')).toBe('20000');
   expect(await page.textContent('#axis-X .raw-scale')).toBe('Scale ±20\u2009000 counts.');
