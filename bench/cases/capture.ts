@@ -1,5 +1,6 @@
-// Capture file benchmarks: reader throughput from a file (CSV and WAV), against simple baselines, and peak memory
-// while streaming a large generated capture (it must not grow with the file).
+// Capture file benchmarks: reader throughput from a file (CSV and WAV), against simple baselines, the result and
+// capture writers' throughput, and peak memory while streaming a large generated capture (it must not grow with the
+// file).
 // Run alone: node --expose-gc dist/bench/cases/capture.js [--samples N] [--memory-samples N] (e.g. --memory-samples 1e8).
 import { createReadStream } from 'node:fs';
 import { mkdtemp, open, rm, stat } from 'node:fs/promises';
@@ -146,6 +147,34 @@ async function writeResults(path: string, format: ResultFormat, samples: number)
   return bytes;
 }
 
+/**
+ * One pass of the capture writer over `samples` samples of an invented quadrature signal (computed once, outside
+ * the timing), to a file that is then removed; returns the file's size.
+ */
+async function writeCapture(path: string, format: 'csv' | 'wav', encoding: SampleEncoding, signal: { x: Float64Array; y: Float64Array }, samples: number): Promise<number> {
+  const writer = await createCaptureWriter(path, { format, rateHz: 1_000_000, encoding });
+  for (let start = 0; start < samples; start += WRITE_BLOCK) {
+    const length = Math.min(WRITE_BLOCK, samples - start);
+    await writer.write(signal.x.subarray(start, start + length), signal.y.subarray(start, start + length), length);
+  }
+  await writer.close();
+  const bytes = (await stat(path)).size;
+  await rm(path);
+  return bytes;
+}
+
+/** The writers' input: the generated signal's integer samples (int16 range), for every encoding alike. */
+function writeSignal(samples: number): { x: Float64Array; y: Float64Array } {
+  const x = new Float64Array(samples);
+  const y = new Float64Array(samples);
+  for (let i = 0; i < samples; i++) {
+    const phase = 2 * Math.PI * 0.01 * i * (1 + 1e-9 * i);
+    x[i] = Math.round(30_000 * Math.cos(phase));
+    y[i] = Math.round(24_000 * Math.sin(phase + 0.05));
+  }
+  return { x, y };
+}
+
 const gc = (globalThis as { gc?: () => void }).gc;
 
 /**
@@ -218,6 +247,16 @@ export async function captureCases(options: CaptureBenchOptions = {}): Promise<B
       const path = join(directory, `results.${format}`);
       const bytes = await writeResults(path, format, samples);
       results.push(await time(`results/${format}/write/every1`, samples, bytes, () => writeResults(path, format, samples), passes));
+    }
+    const signal = writeSignal(samples);
+    for (const [format, encoding] of [
+      ['csv', 'integer-text'],
+      ['csv', 'decimal-text'],
+      ['wav', 'int16'],
+    ] as const) {
+      const path = join(directory, `written.${format}`);
+      const bytes = await writeCapture(path, format, encoding, signal, samples);
+      results.push(await time(`capture/${format}/${encoding}/write`, samples, bytes, () => writeCapture(path, format, encoding, signal, samples), passes));
     }
     for (const [format, encoding] of [
       ['wav', 'int16'],

@@ -48,7 +48,17 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
   /** 1-based number of the line that starts at `bufferStart`. */
   let lineNumber = 1;
 
-  /** Keeps the unconsumed tail, reads the next chunk after it; false at the end of the file. */
+  // The next chunk is read while this one is parsed (the read runs on libuv's thread pool), then copied in.
+  const staging = Buffer.allocUnsafe(options.readChunkBytes);
+  let ahead: Promise<number> | null = null;
+
+  function readAhead(): void {
+    ahead = handle.read(staging, 0, options.readChunkBytes, filePosition).then((result) => result.bytesRead);
+    // Awaited (and so thrown) by the next refill; this only keeps a pass that ends early from leaving it unhandled.
+    ahead.catch(() => undefined);
+  }
+
+  /** Keeps the unconsumed tail, takes the next chunk after it; false at the end of the file. */
   async function refill(): Promise<boolean> {
     if (endOfFile) return false;
     const carried = bufferEnd - bufferStart;
@@ -59,13 +69,18 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
       bufferStart = 0;
       bufferEnd = carried;
     }
-    const { bytesRead } = await handle.read(buffer, bufferEnd, Math.min(options.readChunkBytes, capacity - bufferEnd), filePosition);
+    if (ahead === null) readAhead();
+    const bytesRead = await ahead!;
+    ahead = null;
     if (bytesRead === 0) {
       endOfFile = true;
       return false;
     }
+    // Room: at most MAX_CSV_LINE_BYTES + 1 bytes are carried, and the buffer holds a chunk beyond that.
+    staging.copy(buffer, bufferEnd, 0, bytesRead);
     bufferEnd += bytesRead;
     filePosition += bytesRead;
+    readAhead();
     return true;
   }
 
