@@ -110,7 +110,7 @@ describe('WebAssembly ellipse accumulator', () => {
         };
         const core = run(createTwoPassFit());
         expect(core.ok).toBe(true);
-        expect(run(createTwoPassFit({ accumulator: createWasmEllipseAccumulator()! }))).toEqual(core);
+        expect(run(createTwoPassFit({ createAccumulator: () => createWasmEllipseAccumulator()! }))).toEqual(core);
       }),
       { numRuns: 15 },
     );

@@ -1,5 +1,5 @@
 // The second pass's gate (keepWithin) against its plain formulation: correct the pairs, keep those whose
-// Math.hypot radius lies within the bounds. The kept pairs must be the same, in the same order, bit for bit, also
+// Math.hypot radius lies within the bounds, count those within a band of the bounds. The kept pairs must be the same, in the same order, bit for bit, also
 // within an ulp of the bounds, where u² + v² alone would decide otherwise. Samples are invented: points of an
 // invented ellipse at drawn radii (on the gate's bounds too), glitches and non-finite values.
 import { describe, expect, it } from 'vitest';
@@ -39,7 +39,8 @@ const ellipseSamples = fc
 function checkGate(calibration: EllipseCalibration, x: Float64Array, y: Float64Array, start: number, end: number): number {
   const correction = createCorrection({ calibration });
   const keptX = new Float64Array(x.length), keptY = new Float64Array(x.length);
-  const kept = keepWithin(x, y, start, end, correction.coefficients, 0.5, 1.5, keptX, keptY);
+  const near = new Float64Array([3]);
+  const kept = keepWithin(x, y, start, end, correction.coefficients, 0.5, 1.5, keptX, keptY, 0.02, near);
   const u = new Float64Array(end - start), v = new Float64Array(end - start);
   correction.process(x.subarray(start, end), y.subarray(start, end), u, v, end - start);
   const plainX: number[] = [], plainY: number[] = [];
@@ -47,6 +48,10 @@ function checkGate(calibration: EllipseCalibration, x: Float64Array, y: Float64A
     const radius = Math.hypot(u[i]!, v[i]!);
     if (radius >= 0.5 && radius <= 1.5) [plainX.push(x[start + i]!), plainY.push(y[start + i]!)];
   }
+  // The pairs within 0.02 of either bound are added to near (from 3): all those within 0.02·(1 − 1e-9) of one, none beyond 0.02·(1 + 1e-9).
+  const within = (band: number) => Array.from(u, (ui, i) => Math.hypot(ui, v[i]!)).filter((r) => Math.abs(r - 0.5) <= band || Math.abs(r - 1.5) <= band).length;
+  expect(near[0]! - 3).toBeGreaterThanOrEqual(within(0.02 * (1 - 1e-9)));
+  expect(near[0]! - 3).toBeLessThanOrEqual(within(0.02 * (1 + 1e-9)));
   expect(Array.from(keptX.subarray(0, kept))).toEqual(plainX);
   expect(Array.from(keptY.subarray(0, kept))).toEqual(plainY);
   return kept;

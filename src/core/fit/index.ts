@@ -19,5 +19,5 @@ export { createHarmonicCorrection, createHarmonicEstimator, MAX_HARMONIC_ORDER }
 export type { HarmonicCorrection, HarmonicEstimate, HarmonicEstimator, HarmonicEstimatorOptions, PhaseHarmonics } from './harmonics.js';
 export { createModelWatch, MODEL_WATCH_ALARM, MODEL_WATCH_CHUNK_SAMPLES } from './model-watch.js';
 export type { ModelWatch, ModelWatchEvent, ModelWatchOptions } from './model-watch.js';
-export { createDetectorFit, createTwoPassFit } from './two-pass.js';
+export { createDetectorFit, createTwoPassFit, SPREAD_WINDOWS, spreadWindows } from './two-pass.js';
 export type { DetectorFit, DetectorFitResult, TwoPassFit, TwoPassFitOptions } from './two-pass.js';

@@ -4,6 +4,7 @@ import { extname } from 'node:path';
 import { openCsvCapture } from './csv-reader.js';
 import { CaptureFormatError } from './errors.js';
 import { resolveCaptureOptions } from './resolved-options.js';
+import { OptionError } from '../../core/options.js';
 import type { Capture, CaptureFormat, OpenCaptureOptions } from './types.js';
 import { openWavCapture } from './wav-reader.js';
 
@@ -25,6 +26,10 @@ export async function openCapture(path: string, options: OpenCaptureOptions = {}
     // Opening a folder succeeds; reading it fails with EISDIR and no path in the message.
     if ((await handle.stat()).isDirectory()) throw fileOpenError(path, Object.assign(new Error('is a directory'), { code: 'EISDIR' }));
     const format = resolved.format ?? (await sniffFormat(path, handle));
+    if (format === 'csv' && (resolved.startSample !== 0 || resolved.sampleCount !== null)) {
+      const [option, value] = resolved.startSample !== 0 ? ['startSample', resolved.startSample] : ['sampleCount', resolved.sampleCount];
+      throw new OptionError(option, `left out: ${path} is CSV, which is read from the start`, value);
+    }
     return format === 'wav' ? await openWavCapture(path, handle, resolved) : await openCsvCapture(path, handle, resolved);
   } catch (error) {
     await handle.close();

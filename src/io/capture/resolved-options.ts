@@ -1,5 +1,5 @@
 // Options of openCapture after validation, with defaults filled in; shared by the CSV and WAV readers.
-import { integerInRange, OptionError, positiveFinite } from '../../core/options.js';
+import { integerInRange, MAX_COUNT, OptionError, positiveFinite } from '../../core/options.js';
 import type { CaptureFormat, ChannelSelector, OpenCaptureOptions } from './types.js';
 
 export const DEFAULT_BLOCK_SIZE = 4096;
@@ -18,6 +18,9 @@ export interface ResolvedCaptureOptions {
   readonly rateHz: number | null;
   readonly blockSize: number;
   readonly readChunkBytes: number;
+  readonly startSample: number;
+  /** null: to the end. */
+  readonly sampleCount: number | null;
 }
 
 export function resolveCaptureOptions(options: OpenCaptureOptions): ResolvedCaptureOptions {
@@ -42,6 +45,8 @@ export function resolveCaptureOptions(options: OpenCaptureOptions): ResolvedCapt
     rateHz: options.rateHz === undefined ? null : positiveFinite('rateHz', options.rateHz),
     blockSize: integerInRange('blockSize', options.blockSize ?? DEFAULT_BLOCK_SIZE, 1, MAX_BLOCK_SIZE),
     readChunkBytes: integerInRange('readChunkBytes', options.readChunkBytes ?? DEFAULT_READ_CHUNK_BYTES, 1, MAX_READ_CHUNK_BYTES),
+    startSample: integerInRange('startSample', options.startSample ?? 0, 0, MAX_COUNT),
+    sampleCount: options.sampleCount === undefined ? null : integerInRange('sampleCount', options.sampleCount, 0, MAX_COUNT),
   });
 }
 

@@ -14,9 +14,9 @@ export interface BlockBuffers {
 /**
  * A Capture over `fill`, which writes up to `buffers.x.length` samples into the buffers and resolves with the
  * count (0 at the end; it rejects at the first bad place, after the good samples before it were delivered).
- * The file closes when the pass ends, early or not.
+ * The file closes when the pass ends, early or not. `firstIndex`: the absolute index of the first sample filled.
  */
-export function singlePassCapture(info: CaptureInfo, handle: FileHandle, buffers: BlockBuffers, fill: () => Promise<number>): Capture {
+export function singlePassCapture(info: CaptureInfo, handle: FileHandle, buffers: BlockBuffers, fill: () => Promise<number>, firstIndex = 0): Capture {
   const blockSize = buffers.x.length;
   const block: { -readonly [K in keyof CaptureBlock]: CaptureBlock[K] } = {
     x: buffers.x,
@@ -26,7 +26,7 @@ export function singlePassCapture(info: CaptureInfo, handle: FileHandle, buffers
     length: 0,
     firstIndex: 0,
   };
-  let samplesDelivered = 0;
+  let samplesDelivered = firstIndex;
   let closed = false;
   let started = false;
 

@@ -78,6 +78,13 @@ export interface OpenCaptureOptions {
   blockSize?: number;
   /** Bytes read from the file per read call, integer in 1..67108864; default 262144. Does not change the samples delivered. */
   readChunkBytes?: number;
+  /**
+   * WAV only: the first sample frame delivered (0-based; its block's `firstIndex`), integer from 0; default 0. A
+   * start at or beyond the end delivers nothing. CSV captures refuse it (they are read from the start).
+   */
+  startSample?: number;
+  /** WAV only: the most sample frames delivered from `startSample`, integer from 0; default all to the end. */
+  sampleCount?: number;
 }
 
 /** An open capture: its description and a single pass over its samples. */

@@ -44,7 +44,10 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
   });
 
   const { blockAlign, dataOffset } = layout;
-  const dataEnd = dataOffset + layout.dataBytes;
+  // The frames asked for (startSample, sampleCount), within the data chunk.
+  const firstFrame = Math.min(options.startSample, info.totalSamples!);
+  const lastFrame = options.sampleCount === null ? info.totalSamples! : Math.min(info.totalSamples!, firstFrame + options.sampleCount);
+  const dataEnd = options.sampleCount === null ? dataOffset + layout.dataBytes : dataOffset + lastFrame * blockAlign;
   const bytesPerSample = blockAlign / layout.channels;
   const xByte = xChannel * bytesPerSample;
   const yByte = yChannel * bytesPerSample;
@@ -57,7 +60,7 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
   const float32View = littleEndian && layout.encoding === 'float32' ? new Float32Array(storage, 0, storage.byteLength >> 2) : null;
   let bufferStart = 0;
   let bufferEnd = 0;
-  let filePosition = dataOffset;
+  let filePosition = dataOffset + firstFrame * blockAlign;
   let reachedEnd = false;
 
   const blockSize = options.blockSize;
@@ -180,7 +183,7 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
     return count;
   }
 
-  return singlePassCapture(info, handle, { x: xBuffer, y: yBuffer, extra: extraBuffers, t: null }, fillBlock);
+  return singlePassCapture(info, handle, { x: xBuffer, y: yBuffer, extra: extraBuffers, t: null }, fillBlock, firstFrame);
 }
 
 function pickChannel(file: string, layout: WavLayout, names: readonly string[], option: string, selector: ChannelSelector): number {

@@ -1,0 +1,77 @@
+// startSample / sampleCount of openCapture: a WAV capture read from any frame for any count delivers exactly
+// those frames of a whole read, with their absolute indices; CSV refuses them. The samples are invented.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import fc from 'fast-check';
+import { writeFileSync } from 'node:fs';
+import { createCaptureWriter, openCapture } from '../../src/io/capture/index.js';
+import { collect, makeTempDir } from './helpers.js';
+import '../support/property-seed.js';
+
+const dir = makeTempDir();
+afterAll(() => dir.remove());
+const N = 10_000;
+let wav = '';
+let three = '';
+let whole: Awaited<ReturnType<typeof collect>>;
+
+beforeAll(async () => {
+  wav = dir.file('range.wav');
+  const x = Array.from({ length: N }, (_, i) => Math.round(20000 * Math.cos(i * 0.013)));
+  const y = Array.from({ length: N }, (_, i) => Math.round(15000 * Math.sin(i * 0.013 + 0.1)));
+  const writer = await createCaptureWriter(wav, { format: 'wav', rateHz: 1000, encoding: 'int16' });
+  await writer.write(x, y, N);
+  await writer.close();
+  whole = await collect(wav);
+  three = dir.file('three.wav');
+  const outputs = await createCaptureWriter(three, { format: 'wav', rateHz: 1000, encoding: 'int16', channelCount: 3 });
+  await outputs.writeChannels([x, y, x.map((v) => -v)], N);
+  await outputs.close();
+});
+
+describe('reading part of a capture', () => {
+  it('delivers the frames [startSample, startSample + sampleCount) of a whole read, with absolute indices, for any block size', async () => {
+    await fc.assert(
+      fc.asyncProperty(
+        fc.integer({ min: 0, max: N + 10 }),
+        fc.option(fc.integer({ min: 0, max: N + 10 }), { nil: undefined }),
+        fc.integer({ min: 1, max: 5000 }),
+        fc.integer({ min: 4, max: 70_000 }),
+        async (startSample, sampleCount, blockSize, readChunkBytes) => {
+          const capture = await openCapture(wav, { startSample, sampleCount, blockSize, readChunkBytes });
+          const x: number[] = [], y: number[] = [];
+          let next = Math.min(startSample, N);
+          for await (const block of capture.blocks()) {
+            expect(block.firstIndex).toBe(next);
+            next += block.length;
+            x.push(...block.x);
+            y.push(...block.y);
+          }
+          const end = sampleCount === undefined ? N : Math.min(N, startSample + sampleCount);
+          expect(x).toEqual(whole.x.slice(startSample, end));
+          expect(y).toEqual(whole.y.slice(startSample, end));
+          expect(capture.info.totalSamples).toBe(N); // the file's, not the part's
+        },
+      ),
+      { numRuns: 60 },
+    );
+  });
+
+  it('delivers every output of a part of a three-output capture', async () => {
+    const part = await collect(three, { channels: [1, 2, 3], startSample: 100, sampleCount: 50 });
+    expect(part.x).toEqual(whole.x.slice(100, 150));
+    const capture = await openCapture(three, { channels: [1, 2, 3], startSample: 9990 });
+    const third: number[] = [];
+    for await (const block of capture.blocks()) third.push(...block.channels[2]!);
+    expect(third).toEqual(whole.x.slice(9990).map((v) => -v));
+  });
+
+  it('refuses a part of a CSV capture, and counts that are not whole numbers', async () => {
+    const csv = dir.file('range.csv');
+    writeFileSync(csv, '# rate_hz: 10\nx,y\n1,2\n3,4\n');
+    await expect(openCapture(csv, { startSample: 1 })).rejects.toThrow(/startSample must be left out: .* is CSV, which is read from the start/);
+    await expect(openCapture(csv, { sampleCount: 1 })).rejects.toThrow(/sampleCount must be left out/);
+    expect((await collect(csv, { startSample: 0 })).x).toEqual([1, 3]);
+    await expect(openCapture(wav, { startSample: -1 })).rejects.toThrow(/startSample must be an integer/);
+    await expect(openCapture(wav, { sampleCount: 1.5 })).rejects.toThrow(/sampleCount must be an integer/);
+  });
+});
