@@ -36,7 +36,7 @@ export interface ModelWatch {
   /**
    * Takes corrected samples (u, v: unit circle on the calibration); `use[i]` 0 or non-finite values skip a sample
    * (a blocked beam is the signal monitor's business, not a model change). Pushes an event only when the state
-   * changes. Never allocates otherwise.
+   * changes. Never allocates otherwise, but for a buffer of radii when a block is longer than any before.
    */
   process(u: ArrayLike<number>, v: ArrayLike<number>, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void;
   /** The same for corrected radii √(u² + v²) already at hand, e.g. a pipeline's level with a calibration. */
@@ -79,22 +79,13 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
   let active = false;
   let cause: ModelWatchEvent['cause'] = 'radius-change';
 
+  // Radii of (u, v) pairs for `process`; grows to the largest block seen.
+  let radii = new Float64Array(0);
+
   function process(u: ArrayLike<number>, v: ArrayLike<number>, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void {
-    let n = pending[0]!, cs = pending[1]!, cq = pending[2]!;
-    for (let i = 0; i < length; i++) {
-      const ui = u[i]!;
-      const vi = v[i]!;
-      const r = Math.sqrt(ui * ui + vi * vi);
-      if ((use !== undefined && !use[i]) || !(r > 0 && r < Infinity)) continue;
-      cs += r;
-      cq += r * r;
-      if (++n < chunk) continue;
-      takeChunk(cs, cq, firstIndex + i, events);
-      n = cs = cq = 0;
-    }
-    pending[0] = n;
-    pending[1] = cs;
-    pending[2] = cq;
+    if (radii.length < length) radii = new Float64Array(length);
+    for (let i = 0; i < length; i++) radii[i] = Math.sqrt(u[i]! * u[i]! + v[i]! * v[i]!);
+    processRadius(radii, length, firstIndex, events, use);
   }
 
   function processRadius(radius: ArrayLike<number>, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void {
