@@ -72,6 +72,19 @@ describe('analyses on a worker thread', () => {
     await expect(runCapture(join(dir, 'two.wav'), { ...options, progress: createProgress(true), analysisThread: true })).rejects.toThrow(/capture analyses: .*windowSamples/);
   });
 
+  it('a capture that fails midway stops the worker and names the place, as in line', async () => {
+    // two.wav cut 1001 bytes short: the data chunk declares more than the file holds.
+    const bytes = readFileSync(join(dir, 'two.wav'));
+    writeFileSync(join(dir, 'cut.wav'), bytes.subarray(0, bytes.length - 1001));
+    const calibration = { offsetX: 800, offsetY: -500, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 };
+    const run = (analysisThread: boolean) => runCapture(join(dir, 'cut.wav'), { open: {}, calibration, settings, progress: createProgress(true), analysisThread });
+    const inline = await run(false).catch((error: Error) => error);
+    const threaded = await run(true).catch((error: Error) => error);
+    expect(inline).toBeInstanceOf(Error);
+    expect((inline as Error).message).toMatch(/more bytes of sample data before the end of the file/);
+    expect((threaded as Error).message).toBe((inline as Error).message);
+  });
+
   it('replay --analysis-thread on and off write the same rows and summary; a wrong value is named', async () => {
     for (const mode of ['on', 'off']) {
       const replayed = await fringetally(['replay', 'two.wav', ...common, '--out', `two-${mode}.csv`, '--every', '7', '--analysis-thread', mode], dir);
