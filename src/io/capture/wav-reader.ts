@@ -125,22 +125,10 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
     });
     let at = bufferStart;
     if (int16View !== null) {
-      const stride = blockAlign >> 1;
-      let xAt = (at + xByte) >> 1;
-      let yAt = (at + yByte) >> 1;
-      for (let i = count; i < count + frames; i++, xAt += stride, yAt += stride) {
-        xBuffer[i] = int16View[xAt]!;
-        yBuffer[i] = int16View[yAt]!;
-      }
+      deinterleave(int16View, (at + xByte) >> 1, (at + yByte) >> 1, blockAlign >> 1, xBuffer, yBuffer, count, frames);
       at += frames * blockAlign;
     } else if (float32View !== null) {
-      const stride = blockAlign >> 2;
-      let xAt = (at + xByte) >> 2;
-      let yAt = (at + yByte) >> 2;
-      for (let i = count; i < count + frames; i++, xAt += stride, yAt += stride) {
-        xBuffer[i] = float32View[xAt]!;
-        yBuffer[i] = float32View[yAt]!;
-      }
+      deinterleave(float32View, (at + xByte) >> 2, (at + yByte) >> 2, blockAlign >> 2, xBuffer, yBuffer, count, frames);
       at += frames * blockAlign;
     } else if (layout.encoding === 'int16') {
       for (let i = count; i < count + frames; i++, at += blockAlign) {
@@ -184,6 +172,19 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
   }
 
   return singlePassCapture(info, handle, { x: xBuffer, y: yBuffer, extra: extraBuffers, t: null }, fillBlock, firstFrame);
+}
+
+/**
+ * x and y of `frames` frames from a little-endian view of the read buffer (elements `xAt`, `yAt` of the first frame,
+ * `stride` elements a frame) into the blocks from `count`. A plain function of its arguments: as a closure over the
+ * reader's state, V8 kept the loop at about 8 ns a sample.
+ */
+function deinterleave(view: Int16Array | Float32Array, xAt: number, yAt: number, stride: number, x: Float64Array, y: Float64Array, count: number, frames: number): void {
+  const end = count + frames;
+  for (let i = count; i < end; i++, xAt += stride, yAt += stride) {
+    x[i] = view[xAt]!;
+    y[i] = view[yAt]!;
+  }
 }
 
 function pickChannel(file: string, layout: WavLayout, names: readonly string[], option: string, selector: ChannelSelector): number {
