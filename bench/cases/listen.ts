@@ -46,7 +46,7 @@ function wireChunks(): Uint8Array[] {
 
 /**
  * One run of the chain. Queued: every chunk written at once, so chunks wait in the session's input and are taken
- * together (up to 64 KiB); paced: one chunk per turn of the event loop, each a block of its own, as from a port
+ * together (up to 16 KiB); paced: one chunk per turn of the event loop, each a block of its own, as from a port
  * that the chain keeps up with.
  */
 async function listenOnce(chunks: readonly Uint8Array[], out: string, every: number, paced = false): Promise<{ wall: number; cpu: number }> {

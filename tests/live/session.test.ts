@@ -57,7 +57,7 @@ describe('live session', () => {
     expect(fit.ok && fit.calibration.phaseErrorRad).toBeCloseTo(0.06, 2);
   });
 
-  it('takes byte chunks waiting in its input together (64 KiB at most): fewer, longer blocks, the same positions', async () => {
+  it('takes byte chunks waiting in its input together (16 KiB at most): fewer, longer blocks, the same positions', async () => {
     const run = async (paced: boolean) => {
       const source = createManualByteSource();
       const blocks: number[] = [];
@@ -84,8 +84,8 @@ describe('live session', () => {
     const paced = await run(true);
     const queued = await run(false);
     expect(paced.blocks.every((length) => length === 150)).toBe(true);
-    // Whole chunks up to 65 536 bytes: 100 chunks (65 000 bytes) a block.
-    expect(queued.blocks).toEqual([15_000, 15_000, 15_000, 15_000]);
+    // Whole chunks up to 16 384 bytes: 25 chunks (16 250 bytes) a block.
+    expect(queued.blocks).toEqual(Array.from({ length: 16 }, () => 3750));
     expect(queued.positions).toEqual(paced.positions);
   });
 
