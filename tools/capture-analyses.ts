@@ -314,6 +314,7 @@ export function createBlockOutput(buffer?: SharedArrayBuffer, offset = 0): Block
     flags: new Uint8Array(buffer, offset + 32 * n, n),
   };
 }
+
 /** Bytes of one block's output in a shared buffer (a multiple of 8). */
 export const BLOCK_OUTPUT_BYTES = 33 * CAPTURE_BLOCK_SAMPLES;
 

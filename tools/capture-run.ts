@@ -34,7 +34,7 @@ import {
   type AnalysisConfig,
   type AnalysisResults,
 } from './capture-analyses.js';
-import { startAnalysisThread } from './capture-analysis-thread.js';
+import { startAnalysisThread, type AnalysisThread } from './capture-analysis-thread.js';
 import type { Progress } from './progress.js';
 
 export { CAPTURE_BLOCK_SAMPLES, type Envelope, type PeriodicErrorResult } from './capture-analyses.js';
@@ -249,12 +249,9 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   let blockIndex = 0;
   // The figures keep a few samples a block: drawn here, so that the analyses need the samples of analysed blocks only.
   const figure = createFigureSampler(config.maxPlotPoints, calibration);
-  const thread = useAnalysisThread(options.analysisThread ?? 'auto', info.totalSamples) ? startAnalysisThread(config) : null;
-  const inline = thread === null ? createCaptureAnalyses(config) : null;
-  const inlineOutput = createBlockOutput();
   // Three or four outputs with a harmonic correction: the radius analysis takes the phase from before it.
   const keepPhase = combined !== null && harmonicCorrection !== null;
-  const inlinePhase = new Float64Array(keepPhase ? CAPTURE_BLOCK_SAMPLES : 0);
+  let thread: AnalysisThread | null = null;
   const events: AlarmEvent[] = [];
   const alarmCounts: Record<AlarmKind, number> = { lowSignal: 0, saturation: 0, badSample: 0, overspeed: 0, inputGap: 0, countLost: 0, lowPower: 0 };
   const spans: AlarmSpan[] = [];
@@ -266,6 +263,11 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
 
   progress.start(`replay ${path}`, info.totalSamples);
   try {
+    // Inside the try: analyses refused (an option, a worker that cannot start) still close the capture.
+    thread = useAnalysisThread(options.analysisThread ?? 'auto', info.totalSamples) ? startAnalysisThread(config) : null;
+    const inline = thread === null ? createCaptureAnalyses(config) : null;
+    const inlineOutput = thread === null ? createBlockOutput() : null;
+    const inlinePhase = thread === null && keepPhase ? new Float64Array(CAPTURE_BLOCK_SAMPLES) : null;
     for await (const block of capture.blocks()) {
       const n = block.length;
       events.length = 0;
@@ -273,12 +275,12 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
         const index = options.refractiveIndexAt((block.firstIndex + n / 2) * secondsPerSample);
         (combined ?? pipeline).setRefractiveIndex(index);
       }
-      const output = thread === null ? inlineOutput : await thread.next();
+      const output = thread === null ? inlineOutput! : await thread.next();
       if (combined === null) pipeline.process(block.x, block.y, n, output, events);
       else combined.process(block.channels, n, output, events);
       let phaseBeforeHarmonics: Float64Array | null = null;
       if (keepPhase) {
-        phaseBeforeHarmonics = thread === null ? inlinePhase : thread.phaseSlot();
+        phaseBeforeHarmonics = thread === null ? inlinePhase! : thread.phaseSlot();
         phaseBeforeHarmonics.set(output.unwrappedPhaseRad.subarray(0, n));
       }
       harmonicCorrection?.process(output.unwrappedPhaseRad, n, output.positionM, metresPerRad);
