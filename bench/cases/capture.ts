@@ -59,9 +59,19 @@ export async function generate(path: string, format: 'csv' | 'wav', encoding: Sa
   return { path, bytes: (await stat(path)).size };
 }
 
-/** One pass over the capture; returns a checksum so the work cannot be optimised away. */
-async function readCapture(path: string): Promise<number> {
-  const capture = await openCapture(path, { blockSize: BLOCK_SIZE });
+/**
+ * One pass over the capture; returns a checksum so the work cannot be optimised away. `withoutWebAssembly`: opened
+ * as on an engine without WebAssembly (the CSV reader then parses every row in JavaScript).
+ */
+async function readCapture(path: string, withoutWebAssembly = false): Promise<number> {
+  const webAssembly = globalThis.WebAssembly;
+  if (withoutWebAssembly) (globalThis as { WebAssembly?: unknown }).WebAssembly = undefined;
+  let capture;
+  try {
+    capture = await openCapture(path, { blockSize: BLOCK_SIZE });
+  } finally {
+    (globalThis as { WebAssembly?: unknown }).WebAssembly = webAssembly;
+  }
   let sum = 0;
   for await (const block of capture) sum += block.x[0]! + block.y[block.length - 1]!;
   return sum;
@@ -227,12 +237,15 @@ export async function captureCases(options: CaptureBenchOptions = {}): Promise<B
   const results: BenchResult[] = [];
   try {
     const csvInteger = await generate(join(directory, 'integer.csv'), 'csv', 'integer-text', samples);
+    // The CSV reader with its WebAssembly row kernel, and without WebAssembly, in the same run.
     results.push(await time(`capture/csv/integer-text/read/block${BLOCK_SIZE}`, samples, csvInteger.bytes, () => readCapture(csvInteger.path), passes));
+    results.push(await time(`capture/csv/integer-text/read-no-wasm/block${BLOCK_SIZE}`, samples, csvInteger.bytes, () => readCapture(csvInteger.path, true), passes));
     results.push(await time('capture/csv/integer-text/baseline-readline-split', samples, csvInteger.bytes, () => readCsvWithReadline(csvInteger.path), passes));
     for (const decimals of [6, undefined]) {
       const label = decimals === undefined ? 'decimal-text-17digit' : `decimal-text-${decimals}dp`;
       const csvDecimal = await generate(join(directory, `${label}.csv`), 'csv', 'decimal-text', samples, decimals);
       results.push(await time(`capture/csv/${label}/read/block${BLOCK_SIZE}`, samples, csvDecimal.bytes, () => readCapture(csvDecimal.path), passes));
+      results.push(await time(`capture/csv/${label}/read-no-wasm/block${BLOCK_SIZE}`, samples, csvDecimal.bytes, () => readCapture(csvDecimal.path, true), passes));
       results.push(await time(`capture/csv/${label}/baseline-readline-split`, samples, csvDecimal.bytes, () => readCsvWithReadline(csvDecimal.path), passes));
       await rm(csvDecimal.path);
     }

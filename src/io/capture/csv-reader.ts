@@ -1,5 +1,6 @@
 // Streaming CSV capture reader: a header line, `# key: value` metadata, numeric columns, read in fixed-size chunks.
 import type { FileHandle } from 'node:fs/promises';
+import { createCsvRowKernel } from '../../accel/csv-rows.js';
 import { CaptureFormatError } from './errors.js';
 import { parseAdcMetadata, parseMetadataLine, parseRateMetadata, RATE_KEY } from './metadata.js';
 import { createParsedNumber, FastRowParser, parseNumberBytes, type ParsedNumber } from './parse-number.js';
@@ -39,7 +40,9 @@ interface ColumnPlan {
 export async function openCsvCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions): Promise<Capture> {
   // Room for the longest allowed line with its CR LF carried over, plus a whole chunk.
   const capacity = options.readChunkBytes + MAX_CSV_LINE_BYTES + 2;
-  const buffer = Buffer.allocUnsafe(capacity);
+  // Where WebAssembly exists, the common rows are parsed there: the bytes and the block arrays live in its memory.
+  const kernel = createCsvRowKernel(capacity, options.blockSize, 2 + options.extraChannels.length);
+  const buffer = kernel === null ? Buffer.allocUnsafe(capacity) : Buffer.from(kernel.bytes.buffer, kernel.bytes.byteOffset, capacity);
   let bufferStart = 0;
   let bufferEnd = 0;
   /** File offset of `buffer[bufferEnd]`. */
@@ -146,7 +149,7 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
   }
   const plan = planColumns(file, headerLine, header, options);
   const rowParser = new CsvRowParser(plan);
-  const extraBuffers = plan.extra.map(() => new Float64Array(options.blockSize));
+  const extraBuffers = kernel?.extra ?? plan.extra.map(() => new Float64Array(options.blockSize));
   rowParser.extra = extraBuffers;
 
   function rowError(status: RowStatus, text: string, line: number): CaptureFormatError {
@@ -207,11 +210,12 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
   });
 
   const blockSize = options.blockSize;
-  const xBuffer = new Float64Array(blockSize);
-  const yBuffer = new Float64Array(blockSize);
-  const tBuffer = plan.t === -1 ? null : new Float64Array(blockSize);
+  const xBuffer = kernel?.x ?? new Float64Array(blockSize);
+  const yBuffer = kernel?.y ?? new Float64Array(blockSize);
+  const tBuffer = plan.t === -1 ? null : (kernel?.t ?? new Float64Array(blockSize));
   let pendingError: Error | null = null;
-  const fastRows = new FastRowParser(plan);
+  kernel?.configure({ columns: plan.names.length, x: plan.x, y: plan.y, t: plan.t, extra: plan.extra, maxLineBytes: MAX_CSV_LINE_BYTES });
+  const fastRows = kernel === null ? new FastRowParser(plan, MAX_CSV_LINE_BYTES) : null;
 
   async function fillBlock(): Promise<number> {
     if (pendingError !== null) throw pendingError;
@@ -221,11 +225,11 @@ export async function openCsvCapture(file: string, handle: FileHandle, options: 
         if (bufferStart === bufferEnd && !(await refill())) break;
         // Whole rows of plain numbers in one pass over the chunk; anything else (a comment, a blank or bad row, a
         // number the fast path does not take, the chunk's last partial line) goes to the row parser below.
-        const rows = fastRows.parse(buffer, bufferStart, bufferEnd, count, blockSize, xBuffer, yBuffer, tBuffer, extraBuffers);
+        const rows = fastRows === null ? kernel!.rows(bufferStart, bufferEnd, count, blockSize) : fastRows.parse(buffer, bufferStart, bufferEnd, count, blockSize, xBuffer, yBuffer, tBuffer, extraBuffers);
         if (rows > 0) {
           count += rows;
           lineNumber += rows;
-          bufferStart = fastRows.position;
+          bufferStart = fastRows === null ? kernel!.position : fastRows.position;
           continue;
         }
         const newline = rowParser.parse(buffer, bufferStart, bufferEnd, endOfFile, count, xBuffer, yBuffer, tBuffer);
