@@ -24,6 +24,7 @@ import {
   type ResidualSummary,
 } from '../src/core/index.js';
 import { createWasmFrontEnd, type WasmFrontEnd } from '../src/accel/index.js';
+import { createAxisKernels, type BlockExtremes } from '../src/accel/axis-kernels.js';
 
 /** Samples per block read from a capture (the analyses' schedule counts these blocks). */
 export const CAPTURE_BLOCK_SAMPLES = 4096;
@@ -39,7 +40,7 @@ export interface Envelope {
 
 // Both collectors keep their points in typed arrays of fixed size: plain arrays that change element kind and
 // length deoptimise the per-block loops, which then box every double.
-function createEnvelope(maxPoints: number) {
+export function createEnvelope(maxPoints: number) {
   const t = new Float64Array(maxPoints);
   const min = new Float64Array(maxPoints);
   const max = new Float64Array(maxPoints);
@@ -56,14 +57,39 @@ function createEnvelope(maxPoints: number) {
     count = half;
     stride *= 2;
   }
+  function close(start: number, low: number, high: number): void {
+    t[count] = start;
+    min[count] = low;
+    max[count] = high;
+    count++;
+    if (count === maxPoints) halve();
+  }
   return {
     series(): Envelope {
       return { t: t.slice(0, count), min: min.slice(0, count), max: max.slice(0, count) };
     },
-    /** Adds a block of values at times t (s) or, without t, at (firstIndex + i) · secondsPerSample. */
-    add(values: Float64Array | Float32Array, n: number, times: Float64Array | null, firstIndex: number, secondsPerSample: number): void {
+    /**
+     * Adds a block of values at times t (s) or, without t, at (firstIndex + i) · secondsPerSample. `least` and
+     * `most`, when given, are the block's extremes as `if (value < least) least = value` from Infinity finds them
+     * (NaN for none): a block that falls in one bucket then needs no pass of its own.
+     */
+    add(values: Float64Array | Float32Array, n: number, times: Float64Array | null, firstIndex: number, secondsPerSample: number, least = NaN, most = NaN): void {
       let inBucket = bucket[0]!, low = bucket[1]!, high = bucket[2]!, start = bucket[3]!;
       let i = 0;
+      if (least === least && most === most && stride - inBucket >= n) {
+        // A block within the bucket: what the loop below does, from the extremes.
+        if (inBucket === 0) start = times === null ? firstIndex * secondsPerSample : times[0]!;
+        if (least < low) low = least;
+        if (most > high) high = most;
+        inBucket += n;
+        i = n;
+        if (inBucket >= stride) {
+          close(start, low, high);
+          inBucket = 0;
+          low = Infinity;
+          high = -Infinity;
+        }
+      }
       while (i < n) {
         if (inBucket === 0) start = times === null ? (firstIndex + i) * secondsPerSample : times[i]!;
         // The rest of the bucket, or of the block, in a loop that only compares.
@@ -75,14 +101,10 @@ function createEnvelope(maxPoints: number) {
           if (value > high) high = value;
         }
         if (inBucket >= stride) {
-          t[count] = start;
-          min[count] = low;
-          max[count] = high;
-          count++;
+          close(start, low, high);
           inBucket = 0;
           low = Infinity;
           high = -Infinity;
-          if (count === maxPoints) halve();
         }
       }
       bucket[0] = inBucket;
@@ -255,6 +277,10 @@ export interface BlockOutput {
   readonly velocityMS: Float64Array;
   readonly level: Float32Array;
   readonly flags: Uint8Array;
+  /**
+   * Written for analysed blocks, and for every block with three or four outputs, a harmonic correction or the
+   * harmonics' estimate (runCapture); else left as it was.
+   */
   readonly unwrappedPhaseRad: Float64Array;
   readonly power: Float32Array;
 }
@@ -346,6 +372,8 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
   const rawKernel = createWasmFrontEnd({ precision: 'f64-exact' });
   const rawLevel = new Float32Array(CAPTURE_BLOCK_SAMPLES);
   const identity = Float64Array.of(1, 0, 0, 1, 0);
+  const summaries = createAxisKernels([2], CAPTURE_BLOCK_SAMPLES);
+  const extremes: BlockExtremes = { positionMinM: NaN, positionMaxM: NaN, velocityMinMS: NaN, velocityMaxMS: NaN, levelMin: NaN, flagsSeen: 0 };
   const secondsPerSample = 1 / rateHz;
 
   return {
@@ -357,13 +385,21 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
         if (!combined) correction.process(x!, y!, correctedU, correctedV, n);
         else normalisedPair(output.level, block.phaseBeforeHarmonics ?? output.unwrappedPhaseRad, n, correctedU, correctedV);
       }
-      validOf(output.flags, n, valid);
+      // The block's extremes and flags in one pass (WebAssembly SIMD where it exists), over copies in its memory.
+      const region = summaries.regions[0]!;
+      region.positionM.set(output.positionM.subarray(0, n));
+      region.velocityMS.set(output.velocityMS.subarray(0, n));
+      region.level.set(output.level.subarray(0, n));
+      region.flags.set(output.flags.subarray(0, n));
+      summaries.summarise(0, n, extremes);
+      if ((extremes.flagsSeen & SIGNAL_TROUBLE) === 0) valid.fill(1, 0, n);
+      else validOf(output.flags, n, valid);
       if (combined) {
         powerFigures(output, n, power);
         powerSeries.add(output.power, n, block.t, firstIndex, secondsPerSample);
       }
-      position.add(output.positionM, n, block.t, firstIndex, secondsPerSample);
-      velocity.add(output.velocityMS, n, block.t, firstIndex, secondsPerSample);
+      position.add(output.positionM, n, block.t, firstIndex, secondsPerSample, extremes.positionMinM, extremes.positionMaxM);
+      velocity.add(output.velocityMS, n, block.t, firstIndex, secondsPerSample, extremes.velocityMinMS, extremes.velocityMaxMS);
       estimator?.add(output.unwrappedPhaseRad, n, valid);
       if (analysed) {
         const raw = rawPhases(rawKernel, x!, y!, n, mid, rawLevel, identity);

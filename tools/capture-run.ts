@@ -19,6 +19,7 @@ import {
   type EllipseFitResult,
   type PhaseHarmonics,
   type ModelWatchOptions,
+  type PipelineOutput,
   type SpeedLimits,
   type UnwrapMethod,
 } from '../src/core/index.js';
@@ -33,6 +34,7 @@ import {
   createFigureSampler,
   type AnalysisConfig,
   type AnalysisResults,
+  type BlockOutput,
 } from './capture-analyses.js';
 import { startAnalysisThread, type AnalysisThread } from './capture-analysis-thread.js';
 import type { Progress } from './progress.js';
@@ -207,6 +209,18 @@ function useAnalysisThread(choice: boolean | 'auto', totalSamples: number | null
   return choice === 'auto' && compiled && availableParallelism() >= 2 && (totalSamples === null || totalSamples >= ANALYSIS_THREAD_MIN_SAMPLES);
 }
 
+const phaseless = new WeakMap<BlockOutput, PipelineOutput>();
+
+/** The same output arrays without the unwrapped phase (one record per ring slot). */
+function withoutPhase(output: BlockOutput): PipelineOutput {
+  let stripped = phaseless.get(output);
+  if (stripped === undefined) {
+    stripped = { positionM: output.positionM, velocityMS: output.velocityMS, level: output.level, flags: output.flags };
+    phaseless.set(output, stripped);
+  }
+  return stripped;
+}
+
 /** Runs the whole pipeline over a capture, writing rows to the writer if one is given. */
 export async function runCapture(path: string, options: RunOptions): Promise<RunResult> {
   const { calibration, settings, writer, progress } = options;
@@ -251,6 +265,8 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   const figure = createFigureSampler(config.maxPlotPoints, calibration);
   // Three or four outputs with a harmonic correction: the radius analysis takes the phase from before it.
   const keepPhase = combined !== null && harmonicCorrection !== null;
+  // The harmonic correction and the harmonics' estimate take every block's phase.
+  const phaseAlways = harmonicCorrection !== null || options.estimateHarmonics !== undefined;
   let thread: AnalysisThread | null = null;
   const events: AlarmEvent[] = [];
   const alarmCounts: Record<AlarmKind, number> = { lowSignal: 0, saturation: 0, badSample: 0, overspeed: 0, inputGap: 0, countLost: 0, lowPower: 0 };
@@ -276,7 +292,9 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
         (combined ?? pipeline).setRefractiveIndex(index);
       }
       const output = thread === null ? inlineOutput! : await thread.next();
-      if (combined === null) pipeline.process(block.x, block.y, n, output, events);
+      const analysed = schedule.take(blockIndex++);
+      // Two outputs: the unwrapped phase costs a pass of its own, and only analysed blocks read it.
+      if (combined === null) pipeline.process(block.x, block.y, n, analysed || phaseAlways ? output : withoutPhase(output), events);
       else combined.process(block.channels, n, output, events);
       let phaseBeforeHarmonics: Float64Array | null = null;
       if (keepPhase) {
@@ -299,7 +317,6 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
         }
       }
       figure.add(block.x, block.y, n, combined === null ? null : output);
-      const analysed = schedule.take(blockIndex++);
       const handed = { firstIndex: block.firstIndex, length: n, t: block.t, analysed, x: analysed ? block.x : null, y: analysed ? block.y : null, phaseBeforeHarmonics };
       if (thread === null) inline!.add({ ...handed, output });
       else thread.add(handed);

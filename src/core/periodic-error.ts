@@ -283,11 +283,11 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
   const m = 2 * orders;
   const phase = new Float64Array(capacity);
   const harmonicPhase = new Float64Array(capacity);
-  // Per window: the four cubic regressors and the harmonic regressors, column-major with stride `capacity`.
-  const poly = new Float64Array(4 * capacity);
+  // The harmonic regressors of the window, row-major (m a sample): the passes below read a sample's values together.
   const harmonic = new Float64Array(m * capacity);
-  const factor = new Float64Array(16);
-  const coefficients = new Float64Array(4);
+  // Per window: the harmonics' coefficients on the basis (4 × m), their projected normal equations, and what is
+  // left of them.
+  const onBasis = new Float64Array(4 * m);
   const normal = new Float64Array(m * m);
   const rhs = new Float64Array(m);
   const localNormal = new Float64Array(m * m);
@@ -304,93 +304,76 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
   let samples = 0;
   let smallestMisfitRad = NaN;
 
-  // The size the cubic's regressors and factor were last made for: steady motion cuts windows of the same size.
-  let preparedSize = 0;
-
-  /** The cubic's regressors over `size` samples (t in [−1, 1]) and the Cholesky factor of their Gram matrix. */
-  function prepareCubic(size: number): void {
-    if (size === preparedSize) return;
-    preparedSize = size;
-    for (let j = 0; j < size; j++) {
-      const t = (2 * j) / (size - 1) - 1;
-      poly[j] = 1;
-      poly[capacity + j] = t;
-      poly[2 * capacity + j] = t * t;
-      poly[3 * capacity + j] = t * t * t;
-    }
-    for (let r = 0; r < 4; r++) {
-      for (let c = 0; c <= r; c++) {
-        let sum = 0;
-        for (let j = 0; j < size; j++) sum += poly[r * capacity + j]! * poly[c * capacity + j]!;
-        factor[r * 4 + c] = factor[c * 4 + r] = sum;
-      }
-    }
-    choleskyInPlace(factor, 4);
-  }
-
-  /** Replaces column `values` (`size` samples at `offset`) by its residual after least squares on the cubic. */
-  function project(values: Float64Array, offset: number, size: number): void {
-    for (let r = 0; r < 4; r++) {
-      let sum = 0;
-      for (let j = 0; j < size; j++) sum += poly[r * capacity + j]! * values[offset + j]!;
-      coefficients[r] = sum;
-    }
-    for (let r = 0; r < 4; r++) {
-      let sum = coefficients[r]!;
-      for (let k = 0; k < r; k++) sum -= factor[r * 4 + k]! * coefficients[k]!;
-      coefficients[r] = sum / factor[r * 4 + r]!;
-    }
-    for (let r = 3; r >= 0; r--) {
-      let sum = coefficients[r]!;
-      for (let k = r + 1; k < 4; k++) sum -= factor[k * 4 + r]! * coefficients[k]!;
-      coefficients[r] = sum / factor[r * 4 + r]!;
-    }
-    for (let j = 0; j < size; j++) {
-      values[offset + j] -=
-        coefficients[0]! + poly[capacity + j]! * coefficients[1]! + poly[2 * capacity + j]! * coefficients[2]! + poly[3 * capacity + j]! * coefficients[3]!;
-    }
-  }
-
   function fitWindow(size: number, spanned: boolean): void {
     fitted++;
-    prepareCubic(size);
     const origin = phase[0]!;
+    // The cubic's orthonormal basis over the window: the discrete orthogonal (Gram) polynomials of degree 0-3 in
+    // x = j − (size − 1)/2, each scaled by 1/‖P_r‖ (Abramowitz & Stegun 22.17; their sums of squares are
+    // N, N(N²−1)/12, N(N²−1)(N²−4)/180, N(N²−1)(N²−4)(N²−9)/2800). With it the least squares on the cubic are
+    // plain dot products, here taken with the harmonics' in one pass.
+    const centre = (size - 1) / 2, n2 = size * size;
+    const a2 = (n2 - 1) / 12, a3 = (3 * n2 - 7) / 20;
+    const w0 = 1 / Math.sqrt(size), w1 = 1 / Math.sqrt(size * a2);
+    const w2 = 1 / Math.sqrt((size * (n2 - 1) * (n2 - 4)) / 180), w3 = 1 / Math.sqrt((size * (n2 - 1) * (n2 - 4) * (n2 - 9)) / 2800);
+    let p0 = 0, p1 = 0, p2 = 0, p3 = 0;
+    onBasis.fill(0);
     for (let j = 0; j < size; j++) {
       const p = phase[j]!;
       // cos kφ, sin kφ by angle addition from cos φ, sin φ: two calls instead of 2·orders, within a few units in
       // the last place of Math.cos(kφ) (orders ≤ 8; tests/core/phase-domain.test.ts holds the estimate to them).
       const c1 = Math.cos(p);
       const s1 = Math.sin(p);
+      const x = j - centre, x2 = x * x;
+      const q0 = w0, q1 = x * w1, q2 = (x2 - a2) * w2, q3 = (x2 - a3) * x * w3;
       let ck = c1;
       let sk = s1;
-      harmonic[j] = c1;
-      harmonic[capacity + j] = s1;
-      for (let k = 2; k <= orders; k++) {
-        const next = ck * c1 - sk * s1;
-        sk = sk * c1 + ck * s1;
-        ck = next;
-        harmonic[(2 * k - 2) * capacity + j] = ck;
-        harmonic[(2 * k - 1) * capacity + j] = sk;
+      const row = m * j;
+      for (let k = 0; k < m; k += 2) {
+        if (k > 0) {
+          const next = ck * c1 - sk * s1;
+          sk = sk * c1 + ck * s1;
+          ck = next;
+        }
+        harmonic[row + k] = ck;
+        harmonic[row + k + 1] = sk;
+        onBasis[k] += q0 * ck;
+        onBasis[k + 1] += q0 * sk;
+        onBasis[m + k] += q1 * ck;
+        onBasis[m + k + 1] += q1 * sk;
+        onBasis[2 * m + k] += q2 * ck;
+        onBasis[2 * m + k + 1] += q2 * sk;
+        onBasis[3 * m + k] += q3 * ck;
+        onBasis[3 * m + k + 1] += q3 * sk;
       }
       harmonicPhase[j] = p;
-      phase[j] = p - origin;
+      const d = p - origin;
+      phase[j] = d;
+      p0 += q0 * d;
+      p1 += q1 * d;
+      p2 += q2 * d;
+      p3 += q3 * d;
     }
-    project(phase, 0, size);
     // The noise, from second differences (6σ² for white noise; smooth motion adds next to nothing sample to sample).
     let curvature = 0;
     for (let j = 2; j < size; j++) curvature += (harmonicPhase[j]! - 2 * harmonicPhase[j - 1]! + harmonicPhase[j - 2]!) ** 2;
     const noiseRad = Math.sqrt(curvature / (6 * (size - 2)));
-    for (let c = 0; c < m; c++) project(harmonic, c * capacity, size);
+    // Residuals after the cubic, and the normal equations of the projected harmonics.
+    localNormal.fill(0);
+    localRhs.fill(0);
     let squares = 0;
-    for (let j = 0; j < size; j++) squares += phase[j]! ** 2;
-    for (let r = 0; r < m; r++) {
-      let sum = 0;
-      for (let j = 0; j < size; j++) sum += harmonic[r * capacity + j]! * phase[j]!;
-      localRhs[r] = sum;
-      for (let c = 0; c <= r; c++) {
-        let cross = 0;
-        for (let j = 0; j < size; j++) cross += harmonic[r * capacity + j]! * harmonic[c * capacity + j]!;
-        localNormal[r * m + c] = cross;
+    for (let j = 0; j < size; j++) {
+      const x = j - centre, x2 = x * x;
+      const q0 = w0, q1 = x * w1, q2 = (x2 - a2) * w2, q3 = (x2 - a3) * x * w3;
+      const d = phase[j]! - (q0 * p0 + q1 * p1 + q2 * p2 + q3 * p3);
+      squares += d * d;
+      const row = m * j;
+      for (let k = 0; k < m; k++) {
+        harmonic[row + k] -= q0 * onBasis[k]! + q1 * onBasis[m + k]! + q2 * onBasis[2 * m + k]! + q3 * onBasis[3 * m + k]!;
+      }
+      for (let r = 0; r < m; r++) {
+        const hr = harmonic[row + r]!;
+        localRhs[r] += hr * d;
+        for (let c = 0; c <= r; c++) localNormal[r * m + c] += hr * harmonic[row + c]!;
       }
     }
     // What the window's own cubic and harmonics leave: motion the cubic cannot follow, beyond the noise, would leak

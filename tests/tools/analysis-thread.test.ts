@@ -85,6 +85,43 @@ describe('analyses on a worker thread', () => {
     expect((threaded as Error).message).toBe((inline as Error).message);
   });
 
+  it('the analyses read the unwrapped phase of analysed blocks only, unless a harmonic estimate takes every block', async () => {
+    // runCapture leaves the phase unwritten in blocks left out (two outputs, no harmonic correction): here those
+    // blocks carry NaN instead of their phase, and the results must not change; with the harmonics' estimate,
+    // which reads every block, they must (the check can fail).
+    type Analyses = typeof import('../../tools/capture-analyses.js');
+    const { createCaptureAnalyses, createBlockOutput, CAPTURE_BLOCK_SAMPLES: n } = (await import(pathToFileURL(resolve('dist/tools/capture-analyses.js')).href)) as Analyses;
+    const { createPipeline } = await import('../../src/accel/index.js');
+    const blocks = 12;
+    const phase = wanderingPhase(blocks * n, 60);
+    const x = phase.map((p) => 1000 * Math.cos(p));
+    const y = phase.map((p) => 1000 * Math.sin(p) + 3 * Math.sin(2 * p));
+    const calibration = { offsetX: 0, offsetY: 0, amplitudeX: 1000, amplitudeY: 1000, phaseErrorRad: 0 };
+    const results = (estimate: boolean) => {
+      const config = { calibration, layout: null, mid: 0, rateHz: 1e5, metresPerRad: 5e-8, maxPlotPoints: 64, ...(estimate ? { estimateHarmonics: { orders: 2, totalSamples: blocks * n } } : {}) };
+      const plain = createCaptureAnalyses(config);
+      const poisoned = createCaptureAnalyses(config);
+      const pipeline = createPipeline({ rateHz: 1e5, wavelengthM: 632.9908e-9, fold: 2, calibration, adc: { kind: 'float', fullScale: 1e4 } });
+      const output = createBlockOutput();
+      for (let b = 0; b < blocks; b++) {
+        const xs = x.subarray(b * n, (b + 1) * n);
+        const ys = y.subarray(b * n, (b + 1) * n);
+        pipeline.process(xs, ys, n, output, []);
+        const analysed = b % 3 === 0;
+        const block = { firstIndex: b * n, length: n, t: null, analysed, x: analysed ? xs : null, y: analysed ? ys : null, phaseBeforeHarmonics: null };
+        plain.add({ ...block, output });
+        if (!analysed) output.unwrappedPhaseRad.fill(NaN);
+        poisoned.add({ ...block, output });
+      }
+      return { plain: plain.finish(), poisoned: poisoned.finish() };
+    };
+    const without = results(false);
+    expect(without.plain.after.summary.samples).toBeGreaterThan(0);
+    expect(without.poisoned).toEqual(without.plain);
+    const withEstimate = results(true);
+    expect(withEstimate.poisoned.harmonicEstimate).not.toEqual(withEstimate.plain.harmonicEstimate);
+  });
+
   it('replay --analysis-thread on and off write the same rows and summary; a wrong value is named', async () => {
     for (const mode of ['on', 'off']) {
       const replayed = await fringetally(['replay', 'two.wav', ...common, '--out', `two-${mode}.csv`, '--every', '7', '--analysis-thread', mode], dir);

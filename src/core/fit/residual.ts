@@ -11,7 +11,7 @@
 import { integerInRange } from '../options.js';
 import { TWO_PI } from '../phase.js';
 
-/** Radius harmonics reported: orders 1..RESIDUAL_ORDERS of the corrected phase. */
+/** Radius harmonics reported: orders 1..RESIDUAL_ORDERS of the corrected phase (the analyzer's loop is written out for 8). */
 export const RESIDUAL_ORDERS = 8;
 /** Octave levels of the noise-colour estimate: averaging times of 1, 2, 4 … 16 samples. */
 const NOISE_LEVELS = 5;
@@ -85,8 +85,6 @@ export function createResidualAnalyzer(options: ResidualAnalyzerOptions = {}): R
   // Per segment: Σ(r − 1), count, then Σcos kφ and Σsin kφ for k = 1..ORDERS (to remove the phase-locked part later).
   const stride = 2 + 2 * RESIDUAL_ORDERS;
   const segmentSums = new Float64Array(segments * stride);
-  const cosK = new Float64Array(RESIDUAL_ORDERS + 1);
-  const sinK = new Float64Array(RESIDUAL_ORDERS + 1);
   // Noise colour: a cascade of pairwise averages; per level the previous average, a pending half and Σ of squared differences.
   const previous = new Float64Array(NOISE_LEVELS);
   const hasPrevious = new Uint8Array(NOISE_LEVELS);
@@ -141,13 +139,35 @@ export function createResidualAnalyzer(options: ResidualAnalyzerOptions = {}): R
   }
 
   function add(u: ArrayLike<number>, v: ArrayLike<number>, length: number, use?: ArrayLike<number>): void {
-    let sampleIndex = totals[0]!, analysed = totals[1]!, radiusSum = totals[2]!;
-    for (let i = 0; i < length; i++, sampleIndex++) {
+    const first = totals[0]!;
+    let i = 0;
+    while (i < length) {
+      if (first + i >= segments * segmentSamples) {
+        // Past the last segment: the segments merge when the next analysed sample comes, if one does.
+        i = run(u, v, i, length, use, -1);
+        while (i < length && first + i >= segments * segmentSamples) mergeSegments();
+        continue;
+      }
+      const segment = Math.floor((first + i) / segmentSamples);
+      i = run(u, v, i, Math.min(length, (segment + 1) * segmentSamples - first), use, segment * stride);
+    }
+    totals[0] = first + length;
+  }
+
+  /**
+   * Analyses samples from..to−1 of one segment (its sums at `base`), the segment's sums in locals and added once at
+   * the end; with `base` −1 only finds the next analysed sample. Returns where it stopped.
+   */
+  function run(u: ArrayLike<number>, v: ArrayLike<number>, from: number, to: number, use: ArrayLike<number> | undefined, base: number): number {
+    let analysed = 0, radiusSum = 0, sum = 0;
+    let c1 = 0, s1 = 0, c2 = 0, s2 = 0, c3 = 0, s3 = 0, c4 = 0, s4 = 0, c5 = 0, s5 = 0, c6 = 0, s6 = 0, c7 = 0, s7 = 0, c8 = 0, s8 = 0;
+    let i = from;
+    for (; i < to; i++) {
       const ui = u[i]!;
       const vi = v[i]!;
       const r = Math.sqrt(ui * ui + vi * vi);
       if ((use !== undefined && !use[i]) || !(r > 0 && r < Infinity)) continue;
-      while (sampleIndex >= segments * segmentSamples) mergeSegments();
+      if (base < 0) return i;
       const residual = r - 1;
       const c = ui / r;
       const s = vi / r;
@@ -158,23 +178,42 @@ export function createResidualAnalyzer(options: ResidualAnalyzerOptions = {}): R
       pushNoise(residual - lockedAt(position));
       binSums[bin] += residual;
       binCounts[bin] += 1;
-      const base = Math.floor(sampleIndex / segmentSamples) * stride;
-      segmentSums[base] += residual;
-      segmentSums[base + 1] += 1;
-      cosK[0] = 1;
-      sinK[0] = 0;
-      for (let k = 1; k <= RESIDUAL_ORDERS; k++) {
-        cosK[k] = cosK[k - 1]! * c - sinK[k - 1]! * s;
-        sinK[k] = sinK[k - 1]! * c + cosK[k - 1]! * s;
-        segmentSums[base + 2 * k] += cosK[k]!;
-        segmentSums[base + 2 * k + 1] += sinK[k]!;
-      }
+      sum += residual;
+      // cos kφ, sin kφ for k = 1..RESIDUAL_ORDERS (8) by angle addition.
+      let ck = c, sk = s, next = 0;
+      c1 += ck; s1 += sk;
+      next = ck * c - sk * s; sk = sk * c + ck * s; ck = next; c2 += ck; s2 += sk;
+      next = ck * c - sk * s; sk = sk * c + ck * s; ck = next; c3 += ck; s3 += sk;
+      next = ck * c - sk * s; sk = sk * c + ck * s; ck = next; c4 += ck; s4 += sk;
+      next = ck * c - sk * s; sk = sk * c + ck * s; ck = next; c5 += ck; s5 += sk;
+      next = ck * c - sk * s; sk = sk * c + ck * s; ck = next; c6 += ck; s6 += sk;
+      next = ck * c - sk * s; sk = sk * c + ck * s; ck = next; c7 += ck; s7 += sk;
+      next = ck * c - sk * s; sk = sk * c + ck * s; ck = next; c8 += ck; s8 += sk;
       analysed++;
       radiusSum += r;
     }
-    totals[0] = sampleIndex;
-    totals[1] = analysed;
-    totals[2] = radiusSum;
+    if (base < 0) return i;
+    segmentSums[base] += sum;
+    segmentSums[base + 1] += analysed;
+    segmentSums[base + 2] += c1;
+    segmentSums[base + 3] += s1;
+    segmentSums[base + 4] += c2;
+    segmentSums[base + 5] += s2;
+    segmentSums[base + 6] += c3;
+    segmentSums[base + 7] += s3;
+    segmentSums[base + 8] += c4;
+    segmentSums[base + 9] += s4;
+    segmentSums[base + 10] += c5;
+    segmentSums[base + 11] += s5;
+    segmentSums[base + 12] += c6;
+    segmentSums[base + 13] += s6;
+    segmentSums[base + 14] += c7;
+    segmentSums[base + 15] += s7;
+    segmentSums[base + 16] += c8;
+    segmentSums[base + 17] += s8;
+    totals[1] += analysed;
+    totals[2] += radiusSum;
+    return i;
   }
 
   /** Cosine and sine coefficients of r − 1 per order (index k), from the binned means; false when too few bins hold samples. */
