@@ -5,6 +5,8 @@
 // WAVE_FORMAT_IEEE_FLOAT = 3 (mmreg.h); WAVE_FORMAT_EXTENSIBLE = 0xFFFE with cbSize 22, wValidBitsPerSample,
 // dwChannelMask and the SubFormat GUID KSDATAFORMAT_SUBTYPE_PCM 00000001-0000-0010-8000-00AA00389B71 (ksmedia.h).
 import { afterAll, describe, expect, it } from 'vitest';
+import fc from 'fast-check';
+import '../support/property-seed.js';
 import { writeFileSync } from 'node:fs';
 import { CaptureFormatError, openCapture } from '../../src/io/capture/index.js';
 import { collect, makeTempDir } from './helpers.js';
@@ -173,5 +175,33 @@ describe('WAV capture errors', () => {
     const path = wavFile('opts.wav', riff([chunk('fmt ', fmtBody(1, 2, 100, 16)), chunk('data', PCM16_FRAMES)]));
     await expect(openCapture(path, { timeColumn: 't' })).rejects.toThrow(/timeColumn must be left out: .*wav is WAV, its times follow from the header's sample rate/);
     await expect(openCapture(path, { yChannel: 3 })).rejects.toThrow(/expected channel number 3 \(1-based\) for option yChannel, among ch1, ch2/);
+  });
+});
+
+describe('WAV reader properties', () => {
+  it('delivers each frame\'s x and y channels for any channel count and pick, read chunk size and block size', async () => {
+    // Adjacent x and y (channels 1 and 2, 2 and 3 …) take the WebAssembly split; others the plain loop.
+    await fc.assert(
+      fc.asyncProperty(
+        fc.integer({ min: 2, max: 4 }).chain((channels) =>
+          fc.record({
+            channels: fc.constant(channels),
+            pick: fc.uniqueArray(fc.integer({ min: 1, max: channels }), { minLength: 2, maxLength: 2 }),
+            samples: fc.array(fc.integer({ min: -32768, max: 32767 }), { maxLength: 300 }).map((values) => values.slice(0, values.length - (values.length % channels))),
+          }),
+        ),
+        fc.record({ readChunkBytes: fc.integer({ min: 1, max: 300 }), blockSize: fc.integer({ min: 1, max: 40 }) }),
+        async ({ channels, pick, samples }, sizes) => {
+          const data = samples.flatMap((value) => u16(value & 0xffff));
+          const path = wavFile('property.wav', riff([chunk('fmt ', fmtBody(1, channels, 1000, 16)), chunk('data', data)]));
+          const got = await collect(path, { ...sizes, xChannel: pick[0]!, yChannel: pick[1]! });
+          expect(got.error).toBeNull();
+          expect(got.contiguous).toBe(true);
+          expect(got.x).toEqual(samples.filter((_, i) => i % channels === pick[0]! - 1));
+          expect(got.y).toEqual(samples.filter((_, i) => i % channels === pick[1]! - 1));
+        },
+      ),
+      { numRuns: 150 },
+    );
   });
 });
