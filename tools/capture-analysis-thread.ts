@@ -17,12 +17,14 @@ import {
 /** Blocks in flight between the two threads. */
 const RING_SLOTS = 16;
 /**
- * A waiting worker is woken once this many blocks wait for it, not for each: a wake-up is a system call and a
- * thread switch, which cost as much as copying a block's samples, more on a busy machine.
+ * A waiting worker is woken once this many blocks wait for it, and a waiting pipeline once this many slots are
+ * free, not for each: a wake-up is a system call and a thread switch, which cost as much as copying a block's
+ * samples, more on a busy machine.
  */
 const WAKE_BATCH = 8;
-// Control words: blocks handed over, blocks analysed, finish asked, and whether the worker or the pipeline's side
-// is (about to be) waiting: a wake-up is sent only then, not for every block.
+// Control words: blocks handed over, blocks analysed, finish asked, whether the worker is (about to be) waiting,
+// and the count of blocks analysed the pipeline's side waits for (0: not waiting): a wake-up is sent only then,
+// not for every block.
 const WRITTEN = 0;
 const READ = 1;
 const FINISH = 2;
@@ -143,11 +145,14 @@ export function startAnalysisThread(config: AnalysisConfig): AnalysisThread {
     async next() {
       while (written - Atomics.load(control, READ) >= RING_SLOTS) {
         if (failure !== null) throw failure;
+        // A full ring waits for WAKE_BATCH free slots, not one: woken for every block, the two threads would take
+        // turns a block at a time, a wake-up each. The worker wakes this side once it has read `target` blocks.
+        const target = written - RING_SLOTS + WAKE_BATCH;
+        Atomics.store(control, PIPELINE_WAITING, target);
+        // Read after the target is up, so blocks read in between are not waited for (the timeout only re-checks
+        // for a failure of the worker).
         const read = Atomics.load(control, READ);
-        Atomics.store(control, PIPELINE_WAITING, 1);
-        // Checked again after the flag is up, so a slot freed in between is not waited for (the timeout only
-        // re-checks for a failure of the worker).
-        if (written - Atomics.load(control, READ) >= RING_SLOTS) {
+        if (read < target) {
           const wait = waitAsync(control, READ, read, 200);
           if (wait.async) await wait.value;
         }

@@ -18,7 +18,8 @@ try {
       analyses.add(blockInSlot(slots[read % slots.length]!));
       read++;
       Atomics.store(control, READ, read);
-      if (Atomics.load(control, PIPELINE_WAITING) === 1) Atomics.notify(control, READ);
+      const awaited = Atomics.load(control, PIPELINE_WAITING);
+      if (awaited !== 0 && read >= awaited) Atomics.notify(control, READ);
       continue;
     }
     // Every block handed over is done: finished if asked, else wait for the next (the timeout only re-checks).
