@@ -38,14 +38,30 @@ export interface Envelope {
   readonly max: Float64Array;
 }
 
+/**
+ * The bucket stride a run of `totalSamples` ends with: the least power of two under which the buckets number fewer
+ * than `maxPoints` (an even number; with an odd one halving drops a bucket, so the run starts at 1 and doubles).
+ */
+export function finalStride(maxPoints: number, totalSamples: number | null): number {
+  if (totalSamples === null || maxPoints % 2 !== 0) return 1;
+  let stride = 1;
+  while (totalSamples >= maxPoints * stride) stride *= 2;
+  return stride;
+}
+
 // Both collectors keep their points in typed arrays of fixed size: plain arrays that change element kind and
 // length deoptimise the per-block loops, which then box every double.
-export function createEnvelope(maxPoints: number) {
+/**
+ * With the run's length known (`totalSamples`), the buckets start at the stride they would end with: the same
+ * series as doubling from 1 (halving pairs the buckets aligned from the first sample), but no block of a long run
+ * then spans two buckets, so every block can come as its extremes.
+ */
+export function createEnvelope(maxPoints: number, totalSamples: number | null = null) {
   const t = new Float64Array(maxPoints);
   const min = new Float64Array(maxPoints);
   const max = new Float64Array(maxPoints);
   const bucket = new Float64Array([0, Infinity, -Infinity, 0]); // samples in it, min, max, time of its first sample
-  let stride = 1;
+  let stride = finalStride(maxPoints, totalSamples);
   let count = 0;
   function halve(): void {
     const half = count >> 1;
@@ -267,6 +283,8 @@ export interface AnalysisConfig {
   readonly rateHz: number;
   readonly metresPerRad: number;
   readonly maxPlotPoints: number;
+  /** Samples of the run when known beforehand (a WAV file's length), else null. */
+  readonly totalSamples: number | null;
   readonly modelWatch?: ModelWatchOptions;
   readonly estimateHarmonics?: { readonly orders: number; readonly totalSamples: number };
 }
@@ -366,9 +384,9 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
   const watch = createModelWatch(config.modelWatch);
   const watchEvents: ModelWatchEvent[] = [];
   let watchRaised = 0;
-  const position = createEnvelope(config.maxPlotPoints);
-  const velocity = createEnvelope(config.maxPlotPoints);
-  const powerSeries = createEnvelope(config.maxPlotPoints);
+  const position = createEnvelope(config.maxPlotPoints, config.totalSamples);
+  const velocity = createEnvelope(config.maxPlotPoints, config.totalSamples);
+  const powerSeries = createEnvelope(config.maxPlotPoints, config.totalSamples);
   const rawKernel = createWasmFrontEnd({ precision: 'f64-exact' });
   const rawLevel = new Float32Array(CAPTURE_BLOCK_SAMPLES);
   const identity = Float64Array.of(1, 0, 0, 1, 0);

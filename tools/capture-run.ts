@@ -256,6 +256,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     rateHz: info.rateHz,
     metresPerRad,
     maxPlotPoints: options.maxPlotPoints ?? 2000,
+    totalSamples: info.totalSamples,
     ...(options.modelWatch === undefined ? {} : { modelWatch: options.modelWatch }),
     ...(options.estimateHarmonics === undefined ? {} : { estimateHarmonics: options.estimateHarmonics }),
   };

@@ -98,7 +98,7 @@ describe('analyses on a worker thread', () => {
     const y = phase.map((p) => 1000 * Math.sin(p) + 3 * Math.sin(2 * p));
     const calibration = { offsetX: 0, offsetY: 0, amplitudeX: 1000, amplitudeY: 1000, phaseErrorRad: 0 };
     const results = (estimate: boolean) => {
-      const config = { calibration, layout: null, mid: 0, rateHz: 1e5, metresPerRad: 5e-8, maxPlotPoints: 64, ...(estimate ? { estimateHarmonics: { orders: 2, totalSamples: blocks * n } } : {}) };
+      const config = { calibration, layout: null, mid: 0, rateHz: 1e5, metresPerRad: 5e-8, maxPlotPoints: 64, totalSamples: blocks * n, ...(estimate ? { estimateHarmonics: { orders: 2, totalSamples: blocks * n } } : {}) };
       const plain = createCaptureAnalyses(config);
       const poisoned = createCaptureAnalyses(config);
       const pipeline = createPipeline({ rateHz: 1e5, wavelengthM: 632.9908e-9, fold: 2, calibration, adc: { kind: 'float', fullScale: 1e4 } });

@@ -1,10 +1,11 @@
 // The report's decimated series (createEnvelope): a block whose extremes are given (as the WebAssembly block
 // summary finds them) gives the same series as the compare loop over its values, for any block sizes, bucket
-// strides, times and NaN values. The check value is the loop itself; the values are random.
+// strides, times and NaN values; a run of known length started at its final stride gives the series of one that
+// doubles its stride from 1. The check values are the loop and the doubling themselves; the values are random.
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import '../support/property-seed.js';
-import { createEnvelope } from '../../tools/capture-analyses.js';
+import { createEnvelope, finalStride } from '../../tools/capture-analyses.js';
 import { createJsAxisKernels } from '../../src/accel/axis-kernels.js';
 
 describe('createEnvelope', () => {
@@ -35,5 +36,32 @@ describe('createEnvelope', () => {
         },
       ),
     );
+  });
+
+  it('started at the stride a run of known length ends with, gives the series of one doubling from 1', () => {
+    // Zeros of both signs aside (halving takes Math.min, the loop the first of equal values).
+    const value = fc.oneof({ weight: 8, arbitrary: fc.double({ min: -1e3, max: 1e3, noNaN: true }).map((v) => v + 0) }, { weight: 1, arbitrary: fc.constant(NaN) });
+    fc.assert(
+      fc.property(
+        fc.integer({ min: 1, max: 8 }).map((half) => 2 * half),
+        fc.array(fc.array(value, { minLength: 1, maxLength: 30 }), { minLength: 1, maxLength: 30 }),
+        (maxPoints, blocks) => {
+          const total = blocks.reduce((sum, block) => sum + block.length, 0);
+          const doubling = createEnvelope(maxPoints);
+          const known = createEnvelope(maxPoints, total);
+          let first = 0;
+          for (const block of blocks) {
+            const values = Float64Array.from(block);
+            doubling.add(values, values.length, null, first, 1e-3);
+            known.add(values, values.length, null, first, 1e-3);
+            first += values.length;
+          }
+          expect(known.series()).toEqual(doubling.series());
+        },
+      ),
+    );
+    expect(finalStride(2000, 3e7)).toBe(16384); // 3e7 / 16384 = 1831 buckets, 3e7 / 8192 = 3662
+    expect(finalStride(2000, null)).toBe(1);
+    expect(finalStride(2001, 3e7)).toBe(1);
   });
 });
