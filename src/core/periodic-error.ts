@@ -282,9 +282,9 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
   const maxMisfitRad = positiveFinite('maxMisfitRad', options.maxMisfitRad ?? 0.003);
   const m = 2 * orders;
   const phase = new Float64Array(capacity);
-  const harmonicPhase = new Float64Array(capacity);
-  // The harmonic regressors of the window, row-major (m a sample): the passes below read a sample's values together.
-  const harmonic = new Float64Array(m * capacity);
+  // Per window: Σ cos jφ and Σ sin jφ, j = 0..2·orders.
+  const cosSums = new Float64Array(2 * orders + 1);
+  const sinSums = new Float64Array(2 * orders + 1);
   // Per window: the harmonics' coefficients on the basis (4 × m), their projected normal equations, and what is
   // left of them.
   const onBasis = new Float64Array(4 * m);
@@ -304,6 +304,10 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
   let samples = 0;
   let smallestMisfitRad = NaN;
 
+  /** Σ cos nφ and Σ sin nφ of the window for any n in −2·orders..2·orders. */
+  const cosOf = (n: number): number => cosSums[n < 0 ? -n : n]!;
+  const sinOf = (n: number): number => (n < 0 ? -sinSums[-n]! : sinSums[n]!);
+
   function fitWindow(size: number, spanned: boolean): void {
     fitted++;
     const origin = phase[0]!;
@@ -315,27 +319,36 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
     const a2 = (n2 - 1) / 12, a3 = (3 * n2 - 7) / 20;
     const w0 = 1 / Math.sqrt(size), w1 = 1 / Math.sqrt(size * a2);
     const w2 = 1 / Math.sqrt((size * (n2 - 1) * (n2 - 4)) / 180), w3 = 1 / Math.sqrt((size * (n2 - 1) * (n2 - 4) * (n2 - 9)) / 2800);
-    let p0 = 0, p1 = 0, p2 = 0, p3 = 0;
+    // One pass: the phase's and the harmonics' dot products with the basis and with the phase, and Σ cos jφ, Σ sin jφ
+    // for j up to 2·orders, from which the harmonics' products follow (cos a·cos b = ½[cos(a−b) + cos(a+b)] and so
+    // on). The projected products follow from these (Frisch–Waugh–Lovell with an orthonormal Q: ĥ_rᵀĥ_c =
+    // h_rᵀh_c − (Qᵀh_r)·(Qᵀh_c), ĥᵀφ̂ = hᵀφ − (Qᵀh)·(Qᵀφ), φ̂ᵀφ̂ = φᵀφ − |Qᵀφ|²): nothing is stored or projected
+    // sample by sample.
+    let p0 = 0, p1 = 0, p2 = 0, p3 = 0, phaseSquares = 0, curvature = 0;
     onBasis.fill(0);
+    localRhs.fill(0);
+    cosSums.fill(0);
+    sinSums.fill(0);
+    let before = origin, beforeThat = origin;
     for (let j = 0; j < size; j++) {
       const p = phase[j]!;
-      // cos kφ, sin kφ by angle addition from cos φ, sin φ: two calls instead of 2·orders, within a few units in
+      // cos kφ, sin kφ by angle addition from cos φ, sin φ: two calls instead of 4·orders, within a few units in
       // the last place of Math.cos(kφ) (orders ≤ 8; tests/core/phase-domain.test.ts holds the estimate to them).
       const c1 = Math.cos(p);
       const s1 = Math.sin(p);
       const x = j - centre, x2 = x * x;
       const q0 = w0, q1 = x * w1, q2 = (x2 - a2) * w2, q3 = (x2 - a3) * x * w3;
+      const d = p - origin;
       let ck = c1;
       let sk = s1;
-      const row = m * j;
       for (let k = 0; k < m; k += 2) {
         if (k > 0) {
           const next = ck * c1 - sk * s1;
           sk = sk * c1 + ck * s1;
           ck = next;
         }
-        harmonic[row + k] = ck;
-        harmonic[row + k + 1] = sk;
+        cosSums[(k >> 1) + 1] += ck;
+        sinSums[(k >> 1) + 1] += sk;
         onBasis[k] += q0 * ck;
         onBasis[k + 1] += q0 * sk;
         onBasis[m + k] += q1 * ck;
@@ -344,36 +357,51 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
         onBasis[2 * m + k + 1] += q2 * sk;
         onBasis[3 * m + k] += q3 * ck;
         onBasis[3 * m + k + 1] += q3 * sk;
+        localRhs[k] += ck * d;
+        localRhs[k + 1] += sk * d;
       }
-      harmonicPhase[j] = p;
-      const d = p - origin;
-      phase[j] = d;
+      for (let k = orders + 1; k <= 2 * orders; k++) {
+        const next = ck * c1 - sk * s1;
+        sk = sk * c1 + ck * s1;
+        ck = next;
+        cosSums[k] += ck;
+        sinSums[k] += sk;
+      }
       p0 += q0 * d;
       p1 += q1 * d;
       p2 += q2 * d;
       p3 += q3 * d;
+      phaseSquares += d * d;
+      // The noise, from second differences (6σ² for white noise; smooth motion adds next to nothing sample to sample).
+      if (j >= 2) curvature += (p - 2 * before + beforeThat) ** 2;
+      beforeThat = before;
+      before = p;
     }
-    // The noise, from second differences (6σ² for white noise; smooth motion adds next to nothing sample to sample).
-    let curvature = 0;
-    for (let j = 2; j < size; j++) curvature += (harmonicPhase[j]! - 2 * harmonicPhase[j - 1]! + harmonicPhase[j - 2]!) ** 2;
-    const noiseRad = Math.sqrt(curvature / (6 * (size - 2)));
-    // Residuals after the cubic, and the normal equations of the projected harmonics.
-    localNormal.fill(0);
-    localRhs.fill(0);
-    let squares = 0;
-    for (let j = 0; j < size; j++) {
-      const x = j - centre, x2 = x * x;
-      const q0 = w0, q1 = x * w1, q2 = (x2 - a2) * w2, q3 = (x2 - a3) * x * w3;
-      const d = phase[j]! - (q0 * p0 + q1 * p1 + q2 * p2 + q3 * p3);
-      squares += d * d;
-      const row = m * j;
-      for (let k = 0; k < m; k++) {
-        harmonic[row + k] -= q0 * onBasis[k]! + q1 * onBasis[m + k]! + q2 * onBasis[2 * m + k]! + q3 * onBasis[3 * m + k]!;
+    cosSums[0] = size;
+    for (let r = 0; r < m; r++) {
+      const a = (r >> 1) + 1;
+      for (let c = 0; c <= r; c++) {
+        const b = (c >> 1) + 1;
+        // Rows and columns alternate cos, sin of orders 1, 1, 2, 2 …
+        const product =
+          (r & 1) === 0
+            ? (c & 1) === 0
+              ? cosOf(a - b) + cosOf(a + b)
+              : sinOf(a + b) - sinOf(a - b)
+            : (c & 1) === 0
+              ? sinOf(a + b) + sinOf(a - b)
+              : cosOf(a - b) - cosOf(a + b);
+        localNormal[r * m + c] = product / 2;
       }
-      for (let r = 0; r < m; r++) {
-        const hr = harmonic[row + r]!;
-        localRhs[r] += hr * d;
-        for (let c = 0; c <= r; c++) localNormal[r * m + c] += hr * harmonic[row + c]!;
+    }
+    const noiseRad = Math.sqrt(curvature / (6 * (size - 2)));
+    const squares = phaseSquares - (p0 * p0 + p1 * p1 + p2 * p2 + p3 * p3);
+    for (let r = 0; r < m; r++) {
+      localRhs[r] -= onBasis[r]! * p0 + onBasis[m + r]! * p1 + onBasis[2 * m + r]! * p2 + onBasis[3 * m + r]! * p3;
+      for (let c = 0; c <= r; c++) {
+        let cross = 0;
+        for (let q = 0; q < 4; q++) cross += onBasis[q * m + r]! * onBasis[q * m + c]!;
+        localNormal[r * m + c] -= cross;
       }
     }
     // What the window's own cubic and harmonics leave: motion the cubic cannot follow, beyond the noise, would leak
@@ -393,7 +421,7 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
     if (!(misfitRad >= smallestMisfitRad)) smallestMisfitRad = misfitRad;
     if (misfitRad > maxMisfitRad) return;
     for (let j = 0; j < size; j++) {
-      const wrapped = harmonicPhase[j]! - TWO_PI * Math.floor(harmonicPhase[j]! / TWO_PI);
+      const wrapped = phase[j]! - TWO_PI * Math.floor(phase[j]! / TWO_PI);
       reached[Math.min(bins - 1, Math.floor((wrapped / TWO_PI) * bins))] = 1;
     }
     for (let r = 0; r < m; r++) {
