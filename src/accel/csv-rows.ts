@@ -8,7 +8,7 @@ import { instantiate } from './wasm.js';
 interface KernelExports {
   readonly memory: WebAssembly.Memory;
   readonly position: { readonly value: number };
-  configure(columns: number, xc: number, yc: number, tc: number, zc: number, wc: number, xp: number, yp: number, tp: number, zp: number, wp: number, maxLine: number, values: number): void;
+  configure(columns: number, maxLine: number, destinations: number, copies: number, copyCount: number): void;
   rows(start: number, limit: number, slot: number, capacity: number): number;
 }
 
@@ -47,8 +47,8 @@ export interface CsvRowKernel {
   readonly position: number;
 }
 
-/** Bytes below the buffer: powers of ten. */
-const POWERS_BYTES = 256;
+/** Bytes below the buffer: powers of ten and a byte class table (csv-rows.wat). */
+const POWERS_BYTES = 512;
 /** Most columns a row can have: a header of at most 65 536 bytes names at most 32 769 (one byte each, commas between). */
 const MAX_COLUMNS = 32_769;
 const PAGE_BYTES = 65_536;
@@ -67,9 +67,11 @@ export function createCsvRowKernel(byteCapacity: number, blockSize: number, outp
   const kernel: KernelExports = instance;
   const arrayBytes = blockSize * 8;
   const arraysAt = Math.ceil((POWERS_BYTES + byteCapacity) / 8) * 8;
-  // x, y, the extra outputs, times, then a row's values.
-  const valuesAt = arraysAt + (outputs + 1) * arrayBytes;
-  const total = valuesAt + 8 * MAX_COLUMNS;
+  // x, y, the extra outputs, times, a sink for the columns not read; then each column's destination and the byte
+  // that ends it, and the copies (at most 4 pairs) for outputs whose column feeds another.
+  const destinationsAt = arraysAt + (outputs + 2) * arrayBytes;
+  const copiesAt = destinationsAt + 8 * MAX_COLUMNS;
+  const total = copiesAt + 32;
   const pages = Math.ceil(total / PAGE_BYTES);
   try {
     // All memory at once: growing later would detach the views handed out below.
@@ -93,10 +95,33 @@ export function createCsvRowKernel(byteCapacity: number, blockSize: number, outp
     extra,
     configure(columns) {
       integerInRange('columns', columns.columns, 1, MAX_COLUMNS);
-      const z = columns.extra.length > 0 ? columns.extra[0]! : -1;
-      const w = columns.extra.length > 1 ? columns.extra[1]! : -1;
       if (columns.extra.length > outputs - 2) throw new RangeError(`extra must list at most ${outputs - 2} columns (got ${columns.extra.length})`);
-      kernel.configure(columns.columns, columns.x, columns.y, columns.t, z, w, offset(0), offset(1), offset(outputs), offset(2), offset(3), integerInRange('maxLineBytes', columns.maxLineBytes, 0, 65_536), valuesAt);
+      const sink = offset(outputs + 1);
+      const table = new Int32Array(memory, destinationsAt, 2 * columns.columns);
+      const destinations = new Int32Array(columns.columns).fill(sink);
+      const copies = new Int32Array(memory, copiesAt, 8);
+      let copyCount = 0;
+      const wanted: [number, number][] = [
+        [columns.x, offset(0)],
+        [columns.y, offset(1)],
+        [columns.t, offset(outputs)],
+        ...columns.extra.map((column, k): [number, number] => [column, offset(2 + k)]),
+      ];
+      for (const [column, to] of wanted) {
+        if (column === -1) continue;
+        integerInRange('column', column, 0, columns.columns - 1);
+        if (destinations[column] === sink) destinations[column] = to;
+        else {
+          copies[2 * copyCount] = to;
+          copies[2 * copyCount + 1] = destinations[column]!;
+          copyCount++;
+        }
+      }
+      destinations.forEach((to, column) => {
+        table[2 * column] = to;
+        table[2 * column + 1] = column < columns.columns - 1 ? 0x2c : 0x0a;
+      });
+      kernel.configure(columns.columns, integerInRange('maxLineBytes', columns.maxLineBytes, 0, 65_536), destinationsAt, copiesAt, copyCount);
     },
     rows(start, limit, index, capacity) {
       // Byte indices are the caller's, relative to `bytes`; the kernel's are memory offsets.
