@@ -10,4 +10,5 @@ export {
 } from './front-end.js';
 export { createFusedFrontEnd, type FusedFrontEndOptions } from './fused-front-end.js';
 export { createExactFrontEnd, createPipeline, type ExactFrontEnd, type ExactFrontEndKind } from './pipeline.js';
+export { createWasmSteadyKernel, type WasmSteadyKernel, type WasmSteadyKernelOptions } from './steady-kernel.js';
 export { createFastEllipseAccumulator, createWasmEllipseAccumulator } from './ellipse-accumulator.js';

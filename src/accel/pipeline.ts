@@ -4,6 +4,7 @@
 import { createPipeline as createPlainPipeline, type FrontEnd, type Pipeline, type PipelineOptions, type SampleArray } from '../core/index.js';
 import { createWasmFrontEnd } from './front-end.js';
 import { createFusedFrontEnd } from './fused-front-end.js';
+import { createWasmSteadyKernel } from './steady-kernel.js';
 
 /** Which kernels an exact front end runs: int16 and float64 blocks in WebAssembly SIMD where it exists, everything else fused. */
 export type ExactFrontEndKind = 'wasm-simd-f64-exact+js-fused' | 'js-fused';
@@ -31,10 +32,14 @@ export function createExactFrontEnd(): ExactFrontEnd {
 }
 
 /**
- * `createPipeline` of the core with `frontEnd` defaulting to `createExactFrontEnd()`: same outputs and events,
- * faster. `frontEnd: null` asks for the plain stages.
+ * `createPipeline` of the core with the fastest exact path by default: where WebAssembly SIMD exists the steady-path
+ * kernel (`createWasmSteadyKernel`: front end, tracker steady loop and displacement in one pass) as `frontEnd` and
+ * `kernel`, else `createExactFrontEnd()`. Same outputs and events, faster. Given `frontEnd` or `kernel` (`null`
+ * asks for the plain stages), it is the core's `createPipeline` with those.
  */
 export function createPipeline(options: PipelineOptions): Pipeline {
-  if (options.frontEnd !== undefined) return createPlainPipeline(options);
-  return createPlainPipeline({ ...options, frontEnd: createExactFrontEnd() });
+  if (options.frontEnd !== undefined || options.kernel !== undefined) return createPlainPipeline(options);
+  const steady = createWasmSteadyKernel();
+  if (steady === null) return createPlainPipeline({ ...options, frontEnd: createExactFrontEnd() });
+  return createPlainPipeline({ ...options, frontEnd: steady, kernel: steady });
 }

@@ -14,6 +14,28 @@ export interface DisplacementOptions {
   readonly rateHz: number;
   /** Factor on every length and velocity, e.g. the normalisation to 20 °C, 1/(1 + α(T − 20)). Default 1; positive. */
   readonly lengthScale?: number;
+  /** Accelerated displacement loop (same results to the bit, e.g. WebAssembly). Default none: the JavaScript loop. */
+  readonly kernel?: PlaceKernel | null;
+}
+
+/**
+ * A replacement of the displacement loop: position (turns − refTurns)·perFringe + (phase − refPhase)·perRad and
+ * velocity step·perStep for each sample, to the bit.
+ */
+export interface PlaceKernel {
+  place(
+    turns: Float64Array,
+    phaseRad: Float64Array,
+    stepRad: Float64Array,
+    length: number,
+    positionM: Float64Array,
+    velocityMS: Float64Array,
+    refTurns: number,
+    refPhase: number,
+    perFringe: number,
+    perRad: number,
+    perStep: number,
+  ): void;
 }
 
 export interface Displacement {
@@ -50,6 +72,7 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
   const rateHz = positiveFinite('rateHz', options.rateHz);
   let refractiveIndex = validateRefractiveIndex(options.refractiveIndex ?? 1);
   const lengthScale = positiveFinite('lengthScale', options.lengthScale ?? 1);
+  const place = options.kernel?.place;
   let metresPerFringe = 0;
   let metresPerRad = 0;
   let velocityPerStep = 0;
@@ -78,7 +101,8 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
     }
     const perFringe = metresPerFringe, perRad = metresPerRad, perStep = velocityPerStep;
     const refTurns = referenceTurns, refPhase = referencePhase;
-    for (let i = 0; i < length; i++) {
+    if (place) place(turns, phaseRad, stepRad, length, positionM, velocityMS, refTurns, refPhase, perFringe, perRad, perStep);
+    else for (let i = 0; i < length; i++) {
       // Integer and fractional parts are differenced separately: exact for counts far beyond 2^32.
       positionM[i] = (turns[i]! - refTurns) * perFringe + (phaseRad[i]! - refPhase) * perRad;
       velocityMS[i] = stepRad[i]! * perStep;

@@ -6,6 +6,7 @@ export {
   validateRefractiveIndex,
   type Displacement,
   type DisplacementOptions,
+  type PlaceKernel,
 } from './displacement.js';
 export * from './fit/index.js';
 export {
@@ -34,6 +35,7 @@ export {
   type PipelineOutput,
   type SampleArray,
   type SpeedLimits,
+  type SteadyKernel,
 } from './pipeline.js';
 export {
   aidedAccelerationLimit,
@@ -41,6 +43,7 @@ export {
   type PhaseTracker,
   type PhaseTrackerOptions,
   type PhaseTrackerOutput,
+  type TrackKernel,
   type UnwrapMethod,
 } from './tracker.js';
 export {

@@ -2,12 +2,12 @@
 
 import type { AlarmEvent } from './alarms.js';
 import { createCorrection, type Correction } from './correction.js';
-import { createDisplacement, type Displacement } from './displacement.js';
+import { createDisplacement, type Displacement, type PlaceKernel } from './displacement.js';
 import type { EllipseCalibration } from './fit/ellipse.js';
 import { createSignalMonitor, type AdcFormat, type SignalMonitor } from './monitor.js';
 import { integerInRange, MAX_COUNT } from './options.js';
 import { TWO_PI } from './phase.js';
-import { createPhaseTracker, type PhaseTracker, type UnwrapMethod } from './tracker.js';
+import { createPhaseTracker, type PhaseTracker, type TrackKernel, type UnwrapMethod } from './tracker.js';
 
 /** Raw sample blocks the pipeline accepts: ADC integers or floats. */
 export type SampleArray = Int16Array | Uint16Array | Int32Array | Uint32Array | Float32Array | Float64Array;
@@ -51,7 +51,15 @@ export interface PipelineOptions {
    * re-exported by the package root) defaults to the fastest exact one.
    */
   readonly frontEnd?: FrontEnd | null;
+  /**
+   * Accelerated tracker steady loop and displacement loop (same results to the bit), e.g. with a front end that
+   * runs them along. Default none (`null` too): the JavaScript loops.
+   */
+  readonly kernel?: SteadyKernel | null;
 }
+
+/** The tracker's steady loop and the displacement loop, replaced together (see `TrackKernel`, `PlaceKernel`). */
+export interface SteadyKernel extends TrackKernel, PlaceKernel {}
 
 /**
  * An accelerated replacement of the correction, level and arctangent passes for blocks in which nothing needs
@@ -159,12 +167,13 @@ export function createPipeline(options: PipelineOptions): Pipeline {
   let referenceIndex = -1; // pending re-reference, or −1
 
   function allocate(length: number): void {
+    const make = () => new Float64Array(length);
     capacity = length;
-    u = new Float64Array(length);
-    v = new Float64Array(length);
-    track.turns = new Float64Array(length);
-    track.phaseRad = new Float64Array(length);
-    track.stepRad = new Float64Array(length);
+    u = make();
+    v = make();
+    track.turns = make();
+    track.phaseRad = make();
+    track.stepRad = make();
   }
   allocate(integerInRange('blockCapacity', options.blockCapacity ?? 4096, 1, 2 ** 28));
 

@@ -46,6 +46,30 @@ export interface PhaseTrackerOptions {
   readonly heldTravelRad?: number;
   /** The overspeed alarm clears after this many consecutive steps under 0.9 × overspeedStepRad. Default 32. */
   readonly clearHoldSamples?: number;
+  /** Accelerated steady loop (same results to the bit, e.g. WebAssembly). Default none: the JavaScript loop. */
+  readonly kernel?: TrackKernel | null;
+}
+
+/**
+ * A replacement of the tracker's steady loop: for a block whose samples are all usable, the same turns, loop
+ * velocities and loop state [w, lag, noise, recent step] as the JavaScript loop, to the bit; false (outputs then
+ * unspecified, `loop` untouched) when a level is below `minLevel` or a step beyond `maxStepRad`.
+ */
+export interface TrackKernel {
+  track(
+    phaseRad: Float64Array,
+    level: Float32Array,
+    length: number,
+    minLevel: number,
+    maxStepRad: number,
+    lastPhase: number,
+    turns: number,
+    turnsOut: Float64Array,
+    stepOut: Float64Array,
+    alpha: number,
+    beta: number,
+    loop: Float64Array,
+  ): boolean;
 }
 
 export interface PhaseTrackerOutput {
@@ -83,7 +107,7 @@ export interface PhaseTracker {
   readonly turns: number;
   readonly phaseRad: number;
   readonly stepRad: number;
-  readonly options: Readonly<Required<PhaseTrackerOptions>>;
+  readonly options: Readonly<Required<Omit<PhaseTrackerOptions, 'kernel'>>>;
 }
 
 /**
@@ -188,6 +212,7 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
 
   // Alpha-beta form of a type-2 loop: zero steady-state error at constant velocity.
   const { alpha, beta } = loopGains(rateHz, bandwidthHz);
+  const steady = options.kernel?.track ?? steadyBlock;
 
   let started = false;
   let turns = 0;
@@ -265,7 +290,7 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
     loopState[1] = lagNow;
     loopState[2] = noiseNow;
     loopState[3] = recent;
-    if (!aided && isStarted && !resume && !over && steadyBlock(phaseOut, level, length, minLev, overStep, last, turnsNow, turnsOut, stepOut, a, b, loopState)) {
+    if (!aided && isStarted && !resume && !over && steady(phaseOut, level, length, minLev, overStep, last, turnsNow, turnsOut, stepOut, a, b, loopState)) {
       // Fast path: every sample usable and every step under the overspeed threshold, so no alarm can change.
       w = loopState[0]!;
       lagNow = loopState[1]!;

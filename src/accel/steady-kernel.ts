@@ -1,0 +1,271 @@
+// The pipeline's steady path in one WebAssembly pass (steady-kernel.wat): the exact front end, the tracker's steady
+// loop and the displacement, each to the bit what the JavaScript stages give. One object serves the pipeline as
+// its `frontEnd` and as its `kernel`: the front end's pass also runs the tracker and the displacement from the
+// state the previous block ended in, and when the tracker and the displacement then ask for their loops with
+// exactly that state (as they do on every steady block after the first), their results are copied out instead of
+// computed again. Any other call computes them from its own arguments, so the results never depend on that guess.
+import type { FrontEnd, SampleArray, SteadyKernel } from '../core/index.js';
+import { createFusedFrontEnd } from './fused-front-end.js';
+import { STEADY_KERNEL_WASM_BASE64 } from './steady-kernel-wasm.js';
+import { instantiate } from './wasm.js';
+
+export interface WasmSteadyKernel extends FrontEnd, SteadyKernel {}
+
+export interface WasmSteadyKernelOptions {
+  /** Samples per block to reserve memory for at once; it grows to the largest block seen. Default 4096. */
+  readonly capacity?: number;
+}
+
+interface KernelExports {
+  readonly memory: WebAssembly.Memory;
+  fused(n: number, wide: number, xp: number, yp: number, lp: number, pp: number, tp: number, sp: number, posp: number, velp: number): number;
+  track(n: number, lp: number, pp: number, tp: number, sp: number): number;
+  place(n: number, tp: number, pp: number, sp: number, posp: number, velp: number): void;
+}
+
+// Indices of the parameter area (f64) at the start of the module's memory; steady-kernel.wat lists them.
+const MIN_LEVEL = 7;
+const LAST = 8;
+const TURNS = 9;
+const LOOP = 10; // w, lag, noise, recent step
+const ALPHA = 14;
+const BETA = 15;
+const MAX_STEP = 16;
+const REFERENCE = 17; // reference turns and phase, metres per fringe, per rad, velocity per step
+const AFTER = 24; // last phase, turns, w, lag, noise, recent step after the block
+const REGIONS_AT = 1024;
+
+/**
+ * The steady-path kernel, or null when this engine lacks WebAssembly or its SIMD extension. Int16Array and
+ * Float64Array blocks run in WebAssembly; other sample types take the fused JavaScript front end, and their
+ * tracker and displacement loops still run here.
+ */
+export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): WasmSteadyKernel | null {
+  const instance = instantiate<KernelExports>(STEADY_KERNEL_WASM_BASE64);
+  if (instance === null) return null;
+  const kernel: KernelExports = instance;
+  const fallback = createFusedFrontEnd();
+  let params = new Float64Array(kernel.memory.buffer, 0, 32);
+  // What the next block's pass assumes the tracker and the displacement start from (indices as in `params`):
+  // the state the last tracked block ended in and the last reference and scale.
+  const assumed = new Float64Array(22);
+
+  let capacity = 0;
+  // Regions, in this order: x, y (int16 or f64), level (f32), phase, turns, step, position, velocity (f64). Each is
+  // 512 bytes longer than its samples need, so that equal indices of two regions never lie a multiple of 4 KiB
+  // apart (the CPU then takes a load for a store to the same address and waits: twice as slow).
+  const at = new Int32Array(8);
+  let xs = new Int16Array(0);
+  let ys = xs;
+  let xsWide = new Float64Array(0);
+  let ysWide = xsWide;
+  let levels = new Float32Array(0);
+  let phases = xsWide;
+  let turnsAll = xsWide;
+  let stepsAll = xsWide;
+  let positions = xsWide;
+  let velocities = xsWide;
+  // Views of exactly the last block's length, for the copies out; remade only when the length changes.
+  let viewLength = -1;
+  let levelView = levels;
+  let turnsView = xsWide;
+  let stepView = xsWide;
+  let positionView = xsWide;
+  let velocityView = xsWide;
+
+  function reserve(samples: number): void {
+    capacity = Math.ceil(samples / 8) * 8;
+    const region = 8 * capacity + 512;
+    const bytes = REGIONS_AT + 8 * region;
+    const pages = Math.ceil(bytes / 65536) - kernel.memory.buffer.byteLength / 65536;
+    if (pages > 0) kernel.memory.grow(pages);
+    const buffer = kernel.memory.buffer;
+    for (let k = 0; k < 8; k++) at[k] = REGIONS_AT + k * region;
+    params = new Float64Array(buffer, 0, 32);
+    xs = new Int16Array(buffer, at[0]!, capacity);
+    ys = new Int16Array(buffer, at[1]!, capacity);
+    xsWide = new Float64Array(buffer, at[0]!, capacity);
+    ysWide = new Float64Array(buffer, at[1]!, capacity);
+    levels = new Float32Array(buffer, at[2]!, capacity);
+    phases = new Float64Array(buffer, at[3]!, capacity);
+    turnsAll = new Float64Array(buffer, at[4]!, capacity);
+    stepsAll = new Float64Array(buffer, at[5]!, capacity);
+    positions = new Float64Array(buffer, at[6]!, capacity);
+    velocities = new Float64Array(buffer, at[7]!, capacity);
+    viewLength = -1;
+  }
+  reserve(options.capacity ?? 4096);
+
+  function views(length: number): void {
+    if (viewLength === length) return;
+    viewLength = length;
+    levelView = levels.subarray(0, length);
+    turnsView = turnsAll.subarray(0, length);
+    stepView = stepsAll.subarray(0, length);
+    positionView = positions.subarray(0, length);
+    velocityView = velocities.subarray(0, length);
+  }
+
+  // The last front-end pass: its block, and whether what it ran of the tracker and the displacement may be used.
+  let passLength = -1;
+  let passLevel: Float32Array | null = null;
+  let passTracked = false; // every step of the block within the max step, from the assumed state
+  let passFresh = false; // no tracker loop asked for since the pass
+  // The last tracker loop: its outputs (also in the turns and step regions) for the displacement after it.
+  let trackedTurns: Float64Array | null = null;
+  let trackedSteps: Float64Array | null = null;
+  let trackedPhases: Float64Array | null = null;
+  let trackedLength = -1;
+  let trackedFromPass = false; // position and velocity of the pass hold too
+
+  // Typed-array set is a memcpy. Values past the block are copied along when they fit (the kernel reads only the
+  // block and its padding); a view is made only for a caller's array longer than the reserved memory.
+  function copyIn(to: Int16Array | Float32Array | Float64Array, from: SampleArray, length: number): void {
+    to.set(from.length <= capacity ? from : from.subarray(0, length));
+  }
+
+  function copyPadded(to: Int16Array | Float64Array, from: SampleArray, length: number, padded: number): void {
+    copyIn(to, from, length);
+    if (padded > length) to.fill(from[length - 1]!, length, padded);
+  }
+
+  function process(
+    x: SampleArray, y: SampleArray, length: number, c: Float64Array, low: number, high: number, minLevel: number,
+    level: Float32Array, lastPhaseRad: number, stepGuardRad: number,
+  ): Float64Array | null {
+    passFresh = false;
+    trackedTurns = null;
+    if (length <= 0) return null;
+    const wide = x instanceof Float64Array && y instanceof Float64Array;
+    if (!wide && !(x instanceof Int16Array && y instanceof Int16Array)) {
+      return fallback.process(x, y, length, c, low, high, minLevel, level, lastPhaseRad, stepGuardRad);
+    }
+    if (length > capacity) reserve(length);
+    // Padded to the pass's group of 4 with the last sample: same checks; the tracker stops at `length`.
+    const padded = Math.ceil(length / 4) * 4;
+    if (wide) {
+      copyPadded(xsWide, x, length, padded);
+      copyPadded(ysWide, y, length, padded);
+    } else {
+      copyPadded(xs, x, length, padded);
+      copyPadded(ys, y, length, padded);
+    }
+    const p = params;
+    p.set(assumed);
+    p[0] = c[0]!;
+    p[1] = c[1]!;
+    p[2] = c[2]!;
+    p[3] = c[3]!;
+    p[4] = c[4]!;
+    p[5] = low;
+    p[6] = high;
+    p[MIN_LEVEL] = minLevel;
+    p[LAST] = lastPhaseRad;
+    const result = kernel.fused(length, wide ? 1 : 0, at[0]!, at[1]!, at[2]!, at[3]!, at[4]!, at[5]!, at[6]!, at[7]!);
+    if ((result & 1) === 0) return null;
+    passLength = length;
+    passLevel = level;
+    passTracked = (result & 2) !== 0;
+    passFresh = true;
+    views(length);
+    level.set(levelView);
+    return phases;
+  }
+
+  function track(
+    phaseRad: Float64Array, level: Float32Array, length: number, minLevel: number, maxStepRad: number, lastPhase: number,
+    turns: number, turnsOut: Float64Array, stepOut: Float64Array, alpha: number, beta: number, loop: Float64Array,
+  ): boolean {
+    const fromPass = passFresh;
+    passFresh = false;
+    trackedTurns = null;
+    if (length <= 0) return true;
+    let p = params;
+    // The pass's tracker results hold when its block and every input of the loop are the ones it assumed.
+    const same =
+      fromPass && phaseRad === phases && level === passLevel && length === passLength &&
+      Object.is(minLevel, p[MIN_LEVEL]) && Object.is(maxStepRad, p[MAX_STEP]) && Object.is(lastPhase, p[LAST]) &&
+      Object.is(turns, p[TURNS]) && Object.is(loop[0], p[LOOP]) && Object.is(loop[1], p[LOOP + 1]) &&
+      Object.is(loop[2], p[LOOP + 2]) && Object.is(loop[3], p[LOOP + 3]) && Object.is(alpha, p[ALPHA]) && Object.is(beta, p[BETA]);
+    let steady: boolean;
+    if (same) {
+      steady = passTracked;
+    } else {
+      if (length > capacity) reserve(length);
+      p = params;
+      if (phaseRad !== phases) copyIn(phases, phaseRad, length);
+      copyIn(levels, level, length);
+      p[MIN_LEVEL] = minLevel;
+      p[LAST] = lastPhase;
+      p[TURNS] = turns;
+      p[LOOP] = loop[0]!;
+      p[LOOP + 1] = loop[1]!;
+      p[LOOP + 2] = loop[2]!;
+      p[LOOP + 3] = loop[3]!;
+      p[ALPHA] = alpha;
+      p[BETA] = beta;
+      p[MAX_STEP] = maxStepRad;
+      steady = kernel.track(length, at[2]!, at[3]!, at[4]!, at[5]!) === 1;
+    }
+    if (!steady) return false;
+    views(length);
+    turnsOut.set(turnsView);
+    stepOut.set(stepView);
+    loop[0] = p[AFTER + 2]!;
+    loop[1] = p[AFTER + 3]!;
+    loop[2] = p[AFTER + 4]!;
+    loop[3] = p[AFTER + 5]!;
+    // The next block's pass starts from here.
+    assumed[TURNS] = p[AFTER + 1]!;
+    for (let k = 0; k < 4; k++) assumed[LOOP + k] = loop[k]!;
+    assumed[ALPHA] = alpha;
+    assumed[BETA] = beta;
+    assumed[MAX_STEP] = maxStepRad;
+    trackedTurns = turnsOut;
+    trackedSteps = stepOut;
+    trackedPhases = phaseRad;
+    trackedLength = length;
+    trackedFromPass = same;
+    return true;
+  }
+
+  function place(
+    turns: Float64Array, phaseRad: Float64Array, stepRad: Float64Array, length: number, positionM: Float64Array, velocityMS: Float64Array,
+    refTurns: number, refPhase: number, perFringe: number, perRad: number, perStep: number,
+  ): void {
+    const tracked = trackedTurns === turns && trackedSteps === stepRad && trackedPhases === phaseRad && trackedLength === length;
+    const fromPass = tracked && trackedFromPass;
+    trackedTurns = null;
+    passFresh = false;
+    if (length <= 0) return;
+    if (length > capacity) reserve(length);
+    const p = params;
+    const same =
+      fromPass && Object.is(refTurns, p[REFERENCE]) && Object.is(refPhase, p[REFERENCE + 1]) &&
+      Object.is(perFringe, p[REFERENCE + 2]) && Object.is(perRad, p[REFERENCE + 3]) && Object.is(perStep, p[REFERENCE + 4]);
+    if (!same) {
+      // The tracker's outputs are in the regions already when it ran here just before on these arrays.
+      if (!tracked) {
+        copyIn(turnsAll, turns, length);
+        copyIn(stepsAll, stepRad, length);
+        if (phaseRad !== phases) copyIn(phases, phaseRad, length);
+      }
+      p[REFERENCE] = refTurns;
+      p[REFERENCE + 1] = refPhase;
+      p[REFERENCE + 2] = perFringe;
+      p[REFERENCE + 3] = perRad;
+      p[REFERENCE + 4] = perStep;
+      kernel.place(length, at[4]!, at[3]!, at[5]!, at[6]!, at[7]!);
+    }
+    views(length);
+    positionM.set(positionView);
+    velocityMS.set(velocityView);
+    assumed[REFERENCE] = refTurns;
+    assumed[REFERENCE + 1] = refPhase;
+    assumed[REFERENCE + 2] = perFringe;
+    assumed[REFERENCE + 3] = perRad;
+    assumed[REFERENCE + 4] = perStep;
+  }
+
+  return { process, track, place };
+}
