@@ -364,6 +364,11 @@ export const BLOCK_OUTPUT_BYTES = 33 * CAPTURE_BLOCK_SAMPLES;
 
 export interface CaptureAnalyses {
   add(block: AnalysedBlock): void;
+  /**
+   * Lets `length` samples pass, as a block left out of the periodic-error and radius analyses, without the
+   * pipeline's output: only those analyses' results are then meant (see analyseCapture).
+   */
+  skip(length: number): void;
   finish(): AnalysisResults;
 }
 
@@ -434,6 +439,10 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
       watch.processRadius(output.level, n, firstIndex, watchEvents, valid);
       for (let k = already; k < watchEvents.length; k++) if (watchEvents[k]!.state === 'raised') watchRaised++;
       if (watchEvents.length > MAX_SPANS) watchEvents.length = MAX_SPANS;
+    },
+    skip(length) {
+      after.skip(length);
+      residual.skip(length);
     },
     finish() {
       const toMetres = (analyzer: { summary(): PeriodicErrorSummary; binnedMeanRad(): Float64Array }): PeriodicErrorResult => ({

@@ -140,6 +140,13 @@ function unipolar(layout: readonly ChannelParameters[] | undefined, calibration:
   return Math.abs(calibration.offsetX - mid) > calibration.amplitudeX || Math.abs(calibration.offsetY - mid) > calibration.amplitudeY;
 }
 
+/** Why "before" means nothing for this capture, else null. */
+function beforeNotApplicable(layout: readonly ChannelParameters[] | undefined, calibration: EllipseCalibration, mid: number): string | null {
+  return unipolar(layout, calibration, mid)
+    ? 'the signals are unipolar (DC-coupled): the zero of the converter lies outside the figure, so the phase about it is not a fringe phase'
+    : null;
+}
+
 export interface RunResult extends Omit<AnalysisResults, 'report'> {
   readonly info: CaptureInfo;
   readonly samples: number;
@@ -222,10 +229,9 @@ function withoutPhase(output: BlockOutput): PipelineOutput {
 }
 
 /** Runs the whole pipeline over a capture, writing rows to the writer if one is given. */
-export async function runCapture(path: string, options: RunOptions): Promise<RunResult> {
-  const { calibration, settings, writer, progress } = options;
-  const capture = await openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES });
-  const info = capture.info;
+/** The chain's options for a capture: its rate and ADC (from the file unless given), the run's settings. */
+function chainOf(info: CaptureInfo, options: RunOptions) {
+  const { settings } = options;
   const fromFile = adcOf(info);
   const adc = options.adc ?? fromFile.adc;
   const adcStated = options.adc !== undefined || fromFile.stated;
@@ -239,6 +245,14 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     lengthScale: settings.lengthScale,
     adc,
   };
+  return { chain, adc, adcStated };
+}
+
+export async function runCapture(path: string, options: RunOptions): Promise<RunResult> {
+  const { calibration, writer, progress } = options;
+  const capture = await openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES });
+  const info = capture.info;
+  const { chain, adc, adcStated } = chainOf(info, options);
   const layout = options.channels;
   if (layout !== undefined && layout.length !== info.channels.length) {
     await capture.close();
@@ -347,8 +361,84 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     adcStated,
     alarmCounts,
     alarmSpans: spans,
-    beforeNotApplicable: unipolar(layout, calibration, mid)
-      ? 'the signals are unipolar (DC-coupled): the zero of the converter lies outside the figure, so the phase about it is not a fringe phase'
-      : null,
+    beforeNotApplicable: beforeNotApplicable(layout, calibration, mid),
+  };
+}
+
+/** What the periodic-error and radius analyses alone give (calibrate's summary and file without a report). */
+export type CaptureAnalysis = Pick<
+  RunResult,
+  'info' | 'samples' | 'metresPerRad' | 'before' | 'after' | 'afterNotMeasured' | 'residual' | 'power' | 'beforeNotApplicable' | 'analysedEvery'
+>;
+
+/**
+ * Samples run through the chain, from its state after reset, before each analysed block when only those are read:
+ * its alarm holds (32 samples by default) and velocity loop settle, so the block's flags and phase are the whole
+ * run's (the phase up to whole turns).
+ */
+export const SETTLE_SAMPLES = CAPTURE_BLOCK_SAMPLES;
+
+/**
+ * The periodic-error and radius analyses of a capture, without the rows, alarms and series of a whole run: of a
+ * two-output WAV capture long enough that the analyses leave blocks out (createAnalysisSchedule), only the blocks
+ * they take are read, each after SETTLE_SAMPLES through the chain; otherwise the whole run (runCapture).
+ */
+export async function analyseCapture(path: string, options: Omit<RunOptions, 'writer' | 'harmonics' | 'estimateHarmonics' | 'refractiveIndexAt'>): Promise<CaptureAnalysis> {
+  const { calibration, progress } = options;
+  const opened = await openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES });
+  const info = opened.info;
+  await opened.close();
+  const total = info.totalSamples;
+  const schedule = createAnalysisSchedule({ blockSamples: CAPTURE_BLOCK_SAMPLES, totalSamples: total, budgetSamples: options.analysisBudgetSamples });
+  if (info.format !== 'wav' || total === null || options.channels !== undefined || schedule.every === 1) return runCapture(path, options);
+  const { chain, adc } = chainOf(info, options);
+  const pipeline = createPipeline({ ...chain, calibration });
+  const metresPerRad = pipeline.stages.displacement.metresPerFringe / (2 * Math.PI);
+  const mid = adcMidScale(adc);
+  const analyses = createCaptureAnalyses({ calibration, layout: null, mid, rateHz: info.rateHz, metresPerRad, maxPlotPoints: 2, totalSamples: total });
+  const output = createBlockOutput();
+  const events: AlarmEvent[] = [];
+  const blocks = Math.ceil(total / CAPTURE_BLOCK_SAMPLES);
+  progress.start(`analyse ${path} (one block in ${schedule.every})`, total);
+  try {
+    for (let b = 0; b < blocks; b++) {
+      const first = b * CAPTURE_BLOCK_SAMPLES;
+      const n = Math.min(CAPTURE_BLOCK_SAMPLES, total - first);
+      if (!schedule.take(b)) {
+        analyses.skip(n);
+        continue;
+      }
+      const settle = Math.min(first, SETTLE_SAMPLES);
+      const part = await openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES, startSample: first - settle, sampleCount: settle + n });
+      pipeline.reset();
+      let analysed = false;
+      for await (const block of part.blocks()) {
+        events.length = 0;
+        pipeline.process(block.x, block.y, block.length, output, events);
+        if (block.firstIndex < first) continue;
+        const whole = block.length === CAPTURE_BLOCK_SAMPLES;
+        const view = <T extends Float64Array | Float32Array | Uint8Array>(array: T) => (whole ? array : (array.subarray(0, block.length) as T));
+        const blockOutput = { positionM: view(output.positionM), velocityMS: view(output.velocityMS), level: view(output.level), flags: view(output.flags), unwrappedPhaseRad: view(output.unwrappedPhaseRad), power: view(output.power) };
+        analyses.add({ firstIndex: first, length: block.length, t: null, analysed: true, x: block.x, y: block.y, phaseBeforeHarmonics: null, output: blockOutput });
+        analysed = true;
+      }
+      if (!analysed) throw new Error(`${path}: samples ${first}..${first + n - 1} could not be read`);
+      progress.update(first + n);
+    }
+  } finally {
+    progress.stop();
+  }
+  const results = analyses.finish();
+  return {
+    info,
+    samples: total,
+    metresPerRad,
+    before: results.before,
+    after: results.after,
+    afterNotMeasured: results.afterNotMeasured,
+    residual: results.residual,
+    power: null,
+    beforeNotApplicable: beforeNotApplicable(undefined, calibration, mid),
+    analysedEvery: schedule.every,
   };
 }

@@ -16,7 +16,7 @@ import {
   type TruthComparisonSummary,
 } from '../src/core/index.js';
 import { writeFileAtomically } from '../src/io/capture/index.js';
-import { CAPTURE_BLOCK_SAMPLES, type Envelope, type PeriodicErrorResult, type RunResult } from './capture-run.js';
+import { CAPTURE_BLOCK_SAMPLES, type Envelope, type PeriodicErrorResult, type RunResult, type CaptureAnalysis } from './capture-run.js';
 import type { MeasureSettings } from './capture-run.js';
 import type { UncertaintyBudget } from '../src/core/index.js';
 import { chart, escapeHtml as escape, extent, FONT_PX, polyline, type Scale } from './chart.js';
@@ -61,16 +61,16 @@ function periodicRow(label: string, result: PeriodicErrorResult, metresPerRad: n
 }
 
 /** A long capture's analyses take every n-th block (createAnalysisSchedule): said where their figures are. */
-function analysedShare(run: RunResult): string {
+function analysedShare(run: Pick<RunResult, 'analysedEvery'>): string {
   return `one block of ${CAPTURE_BLOCK_SAMPLES} samples in every ${run.analysedEvery}, spread over the whole capture`;
 }
 
 /** "Before" bins every clean sample: it is missing only when none was clean. */
-function notMeasuredBefore(run: RunResult): string | null {
+function notMeasuredBefore(run: Pick<RunResult, 'before'>): string | null {
   return run.before.summary.samples === 0 ? 'no sample with a clean signal to measure it' : null;
 }
 
-export function formatPeriodicError(run: RunResult): string[] {
+export function formatPeriodicError(run: CaptureAnalysis): string[] {
   return [
     'periodic error (amplitudes of the harmonics; p-p and RMS of the phase-binned mean):',
     run.beforeNotApplicable === null ? periodicRow('  before', run.before, run.metresPerRad, notMeasuredBefore(run)) : `  before  not applicable: ${run.beforeNotApplicable}`,
@@ -93,7 +93,7 @@ export function formatModelWatch(run: RunResult): string[] {
 }
 
 /** What the ellipse misses, in the summary's words, with what it could mean for position in nm. */
-export function formatResidual(run: RunResult): string[] {
+export function formatResidual(run: CaptureAnalysis): string[] {
   const { summary } = run.residual;
   const meaning = residualMeaning(summary, run.metresPerRad);
   const nm = (m: number) => (m * 1e9).toFixed(2);

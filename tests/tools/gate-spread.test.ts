@@ -1,6 +1,7 @@
 // calibrate reads the first fit pass of a long WAV capture (which only finds the second pass's gate) from samples
 // spread over it, and checks the gate on the second pass: the calibration is the library's two-pass fit over
-// every sample, bit for bit. The capture is invented: an ellipse with noise and a partly blocked beam.
+// every sample, bit for bit; without a report its residual analysis reads only the blocks it takes, and writes the
+// same file as with one (every block run). The capture is invented: an ellipse with noise and a partly blocked beam.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -48,5 +49,13 @@ describe('calibrate on a long WAV capture', () => {
     expect(result.samples).toBe(N - 50_000);
     for (const key of ['offsetX', 'offsetY', 'amplitudeX', 'amplitudeY', 'phaseErrorRad'] as const) expect(written[key]).toBe(result.calibration[key]);
     expect(written.fit).toMatchObject({ samples: result.samples, residualRms: result.residualRms });
+
+    // Without a report only the analysed blocks are read for the residual (analyseCapture); with one, every block:
+    // the same file but for its time of writing.
+    const full = await fringetally(['calibrate', 'long.wav', '--out', 'long-full.json', '--report', 'long.html', '--quiet'], dir);
+    expect(full.code, full.stderr).toBe(0);
+    const whole = JSON.parse(readFileSync(join(dir, 'long-full.json'), 'utf8'));
+    expect(written.residual.analysedEvery).toBeGreaterThan(1);
+    expect({ ...written, createdAt: '' }).toEqual({ ...whole, createdAt: '' });
   }, 60_000);
 });

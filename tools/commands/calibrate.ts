@@ -1,7 +1,7 @@
 // `fringetally calibrate`: fits the Heydemann correction to a capture and writes the calibration file.
 import { writeFileAtomically } from '../../src/io/capture/index.js';
 import { checkFiles, fileHash, parseCommandLine, numberOption, say, UsageError, type Command } from '../cli-kit.js';
-import { fitCapture, runCapture } from '../capture-run.js';
+import { analyseCapture, fitCapture, runCapture, type CaptureAnalysis } from '../capture-run.js';
 import { calibrationFileOf, HARMONIC_ASSUMPTION } from '../calibration-file.js';
 import {
   analysisThreadOf,
@@ -108,16 +108,18 @@ async function run(argv: readonly string[]): Promise<number> {
   // The index only scales the nm figures here; the calibration itself does not depend on it.
   const settings = { ...scale, refractiveIndex: scale.refractiveIndex ?? 1 };
   const notes = [...scale.notes, ...(scale.refractiveIndex === undefined ? ['periodic error in nm at n = 1 (vacuum wavelength)'] : [])];
-  const result = await runCapture(path, {
-      analysisThread,
-    open,
-    calibration: fit.calibration,
-    ...(channels === undefined ? {} : { channels }),
-    settings,
-    progress,
-    ...(harmonicOrders === undefined ? {} : { estimateHarmonics: { orders: harmonicOrders, totalSamples: Math.max(16, totalSamples) } }),
-  });
-  const estimate = result.harmonicEstimate;
+  const runOptions = { analysisThread, open, calibration: fit.calibration, ...(channels === undefined ? {} : { channels }), settings, progress };
+  // Without a report or harmonics only the analyses' figures are wanted: a long WAV capture is then read only where
+  // they look (analyseCapture), not run through whole.
+  const run =
+    report !== undefined || harmonicOrders !== undefined
+      ? await runCapture(path, {
+          ...runOptions,
+          ...(harmonicOrders === undefined ? {} : { estimateHarmonics: { orders: harmonicOrders, totalSamples: Math.max(16, totalSamples) } }),
+        })
+      : null;
+  const result: CaptureAnalysis = run ?? (await analyseCapture(path, runOptions));
+  const estimate = run?.harmonicEstimate ?? null;
   if (estimate !== null && !estimate.ok) {
     process.stderr.write(`fringetally calibrate: ${path}: harmonic correction refused: ${estimate.message}; calibrate without --harmonics for the ellipse alone\n`);
     return 1;
@@ -130,7 +132,7 @@ async function run(argv: readonly string[]): Promise<number> {
   await writeFileAtomically(values.out, JSON.stringify(file, null, 2) + '\n');
   if (report !== undefined) {
     const provenance = { commandLine: ['fringetally', 'calibrate', ...argv], inputHash: await fileHash(path), calibrationSource: 'fitted to this capture' };
-    await writeReportFile(report, { title: `Calibration of ${path}`, calibration: fit.calibration, fit, run: result, settings, notes, budget: null, provenance });
+    await writeReportFile(report, { title: `Calibration of ${path}`, calibration: fit.calibration, fit, run: run!, settings, notes, budget: null, provenance });
   }
   for (const warning of info.warnings) say(`warning: ${warning}`);
   if (!quiet) {

@@ -1,0 +1,59 @@
+// calibrate without a report reads only the blocks its analyses take (analyseCapture): the same periodic-error and
+// radius figures as the whole run (runCapture) that reads every block. The check value is the whole run itself;
+// the capture is simulate's invented scenario with a beam interruption and an overspeed.
+// analyseCapture is imported from the compiled tools, as the command runs it.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve } from 'node:path';
+import { pathToFileURL } from 'node:url';
+import { fringetally } from './cli.js';
+import { createProgress } from '../../tools/progress.js';
+
+type Run = typeof import('../../tools/capture-run.js');
+let run: Run;
+let dir = '';
+const settings = { wavelengthM: 632.9908e-9, fold: 2, refractiveIndex: 1 };
+
+beforeAll(async () => {
+  run = (await import(pathToFileURL(resolve('dist/tools/capture-run.js')).href)) as Run;
+  dir = mkdtempSync(join(tmpdir(), 'fringetally-analyse-'));
+  const simulated = await fringetally(['simulate', '--out', 'two.wav', '--duration-s', '0.06', '--interrupt', '0.02:0.002', '--overspeed', '0.04:0.001:0.3', '--quiet'], dir);
+  expect(simulated.code, simulated.stderr).toBe(0);
+});
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+describe('analyseCapture', () => {
+  it('gives the whole run\'s periodic error and radius figures from the analysed blocks alone', async () => {
+    const calibration = { offsetX: 800, offsetY: -500, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 };
+    const path = join(dir, 'two.wav');
+    // A budget of 2 blocks: 1 block in 8 analysed, the interruption and the overspeed among the blocks left out
+    // or the settling samples.
+    const options = { open: {}, calibration, settings, progress: createProgress(true), analysisThread: false, analysisBudgetSamples: 2 * 4096 };
+    const whole = await run.runCapture(path, options);
+    const parts = await run.analyseCapture(path, options);
+    expect(whole.analysedEvery).toBeGreaterThan(1);
+    expect(parts.analysedEvery).toBe(whole.analysedEvery);
+    expect(parts.samples).toBe(whole.samples);
+    expect(parts.residual).toEqual(whole.residual);
+    expect(parts.afterNotMeasured).toBe(whole.afterNotMeasured);
+    expect(parts.after.summary.samples).toBe(whole.after.summary.samples);
+    expect(parts.before.summary.samples).toBe(whole.before.summary.samples);
+    // The phase from the block's own start differs by whole turns: the same figures to rounding, but for "before",
+    // which bins the error by that phase: a sample at a phase of exactly 0 mod 2π (v = 0, common with integer
+    // samples) can fall on either side of the bin edge at 0 (2π·turns is rounded), here moving one sample of 8192.
+    for (const key of ['firstHarmonicRad', 'secondHarmonicRad', 'peakToPeakRad', 'rmsRad'] as const) {
+      expect(parts.after.summary[key]).toBeCloseTo(whole.after.summary[key], 10);
+      expect(Math.abs(parts.before.summary[key] / whole.before.summary[key] - 1)).toBeLessThan(1e-3);
+    }
+    expect(parts.before.summary.firstHarmonicRad).toBeGreaterThan(1e-4);
+  });
+
+  it('runs the whole capture when every block is analysed', async () => {
+    const calibration = { offsetX: 800, offsetY: -500, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 };
+    const options = { open: {}, calibration, settings, progress: createProgress(true), analysisThread: false };
+    const parts = await run.analyseCapture(join(dir, 'two.wav'), options);
+    expect(parts.analysedEvery).toBe(1);
+    expect('alarmCounts' in parts).toBe(true); // runCapture's result
+  });
+});
