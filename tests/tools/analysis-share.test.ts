@@ -8,7 +8,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { runCapture } from '../../tools/capture-run.js';
 import { createProgress } from '../../tools/progress.js';
-import { formatPeriodicError } from '../../tools/report.js';
+import { formatPeriodicError } from '../../tools/summary.js';
 import { fringetally } from './cli.js';
 
 let dir = '';

@@ -15,7 +15,7 @@ import {
   measureOptionSpecs,
 } from '../measure-options.js';
 import { createProgress } from '../progress.js';
-import { formatCalibration, formatChannels, formatPeriodicError, formatPower, formatResidual, writeReportFile } from '../report.js';
+import { formatCalibration, formatChannels, formatPeriodicError, formatPower, formatResidual } from '../summary.js';
 import {
   createEllipseFit,
   ELLIPSE_FIT_METHODS,
@@ -132,6 +132,8 @@ async function run(argv: readonly string[]): Promise<number> {
   await writeFileAtomically(values.out, JSON.stringify(file, null, 2) + '\n');
   if (report !== undefined) {
     const provenance = { commandLine: ['fringetally', 'calibrate', ...argv], inputHash: await fileHash(path), calibrationSource: 'fitted to this capture' };
+    // Loaded only here: its charts bring d3, which a calibration without a report need not load.
+    const { writeReportFile } = await import('../report.js');
     await writeReportFile(report, { title: `Calibration of ${path}`, calibration: fit.calibration, fit, run: run!, settings, notes, budget: null, provenance });
   }
   for (const warning of info.warnings) say(`warning: ${warning}`);

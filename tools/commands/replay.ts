@@ -21,7 +21,8 @@ import {
   measureOptionSpecs,
 } from '../measure-options.js';
 import { createProgress } from '../progress.js';
-import { formatModelWatch, formatPeriodicError, formatPower, formatTruthError, writeReportFile, type PositionSpectrum } from '../report.js';
+import { formatModelWatch, formatPeriodicError, formatPower, formatTruthError } from '../summary.js';
+import type { PositionSpectrum } from '../report.js';
 import { budgetOf, environmentLogIndex, environmentOf, environmentOptionHelp, environmentOptionSpecs, equationOf, withConfig } from '../environment-options.js';
 
 const help = `Usage: fringetally replay <capture.csv|capture.wav> --wavelength-nm L --fold N --out result.csv|result.jsonl
@@ -266,6 +267,8 @@ async function run(argv: readonly string[]): Promise<number> {
   const residualAmplitudeM = Math.max(result.after.summary.firstHarmonicRad, result.after.summary.secondHarmonicRad) * result.metresPerRad;
   const budget = budgetOf(environment, result.finalPositionM, Number.isFinite(residualAmplitudeM) ? residualAmplitudeM : 0);
   if (reportPath !== undefined) {
+    // Loaded only here: its charts bring d3, which a replay without a report need not load.
+    const { writeReportFile } = await import('../report.js');
     await writeReportFile(reportPath, {
       title: `Replay of ${path}`,
       calibration,
