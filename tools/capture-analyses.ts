@@ -399,6 +399,12 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
   const extremes: BlockExtremes = { positionMinM: NaN, positionMaxM: NaN, velocityMinMS: NaN, velocityMaxMS: NaN, levelMin: NaN, flagsSeen: 0 };
   const secondsPerSample = 1 / rateHz;
 
+  /** A block left out of the periodic-error and radius analyses: they count its samples in time only. */
+  function skip(length: number): void {
+    after.skip(length);
+    residual.skip(length);
+  }
+
   return {
     add(block) {
       const { x, y, output, firstIndex, length: n, analysed } = block;
@@ -430,20 +436,14 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
         before.add(output.unwrappedPhaseRad, errorBefore, n, valid);
         after.process(output.unwrappedPhaseRad, valid, n);
         residual.add(correctedU, correctedV, n, valid);
-      } else {
-        after.skip(n);
-        residual.skip(n);
-      }
+      } else skip(n);
       const already = watchEvents.length;
       // On the chain's level (the corrected radius; for 3-4 outputs the power-normalised one), as the live chain.
       watch.processRadius(output.level, n, firstIndex, watchEvents, valid);
       for (let k = already; k < watchEvents.length; k++) if (watchEvents[k]!.state === 'raised') watchRaised++;
       if (watchEvents.length > MAX_SPANS) watchEvents.length = MAX_SPANS;
     },
-    skip(length) {
-      after.skip(length);
-      residual.skip(length);
-    },
+    skip,
     finish() {
       const toMetres = (analyzer: { summary(): PeriodicErrorSummary; binnedMeanRad(): Float64Array }): PeriodicErrorResult => ({
         summary: analyzer.summary(),

@@ -416,10 +416,8 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
         events.length = 0;
         pipeline.process(block.x, block.y, block.length, output, events);
         if (block.firstIndex < first) continue;
-        const whole = block.length === CAPTURE_BLOCK_SAMPLES;
-        const view = <T extends Float64Array | Float32Array | Uint8Array>(array: T) => (whole ? array : (array.subarray(0, block.length) as T));
-        const blockOutput = { positionM: view(output.positionM), velocityMS: view(output.velocityMS), level: view(output.level), flags: view(output.flags), unwrappedPhaseRad: view(output.unwrappedPhaseRad), power: view(output.power) };
-        analyses.add({ firstIndex: first, length: block.length, t: null, analysed: true, x: block.x, y: block.y, phaseBeforeHarmonics: null, output: blockOutput });
+        // The output arrays are a block long; the analyses read the first `length` (as runCapture's in line).
+        analyses.add({ firstIndex: first, length: block.length, t: null, analysed: true, x: block.x, y: block.y, phaseBeforeHarmonics: null, output });
         analysed = true;
       }
       if (!analysed) throw new Error(`${path}: samples ${first}..${first + n - 1} could not be read`);
