@@ -4,7 +4,8 @@
 import { openCapture, type CaptureInfo } from '../src/io/capture/index.js';
 import type { ResultBlock, ResultWriter } from '../src/io/results/index.js';
 import { UsageError } from './cli-kit.js';
-import { fitCapture, runCapture } from './capture-run.js';
+import { runCapture } from './capture-run.js';
+import { fitCapture } from './fit-capture.js';
 import { readCalibrationFile } from './calibration-file.js';
 import { captureOptionHelp, captureOptionSpecs, captureOptionsOf, lengthScaleOf, measureOptionHelp, measureOptionSpecs } from './measure-options.js';
 import type { Progress } from './progress.js';

@@ -4,7 +4,8 @@ import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { simulate } from '../../tools/commands/simulate.js';
-import { fitCapture, runCapture } from '../../tools/capture-run.js';
+import { runCapture } from '../../tools/capture-run.js';
+import { fitCapture } from '../../tools/fit-capture.js';
 import { createProgress } from '../../tools/progress.js';
 import type { BenchResult } from '../harness.js';
 

@@ -8,7 +8,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { createCaptureWriter } from '../../src/io/capture/index.js';
 import { createQuadratureSynthesizer, createTwoPassFit, spreadWindows, type EllipseFitResult } from '../../src/core/index.js';
-import { GATE_SAMPLES } from '../../tools/capture-run.js';
+import { GATE_SAMPLES } from '../../tools/fit-capture.js';
 import { fringetally } from './cli.js';
 
 let dir = '';

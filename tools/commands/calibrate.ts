@@ -1,7 +1,8 @@
 // `fringetally calibrate`: fits the Heydemann correction to a capture and writes the calibration file.
 import { writeFileAtomically } from '../../src/io/capture/index.js';
 import { checkFiles, fileHash, parseCommandLine, numberOption, say, UsageError, type Command } from '../cli-kit.js';
-import { analyseCapture, fitCapture, runCapture, type CaptureAnalysis } from '../capture-run.js';
+import { analyseCapture, runCapture, type CaptureAnalysis } from '../capture-run.js';
+import { fitCapture } from '../fit-capture.js';
 import { calibrationFileOf, HARMONIC_ASSUMPTION } from '../calibration-file.js';
 import {
   analysisThreadOf,

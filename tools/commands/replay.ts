@@ -7,7 +7,8 @@ import { createTruthComparison, createWelchEstimator, type TruthComparison, type
 import { openTruthFile, type TruthReader } from '../../src/io/capture/index.js';
 import type { ResultBlock, ResultWriter } from '../../src/io/results/index.js';
 import { checkFiles, fileHash, formatNumber, LASER_CAUTION, numberOption, parseCommandLine, say as sayOnStderr, UsageError, type Command } from '../cli-kit.js';
-import { fitCapture, runCapture } from '../capture-run.js';
+import { runCapture } from '../capture-run.js';
+import { fitCapture } from '../fit-capture.js';
 import { readCalibrationFitResidual, readCalibrationHarmonics, readCalibrationLayout } from '../calibration-file.js';
 import {
   analysisThreadOf,
