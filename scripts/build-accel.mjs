@@ -1,4 +1,4 @@
-// Assembles the WebAssembly text (SIMD) of src/accel — front-end.wat, axis-kernels.wat, fit-kernels.wat, csv-rows.wat and steady-kernel.wat — into
+// Assembles the WebAssembly text (SIMD) of src/accel — front-end.wat, axis-kernels.wat, fit-kernels.wat, csv-rows.wat, steady-kernel.wat and wire-crc.wat — into
 // src/accel/<name>-wasm.ts (the module's bytes, base64), so the package needs no assembler at run time. Run after
 // editing a .wat: node scripts/build-accel.mjs
 import { readFileSync, writeFileSync } from 'node:fs';
@@ -11,6 +11,7 @@ for (const [name, constant] of [
   ['fit-kernels', 'FIT_KERNELS_WASM_BASE64'],
   ['csv-rows', 'CSV_ROWS_WASM_BASE64'],
   ['steady-kernel', 'STEADY_KERNEL_WASM_BASE64'],
+  ['wire-crc', 'WIRE_CRC_WASM_BASE64'],
 ]) {
   const source = new URL(`../src/accel/${name}.wat`, import.meta.url);
   const target = new URL(`../src/accel/${name}-wasm.ts`, import.meta.url);

@@ -1,5 +1,7 @@
 // Test helper: a decoder that copies every frame and gap it reports into plain records.
-import { createWireDecoder, type InputGap, type SampleBlock, type WireDecoder, type WireDecoderOptions } from '../../src/io/wire/index.js';
+import { createWireCrcKernel, type WireCrcKernel } from '../../src/accel/wire-crc.js';
+import { createWireDecoderWith } from '../../src/io/wire/decoder.js';
+import type { InputGap, SampleBlock, WireDecoder, WireDecoderOptions } from '../../src/io/wire/index.js';
 
 export interface CopiedBlock {
   sequence: number;
@@ -37,9 +39,13 @@ export interface Collector {
   gaps: InputGap[];
 }
 
-export function collectingDecoder(options: Omit<WireDecoderOptions, 'onFrame' | 'onGap'> = {}): Collector {
+/** A decoder recording what it reports; `crcKernel` as createWireDecoderWith takes it (default: createWireDecoder's). */
+export function collectingDecoder(
+  options: Omit<WireDecoderOptions, 'onFrame' | 'onGap'> = {},
+  crcKernel: (byteCapacity: number) => WireCrcKernel | null = createWireCrcKernel,
+): Collector {
   const frames: CopiedBlock[] = [];
   const gaps: InputGap[] = [];
-  const decoder = createWireDecoder({ ...options, onFrame: (block) => frames.push(copyBlock(block)), onGap: (gap) => gaps.push(gap) });
+  const decoder = createWireDecoderWith({ ...options, onFrame: (block) => frames.push(copyBlock(block)), onGap: (gap) => gaps.push(gap) }, crcKernel);
   return { decoder, frames, gaps };
 }

@@ -1,5 +1,6 @@
 import fc from 'fast-check';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { createWireCrcKernel } from '../../src/accel/wire-crc.js';
 import { crc32cWords } from '../../src/io/wire/crc32c.js';
 import { crc32c } from '../../src/io/wire/index.js';
 import { buildFirmwareProgram, type FirmwareProgram } from './firmware-c.js';
@@ -17,6 +18,16 @@ const RFC3720_EXAMPLES = [
   { name: '32 incrementing bytes 00..1F', input: run(32, (i) => i), crc: 0x46dd794e },
   { name: '32 decrementing bytes 1F..00', input: run(32, (i) => 31 - i), crc: 0x113fdb5c },
 ];
+
+/** The definition, a bit at a time (reflected polynomial 0x82F63B78, catalogue parameters above). */
+function bitwise(bytes: Uint8Array, start: number, end: number): number {
+  let crc = 0xffffffff;
+  for (let i = start; i < end; i++) {
+    crc ^= bytes[i]!;
+    for (let bit = 0; bit < 8; bit++) crc = crc & 1 ? (crc >>> 1) ^ 0x82f63b78 : crc >>> 1;
+  }
+  return (crc ^ 0xffffffff) >>> 0;
+}
 
 describe('CRC-32C (TypeScript)', () => {
   it('gives the catalogue check value 0xE3069283 for "123456789"', () => {
@@ -39,14 +50,6 @@ describe('CRC-32C (TypeScript)', () => {
   // The table-driven code (eight bytes a step, then single bytes) against the definition a bit at a time
   // (reflected polynomial 0x82F63B78, catalogue parameters above), over every length and alignment of a range.
   it('equals the bit-at-a-time definition for any bytes and range', () => {
-    const bitwise = (bytes: Uint8Array, start: number, end: number): number => {
-      let crc = 0xffffffff;
-      for (let i = start; i < end; i++) {
-        crc ^= bytes[i]!;
-        for (let bit = 0; bit < 8; bit++) crc = crc & 1 ? (crc >>> 1) ^ 0x82f63b78 : crc >>> 1;
-      }
-      return (crc ^ 0xffffffff) >>> 0;
-    };
     fc.assert(
       fc.property(fc.uint8Array({ maxLength: 80 }), fc.nat(), fc.nat(), fc.nat({ max: 7 }), (bytes, a, b, offset) => {
         const start = bytes.length === 0 ? 0 : a % (bytes.length + 1);
@@ -59,6 +62,33 @@ describe('CRC-32C (TypeScript)', () => {
         const placed = new Uint8Array(memory, offset, bytes.length);
         placed.set(bytes);
         expect(crc32cWords(placed, new Int32Array(memory, 0, memory.byteLength >> 2), start, end)).toBe(expected);
+      }),
+      { numRuns: 500 },
+    );
+  });
+});
+
+// The wire decoder's WebAssembly kernel (src/accel/wire-crc.ts): sixteen bytes a step, then single bytes.
+describe('CRC-32C (WebAssembly kernel)', () => {
+  const kernel = createWireCrcKernel(4096)!;
+  const crcOf = (input: Uint8Array, at = 0): number => {
+    kernel.bytes.set(input, at);
+    return kernel.crc32c(at, at + input.length);
+  };
+
+  it('gives the catalogue check value and the RFC 3720 B.4 values', () => {
+    expect(crcOf(CATALOGUE_CHECK.input, 3)).toBe(CATALOGUE_CHECK.crc);
+    for (const { input, crc } of RFC3720_EXAMPLES) expect(crcOf(input, 1)).toBe(crc);
+    expect(kernel.crc32c(5, 5)).toBe(0);
+  });
+
+  it('equals the bit-at-a-time definition for any bytes, range and place in its memory', () => {
+    fc.assert(
+      fc.property(fc.uint8Array({ maxLength: 300 }), fc.nat(), fc.nat(), fc.nat({ max: 3000 }), (bytes, a, b, at) => {
+        const start = bytes.length === 0 ? 0 : a % (bytes.length + 1);
+        const end = start + (b % (bytes.length - start + 1));
+        kernel.bytes.set(bytes, at);
+        expect(kernel.crc32c(at + start, at + end)).toBe(bitwise(bytes, start, end));
       }),
       { numRuns: 500 },
     );

@@ -1,8 +1,9 @@
 // Incremental decoder for the fringetally wire frame, versions 1 to 3 (docs/wire-format.md): byte chunks in,
 // sample blocks out. Keeps partial frames across chunks, hunts for the sync marker after garbage, drops frames
 // failing CRC-32C, drops repeated frames, and tells counted losses from counter restarts. Never throws on bad
-// bytes; one buffer sized for the largest allowed frame, no buffer allocated per frame in steady state.
+// bytes; its byte area is sized once for the largest allowed frame, nothing is allocated per frame in steady state.
 
+import { createWireCrcKernel, type WireCrcKernel } from '../../accel/wire-crc.js';
 import { integerInRange, OptionError } from '../../core/options.js';
 import type { InputGap, SampleBlock } from './block.js';
 import { crc32c, crc32cWords } from './crc32c.js';
@@ -112,15 +113,21 @@ const RECENT_FRAMES = 16;
  */
 const HALF_SEQUENCE = WIRE_SEQUENCE_MODULUS / 2;
 const HALF_SAMPLE_COUNTER = WIRE_SAMPLE_COUNTER_MODULUS / 2;
-/** True where an Int16Array reads little-endian, the wire's byte order: aligned sample bytes then copy as they are. */
+/** True where an Int16Array reads little-endian, the wire's byte order: sample bytes then copy as they are. */
 const LITTLE_ENDIAN_HOST = new Uint8Array(Uint16Array.of(1).buffer)[0] === 1;
-/**
- * Values per frame from which the samples are copied as one typed-array copy (a view of the frame's bytes, then a
- * memory copy: about 1 ns a sample against 4 for the byte loop); smaller frames take the byte loop.
- */
-const VIEW_COPY_VALUES = 32;
+/** Most bytes of a chunk taken in at once; a longer chunk goes in parts (the area holds an unfinished frame besides). */
+const PART_BYTES = 65_536;
 
 export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
+  return createWireDecoderWith(options, createWireCrcKernel);
+}
+
+/**
+ * The decoder over the bytes and CRC of `crcKernel(bytes)` (createWireDecoder: the WebAssembly one), or over bytes
+ * of its own and the JavaScript CRC when that gives null. Same frames, gaps and counters either way; tests compare
+ * the two.
+ */
+export function createWireDecoderWith(options: WireDecoderOptions, crcKernel: (byteCapacity: number) => WireCrcKernel | null): WireDecoder {
   const maxChannels = integerInRange('maxChannels', options.maxChannels ?? WIRE_MAX_CHANNELS, 2, WIRE_MAX_CHANNELS);
   const maxSamplesPerFrame = integerInRange(
     'maxSamplesPerFrame',
@@ -134,11 +141,16 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
   const bufferBytes = wireMaxFrameLength(maxChannels, maxSamplesPerFrame);
   const config: WireDecoderConfig = Object.freeze({ maxChannels, maxSamplesPerFrame, bufferBytes });
 
-  const buffer = new Uint8Array(bufferBytes);
-  // The buffer's bytes read as int16 and int32 (null on a big-endian host); a chunk's get views of their own in push.
-  const bufferWords = LITTLE_ENDIAN_HOST ? new Int16Array(buffer.buffer, 0, bufferBytes >> 1) : null;
-  const bufferQuads = LITTLE_ENDIAN_HOST ? new Int32Array(buffer.buffer, 0, bufferBytes >> 2) : null;
-  const sampleStore = new Int16Array(maxChannels * maxSamplesPerFrame);
+  // One byte area: the sample store, then the work bytes (an unfinished frame, then the chunk's bytes after it),
+  // parsed there whatever the chunking; the samples are a byte copy within it (on a little-endian host).
+  const storeBytes = Math.ceil((maxChannels * maxSamplesPerFrame * 2) / 8) * 8;
+  const workAt = storeBytes;
+  const workBytes = bufferBytes + PART_BYTES;
+  const kernel = crcKernel(storeBytes + workBytes);
+  const area = kernel === null ? new Uint8Array(storeBytes + workBytes) : kernel.bytes;
+  // The area's bytes as int32 from its buffer's start (crc32cWords' indexing), for the JavaScript CRC.
+  const areaQuads = LITTLE_ENDIAN_HOST && kernel === null ? new Int32Array(area.buffer, 0, (area.byteOffset + area.length) >> 2) : null;
+  const sampleStore = new Int16Array(area.buffer, area.byteOffset, storeBytes >> 1);
   const counters: WireDecoderCounters = {
     bytesIn: 0,
     framesGood: 0,
@@ -273,8 +285,9 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     return true;
   }
 
-  /** Hands out the good frame at `p` (`words`: the int16 view of `bytes`' memory); false when it was a repeat and was dropped. */
-  function deliver(bytes: Uint8Array, words: Int16Array | null, p: number, length: number): boolean {
+  /** Hands out the good frame at `p` of the area; false when it was a repeat and was dropped. */
+  function deliver(p: number, length: number): boolean {
+    const bytes = area;
     const channels = bytes[p + 4]!;
     const flags = bytes[p + 5]!;
     const sequence = bytes[p + 6]! | (bytes[p + 7]! << 8);
@@ -308,9 +321,8 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
     if (!checkSequence(sequence, sampleCounter, samplesPerFrame, readU32(bytes, p + length - WIRE_CRC_BYTES))) return false;
 
     const valueCount = channels * samplesPerFrame;
-    const byteAt = bytes.byteOffset + at;
-    if (words !== null && valueCount >= VIEW_COPY_VALUES && (byteAt & 1) === 0) {
-      sampleStore.set(words.subarray(byteAt >> 1, (byteAt >> 1) + valueCount));
+    if (LITTLE_ENDIAN_HOST) {
+      bytes.copyWithin(0, at, at + 2 * valueCount);
       at += 2 * valueCount;
     } else {
       // Int16Array stores wrap modulo 2^16, which turns the unsigned little-endian pair into its signed value.
@@ -358,10 +370,11 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
   }
 
   /**
-   * Decodes every complete frame in `bytes[start, end)` and returns the index where the unfinished tail
-   * begins (end when nothing is left). Works on the internal buffer and, to avoid copying, on chunks.
+   * Decodes every complete frame in the area's `[start, end)` and returns the index where the unfinished tail
+   * begins (end when nothing is left).
    */
-  function parse(bytes: Uint8Array, words: Int16Array | null, quads: Int32Array | null, start: number, end: number): number {
+  function parse(start: number, end: number): number {
+    const bytes = area;
     let p = start;
     while (p < end) {
       if (bytes[p] !== WIRE_SYNC_0) {
@@ -388,7 +401,8 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
         continue;
       }
       if (available < length) break;
-      const crc = quads === null ? crc32c(bytes, p, p + length - WIRE_CRC_BYTES) : crc32cWords(bytes, quads, p, p + length - WIRE_CRC_BYTES);
+      const crcEnd = p + length - WIRE_CRC_BYTES;
+      const crc = kernel !== null ? kernel.crc32c(p, crcEnd) : areaQuads !== null ? crc32cWords(bytes, areaQuads, p, crcEnd) : crc32c(bytes, p, crcEnd);
       if (crc !== readU32(bytes, p + length - WIRE_CRC_BYTES)) {
         // Retry from the next byte: the real frame start may lie inside this false or damaged candidate.
         counters.crcFailures++;
@@ -397,60 +411,27 @@ export function createWireDecoder(options: WireDecoderOptions): WireDecoder {
         continue;
       }
       // A repeat is dropped whole (its bytes were a good frame, not garbage to hunt through).
-      if (deliver(bytes, words, p, length)) framesInPush++;
+      if (deliver(p, length)) framesInPush++;
       p += length;
     }
     return p;
   }
 
-  function copyIntoBuffer(chunk: Uint8Array, from: number, count: number): void {
-    if (count > 64) buffer.set(chunk.subarray(from, from + count), filled);
-    else for (let i = 0; i < count; i++) buffer[filled + i] = chunk[from + i]!;
-    filled += count;
-  }
-
-  /**
-   * Bytes the unfinished frame at the start of the buffer still needs before it can be decoded or refused: the
-   * rest of its fixed header, of its optional fields, or of the frame. Parse stopped there for want of exactly
-   * these, on a header it had checked (so frameLengthAt gives that frame's length again and counts nothing).
-   */
-  function bytesWanted(): number {
-    if (filled < WIRE_FIXED_HEADER_BYTES) return WIRE_FIXED_HEADER_BYTES - filled;
-    const headerLength = wireHeaderLength(buffer[5]!);
-    if (filled < headerLength) return headerLength - filled;
-    return Math.max(1, Math.min(bufferBytes, frameLengthAt(buffer, 0, filled)) - filled);
-  }
-
-  function push(input: Uint8Array): number {
-    // One element kind for the byte loops whatever the source hands out (a Buffer is a Uint8Array subclass).
-    const chunk = input.constructor === Uint8Array ? input : new Uint8Array(input.buffer, input.byteOffset, input.length);
+  function push(chunk: Uint8Array): number {
     counters.bytesIn += chunk.length;
     framesInPush = 0;
     let read = 0;
-    // An unfinished frame is waiting: append to it in the buffer, only what it needs, until what remains lies
-    // inside this chunk.
-    while (filled > 0 && read < chunk.length) {
-      const copied = Math.min(bytesWanted(), bufferBytes - filled, chunk.length - read);
-      copyIntoBuffer(chunk, read, copied);
-      read += copied;
-      const tail = parse(buffer, bufferWords, bufferQuads, 0, filled);
-      const left = filled - tail;
-      if (left <= copied) {
-        // What is left came from this chunk: carry on reading the chunk itself.
-        read -= left;
-        filled = 0;
-      } else {
-        buffer.copyWithin(0, tail, filled);
-        filled = left;
-      }
-    }
-    if (read < chunk.length) {
-      // Fast path: frames are decoded straight from the chunk; only its unfinished tail is kept.
-      const memory = chunk.buffer;
-      const tail = LITTLE_ENDIAN_HOST
-        ? parse(chunk, new Int16Array(memory, 0, memory.byteLength >> 1), new Int32Array(memory, 0, memory.byteLength >> 2), read, chunk.length)
-        : parse(chunk, null, null, read, chunk.length);
-      copyIntoBuffer(chunk, tail, chunk.length - tail);
+    while (read < chunk.length) {
+      // After the unfinished frame, as much of the chunk as fits; parse; keep the new unfinished frame.
+      const count = Math.min(chunk.length - read, workBytes - filled);
+      const at = workAt + filled;
+      if (count > 64) area.set(read === 0 && count === chunk.length ? chunk : chunk.subarray(read, read + count), at);
+      else for (let i = 0; i < count; i++) area[at + i] = chunk[read + i]!;
+      read += count;
+      const end = at + count;
+      const tail = parse(workAt, end);
+      if (tail > workAt) area.copyWithin(workAt, tail, end);
+      filled = end - tail;
     }
     return framesInPush;
   }
