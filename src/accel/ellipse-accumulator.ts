@@ -10,6 +10,7 @@ import { instantiate } from './wasm.js';
 interface KernelExports {
   readonly memory: WebAssembly.Memory;
   sums(start: number, count: number, shiftX: number, shiftY: number, half: number, cellsPerUnit: number): number;
+  flush(): void;
 }
 
 /** Pairs the kernel's memory holds at a time; the sums run on across chunks, so chunking changes nothing. */
@@ -18,6 +19,9 @@ const SUMS_BYTE = 2048;
 const SKIPPED_BYTE = 2176;
 const X_BYTE = 4096;
 const Y_BYTE = X_BYTE + 8 * CHUNK;
+const CELLS_BYTE = Y_BYTE + 8 * CHUNK;
+/** Where the kernel's running sum of each moment (`momentIndex` order) is, from Σ u on; Σ 1 is the count summed. */
+const RUNNING = [0, 1, 2, 3, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14];
 
 /**
  * An `EllipseAccumulator` whose `add` runs in WebAssembly SIMD, with the same state after any sequence of calls
@@ -41,15 +45,24 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   const chunkY = new Float64Array(memory, Y_BYTE, CHUNK);
   const moments = new Float64Array(MOMENT_COUNT);
   const scratch = new Float64Array(MOMENT_COUNT);
+  const cells = new Uint8Array(memory, CELLS_BYTE, GRID * GRID);
   const zoomed = new Uint32Array(occupancy.length);
+  // The kernel marks cells as bytes; `marked` says some may not be in the bits yet.
+  let marked = false;
   let shiftX = 0;
   let shiftY = 0;
   let hasShift = false;
   let skippedNonFinite = 0;
   let gridHalfWidth = 0;
 
-  // mark and zoomOut are the core's (accumulator.ts), over the grid in the kernel's memory.
+  // mark and zoomOut are the core's (zoomOut after a flush) (accumulator.ts), over the grid in the kernel's memory.
+  function flush(): void {
+    if (marked) kernel!.flush();
+    marked = false;
+  }
+
   function zoomOut(): void {
+    flush();
     zoomed.fill(0);
     for (let index = 0; index < GRID * GRID; index++) {
       if (isOccupied(occupancy, index)) {
@@ -103,14 +116,17 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
         hasShift = true;
       }
       while (i < n) {
+        marked = true;
         const at = kernel!.sums(i, n, shiftX, shiftY, gridHalfWidth, GRID / (2 * gridHalfWidth));
         if (at >= 0) break;
         i = -at;
         mark(chunkX[i - 1]! - shiftX, chunkY[i - 1]! - shiftY);
       }
     }
-    skippedNonFinite += skippedWord[0]!;
-    for (let k = 0; k < MOMENT_COUNT; k++) moments[k] += running[k]!;
+    const skipped = skippedWord[0]!;
+    skippedNonFinite += skipped;
+    moments[0] += length - skipped;
+    for (let k = 1; k < MOMENT_COUNT; k++) moments[k] += running[RUNNING[k - 1]!]!;
   }
 
   // merge is the core's (accumulator.ts).
@@ -138,12 +154,15 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   }
 
   function state(): AccumulatorState {
+    flush();
     return { shiftX, shiftY, moments, occupancy, gridHalfWidth };
   }
 
   function reset(): void {
     moments.fill(0);
     occupancy.fill(0);
+    cells.fill(0);
+    marked = false;
     gridHalfWidth = 0;
     hasShift = false;
     skippedNonFinite = 0;
