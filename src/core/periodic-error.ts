@@ -295,6 +295,16 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
   const solved = new Float64Array(m);
   const work = new Float64Array(m * m);
   const reached = new Uint8Array(bins);
+  // Per sample of a window: cos φ, sin φ, cos kφ and sin kφ of the order at hand, the basis polynomials 1-3 and the
+  // phase less the window's first.
+  const cosOne = new Float64Array(capacity);
+  const sinOne = new Float64Array(capacity);
+  const cosK = new Float64Array(capacity);
+  const sinK = new Float64Array(capacity);
+  const basis1 = new Float64Array(capacity);
+  const basis2 = new Float64Array(capacity);
+  const basis3 = new Float64Array(capacity);
+  const offsets = new Float64Array(capacity);
   let filled = 0;
   // The phase range of the window so far.
   let low = 0;
@@ -319,55 +329,34 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
     const a2 = (n2 - 1) / 12, a3 = (3 * n2 - 7) / 20;
     const w0 = 1 / Math.sqrt(size), w1 = 1 / Math.sqrt(size * a2);
     const w2 = 1 / Math.sqrt((size * (n2 - 1) * (n2 - 4)) / 180), w3 = 1 / Math.sqrt((size * (n2 - 1) * (n2 - 4) * (n2 - 9)) / 2800);
-    // One pass: the phase's and the harmonics' dot products with the basis and with the phase, and Σ cos jφ, Σ sin jφ
-    // for j up to 2·orders, from which the harmonics' products follow (cos a·cos b = ½[cos(a−b) + cos(a+b)] and so
-    // on). The projected products follow from these (Frisch–Waugh–Lovell with an orthonormal Q: ĥ_rᵀĥ_c =
-    // h_rᵀh_c − (Qᵀh_r)·(Qᵀh_c), ĥᵀφ̂ = hᵀφ − (Qᵀh)·(Qᵀφ), φ̂ᵀφ̂ = φᵀφ − |Qᵀφ|²): nothing is stored or projected
-    // sample by sample.
+    // The phase's and the harmonics' dot products with the basis and with the phase, and Σ cos jφ, Σ sin jφ for j up
+    // to 2·orders, from which the harmonics' products follow (cos a·cos b = ½[cos(a−b) + cos(a+b)] and so on). The
+    // projected products follow from these (Frisch–Waugh–Lovell with an orthonormal Q: ĥ_rᵀĥ_c = h_rᵀh_c −
+    // (Qᵀh_r)·(Qᵀh_c), ĥᵀφ̂ = hᵀφ − (Qᵀh)·(Qᵀφ), φ̂ᵀφ̂ = φᵀφ − |Qᵀφ|²): nothing is projected sample by sample.
+    // A pass for cos φ, sin φ and the basis, then one pass per order with its sums in locals (each sum still runs
+    // over the samples in order): sums kept in arrays cost a load and a store per term and sample.
     let p0 = 0, p1 = 0, p2 = 0, p3 = 0, phaseSquares = 0, curvature = 0;
-    onBasis.fill(0);
-    localRhs.fill(0);
-    cosSums.fill(0);
-    sinSums.fill(0);
     let before = origin, beforeThat = origin;
+    // cos kφ, sin kφ by angle addition: cos φ, sin φ from the window's first phase and the offset d from it, then
+    // the higher orders from cos φ, sin φ; within a few units in the last place of Math.cos(kφ) (orders ≤ 8;
+    // tests/core/phase-domain.test.ts holds the estimate to them). Math.cos of a long run's unwrapped phase (beyond
+    // about 10^6 rad) takes the slow exact argument reduction; of d it never does.
+    const cosOrigin = Math.cos(origin), sinOrigin = Math.sin(origin);
     for (let j = 0; j < size; j++) {
       const p = phase[j]!;
-      // cos kφ, sin kφ by angle addition from cos φ, sin φ: two calls instead of 4·orders, within a few units in
-      // the last place of Math.cos(kφ) (orders ≤ 8; tests/core/phase-domain.test.ts holds the estimate to them).
-      const c1 = Math.cos(p);
-      const s1 = Math.sin(p);
-      const x = j - centre, x2 = x * x;
-      const q0 = w0, q1 = x * w1, q2 = (x2 - a2) * w2, q3 = (x2 - a3) * x * w3;
       const d = p - origin;
-      let ck = c1;
-      let sk = s1;
-      for (let k = 0; k < m; k += 2) {
-        if (k > 0) {
-          const next = ck * c1 - sk * s1;
-          sk = sk * c1 + ck * s1;
-          ck = next;
-        }
-        cosSums[(k >> 1) + 1] += ck;
-        sinSums[(k >> 1) + 1] += sk;
-        onBasis[k] += q0 * ck;
-        onBasis[k + 1] += q0 * sk;
-        onBasis[m + k] += q1 * ck;
-        onBasis[m + k + 1] += q1 * sk;
-        onBasis[2 * m + k] += q2 * ck;
-        onBasis[2 * m + k + 1] += q2 * sk;
-        onBasis[3 * m + k] += q3 * ck;
-        onBasis[3 * m + k + 1] += q3 * sk;
-        localRhs[k] += ck * d;
-        localRhs[k + 1] += sk * d;
-      }
-      for (let k = orders + 1; k <= 2 * orders; k++) {
-        const next = ck * c1 - sk * s1;
-        sk = sk * c1 + ck * s1;
-        ck = next;
-        cosSums[k] += ck;
-        sinSums[k] += sk;
-      }
-      p0 += q0 * d;
+      const cosD = Math.cos(d), sinD = Math.sin(d);
+      const c1 = cosOrigin * cosD - sinOrigin * sinD;
+      const s1 = sinOrigin * cosD + cosOrigin * sinD;
+      cosOne[j] = cosK[j] = c1;
+      sinOne[j] = sinK[j] = s1;
+      const x = j - centre, x2 = x * x;
+      const q1 = x * w1, q2 = (x2 - a2) * w2, q3 = (x2 - a3) * x * w3;
+      basis1[j] = q1;
+      basis2[j] = q2;
+      basis3[j] = q3;
+      offsets[j] = d;
+      p0 += w0 * d;
       p1 += q1 * d;
       p2 += q2 * d;
       p3 += q3 * d;
@@ -376,6 +365,60 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
       if (j >= 2) curvature += (p - 2 * before + beforeThat) ** 2;
       beforeThat = before;
       before = p;
+    }
+    for (let order = 1; order <= orders; order++) {
+      let cs = 0, ss = 0, c0 = 0, s0 = 0, c1 = 0, s1 = 0, c2 = 0, s2 = 0, c3 = 0, s3 = 0, cd = 0, sd = 0;
+      for (let j = 0; j < size; j++) {
+        let ck = cosK[j]!, sk = sinK[j]!;
+        if (order > 1) {
+          const co = cosOne[j]!, so = sinOne[j]!;
+          const next = ck * co - sk * so;
+          sk = sk * co + ck * so;
+          ck = next;
+          cosK[j] = ck;
+          sinK[j] = sk;
+        }
+        const q1 = basis1[j]!, q2 = basis2[j]!, q3 = basis3[j]!, d = offsets[j]!;
+        cs += ck;
+        ss += sk;
+        c0 += w0 * ck;
+        s0 += w0 * sk;
+        c1 += q1 * ck;
+        s1 += q1 * sk;
+        c2 += q2 * ck;
+        s2 += q2 * sk;
+        c3 += q3 * ck;
+        s3 += q3 * sk;
+        cd += ck * d;
+        sd += sk * d;
+      }
+      const k = 2 * order - 2;
+      cosSums[order] = cs;
+      sinSums[order] = ss;
+      onBasis[k] = c0;
+      onBasis[k + 1] = s0;
+      onBasis[m + k] = c1;
+      onBasis[m + k + 1] = s1;
+      onBasis[2 * m + k] = c2;
+      onBasis[2 * m + k + 1] = s2;
+      onBasis[3 * m + k] = c3;
+      onBasis[3 * m + k + 1] = s3;
+      localRhs[k] = cd;
+      localRhs[k + 1] = sd;
+    }
+    for (let order = orders + 1; order <= 2 * orders; order++) {
+      let cs = 0, ss = 0;
+      for (let j = 0; j < size; j++) {
+        const ck = cosK[j]!, sk = sinK[j]!, co = cosOne[j]!, so = sinOne[j]!;
+        const next = ck * co - sk * so;
+        const nextSine = sk * co + ck * so;
+        cosK[j] = next;
+        sinK[j] = nextSine;
+        cs += next;
+        ss += nextSine;
+      }
+      cosSums[order] = cs;
+      sinSums[order] = ss;
     }
     cosSums[0] = size;
     for (let r = 0; r < m; r++) {
