@@ -421,7 +421,8 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
       region.level.set(output.level.subarray(0, n));
       region.flags.set(output.flags.subarray(0, n));
       summaries.summarise(0, n, extremes);
-      if ((extremes.flagsSeen & SIGNAL_TROUBLE) === 0) valid.fill(1, 0, n);
+      const allValid = (extremes.flagsSeen & SIGNAL_TROUBLE) === 0;
+      if (allValid) valid.fill(1, 0, n);
       else validOf(output.flags, n, valid);
       if (combined) {
         powerFigures(output, n, power);
@@ -439,7 +440,8 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
       } else skip(n);
       const already = watchEvents.length;
       // On the chain's level (the corrected radius; for 3-4 outputs the power-normalised one), as the live chain.
-      watch.processRadius(output.level, n, firstIndex, watchEvents, valid);
+      // Without a mask when every sample is valid: the same, and the watch's loop is then twice as fast.
+      watch.processRadius(output.level, n, firstIndex, watchEvents, allValid ? undefined : valid);
       for (let k = already; k < watchEvents.length; k++) if (watchEvents[k]!.state === 'raised') watchRaised++;
       if (watchEvents.length > MAX_SPANS) watchEvents.length = MAX_SPANS;
     },

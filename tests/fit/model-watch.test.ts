@@ -106,7 +106,8 @@ describe('calibration_stale', () => {
         fc.array(fc.tuple(fc.double({ min: -1.3, max: 1.3, noNaN: true }), fc.double({ min: 0, max: 1.5, noNaN: true }), fc.integer({ min: 1, max: 400 })), { minLength: 1, maxLength: 12 }),
         fc.integer({ min: 1, max: 500 }),
         fc.integer({ min: 0, max: 40 }),
-        (windowSamples, maxRadiusChange, maxRadiusRms, stretches, block, holeEvery) => {
+        fc.boolean(),
+        (windowSamples, maxRadiusChange, maxRadiusRms, stretches, block, holeEvery, masked) => {
           // Stretches whose mean change and scatter sit at chosen fractions of the bounds (1 = on the bound); with
           // holeEvery > 0, every holeEvery-th sample masked and every (holeEvery + 3)-th not finite.
           const values: number[] = [];
@@ -114,12 +115,13 @@ describe('calibration_stale', () => {
             for (let k = 0; k < length; k++) values.push(1 + changeFraction * maxRadiusChange + (k % 2 === 0 ? 1 : -1) * scatterFraction * maxRadiusRms);
           }
           const radius = Float64Array.from(values, (r, i) => (holeEvery > 0 && i % (holeEvery + 3) === 0 ? Number.NaN : r));
-          const use = Uint8Array.from(values, (_, i) => (holeEvery > 0 && i % holeEvery === 0 ? 0 : 1));
+          // Without a mask (masked false) only the non-finite samples are left out.
+          const use = Uint8Array.from(values, (_, i) => (masked && holeEvery > 0 && i % holeEvery === 0 ? 0 : 1));
           const watch = createModelWatch({ windowSamples, maxRadiusChange, maxRadiusRms });
           const events: ModelWatchEvent[] = [];
           for (let start = 0; start < radius.length; start += block) {
             const end = Math.min(radius.length, start + block);
-            watch.processRadius(radius.subarray(start, end), end - start, start, events, use.subarray(start, end));
+            watch.processRadius(radius.subarray(start, end), end - start, start, events, masked ? use.subarray(start, end) : undefined);
           }
           expect(events).toEqual(plain(radius, use, windowSamples, maxRadiusChange, maxRadiusRms));
         },

@@ -71,9 +71,9 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
   const decay = (1 - 1 / windowSamples) ** chunk;
   // Clears only well inside the bound, so a signal at the bound does not chatter.
   const clearFraction = 0.8;
-  let weight = 0;
-  let sum = 0;
-  let squares = 0;
+  // The running sums: weight, Σ radius, Σ radius², forgotten exponentially. In a typed array: a double in a closure's
+  // variable is boxed, so each chunk would allocate three numbers.
+  const running = new Float64Array(3);
   // The chunk being filled: its valid samples so far, their radii's sum and sum of squares.
   const pending = new Float64Array(3);
   let active = false;
@@ -90,14 +90,35 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
 
   function processRadius(radius: ArrayLike<number>, length: number, firstIndex: number, events: ModelWatchEvent[], use?: ArrayLike<number>): void {
     let n = pending[0]!, cs = pending[1]!, cq = pending[2]!;
-    for (let i = 0; i < length; i++) {
+    let i = 0;
+    while (i < length) {
+      // Between chunks, a run of `chunk` samples that are all taken is a chunk: summed in a loop that neither counts
+      // nor branches but to leave at a sample that is not taken (then the run goes sample by sample below). The
+      // same sums in the same order, so the same chunks to the bit.
+      while (n === 0 && i + chunk <= length) {
+        const end = i + chunk;
+        let s = 0, q = 0, k = i;
+        for (; k < end; k++) {
+          const r = radius[k]!;
+          if ((use !== undefined && !use[k]) || !(r > 0 && r < Infinity)) break;
+          s += r;
+          q += r * r;
+        }
+        if (k < end) break;
+        takeChunk(s, q, firstIndex + end - 1, events);
+        i = end;
+      }
+      if (i === length) break;
       const r = radius[i]!;
-      if ((use !== undefined && !use[i]) || !(r > 0 && r < Infinity)) continue;
-      cs += r;
-      cq += r * r;
-      if (++n < chunk) continue;
-      takeChunk(cs, cq, firstIndex + i, events);
-      n = cs = cq = 0;
+      if (!((use !== undefined && !use[i]) || !(r > 0 && r < Infinity))) {
+        cs += r;
+        cq += r * r;
+        if (++n === chunk) {
+          takeChunk(cs, cq, firstIndex + i, events);
+          n = cs = cq = 0;
+        }
+      }
+      i++;
     }
     pending[0] = n;
     pending[1] = cs;
@@ -106,9 +127,9 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
 
   /** A full chunk's sums into the running means, and the alarm's state judged at its last sample. */
   function takeChunk(chunkSum: number, chunkSquares: number, sampleIndex: number, events: ModelWatchEvent[]): void {
-    weight = decay * weight + chunk;
-    sum = decay * sum + chunkSum;
-    squares = decay * squares + chunkSquares;
+    const weight = (running[0] = decay * running[0]! + chunk);
+    const sum = (running[1] = decay * running[1]! + chunkSum);
+    const squares = (running[2] = decay * running[2]! + chunkSquares);
     // Judge only once the memory is mostly filled.
     if (weight < windowSamples / 2) return;
     const mean = sum / weight;
@@ -127,9 +148,7 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
   }
 
   function reset(): void {
-    weight = 0;
-    sum = 0;
-    squares = 0;
+    running.fill(0);
     pending.fill(0);
     active = false;
   }
@@ -142,9 +161,10 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
       return active;
     },
     get meanRadius() {
-      return weight > 0 ? sum / weight : NaN;
+      return running[0]! > 0 ? running[1]! / running[0]! : NaN;
     },
     get radiusRms() {
+      const [weight, sum, squares] = [running[0]!, running[1]!, running[2]!];
       return weight > 0 ? Math.sqrt(Math.max(0, squares / weight - (sum / weight) ** 2)) : NaN;
     },
     options: resolved,
