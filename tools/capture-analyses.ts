@@ -3,27 +3,17 @@
 // what the pipeline wrote for each block and never change it, so they can run on another thread
 // (capture-analysis-thread.ts) while the pipeline goes on with the next blocks: the same code, the same results.
 
-import {
-  AlarmBit,
-  createPeriodicErrorAnalyzer,
-  createResidualAnalyzer,
-  createModelWatch,
-  createHarmonicEstimator,
-  createCorrection,
-  createPhaseDomainEstimator,
-  fastAtan2,
-  wrapPhase,
-  type ChannelParameters,
-  type EllipseCalibration,
-  type HarmonicEstimate,
-  type ModelWatchEvent,
-  type ModelWatchOptions,
-  type PeriodicErrorSummary,
-  type PhaseDomainEstimator,
-  type RadiusOverTime,
-  type ResidualSummary,
-} from '../src/core/index.js';
-import { createWasmFrontEnd, type WasmFrontEnd } from '../src/accel/index.js';
+// Imported module by module, not through the library's index: the worker thread loads this file first, and the
+// whole library would double its start-up, during which the pipeline's side waits.
+import { AlarmBit } from '../src/core/alarms.js';
+import { createPeriodicErrorAnalyzer, createPhaseDomainEstimator, type PeriodicErrorSummary, type PhaseDomainEstimator } from '../src/core/periodic-error.js';
+import { createResidualAnalyzer, type RadiusOverTime, type ResidualSummary } from '../src/core/fit/residual.js';
+import { createModelWatch, type ModelWatchEvent, type ModelWatchOptions } from '../src/core/fit/model-watch.js';
+import { createHarmonicEstimator, type HarmonicEstimate } from '../src/core/fit/harmonics.js';
+import { createCorrection } from '../src/core/correction.js';
+import { fastAtan2, wrapPhase } from '../src/core/phase.js';
+import type { ChannelParameters, EllipseCalibration } from '../src/core/index.js';
+import { createWasmFrontEnd, type WasmFrontEnd } from '../src/accel/front-end.js';
 import { createAxisKernels, type BlockExtremes } from '../src/accel/axis-kernels.js';
 
 /** Samples per block read from a capture (the analyses' schedule counts these blocks). */

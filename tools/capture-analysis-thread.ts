@@ -3,7 +3,7 @@
 // while the worker analyses this one. On two cores a replay then takes about as long as its pipeline alone, not
 // the sum of both. The worker runs the same code on the same data in the same order: the same results.
 
-import { Worker } from 'node:worker_threads';
+import { createAnalysisWorker, takePreparedWorker } from './analysis-worker-start.js';
 import {
   BLOCK_OUTPUT_BYTES,
   CAPTURE_BLOCK_SAMPLES,
@@ -86,6 +86,8 @@ export function blockInSlot(slot: RingSlot): AnalysedBlock {
   };
 }
 
+export { analysisThreadAvailable } from './analysis-worker-start.js';
+
 export const WORKER_CONTROL = { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING } as const;
 
 /** The pipeline's side of the ring. */
@@ -108,13 +110,16 @@ export interface AnalysisThread {
 type WaitAsync = (array: Int32Array, index: number, value: number, timeoutMs: number) => { async: false; value: string } | { async: true; value: Promise<string> };
 const waitAsync = (Atomics as unknown as { waitAsync: WaitAsync }).waitAsync;
 
-/** Starts the worker (the compiled capture-analysis-worker.js beside this file). */
+/** Starts the worker (the compiled capture-analysis-worker.js beside this file), or takes the one prepared. */
 export function startAnalysisThread(config: AnalysisConfig): AnalysisThread {
   const buffer = new SharedArrayBuffer(CONTROL_BYTES + RING_SLOTS * SLOT_BYTES);
   const ring = ringOf(buffer);
   const { control, slots } = ring;
-  const worker = new Worker(new URL('./capture-analysis-worker.js', import.meta.url), { workerData: { config, buffer } });
-  let failure: Error | null = null;
+  const ahead = takePreparedWorker();
+  const worker = ahead?.worker ?? createAnalysisWorker();
+  worker.ref();
+  worker.postMessage({ config, buffer });
+  let failure: Error | null = ahead?.failure ?? null;
   let settled = false;
   const results = new Promise<AnalysisResults>((resolve, reject) => {
     const fail = (error: Error) => {

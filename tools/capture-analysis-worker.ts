@@ -1,12 +1,13 @@
 // The worker of capture-analysis-thread.ts: takes blocks from the shared ring in order, analyses them, frees their
 // slots, and posts the results once the pipeline's side asks to finish and every block is done.
 
-import { parentPort, workerData } from 'node:worker_threads';
+import { parentPort } from 'node:worker_threads';
 import { createCaptureAnalyses, type AnalysisConfig } from './capture-analyses.js';
 import { blockInSlot, ringOf, WORKER_CONTROL } from './capture-analysis-thread.js';
 
 const { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING } = WORKER_CONTROL;
-const { config, buffer } = workerData as { config: AnalysisConfig; buffer: SharedArrayBuffer };
+// The run comes as the first message: the worker may have been started ahead of it (prepareAnalysisThread).
+const { config, buffer } = await new Promise<{ config: AnalysisConfig; buffer: SharedArrayBuffer }>((resolve) => parentPort!.once('message', resolve));
 const { control, slots } = ringOf(buffer);
 
 try {

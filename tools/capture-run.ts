@@ -2,7 +2,6 @@
 // analyses (capture-analyses.ts: periodic error, radius residual, the series the report draws), in line or on a
 // worker thread. Constant memory for any file length.
 
-import { availableParallelism } from 'node:os';
 import {
   createChannelPipeline,
   createHarmonicCorrection,
@@ -32,7 +31,7 @@ import {
   type AnalysisResults,
   type BlockOutput,
 } from './capture-analyses.js';
-import { startAnalysisThread, type AnalysisThread } from './capture-analysis-thread.js';
+import { analysisThreadAvailable, startAnalysisThread, type AnalysisThread } from './capture-analysis-thread.js';
 import type { Progress } from './progress.js';
 
 export { CAPTURE_BLOCK_SAMPLES, type Envelope, type PeriodicErrorResult } from './capture-analyses.js';
@@ -135,13 +134,12 @@ export const ANALYSIS_THREAD_MIN_SAMPLES = 2 ** 22;
 
 /** Whether runCapture runs the analyses on a worker thread (see RunOptions.analysisThread). */
 function useAnalysisThread(choice: boolean | 'auto', totalSamples: number | null): boolean {
-  // Only the compiled tools have the worker's script beside them (not sources run through a TypeScript loader).
-  const compiled = import.meta.url.endsWith('.js');
   if (choice === true) {
-    if (!compiled) throw new Error('the analysis thread needs the compiled tools (dist/tools)');
+    // Only the compiled tools have the worker's script beside them (not sources run through a TypeScript loader).
+    if (!import.meta.url.endsWith('.js')) throw new Error('the analysis thread needs the compiled tools (dist/tools)');
     return true;
   }
-  return choice === 'auto' && compiled && availableParallelism() >= 2 && (totalSamples === null || totalSamples >= ANALYSIS_THREAD_MIN_SAMPLES);
+  return choice === 'auto' && analysisThreadAvailable() && (totalSamples === null || totalSamples >= ANALYSIS_THREAD_MIN_SAMPLES);
 }
 
 const phaseless = new WeakMap<BlockOutput, PipelineOutput>();

@@ -46,6 +46,8 @@ async function main(argv: readonly string[]): Promise<number> {
     process.stderr.write(`fringetally: unknown command "${first}"; see fringetally --help\n`);
     return 2;
   }
+  // Started, not awaited: it only saves time. Should it fail, the command meets the same failure itself, in its place.
+  entry.prepare?.().catch(() => undefined);
   const command = await entry.load();
   if (rest.includes('--help') || rest.includes('-h')) {
     process.stdout.write(command.help + '\n');

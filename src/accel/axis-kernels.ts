@@ -4,7 +4,7 @@
 // costs per sample; the WebAssembly SIMD kernels (axis-kernels.wat) give the same results to the bit at a
 // tenth. The pipelines read their samples from, and write their outputs into, the kernels' memory, so nothing is
 // copied between them.
-import { integerInRange } from '../core/index.js';
+import { integerInRange } from '../core/options.js';
 import { AXIS_KERNELS_WASM_BASE64 } from './axis-kernels-wasm.js';
 import { instantiate } from './wasm.js';
 

@@ -4,6 +4,7 @@
 // run itself. Captures invented: simulate's scenario, and tests/support/detector-outputs.ts.
 // The worker runs the compiled tools (dist/tools, built by the test command before the tests).
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { spawnSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
@@ -120,6 +121,24 @@ describe('analyses on a worker thread', () => {
     expect(without.poisoned).toEqual(without.plain);
     const withEstimate = results(true);
     expect(withEstimate.poisoned.harmonicEstimate).not.toEqual(withEstimate.plain.harmonicEstimate);
+  });
+
+  it('a worker started ahead takes the next run, with the same results; one never taken does not keep the process alive', async () => {
+    type Start = typeof import('../../tools/analysis-worker-start.js');
+    const start = (await import(pathToFileURL(resolve('dist/tools/analysis-worker-start.js')).href)) as Start;
+    const calibration = { offsetX: 800, offsetY: -500, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 };
+    const run = (analysisThread: boolean) => runCapture(join(dir, 'two.wav'), { open: {}, calibration, settings, progress: createProgress(true), analysisThread });
+    start.prepareAnalysisThread();
+    const threaded = await run(true);
+    expect(start.takePreparedWorker()).toBeNull(); // the run took it
+    expect(threaded).toEqual(await run(false));
+    // A process that prepares a worker and never runs: it must end by itself (a worker keeping it alive would hang
+    // until the timeout kills it). A script file, not --eval: the worker inherits the process's options.
+    const script = join(dir, 'prepare-only.mjs');
+    writeFileSync(script, `(await import(${JSON.stringify(pathToFileURL(resolve('dist/tools/analysis-worker-start.js')).href)})).prepareAnalysisThread();\n`);
+    const ended = spawnSync(process.execPath, [script], { timeout: 20_000, encoding: 'utf8' });
+    expect(ended.signal, ended.stderr).toBeNull();
+    expect(ended.status, ended.stderr).toBe(0);
   });
 
   it('replay --analysis-thread on and off write the same rows and summary; a wrong value is named', async () => {

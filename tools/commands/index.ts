@@ -8,12 +8,20 @@ export interface CommandEntry {
   readonly name: string;
   readonly summary: string;
   load(): Promise<Command>;
+  /** Work to start while the command loads (started before `load`, not awaited). */
+  prepare?(): Promise<void>;
 }
 
 export const commands: readonly CommandEntry[] = [
   { name: 'simulate', summary: 'write a synthetic capture of an invented scenario and its truth file', load: async () => (await import('./simulate.js')).simulate },
   { name: 'calibrate', summary: 'fit the ellipse correction to a capture and write cal.json', load: async () => (await import('./calibrate.js')).calibrate },
-  { name: 'replay', summary: 'run the whole pipeline over a capture file', load: async () => (await import('./replay.js')).replay },
+  {
+    name: 'replay',
+    summary: 'run the whole pipeline over a capture file',
+    load: async () => (await import('./replay.js')).replay,
+    // The analysis thread, which long captures use, starts while the command loads.
+    prepare: async () => (await import('../analysis-worker-start.js')).prepareAnalysisThread(),
+  },
   { name: 'listen', summary: 'live tracking of wire frames from a serial port', load: async () => (await import('./listen.js')).listen },
   { name: 'emulate', summary: 'a virtual ADC: write wire frames of an invented motion to a serial port', load: async () => (await import('./emulate.js')).emulate },
   { name: 'air', summary: 'refractive index of air and wavelength in air (Ciddor, modified Edlén, shop-floor)', load: async () => (await import('./air.js')).air },
