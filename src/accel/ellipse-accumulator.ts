@@ -1,9 +1,11 @@
 // The ellipse fit's accumulator (src/core/fit/accumulator.ts) with its per-sample loop in WebAssembly SIMD
 // (fit-kernels.wat): the same moment sums, coverage grid and shift to the bit, in about a third of the time. The
-// first sample of a pass and the grid's zooming out stay in JavaScript, as the core does them.
+// first sample of a pass and the grid's zooming out stay in JavaScript, as the core does them. The two-pass fit's
+// gate (keepWithin) runs there too (`addWithin`), apart from the pairs it hands to Math.hypot.
 import { createEllipseAccumulator, createEllipseFit, type EllipseAccumulator, type EllipseFitOptions } from '../core/index.js';
 import { GRID, GRID_BITS, isOccupied, occupy, type AccumulatorState } from '../core/fit/coverage.js';
 import { MOMENT_COUNT, shiftMoments } from '../core/fit/moments.js';
+import { keepWithin } from '../core/fit/two-pass.js';
 import { FIT_KERNELS_WASM_BASE64 } from './fit-kernels-wasm.js';
 import { instantiate } from './wasm.js';
 
@@ -11,12 +13,16 @@ interface KernelExports {
   readonly memory: WebAssembly.Memory;
   sums(start: number, count: number, shiftX: number, shiftY: number, half: number, cellsPerUnit: number): number;
   flush(): void;
+  gate(start: number, count: number): number;
 }
 
 /** Pairs the kernel's memory holds at a time; the sums run on across chunks, so chunking changes nothing. */
 const CHUNK = 4096;
 const SUMS_BYTE = 2048;
 const SKIPPED_BYTE = 2176;
+/** The gate's counts of pairs kept and near the bounds (i32 each), and its constants (13, each in both lanes of an f64x2). */
+const KEPT_BYTE = 2180;
+const GATE_BYTE = 2304;
 const X_BYTE = 4096;
 const Y_BYTE = X_BYTE + 8 * CHUNK;
 const CELLS_BYTE = Y_BYTE + 8 * CHUNK;
@@ -41,6 +47,10 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   const occupancy = new Uint32Array(memory, 0, (GRID * GRID) / 32);
   const running = new Float64Array(memory, SUMS_BYTE, 16);
   const skippedWord = new Int32Array(memory, SKIPPED_BYTE, 1);
+  const gateCounts = new Int32Array(memory, KEPT_BYTE, 2);
+  const gateConstants = new Float64Array(memory, GATE_BYTE, 26);
+  const oneX = new Float64Array(1);
+  const oneY = new Float64Array(1);
   const chunkX = new Float64Array(memory, X_BYTE, CHUNK);
   const chunkY = new Float64Array(memory, Y_BYTE, CHUNK);
   const moments = new Float64Array(MOMENT_COUNT);
@@ -87,46 +97,108 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
     occupy(occupancy, Math.min(GRID - 1, row) * GRID + Math.min(GRID - 1, col));
   }
 
-  function add(x: ArrayLike<number>, y: ArrayLike<number>, length: number): void {
-    running.fill(0);
-    skippedWord[0] = 0;
-    for (let start = 0; start < length; start += CHUNK) {
-      const n = Math.min(CHUNK, length - start);
-      if (x instanceof Float64Array && y instanceof Float64Array && start === 0 && x.length === n && y.length === n) {
-        // A whole block of at most CHUNK pairs (a capture's blocks): copied as memory.
-        chunkX.set(x);
-        chunkY.set(y);
-      } else {
-        for (let i = 0; i < n; i++) {
-          chunkX[i] = x[start + i]!;
-          chunkY[i] = y[start + i]!;
-        }
-      }
-      let i = 0;
-      if (!hasShift) {
-        // The first finite pair sets the shift; the kernel then sums it (u = v = 0) and skips those before it.
-        let first = 0;
-        while (first < n && !(Number.isFinite(chunkX[first]!) && Number.isFinite(chunkY[first]!))) first++;
-        if (first === n) {
-          skippedWord[0] += n;
-          continue;
-        }
-        shiftX = chunkX[first]!;
-        shiftY = chunkY[first]!;
-        hasShift = true;
-      }
-      while (i < n) {
-        marked = true;
-        const at = kernel!.sums(i, n, shiftX, shiftY, gridHalfWidth, GRID / (2 * gridHalfWidth));
-        if (at >= 0) break;
-        i = -at;
-        mark(chunkX[i - 1]! - shiftX, chunkY[i - 1]! - shiftY);
+  /** Copies pairs [start, start + n) of x, y to the kernel's chunk. */
+  function load(x: ArrayLike<number>, y: ArrayLike<number>, start: number, n: number): void {
+    if (x instanceof Float64Array && y instanceof Float64Array && start === 0 && x.length === n && y.length === n) {
+      // A whole block of at most CHUNK pairs (a capture's blocks): copied as memory.
+      chunkX.set(x);
+      chunkY.set(y);
+    } else {
+      for (let i = 0; i < n; i++) {
+        chunkX[i] = x[start + i]!;
+        chunkY[i] = y[start + i]!;
       }
     }
+  }
+
+  /** Adds the chunk's first n pairs to the running sums. */
+  function sumChunk(n: number): void {
+    let i = 0;
+    if (!hasShift) {
+      // The first finite pair sets the shift; the kernel then sums it (u = v = 0) and skips those before it.
+      let first = 0;
+      while (first < n && !(Number.isFinite(chunkX[first]!) && Number.isFinite(chunkY[first]!))) first++;
+      if (first === n) {
+        skippedWord[0] += n;
+        return;
+      }
+      shiftX = chunkX[first]!;
+      shiftY = chunkY[first]!;
+      hasShift = true;
+    }
+    while (i < n) {
+      marked = true;
+      const at = kernel!.sums(i, n, shiftX, shiftY, gridHalfWidth, GRID / (2 * gridHalfWidth));
+      if (at >= 0) break;
+      i = -at;
+      mark(chunkX[i - 1]! - shiftX, chunkY[i - 1]! - shiftY);
+    }
+  }
+
+  /** Adds the running sums of `count` pairs to the moments, as the core's add does at its end. */
+  function endAdd(count: number): void {
     const skipped = skippedWord[0]!;
     skippedNonFinite += skipped;
-    moments[0] += length - skipped;
+    moments[0] += count - skipped;
     for (let k = 1; k < MOMENT_COUNT; k++) moments[k] += running[RUNNING[k - 1]!]!;
+    running.fill(0);
+    skippedWord[0] = 0;
+  }
+
+  function add(x: ArrayLike<number>, y: ArrayLike<number>, length: number): void {
+    for (let start = 0; start < length; start += CHUNK) {
+      const n = Math.min(CHUNK, length - start);
+      load(x, y, start, n);
+      sumChunk(n);
+    }
+    endAdd(length);
+  }
+
+  /** Constant k of the gate, in both lanes. */
+  function setGateConstant(k: number, value: number): void {
+    gateConstants[2 * k] = value;
+    gateConstants[2 * k + 1] = value;
+  }
+
+  function addWithin(
+    x: ArrayLike<number>,
+    y: ArrayLike<number>,
+    length: number,
+    coefficients: Float64Array,
+    lowRadius: number,
+    highRadius: number,
+    band: number,
+    near: Float64Array,
+  ): void {
+    // keepWithin's constants, computed as it computes them.
+    const low2 = lowRadius * lowRadius, high2 = highRadius * highRadius;
+    for (let k = 0; k < 5; k++) setGateConstant(k, coefficients[k]!);
+    setGateConstant(5, low2 * (1 + 1e-6));
+    setGateConstant(6, high2 * (1 - 1e-6));
+    setGateConstant(7, low2 * (1 - 1e-6));
+    setGateConstant(8, high2 * (1 + 1e-6));
+    setGateConstant(9, (lowRadius - band) ** 2);
+    setGateConstant(10, (lowRadius + band) ** 2);
+    setGateConstant(11, (highRadius - band) ** 2);
+    setGateConstant(12, (highRadius + band) ** 2);
+    for (let start = 0; start < length; start += CHUNK) {
+      const n = Math.min(CHUNK, length - start);
+      load(x, y, start, n);
+      gateCounts.fill(0);
+      for (let i = 0; (i = kernel!.gate(i, n)) < n; i++) {
+        // A pair near a bound (or the last of an odd count): keepWithin's own decision.
+        if (keepWithin(chunkX, chunkY, i, i + 1, coefficients, lowRadius, highRadius, oneX, oneY, band, near) === 1) {
+          const kept = gateCounts[0]!;
+          chunkX[kept] = oneX[0]!;
+          chunkY[kept] = oneY[0]!;
+          gateCounts[0] = kept + 1;
+        }
+      }
+      near[0] += gateCounts[1]!;
+      const kept = gateCounts[0]!;
+      sumChunk(kept);
+      endAdd(kept);
+    }
   }
 
   // merge is the core's (accumulator.ts).
@@ -162,6 +234,7 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
     moments.fill(0);
     occupancy.fill(0);
     cells.fill(0);
+    running.fill(0);
     marked = false;
     gridHalfWidth = 0;
     hasShift = false;
@@ -171,6 +244,7 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   reset();
   const accumulator: EllipseAccumulator = {
     add,
+    addWithin,
     merge,
     reset,
     solve: () => fit.solve(accumulator),

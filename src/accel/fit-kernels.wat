@@ -9,6 +9,9 @@
 ;; pairs at 2176 (i32), x at 4096 and y at 36864 (4096 f64 each), and a byte per grid cell at 69632 (128×128):
 ;; the loop marks a cell with a store (128), and `flush` ORs the bytes into the bits, so that no marking waits on
 ;; the previous one's read of the same word.
+;; The gate (`gate`): the count of pairs kept at 2180 and of those near the bounds at 2184 (i32), its constants at
+;; 2304, each in both lanes (13 f64x2: the correction's kux ku0 kvx kvy kv0, then keepWithin's squared bounds
+;; surelyAbove surelyUnder surelyBelow surelyOver lowIn lowOut highIn highOut).
 (module
   (memory (export "memory") 2)
 
@@ -102,4 +105,60 @@
           (v128.store offset=69648 (i32.shl (local.get $w) (i32.const 5)) (v128.const i64x2 0 0))))
       (local.set $w (i32.add (local.get $w) (i32.const 1)))
       (br_if $word (i32.lt_u (local.get $w) (i32.const 512)))))
+
+;; gate(i, n): keepWithin (src/core/fit/two-pass.ts) over pairs i.. of the loaded n, two at a time, moving the kept
+  ;; pairs down to the kept count (in place: a pair is read before anything is written over it) and counting those
+  ;; near the bounds. u, v and u² + v² are computed as keepWithin computes them (a multiply, then adds, left to
+  ;; right). Returns n at the end, else the index of a pair left to the caller, which decides it and continues after
+  ;; it: one whose decision needs Math.hypot (u² + v² within a millionth of a bound; nothing is done for it or the
+  ;; pair beside it), or the last of an odd count. A non-finite u² + v² is dropped (as hypot drops it) and not counted
+  ;; near.
+  (func (export "gate") (param $i i32) (param $n i32) (result i32)
+    (local $p i32) (local $kept i32) (local $bits i32) (local $near v128)
+    (local $x v128) (local $y v128) (local $u v128) (local $v v128) (local $r v128) (local $sure v128)
+    (local.set $kept (i32.load offset=2180 (i32.const 0)))
+    (block $out
+      (loop $next
+        (br_if $out (i32.ge_s (i32.add (local.get $i) (i32.const 1)) (local.get $n)))
+        (local.set $p (i32.shl (local.get $i) (i32.const 3)))
+        (local.set $x (v128.load offset=4096 (local.get $p)))
+        (local.set $y (v128.load offset=36864 (local.get $p)))
+        (local.set $u (f64x2.add (f64x2.mul (v128.load offset=2304 (i32.const 0)) (local.get $x))
+                                 (v128.load offset=2320 (i32.const 0))))
+        (local.set $v (f64x2.add (f64x2.add (f64x2.mul (v128.load offset=2336 (i32.const 0)) (local.get $x))
+                                            (f64x2.mul (v128.load offset=2352 (i32.const 0)) (local.get $y)))
+                                 (v128.load offset=2368 (i32.const 0))))
+        (local.set $r (f64x2.add (f64x2.mul (local.get $u) (local.get $u)) (f64x2.mul (local.get $v) (local.get $v))))
+        (local.set $sure (v128.and
+          (f64x2.gt (local.get $r) (v128.load offset=2384 (i32.const 0)))
+          (f64x2.lt (local.get $r) (v128.load offset=2400 (i32.const 0)))))
+        ;; Decided: surely kept, or surely dropped (under surelyBelow, over surelyOver, or NaN).
+        (br_if $out (i32.ne (i64x2.bitmask (v128.or (local.get $sure)
+          (v128.or (v128.or (f64x2.lt (local.get $r) (v128.load offset=2416 (i32.const 0)))
+                            (f64x2.gt (local.get $r) (v128.load offset=2432 (i32.const 0))))
+                   (f64x2.ne (local.get $r) (local.get $r)))))
+          (i32.const 3)))
+        ;; Near: not under lowIn, not over highOut, not between lowOut and highIn, and not NaN (a lane is −1).
+        (local.set $near (i64x2.add (local.get $near) (v128.andnot
+          (f64x2.eq (local.get $r) (local.get $r))
+          (v128.or (v128.or (f64x2.lt (local.get $r) (v128.load offset=2448 (i32.const 0)))
+                            (f64x2.gt (local.get $r) (v128.load offset=2496 (i32.const 0))))
+                   (v128.and (f64x2.gt (local.get $r) (v128.load offset=2464 (i32.const 0)))
+                             (f64x2.lt (local.get $r) (v128.load offset=2480 (i32.const 0))))))))
+        (local.set $bits (i64x2.bitmask (local.get $sure)))
+        (local.set $p (i32.shl (local.get $kept) (i32.const 3)))
+        (v128.store64_lane offset=4096 0 (local.get $p) (local.get $x))
+        (v128.store64_lane offset=36864 0 (local.get $p) (local.get $y))
+        (local.set $kept (i32.add (local.get $kept) (i32.and (local.get $bits) (i32.const 1))))
+        (local.set $p (i32.shl (local.get $kept) (i32.const 3)))
+        (v128.store64_lane offset=4096 1 (local.get $p) (local.get $x))
+        (v128.store64_lane offset=36864 1 (local.get $p) (local.get $y))
+        (local.set $kept (i32.add (local.get $kept) (i32.shr_u (local.get $bits) (i32.const 1))))
+        (local.set $i (i32.add (local.get $i) (i32.const 2)))
+        (br $next)))
+    (i32.store offset=2180 (i32.const 0) (local.get $kept))
+    ;; The near lanes hold minus their counts.
+    (i32.store offset=2184 (i32.const 0) (i32.sub (i32.load offset=2184 (i32.const 0))
+      (i32.add (i32x4.extract_lane 0 (local.get $near)) (i32x4.extract_lane 2 (local.get $near)))))
+    (local.get $i))
 )

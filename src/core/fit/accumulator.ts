@@ -11,6 +11,21 @@ import { MOMENT_COUNT, shiftMoments } from './moments.js';
 export interface EllipseAccumulator {
   /** Adds `length` sample pairs; non-finite pairs are skipped and counted. Never allocates. */
   add(x: ArrayLike<number>, y: ArrayLike<number>, length: number): void;
+  /**
+   * Optional (src/accel's accumulator has it; the core's does not, to stay small): the two-pass fit's second pass,
+   * the same as `keepWithin` (src/core/fit/two-pass.ts) over each successive 4096 of the `length` pairs, each followed
+   * by `add` of the pairs it keeps, to the bit (kept pairs, sums and `near`).
+   */
+  addWithin?(
+    x: ArrayLike<number>,
+    y: ArrayLike<number>,
+    length: number,
+    coefficients: Float64Array,
+    lowRadius: number,
+    highRadius: number,
+    band: number,
+    near: Float64Array,
+  ): void;
   /** Adds another accumulator's samples, as if they had been added here. */
   merge(other: EllipseAccumulator): void;
   reset(): void;

@@ -21,6 +21,7 @@ import { integerInRange, OptionError } from '../options.js';
 
 /** Corrected radii kept by the second pass: within [1 − GATE, 1 + GATE] of the first fit's radius. */
 const GATE = 0.5;
+/** Pairs gated at a time; `EllipseAccumulator.addWithin` gates as many. */
 const CHUNK = 4096;
 
 export interface TwoPassFit {
@@ -134,6 +135,10 @@ export function createTwoPassFit(options: TwoPassFitOptions = {}): TwoPassFit {
       return;
     }
     if (provisional) whole.add(x, y, length);
+    if (accumulator.addWithin !== undefined) {
+      accumulator.addWithin(x, y, length, correction.coefficients, 1 - GATE, 1 + GATE, BAND, near);
+      return;
+    }
     for (let start = 0; start < length; start += CHUNK) {
       const kept = keepWithin(x, y, start, Math.min(length, start + CHUNK), correction.coefficients, 1 - GATE, 1 + GATE, keptX, keptY, BAND, near);
       accumulator.add(keptX, keptY, kept);
