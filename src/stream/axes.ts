@@ -29,7 +29,7 @@ import {
   type SampleArray,
   type SpeedLimits,
 } from '../core/index.js';
-import { createAxisKernels, type AxisRegion } from '../accel/axis-kernels.js';
+import { createAxisKernels, type AxisRegion, type BlockExtremes } from '../accel/axis-kernels.js';
 import { createPipeline } from '../accel/pipeline.js';
 import { checkAxisBlock, checkFrameBlock, type AxisBlock, type FrameBlock } from './blocks.js';
 
@@ -150,7 +150,10 @@ export interface AxisAlarmEvent extends AlarmEvent {
   readonly axis: string;
 }
 
-/** One block's position block and summary for one axis. Reused for every block: read inside `next`. */
+/**
+ * One block's position block and summary for one axis. Reused for every block: read inside `next`. The extremes
+ * (`positionMinM` … `flagsSeen`) are computed at their first read after the block.
+ */
 export interface AxisBlockSummary {
   readonly name: string;
   /** Absolute index of the block's first sample (lost samples counted). */
@@ -296,6 +299,17 @@ interface AxisStage {
   readonly beyond: BeyondEllipse | null;
 }
 
+/**
+ * A block's extremes, computed when the summary's first read of one asks for them (`due`): a pass over the block's
+ * outputs costs more than a tenth of the pipeline, and listen's rows and status line never read them.
+ */
+interface LazyExtremes {
+  due: boolean;
+  readonly values: BlockExtremes;
+}
+
+type ExtremeKey = keyof BlockExtremes;
+
 interface BlockViews {
   readonly region: AxisRegion;
   readonly length: number;
@@ -315,7 +329,11 @@ interface BeyondEllipse {
   use: Uint8Array;
 }
 
-type MutableSummary = { -readonly [K in keyof AxisBlockSummary]: AxisBlockSummary[K] } & { events: AlarmEvent[]; modelEvents: ModelWatchEvent[] };
+/** The summary's own fields; the extremes are read-only accessors (`LazyExtremes`). */
+type MutableSummary = { -readonly [K in Exclude<keyof AxisBlockSummary, ExtremeKey>]: AxisBlockSummary[K] } & Pick<AxisBlockSummary, ExtremeKey> & {
+  events: AlarmEvent[];
+  modelEvents: ModelWatchEvent[];
+};
 
 /** Samples whose signal itself is in doubt stay out of the model watch (a blocked beam is not a model change). */
 const SIGNAL_TROUBLE = AlarmBit.lowSignal | AlarmBit.saturation | AlarmBit.badSample | AlarmBit.inputGap;
@@ -364,6 +382,16 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
   const tracePoints = integerInRange('tracePoints', options.tracePoints ?? 256, 0, 4096);
   const tracePerBlock = integerInRange('tracePointsPerBlock', options.tracePointsPerBlock ?? 16, 1, 4096);
   let refractiveIndex: number | null = null;
+  const extremes: LazyExtremes[] = options.axes.map(() => ({ due: false, values: noExtremes() }));
+  /** Axis k's extremes of its latest block, computed at the first call after the block. */
+  const extremesOf = (k: number) => (): BlockExtremes => {
+    const lazy = extremes[k]!;
+    if (lazy.due) {
+      lazy.due = false;
+      kernels.summarise(k, stages[k]!.summary.length, lazy.values);
+    }
+    return lazy.values;
+  };
   // Creating the pipelines validates every axis' options.
   const stages: AxisStage[] = options.axes.map((axisOptions, k) => {
     const frameAxis = integerInRange(`axes[${k}].channelPair`, axisOptions.channelPair ?? k, 0, 7);
@@ -397,7 +425,7 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
       views: null,
       power: new Float32Array(0),
       correction: createCorrection({ calibration: combined === null ? (axisOptions.calibration ?? null) : null }),
-      summary: emptySummary(names[k]!, pipeline.speedLimits, tracePoints),
+      summary: createSummary(names[k]!, pipeline.speedLimits, tracePoints, extremesOf(k)),
       offsetM: 0,
       pendingAt: -1,
       pendingPresetM: 0,
@@ -467,7 +495,9 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     summary.y = y;
     summary.output = views.combinedOut ?? out;
     summarise(summary, out, length, gapBefore, pipeline);
-    if (length > 0) kernels.summarise(k, length, summary);
+    const lazy = extremes[k]!;
+    lazy.due = length > 0;
+    if (length === 0) Object.assign(lazy.values, noExtremes());
     if (tracePoints > 0 && length > 0) {
       const count = Math.min(tracePerBlock, length);
       const step = length / count;
@@ -558,12 +588,10 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
         stage.offsetM = 0;
         stage.pendingAt = -1;
         if (refractiveIndex !== null) stage.pipeline.setRefractiveIndex(refractiveIndex);
-        Object.assign(stage.summary, emptySummary(names[k]!, stage.pipeline.speedLimits, tracePoints), {
-          traceX: stage.summary.traceX.fill(0),
-          traceY: stage.summary.traceY.fill(0),
-          traceU: stage.summary.traceU.fill(0),
-          traceV: stage.summary.traceV.fill(0),
-        });
+        Object.assign(stage.summary, blankSummary(names[k]!, stage.pipeline.speedLimits));
+        for (const trace of [stage.summary.traceX, stage.summary.traceY, stage.summary.traceU, stage.summary.traceV]) trace.fill(0);
+        extremes[k]!.due = false;
+        Object.assign(extremes[k]!.values, noExtremes());
       });
     },
   };
@@ -742,52 +770,71 @@ function rate(updateHz: unknown): number {
 const EMPTY_SAMPLES = new Int16Array(0);
 const EMPTY_OUTPUT: AxisSamples = { positionM: new Float64Array(0), velocityMS: new Float64Array(0), level: new Float32Array(0), flags: new Uint8Array(0) };
 
-function emptySummary(name: string, speedLimits: SpeedLimits, tracePoints: number): MutableSummary {
+/** The summary's fields before any block, but for the trace's arrays and the extremes. */
+function blankSummary(name: string, speedLimits: SpeedLimits) {
   return {
     name,
     firstSampleIndex: 0,
     length: 0,
-    x: EMPTY_SAMPLES,
-    y: EMPTY_SAMPLES,
+    x: EMPTY_SAMPLES as SampleArray,
+    y: EMPTY_SAMPLES as SampleArray,
     output: EMPTY_OUTPUT,
     lostBefore: 0,
     sampleIndex: -1,
     positionM: Number.NaN,
-    positionMinM: Number.NaN,
-    positionMaxM: Number.NaN,
     velocityMS: Number.NaN,
-    velocityMinMS: Number.NaN,
-    velocityMaxMS: Number.NaN,
     level: Number.NaN,
-    levelMin: Number.NaN,
     flags: 0,
-    flagsSeen: 0,
     countLost: false,
-    events: [],
-    modelEvents: [],
+    events: [] as AlarmEvent[],
+    modelEvents: [] as ModelWatchEvent[],
     calibrationStale: false,
     speedLimits,
-    traceX: new Float32Array(tracePoints),
-    traceY: new Float32Array(tracePoints),
-    traceU: new Float32Array(tracePoints),
-    traceV: new Float32Array(tracePoints),
     traceNext: 0,
     traceFilled: 0,
   };
 }
 
-/** The block's latest values (they stay when the block is empty); its extremes come from the kernels. */
+function noExtremes(): BlockExtremes {
+  return { positionMinM: Number.NaN, positionMaxM: Number.NaN, velocityMinMS: Number.NaN, velocityMaxMS: Number.NaN, levelMin: Number.NaN, flagsSeen: 0 };
+}
+
+/** A summary whose extremes come from `extremes()` when read. */
+function createSummary(name: string, speedLimits: SpeedLimits, tracePoints: number, extremes: () => BlockExtremes): MutableSummary {
+  return {
+    ...blankSummary(name, speedLimits),
+    get positionMinM() {
+      return extremes().positionMinM;
+    },
+    get positionMaxM() {
+      return extremes().positionMaxM;
+    },
+    get velocityMinMS() {
+      return extremes().velocityMinMS;
+    },
+    get velocityMaxMS() {
+      return extremes().velocityMaxMS;
+    },
+    get levelMin() {
+      return extremes().levelMin;
+    },
+    get flagsSeen() {
+      return extremes().flagsSeen;
+    },
+    traceX: new Float32Array(tracePoints),
+    traceY: new Float32Array(tracePoints),
+    traceU: new Float32Array(tracePoints),
+    traceV: new Float32Array(tracePoints),
+  };
+}
+
+/** The block's latest values (they stay when the block is empty); its extremes come from the kernels when read. */
 function summarise(summary: MutableSummary, out: AxisSamples, length: number, lostBefore: number, pipeline: AxisChain): void {
   summary.length = length;
   summary.lostBefore = lostBefore;
   summary.sampleIndex = pipeline.nextSampleIndex - 1;
   summary.countLost = pipeline.countLost;
-  if (length === 0) {
-    summary.positionMinM = summary.positionMaxM = Number.NaN;
-    summary.velocityMinMS = summary.velocityMaxMS = summary.levelMin = Number.NaN;
-    summary.flagsSeen = 0;
-    return;
-  }
+  if (length === 0) return;
   summary.positionM = out.positionM[length - 1]!;
   summary.velocityMS = out.velocityMS[length - 1]!;
   summary.level = out.level[length - 1]!;

@@ -16,6 +16,8 @@ export function resultRows(writer: ResultWriter): (positions: LivePositions) => 
     velocityMS: new Float64Array(0),
     level: new Float32Array(0),
     flags: new Uint8Array(0),
+    // Always there (undefined for a pair), so the record keeps one shape.
+    power: undefined,
   };
   return ({ summaries, rateHz }) => {
     const { firstSampleIndex, length, output } = summaries[0]!;
@@ -26,8 +28,7 @@ export function resultRows(writer: ResultWriter): (positions: LivePositions) => 
     block.velocityMS = output.velocityMS;
     block.level = output.level;
     block.flags = output.flags;
-    if (output.power === undefined) delete block.power;
-    else block.power = output.power;
+    block.power = output.power;
     const written = writer.write(block);
     // Marked as handled here: the session may stop before it runs the job; the job still sees a failure.
     written.catch(() => undefined);
