@@ -14,7 +14,7 @@ import { createCorrection } from '../src/core/correction.js';
 import { fastAtan2, wrapPhase } from '../src/core/phase.js';
 import type { ChannelParameters, EllipseCalibration } from '../src/core/index.js';
 import { createWasmFrontEnd, type WasmFrontEnd } from '../src/accel/front-end.js';
-import { createAxisKernels, type BlockExtremes } from '../src/accel/axis-kernels.js';
+import { createAxisKernels, type BlockExtremes, type SharedBlockSummary } from '../src/accel/axis-kernels.js';
 
 /** Samples per block read from a capture (the analyses' schedule counts these blocks). */
 export const CAPTURE_BLOCK_SAMPLES = 4096;
@@ -362,7 +362,11 @@ export interface CaptureAnalyses {
   finish(): AnalysisResults;
 }
 
-export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
+/**
+ * `inPlace`: a block summary over the shared memory the blocks' outputs lie in (the worker's ring), which then
+ * needs no copies; blocks elsewhere are copied into the analyses' own kernel memory.
+ */
+export function createCaptureAnalyses(config: AnalysisConfig, inPlace: SharedBlockSummary | null = null): CaptureAnalyses {
   const { calibration, mid, rateHz, metresPerRad } = config;
   const layout = config.layout;
   const combined = layout !== null;
@@ -404,13 +408,16 @@ export function createCaptureAnalyses(config: AnalysisConfig): CaptureAnalyses {
         if (!combined) correction.process(x!, y!, correctedU, correctedV, n);
         else normalisedPair(output.level, block.phaseBeforeHarmonics ?? output.unwrappedPhaseRad, n, correctedU, correctedV);
       }
-      // The block's extremes and flags in one pass (WebAssembly SIMD where it exists), over copies in its memory.
-      const region = summaries.regions[0]!;
-      region.positionM.set(output.positionM.subarray(0, n));
-      region.velocityMS.set(output.velocityMS.subarray(0, n));
-      region.level.set(output.level.subarray(0, n));
-      region.flags.set(output.flags.subarray(0, n));
-      summaries.summarise(0, n, extremes);
+      // The block's extremes and flags in one pass (WebAssembly SIMD where it exists), in place or over copies.
+      if (inPlace !== null && inPlace.holds(output)) inPlace.summarise(output, n, extremes);
+      else {
+        const region = summaries.regions[0]!;
+        region.positionM.set(output.positionM.subarray(0, n));
+        region.velocityMS.set(output.velocityMS.subarray(0, n));
+        region.level.set(output.level.subarray(0, n));
+        region.flags.set(output.flags.subarray(0, n));
+        summaries.summarise(0, n, extremes);
+      }
       const allValid = (extremes.flagsSeen & SIGNAL_TROUBLE) === 0;
       if (allValid) valid.fill(1, 0, n);
       else validOf(output.flags, n, valid);

@@ -31,6 +31,10 @@ const FINISH = 2;
 const WORKER_WAITING = 3;
 const PIPELINE_WAITING = 4;
 const CONTROL_BYTES = 24;
+/** Where the worker's in-place block summary keeps its lanes (createSharedBlockSummary: 176 bytes, 16-aligned). */
+export const SUMMARY_LANES_AT = 32;
+/** Bytes before the first slot: the control words, then the summary's lanes. */
+const HEAD_BYTES = SUMMARY_LANES_AT + 176;
 /** A slot: the pipeline's output, then x, y, times and the phase before harmonics (f64 each), then its header. */
 const SAMPLES_BYTES = 8 * CAPTURE_BLOCK_SAMPLES;
 const HEADER_BYTES = 40;
@@ -55,7 +59,7 @@ export interface AnalysisRing {
 export function ringOf(buffer: SharedArrayBuffer): AnalysisRing {
   const slots: RingSlot[] = [];
   for (let k = 0; k < RING_SLOTS; k++) {
-    const at = CONTROL_BYTES + k * SLOT_BYTES;
+    const at = HEAD_BYTES + k * SLOT_BYTES;
     const samples = (index: number) => new Float64Array(buffer, at + BLOCK_OUTPUT_BYTES + index * SAMPLES_BYTES, CAPTURE_BLOCK_SAMPLES);
     slots.push({
       output: createBlockOutput(buffer, at),
@@ -110,15 +114,30 @@ export interface AnalysisThread {
 type WaitAsync = (array: Int32Array, index: number, value: number, timeoutMs: number) => { async: false; value: string } | { async: true; value: Promise<string> };
 const waitAsync = (Atomics as unknown as { waitAsync: WaitAsync }).waitAsync;
 
+/**
+ * The ring's shared bytes: a shared WebAssembly memory where the engine has one, so that the worker's block summary
+ * reads the slots in place (createSharedBlockSummary), else a plain SharedArrayBuffer (the worker then copies).
+ */
+function ringMemory(bytes: number): { memory: WebAssembly.Memory | null; buffer: SharedArrayBuffer } {
+  const pages = Math.ceil(bytes / 65536);
+  try {
+    const memory = new WebAssembly.Memory({ initial: pages, maximum: pages, shared: true });
+    return { memory, buffer: memory.buffer as unknown as SharedArrayBuffer };
+  } catch {
+    // No WebAssembly, or no shared memory in it: the same ring over plain shared bytes.
+    return { memory: null, buffer: new SharedArrayBuffer(bytes) };
+  }
+}
+
 /** Starts the worker (the compiled capture-analysis-worker.js beside this file), or takes the one prepared. */
 export function startAnalysisThread(config: AnalysisConfig): AnalysisThread {
-  const buffer = new SharedArrayBuffer(CONTROL_BYTES + RING_SLOTS * SLOT_BYTES);
+  const { memory, buffer } = ringMemory(HEAD_BYTES + RING_SLOTS * SLOT_BYTES);
   const ring = ringOf(buffer);
   const { control, slots } = ring;
   const ahead = takePreparedWorker();
   const worker = ahead?.worker ?? createAnalysisWorker();
   worker.ref();
-  worker.postMessage({ config, buffer });
+  worker.postMessage({ config, buffer, memory });
   let failure: Error | null = ahead?.failure ?? null;
   let settled = false;
   const results = new Promise<AnalysisResults>((resolve, reject) => {

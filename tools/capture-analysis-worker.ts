@@ -3,15 +3,18 @@
 
 import { parentPort } from 'node:worker_threads';
 import { createCaptureAnalyses, type AnalysisConfig } from './capture-analyses.js';
-import { blockInSlot, ringOf, WORKER_CONTROL } from './capture-analysis-thread.js';
+import { blockInSlot, ringOf, SUMMARY_LANES_AT, WORKER_CONTROL } from './capture-analysis-thread.js';
+import { createSharedBlockSummary } from '../src/accel/axis-kernels.js';
 
 const { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING } = WORKER_CONTROL;
 // The run comes as the first message: the worker may have been started ahead of it (prepareAnalysisThread).
-const { config, buffer } = await new Promise<{ config: AnalysisConfig; buffer: SharedArrayBuffer }>((resolve) => parentPort!.once('message', resolve));
+type Run = { config: AnalysisConfig; buffer: SharedArrayBuffer; memory: WebAssembly.Memory | null };
+const { config, buffer, memory } = await new Promise<Run>((resolve) => parentPort!.once('message', resolve));
 const { control, slots } = ringOf(buffer);
 
 try {
-  const analyses = createCaptureAnalyses(config);
+  // The block summary in place over the ring where its memory allows, else over copies.
+  const analyses = createCaptureAnalyses(config, memory === null ? null : createSharedBlockSummary(memory, SUMMARY_LANES_AT));
   let read = 0;
   for (;;) {
     const written = Atomics.load(control, WRITTEN);

@@ -6,6 +6,7 @@
 // copied between them.
 import { integerInRange } from '../core/options.js';
 import { AXIS_KERNELS_WASM_BASE64 } from './axis-kernels-wasm.js';
+import { AXIS_KERNELS_SHARED_WASM_BASE64 } from './axis-kernels-shared-wasm.js';
 import { instantiate } from './wasm.js';
 
 /** One axis' block buffers, `capacity` samples each. */
@@ -211,18 +212,67 @@ export function createWasmAxisKernels(outputsPerAxis: readonly number[], initial
       const o = offsets[axis]!;
       const region = regions[axis]!;
       kernel.summary(o.positionM, o.velocityMS, o.level, o.flags, length, LANES);
-      into.positionMinM = finiteOrNaN(firstOfEqual(least(lanes, 0, 4), region.positionM, length));
-      into.positionMaxM = finiteOrNaN(firstOfEqual(greatest(lanes, 4), region.positionM, length));
-      into.velocityMinMS = finiteOrNaN(firstOfEqual(least(lanes, 8, 4), region.velocityMS, length));
-      into.velocityMaxMS = finiteOrNaN(firstOfEqual(greatest(lanes, 12), region.velocityMS, length));
-      into.levelMin = finiteOrNaN(firstOfEqual(least(lanesF32, 0, 8), region.level, length));
-      let seen = 0;
-      for (let i = 0; i < 16; i++) seen |= lanesU8[i]!;
-      into.flagsSeen = seen;
+      fromLanes(lanes, lanesF32, lanesU8, region, length, into);
     },
   };
   kernels.reserve(Math.max(1, initialCapacity)); // regions exist before the first block
   return kernels;
+}
+
+/** The summary's lanes (see axis-kernels.wat) as the block's extremes. */
+function fromLanes(
+  lanes: Float64Array, lanesF32: Float32Array, lanesU8: Uint8Array,
+  outputs: { readonly positionM: Float64Array; readonly velocityMS: Float64Array; readonly level: Float32Array }, length: number, into: BlockExtremes,
+): void {
+  into.positionMinM = finiteOrNaN(firstOfEqual(least(lanes, 0, 4), outputs.positionM, length));
+  into.positionMaxM = finiteOrNaN(firstOfEqual(greatest(lanes, 4), outputs.positionM, length));
+  into.velocityMinMS = finiteOrNaN(firstOfEqual(least(lanes, 8, 4), outputs.velocityMS, length));
+  into.velocityMaxMS = finiteOrNaN(firstOfEqual(greatest(lanes, 12), outputs.velocityMS, length));
+  into.levelMin = finiteOrNaN(firstOfEqual(least(lanesF32, 0, 8), outputs.level, length));
+  let seen = 0;
+  for (let i = 0; i < 16; i++) seen |= lanesU8[i]!;
+  into.flagsSeen = seen;
+}
+
+/** A pipeline's outputs of one block, for the block summary. */
+export interface BlockOutputs {
+  readonly positionM: Float64Array;
+  readonly velocityMS: Float64Array;
+  readonly level: Float32Array;
+  readonly flags: Uint8Array;
+}
+
+/** `summarise` over outputs that lie in a shared memory, where they are, without copies. */
+export interface SharedBlockSummary {
+  /** Whether all four arrays lie in the shared memory, so that `summarise` may take them. */
+  holds(outputs: BlockOutputs): boolean;
+  /**
+   * The extremes of the first `length` samples, the same as `AxisKernels.summarise` gives. The kernel first pads
+   * each array up to a multiple of 16 samples (NaN, 0): the arrays must have room for that, and nothing may read
+   * those padding samples meanwhile.
+   */
+  summarise(outputs: BlockOutputs, length: number, into: BlockExtremes): void;
+}
+
+/**
+ * The block summary over a shared WebAssembly memory (e.g. a ring that two threads share): `lanesAt`, a 16-byte
+ * aligned area of 176 bytes in it that nothing else writes, takes the kernel's lanes. Null without WebAssembly
+ * SIMD or shared memory (then copy the outputs into `AxisKernels` regions).
+ */
+export function createSharedBlockSummary(memory: WebAssembly.Memory, lanesAt: number): SharedBlockSummary | null {
+  const kernel = instantiate<KernelExports>(AXIS_KERNELS_SHARED_WASM_BASE64, { env: { memory } });
+  if (kernel === null) return null;
+  const buffer = memory.buffer;
+  const lanes = new Float64Array(buffer, lanesAt, 24);
+  const lanesF32 = new Float32Array(buffer, lanesAt + 128, 8);
+  const lanesU8 = new Uint8Array(buffer, lanesAt + 160, 16);
+  return {
+    holds: (o) => o.positionM.buffer === buffer && o.velocityMS.buffer === buffer && o.level.buffer === buffer && o.flags.buffer === buffer,
+    summarise(o, length, into) {
+      kernel.summary(o.positionM.byteOffset, o.velocityMS.byteOffset, o.level.byteOffset, o.flags.byteOffset, length, lanesAt);
+      fromLanes(lanes, lanesF32, lanesU8, o, length, into);
+    },
+  };
 }
 
 /** The lanes' minimum in the loop's own rule (a lane that saw only NaN holds Infinity). */

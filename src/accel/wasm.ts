@@ -13,15 +13,15 @@ const compiled = new Map<string, WebAssembly.Module>();
  * A new instance of the module in `base64` (compiled once per process), or null when this engine lacks
  * WebAssembly or its SIMD extension: the caller then keeps its JavaScript loops.
  */
-export function instantiate<T>(base64: string): T | null {
+export function instantiate<T>(base64: string, imports: Record<string, Record<string, WebAssembly.Memory>> = {}): T | null {
   try {
     let module = compiled.get(base64);
     if (module === undefined) {
       module = new WebAssembly.Module(decode(base64));
       compiled.set(base64, module);
     }
-    return new WebAssembly.Instance(module, {}).exports as unknown as T;
+    return new WebAssembly.Instance(module, imports).exports as unknown as T;
   } catch {
-    return null; // no WebAssembly SIMD here
+    return null; // no WebAssembly SIMD here (or no shared memory, for a module that imports one)
   }
 }

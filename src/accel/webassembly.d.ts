@@ -9,6 +9,9 @@ declare namespace WebAssembly {
     readonly exports: Record<string, unknown>;
   }
   class Memory {
+    /** `shared`: backed by a SharedArrayBuffer, for threads (then `maximum` is required). */
+    constructor(descriptor: { initial: number; maximum?: number; shared?: boolean });
+    /** A SharedArrayBuffer for a shared memory. */
     readonly buffer: ArrayBuffer;
     grow(deltaPages: number): number;
   }

@@ -4,7 +4,7 @@
 // read directly, and the JavaScript summary loop (`if (x < min) min = x`, the builder's loop before the kernels).
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { createAxisKernels, createJsAxisKernels, createWasmAxisKernels, type AxisKernels, type BlockExtremes } from '../../src/accel/axis-kernels.js';
+import { createAxisKernels, createJsAxisKernels, createSharedBlockSummary, createWasmAxisKernels, type AxisKernels, type BlockExtremes } from '../../src/accel/axis-kernels.js';
 
 function wasmKernels(outputs: readonly number[], capacity: number): AxisKernels {
   const made = createWasmAxisKernels(outputs, capacity);
@@ -87,6 +87,49 @@ describe('axis kernels', () => {
         expectSame(extremes(wasm, 1, n), extremes(js, 1, n));
       }),
     );
+  });
+
+  it('summarise in place over a shared memory as the JavaScript loop does, wherever the arrays lie in it', () => {
+    // As the capture analyses' worker reads the ring's slots (tools/capture-analysis-thread.ts): four arrays at
+    // 8-byte aligned places of a shared memory, each with room for its padding to 16 samples.
+    const value = fc.oneof(fc.constantFrom(0, -0, Number.NaN, Infinity, -Infinity, 1e-9), fc.double());
+    const level = fc.oneof(fc.constantFrom(0, -0, Number.NaN, Infinity, 1), fc.float());
+    const memory = new WebAssembly.Memory({ initial: 2, maximum: 2, shared: true });
+    const buffer = memory.buffer as unknown as SharedArrayBuffer;
+    const shared = createSharedBlockSummary(memory, 0);
+    expect(shared).not.toBeNull();
+    fc.assert(
+      fc.property(fc.integer({ min: 0, max: 200 }).chain((n) => fc.record({
+        at: fc.integer({ min: 0, max: 16 }),
+        p: fc.array(value, { minLength: n, maxLength: n }),
+        v: fc.array(value, { minLength: n, maxLength: n }),
+        l: fc.array(level, { minLength: n, maxLength: n }),
+        f: fc.array(fc.integer({ min: 0, max: 255 }), { minLength: n, maxLength: n }),
+      })), ({ at, ...values }) => {
+        const n = values.p.length;
+        const room = Math.ceil(n / 16) * 16;
+        const start = 176 + 8 * at; // past the lanes, 8-byte aligned, not always 16
+        const outputs = {
+          positionM: new Float64Array(buffer, start, room),
+          velocityMS: new Float64Array(buffer, start + 8 * room, room),
+          level: new Float32Array(buffer, start + 16 * room, room),
+          flags: new Uint8Array(buffer, start + 20 * room, room),
+        };
+        outputs.positionM.set(values.p);
+        outputs.velocityMS.set(values.v);
+        outputs.level.set(values.l);
+        outputs.flags.set(values.f);
+        const js = createJsAxisKernels([2], 16);
+        js.reserve(n);
+        fill(js, 0, values);
+        expect(shared!.holds(outputs)).toBe(true);
+        const into: BlockExtremes = { positionMinM: 0, positionMaxM: 0, velocityMinMS: 0, velocityMaxMS: 0, levelMin: 0, flagsSeen: 0 };
+        shared!.summarise(outputs, n, into);
+        expectSame(into, extremes(js, 0, n));
+      }),
+    );
+    const elsewhere = { positionM: new Float64Array(4), velocityMS: new Float64Array(4), level: new Float32Array(4), flags: new Uint8Array(4) };
+    expect(shared!.holds(elsewhere)).toBe(false);
   });
 
   it('keep the first zero the loop meets, and NaN where nothing finite was seen', () => {
