@@ -165,7 +165,17 @@ if (values.json) {
     );
   }
   process.stdout.write(`pipeline / naive baseline: ${(pipeline.samplesPerSecond / naive.samplesPerSecond).toFixed(1)}x\n`);
-  if (tools !== null) for (const [name, ratio] of Object.entries(tools)) process.stdout.write(`${name} / bare pipeline: ${ratio.toFixed(2)}x\n`);
+  if (tools !== null) {
+    for (const [name, ratio] of Object.entries(tools)) process.stdout.write(`${name} / bare pipeline: ${ratio.toFixed(2)}x\n`);
+    const startUp = results.find((result) => result.name === 'replay/start-up')?.extra?.wallSeconds;
+    const bare = results.find((result) => result.name === 'pipeline/int16/block4096')!.samplesPerSecond;
+    const samples = Number(values['tools-samples']);
+    if (startUp !== undefined) {
+      // A run can be no faster than its start-up plus the bare pipeline over its samples.
+      const ceiling = samples / bare / (samples / bare + startUp);
+      process.stdout.write(`start-up of a tool ${startUp.toFixed(3)} s: with it a run of ${samples} samples reaches at most ${ceiling.toFixed(2)}x the bare pipeline\n`);
+    }
+  }
   if (reference !== null) {
     for (const [key, ratio] of Object.entries(reference)) process.stdout.write(`${key}: ${ratio.toFixed(2)}x\n`);
     const { cpuModel, cpuFlags } = machine();

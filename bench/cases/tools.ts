@@ -3,7 +3,7 @@
 // `--every 10000`, its analyses on a second thread (the default) and in line. Figures: wall-clock samples/s, the
 // process's CPU time and peak resident memory (read by
 // bench/report-usage.ts), and for memory the same replay on a short and a long capture: the peak must not grow
-// with the run.
+// with the run. Beside them the start-up alone (`replay --help`), which bounds what any run can reach.
 import { spawnSync } from 'node:child_process';
 import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
@@ -64,6 +64,9 @@ export async function toolCases(options: ToolBenchOptions = {}): Promise<BenchRe
   const measure = ['--wavelength-nm', '632.9908', '--fold', '2', '--quiet'];
   const results: BenchResult[] = [];
   try {
+    // The tool's start-up alone (the command loaded, its help printed): what every run pays before its first sample.
+    const startUp = medianRun(['replay', '--help'], 2 * passes + 1);
+    results.push({ name: 'replay/start-up', samplesPerSecond: Number.NaN, nsPerSample: Number.NaN, passes: 2 * passes + 1, extra: { wallSeconds: startUp.wallSeconds, cpuSeconds: startUp.cpuSeconds } });
     const capture = (await generate(join(directory, 'capture.wav'), 'wav', 'int16', samples)).path;
     const calibration = join(directory, 'calibration.json');
     const calibrate = medianRun(['calibrate', capture, '--out', calibration, '--quiet'], passes);
