@@ -286,6 +286,8 @@ interface AxisStage {
   readonly frameAxis: number;
   /** Views of exactly one block's length on the axis' region of the kernels, remade only when either changes. */
   views: BlockViews | null;
+  /** The views before those, kept for blocks whose length alternates (a chunk of bytes holds n or n + 1 frames). */
+  spareViews: BlockViews | null;
   /** Source power per sample of a 3–4-output axis (grown to the longest block). */
   power: Float32Array;
   readonly correction: Correction;
@@ -423,6 +425,7 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
       outputs: combined === null ? 2 : combined.stages.combiner.channels.length,
       frameAxis,
       views: null,
+      spareViews: null,
       power: new Float32Array(0),
       correction: createCorrection({ calibration: combined === null ? (axisOptions.calibration ?? null) : null }),
       summary: createSummary(names[k]!, pipeline.speedLimits, tracePoints, extremesOf(k)),
@@ -451,9 +454,13 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
       level: region.level.subarray(0, length),
       flags: region.flags.subarray(0, length),
     };
-    if (stage.combined !== null && stage.power.length < length) stage.power = new Float32Array(length);
     const beyond = stage.beyond;
-    if (beyond !== null && beyond.phase.length < length) growBeyond(beyond, length);
+    if ((stage.combined !== null && stage.power.length < length) || (beyond !== null && beyond.phase.length < length)) {
+      // Views made before refer to the arrays replaced here.
+      stage.spareViews = null;
+      if (stage.combined !== null && stage.power.length < length) stage.power = new Float32Array(length);
+      if (beyond !== null && beyond.phase.length < length) growBeyond(beyond, length);
+    }
     const phase = beyond === null ? {} : { unwrappedPhaseRad: beyond.phase };
     return {
       region,
@@ -474,7 +481,11 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     summary.firstSampleIndex = pipeline.nextSampleIndex;
     const region = kernels.regions[k]!;
     let views = stage.views;
-    if (views === null || views.region !== region || views.length !== length) views = stage.views = viewsOf(stage, region, length);
+    if (views === null || views.region !== region || views.length !== length) {
+      const spare = stage.spareViews;
+      stage.spareViews = views;
+      views = stage.views = spare !== null && spare.region === region && spare.length === length ? spare : viewsOf(stage, region, length);
+    }
     const out = views.out;
     let x: SampleArray = raw === null ? views.inputs[0]! : raw.x;
     let y: SampleArray = raw === null ? views.inputs[1]! : raw.y;

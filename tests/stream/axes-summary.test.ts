@@ -79,3 +79,29 @@ describe('axes runner block summaries', () => {
     expect(extremesOf(runner.process(frame([{ x, y }], 0, 0))[0]!)).toEqual(none);
   });
 });
+
+describe('axes runner views', () => {
+  // Views of a block length are kept for the next block of the length before it (lengths alternate when a chunk
+  // holds n or n + 1 frames); arrays grown for a longer block must not be written through views made before.
+  it('give the positions of one long block for blocks of alternating and growing lengths, with harmonics and a model watch', () => {
+    fc.assert(
+      fc.property(fc.array(fc.integer({ min: 1, max: 400 }), { minLength: 2, maxLength: 10 }), fc.integer({ min: 0, max: 2 }), (lengths, pattern) => {
+        const blocks = lengths.map((length, i) => (pattern === 0 ? length : pattern === 1 ? (i % 2 === 0 ? 100 : 100 + length) : 50 * (i + 1)));
+        const total = blocks.reduce((a, b) => a + b, 0);
+        const { x, y } = quadrature(Float64Array.from({ length: total }, (_, i) => 0.003 * i * i / total + 0.2 * i));
+        const axis = { ...axisOptions, harmonics: { cos: [0, 0.01, 0.002], sin: [0, -0.004, 0.001] }, modelWatch: {}, blockCapacity: 2048 };
+        const whole = createAxesRunner({ axes: [axis] }).process(frame([{ x, y }], 0, total))[0]!;
+        const expected = Array.from(whole.output.positionM);
+        const runner = createAxesRunner({ axes: [axis] });
+        const positions: number[] = [];
+        let start = 0;
+        for (const length of blocks) {
+          positions.push(...runner.process(frame([{ x, y }], start, length))[0]!.output.positionM);
+          start += length;
+        }
+        expect(positions).toEqual(expected);
+      }),
+      { numRuns: 40 },
+    );
+  });
+});

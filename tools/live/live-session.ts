@@ -247,7 +247,9 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
     };
     try {
       outer: for (;;) {
-        const event = await untilInterrupted(queue.next());
+        // A chunk already waiting is taken at once: the wait would hand it out all the same (its result comes before
+        // an interruption's), after a few promises and microtask turns per block.
+        const event = queue.length > 0 ? queue.poll()! : await untilInterrupted(queue.next());
         if (event === 'interrupted') break;
         if (event === null) {
           sourceEnded = true;
