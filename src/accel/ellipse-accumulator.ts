@@ -20,7 +20,7 @@ interface KernelExports {
 const CHUNK = 4096;
 const SUMS_BYTE = 2048;
 const SKIPPED_BYTE = 2176;
-/** The gate's counts of pairs kept and near the bounds (i32 each), and its constants (13, each in both lanes of an f64x2). */
+/** The gate's counts of pairs kept and near the bounds (i32 each), and its constants (15, each in both lanes of an f64x2). */
 const KEPT_BYTE = 2180;
 const GATE_BYTE = 2304;
 const X_BYTE = 4096;
@@ -48,7 +48,7 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   const running = new Float64Array(memory, SUMS_BYTE, 16);
   const skippedWord = new Int32Array(memory, SKIPPED_BYTE, 1);
   const gateCounts = new Int32Array(memory, KEPT_BYTE, 2);
-  const gateConstants = new Float64Array(memory, GATE_BYTE, 26);
+  const gateConstants = new Float64Array(memory, GATE_BYTE, 30);
   const oneX = new Float64Array(1);
   const oneY = new Float64Array(1);
   const chunkX = new Float64Array(memory, X_BYTE, CHUNK);
@@ -172,15 +172,20 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   ): void {
     // keepWithin's constants, computed as it computes them.
     const low2 = lowRadius * lowRadius, high2 = highRadius * highRadius;
+    const surelyAbove = low2 * (1 + 1e-6), surelyUnder = high2 * (1 - 1e-6);
+    const lowOut = (lowRadius + band) ** 2, highIn = (highRadius - band) ** 2;
     for (let k = 0; k < 5; k++) setGateConstant(k, coefficients[k]!);
-    setGateConstant(5, low2 * (1 + 1e-6));
-    setGateConstant(6, high2 * (1 - 1e-6));
+    setGateConstant(5, surelyAbove);
+    setGateConstant(6, surelyUnder);
     setGateConstant(7, low2 * (1 - 1e-6));
     setGateConstant(8, high2 * (1 + 1e-6));
     setGateConstant(9, (lowRadius - band) ** 2);
-    setGateConstant(10, (lowRadius + band) ** 2);
-    setGateConstant(11, (highRadius - band) ** 2);
+    setGateConstant(10, lowOut);
+    setGateConstant(11, highIn);
     setGateConstant(12, (highRadius + band) ** 2);
+    // Between these, a pair is surely kept and not near a bound.
+    setGateConstant(13, Math.max(surelyAbove, lowOut));
+    setGateConstant(14, Math.min(surelyUnder, highIn));
     for (let start = 0; start < length; start += CHUNK) {
       const n = Math.min(CHUNK, length - start);
       load(x, y, start, n);

@@ -10,8 +10,9 @@
 ;; the loop marks a cell with a store (128), and `flush` ORs the bytes into the bits, so that no marking waits on
 ;; the previous one's read of the same word.
 ;; The gate (`gate`): the count of pairs kept at 2180 and of those near the bounds at 2184 (i32), its constants at
-;; 2304, each in both lanes (13 f64x2: the correction's kux ku0 kvx kvy kv0, then keepWithin's squared bounds
-;; surelyAbove surelyUnder surelyBelow surelyOver lowIn lowOut highIn highOut). The sums' vector constants at 2560:
+;; 2304, each in both lanes (15 f64x2: the correction's kux ku0 kvx kvy kv0, then keepWithin's squared bounds
+;; surelyAbove surelyUnder surelyBelow surelyOver lowIn lowOut highIn highOut, then max(surelyAbove, lowOut) and
+;; min(surelyUnder, highIn): between them a pair is surely kept and not near a bound). The sums' vector constants at 2560:
 ;; [shiftX shiftY], half and cellsPerUnit in both lanes (stored by each call), then 2^52 twice, 127 four times (i32)
 ;; and the |·| mask (the data segment). The loop reads them from memory: V8 then uses them as operands, where in
 ;; locals it spilled or rebuilt them every iteration (about 8 % fewer cycles).
@@ -133,6 +134,17 @@
                                             (f64x2.mul (v128.load offset=2352 (i32.const 0)) (local.get $y)))
                                  (v128.load offset=2368 (i32.const 0))))
         (local.set $r (f64x2.add (f64x2.mul (local.get $u) (local.get $u)) (f64x2.mul (local.get $v) (local.get $v))))
+        ;; Both well inside (the common case): kept, and not near a bound.
+        (if (i32.eq (i64x2.bitmask (v128.and (f64x2.gt (local.get $r) (v128.load offset=2512 (i32.const 0)))
+                                             (f64x2.lt (local.get $r) (v128.load offset=2528 (i32.const 0)))))
+                    (i32.const 3))
+          (then
+            (local.set $p (i32.shl (local.get $kept) (i32.const 3)))
+            (v128.store offset=4096 (local.get $p) (local.get $x))
+            (v128.store offset=36864 (local.get $p) (local.get $y))
+            (local.set $kept (i32.add (local.get $kept) (i32.const 2)))
+            (local.set $i (i32.add (local.get $i) (i32.const 2)))
+            (br $next)))
         (local.set $sure (v128.and
           (f64x2.gt (local.get $r) (v128.load offset=2384 (i32.const 0)))
           (f64x2.lt (local.get $r) (v128.load offset=2400 (i32.const 0)))))

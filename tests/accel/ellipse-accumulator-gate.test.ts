@@ -22,11 +22,12 @@ const ellipseSamples = fc
         fc.constantFrom(0, 0.5, 1.5, 0.5 * (1 + 2 ** -52), 0.5 * (1 - 2 ** -52), 1.5 * (1 + 2 ** -52), 1.5 * (1 - 2 ** -52), 0.48, 0.52, 1.48, 1.52),
         fc.double({ min: 0, max: 3, noNaN: true }),
       ),
-      glitch: fc.oneof(fc.constant(null), fc.constant(null), fc.constantFrom(Number.NaN, Infinity, -Infinity, 3e5, -1e9, 1e300)),
+      // No 1e300: the grid would zoom out a thousand times (each over its 16384 cells) in every add of it.
+      glitch: fc.oneof(fc.constant(null), fc.constant(null), fc.constantFrom(Number.NaN, Infinity, -Infinity, 3e5, -1e9)),
       integer: fc.boolean(),
       repeat: fc.oneof(fc.constant(1), fc.integer({ min: 1, max: 2000 })),
     }),
-    { minLength: 0, maxLength: 8 },
+    { minLength: 0, maxLength: 12 },
   )
   .map((points) => {
     const x: number[] = [];
@@ -100,7 +101,7 @@ describe('WebAssembly ellipse accumulator, gated add', () => {
           blocks.map(({ samples, gated }) => ({ ...samples, gated })),
         );
       }),
-      { numRuns: 60 },
+      { numRuns: 100 },
     );
   });
 
