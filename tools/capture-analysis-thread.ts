@@ -37,7 +37,7 @@ export const SUMMARY_LANES_AT = 32;
 const HEAD_BYTES = SUMMARY_LANES_AT + 176;
 /** A slot: the pipeline's output, then x, y, times and the phase before harmonics (f64 each), then its header. */
 const SAMPLES_BYTES = 8 * CAPTURE_BLOCK_SAMPLES;
-const HEADER_BYTES = 40;
+const HEADER_BYTES = 48;
 const SLOT_BYTES = BLOCK_OUTPUT_BYTES + 4 * SAMPLES_BYTES + HEADER_BYTES;
 
 /** A slot's arrays over the shared buffer, the same on both threads. */
@@ -47,7 +47,10 @@ export interface RingSlot {
   readonly y: Float64Array;
   readonly t: Float64Array;
   readonly phaseBeforeHarmonics: Float64Array;
-  /** firstIndex, length, whether t holds times, whether phaseBeforeHarmonics holds a phase, whether analysed (x, y copied). */
+  /**
+   * firstIndex, length, whether t holds times, whether phaseBeforeHarmonics holds a phase, whether analysed (x, y
+   * copied), whether a block left out (then only its length counts).
+   */
   readonly header: Float64Array;
 }
 
@@ -67,7 +70,7 @@ export function ringOf(buffer: SharedArrayBuffer): AnalysisRing {
       y: samples(1),
       t: samples(2),
       phaseBeforeHarmonics: samples(3),
-      header: new Float64Array(buffer, at + BLOCK_OUTPUT_BYTES + 4 * SAMPLES_BYTES, 5),
+      header: new Float64Array(buffer, at + BLOCK_OUTPUT_BYTES + 4 * SAMPLES_BYTES, 6),
     });
   }
   return { control: new Int32Array(buffer, 0, CONTROL_BYTES / 4), slots };
@@ -105,6 +108,11 @@ export interface AnalysisThread {
    * arrays (the phase before harmonics is already there, see phaseSlot).
    */
   add(block: Omit<AnalysedBlock, 'output'>): void;
+  /**
+   * Hands over a block left out of the analyses (CaptureAnalyses.skip) in the slot of `next`'s arrays, which it
+   * leaves unread: only its length counts.
+   */
+  skip(length: number): void;
   /** Waits for the worker to analyse every block handed over and returns its results. */
   finish(): Promise<AnalysisResults>;
   /** Stops the worker (after a failure on the pipeline's side). */
@@ -165,6 +173,13 @@ export function startAnalysisThread(config: AnalysisConfig): AnalysisThread {
   results.catch(() => undefined);
   let written = 0;
 
+  /** The slot of `next` to the worker. */
+  function handOver(): void {
+    written++;
+    Atomics.store(control, WRITTEN, written);
+    if (written - Atomics.load(control, READ) >= WAKE_BATCH && Atomics.load(control, WORKER_WAITING) === 1) Atomics.notify(control, WRITTEN);
+  }
+
   return {
     async next() {
       while (written - Atomics.load(control, READ) >= RING_SLOTS) {
@@ -188,6 +203,12 @@ export function startAnalysisThread(config: AnalysisConfig): AnalysisThread {
     phaseSlot() {
       return slots[written % RING_SLOTS]!.phaseBeforeHarmonics;
     },
+    skip(length) {
+      const slot = slots[written % RING_SLOTS]!;
+      slot.header[1] = length;
+      slot.header[5] = 1;
+      handOver();
+    },
     add(block) {
       const slot = slots[written % RING_SLOTS]!;
       if (block.analysed) {
@@ -200,9 +221,8 @@ export function startAnalysisThread(config: AnalysisConfig): AnalysisThread {
       slot.header[2] = block.t === null ? 0 : 1;
       slot.header[3] = block.phaseBeforeHarmonics === null ? 0 : 1;
       slot.header[4] = block.analysed ? 1 : 0;
-      written++;
-      Atomics.store(control, WRITTEN, written);
-      if (written - Atomics.load(control, READ) >= WAKE_BATCH && Atomics.load(control, WORKER_WAITING) === 1) Atomics.notify(control, WRITTEN);
+      slot.header[5] = 0;
+      handOver();
     },
     async finish() {
       Atomics.store(control, FINISH, 1);

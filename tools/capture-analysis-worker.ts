@@ -19,7 +19,9 @@ try {
   for (;;) {
     const written = Atomics.load(control, WRITTEN);
     if (read < written) {
-      analyses.add(blockInSlot(slots[read % slots.length]!));
+      const slot = slots[read % slots.length]!;
+      if (slot.header[5] === 1) analyses.skip(slot.header[1]!);
+      else analyses.add(blockInSlot(slot));
       read++;
       Atomics.store(control, READ, read);
       const awaited = Atomics.load(control, PIPELINE_WAITING);

@@ -321,38 +321,66 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
   const pipeline = createPipeline({ ...chain, calibration });
   const metresPerRad = pipeline.stages.displacement.metresPerFringe / (2 * Math.PI);
   const mid = adcMidScale(adc);
-  const analyses = createCaptureAnalyses({ calibration, layout: null, mid, rateHz: info.rateHz, metresPerRad, maxPlotPoints: 2, totalSamples: total });
-  const output = createBlockOutput();
+  const config = { calibration, layout: null, mid, rateHz: info.rateHz, metresPerRad, maxPlotPoints: 2, totalSamples: total };
+  // The settling samples' output, and the analysed block's when the analyses run in line.
+  const scratch = createBlockOutput();
   const events: AlarmEvent[] = [];
   const blocks = Math.ceil(total / CAPTURE_BLOCK_SAMPLES);
+  let thread: AnalysisThread | null = null;
+  let results: AnalysisResults;
   progress.start(`analyse ${path} (one block in ${schedule.every})`, total);
   try {
+    // As runCapture: on a second thread for a long capture, which reads and runs the next parts meanwhile.
+    thread = useAnalysisThread(options.analysisThread ?? 'auto', total) ? startAnalysisThread(config) : null;
+    const inline = thread === null ? createCaptureAnalyses(config) : null;
+    // Blocks left out pass as one length each run of them (skip(a) then skip(b) is skip(a + b)).
+    let skipped = 0;
+    const passSkipped = async () => {
+      if (skipped === 0) return;
+      if (thread === null) inline!.skip(skipped);
+      else {
+        await thread.next();
+        thread.skip(skipped);
+      }
+      skipped = 0;
+    };
     for (let b = 0; b < blocks; b++) {
       const first = b * CAPTURE_BLOCK_SAMPLES;
       const n = Math.min(CAPTURE_BLOCK_SAMPLES, total - first);
       if (!schedule.take(b)) {
-        analyses.skip(n);
+        skipped += n;
         continue;
       }
+      await passSkipped();
       const settle = Math.min(first, SETTLE_SAMPLES);
       const part = await openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES, startSample: first - settle, sampleCount: settle + n });
       pipeline.reset();
       let analysed = false;
       for await (const block of part.blocks()) {
         events.length = 0;
-        pipeline.process(block.x, block.y, block.length, output, events);
-        if (block.firstIndex < first) continue;
+        if (block.firstIndex < first) {
+          pipeline.process(block.x, block.y, block.length, scratch, events);
+          continue;
+        }
         // The output arrays are a block long; the analyses read the first `length` (as runCapture's in line).
-        analyses.add({ firstIndex: first, length: block.length, t: null, analysed: true, x: block.x, y: block.y, phaseBeforeHarmonics: null, output });
+        const output = thread === null ? scratch : await thread.next();
+        pipeline.process(block.x, block.y, block.length, output, events);
+        const handed = { firstIndex: first, length: block.length, t: null, analysed: true, x: block.x, y: block.y, phaseBeforeHarmonics: null };
+        if (thread === null) inline!.add({ ...handed, output });
+        else thread.add(handed);
         analysed = true;
       }
       if (!analysed) throw new Error(`${path}: samples ${first}..${first + n - 1} could not be read`);
       progress.update(first + n);
     }
+    await passSkipped();
+    results = thread === null ? inline!.finish() : await thread.finish();
+  } catch (error) {
+    await thread?.terminate();
+    throw error;
   } finally {
     progress.stop();
   }
-  const results = analyses.finish();
   return {
     info,
     samples: total,

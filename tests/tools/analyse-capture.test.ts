@@ -49,6 +49,15 @@ describe('analyseCapture', () => {
     expect(parts.before.summary.firstHarmonicRad).toBeGreaterThan(1e-4);
   });
 
+  it('gives the same figures with its analyses on a worker thread, blocks left out handed over as lengths', async () => {
+    const calibration = { offsetX: 800, offsetY: -500, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 };
+    const options = { open: {}, calibration, settings, progress: createProgress(true), analysisBudgetSamples: 2 * 4096 };
+    const inline = await run.analyseCapture(join(dir, 'two.wav'), { ...options, analysisThread: false });
+    const threaded = await run.analyseCapture(join(dir, 'two.wav'), { ...options, analysisThread: true });
+    expect(inline.analysedEvery).toBeGreaterThan(1);
+    expect(threaded).toEqual(inline);
+  });
+
   it('runs the whole capture when every block is analysed', async () => {
     const calibration = { offsetX: 800, offsetY: -500, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 };
     const options = { open: {}, calibration, settings, progress: createProgress(true), analysisThread: false };

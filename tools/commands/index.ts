@@ -14,12 +14,18 @@ export interface CommandEntry {
 
 export const commands: readonly CommandEntry[] = [
   { name: 'simulate', summary: 'write a synthetic capture of an invented scenario and its truth file', load: async () => (await import('./simulate.js')).simulate },
-  { name: 'calibrate', summary: 'fit the ellipse correction to a capture and write cal.json', load: async () => (await import('./calibrate.js')).calibrate },
+  {
+    name: 'calibrate',
+    summary: 'fit the ellipse correction to a capture and write cal.json',
+    load: async () => (await import('./calibrate.js')).calibrate,
+    // The analyses after the fit take the analysis thread on long captures: it starts while the command loads.
+    prepare: async () => (await import('../analysis-worker-start.js')).prepareAnalysisThread(),
+  },
   {
     name: 'replay',
     summary: 'run the whole pipeline over a capture file',
     load: async () => (await import('./replay.js')).replay,
-    // The analysis thread, which long captures use, starts while the command loads.
+    // The analysis thread, which long captures take, starts while the command loads.
     prepare: async () => (await import('../analysis-worker-start.js')).prepareAnalysisThread(),
   },
   { name: 'listen', summary: 'live tracking of wire frames from a serial port', load: async () => (await import('./listen.js')).listen },
