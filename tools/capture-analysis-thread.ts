@@ -14,14 +14,18 @@ import {
   type BlockOutput,
 } from './capture-analyses.js';
 
-/** Blocks in flight between the two threads. */
-const RING_SLOTS = 16;
+/**
+ * Blocks in flight between the two threads: enough to hold what the pipeline runs while the worker analyses one
+ * block the periodic-error and radius analyses take (about 30 of the pipeline's blocks), so neither side waits for
+ * the other's burst. 17 MiB, whatever the run's length.
+ */
+const RING_SLOTS = 64;
 /**
  * A waiting worker is woken once this many blocks wait for it, and a waiting pipeline once this many slots are
  * free, not for each: a wake-up is a system call and a thread switch, which cost as much as copying a block's
  * samples, more on a busy machine.
  */
-const WAKE_BATCH = 8;
+const WAKE_BATCH = 16;
 // Control words: blocks handed over, blocks analysed, finish asked, whether the worker is (about to be) waiting,
 // and the count of blocks analysed the pipeline's side waits for (0: not waiting): a wake-up is sent only then,
 // not for every block.
