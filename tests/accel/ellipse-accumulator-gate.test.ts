@@ -9,52 +9,24 @@ import { createCorrection, createEllipseAccumulator, type EllipseAccumulator, ty
 import { keepWithin } from '../../src/core/fit/two-pass.js';
 import { createWasmEllipseAccumulator } from '../../src/accel/index.js';
 import '../support/property-seed.js';
+import { ellipseRuns, huggingTheGate } from '../support/ellipse-runs.js';
 
 const ellipse: EllipseCalibration = { offsetX: 37, offsetY: -21, amplitudeX: 9000, amplitudeY: 7600, phaseErrorRad: 0.3 };
 const CHUNK = 4096;
 
 /** Runs of pairs of the invented ellipse at drawn radii (on the gate's bounds, within an ulp of them, anywhere), with glitches. */
-const ellipseSamples = fc
-  .array(
-    fc.record({
-      phase: fc.double({ min: -4, max: 4, noNaN: true }),
-      radius: fc.oneof(
-        fc.constantFrom(0, 0.5, 1.5, 0.5 * (1 + 2 ** -52), 0.5 * (1 - 2 ** -52), 1.5 * (1 + 2 ** -52), 1.5 * (1 - 2 ** -52), 0.48, 0.52, 1.48, 1.52),
-        fc.double({ min: 0, max: 3, noNaN: true }),
-      ),
-      // No 1e300: the grid would zoom out a thousand times (each over its 16384 cells) in every add of it.
-      glitch: fc.oneof(fc.constant(null), fc.constant(null), fc.constantFrom(Number.NaN, Infinity, -Infinity, 3e5, -1e9)),
-      integer: fc.boolean(),
-      repeat: fc.oneof(fc.constant(1), fc.integer({ min: 1, max: 2000 })),
-    }),
-    { minLength: 0, maxLength: 12 },
-  )
-  .map((points) => {
-    const x: number[] = [];
-    const y: number[] = [];
-    for (const { phase, radius, glitch, integer, repeat } of points) {
-      const at = (value: number) => (integer ? Math.round(value) : value);
-      for (let k = 0; k < repeat; k++) {
-        const p = phase + k * 0.01;
-        x.push(at(ellipse.offsetX + ellipse.amplitudeX * radius * Math.cos(p)));
-        y.push(k === 0 && glitch !== null ? glitch : at(ellipse.offsetY + ellipse.amplitudeY * radius * Math.sin(p + ellipse.phaseErrorRad)));
-      }
-    }
-    return { x: Float64Array.from(x), y: Float64Array.from(y) };
-  });
+const ellipseSamples = ellipseRuns(ellipse, {
+  radius: fc.oneof(
+    fc.constantFrom(0, 0.5, 1.5, 0.5 * (1 + 2 ** -52), 0.5 * (1 - 2 ** -52), 1.5 * (1 + 2 ** -52), 1.5 * (1 - 2 ** -52), 0.48, 0.52, 1.48, 1.52),
+    fc.double({ min: 0, max: 3, noNaN: true }),
+  ),
+  // No 1e300: the grid would zoom out a thousand times (each over its 16384 cells) in every add of it.
+  glitches: [Number.NaN, Infinity, -Infinity, 3e5, -1e9],
+  maxRepeat: 2000,
+  maxRuns: 12,
+});
 
-/** The unit circle's pairs within a few ulps of radius 0.5 or 1.5, where u² + v² alone would decide otherwise than hypot for some. */
-const hugging = fc
-  .array(fc.tuple(fc.double({ min: 0, max: 7, noNaN: true }), fc.double({ min: -4e-16, max: 4e-16, noNaN: true }), fc.boolean()), { minLength: 1, maxLength: 3000 })
-  .map((points) => {
-    const x = new Float64Array(points.length);
-    const y = new Float64Array(points.length);
-    points.forEach(([angle, relative, outer], i) => {
-      const radius = (outer ? 1.5 : 0.5) * (1 + relative);
-      [x[i], y[i]] = [radius * Math.cos(angle), radius * Math.sin(angle)];
-    });
-    return { x, y };
-  });
+const hugging = huggingTheGate(1, 3000);
 
 /** The plain second pass: keepWithin over each CHUNK pairs, then add of those kept. */
 function plainWithin(accumulator: EllipseAccumulator, x: Float64Array, y: Float64Array, coefficients: Float64Array, near: Float64Array): void {

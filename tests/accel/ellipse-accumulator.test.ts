@@ -7,34 +7,17 @@ import fc from 'fast-check';
 import { createEllipseAccumulator, createTwoPassFit, type EllipseAccumulator } from '../../src/core/index.js';
 import { createFastEllipseAccumulator, createWasmEllipseAccumulator } from '../../src/accel/index.js';
 import '../support/property-seed.js';
+import { ellipseRuns } from '../support/ellipse-runs.js';
 
 const ellipse = { offsetX: 37, offsetY: -21, amplitudeX: 9000, amplitudeY: 7600, phaseErrorRad: 0.3 };
 
-const pairs = fc
-  .array(
-    fc.record({
-      phase: fc.double({ min: -4, max: 4, noNaN: true }),
-      radius: fc.oneof(fc.constant(0), fc.double({ min: 0, max: 1.6, noNaN: true })),
-      glitch: fc.oneof(fc.constant(null), fc.constant(null), fc.constantFrom(Number.NaN, Infinity, -Infinity, 3e5, -1e9, 0.25)),
-      integer: fc.boolean(),
-      repeat: fc.oneof(fc.constant(1), fc.integer({ min: 1, max: 3000 })),
-    }),
-    { minLength: 0, maxLength: 40 },
-  )
-  .map((points) => {
-    const x: number[] = [];
-    const y: number[] = [];
-    for (const { phase, radius, glitch, integer, repeat } of points) {
-      const at = (value: number) => (integer ? Math.round(value) : value);
-      // A run of `repeat` pairs stepping along the ellipse, so that blocks cross the kernel's chunks.
-      for (let k = 0; k < repeat; k++) {
-        const p = phase + k * 0.01;
-        x.push(at(ellipse.offsetX + ellipse.amplitudeX * radius * Math.cos(p)));
-        y.push(k === 0 && glitch !== null ? glitch : at(ellipse.offsetY + ellipse.amplitudeY * radius * Math.sin(p + ellipse.phaseErrorRad)));
-      }
-    }
-    return { x: Float64Array.from(x), y: Float64Array.from(y) };
-  });
+// Runs that cross the kernel's 4096-pair chunks; glitches that zoom the grid out.
+const pairs = ellipseRuns(ellipse, {
+  radius: fc.oneof(fc.constant(0), fc.double({ min: 0, max: 1.6, noNaN: true })),
+  glitches: [Number.NaN, Infinity, -Infinity, 3e5, -1e9, 0.25],
+  maxRepeat: 3000,
+  maxRuns: 40,
+});
 
 type Step = { kind: 'add'; x: Float64Array; y: Float64Array } | { kind: 'merge'; x: Float64Array; y: Float64Array } | { kind: 'reset' };
 const steps = fc.array(

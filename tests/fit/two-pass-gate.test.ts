@@ -7,6 +7,7 @@ import fc from 'fast-check';
 import { createCorrection, type EllipseCalibration } from '../../src/core/index.js';
 import { keepWithin } from '../../src/core/fit/two-pass.js';
 import '../support/property-seed.js';
+import { huggingTheGate } from '../support/ellipse-runs.js';
 
 const ellipse: EllipseCalibration = { offsetX: 37, offsetY: -21, amplitudeX: 9000, amplitudeY: 7600, phaseErrorRad: 0.3 };
 
@@ -74,17 +75,7 @@ describe('two-pass gate', () => {
     // The unit circle: u = x and v = y exactly. Pairs within a few ulps of radius 0.5 or 1.5, where about one in a
     // few hundred is on the other side of the bound for hypot than for u² + v².
     const unit: EllipseCalibration = { offsetX: 0, offsetY: 0, amplitudeX: 1, amplitudeY: 1, phaseErrorRad: 0 };
-    const hugging = fc
-      .array(fc.tuple(fc.double({ min: 0, max: 7, noNaN: true }), fc.double({ min: -4e-16, max: 4e-16, noNaN: true }), fc.boolean()), { minLength: 1000, maxLength: 2000 })
-      .map((points) => {
-        const x = new Float64Array(points.length);
-        const y = new Float64Array(points.length);
-        points.forEach(([angle, relative, outer], i) => {
-          const radius = (outer ? 1.5 : 0.5) * (1 + relative);
-          [x[i], y[i]] = [radius * Math.cos(angle), radius * Math.sin(angle)];
-        });
-        return { x, y };
-      });
+    const hugging = huggingTheGate(1000, 2000);
     fc.assert(
       fc.property(hugging, ({ x, y }) => {
         const kept = checkGate(unit, x, y, 0, x.length);
