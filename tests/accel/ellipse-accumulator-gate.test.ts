@@ -9,7 +9,7 @@ import { createCorrection, createEllipseAccumulator, type EllipseAccumulator, ty
 import { keepWithin } from '../../src/core/fit/two-pass.js';
 import { createWasmEllipseAccumulator } from '../../src/accel/index.js';
 import '../support/property-seed.js';
-import { ellipseRuns, huggingTheGate } from '../support/ellipse-runs.js';
+import { ellipseRuns, huggingTheGate, expectSameState } from '../support/fit-accumulators.js';
 
 const ellipse: EllipseCalibration = { offsetX: 37, offsetY: -21, amplitudeX: 9000, amplitudeY: 7600, phaseErrorRad: 0.3 };
 const CHUNK = 4096;
@@ -35,14 +35,6 @@ function plainWithin(accumulator: EllipseAccumulator, x: Float64Array, y: Float6
     const kept = keepWithin(x, y, start, Math.min(x.length, start + CHUNK), coefficients, 0.5, 1.5, keptX, keptY, 0.02, near);
     accumulator.add(keptX, keptY, kept);
   }
-}
-
-function expectSameState(actual: EllipseAccumulator, expected: EllipseAccumulator): void {
-  const [a, e] = [actual.state, expected.state];
-  expect([a.shiftX, a.shiftY, a.gridHalfWidth]).toEqual([e.shiftX, e.shiftY, e.gridHalfWidth]);
-  expect(Array.from(a.moments)).toEqual(Array.from(e.moments));
-  expect(Array.from(a.occupancy)).toEqual(Array.from(e.occupancy));
-  expect(actual.skippedNonFinite).toBe(expected.skippedNonFinite);
 }
 
 function checkSequence(calibration: EllipseCalibration, blocks: readonly { x: Float64Array; y: Float64Array; gated: boolean }[]): void {

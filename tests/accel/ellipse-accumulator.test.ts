@@ -4,10 +4,10 @@
 // invented ellipse at drawn radii, with glitches that zoom the grid out and non-finite values.
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { createEllipseAccumulator, createTwoPassFit, type EllipseAccumulator } from '../../src/core/index.js';
+import { createEllipseAccumulator, createTwoPassFit } from '../../src/core/index.js';
 import { createFastEllipseAccumulator, createWasmEllipseAccumulator } from '../../src/accel/index.js';
 import '../support/property-seed.js';
-import { ellipseRuns } from '../support/ellipse-runs.js';
+import { ellipseRuns, expectSameState } from '../support/fit-accumulators.js';
 
 const ellipse = { offsetX: 37, offsetY: -21, amplitudeX: 9000, amplitudeY: 7600, phaseErrorRad: 0.3 };
 
@@ -28,15 +28,6 @@ const steps = fc.array(
   ),
   { minLength: 1, maxLength: 8 },
 );
-
-function expectSameState(actual: EllipseAccumulator, expected: EllipseAccumulator): void {
-  const [a, e] = [actual.state, expected.state];
-  expect([a.shiftX, a.shiftY, a.gridHalfWidth]).toEqual([e.shiftX, e.shiftY, e.gridHalfWidth]);
-  expect(Array.from(a.moments)).toEqual(Array.from(e.moments));
-  expect(Array.from(a.occupancy)).toEqual(Array.from(e.occupancy));
-  expect(actual.skippedNonFinite).toBe(expected.skippedNonFinite);
-  expect(actual.samples).toBe(expected.samples);
-}
 
 describe('WebAssembly ellipse accumulator', () => {
   const wasm = createWasmEllipseAccumulator();

@@ -7,7 +7,7 @@ import fc from 'fast-check';
 import { createCorrection, type EllipseCalibration } from '../../src/core/index.js';
 import { keepWithin } from '../../src/core/fit/two-pass.js';
 import '../support/property-seed.js';
-import { huggingTheGate } from '../support/ellipse-runs.js';
+import { huggingTheGate } from '../support/fit-accumulators.js';
 
 const ellipse: EllipseCalibration = { offsetX: 37, offsetY: -21, amplitudeX: 9000, amplitudeY: 7600, phaseErrorRad: 0.3 };
 

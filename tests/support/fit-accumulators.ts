@@ -1,8 +1,9 @@
-// Invented samples for the fit accumulators' property tests: runs of pairs stepping along an invented ellipse at
-// drawn radii, each run's first y possibly a glitch (a non-finite or far value), as integers or not; and pairs of
-// the unit circle hugging the two-pass fit's gate bounds.
+// For the fit accumulators' property tests: invented samples (runs of pairs stepping along an invented ellipse at
+// drawn radii, each run's first y possibly a glitch, a non-finite or far value, as integers or not; pairs of the
+// unit circle hugging the two-pass fit's gate bounds) and the comparison of two accumulators' states, bit for bit.
+import { expect } from 'vitest';
 import fc from 'fast-check';
-import type { EllipseCalibration } from '../../src/core/index.js';
+import type { EllipseAccumulator, EllipseCalibration } from '../../src/core/index.js';
 
 export interface EllipseRunsOptions {
   /** The radii the runs are drawn at (1 = on the ellipse). */
@@ -58,4 +59,14 @@ export function huggingTheGate(minLength: number, maxLength: number): fc.Arbitra
       });
       return { x, y };
     });
+}
+
+/** The same sums, grid, shift and counts, bit for bit. */
+export function expectSameState(actual: EllipseAccumulator, expected: EllipseAccumulator): void {
+  const [a, e] = [actual.state, expected.state];
+  expect([a.shiftX, a.shiftY, a.gridHalfWidth]).toEqual([e.shiftX, e.shiftY, e.gridHalfWidth]);
+  expect(Array.from(a.moments)).toEqual(Array.from(e.moments));
+  expect(Array.from(a.occupancy)).toEqual(Array.from(e.occupancy));
+  expect(actual.skippedNonFinite).toBe(expected.skippedNonFinite);
+  expect(actual.samples).toBe(expected.samples);
 }
