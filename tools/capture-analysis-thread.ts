@@ -8,6 +8,7 @@ import {
   BLOCK_OUTPUT_BYTES,
   CAPTURE_BLOCK_SAMPLES,
   createBlockOutput,
+  createCaptureAnalyses,
   type AnalysedBlock,
   type AnalysisConfig,
   type AnalysisResults,
@@ -101,7 +102,10 @@ export { analysisThreadAvailable } from './analysis-worker-start.js';
 
 export const WORKER_CONTROL = { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING } as const;
 
-/** The pipeline's side of the ring. */
+/**
+ * The pipeline's side of the analyses: the ring to the worker (startAnalysisThread), or the same calls on this
+ * thread (analysesInLine), so a run is written once for both.
+ */
 export interface AnalysisThread {
   /** The arrays the pipeline writes the next block's output into, once the worker is done with their slot. */
   next(): Promise<BlockOutput>;
@@ -139,6 +143,25 @@ function ringMemory(bytes: number): { memory: WebAssembly.Memory | null; buffer:
     // No WebAssembly, or no shared memory in it: the same ring over plain shared bytes.
     return { memory: null, buffer: new SharedArrayBuffer(bytes) };
   }
+}
+
+/**
+ * The analyses run in line, behind the same calls: one output record and one phase array, reused for every block
+ * (each block is analysed in `add`, before `next` hands them out again).
+ */
+export function analysesInLine(config: AnalysisConfig): AnalysisThread {
+  const analyses = createCaptureAnalyses(config);
+  const output = createBlockOutput();
+  const ready = Promise.resolve(output);
+  const phase = new Float64Array(CAPTURE_BLOCK_SAMPLES);
+  return {
+    next: () => ready,
+    phaseSlot: () => phase,
+    add: (block) => analyses.add({ ...block, output }),
+    skip: (length) => analyses.skip(length),
+    finish: async () => analyses.finish(),
+    terminate: async () => undefined,
+  };
 }
 
 /** Starts the worker (the compiled capture-analysis-worker.js beside this file), or takes the one prepared. */

@@ -25,13 +25,12 @@ import {
   CAPTURE_BLOCK_SAMPLES,
   MAX_SPANS,
   createBlockOutput,
-  createCaptureAnalyses,
   createFigureSampler,
   type AnalysisConfig,
   type AnalysisResults,
   type BlockOutput,
 } from './capture-analyses.js';
-import { analysisThreadAvailable, startAnalysisThread, type AnalysisThread } from './capture-analysis-thread.js';
+import { analysesInLine, analysisThreadAvailable, startAnalysisThread, type AnalysisThread } from './capture-analysis-thread.js';
 import type { Progress } from './progress.js';
 
 export { CAPTURE_BLOCK_SAMPLES, type Envelope, type PeriodicErrorResult } from './capture-analyses.js';
@@ -132,6 +131,11 @@ export interface RunOptions {
 /** Shorter captures are analysed in line: starting a worker costs about as much as analysing them. */
 export const ANALYSIS_THREAD_MIN_SAMPLES = 2 ** 22;
 
+/** The run's analyses: on a worker thread or in line (see RunOptions.analysisThread). */
+function startAnalyses(config: AnalysisConfig, choice: boolean | 'auto' | undefined, totalSamples: number | null): AnalysisThread {
+  return useAnalysisThread(choice ?? 'auto', totalSamples) ? startAnalysisThread(config) : analysesInLine(config);
+}
+
 /** Whether runCapture runs the analyses on a worker thread (see RunOptions.analysisThread). */
 function useAnalysisThread(choice: boolean | 'auto', totalSamples: number | null): boolean {
   if (choice === true) {
@@ -208,7 +212,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   const keepPhase = combined !== null && harmonicCorrection !== null;
   // The harmonic correction and the harmonics' estimate take every block's phase.
   const phaseAlways = harmonicCorrection !== null || options.estimateHarmonics !== undefined;
-  let thread: AnalysisThread | null = null;
+  let analyses: AnalysisThread | null = null;
   const events: AlarmEvent[] = [];
   const alarmCounts: Record<AlarmKind, number> = { lowSignal: 0, saturation: 0, badSample: 0, overspeed: 0, inputGap: 0, countLost: 0, lowPower: 0 };
   const spans: AlarmSpan[] = [];
@@ -216,15 +220,12 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   const secondsPerSample = 1 / info.rateHz;
   let samples = 0;
   let finalPositionM = 0;
-  let analyses: AnalysisResults;
+  let results: AnalysisResults;
 
   progress.start(`replay ${path}`, info.totalSamples);
   try {
     // Inside the try: analyses refused (an option, a worker that cannot start) still close the capture.
-    thread = useAnalysisThread(options.analysisThread ?? 'auto', info.totalSamples) ? startAnalysisThread(config) : null;
-    const inline = thread === null ? createCaptureAnalyses(config) : null;
-    const inlineOutput = thread === null ? createBlockOutput() : null;
-    const inlinePhase = thread === null && keepPhase ? new Float64Array(CAPTURE_BLOCK_SAMPLES) : null;
+    analyses = startAnalyses(config, options.analysisThread, info.totalSamples);
     for await (const block of capture.blocks()) {
       const n = block.length;
       events.length = 0;
@@ -232,14 +233,14 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
         const index = options.refractiveIndexAt((block.firstIndex + n / 2) * secondsPerSample);
         (combined ?? pipeline).setRefractiveIndex(index);
       }
-      const output = thread === null ? inlineOutput! : await thread.next();
+      const output = await analyses.next();
       const analysed = schedule.take(blockIndex++);
       // Two outputs: the unwrapped phase costs a pass of its own, and only analysed blocks read it.
       if (combined === null) pipeline.process(block.x, block.y, n, analysed || phaseAlways ? output : withoutPhase(output), events);
       else combined.process(block.channels, n, output, events);
       let phaseBeforeHarmonics: Float64Array | null = null;
       if (keepPhase) {
-        phaseBeforeHarmonics = thread === null ? inlinePhase! : thread.phaseSlot();
+        phaseBeforeHarmonics = analyses.phaseSlot();
         phaseBeforeHarmonics.set(output.unwrappedPhaseRad.subarray(0, n));
       }
       harmonicCorrection?.process(output.unwrappedPhaseRad, n, output.positionM, metresPerRad);
@@ -259,15 +260,14 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
       }
       figure.add(block.x, block.y, n, combined === null ? null : output);
       const handed = { firstIndex: block.firstIndex, length: n, t: block.t, analysed, x: analysed ? block.x : null, y: analysed ? block.y : null, phaseBeforeHarmonics };
-      if (thread === null) inline!.add({ ...handed, output });
-      else thread.add(handed);
+      analyses.add(handed);
       samples += n;
       finalPositionM = output.positionM[n - 1]!;
       progress.update(block.firstIndex + n);
     }
-    analyses = thread === null ? inline!.finish() : await thread.finish();
+    results = await analyses.finish();
   } catch (error) {
-    await thread?.terminate();
+    await analyses?.terminate();
     throw error;
   } finally {
     progress.stop();
@@ -275,9 +275,9 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   }
   for (const [kind, start] of open) if (spans.length < MAX_SPANS) spans.push({ kind, startS: start, endS: Number.NaN });
   return {
-    ...analyses,
+    ...results,
     analysedEvery: schedule.every,
-    report: { ...analyses.report, raw: figure.raw(), corrected: figure.corrected() },
+    report: { ...results.report, raw: figure.raw(), corrected: figure.corrected() },
     info,
     samples,
     metresPerRad,
@@ -322,26 +322,21 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
   const metresPerRad = pipeline.stages.displacement.metresPerFringe / (2 * Math.PI);
   const mid = adcMidScale(adc);
   const config = { calibration, layout: null, mid, rateHz: info.rateHz, metresPerRad, maxPlotPoints: 2, totalSamples: total };
-  // The settling samples' output, and the analysed block's when the analyses run in line.
+  // The settling samples' output.
   const scratch = createBlockOutput();
   const events: AlarmEvent[] = [];
   const blocks = Math.ceil(total / CAPTURE_BLOCK_SAMPLES);
-  let thread: AnalysisThread | null = null;
+  // As runCapture: on a second thread for a long capture, which reads and runs the next parts meanwhile.
+  const analyses = startAnalyses(config, options.analysisThread, total);
   let results: AnalysisResults;
   progress.start(`analyse ${path} (one block in ${schedule.every})`, total);
   try {
-    // As runCapture: on a second thread for a long capture, which reads and runs the next parts meanwhile.
-    thread = useAnalysisThread(options.analysisThread ?? 'auto', total) ? startAnalysisThread(config) : null;
-    const inline = thread === null ? createCaptureAnalyses(config) : null;
     // Blocks left out pass as one length each run of them (skip(a) then skip(b) is skip(a + b)).
     let skipped = 0;
     const passSkipped = async () => {
       if (skipped === 0) return;
-      if (thread === null) inline!.skip(skipped);
-      else {
-        await thread.next();
-        thread.skip(skipped);
-      }
+      await analyses.next();
+      analyses.skip(skipped);
       skipped = 0;
     };
     for (let b = 0; b < blocks; b++) {
@@ -362,21 +357,18 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
           pipeline.process(block.x, block.y, block.length, scratch, events);
           continue;
         }
-        // The output arrays are a block long; the analyses read the first `length` (as runCapture's in line).
-        const output = thread === null ? scratch : await thread.next();
-        pipeline.process(block.x, block.y, block.length, output, events);
-        const handed = { firstIndex: first, length: block.length, t: null, analysed: true, x: block.x, y: block.y, phaseBeforeHarmonics: null };
-        if (thread === null) inline!.add({ ...handed, output });
-        else thread.add(handed);
+        // The output arrays are a block long; the analyses read the first `length` (as in runCapture).
+        pipeline.process(block.x, block.y, block.length, await analyses.next(), events);
+        analyses.add({ firstIndex: first, length: block.length, t: null, analysed: true, x: block.x, y: block.y, phaseBeforeHarmonics: null });
         analysed = true;
       }
       if (!analysed) throw new Error(`${path}: samples ${first}..${first + n - 1} could not be read`);
       progress.update(first + n);
     }
     await passSkipped();
-    results = thread === null ? inline!.finish() : await thread.finish();
+    results = await analyses.finish();
   } catch (error) {
-    await thread?.terminate();
+    await analyses.terminate();
     throw error;
   } finally {
     progress.stop();
