@@ -46,10 +46,12 @@ async function main(argv: readonly string[]): Promise<number> {
     process.stderr.write(`fringetally: unknown command "${first}"; see fringetally --help\n`);
     return 2;
   }
+  const helpOnly = rest.includes('--help') || rest.includes('-h');
   // Started, not awaited: it only saves time. Should it fail, the command meets the same failure itself, in its place.
-  entry.prepare?.().catch(() => undefined);
+  // The help needs nothing started.
+  if (!helpOnly) entry.prepare?.().catch(() => undefined);
   const command = await entry.load();
-  if (rest.includes('--help') || rest.includes('-h')) {
+  if (helpOnly) {
     process.stdout.write(command.help + '\n');
     return 0;
   }

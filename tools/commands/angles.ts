@@ -1,6 +1,6 @@
 // `fringetally angles`: yaw, pitch and the displacement of a point of interest from the positions of several
 // parallel axes recorded together (one result file per axis, sample for sample), written beside the positions.
-import { openCapture, openFileSink, openStreamSink, type Capture, type CaptureBlock } from '../../src/io/index.js';
+import { openCapture, openFileSink, openStreamSink, type Capture, type CaptureBlock } from '../../src/io/capture/index.js';
 import { LASER_CAUTION, numberOption, parseCommandLine, UsageError, type Command } from '../cli-kit.js';
 import { ANGLE_COLUMNS, angleCells, geometryOf, geometryOptionHelp, geometryOptionSpecs, measuredText } from '../geometry-options.js';
 import { POSITION_COLUMN } from '../position-input.js';
