@@ -21,6 +21,7 @@ interface KernelExports {
   fused(n: number, wide: number, xp: number, yp: number, lp: number, pp: number, tp: number, sp: number, posp: number, velp: number): number;
   track(n: number, lp: number, pp: number, tp: number, sp: number): number;
   place(n: number, tp: number, pp: number, sp: number, posp: number, velp: number): void;
+  unwrap(n: number, tp: number, pp: number, up: number): void;
 }
 
 // Indices of the parameter area (f64) at the start of the module's memory; steady-kernel.wat lists them.
@@ -51,10 +52,11 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
   const assumed = new Float64Array(22);
 
   let capacity = 0;
-  // Regions, in this order: x, y (int16 or f64), level (f32), phase, turns, step, position, velocity (f64). Each is
-  // 512 bytes longer than its samples need, so that equal indices of two regions never lie a multiple of 4 KiB
-  // apart (the CPU then takes a load for a store to the same address and waits: twice as slow).
-  const at = new Int32Array(8);
+  // Regions, in this order: x, y (int16 or f64), level (f32), phase, turns, step, position, velocity, unwrapped
+  // phase (f64). Each is 448 bytes longer than its samples need (nine multiples of 448 are distinct modulo 4096), so
+  // that in 4096-sample blocks equal indices of two regions never lie a multiple of 4 KiB apart (the CPU then takes
+  // a load for a store to the same address and waits: twice as slow).
+  const at = new Int32Array(9);
   let xs = new Int16Array(0);
   let ys = xs;
   let xsWide = new Float64Array(0);
@@ -65,6 +67,7 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
   let stepsAll = xsWide;
   let positions = xsWide;
   let velocities = xsWide;
+  let unwrappedAll = xsWide;
   // Views of exactly the last block's length, for the copies out; remade only when the length changes.
   let viewLength = -1;
   let levelView = levels;
@@ -72,15 +75,16 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
   let stepView = xsWide;
   let positionView = xsWide;
   let velocityView = xsWide;
+  let unwrappedView = xsWide;
 
   function reserve(samples: number): void {
     capacity = Math.ceil(samples / 8) * 8;
-    const region = 8 * capacity + 512;
-    const bytes = REGIONS_AT + 8 * region;
+    const region = 8 * capacity + 448;
+    const bytes = REGIONS_AT + at.length * region;
     const pages = Math.ceil(bytes / 65536) - kernel.memory.buffer.byteLength / 65536;
     if (pages > 0) kernel.memory.grow(pages);
     const buffer = kernel.memory.buffer;
-    for (let k = 0; k < 8; k++) at[k] = REGIONS_AT + k * region;
+    for (let k = 0; k < at.length; k++) at[k] = REGIONS_AT + k * region;
     params = new Float64Array(buffer, 0, 32);
     xs = new Int16Array(buffer, at[0]!, capacity);
     ys = new Int16Array(buffer, at[1]!, capacity);
@@ -92,6 +96,7 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
     stepsAll = new Float64Array(buffer, at[5]!, capacity);
     positions = new Float64Array(buffer, at[6]!, capacity);
     velocities = new Float64Array(buffer, at[7]!, capacity);
+    unwrappedAll = new Float64Array(buffer, at[8]!, capacity);
     viewLength = -1;
   }
   reserve(options.capacity ?? 4096);
@@ -104,6 +109,7 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
     stepView = stepsAll.subarray(0, length);
     positionView = positions.subarray(0, length);
     velocityView = velocities.subarray(0, length);
+    unwrappedView = unwrappedAll.subarray(0, length);
   }
 
   // The last front-end pass: its block, and whether what it ran of the tracker and the displacement may be used.
@@ -231,7 +237,7 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
 
   function place(
     turns: Float64Array, phaseRad: Float64Array, stepRad: Float64Array, length: number, positionM: Float64Array, velocityMS: Float64Array,
-    refTurns: number, refPhase: number, perFringe: number, perRad: number, perStep: number,
+    refTurns: number, refPhase: number, perFringe: number, perRad: number, perStep: number, unwrappedPhaseRad?: Float64Array,
   ): void {
     const tracked = trackedTurns === turns && trackedSteps === stepRad && trackedPhases === phaseRad && trackedLength === length;
     const fromPass = tracked && trackedFromPass;
@@ -260,6 +266,11 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
     views(length);
     positionM.set(positionView);
     velocityMS.set(velocityView);
+    if (unwrappedPhaseRad) {
+      // The turns and phase regions hold this block's now, whichever way it came.
+      kernel.unwrap(length, at[4]!, at[3]!, at[8]!);
+      unwrappedPhaseRad.set(unwrappedView);
+    }
     assumed[REFERENCE] = refTurns;
     assumed[REFERENCE + 1] = refPhase;
     assumed[REFERENCE + 2] = perFringe;

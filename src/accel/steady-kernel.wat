@@ -338,4 +338,18 @@
         (v128.store (i32.add (local.get $velp) (local.get $at)) (f64x2.mul (v128.load (i32.add (local.get $sp) (local.get $at))) (local.get $kS)))
         (local.set $j (i32.add (local.get $j) (i32.const 2)))
         (br $next))))
+
+  ;; unwrap(n, tp, pp, up): the unwrapped phase 2π·turns + phase (pipeline.ts), two samples a step (an odd n
+  ;; writes one slot past the block). Asked for only by the callers that want it (the capture analyses).
+  (func (export "unwrap") (param $n i32) (param $tp i32) (param $pp i32) (param $up i32)
+    (local $j i32) (local $at i32) (local $k2pi v128)
+    (local.set $k2pi (v128.load offset=480 (i32.const 0)))
+    (block $done
+      (loop $next
+        (br_if $done (i32.ge_u (local.get $j) (local.get $n)))
+        (local.set $at (i32.shl (local.get $j) (i32.const 3)))
+        (v128.store (i32.add (local.get $up) (local.get $at))
+          (f64x2.add (f64x2.mul (local.get $k2pi) (v128.load (i32.add (local.get $tp) (local.get $at)))) (v128.load (i32.add (local.get $pp) (local.get $at)))))
+        (local.set $j (i32.add (local.get $j) (i32.const 2)))
+        (br $next))))
 )

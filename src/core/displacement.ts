@@ -35,6 +35,7 @@ export interface PlaceKernel {
     perFringe: number,
     perRad: number,
     perStep: number,
+    unwrappedPhaseRad?: Float64Array,
   ): void;
 }
 
@@ -51,6 +52,8 @@ export interface Displacement {
     length: number,
     positionM: Float64Array,
     velocityMS: Float64Array,
+    /** Optional: 2π·turns + phase, the phase without wraps (rad), for analyses that need it. */
+    unwrappedPhaseRad?: Float64Array,
   ): number;
   referenceAtNext(): void;
   /** Changes the index of the path: the scale of the reading changes, the fringe count does not. */
@@ -93,6 +96,7 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
     length: number,
     positionM: Float64Array,
     velocityMS: Float64Array,
+    unwrappedPhaseRad?: Float64Array,
   ): number {
     if (referencePending && length > 0) {
       referencePending = false;
@@ -101,11 +105,14 @@ export function createDisplacement(options: DisplacementOptions): Displacement {
     }
     const perFringe = metresPerFringe, perRad = metresPerRad, perStep = velocityPerStep;
     const refTurns = referenceTurns, refPhase = referencePhase;
-    if (place) place(turns, phaseRad, stepRad, length, positionM, velocityMS, refTurns, refPhase, perFringe, perRad, perStep);
-    else for (let i = 0; i < length; i++) {
-      // Integer and fractional parts are differenced separately: exact for counts far beyond 2^32.
-      positionM[i] = (turns[i]! - refTurns) * perFringe + (phaseRad[i]! - refPhase) * perRad;
-      velocityMS[i] = stepRad[i]! * perStep;
+    if (place) place(turns, phaseRad, stepRad, length, positionM, velocityMS, refTurns, refPhase, perFringe, perRad, perStep, unwrappedPhaseRad);
+    else {
+      for (let i = 0; i < length; i++) {
+        // Integer and fractional parts are differenced separately: exact for counts far beyond 2^32.
+        positionM[i] = (turns[i]! - refTurns) * perFringe + (phaseRad[i]! - refPhase) * perRad;
+        velocityMS[i] = stepRad[i]! * perStep;
+      }
+      if (unwrappedPhaseRad) for (let i = 0; i < length; i++) unwrappedPhaseRad[i] = TWO_PI * turns[i]! + phaseRad[i]!;
     }
     return length;
   }

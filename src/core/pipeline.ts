@@ -203,10 +203,7 @@ export function createPipeline(options: PipelineOptions): Pipeline {
       monitor.process(x, y, u, v, length, nextIndex, output.level, output.flags, events);
       tracker.process(u, v, output.level, length, nextIndex, track, events);
     }
-    const wrapped = phases ?? phaseRad;
-    displacement.process(turns, wrapped, stepRad, length, output.positionM, output.velocityMS);
-    const unwrapped = output.unwrappedPhaseRad;
-    if (unwrapped !== undefined) for (let i = 0; i < length; i++) unwrapped[i] = TWO_PI * turns[i]! + wrapped[i]!;
+    displacement.process(turns, phases ?? phaseRad, stepRad, length, output.positionM, output.velocityMS, output.unwrappedPhaseRad);
     nextIndex += length;
     if (events.length - firstEvent > 1) {
       const added = events.splice(firstEvent);
