@@ -306,9 +306,8 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
   const basis3 = new Float64Array(capacity);
   const offsets = new Float64Array(capacity);
   let filled = 0;
-  // The phase range of the window so far.
-  let low = 0;
-  let high = 0;
+  // The phase range of the window so far: lowest, highest.
+  const range = new Float64Array(2);
   let fitted = 0;
   let used = 0;
   let samples = 0;
@@ -533,22 +532,28 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
 
   return {
     process(unwrappedPhaseRad, valid, length) {
+      // The window's count and range in locals, kept between calls: written to the closure's variables in the loop,
+      // they cost a heap number a sample (16 bytes, and the collections they bring).
+      let fill = filled, low = range[0]!, high = range[1]!;
       for (let i = 0; i < length; i++) {
         const p = unwrappedPhaseRad[i]!;
         if (!valid[i] || !Number.isFinite(p)) {
-          filled = 0;
+          fill = 0;
           continue;
         }
-        if (filled === 0) low = high = p;
+        if (fill === 0) low = high = p;
         else if (p < low) low = p;
         else if (p > high) high = p;
-        phase[filled++] = p;
-        const spanned = high - low >= windowSpanRad && filled >= MIN_WINDOW_SAMPLES;
-        if (spanned || filled === capacity) {
-          fitWindow(filled, spanned);
-          filled = 0;
+        phase[fill++] = p;
+        const spanned = high - low >= windowSpanRad && fill >= MIN_WINDOW_SAMPLES;
+        if (spanned || fill === capacity) {
+          fitWindow(fill, spanned);
+          fill = 0;
         }
       }
+      filled = fill;
+      range[0] = low;
+      range[1] = high;
     },
     skip(length) {
       if (!(length > 0)) return;
