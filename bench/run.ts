@@ -174,6 +174,12 @@ if (values.json) {
       // A run can be no faster than its start-up plus the bare pipeline over its samples.
       const ceiling = samples / bare / (samples / bare + startUp);
       process.stdout.write(`start-up of a tool ${startUp.toFixed(3)} s: with it a run of ${samples} samples reaches at most ${ceiling.toFixed(2)}x the bare pipeline\n`);
+      // And the reading too, when it runs on the pipeline's thread as in calibrate and replay.
+      const read = results.find((result) => result.name === `capture/wav/int16/${samples}/read-alone`)?.extra?.wallSeconds;
+      if (read !== undefined) {
+        const withReading = samples / bare / (samples / bare + startUp + read);
+        process.stdout.write(`reading the capture alone ${read.toFixed(3)} s: start-up, reading and the bare pipeline one after the other reach at most ${withReading.toFixed(2)}x\n`);
+      }
     }
   }
   if (reference !== null) {

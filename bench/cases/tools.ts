@@ -3,13 +3,15 @@
 // `--every 10000`, its analyses on a second thread (the default) and in line. Figures: wall-clock samples/s, the
 // process's CPU time and peak resident memory (read by
 // bench/report-usage.ts), and for memory the same replay on a short and a long capture: the peak must not grow
-// with the run. Beside them the start-up alone (`replay --help`), which bounds what any run can reach.
+// with the run. Beside them the start-up alone (`replay --help`) and the reading of the capture alone (its blocks
+// in this process, as the tools read them), which bound what any run can reach.
 import { spawnSync } from 'node:child_process';
 import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { BenchResult } from '../harness.js';
+import { openCapture } from '../../src/io/capture/index.js';
 import { generate } from './capture.js';
 
 const here = dirname(fileURLToPath(import.meta.url));
@@ -68,6 +70,19 @@ export async function toolCases(options: ToolBenchOptions = {}): Promise<BenchRe
     const startUp = medianRun(['replay', '--help'], 2 * passes + 1);
     results.push({ name: 'replay/start-up', samplesPerSecond: Number.NaN, nsPerSample: Number.NaN, passes: 2 * passes + 1, extra: { wallSeconds: startUp.wallSeconds, cpuSeconds: startUp.cpuSeconds } });
     const capture = (await generate(join(directory, 'capture.wav'), 'wav', 'int16', samples)).path;
+    // Reading alone, in 4096-sample blocks as calibrate and replay take them (median wall time of the passes).
+    const reads: number[] = [];
+    for (let pass = 0; pass < passes; pass++) {
+      const start = process.hrtime.bigint();
+      const opened = await openCapture(capture, { blockSize: 4096 });
+      let read = 0;
+      for await (const block of opened.blocks()) read += block.length;
+      await opened.close();
+      if (read !== samples) throw new Error(`read ${read} of ${samples} samples`);
+      reads.push(Number(process.hrtime.bigint() - start) / 1e9);
+    }
+    const readSeconds = reads.sort((a, b) => a - b)[reads.length >> 1]!;
+    results.push({ name: `capture/wav/int16/${samples}/read-alone`, samplesPerSecond: samples / readSeconds, nsPerSample: (readSeconds * 1e9) / samples, passes, extra: { wallSeconds: readSeconds } });
     const calibration = join(directory, 'calibration.json');
     const calibrate = medianRun(['calibrate', capture, '--out', calibration, '--quiet'], passes);
     results.push(result(`calibrate/wav/int16/${samples}/end-to-end`, samples, calibrate));
