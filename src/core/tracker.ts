@@ -215,16 +215,13 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
   const steady = options.kernel?.track ?? steadyBlock;
 
   let started = false;
-  let turns = 0;
-  let lastPhase = 0;
-  let step = 0; // loop velocity, rad/sample
-  let lag = 0; // loop phase estimate minus last measured phase, rad
-  let heldTravel = 0;
   let resuming = false; // the next usable sample follows held ones
-  let lastStep = 0; // the last one-sample step, rad (velocity-aided prediction)
-  let noise = 0; // mean |change of the loop residual| between samples, rad: the phase noise the loop sees
-  let recentStep = 0; // mean of the last few steps (gain 1/4), rad per sample
-  const loopState = new Float64Array(4); // [w, lag, noise, recentStep] handed to the fast path
+  // The state kept as doubles, in a typed array: a double let written back after each block costs a heap number.
+  // [0..3]: loop velocity w (rad/sample), lag (loop phase estimate minus last measured phase, rad), noise (mean
+  // |change of the loop residual| between samples, rad: the phase noise the loop sees), recent step (mean of the last
+  // few steps, gain 1/4, rad/sample), handed to the fast path as its loop state; then turns, last phase, held travel
+  // (rad) and the last one-sample step (rad, the velocity-aided prediction).
+  const state = new Float64Array(8);
   let countLost = false;
   let clearPending = false;
   let overspeedActive = false;
@@ -284,18 +281,14 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
     const pi = Math.PI, twoPi = TWO_PI; // 8 and 32 below: AlarmBit.overspeed, AlarmBit.countLost
     const maxStep = aided ? AIDED_MAX_STEP_RAD : Infinity;
     const toResidual = 1 / (a - 1), compensated = a - b / 2;
-    let turnsNow = turns, last = lastPhase, w = step, lagNow = lag, travel = heldTravel, resume = resuming;
-    let lost = countLost, over = overspeedActive, overRun = overspeedRun, isStarted = started, prevStep = lastStep, noiseNow = noise, recent = recentStep;
-    loopState[0] = w;
-    loopState[1] = lagNow;
-    loopState[2] = noiseNow;
-    loopState[3] = recent;
-    if (!aided && isStarted && !resume && !over && steady(phaseOut, level, length, minLev, overStep, last, turnsNow, turnsOut, stepOut, a, b, loopState)) {
+    let turnsNow = state[4]!, last = state[5]!, w = state[0]!, lagNow = state[1]!, travel = state[6]!, resume = resuming;
+    let lost = countLost, over = overspeedActive, overRun = overspeedRun, isStarted = started, prevStep = state[7]!, noiseNow = state[2]!, recent = state[3]!;
+    if (!aided && isStarted && !resume && !over && steady(phaseOut, level, length, minLev, overStep, last, turnsNow, turnsOut, stepOut, a, b, state)) {
       // Fast path: every sample usable and every step under the overspeed threshold, so no alarm can change.
-      w = loopState[0]!;
-      lagNow = loopState[1]!;
-      noiseNow = loopState[2]!;
-      recent = loopState[3]!;
+      w = state[0]!;
+      lagNow = state[1]!;
+      noiseNow = state[2]!;
+      recent = state[3]!;
       if (lost) for (let i = 0; i < length; i++) flags[i] |= 32;
       turnsNow = turnsOut[length - 1]!;
       last = phaseOut[length - 1]!;
@@ -390,15 +383,15 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
       flags[i] |= (over ? 8 : 0) | (lost ? 32 : 0);
     }
     flags[0] |= firstBits;
-    turns = turnsNow;
-    lastPhase = last;
-    step = w;
-    lag = lagNow;
-    heldTravel = travel;
+    state[4] = turnsNow;
+    state[5] = last;
+    state[0] = w;
+    state[1] = lagNow;
+    state[6] = travel;
     resuming = resume;
-    lastStep = prevStep;
-    noise = noiseNow;
-    recentStep = recent;
+    state[7] = prevStep;
+    state[2] = noiseNow;
+    state[3] = recent;
     countLost = lost;
     overspeedActive = over;
     overspeedRun = overRun;
@@ -408,15 +401,8 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
 
   function reset(): void {
     started = false;
-    turns = 0;
-    lastPhase = 0;
-    step = 0;
-    lag = 0;
-    heldTravel = 0;
+    state.fill(0);
     resuming = false;
-    lastStep = 0;
-    noise = 0;
-    recentStep = 0;
     countLost = false;
     clearPending = false;
     overspeedActive = false;
@@ -441,13 +427,13 @@ export function createPhaseTracker(options: PhaseTrackerOptions): PhaseTracker {
       return countLost;
     },
     get turns() {
-      return turns;
+      return state[4]!;
     },
     get phaseRad() {
-      return lastPhase;
+      return state[5]!;
     },
     get stepRad() {
-      return step;
+      return state[0]!;
     },
     options: resolved,
   };

@@ -27,6 +27,7 @@ export { deinterleaveAxis, type DeinterleaveAxisOptions } from './deinterleave-a
 export { fitEllipse, type FitEllipseOptions } from './fit-ellipse.js';
 export { createPositionBuffers, trackPosition } from './track-position.js';
 export { airIndex } from './air-index.js';
+export { createRelay, type Relay } from './relay.js';
 export {
   axisGeometry,
   createUpdateGeometry,

@@ -154,6 +154,50 @@ describe('result writer', () => {
     own.remove();
   });
 
+  // Listen formats every block's rows with add() and waits only when the bytes went out (a few blocks in a hundred).
+  it('add: the rows write gives, a promise only when bytes went out, errors thrown', async () => {
+    const whole = series(6000);
+    const expected = await toText([whole], { format: 'csv', rateHz: 1000 });
+    const stdout = new PassThrough();
+    const parts: Buffer[] = [];
+    stdout.on('data', (part: Buffer) => parts.push(part));
+    const writer = await createResultWriter('-', { format: 'csv', rateHz: 1000, stdout });
+    let promises = 0;
+    for (let start = 0; start < 6000; start += 100) {
+      const sent = parts.length;
+      const out = writer.add(slice(whole, start, start + 100));
+      if (out === undefined) {
+        // The rows only went into the buffer: nothing was written.
+        await new Promise((resolve) => setImmediate(resolve));
+        expect(parts.length).toBe(sent);
+        continue;
+      }
+      promises++;
+      await out;
+      // Out by now: whole rows, at least the 64 KiB that made the writer write.
+      const text = Buffer.concat(parts).toString('utf8');
+      expect(text.length).toBeGreaterThanOrEqual(65_536);
+      expect(text.endsWith('\n') && expected.startsWith(text)).toBe(true);
+    }
+    // About 370 kB of rows: a promise for each 64 KiB, none for the other blocks.
+    expect(promises).toBeGreaterThanOrEqual(4);
+    expect(promises).toBeLessThanOrEqual(6);
+    expect(() => writer.add({ ...series(3), rateHz: 0 })).toThrow('block.rateHz must be a positive finite number (got 0)');
+    await writer.close();
+    expect(Buffer.concat(parts).toString('utf8')).toBe(expected);
+    expect(() => writer.add(series(1))).toThrow(/the result writer is closed/);
+
+    // An output that fails: the promise rejects, and the writer refuses further rows.
+    const broken = new PassThrough({ highWaterMark: 16 });
+    const failing = await createResultWriter('-', { format: 'csv', rateHz: 1, stdout: broken });
+    broken.destroy(new Error('EPIPE: broken pipe'));
+    await new Promise((resolve) => setImmediate(resolve));
+    let out: Promise<void> | undefined;
+    for (let k = 0; out === undefined; k++) out = failing.add(series(500, k * 500));
+    await expect(out).rejects.toThrow(/EPIPE|destroyed/);
+    expect(() => failing.add(series(1, 1e6))).toThrow(/an earlier write failed/);
+  });
+
   it('writes a file under a temporary name, renamed at close; abort leaves nothing', async () => {
     const path = dir.file('rows.csv');
     const writer = await createResultWriter(path, { format: 'csv', rateHz: 10, every: 2 });

@@ -101,6 +101,36 @@ describe('createLinkReader', () => {
     );
   });
 
+  // Listen's chunks hold n or n + 1 frames, so block lengths alternate; a view per block was an allocation per block.
+  it('hands out one view per block length, exactly the block long, also across lengths that alternate and a grown buffer', () => {
+    const { frames } = stream(Array.from({ length: 1200 }, () => 0));
+    const reader = createLinkReader({
+      onBlock(block) {
+        views.push(block.samples);
+        blocks.push({ length: block.samples.length, values: [...block.samples] });
+      },
+    });
+    const views: Int16Array[] = [];
+    const blocks: { length: number; values: number[] }[] = [];
+    reader.push(up(false));
+    // Chunks of 3, 4, 3, 4, … frames, then 1000 frames at once (past the first buffer of 4096 values), then 4, 3 again.
+    const sizes = [3, 4, 3, 4, 3, 4, 1000, 4, 3, 4, 3];
+    let next = 0;
+    const expected: number[][] = [];
+    for (const size of sizes) {
+      const chunk = frames.slice(next, next + size);
+      next += size;
+      reader.push(concat(chunk.map((frame) => frame.bytes)));
+      expected.push(chunk.flatMap((frame) => frame.samples));
+    }
+    expect(blocks).toEqual(expected.map((values) => ({ length: values.length, values })));
+    // Two views before the buffer grew (3 and 4 frames), one for the 1000 frames, two after it (none of the old buffer).
+    expect(new Set(views.slice(0, 6)).size).toBe(2);
+    expect(new Set(views).size).toBe(5);
+    expect(views[7]!.buffer).toBe(views[6]!.buffer);
+    expect(views[7]!.buffer).not.toBe(views[0]!.buffer);
+  });
+
   it('after an outage losing any run of bytes, gives the untouched frames and a gap of at least one sample', () => {
     fc.assert(
       fc.property(skipsArbitrary, fc.nat(), fc.nat(), fc.array(fc.nat(), { maxLength: 8 }), (skips, a, b, cuts) => {

@@ -58,7 +58,7 @@ describe('live session', () => {
   });
 
   it('takes byte chunks waiting in its input together (16 KiB at most): fewer, longer blocks, the same positions', async () => {
-    const run = async (paced: boolean) => {
+    const run = async (paced: boolean, framesPerChunk: (k: number) => number = () => 3) => {
       const source = createManualByteSource();
       const blocks: number[] = [];
       const positions: number[] = [];
@@ -74,7 +74,7 @@ describe('live session', () => {
       source.linkUp();
       // 400 chunks of 3 frames (150 samples, 650 bytes each): 260 kB in all.
       for (let k = 0; k < 400; k++) {
-        source.write(frames.next(3).bytes.slice());
+        source.write(frames.next(framesPerChunk(k)).bytes.slice());
         if (paced) await tick();
       }
       source.end();
@@ -87,6 +87,11 @@ describe('live session', () => {
     // Whole chunks up to 16 384 bytes: 25 chunks (16 250 bytes) a block.
     expect(queued.blocks).toEqual(Array.from({ length: 16 }, () => 3750));
     expect(queued.positions).toEqual(paced.positions);
+    // Chunks of 1 to 7 frames in turn: blocks of many lengths, the same positions as chunk by chunk.
+    const mixed = await run(false, (k) => 1 + (k % 7));
+    const mixedPaced = await run(true, (k) => 1 + (k % 7));
+    expect(new Set(mixed.blocks).size).toBeGreaterThan(3);
+    expect(mixed.positions).toEqual(mixedPaced.positions);
   });
 
   it('ends with an error naming the fix when the live fit fails for good', async () => {

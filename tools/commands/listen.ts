@@ -5,7 +5,7 @@ import { Socket } from 'node:net';
 import { extname } from 'node:path';
 import { alarmKinds, alarmNames, MODEL_WATCH_ALARM, OptionError, type ChannelParameters, type EllipseCalibration } from '../../src/core/index.js';
 import { createCaptureWriter, writeFileAtomically, type CaptureWriter } from '../../src/io/capture/index.js';
-import { createEdgeWriter, createResultWriter, type EdgeWriter, type ResultFormat, type ResultWriter } from '../../src/io/results/index.js';
+import { createEdgeWriter, createResultWriter, type EdgeWriter, type ResultFormat, type ResultFileWriter } from '../../src/io/results/index.js';
 import { createSerialByteSource, SERIAL_SOURCE_DEFAULTS } from '../../src/io/serial/index.js';
 import { createLiveEdgeLatch, latchEdges, LIVE_FIT_DEFAULTS, type LinkBlock } from '../../src/io/live/index.js';
 import type { AxisBlockSummary } from '../../src/stream/index.js';
@@ -316,7 +316,7 @@ async function run(argv: readonly string[]): Promise<number> {
       );
   for (const line of feed?.describe() ?? []) statusLine.log(line);
   const stdout = out === '-' ? openStandardOutput() : undefined;
-  const writer: ResultWriter | AngleRowWriter =
+  const writer: ResultFileWriter | AngleRowWriter =
     angles === null
       ? // A power column when the axis has 3 or 4 outputs, as replay writes it (the frames tell).
         await createResultWriter(out, { format: formatText as ResultFormat, every, power: 'auto', ...(stdout === undefined ? {} : { stdout }) })
@@ -331,7 +331,7 @@ async function run(argv: readonly string[]): Promise<number> {
     throw error;
   }
   const edgeLatch = createLiveEdgeLatch();
-  const rows = angles === null ? resultRows(writer as ResultWriter) : null;
+  const rows = angles === null ? resultRows(writer as ResultFileWriter) : null;
   let gapLines = 0;
   let started = false;
   let wasUp = false;

@@ -3,7 +3,6 @@
 // sees the same readings. The sinks' writes are awaited one at a time; while they are slow the source's chunks
 // wait in a queue of at most `maxBufferedBytes`, and past that the session stops, naming the output that stalled.
 
-import { Subject } from 'rxjs';
 import { alarmKinds, type AlarmKind } from '../../src/core/index.js';
 import {
   trackLink,
@@ -18,6 +17,7 @@ import {
   type TrackLinkOptions,
 } from '../../src/io/live/index.js';
 import type { ByteSource, ByteSourceEvent, LinkEvent } from '../../src/io/serial/index.js';
+import { createRelay, type Relay } from '../../src/stream/index.js';
 import { queueObservable } from './event-queue.js';
 
 /** Work a sink hands back from a reading: run after the reading's chunk, one at a time, awaited. */
@@ -107,12 +107,13 @@ export function createLiveSession(options: LiveSessionOptions): {
   /** Opens the source and runs. Aborting `signal` stops reading; chunks already received are processed within `stopGraceMs`. */
   start(signal?: AbortSignal): LiveSession;
 } {
-  const input = new Subject<ByteSourceEvent>();
+  // The chain's input, pushed by the loop below (a relay: rxjs's Subject allocated on every block).
+  const input = createRelay<ByteSourceEvent>();
   const axes = trackLink({ name: options.source.name, open: () => input }, options.track);
   return { axes, start: (signal) => run(options, axes, input, signal) };
 }
 
-function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSourceEvent>, signal: AbortSignal | undefined): LiveSession {
+function run(options: LiveSessionOptions, axes: LiveAxes, input: Relay<ByteSourceEvent>, signal: AbortSignal | undefined): LiveSession {
   const { sinks } = options;
   const stopGraceMs = options.stopGraceMs ?? 500;
   const progress: LiveProgress = {
@@ -131,7 +132,9 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
   const links: LinkEvent[] = [];
   const fits: LiveFit[] = [];
   const references: LiveReference[] = [];
-  const jobs: { sink: LiveSink; job: SinkJob }[] = [];
+  // Jobs waiting their turn, in order, beside their sinks (two arrays: no record a job).
+  const jobs: SinkJob[] = [];
+  const jobSinks: LiveSink[] = [];
   let chainEnded = false;
   let chainFailure: { error: unknown } | null = null;
   let durationReached = false;
@@ -140,9 +143,13 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
   const subscription = axes.readings$.subscribe({
     next(reading) {
       if (reading.kind === 'samples') {
-        for (const sink of sinks) {
-          const job = sink.samples?.(reading);
-          if (job) jobs.push({ sink, job });
+        // Indexed loops here and below: this runs for every block, and for-of left an iterator per loop.
+        for (let k = 0; k < sinks.length; k++) {
+          const job = sinks[k]!.samples?.(reading);
+          if (job) {
+            jobs.push(job);
+            jobSinks.push(sinks[k]!);
+          }
         }
         return;
       }
@@ -156,10 +163,14 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
           progress.flags = summary.flags;
         }
         progress.countLost = summary.countLost;
-        for (const event of summary.events) if (event.state === 'raised') progress.alarmsRaised[event.kind]++;
-        for (const sink of sinks) {
-          const job = sink.positions?.(reading);
-          if (job) jobs.push({ sink, job });
+        const { events } = summary;
+        for (let e = 0; e < events.length; e++) if (events[e]!.state === 'raised') progress.alarmsRaised[events[e]!.kind]++;
+        for (let k = 0; k < sinks.length; k++) {
+          const job = sinks[k]!.positions?.(reading);
+          if (job) {
+            jobs.push(job);
+            jobSinks.push(sinks[k]!);
+          }
         }
         return;
       }
@@ -231,6 +242,8 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
     let oversizeSeen = 0;
     // The chunks taken together are copied into this one: nothing in the chain keeps a chunk after its push.
     const joined = new Uint8Array(JOIN_BYTES);
+    // The view of the last joined length, kept: the same length comes again and again (whole chunks of one size).
+    let joinedView = joined.subarray(0, 0);
     /** `first` and the byte chunks waiting right behind it, as one chunk of at most JOIN_BYTES (`first` alone if longer). */
     const join = (first: Uint8Array): Uint8Array => {
       let next = queue.peek();
@@ -243,7 +256,8 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
         length += next.length;
         next = queue.peek();
       } while (next instanceof Uint8Array && length + next.length <= JOIN_BYTES);
-      return joined.subarray(0, length);
+      if (joinedView.length !== length) joinedView = joined.subarray(0, length);
+      return joinedView;
     };
     try {
       outer: for (;;) {
@@ -260,13 +274,15 @@ function run(options: LiveSessionOptions, axes: LiveAxes, input: Subject<ByteSou
           oversizeSeen = wire.oversizeHeaders;
           options.onOversizeFrames?.(wire);
         }
-        while (jobs.length > 0) {
-          const { sink, job } = jobs.shift()!;
-          if ((await untilInterrupted(job())) === 'interrupted') {
-            stalledSink = sink.name;
+        // Jobs added while one is awaited run in this turn too (the length is read again each time).
+        for (let k = 0; k < jobs.length; k++) {
+          if ((await untilInterrupted(jobs[k]!())) === 'interrupted') {
+            stalledSink = jobSinks[k]!.name;
             break outer;
           }
         }
+        jobs.length = 0;
+        jobSinks.length = 0;
         if (chainFailure !== null) throw (chainFailure as { error: unknown }).error;
         if (chainEnded) break;
       }

@@ -1,13 +1,14 @@
 // Listen's result rows: axis 0's positions of every block go to the result writer, which formats them during the
 // call; the arrays are reused for the next block right after, so nothing is copied and nothing is allocated per
-// block. The writing itself (when the writer's buffer is full) is the sink's job, awaited in turn.
+// block. The writing itself (when the writer's buffer is full) is the sink's job, awaited in turn; a block whose
+// rows only went into the buffer hands back no job, so the session has nothing to wait for.
 
-import type { ResultBlock, ResultWriter } from '../../src/io/results/index.js';
+import type { ResultBlock, ResultFileWriter } from '../../src/io/results/index.js';
 import type { LivePositions } from '../../src/io/live/index.js';
 import type { SinkJob } from './live-session.js';
 
 /** The `positions` handler of a live sink that writes axis 0's rows to `writer`. */
-export function resultRows(writer: ResultWriter): (positions: LivePositions) => SinkJob {
+export function resultRows(writer: ResultFileWriter): (positions: LivePositions) => SinkJob | void {
   const block: { -readonly [K in keyof ResultBlock]: ResultBlock[K] } = {
     firstIndex: 0,
     length: 0,
@@ -29,9 +30,17 @@ export function resultRows(writer: ResultWriter): (positions: LivePositions) => 
     block.level = output.level;
     block.flags = output.flags;
     block.power = output.power;
-    const written = writer.write(block);
+    let written: Promise<void> | undefined;
+    try {
+      written = writer.add(block);
+    } catch (error) {
+      // A bad block or a failed writer: the job hands the error to the session in its turn, as a write's would.
+      written = Promise.reject(error);
+    }
+    if (written === undefined) return;
     // Marked as handled here: the session may stop before it runs the job; the job still sees a failure.
     written.catch(() => undefined);
-    return () => written;
+    const job = written;
+    return () => job;
   };
 }

@@ -176,6 +176,10 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
   let layout = 0;
   let pendingGap = 0;
   let linkGapPending = false;
+  // Views of the buffer for the last two block lengths: a chunk holds n or n + 1 frames, so those alternate, and a
+  // view each block would be an allocation each block. Both are dropped when the buffer grows.
+  let view = buffer.subarray(0, 0);
+  let spareView = view;
   const block = {
     kind: 'samples' as const,
     samples: buffer.subarray(0, 0),
@@ -219,7 +223,12 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
   function flush(): void {
     if (length === 0) return;
     const n = length / channels;
-    block.samples = buffer.subarray(0, length);
+    if (view.length !== length) {
+      const spare = spareView;
+      spareView = view;
+      view = spare.length === length ? spare : buffer.subarray(0, length);
+    }
+    block.samples = view;
     block.channelCount = channels;
     block.axisOutputs = status.axisOutputs;
     block.samplesPerFrame = n;
@@ -287,6 +296,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
       const grown = new Int16Array(capacity);
       grown.set(buffer.subarray(0, length));
       buffer = grown;
+      view = spareView = buffer.subarray(0, 0);
     }
     appendEdges(decoded, status.nextSampleIndex + length / channels);
     // The decoder's view is the frame's values exactly (a new view only when the frame size changes).

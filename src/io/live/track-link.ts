@@ -7,6 +7,7 @@ import { createDetectorFit, integerInRange, OptionError, positiveFinite, type Ch
 import {
   createAxesRunner,
   createAxesView,
+  createRelay,
   type Axes,
   type AxesRunner,
   type AxesRunnerOptions,
@@ -261,6 +262,7 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
   // The running chain's output, for the re-references requested from outside it.
   let emit: ((reading: LiveReading) => void) | null = null;
 
+  // Shared through a relay (see the end), not rxjs's Subject: it hands each reading on without allocating.
   const readings$ = new Observable<LiveReading>((subscriber) => {
     let runner: AxesRunner | null = null;
     let rateHz = Number.NaN;
@@ -436,7 +438,7 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
       running = null;
       emit = null;
     };
-  }).pipe(share());
+  }).pipe(share({ connector: () => createRelay<LiveReading>() }));
 
   const summaries$ = readings$.pipe(
     filter((reading): reading is LivePositions => reading.kind === 'positions'),

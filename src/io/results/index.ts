@@ -6,6 +6,7 @@ export {
   RESULT_COLUMNS_WITH_POWER,
   RESULT_DECIMALS,
   type ResultBlock,
+  type ResultFileWriter,
   type ResultFormat,
   type ResultWriter,
   type ResultWriterOptions,

@@ -66,6 +66,16 @@ export interface ResultWriter {
   abort(): Promise<void>;
 }
 
+/** The writer `createResultWriter` opens (a file or standard output). */
+export interface ResultFileWriter extends ResultWriter {
+  /**
+   * As `write`, for a caller that waits only when it must (listen, once a block): the rows are formatted during the
+   * call as there, and a promise (settling when the bytes are out) comes back only when bytes went out; otherwise
+   * undefined, and nothing is allocated. A bad block or a closed or failed writer throws instead of rejecting.
+   */
+  add(block: ResultBlock): Promise<void> | undefined;
+}
+
 /** Bytes buffered before they are written; a block with more rows grows the buffer to hold them all. */
 const ENCODE_BUFFER_BYTES = 65_536;
 /** Room kept for one row: four numbers (toFixed gives at most ~45 chars below 1e21, more above), keys and all alarm names. */
@@ -76,9 +86,11 @@ const ALARM_CSV: readonly Buffer[] = Array.from({ length: 256 }, (_, flags) => B
 const ALARM_JSON: readonly Buffer[] = Array.from({ length: 256 }, (_, flags) => Buffer.from(`"alarms":${JSON.stringify(alarmText(flags))}}\n`, 'latin1'));
 const JSON_KEYS = ['{"t":', ',"position_m":', ',"velocity_m_s":', ',"level":', ',', ',"power":'].map((text) => Buffer.from(text, 'latin1'));
 const COMMA = 0x2c;
+/** What `write` returns when no bytes went out. */
+const SETTLED: Promise<void> = Promise.resolve();
 
 /** Opens `path` (`-` for standard output) for result rows; the header (CSV) is written with the first rows or at close. */
-export async function createResultWriter(path: string, options: ResultWriterOptions): Promise<ResultWriter> {
+export async function createResultWriter(path: string, options: ResultWriterOptions): Promise<ResultFileWriter> {
   const format = options.format;
   if (format !== 'csv' && format !== 'jsonl') throw new OptionError('format', '"csv" or "jsonl"', format);
   const every = integerInRange('every', options.every ?? 1, 1, 1_000_000_000);
@@ -151,66 +163,81 @@ export async function createResultWriter(path: string, options: ResultWriterOpti
     }
   }
 
+  function add(block: ResultBlock): Promise<void> | undefined {
+    checkUsable();
+    checkBlock(block);
+    try {
+      if (!headerWritten) writeHeader();
+      const { firstIndex, length, positionM, velocityMS, level, flags } = block;
+      const power = withPower ? block.power! : null;
+      const times = block.t ?? null;
+      const blockRateHz = block.rateHz ?? rateHz!;
+      // Rows are chosen on the absolute index, so the same rows come out however the stream is cut into blocks.
+      const firstRow = Math.ceil(firstIndex / every) * every - firstIndex;
+      for (let i = firstRow; i < length; i += every) {
+        if (used > buffer.length - MAX_ROW_BYTES) grow();
+        const t = times === null ? (firstIndex + i) / blockRateHz : times[i]!;
+        const flagByte = flags[i]!;
+        if (format === 'csv') {
+          used = writeNumber(buffer, used, t, RESULT_DECIMALS.t, format);
+          buffer[used++] = COMMA;
+          used = writeNumber(buffer, used, positionM[i]!, RESULT_DECIMALS.positionM, format);
+          buffer[used++] = COMMA;
+          used = writeNumber(buffer, used, velocityMS[i]!, RESULT_DECIMALS.velocityMS, format);
+          buffer[used++] = COMMA;
+          used = writeNumber(buffer, used, level[i]!, RESULT_DECIMALS.level, format);
+          buffer[used++] = COMMA;
+          if (power !== null) {
+            used = writeNumber(buffer, used, power[i]!, RESULT_DECIMALS.power, format);
+            buffer[used++] = COMMA;
+          }
+          const alarms = ALARM_CSV[flagByte]!;
+          buffer.set(alarms, used);
+          used += alarms.length;
+        } else {
+          used = copy(buffer, used, JSON_KEYS[0]!);
+          used = writeNumber(buffer, used, t, RESULT_DECIMALS.t, format);
+          used = copy(buffer, used, JSON_KEYS[1]!);
+          used = writeNumber(buffer, used, positionM[i]!, RESULT_DECIMALS.positionM, format);
+          used = copy(buffer, used, JSON_KEYS[2]!);
+          used = writeNumber(buffer, used, velocityMS[i]!, RESULT_DECIMALS.velocityMS, format);
+          used = copy(buffer, used, JSON_KEYS[3]!);
+          used = writeNumber(buffer, used, level[i]!, RESULT_DECIMALS.level, format);
+          if (power !== null) {
+            used = copy(buffer, used, JSON_KEYS[5]!);
+            used = writeNumber(buffer, used, power[i]!, RESULT_DECIMALS.power, format);
+          }
+          used = copy(buffer, used, JSON_KEYS[4]!);
+          used = copy(buffer, used, ALARM_JSON[flagByte]!);
+        }
+        rowsWritten++;
+      }
+      if (used < ENCODE_BUFFER_BYTES) return undefined;
+      return flush().then(undefined, fail);
+    } catch (error) {
+      fail(error);
+    }
+  }
+
+  /** A write that failed (formatting, or the bytes going out): the writer takes no further rows. */
+  function fail(error: unknown): never {
+    failed = true;
+    throw error;
+  }
+
   return {
     path,
     get rowsWritten() {
       return rowsWritten;
     },
-    async write(block) {
-      checkUsable();
-      checkBlock(block);
+    write(block) {
       try {
-        if (!headerWritten) writeHeader();
-        const { firstIndex, length, positionM, velocityMS, level, flags } = block;
-        const power = withPower ? block.power! : null;
-        const times = block.t ?? null;
-        const blockRateHz = block.rateHz ?? rateHz!;
-        // Rows are chosen on the absolute index, so the same rows come out however the stream is cut into blocks.
-        const firstRow = Math.ceil(firstIndex / every) * every - firstIndex;
-        for (let i = firstRow; i < length; i += every) {
-          if (used > buffer.length - MAX_ROW_BYTES) grow();
-          const t = times === null ? (firstIndex + i) / blockRateHz : times[i]!;
-          const flagByte = flags[i]!;
-          if (format === 'csv') {
-            used = writeNumber(buffer, used, t, RESULT_DECIMALS.t, format);
-            buffer[used++] = COMMA;
-            used = writeNumber(buffer, used, positionM[i]!, RESULT_DECIMALS.positionM, format);
-            buffer[used++] = COMMA;
-            used = writeNumber(buffer, used, velocityMS[i]!, RESULT_DECIMALS.velocityMS, format);
-            buffer[used++] = COMMA;
-            used = writeNumber(buffer, used, level[i]!, RESULT_DECIMALS.level, format);
-            buffer[used++] = COMMA;
-            if (power !== null) {
-              used = writeNumber(buffer, used, power[i]!, RESULT_DECIMALS.power, format);
-              buffer[used++] = COMMA;
-            }
-            const alarms = ALARM_CSV[flagByte]!;
-            buffer.set(alarms, used);
-            used += alarms.length;
-          } else {
-            used = copy(buffer, used, JSON_KEYS[0]!);
-            used = writeNumber(buffer, used, t, RESULT_DECIMALS.t, format);
-            used = copy(buffer, used, JSON_KEYS[1]!);
-            used = writeNumber(buffer, used, positionM[i]!, RESULT_DECIMALS.positionM, format);
-            used = copy(buffer, used, JSON_KEYS[2]!);
-            used = writeNumber(buffer, used, velocityMS[i]!, RESULT_DECIMALS.velocityMS, format);
-            used = copy(buffer, used, JSON_KEYS[3]!);
-            used = writeNumber(buffer, used, level[i]!, RESULT_DECIMALS.level, format);
-            if (power !== null) {
-              used = copy(buffer, used, JSON_KEYS[5]!);
-              used = writeNumber(buffer, used, power[i]!, RESULT_DECIMALS.power, format);
-            }
-            used = copy(buffer, used, JSON_KEYS[4]!);
-            used = copy(buffer, used, ALARM_JSON[flagByte]!);
-          }
-          rowsWritten++;
-        }
-        if (used >= ENCODE_BUFFER_BYTES) await flush();
+        return add(block) ?? SETTLED;
       } catch (error) {
-        failed = true;
-        throw error;
+        return Promise.reject(error);
       }
     },
+    add,
     async close() {
       checkUsable();
       try {

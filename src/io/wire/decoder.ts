@@ -183,9 +183,11 @@ export function createWireDecoderWith(options: WireDecoderOptions, crcKernel: (b
     edgeLine: new Uint8Array(WIRE_MAX_EDGES_PER_FRAME),
     edgeRising: new Uint8Array(WIRE_MAX_EDGES_PER_FRAME),
   };
-  // The last frames' sequence numbers and CRCs, for the duplicate check (a ring, newest at recentAt − 1).
+  // The last frames' sequence numbers and CRCs, for the duplicate check (a ring, newest at recentAt − 1). The CRCs
+  // as int32 (the same 32 bits): half of all CRCs lie beyond the small integers, and a number there passed on
+  // cost a heap number per frame.
   const recentSequence = new Int32Array(RECENT_FRAMES);
-  const recentCrc = new Uint32Array(RECENT_FRAMES);
+  const recentCrc = new Int32Array(RECENT_FRAMES);
   let recentAt = 0;
 
   let filled = 0;
@@ -246,7 +248,7 @@ export function createWireDecoderWith(options: WireDecoderOptions, crcKernel: (b
     return false;
   }
 
-  /** Checks the frame's counters against the expectation; false when the frame is a repeat to drop. */
+  /** Checks the frame's counters against the expectation; false when the frame is a repeat to drop. `crc` as int32. */
   function checkSequence(sequence: number, counter: number, samplesPerFrame: number, crc: number): boolean {
     const counterJump = expectedCounter >= 0 && counter === counter ? (counter - expectedCounter + WIRE_SAMPLE_COUNTER_MODULUS) % WIRE_SAMPLE_COUNTER_MODULUS : -1;
     // The sample counter, when this frame and the one before carry it, decides alone: it counts exactly even
@@ -318,7 +320,7 @@ export function createWireDecoderWith(options: WireDecoderOptions, crcKernel: (b
       channelLayout = readU32(bytes, at);
       at += 4;
     }
-    if (!checkSequence(sequence, sampleCounter, samplesPerFrame, readU32(bytes, p + length - WIRE_CRC_BYTES))) return false;
+    if (!checkSequence(sequence, sampleCounter, samplesPerFrame, readU32(bytes, p + length - WIRE_CRC_BYTES) | 0)) return false;
 
     const valueCount = channels * samplesPerFrame;
     if (LITTLE_ENDIAN_HOST) {
