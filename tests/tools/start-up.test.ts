@@ -43,7 +43,7 @@ describe('start-up', () => {
       simulate: [],
       calibrate: [],
       replay: [],
-      listen: ['mqtt', 'rxjs', 'serialport', 'ws'],
+      listen: ['rxjs', 'serialport'],
       emulate: ['rxjs', 'serialport'],
       air: [],
       spectrum: D3,

@@ -256,7 +256,7 @@ async function run(argv: readonly string[]): Promise<number> {
           ...(harmonics === undefined ? {} : { harmonics }),
         };
   const environmentLog = values['environment-topic'] === undefined ? await openEnvironmentLog(values, lengthScale, environment, notes) : null;
-  const environmentTopic = openEnvironmentTopic(values, lengthScale, environment, feedSettings?.mqtt ?? null, notes);
+  const environmentTopic = await openEnvironmentTopic(values, lengthScale, environment, feedSettings?.mqtt ?? null, notes);
   const changingAir = environmentLog ?? environmentTopic;
   const maxBufferedBytes = integerOption('input-buffer-mib', values['input-buffer-mib'], DEFAULT_INPUT_BUFFER_MIB, 1, 4096) * 2 ** 20;
   const source = createSerialByteSource({ path: port, baudRate, retryDelayMs, maxRetriesBeforeFirstOpen: openRetries });

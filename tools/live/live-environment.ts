@@ -6,7 +6,7 @@ import type { Observable, Subscription } from 'rxjs';
 import type { EnvironmentSchedule } from '../../src/core/index.js';
 import { readEnvironmentLog } from '../../src/io/capture/index.js';
 import { followEnvironmentLog } from '../../src/io/live/index.js';
-import { followEnvironmentTopic, type MqttConnectionOptions, type MqttLinkHealth } from '../../src/io/feed/index.js';
+import type { MqttConnectionOptions, MqttLinkHealth } from '../../src/io/feed/index.js';
 import { UsageError } from '../cli-kit.js';
 import { environmentLogIndex, equationOf, type Environment } from '../environment-options.js';
 import { mqttEventLine } from './live-feed.js';
@@ -106,15 +106,16 @@ export interface LiveEnvironmentTopic {
 
 /**
  * `--environment-topic TOPIC` on the broker of --mqtt (its URL, credentials and TLS): the fixed air conditions are
- * the reading until the first message; null without the option. Checked before the port opens.
+ * the reading until the first message; null without the option. Checked before the port opens. The MQTT client
+ * is loaded only here: a listen without the option does not load the mqtt package.
  */
-export function openEnvironmentTopic(
+export async function openEnvironmentTopic(
   values: Record<string, unknown>,
   lengthScale: { readonly wavelengthM: number },
   environment: Environment,
   mqtt: MqttConnectionOptions | null,
   notes: string[],
-): LiveEnvironmentTopic | null {
+): Promise<LiveEnvironmentTopic | null> {
   const topic = values['environment-topic'] as string | undefined;
   if (topic === undefined) return null;
   if (values['environment-log'] !== undefined) throw new UsageError('give either --environment-log or --environment-topic, not both');
@@ -124,6 +125,7 @@ export function openEnvironmentTopic(
     throw new UsageError('--environment-topic needs the starting air conditions, in force until the first reading: --temperature-c, --pressure-pa and --humidity-pct');
   }
   const equation = equationOf(values);
+  const { followEnvironmentTopic } = await import('../../src/io/feed/environment-topic.js');
   const url = mqtt.url!;
   let schedule: EnvironmentSchedule | null = null;
   let readings = 0;

@@ -1,22 +1,20 @@
 // The network side of `fringetally listen`: the WebSocket feed with its live page (--serve) and the MQTT publisher
 // (--mqtt), both subscribed to the session's own axes (the chain the rows come from).
 import { readFileSync } from 'node:fs';
-import {
-  createMqttPublisher,
-  DEFAULT_MQTT_TOPIC_PREFIX,
-  DEFAULT_MQTT_UPDATE_HZ,
-  DEFAULT_MQTT_URL,
-  isLoopbackHost,
-  startFeedServer,
-  type FeedServer,
-  type MqttPublisher,
-  type MqttPublisherEvent,
-  type MqttPublisherHealth,
-  type MqttPublisherOptions,
-  type ReferenceOutcome,
-  type ReferenceRequest,
+// The server and the publisher are loaded by openLiveFeed when asked for: a listen without --serve or --mqtt does
+// not load the ws and mqtt packages.
+import { isLoopbackHost } from '../../src/io/feed/access.js';
+import { DEFAULT_MQTT_TOPIC_PREFIX, DEFAULT_MQTT_UPDATE_HZ, DEFAULT_MQTT_URL } from '../../src/io/feed/mqtt-defaults.js';
+import type {
+  FeedServer,
+  FeedSource,
+  MqttPublisher,
+  MqttPublisherEvent,
+  MqttPublisherHealth,
+  MqttPublisherOptions,
+  ReferenceOutcome,
+  ReferenceRequest,
 } from '../../src/io/feed/index.js';
-import type { FeedSource } from '../../src/io/feed/index.js';
 import type { Axes } from '../../src/stream/index.js';
 import { numberOption, UsageError } from '../cli-kit.js';
 
@@ -169,12 +167,15 @@ export async function openLiveFeed(
   /** Re-reference commands that carry the token (refused without one); see docs/feed.md. */
   onReference: (request: ReferenceRequest) => ReferenceOutcome,
 ): Promise<LiveFeed> {
-  const server: FeedServer | null = feedSettings.serve === null
-    ? null
-    : await startFeedServer({ ...feedSettings.serve, onReference, onSourceError: (error) => onError(error instanceof Error ? error : new Error(String(error))) });
+  let server: FeedServer | null = null;
+  if (feedSettings.serve !== null) {
+    const { startFeedServer } = await import('../../src/io/feed/feed-server.js');
+    server = await startFeedServer({ ...feedSettings.serve, onReference, onSourceError: (error) => onError(error instanceof Error ? error : new Error(String(error))) });
+  }
   let publisher: MqttPublisher | null = null;
   if (feedSettings.mqtt !== null) {
     const url = feedSettings.mqtt.url ?? DEFAULT_MQTT_URL;
+    const { createMqttPublisher } = await import('../../src/io/feed/mqtt-publisher.js');
     publisher = createMqttPublisher({ ...feedSettings.mqtt, onReference, onEvent: (event) => log(mqttEventLine(url, event)) });
   }
   return {

@@ -32,8 +32,6 @@ export {
 } from './messages.js';
 export {
   createMqttPublisher,
-  DEFAULT_MQTT_TOPIC_PREFIX,
-  DEFAULT_MQTT_UPDATE_HZ,
   startMqttPublisher,
   type MqttAxisMessage,
   type MqttGeometryMessage,
@@ -43,7 +41,8 @@ export {
   type MqttPublisherOptions,
   type MqttStatusMessage,
 } from './mqtt-publisher.js';
-export { DEFAULT_MQTT_URL, type MqttConnectionOptions, type MqttLinkEvent, type MqttLinkHealth, type MqttTlsOptions } from './mqtt-link.js';
+export { DEFAULT_MQTT_TOPIC_PREFIX, DEFAULT_MQTT_UPDATE_HZ, DEFAULT_MQTT_URL } from './mqtt-defaults.js';
+export { type MqttConnectionOptions, type MqttLinkEvent, type MqttLinkHealth, type MqttTlsOptions } from './mqtt-link.js';
 export {
   followEnvironmentTopic,
   parseEnvironmentMessage,

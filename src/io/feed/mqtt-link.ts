@@ -7,6 +7,7 @@ import { randomBytes } from 'node:crypto';
 import { performance } from 'node:perf_hooks';
 import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
 import { integerInRange, OptionError } from '../../core/index.js';
+import { DEFAULT_MQTT_URL } from './mqtt-defaults.js';
 
 export interface MqttTlsOptions {
   /** CA certificate(s), PEM, for a broker with a private CA. Default: the system's CAs. */
@@ -36,8 +37,6 @@ export interface MqttConnectionOptions {
   /** During an outage, `still-down` is reported at most once per this many ms. Default 60000; 1..86400000. */
   readonly reportIntervalMs?: number;
 }
-
-export const DEFAULT_MQTT_URL = 'mqtt://127.0.0.1:1883';
 
 /** What a link tells its owner: the broker came (back), went away, or is still away. */
 export type MqttLinkEvent =

@@ -7,7 +7,8 @@
 import type { Subscription } from 'rxjs';
 import { OptionError, positiveFinite } from '../../core/index.js';
 import type { FeedSource } from './feed-server.js';
-import { DEFAULT_MQTT_URL, openMqttLink, resolveMqttConnection, warnMqttEvents, type MqttConnectionOptions, type MqttLinkEvent, type MqttLinkHealth } from './mqtt-link.js';
+import { DEFAULT_MQTT_TOPIC_PREFIX, DEFAULT_MQTT_UPDATE_HZ, DEFAULT_MQTT_URL } from './mqtt-defaults.js';
+import { openMqttLink, resolveMqttConnection, warnMqttEvents, type MqttConnectionOptions, type MqttLinkEvent, type MqttLinkHealth } from './mqtt-link.js';
 import { createUpdateGeometry, type UpdateGeometry } from '../../stream/index.js';
 import {
   FEED_SCHEMA,
@@ -106,11 +107,6 @@ export interface MqttStatusMessage extends FeedTimeBase {
   /** As in the feed's status: detector outputs of each axis, or null. */
   readonly detectorOutputs: readonly number[] | null;
 }
-
-/** Topic prefix when none is given. */
-export const DEFAULT_MQTT_TOPIC_PREFIX = 'fringetally';
-/** Updates per second per axis when no rate is given. */
-export const DEFAULT_MQTT_UPDATE_HZ = 10;
 
 /** Largest command payload read, bytes (as the WebSocket feed's default message limit). */
 const MAX_COMMAND_BYTES = 1024;
