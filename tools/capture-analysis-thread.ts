@@ -22,11 +22,17 @@ import {
  */
 const RING_SLOTS = 64;
 /**
- * A waiting worker is woken once this many blocks wait for it, and a waiting pipeline once this many slots are
- * free, not for each: a wake-up is a system call and a thread switch, which cost as much as copying a block's
- * samples, more on a busy machine.
+ * A waiting pipeline is woken once this many slots are free, not for each: a wake-up is a system call and a thread
+ * switch, which cost as much as copying a block's samples, more on a busy machine.
  */
 const WAKE_BATCH = 16;
+/**
+ * A worker that has caught up looks again after this long (ms) by itself: the pipeline's side wakes it only when
+ * the ring is nearly full, or at the end. A wake-up sent from the pipeline's thread cost it about a millisecond
+ * each on a busy machine (the woken worker took its core), 0.3 s of a 3·10⁷-sample replay; the pipeline fills
+ * WAKE_BATCH slots in about that time, so the worker finds a batch waiting.
+ */
+const WORKER_POLL_MS = 1;
 // Control words: blocks handed over, blocks analysed, finish asked, whether the worker is (about to be) waiting,
 // and the count of blocks analysed the pipeline's side waits for (0: not waiting): a wake-up is sent only then,
 // not for every block.
@@ -100,7 +106,7 @@ export function blockInSlot(slot: RingSlot): AnalysedBlock {
 
 export { analysisThreadAvailable } from './analysis-worker-start.js';
 
-export const WORKER_CONTROL = { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING } as const;
+export const WORKER_CONTROL = { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING, WORKER_POLL_MS } as const;
 
 /**
  * The pipeline's side of the analyses: the ring to the worker (startAnalysisThread), or the same calls on this
@@ -204,9 +210,9 @@ export function startAnalysisThread(config: AnalysisConfig): AnalysisThread {
   function handOver(): void {
     written++;
     Atomics.store(control, WRITTEN, written);
-    // One wake-up a sleep: the flag is taken down here, so the blocks handed over before the worker is up again do
-    // not each make a system call (and, on a busy machine, each give the worker this thread's core).
-    if (written - Atomics.load(control, READ) >= WAKE_BATCH && Atomics.compareExchange(control, WORKER_WAITING, 1, 0) === 1) Atomics.notify(control, WRITTEN);
+    // Only a nearly full ring wakes the worker (it looks by itself every WORKER_POLL_MS), once a sleep: the flag is
+    // taken down here.
+    if (written - Atomics.load(control, READ) >= RING_SLOTS - WAKE_BATCH && Atomics.compareExchange(control, WORKER_WAITING, 1, 0) === 1) Atomics.notify(control, WRITTEN);
   }
 
   return {

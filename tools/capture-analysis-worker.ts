@@ -6,7 +6,7 @@ import { createCaptureAnalyses, type AnalysisConfig } from './capture-analyses.j
 import { blockInSlot, ringOf, SUMMARY_LANES_AT, WORKER_CONTROL } from './capture-analysis-thread.js';
 import { createSharedBlockSummary } from '../src/accel/axis-kernels.js';
 
-const { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING } = WORKER_CONTROL;
+const { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING, WORKER_POLL_MS } = WORKER_CONTROL;
 // The run comes as the first message: the worker may have been started ahead of it (prepareAnalysisThread).
 type Run = { config: AnalysisConfig; buffer: SharedArrayBuffer; memory: WebAssembly.Memory | null };
 const { config, buffer, memory } = await new Promise<Run>((resolve) => parentPort!.once('message', resolve));
@@ -28,11 +28,12 @@ try {
       if (awaited !== 0 && read >= awaited) Atomics.notify(control, READ);
       continue;
     }
-    // Every block handed over is done: finished if asked, else wait for the next (the timeout only re-checks).
+    // Every block handed over is done: finished if asked, else wait for the next. The pipeline's side wakes this
+    // thread only at the end or when its ring is nearly full: it looks again by itself after WORKER_POLL_MS.
     if (Atomics.load(control, FINISH) === 1 && Atomics.load(control, WRITTEN) === read) break;
     // The flag first, then the count again, so a block handed over in between is not slept through.
     Atomics.store(control, WORKER_WAITING, 1);
-    if (Atomics.load(control, WRITTEN) === written) Atomics.wait(control, WRITTEN, written, 100);
+    if (Atomics.load(control, WRITTEN) === written) Atomics.wait(control, WRITTEN, written, WORKER_POLL_MS);
     Atomics.store(control, WORKER_WAITING, 0);
   }
   parentPort!.postMessage({ results: analyses.finish() });
