@@ -78,7 +78,9 @@ export function checkFrameBlock(block: FrameBlock): void {
     }
   } else {
     let sum = 0;
-    for (const outputs of axisOutputs) {
+    // Indexed: a live link's blocks all carry a layout, and for-of left an iterator per block.
+    for (let a = 0; a < axisOutputs.length; a++) {
+      const outputs = axisOutputs[a]!;
       if (!(Number.isInteger(outputs) && outputs >= 2 && outputs <= 4)) throw new OptionError('block.axisOutputs', 'outputs per axis, each an integer in 2..4', axisOutputs);
       sum += outputs;
     }

@@ -31,8 +31,11 @@ export function queueObservable<T>(observable: Observable<T>, options: EventQueu
   const maxSize = options.maxSize ?? Number.POSITIVE_INFINITY;
   const sizeOf = options.sizeOf ?? (() => 1);
   let size = 0;
-  let items: T[] = [];
+  // A ring of the waiting values, its length a power of two: it doubles when full and never shrinks, so taking
+  // and adding values allocates nothing once it has grown to the most that waited (listen takes a value per block).
+  let ring: (T | undefined)[] = new Array<T | undefined>(16).fill(undefined);
   let head = 0;
+  let count = 0;
   let ended = false;
   let failure: { error: unknown } | null = null;
   let waiting: { resolve: (value: T | null) => void; reject: (error: unknown) => void } | null = null;
@@ -41,7 +44,7 @@ export function queueObservable<T>(observable: Observable<T>, options: EventQueu
   function wake(): void {
     if (waiting === null) return;
     const waiter = waiting;
-    if (head < items.length) {
+    if (count > 0) {
       waiting = null;
       waiter.resolve(take());
     } else if (failure !== null) {
@@ -54,16 +57,24 @@ export function queueObservable<T>(observable: Observable<T>, options: EventQueu
   }
 
   function take(): T {
-    const item = items[head]!;
-    // Drop the queue's reference now: a taken chunk kept until the next compaction held up to 1024 chunks.
-    (items as (T | undefined)[])[head++] = undefined;
+    const item = ring[head]!;
+    // Drop the queue's reference now: a chunk taken must not stay in memory until its slot is used again.
+    ring[head] = undefined;
+    head = (head + 1) & (ring.length - 1);
+    count--;
     size -= sizeOf(item);
-    // Compact now and then instead of shifting on every take.
-    if (head > 1024 && head * 2 > items.length) {
-      items = items.slice(head);
+    return item;
+  }
+
+  function add(item: T): void {
+    if (count === ring.length) {
+      const grown = new Array<T | undefined>(2 * ring.length).fill(undefined);
+      for (let i = 0; i < count; i++) grown[i] = ring[(head + i) & (ring.length - 1)];
+      ring = grown;
       head = 0;
     }
-    return item;
+    ring[(head + count) & (ring.length - 1)] = item;
+    count++;
   }
 
   function stop(): void {
@@ -83,7 +94,7 @@ export function queueObservable<T>(observable: Observable<T>, options: EventQueu
         return;
       }
       size += valueSize;
-      items.push(value);
+      add(value);
       wake();
     },
     error(error) {
@@ -99,7 +110,7 @@ export function queueObservable<T>(observable: Observable<T>, options: EventQueu
 
   return {
     next() {
-      if (head < items.length) return Promise.resolve(take());
+      if (count > 0) return Promise.resolve(take());
       if (failure !== null) return Promise.reject(failure.error);
       if (ended) return Promise.resolve(null);
       return new Promise<T | null>((resolve, reject) => {
@@ -107,14 +118,14 @@ export function queueObservable<T>(observable: Observable<T>, options: EventQueu
       });
     },
     poll() {
-      return head < items.length ? take() : undefined;
+      return count > 0 ? take() : undefined;
     },
     peek() {
-      return head < items.length ? items[head] : undefined;
+      return count > 0 ? ring[head] : undefined;
     },
     stop,
     get length() {
-      return items.length - head;
+      return count;
     },
     get size() {
       return size;

@@ -195,7 +195,9 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
     edgeRising: new Uint8Array(16),
   };
 
-  function establishRate(frameRateHz: number): void {
+  /** The rate from the frame's field (NaN when it has none) or the option. Takes the block: a number passed on cost a heap number a frame. */
+  function establishRate(decoded: SampleBlock): void {
+    const frameRateHz = decoded.sampleRateHz;
     const known = status.rateSource !== null;
     if (frameRateHz === frameRateHz) {
       if (known && frameRateHz !== status.rateHz) {
@@ -275,7 +277,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
   }
 
   function onSamples(decoded: SampleBlock): void {
-    establishRate(decoded.sampleRateHz);
+    establishRate(decoded);
     if (linkGapPending) {
       // The outage lost bytes but the counter shows no jump (or text has none): at least one sample is gone.
       linkGapPending = false;

@@ -355,7 +355,8 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
     }
 
     function take(block: LinkBlock): void {
-      rateHz = block.rateHz;
+      // Written only when it changes: a double stored in a closure's variable costs a heap number each time.
+      if (rateHz !== block.rateHz) rateHz = block.rateHz;
       subscriber.next(block);
       if (runner === null && holding) {
         held.add(block);
