@@ -34,6 +34,19 @@ function packagesLoadedBy(module: string): string[] {
   return JSON.parse(child.stdout) as string[];
 }
 
+/** Packages the bundle leaves to Node (scripts/bundle-cli.mjs EXTERNAL): seen as such bundled or not. */
+const EXTERNAL = ['cli-progress', 'mqtt', 'serialport', 'ws'];
+
+/** The external packages the tool resolves for `fringetally <command> --help`, through its real entry point. */
+function externalPackagesOfHelp(command: string): string[] {
+  const hook = "import { writeSync } from 'node:fs'; export async function resolve(specifier, context, next) { const result = await next(specifier, context); writeSync(2, 'resolved ' + result.url + '\\n'); return result; }";
+  const preload = `import { register } from 'node:module'; register(${JSON.stringify(`data:text/javascript,${encodeURIComponent(hook)}`)});`;
+  const child = spawnSync(process.execPath, ['--import', `data:text/javascript,${encodeURIComponent(preload)}`, 'dist/tools/fringetally.js', command, '--help'], { encoding: 'utf8' });
+  expect(child.status).toBe(0);
+  const names = [...child.stderr.matchAll(/^resolved .*\/node_modules\/((?:@[^/]+\/)?[^/]+)\//gm)].map((match) => match[1]!);
+  return [...new Set(names)].filter((name) => EXTERNAL.includes(name)).sort();
+}
+
 const D3 = ['d3-array', 'd3-color', 'd3-format', 'd3-interpolate', 'd3-scale', 'd3-time', 'd3-time-format'];
 
 describe('start-up', () => {
@@ -56,6 +69,12 @@ describe('start-up', () => {
     // The entry and its command list load no package before the command is chosen.
     expect(packagesLoadedBy('dist/tools/commands/index.js')).toEqual([]);
     expect(packagesLoadedBy('dist/tools/cli-kit.js')).toEqual([]);
+  }, 120_000);
+
+  // The same through the tool's entry, bundled or not: a shared chunk must not bring a package to a command.
+  it('the tool resolves for a command only the packages that command uses', () => {
+    const loaded = Object.fromEntries(['replay', 'calibrate', 'listen', 'emulate', 'air'].map((command) => [command, externalPackagesOfHelp(command)]));
+    expect(loaded).toEqual({ replay: [], calibrate: [], listen: ['serialport'], emulate: ['serialport'], air: [] });
   }, 120_000);
 
   const dir = mkdtempSync(join(tmpdir(), 'fringetally-start-up-'));
