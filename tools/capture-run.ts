@@ -330,6 +330,18 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
   const analyses = startAnalyses(config, options.analysisThread, total);
   let results: AnalysisResults;
   progress.start(`analyse ${path} (one block in ${schedule.every})`, total);
+  // Each analysed block is read as a part of its own, after SETTLE_SAMPLES; the next part opens while this one
+  // runs (opening takes a few file-system calls, each a round trip to the thread pool, about a millisecond a part).
+  const taken: number[] = [];
+  for (let b = 0; b < blocks; b++) if (schedule.take(b)) taken.push(b);
+  const openPart = (b: number): Promise<Awaited<ReturnType<typeof openCapture>>> => {
+    const first = b * CAPTURE_BLOCK_SAMPLES;
+    const settle = Math.min(first, SETTLE_SAMPLES);
+    const opening = openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES, startSample: first - settle, sampleCount: settle + Math.min(CAPTURE_BLOCK_SAMPLES, total - first) });
+    opening.catch(() => undefined); // a failure is thrown where the part is awaited
+    return opening;
+  };
+  let ahead = taken.length > 0 ? openPart(taken[0]!) : null;
   try {
     // Blocks left out pass as one length each run of them (skip(a) then skip(b) is skip(a + b)).
     let skipped = 0;
@@ -339,16 +351,18 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
       analyses.skip(skipped);
       skipped = 0;
     };
+    let next = 0;
     for (let b = 0; b < blocks; b++) {
       const first = b * CAPTURE_BLOCK_SAMPLES;
       const n = Math.min(CAPTURE_BLOCK_SAMPLES, total - first);
-      if (!schedule.take(b)) {
+      if (b !== taken[next]) {
         skipped += n;
         continue;
       }
       await passSkipped();
-      const settle = Math.min(first, SETTLE_SAMPLES);
-      const part = await openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES, startSample: first - settle, sampleCount: settle + n });
+      const part = await ahead!;
+      next++;
+      ahead = next < taken.length ? openPart(taken[next]!) : null;
       pipeline.reset();
       let analysed = false;
       for await (const block of part.blocks()) {
@@ -369,6 +383,8 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
     results = await analyses.finish();
   } catch (error) {
     await analyses.terminate();
+    // A part opened ahead and not read: closed.
+    await ahead?.then((part) => part.close(), () => undefined);
     throw error;
   } finally {
     progress.stop();
