@@ -3,7 +3,7 @@
 // the capture is simulate's invented scenario with a beam interruption and an overspeed.
 // analyseCapture is imported from the compiled tools, as the command runs it.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { mkdtempSync, rmSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
@@ -56,6 +56,18 @@ describe('analyseCapture', () => {
     const threaded = await run.analyseCapture(join(dir, 'two.wav'), { ...options, analysisThread: true });
     expect(inline.analysedEvery).toBeGreaterThan(1);
     expect(threaded).toEqual(inline);
+  });
+
+  it('names the file and the byte where a part it reads ends early, with the analyses on a worker thread', async () => {
+    // The data chunk declares twice the samples the file holds: the parts in the second half cannot be read.
+    const bytes = readFileSync(join(dir, 'two.wav'));
+    const at = bytes.indexOf('data', 12, 'latin1');
+    bytes.writeUInt32LE(2 * bytes.readUInt32LE(at + 4), at + 4);
+    const path = join(dir, 'short.wav');
+    writeFileSync(path, bytes);
+    const calibration = { offsetX: 800, offsetY: -500, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 };
+    const options = { open: {}, calibration, settings, progress: createProgress(true), analysisBudgetSamples: 2 * 4096, analysisThread: true };
+    await expect(run.analyseCapture(path, options)).rejects.toThrow(/short\.wav.*byte \d+/s);
   });
 
   it('runs the whole capture when every block is analysed', async () => {
