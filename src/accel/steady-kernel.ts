@@ -11,6 +11,17 @@ import { instantiate } from './wasm.js';
 
 export interface WasmSteadyKernel extends FrontEnd, SteadyKernel {}
 
+/** Views of the kernel's regions, `length` samples long. */
+interface BlockViews {
+  readonly length: number;
+  readonly level: Float32Array;
+  readonly turns: Float64Array;
+  readonly step: Float64Array;
+  readonly position: Float64Array;
+  readonly velocity: Float64Array;
+  readonly unwrapped: Float64Array;
+}
+
 export interface WasmSteadyKernelOptions {
   /** Samples per block to reserve memory for at once; it grows to the largest block seen. Default 4096. */
   readonly capacity?: number;
@@ -68,14 +79,11 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
   let positions = xsWide;
   let velocities = xsWide;
   let unwrappedAll = xsWide;
-  // Views of exactly the last block's length, for the copies out; remade only when the length changes.
-  let viewLength = -1;
-  let levelView = levels;
-  let turnsView = xsWide;
-  let stepView = xsWide;
-  let positionView = xsWide;
-  let velocityView = xsWide;
-  let unwrappedView = xsWide;
+  // Views of exactly a block's length, for the copies out: those of the last two lengths are kept, as a live feed's
+  // blocks often alternate between two (new views every block were most of what a block allocated there).
+  const noViews = (): BlockViews => ({ length: -1, level: levels, turns: xsWide, step: xsWide, position: xsWide, velocity: xsWide, unwrapped: xsWide });
+  let current = noViews();
+  let previous = current;
 
   function reserve(samples: number): void {
     capacity = Math.ceil(samples / 8) * 8;
@@ -97,19 +105,28 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
     positions = new Float64Array(buffer, at[6]!, capacity);
     velocities = new Float64Array(buffer, at[7]!, capacity);
     unwrappedAll = new Float64Array(buffer, at[8]!, capacity);
-    viewLength = -1;
+    current = previous = noViews();
   }
   reserve(options.capacity ?? 4096);
 
-  function views(length: number): void {
-    if (viewLength === length) return;
-    viewLength = length;
-    levelView = levels.subarray(0, length);
-    turnsView = turnsAll.subarray(0, length);
-    stepView = stepsAll.subarray(0, length);
-    positionView = positions.subarray(0, length);
-    velocityView = velocities.subarray(0, length);
-    unwrappedView = unwrappedAll.subarray(0, length);
+  function views(length: number): BlockViews {
+    if (current.length !== length) {
+      const made =
+        previous.length === length
+          ? previous
+          : {
+              length,
+              level: levels.subarray(0, length),
+              turns: turnsAll.subarray(0, length),
+              step: stepsAll.subarray(0, length),
+              position: positions.subarray(0, length),
+              velocity: velocities.subarray(0, length),
+              unwrapped: unwrappedAll.subarray(0, length),
+            };
+      previous = current;
+      current = made;
+    }
+    return current;
   }
 
   // The last front-end pass: its block, and whether what it ran of the tracker and the displacement may be used.
@@ -173,8 +190,7 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
     passLevel = level;
     passTracked = (result & 2) !== 0;
     passFresh = true;
-    views(length);
-    level.set(levelView);
+    level.set(views(length).level);
     return phases;
   }
 
@@ -214,9 +230,9 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
       steady = kernel.track(length, at[2]!, at[3]!, at[4]!, at[5]!) === 1;
     }
     if (!steady) return false;
-    views(length);
-    turnsOut.set(turnsView);
-    stepOut.set(stepView);
+    const view = views(length);
+    turnsOut.set(view.turns);
+    stepOut.set(view.step);
     loop[0] = p[AFTER + 2]!;
     loop[1] = p[AFTER + 3]!;
     loop[2] = p[AFTER + 4]!;
@@ -263,13 +279,13 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
       p[REFERENCE + 4] = perStep;
       kernel.place(length, at[4]!, at[3]!, at[5]!, at[6]!, at[7]!);
     }
-    views(length);
-    positionM.set(positionView);
-    velocityMS.set(velocityView);
+    const view = views(length);
+    positionM.set(view.position);
+    velocityMS.set(view.velocity);
     if (unwrappedPhaseRad) {
       // The turns and phase regions hold this block's now, whichever way it came.
       kernel.unwrap(length, at[4]!, at[3]!, at[8]!);
-      unwrappedPhaseRad.set(unwrappedView);
+      unwrappedPhaseRad.set(view.unwrapped);
     }
     assumed[REFERENCE] = refTurns;
     assumed[REFERENCE + 1] = refPhase;
