@@ -128,6 +128,32 @@ describe('version 2 sample counter', () => {
     expect(decoder.counters.framesGood).toBe(4);
   });
 
+  // A run of minutes at MHz rates: indices and counters beyond 2^31 (doubles, no longer small integers in the engine).
+  it('counts exactly past 2^31 samples and with counters beyond 2^31, repeats and the 2^32 wrap included', () => {
+    const { decoder, frames, gaps } = collectingDecoder();
+    decoder.push(
+      concat([frame(0, 0, 8), frame(1, 1.5e9, 8), frame(2, 3e9, 8), frame(3, 3e9 + 8, 8), frame(3, 3e9 + 8, 8), frame(5, 3e9 + 24, 8), frame(6, 2 ** 32 - 8, 8), frame(7, 0, 8)]),
+    );
+    expect(gaps.map((gap) => [gap.sampleIndex, gap.lostSamples])).toEqual([
+      [1.5e9, 1.5e9 - 8],
+      [3e9, 1.5e9 - 8],
+      [3e9 + 24, 8],
+      [2 ** 32 - 8, 2 ** 32 - 8 - (3e9 + 32)],
+    ]);
+    // The index of each frame's first sample is the device's count of it, as nothing but counted losses happened.
+    expect(frames.map((f) => [f.sampleIndex, f.sampleCounter])).toEqual([
+      [0, 0],
+      [1.5e9, 1.5e9],
+      [3e9, 3e9],
+      [3e9 + 8, 3e9 + 8],
+      [3e9 + 24, 3e9 + 24],
+      [2 ** 32 - 8, 2 ** 32 - 8],
+      [2 ** 32, 0],
+    ]);
+    // The four gaps: 2 · (1.5e9 − 8) + 8 + (2^32 − 8 − (3e9 + 32)).
+    expect(decoder.counters).toMatchObject({ duplicates: 1, gaps: 4, lostSamples: 2 ** 32 - 48 });
+  });
+
   it('drops a repeated frame whose counter repeats too', () => {
     const { decoder, frames } = collectingDecoder();
     decoder.push(concat([frame(0, 0, 8), frame(1, 8, 8), frame(1, 8, 8), frame(2, 16, 8)]));

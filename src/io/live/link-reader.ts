@@ -246,9 +246,13 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
   }
 
   /** Appends the decoded block's edges, in absolute sample time (its first sample will be at `firstIndex`). */
-  function appendEdges(decoded: SampleBlock, firstIndex: number): void {
+  /** The frame's edges, its first sample `offset` samples into the block. */
+  function appendEdges(decoded: SampleBlock, offset: number): void {
     const count = decoded.edgeCount;
     if (count === 0) return;
+    // Added here, not by the caller: past 2^31 samples the index is a double, and a double passed on cost a heap
+    // number a frame.
+    const firstIndex = status.nextSampleIndex + offset;
     if (block.edgeCount + count > block.edgeTime.length) {
       const capacity = 2 * (block.edgeCount + count);
       const time = new Float64Array(capacity);
@@ -300,7 +304,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
       buffer = grown;
       view = spareView = buffer.subarray(0, 0);
     }
-    appendEdges(decoded, status.nextSampleIndex + length / channels);
+    appendEdges(decoded, length / channels);
     // The decoder's view is the frame's values exactly (a new view only when the frame size changes).
     buffer.set(decoded.samples.length === values ? decoded.samples : decoded.samples.subarray(0, values), length);
     length += values;

@@ -274,8 +274,9 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
     let nextFitAt = fitSamples;
     let attempts = 0;
     let ended = false;
-    // Samples received so far, and how many the duration allows.
-    let received = 0;
+    // Samples received so far (a field: past 2^31 samples a double, which in a closure's variable cost a heap number
+    // a block), and how many the duration allows.
+    const count = { received: 0 };
     let stopAfter = Number.POSITIVE_INFINITY;
     const positions: { kind: 'positions'; rateHz: number; block: LinkBlock; summaries: readonly AxisBlockSummary[] } = {
       kind: 'positions',
@@ -381,14 +382,14 @@ export function trackLink(source: ByteSource, options: TrackLinkOptions): LiveAx
         if (ended) return;
         if (durationS !== undefined && stopAfter === Number.POSITIVE_INFINITY) stopAfter = Math.max(1, Math.round(durationS * block.rateHz));
         const n = block.samplesPerFrame;
-        if (received + n < stopAfter) {
-          received += n;
+        if (count.received + n < stopAfter) {
+          count.received += n;
           take(block);
           return;
         }
         // The stop falls in this block: hand out its part before the stop (and the edges in it), then end.
-        const keep = stopAfter - received;
-        received += keep;
+        const keep = stopAfter - count.received;
+        count.received += keep;
         const cut = block.sampleIndex + keep;
         // The rest of the block is never used: its edges' arrays can be compacted in place.
         let edgeCount = 0;

@@ -194,10 +194,10 @@ export function createWireDecoderWith(options: WireDecoderOptions, crcKernel: (b
   /** Frames delivered during the current push. */
   let framesInPush = 0;
   let inSync = true;
-  let expectedSequence = -1;
-  /** The sample counter the next frame should carry, or −1 when the last frame carried none. */
-  let expectedCounter = -1;
-  let nextSampleIndex = 0;
+  // What the next frame should carry (sequence; sample counter, −1 when the last frame carried none) and the index
+  // of its first sample. Fields, not variables: a device's counter beyond 2^31, or indices after a few minutes at
+  // MHz rates, are doubles, and a double stored in a closure's variable costs a heap number each frame.
+  const expected = { sequence: -1, counter: -1, sampleIndex: 0 };
 
   function skip(count: number): void {
     if (count === 0) return;
@@ -248,9 +248,14 @@ export function createWireDecoderWith(options: WireDecoderOptions, crcKernel: (b
     return false;
   }
 
-  /** Checks the frame's counters against the expectation; false when the frame is a repeat to drop. `crc` as int32. */
-  function checkSequence(sequence: number, counter: number, samplesPerFrame: number, crc: number): boolean {
-    const counterJump = expectedCounter >= 0 && counter === counter ? (counter - expectedCounter + WIRE_SAMPLE_COUNTER_MODULUS) % WIRE_SAMPLE_COUNTER_MODULUS : -1;
+  /**
+   * Checks the frame's counters against the expectation; false when the frame is a repeat to drop. Its sample counter
+   * is in `block.sampleCounter` already (NaN when absent); `crc` as int32.
+   */
+  function checkSequence(sequence: number, samplesPerFrame: number, crc: number): boolean {
+    const counter = block.sampleCounter;
+    const expectedSequence = expected.sequence;
+    const counterJump = expected.counter >= 0 && counter === counter ? (counter - expected.counter + WIRE_SAMPLE_COUNTER_MODULUS) % WIRE_SAMPLE_COUNTER_MODULUS : -1;
     // The sample counter, when this frame and the one before carry it, decides alone: it counts exactly even
     // when frame sizes differ.
     if (expectedSequence >= 0 && (counterJump >= 0 ? counterJump !== 0 : sequence !== expectedSequence)) {
@@ -268,10 +273,10 @@ export function createWireDecoderWith(options: WireDecoderOptions, crcKernel: (b
       else counters.lostSamples += lostSamples;
       // Indices count lost samples, as everywhere in the library; a resync's length is unknown, so it counts the
       // least, one sample (the link reader does the same).
-      nextSampleIndex += resync ? 1 : lostSamples;
+      expected.sampleIndex += resync ? 1 : lostSamples;
       // Gaps are rare: a fresh record each time lets the consumer keep it.
       onGap({
-        sampleIndex: nextSampleIndex,
+        sampleIndex: expected.sampleIndex,
         kind: resync ? 'resync' : 'loss',
         lostFrames,
         lostSamples,
@@ -279,8 +284,8 @@ export function createWireDecoderWith(options: WireDecoderOptions, crcKernel: (b
         receivedSequence: sequence,
       });
     }
-    expectedSequence = (sequence + 1) % WIRE_SEQUENCE_MODULUS;
-    expectedCounter = counter === counter ? (counter + samplesPerFrame) % WIRE_SAMPLE_COUNTER_MODULUS : -1;
+    expected.sequence = (sequence + 1) % WIRE_SEQUENCE_MODULUS;
+    expected.counter = counter === counter ? (counter + samplesPerFrame) % WIRE_SAMPLE_COUNTER_MODULUS : -1;
     recentSequence[recentAt] = sequence;
     recentCrc[recentAt] = crc;
     recentAt = (recentAt + 1) % RECENT_FRAMES;
@@ -320,7 +325,9 @@ export function createWireDecoderWith(options: WireDecoderOptions, crcKernel: (b
       channelLayout = readU32(bytes, at);
       at += 4;
     }
-    if (!checkSequence(sequence, sampleCounter, samplesPerFrame, readU32(bytes, p + length - WIRE_CRC_BYTES) | 0)) return false;
+    // Set before the check, which reads it there (a dropped repeat's value is overwritten by the next frame's).
+    block.sampleCounter = sampleCounter;
+    if (!checkSequence(sequence, samplesPerFrame, readU32(bytes, p + length - WIRE_CRC_BYTES) | 0)) return false;
 
     const valueCount = channels * samplesPerFrame;
     if (LITTLE_ENDIAN_HOST) {
@@ -359,12 +366,11 @@ export function createWireDecoderWith(options: WireDecoderOptions, crcKernel: (b
     block.channelLayout = channelLayout;
     block.samplesPerFrame = samplesPerFrame;
     block.sequence = sequence;
-    block.sampleIndex = nextSampleIndex;
+    block.sampleIndex = expected.sampleIndex;
     block.sampleRateHz = sampleRateHz;
     block.timestampUs = timestampUs;
-    block.sampleCounter = sampleCounter;
     block.edgeCount = edgesKept;
-    nextSampleIndex += samplesPerFrame;
+    expected.sampleIndex += samplesPerFrame;
     counters.framesGood++;
     inSync = true;
     onFrame(block);
@@ -449,11 +455,11 @@ export function createWireDecoderWith(options: WireDecoderOptions, crcKernel: (b
   function reset(): void {
     filled = 0;
     inSync = true;
-    expectedSequence = -1;
-    expectedCounter = -1;
+    expected.sequence = -1;
+    expected.counter = -1;
     recentSequence.fill(-1);
     recentAt = 0;
-    nextSampleIndex = 0;
+    expected.sampleIndex = 0;
     for (const key of Object.keys(counters) as (keyof WireDecoderCounters)[]) counters[key] = 0;
   }
 
