@@ -304,6 +304,9 @@ export type CaptureAnalysis = Pick<
  */
 export const SETTLE_SAMPLES = CAPTURE_BLOCK_SAMPLES;
 
+/** Read buffer of a part that analyseCapture reads (bytes). */
+const PART_READ_BYTES = 1 << 16;
+
 /**
  * The periodic-error and radius analyses of a capture, without the rows, alarms and series of a whole run: of a
  * two-output WAV capture long enough that the analyses leave blocks out (createAnalysisSchedule), only the blocks
@@ -337,7 +340,8 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
   const openPart = (b: number): Promise<Awaited<ReturnType<typeof openCapture>>> => {
     const first = b * CAPTURE_BLOCK_SAMPLES;
     const settle = Math.min(first, SETTLE_SAMPLES);
-    const opening = openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES, startSample: first - settle, sampleCount: settle + Math.min(CAPTURE_BLOCK_SAMPLES, total - first) });
+    // A part is 32 KiB of int16 pairs: read buffers of the default 256 KiB (two a part) only made garbage.
+    const opening = openCapture(path, { readChunkBytes: PART_READ_BYTES, ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES, startSample: first - settle, sampleCount: settle + Math.min(CAPTURE_BLOCK_SAMPLES, total - first) });
     opening.catch(() => undefined); // a failure is thrown where the part is awaited
     return opening;
   };
