@@ -18,6 +18,11 @@ import { createAxisKernels, type BlockExtremes, type SharedBlockSummary } from '
 
 /** Samples per block read from a capture (the analyses' schedule counts these blocks). */
 export const CAPTURE_BLOCK_SAMPLES = 4096;
+/**
+ * Read buffer (bytes) for the parts of a capture read one by one (the fit's spread windows, calibrate's analysed
+ * blocks): a few blocks of int16 pairs, where the default 256 KiB buffers, two a part, only made garbage.
+ */
+export const PART_READ_BYTES = 1 << 16;
 /** Most calibration_stale events kept. */
 export const MAX_SPANS = 1000;
 

@@ -19,11 +19,12 @@ import {
   type UnwrapMethod,
 } from '../src/core/index.js';
 import { createPipeline } from '../src/accel/index.js';
-import { openCapture, type CaptureInfo, type OpenCaptureOptions } from '../src/io/capture/index.js';
+import { openCapture, openCaptureParts, type CaptureInfo, type OpenCaptureOptions } from '../src/io/capture/index.js';
 import type { ResultWriter } from '../src/io/results/index.js';
 import {
   CAPTURE_BLOCK_SAMPLES,
   MAX_SPANS,
+  PART_READ_BYTES,
   createBlockOutput,
   createFigureSampler,
   type AnalysisConfig,
@@ -304,8 +305,6 @@ export type CaptureAnalysis = Pick<
  */
 export const SETTLE_SAMPLES = CAPTURE_BLOCK_SAMPLES;
 
-/** Read buffer of a part that analyseCapture reads (bytes). */
-const PART_READ_BYTES = 1 << 16;
 
 /**
  * The periodic-error and radius analyses of a capture, without the rows, alarms and series of a whole run: of a
@@ -333,19 +332,14 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
   const analyses = startAnalyses(config, options.analysisThread, total);
   let results: AnalysisResults;
   progress.start(`analyse ${path} (one block in ${schedule.every})`, total);
-  // Each analysed block is read as a part of its own, after SETTLE_SAMPLES; the next part opens while this one
-  // runs (opening takes a few file-system calls, each a round trip to the thread pool, about a millisecond a part).
+  // Each analysed block is read as a part of its own, after SETTLE_SAMPLES (the next part opens while one is read).
   const taken: number[] = [];
   for (let b = 0; b < blocks; b++) if (schedule.take(b)) taken.push(b);
-  const openPart = (b: number): Promise<Awaited<ReturnType<typeof openCapture>>> => {
+  const parts = taken.map((b) => {
     const first = b * CAPTURE_BLOCK_SAMPLES;
     const settle = Math.min(first, SETTLE_SAMPLES);
-    // A part is 32 KiB of int16 pairs: read buffers of the default 256 KiB (two a part) only made garbage.
-    const opening = openCapture(path, { readChunkBytes: PART_READ_BYTES, ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES, startSample: first - settle, sampleCount: settle + Math.min(CAPTURE_BLOCK_SAMPLES, total - first) });
-    opening.catch(() => undefined); // a failure is thrown where the part is awaited
-    return opening;
-  };
-  let ahead = taken.length > 0 ? openPart(taken[0]!) : null;
+    return [first - settle, settle + Math.min(CAPTURE_BLOCK_SAMPLES, total - first)] as const;
+  });
   try {
     // Blocks left out pass as one length each run of them (skip(a) then skip(b) is skip(a + b)).
     let skipped = 0;
@@ -355,18 +349,14 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
       analyses.skip(skipped);
       skipped = 0;
     };
+    let passedTo = 0; // samples before this point are analysed or passed
     let next = 0;
-    for (let b = 0; b < blocks; b++) {
-      const first = b * CAPTURE_BLOCK_SAMPLES;
+    for await (const part of openCaptureParts(path, { readChunkBytes: PART_READ_BYTES, ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES }, parts)) {
+      const first = taken[next++]! * CAPTURE_BLOCK_SAMPLES;
       const n = Math.min(CAPTURE_BLOCK_SAMPLES, total - first);
-      if (b !== taken[next]) {
-        skipped += n;
-        continue;
-      }
+      skipped += first - passedTo;
+      passedTo = first + n;
       await passSkipped();
-      const part = await ahead!;
-      next++;
-      ahead = next < taken.length ? openPart(taken[next]!) : null;
       pipeline.reset();
       let analysed = false;
       for await (const block of part.blocks()) {
@@ -383,12 +373,11 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
       if (!analysed) throw new Error(`${path}: samples ${first}..${first + n - 1} could not be read`);
       progress.update(first + n);
     }
+    skipped += total - passedTo;
     await passSkipped();
     results = await analyses.finish();
   } catch (error) {
     await analyses.terminate();
-    // A part opened ahead and not read: closed.
-    await ahead?.then((part) => part.close(), () => undefined);
     throw error;
   } finally {
     progress.stop();

@@ -9,8 +9,8 @@ import {
   type EllipseFitResult,
 } from '../src/core/index.js';
 import { createFastEllipseAccumulator } from '../src/accel/index.js';
-import { openCapture, type CaptureBlock, type CaptureInfo, type OpenCaptureOptions } from '../src/io/capture/index.js';
-import { CAPTURE_BLOCK_SAMPLES } from './capture-analyses.js';
+import { openCapture, openCaptureParts, type CaptureBlock, type CaptureInfo, type OpenCaptureOptions } from '../src/io/capture/index.js';
+import { CAPTURE_BLOCK_SAMPLES, PART_READ_BYTES } from './capture-analyses.js';
 import type { Progress } from './progress.js';
 
 /** Samples of the fit's first (gate-finding) pass over a long WAV capture, spread over it (`spreadWindows`). */
@@ -45,8 +45,7 @@ export async function fitCapture(
       progress.start(`fit ${path} (gate, from ${total} samples spread over it)`, total);
       let done = 0;
       try {
-        for (const [startSample, sampleCount] of windows) {
-          const part = await openCapture(path, { ...open, blockSize: CAPTURE_BLOCK_SAMPLES, startSample, sampleCount });
+        for await (const part of openCaptureParts(path, { readChunkBytes: PART_READ_BYTES, ...open, blockSize: CAPTURE_BLOCK_SAMPLES }, windows)) {
           for await (const block of part.blocks()) {
             feed(block);
             progress.update((done += block.length));

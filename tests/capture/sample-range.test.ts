@@ -3,7 +3,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { writeFileSync } from 'node:fs';
-import { createCaptureWriter, openCapture } from '../../src/io/capture/index.js';
+import { createCaptureWriter, openCapture, openCaptureParts } from '../../src/io/capture/index.js';
 import { collect, makeTempDir } from './helpers.js';
 import '../support/property-seed.js';
 
@@ -73,5 +73,42 @@ describe('reading part of a capture', () => {
     expect((await collect(csv, { startSample: 0 })).x).toEqual([1, 3]);
     await expect(openCapture(wav, { startSample: -1 })).rejects.toThrow(/startSample must be an integer/);
     await expect(openCapture(wav, { sampleCount: 1.5 })).rejects.toThrow(/sampleCount must be an integer/);
+  });
+
+  it('reads parts one after another (each opened while the one before is read) as each read alone', async () => {
+    await fc.assert(
+      fc.asyncProperty(
+        fc.array(fc.tuple(fc.integer({ min: 0, max: N - 1 }), fc.integer({ min: 1, max: 3000 })), { minLength: 1, maxLength: 6 }),
+        fc.integer({ min: 1, max: 4096 }),
+        async (parts, blockSize) => {
+          let k = 0;
+          for await (const part of openCaptureParts(wav, { blockSize, readChunkBytes: 1 << 12 }, parts)) {
+            const [startSample, sampleCount] = parts[k++]!;
+            const x: number[] = [];
+            for await (const block of part.blocks()) x.push(...block.x);
+            expect(x).toEqual(whole.x.slice(startSample, Math.min(N, startSample + sampleCount)));
+          }
+          expect(k).toBe(parts.length);
+        },
+      ),
+      { numRuns: 30 },
+    );
+  });
+
+  it('throws a part\'s opening failure where the part is taken, and ends early when the loop does', async () => {
+    const taken: number[] = [];
+    const reading = (async () => {
+      for await (const part of openCaptureParts(dir.file('none.wav'), {}, [[0, 10], [10, 10]])) taken.push(part.info.totalSamples ?? -1);
+    })();
+    await expect(reading).rejects.toThrow(/none\.wav: cannot open the capture \(no such file\)/);
+    expect(taken).toEqual([]);
+    // Leaving after the first of three parts: the second, opened meanwhile, is closed by the loop's end.
+    let parts = 0;
+    for await (const part of openCaptureParts(wav, { blockSize: 100 }, [[0, 10], [5, 10], [20, 10]])) {
+      for await (const block of part.blocks()) expect(block.length).toBe(10);
+      parts++;
+      break;
+    }
+    expect(parts).toBe(1);
   });
 });

@@ -1,5 +1,5 @@
 // Capture files: streaming CSV and WAV readers, constant-memory writers, and their error type.
-export { openCapture } from './open-capture.js';
+export { openCapture, openCaptureParts } from './open-capture.js';
 export { createCaptureWriter, type CaptureWriter, type CaptureWriterOptions } from './capture-writer.js';
 export { CaptureFormatError, type CaptureFormatErrorDetails } from './errors.js';
 export { parseChannelSelector } from './options.js';

@@ -37,6 +37,35 @@ export async function openCapture(path: string, options: OpenCaptureOptions = {}
   }
 }
 
+/**
+ * Opens the parts of a WAV capture given as [startSample, sampleCount] one after another, each while the one before
+ * is read: a part's opening is a few file-system calls, each a round trip to the thread pool (about a millisecond a
+ * part on a busy machine), which then overlap the reading. Read each part's blocks before taking the next; a part
+ * opened ahead and not taken (the loop left early) is closed. `options` as openCapture's, without the range.
+ */
+export async function* openCaptureParts(
+  path: string,
+  options: Omit<OpenCaptureOptions, 'startSample' | 'sampleCount'>,
+  parts: readonly (readonly [startSample: number, sampleCount: number])[],
+): AsyncGenerator<Capture, void, undefined> {
+  const opening = (k: number): Promise<Capture> => {
+    const [startSample, sampleCount] = parts[k]!;
+    const part = openCapture(path, { ...options, startSample, sampleCount });
+    part.catch(() => undefined); // thrown where it is awaited, below
+    return part;
+  };
+  let ahead = parts.length > 0 ? opening(0) : null;
+  try {
+    for (let k = 0; k < parts.length; k++) {
+      const part = await ahead!;
+      ahead = k + 1 < parts.length ? opening(k + 1) : null;
+      yield part;
+    }
+  } finally {
+    await ahead?.then((part) => part.close(), () => undefined);
+  }
+}
+
 function fileOpenError(path: string, error: unknown): Error {
   const failure = error as NodeJS.ErrnoException;
   const reason = failure.code === 'ENOENT' ? 'no such file' : failure.code === 'EISDIR' ? 'is a folder, not a capture file' : failure.code === 'EACCES' ? 'permission denied' : (failure.code ?? failure.message);
