@@ -71,9 +71,12 @@ async function listenOnce(chunks: readonly Uint8Array[], out: string, every: num
   }
   source.end();
   await session.done;
-  await writer.close();
   const cpu = process.cpuUsage(cpuStart);
-  return { wall: Number(process.hrtime.bigint() - wallStart) / 1e9, cpu: (cpu.user + cpu.system) / 1e6 };
+  const wall = Number(process.hrtime.bigint() - wallStart) / 1e9;
+  // Closed after the span, as the header says: the close (the last bytes, the file's sync to disk and rename, on
+  // libuv's threads) comes once a run, and was 10-20 ms of CPU time on a pass of 4.2 M samples, ~8 % of it.
+  await writer.close();
+  return { wall, cpu: (cpu.user + cpu.system) / 1e6 };
 }
 
 /**
