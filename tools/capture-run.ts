@@ -305,7 +305,6 @@ export type CaptureAnalysis = Pick<
  */
 export const SETTLE_SAMPLES = CAPTURE_BLOCK_SAMPLES;
 
-
 /**
  * The periodic-error and radius analyses of a capture, without the rows, alarms and series of a whole run: of a
  * two-output WAV capture long enough that the analyses leave blocks out (createAnalysisSchedule), only the blocks
