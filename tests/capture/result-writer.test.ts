@@ -47,6 +47,14 @@ async function toText(blocks: readonly ResultBlock[], options: Omit<ResultWriter
   return Buffer.concat(parts).toString('utf8');
 }
 
+
+/** A stream for the writer's stdout, and the chunks that went through it. */
+function capturedStdout(): { stdout: PassThrough; parts: Buffer[] } {
+  const stdout = new PassThrough();
+  const parts: Buffer[] = [];
+  stdout.on('data', (part: Buffer) => parts.push(part));
+  return { stdout, parts };
+}
 describe('result writer', () => {
   it('writes the CSV header and rows with the documented columns, units and digits', async () => {
     const block: ResultBlock = {
@@ -112,9 +120,7 @@ describe('result writer', () => {
   it('reads a block during the write call: arrays overwritten before the write settles change nothing', async () => {
     const whole = series(5000);
     const expected = await toText([whole], { format: 'csv', rateHz: 1000 });
-    const stdout = new PassThrough();
-    const parts: Buffer[] = [];
-    stdout.on('data', (part: Buffer) => parts.push(part));
+    const { stdout, parts } = capturedStdout();
     const writer = await createResultWriter('-', { format: 'csv', rateHz: 1000, stdout });
     const reused = series(1000);
     for (let start = 0; start < 5000; start += 1000) {
@@ -140,9 +146,7 @@ describe('result writer', () => {
     const expected = await toText([whole], { format: 'csv', rateHz: 1000 });
     const own = makeTempDir();
     const path = own.file('overlap.csv');
-    const stdout = new PassThrough();
-    const parts: Buffer[] = [];
-    stdout.on('data', (part: Buffer) => parts.push(part));
+    const { stdout, parts } = capturedStdout();
     for (const writer of [await createResultWriter(path, { format: 'csv', rateHz: 1000 }), await createResultWriter('-', { format: 'csv', rateHz: 1000, stdout })]) {
       const writes: Promise<void>[] = [];
       for (let start = 0; start < 6000; start += 1500) writes.push(writer.write(slice(whole, start, start + 1500)));
@@ -158,9 +162,7 @@ describe('result writer', () => {
   it('add: the rows write gives, a promise only when bytes went out, errors thrown', async () => {
     const whole = series(6000);
     const expected = await toText([whole], { format: 'csv', rateHz: 1000 });
-    const stdout = new PassThrough();
-    const parts: Buffer[] = [];
-    stdout.on('data', (part: Buffer) => parts.push(part));
+    const { stdout, parts } = capturedStdout();
     const writer = await createResultWriter('-', { format: 'csv', rateHz: 1000, stdout });
     let promises = 0;
     for (let start = 0; start < 6000; start += 100) {
