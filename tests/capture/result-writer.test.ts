@@ -38,15 +38,12 @@ function slice(block: ResultBlock, start: number, end: number): ResultBlock {
 
 /** Writes the blocks to an in-memory standard output and returns the text. */
 async function toText(blocks: readonly ResultBlock[], options: Omit<ResultWriterOptions, 'stdout'>): Promise<string> {
-  const stdout = new PassThrough();
-  const parts: Buffer[] = [];
-  stdout.on('data', (part: Buffer) => parts.push(part));
+  const { stdout, parts } = capturedStdout();
   const writer = await createResultWriter('-', { ...options, stdout });
   for (const block of blocks) await writer.write(block);
   await writer.close();
   return Buffer.concat(parts).toString('utf8');
 }
-
 
 /** A stream for the writer's stdout, and the chunks that went through it. */
 function capturedStdout(): { stdout: PassThrough; parts: Buffer[] } {
@@ -55,6 +52,7 @@ function capturedStdout(): { stdout: PassThrough; parts: Buffer[] } {
   stdout.on('data', (part: Buffer) => parts.push(part));
   return { stdout, parts };
 }
+
 describe('result writer', () => {
   it('writes the CSV header and rows with the documented columns, units and digits', async () => {
     const block: ResultBlock = {
