@@ -5,15 +5,15 @@
 // exactly that state (as they do on every steady block after the first), their results are copied out instead of
 // computed again. Any other call computes them from its own arguments, so the results never depend on that guess.
 import type { FrontEnd, SampleArray, SteadyKernel } from '../core/index.js';
+import { createRecentViews } from '../core/recent-views.js';
 import { createFusedFrontEnd } from './fused-front-end.js';
 import { STEADY_KERNEL_WASM_BASE64 } from './steady-kernel-wasm.js';
 import { instantiate } from './wasm.js';
 
 export interface WasmSteadyKernel extends FrontEnd, SteadyKernel {}
 
-/** Views of the kernel's regions, `length` samples long. */
+/** Views of the kernel's regions, one block long. */
 interface BlockViews {
-  readonly length: number;
   readonly level: Float32Array;
   readonly turns: Float64Array;
   readonly step: Float64Array;
@@ -79,11 +79,17 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
   let positions = xsWide;
   let velocities = xsWide;
   let unwrappedAll = xsWide;
-  // Views of exactly a block's length, for the copies out: those of the last two lengths are kept, as a live feed's
-  // blocks often alternate between two (new views every block were most of what a block allocated there).
-  const noViews = (): BlockViews => ({ length: -1, level: levels, turns: xsWide, step: xsWide, position: xsWide, velocity: xsWide, unwrapped: xsWide });
-  let current = noViews();
-  let previous = current;
+  // Views of exactly a block's length, for the copies out.
+  const views = createRecentViews(
+    (length): BlockViews => ({
+      level: levels.subarray(0, length),
+      turns: turnsAll.subarray(0, length),
+      step: stepsAll.subarray(0, length),
+      position: positions.subarray(0, length),
+      velocity: velocities.subarray(0, length),
+      unwrapped: unwrappedAll.subarray(0, length),
+    }),
+  );
 
   function reserve(samples: number): void {
     capacity = Math.ceil(samples / 8) * 8;
@@ -105,29 +111,9 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
     positions = new Float64Array(buffer, at[6]!, capacity);
     velocities = new Float64Array(buffer, at[7]!, capacity);
     unwrappedAll = new Float64Array(buffer, at[8]!, capacity);
-    current = previous = noViews();
+    views.clear();
   }
   reserve(options.capacity ?? 4096);
-
-  function views(length: number): BlockViews {
-    if (current.length !== length) {
-      const made =
-        previous.length === length
-          ? previous
-          : {
-              length,
-              level: levels.subarray(0, length),
-              turns: turnsAll.subarray(0, length),
-              step: stepsAll.subarray(0, length),
-              position: positions.subarray(0, length),
-              velocity: velocities.subarray(0, length),
-              unwrapped: unwrappedAll.subarray(0, length),
-            };
-      previous = current;
-      current = made;
-    }
-    return current;
-  }
 
   // The last front-end pass: its block, and whether what it ran of the tracker and the displacement may be used.
   let passLength = -1;
@@ -190,7 +176,7 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
     passLevel = level;
     passTracked = (result & 2) !== 0;
     passFresh = true;
-    level.set(views(length).level);
+    level.set(views.get(length).level);
     return phases;
   }
 
@@ -230,7 +216,7 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
       steady = kernel.track(length, at[2]!, at[3]!, at[4]!, at[5]!) === 1;
     }
     if (!steady) return false;
-    const view = views(length);
+    const view = views.get(length);
     turnsOut.set(view.turns);
     stepOut.set(view.step);
     loop[0] = p[AFTER + 2]!;
@@ -279,7 +265,7 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
       p[REFERENCE + 4] = perStep;
       kernel.place(length, at[4]!, at[3]!, at[5]!, at[6]!, at[7]!);
     }
-    const view = views(length);
+    const view = views.get(length);
     positionM.set(view.position);
     velocityMS.set(view.velocity);
     if (unwrappedPhaseRad) {

@@ -29,6 +29,7 @@ import {
   type SampleArray,
   type SpeedLimits,
 } from '../core/index.js';
+import { createRecentViews, type RecentViews } from '../core/recent-views.js';
 import { createAxisKernels, type AxisRegion, type BlockExtremes } from '../accel/axis-kernels.js';
 import { createPipeline } from '../accel/pipeline.js';
 import { checkAxisBlock, checkFrameBlock, type AxisBlock, type FrameBlock } from './blocks.js';
@@ -284,10 +285,10 @@ interface AxisStage {
   readonly outputs: number;
   /** Axis of the frames the axis reads (`channelPair`). */
   readonly frameAxis: number;
-  /** Views of exactly one block's length on the axis' region of the kernels, remade only when either changes. */
-  views: BlockViews | null;
-  /** The views before those, kept for blocks whose length alternates (a chunk of bytes holds n or n + 1 frames). */
-  spareViews: BlockViews | null;
+  /** Views of exactly one block's length on the axis' region of the kernels, for the last two lengths. */
+  readonly views: RecentViews<BlockViews>;
+  /** The region those views are on: the kernels replace it when their capacity grows. */
+  viewsRegion: AxisRegion | null;
   /** Source power per sample of a 3–4-output axis (grown to the longest block). */
   power: Float32Array;
   readonly correction: Correction;
@@ -313,8 +314,6 @@ interface LazyExtremes {
 type ExtremeKey = keyof BlockExtremes;
 
 interface BlockViews {
-  readonly region: AxisRegion;
-  readonly length: number;
   /** The pair split out of the frames (x, y), or the 3–4 outputs. */
   readonly inputs: readonly Int16Array[];
   readonly out: AxisSamples;
@@ -424,8 +423,8 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
       combined,
       outputs: combined === null ? 2 : combined.stages.combiner.channels.length,
       frameAxis,
-      views: null,
-      spareViews: null,
+      views: createRecentViews((length) => viewsOf(stages[k]!, length)),
+      viewsRegion: null,
       power: new Float32Array(0),
       correction: createCorrection({ calibration: combined === null ? (axisOptions.calibration ?? null) : null }),
       summary: createSummary(names[k]!, pipeline.speedLimits, tracePoints, extremesOf(k)),
@@ -447,7 +446,8 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
   const firstChannel = new Int32Array(9);
   const pick = { x: new Float64Array(tracePerBlock), y: new Float64Array(tracePerBlock), u: new Float64Array(tracePerBlock), v: new Float64Array(tracePerBlock) };
 
-  function viewsOf(stage: AxisStage, region: AxisRegion, length: number): BlockViews {
+  function viewsOf(stage: AxisStage, length: number): BlockViews {
+    const region = stage.viewsRegion!;
     const out: AxisSamples = {
       positionM: region.positionM.subarray(0, length),
       velocityMS: region.velocityMS.subarray(0, length),
@@ -455,16 +455,8 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
       flags: region.flags.subarray(0, length),
     };
     const beyond = stage.beyond;
-    if ((stage.combined !== null && stage.power.length < length) || (beyond !== null && beyond.phase.length < length)) {
-      // Views made before refer to the arrays replaced here.
-      stage.spareViews = null;
-      if (stage.combined !== null && stage.power.length < length) stage.power = new Float32Array(length);
-      if (beyond !== null && beyond.phase.length < length) growBeyond(beyond, length);
-    }
     const phase = beyond === null ? {} : { unwrappedPhaseRad: beyond.phase };
     return {
-      region,
-      length,
       inputs: region.inputs.map((input) => input.subarray(0, length)),
       out,
       combinedOut: stage.combined === null ? null : { ...out, power: stage.power.subarray(0, length), ...phase },
@@ -480,16 +472,20 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     summary.events.length = 0;
     summary.firstSampleIndex = pipeline.nextSampleIndex;
     const region = kernels.regions[k]!;
-    let views = stage.views;
-    if (views === null || views.region !== region || views.length !== length) {
-      const spare = stage.spareViews;
-      stage.spareViews = views;
-      views = stage.views = spare !== null && spare.region === region && spare.length === length ? spare : viewsOf(stage, region, length);
+    const beyond = stage.beyond;
+    const growPower = stage.combined !== null && stage.power.length < length;
+    const growPhase = beyond !== null && beyond.phase.length < length;
+    if (region !== stage.viewsRegion || growPower || growPhase) {
+      // The views refer to arrays replaced here (or by the kernels).
+      stage.views.clear();
+      stage.viewsRegion = region;
+      if (growPower) stage.power = new Float32Array(length);
+      if (growPhase) growBeyond(beyond, length);
     }
+    const views = stage.views.get(length);
     const out = views.out;
     let x: SampleArray = raw === null ? views.inputs[0]! : raw.x;
     let y: SampleArray = raw === null ? views.inputs[1]! : raw.y;
-    const beyond = stage.beyond;
     if (stage.combined !== null) {
       stage.combined.process(views.inputs, length, views.combinedOut!, summary.events);
       if (beyond !== null) beyondEllipse(stage, beyond, out, length);

@@ -5,6 +5,7 @@
 // length. Every sample index counts lost samples. Edges of the frames' digital inputs go with the blocks.
 
 import { integerInRange, oneOf, OptionError, positiveFinite } from '../../core/index.js';
+import { createRecentViews } from '../../core/recent-views.js';
 import type { FrameBlock } from '../../stream/index.js';
 import type { ByteSourceEvent, LinkEvent } from '../serial/index.js';
 import {
@@ -176,10 +177,8 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
   let layout = 0;
   let pendingGap = 0;
   let linkGapPending = false;
-  // Views of the buffer for the last two block lengths: a chunk holds n or n + 1 frames, so those alternate, and a
-  // view each block would be an allocation each block. Both are dropped when the buffer grows.
-  let view = buffer.subarray(0, 0);
-  let spareView = view;
+  // Views of the buffer, kept for the last two block lengths (a chunk holds n or n + 1 frames); dropped when it grows.
+  const views = createRecentViews((values) => buffer.subarray(0, values));
   const block = {
     kind: 'samples' as const,
     samples: buffer.subarray(0, 0),
@@ -225,12 +224,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
   function flush(): void {
     if (length === 0) return;
     const n = length / channels;
-    if (view.length !== length) {
-      const spare = spareView;
-      spareView = view;
-      view = spare.length === length ? spare : buffer.subarray(0, length);
-    }
-    block.samples = view;
+    block.samples = views.get(length);
     block.channelCount = channels;
     block.axisOutputs = status.axisOutputs;
     block.samplesPerFrame = n;
@@ -302,7 +296,7 @@ export function createLinkReader(options: LinkReaderOptions): LinkReader {
       const grown = new Int16Array(capacity);
       grown.set(buffer.subarray(0, length));
       buffer = grown;
-      view = spareView = buffer.subarray(0, 0);
+      views.clear();
     }
     appendEdges(decoded, length / channels);
     // The decoder's view is the frame's values exactly (a new view only when the frame size changes).
