@@ -19,7 +19,7 @@ import {
   type UnwrapMethod,
 } from '../src/core/index.js';
 import { createPipeline } from '../src/accel/index.js';
-import { openCapture, openCaptureParts, type CaptureInfo, type OpenCaptureOptions } from '../src/io/capture/index.js';
+import { keepCaptureParts, openCapture, openCaptureParts, type CaptureInfo, type KeptParts, type OpenCaptureOptions } from '../src/io/capture/index.js';
 import type { ResultWriter } from '../src/io/results/index.js';
 import {
   CAPTURE_BLOCK_SAMPLES,
@@ -305,19 +305,58 @@ export type CaptureAnalysis = Pick<
  */
 export const SETTLE_SAMPLES = CAPTURE_BLOCK_SAMPLES;
 
+/** What analyseCapture's options decide about which samples it reads. */
+type AnalysedRead = Pick<RunOptions, 'channels' | 'analysisBudgetSamples'>;
+
+/**
+ * The parts analyseCapture reads of a capture, as [startSample, sampleCount]: each block the analyses take, after
+ * SETTLE_SAMPLES; null when it runs the capture through whole instead (not a two-output WAV capture of known length,
+ * or one short enough that the analyses take every block).
+ */
+function analysedParts(info: CaptureInfo, options: AnalysedRead): { parts: Array<readonly [number, number]>; taken: number[]; every: number } | null {
+  const total = info.totalSamples;
+  if (info.format !== 'wav' || total === null || options.channels !== undefined) return null;
+  const schedule = createAnalysisSchedule({ blockSamples: CAPTURE_BLOCK_SAMPLES, totalSamples: total, budgetSamples: options.analysisBudgetSamples });
+  if (schedule.every === 1) return null;
+  const blocks = Math.ceil(total / CAPTURE_BLOCK_SAMPLES);
+  const taken: number[] = [];
+  for (let b = 0; b < blocks; b++) if (schedule.take(b)) taken.push(b);
+  const parts = taken.map((b) => {
+    const first = b * CAPTURE_BLOCK_SAMPLES;
+    const settle = Math.min(first, SETTLE_SAMPLES);
+    return [first - settle, settle + Math.min(CAPTURE_BLOCK_SAMPLES, total - first)] as const;
+  });
+  return { parts, taken, every: schedule.every };
+}
+
+/**
+ * Where analyseCapture with these options would read parts of the capture: a keeper of them (for a pass over the
+ * whole capture before it, such as the fit's), else null.
+ */
+export function keepAnalysedParts(info: CaptureInfo, options: AnalysedRead): KeptParts | null {
+  const read = analysedParts(info, options);
+  return read === null ? null : keepCaptureParts(read.parts, CAPTURE_BLOCK_SAMPLES, info.sampleEncoding);
+}
+
 /**
  * The periodic-error and radius analyses of a capture, without the rows, alarms and series of a whole run: of a
  * two-output WAV capture long enough that the analyses leave blocks out (createAnalysisSchedule), only the blocks
- * they take are read, each after SETTLE_SAMPLES through the chain; otherwise the whole run (runCapture).
+ * they take are read, each after SETTLE_SAMPLES through the chain, from `kept` when it holds them all
+ * (keepAnalysedParts), else from the file; otherwise the whole run (runCapture).
  */
-export async function analyseCapture(path: string, options: Omit<RunOptions, 'writer' | 'harmonics' | 'estimateHarmonics' | 'refractiveIndexAt'>): Promise<CaptureAnalysis> {
+export async function analyseCapture(
+  path: string,
+  options: Omit<RunOptions, 'writer' | 'harmonics' | 'estimateHarmonics' | 'refractiveIndexAt'>,
+  kept: KeptParts | null = null,
+): Promise<CaptureAnalysis> {
   const { calibration, progress } = options;
   const opened = await openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES });
   const info = opened.info;
   await opened.close();
-  const total = info.totalSamples;
-  const schedule = createAnalysisSchedule({ blockSamples: CAPTURE_BLOCK_SAMPLES, totalSamples: total, budgetSamples: options.analysisBudgetSamples });
-  if (info.format !== 'wav' || total === null || options.channels !== undefined || schedule.every === 1) return runCapture(path, options);
+  const read = analysedParts(info, options);
+  if (read === null) return runCapture(path, options);
+  const total = info.totalSamples!;
+  const { parts, taken } = read;
   const { chain, adc } = chainOf(info, options);
   const pipeline = createPipeline({ ...chain, calibration });
   const metresPerRad = pipeline.stages.displacement.metresPerFringe / (2 * Math.PI);
@@ -326,19 +365,12 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
   // The settling samples' output.
   const scratch = createBlockOutput();
   const events: AlarmEvent[] = [];
-  const blocks = Math.ceil(total / CAPTURE_BLOCK_SAMPLES);
   // As runCapture: on a second thread for a long capture, which reads and runs the next parts meanwhile.
   const analyses = startAnalyses(config, options.analysisThread, total);
   let results: AnalysisResults;
-  progress.start(`analyse ${path} (one block in ${schedule.every})`, total);
-  // Each analysed block is read as a part of its own, after SETTLE_SAMPLES (the next part opens while one is read).
-  const taken: number[] = [];
-  for (let b = 0; b < blocks; b++) if (schedule.take(b)) taken.push(b);
-  const parts = taken.map((b) => {
-    const first = b * CAPTURE_BLOCK_SAMPLES;
-    const settle = Math.min(first, SETTLE_SAMPLES);
-    return [first - settle, settle + Math.min(CAPTURE_BLOCK_SAMPLES, total - first)] as const;
-  });
+  progress.start(`analyse ${path} (one block in ${read.every})`, total);
+  // Each analysed block as a part of its own, after SETTLE_SAMPLES: kept, or read (the next part opens while one is read).
+  const partsRead = kept?.complete === true ? kept.parts() : openCaptureParts(path, { readChunkBytes: PART_READ_BYTES, ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES }, parts);
   try {
     // Blocks left out pass as one length each run of them (skip(a) then skip(b) is skip(a + b)).
     let skipped = 0;
@@ -350,7 +382,7 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
     };
     let passedTo = 0; // samples before this point are analysed or passed
     let next = 0;
-    for await (const part of openCaptureParts(path, { readChunkBytes: PART_READ_BYTES, ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES }, parts)) {
+    for await (const part of partsRead) {
       const first = taken[next++]! * CAPTURE_BLOCK_SAMPLES;
       const n = Math.min(CAPTURE_BLOCK_SAMPLES, total - first);
       skipped += first - passedTo;
@@ -391,6 +423,6 @@ export async function analyseCapture(path: string, options: Omit<RunOptions, 'wr
     residual: results.residual,
     power: null,
     beforeNotApplicable: beforeNotApplicable(undefined, calibration, mid),
-    analysedEvery: schedule.every,
+    analysedEvery: read.every,
   };
 }

@@ -9,7 +9,7 @@ import {
   type EllipseFitResult,
 } from '../src/core/index.js';
 import { createFastEllipseAccumulator } from '../src/accel/index.js';
-import { openCapture, openCaptureParts, type CaptureBlock, type CaptureInfo, type OpenCaptureOptions } from '../src/io/capture/index.js';
+import { openCapture, openCaptureParts, type CaptureBlock, type CaptureInfo, type KeptParts, type OpenCaptureOptions } from '../src/io/capture/index.js';
 import { CAPTURE_BLOCK_SAMPLES, PART_READ_BYTES } from './capture-analyses.js';
 import type { Progress } from './progress.js';
 
@@ -22,19 +22,23 @@ export const GATE_SAMPLES = 1 << 20;
  * (`createFastEllipseAccumulator`: the same sums to the bit). The first pass of the two-pass fit only finds the
  * second pass's gate: on a WAV capture of at least 4 · GATE_SAMPLES it reads GATE_SAMPLES samples spread over the
  * capture (`spreadWindows`) as a part (`endPass(true)`), so a clean capture is read about once and a capture with
- * samples near the gate's bounds twice; the fit is the same as from every sample in every case.
+ * samples near the gate's bounds twice; the fit is the same as from every sample in every case. `keep`, given the
+ * capture's info, may name parts to keep from the last pass over every sample (`kept`: complete when that pass
+ * went through), for a later step that then need not read them again.
  */
 export async function fitCapture(
   path: string,
   open: OpenCaptureOptions,
   fitOptions: EllipseFitMethodOptions,
   progress: Progress,
-): Promise<{ fit: EllipseFitResult; info: CaptureInfo; totalSamples: number; channels?: readonly ChannelParameters[] }> {
+  keep?: (info: CaptureInfo) => KeptParts | null,
+): Promise<{ fit: EllipseFitResult; info: CaptureInfo; totalSamples: number; channels?: readonly ChannelParameters[]; kept: KeptParts | null }> {
   const fit = createDetectorFit({ ...fitOptions, channelCount: open.channels?.length ?? 2, createAccumulator: createFastEllipseAccumulator });
   const labels = [' (source power)', '', ' (refined)'];
   const feed = (block: CaptureBlock) => fit.add(fit.channelCount === 2 ? [block.x, block.y] : block.channels, block.length);
   let totalSamples = 0;
   let spreadTried = false;
+  let kept: KeptParts | null | undefined;
   for (;;) {
     const capture = await openCapture(path, { ...open, blockSize: CAPTURE_BLOCK_SAMPLES });
     const windows = fit.pass === 1 && !spreadTried ? spreadWindows(capture.info.totalSamples, GATE_SAMPLES) : null;
@@ -58,9 +62,12 @@ export async function fitCapture(
       continue;
     }
     progress.start(`fit ${path}${labels[fit.pass]}`, capture.info.totalSamples);
+    if (kept === undefined) kept = keep?.(capture.info) ?? null;
+    kept?.reset();
     try {
       for await (const block of capture.blocks()) {
         feed(block);
+        kept?.add(block);
         totalSamples = block.firstIndex + block.length;
         progress.update(totalSamples);
       }
@@ -73,9 +80,9 @@ export async function fitCapture(
     if (result === null) continue;
     if (!result.ok && pass === 0) {
       // The source-power pass refused the outputs: name them.
-      return { fit: { ...result, message: `outputs ${capture.info.channels.join(',')}: ${result.message}` }, info: capture.info, totalSamples };
+      return { fit: { ...result, message: `outputs ${capture.info.channels.join(',')}: ${result.message}` }, info: capture.info, totalSamples, kept: null };
     }
     const { channels, ...ellipse } = result;
-    return { fit: ellipse as EllipseFitResult, info: capture.info, totalSamples, ...(channels === undefined ? {} : { channels }) };
+    return { fit: ellipse as EllipseFitResult, info: capture.info, totalSamples, ...(channels === undefined ? {} : { channels }), kept: kept ?? null };
   }
 }

@@ -3,7 +3,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { writeFileSync } from 'node:fs';
-import { createCaptureWriter, openCapture, openCaptureParts } from '../../src/io/capture/index.js';
+import { createCaptureWriter, keepCaptureParts, openCapture, openCaptureParts } from '../../src/io/capture/index.js';
 import { collect, makeTempDir } from './helpers.js';
 import '../support/property-seed.js';
 
@@ -111,5 +111,69 @@ describe('reading part of a capture', () => {
       break;
     }
     expect(parts).toBe(1);
+  });
+
+  it('keeps parts from a whole pass as openCaptureParts reads them, for any read block size and parts', async () => {
+    await fc.assert(
+      fc.asyncProperty(
+        // Sorted, not overlapping: gaps and lengths.
+        fc.array(fc.tuple(fc.integer({ min: 0, max: 1500 }), fc.integer({ min: 1, max: 1500 })), { minLength: 1, maxLength: 6 }),
+        fc.integer({ min: 1, max: 5000 }),
+        fc.integer({ min: 1, max: 4096 }),
+        async (spans, passBlockSize, blockSize) => {
+          const parts: Array<readonly [number, number]> = [];
+          let at = 0;
+          for (const [gap, count] of spans) {
+            if (at + gap >= N) break;
+            parts.push([at + gap, Math.min(count, N - at - gap)]);
+            at += gap + count;
+          }
+          fc.pre(parts.length > 0);
+          const kept = keepCaptureParts(parts, blockSize, 'int16');
+          for await (const block of (await openCapture(wav, { blockSize: passBlockSize })).blocks()) kept.add(block);
+          expect(kept.complete).toBe(true);
+          const read: unknown[] = [];
+          for await (const part of openCaptureParts(wav, { blockSize }, parts)) {
+            for await (const block of part.blocks()) read.push({ x: [...block.x], y: [...block.y], length: block.length, firstIndex: block.firstIndex });
+          }
+          const fromMemory: unknown[] = [];
+          for (const part of kept.parts()) {
+            for (const block of part.blocks()) {
+              expect(block.channels).toEqual([block.x, block.y]);
+              fromMemory.push({ x: [...block.x], y: [...block.y], length: block.length, firstIndex: block.firstIndex });
+            }
+          }
+          expect(fromMemory).toEqual(read);
+        },
+      ),
+      { numRuns: 30 },
+    );
+  });
+
+  it('keeps parts: complete only after every part went by, again after a reset; exact for decimal text', async () => {
+    const kept = keepCaptureParts([[100, 50], [9000, 1000]], 4096, 'int16');
+    const pass = async (stopAt: number) => {
+      kept.reset();
+      for await (const block of (await openCapture(wav, { blockSize: 1000 })).blocks()) {
+        if (block.firstIndex >= stopAt) break;
+        kept.add(block);
+      }
+    };
+    await pass(9000);
+    expect(kept.complete).toBe(false);
+    await pass(N);
+    expect(kept.complete).toBe(true);
+    await pass(5000);
+    expect(kept.complete).toBe(false);
+    // Decimal text is kept in doubles: 0.1 is not a float32.
+    const csv = dir.file('decimal.csv');
+    writeFileSync(csv, '# rate_hz: 10\nx,y\n0.1,-0.3\n0.7,1e-9\n');
+    const decimal = keepCaptureParts([[1, 1]], 10, 'decimal-text');
+    for await (const block of (await openCapture(csv)).blocks()) decimal.add(block);
+    const [part] = [...decimal.parts()];
+    const [block] = [...part!.blocks()];
+    expect([block!.x[0], block!.y[0], block!.firstIndex]).toEqual([0.7, 1e-9, 1]);
+    expect(() => keepCaptureParts([[10, 5], [12, 5]], 64, 'int16')).toThrow(/parts\[1\] must be a part starting at an integer from 15/);
+    expect(() => keepCaptureParts([[10, 0]], 64, 'int16')).toThrow(/parts\[0\] must be/);
   });
 });

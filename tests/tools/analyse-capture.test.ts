@@ -9,14 +9,17 @@ import { join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { fringetally } from './cli.js';
 import { createProgress } from '../../tools/progress.js';
+import { openCapture } from '../../src/io/capture/index.js';
 
 type Run = typeof import('../../tools/capture-run.js');
 let run: Run;
+let fit: typeof import('../../tools/fit-capture.js');
 let dir = '';
 const settings = { wavelengthM: 632.9908e-9, fold: 2, refractiveIndex: 1 };
 
 beforeAll(async () => {
   run = (await import(pathToFileURL(resolve('dist/tools/capture-run.js')).href)) as Run;
+  fit = (await import(pathToFileURL(resolve('dist/tools/fit-capture.js')).href)) as typeof fit;
   dir = mkdtempSync(join(tmpdir(), 'fringetally-analyse-'));
   const simulated = await fringetally(['simulate', '--out', 'two.wav', '--duration-s', '0.06', '--interrupt', '0.02:0.002', '--overspeed', '0.04:0.001:0.3', '--quiet'], dir);
   expect(simulated.code, simulated.stderr).toBe(0);
@@ -68,6 +71,28 @@ describe('analyseCapture', () => {
     const calibration = { offsetX: 800, offsetY: -500, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 };
     const options = { open: {}, calibration, settings, progress: createProgress(true), analysisBudgetSamples: 2 * 4096, analysisThread: true };
     await expect(run.analyseCapture(path, options)).rejects.toThrow(/short\.wav.*byte \d+/s);
+  });
+
+  it('takes the parts kept from a pass over the whole capture, and reads them from the file when the pass did not end', async () => {
+    const calibration = { offsetX: 800, offsetY: -500, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 };
+    const path = join(dir, 'two.wav');
+    const options = { open: {}, calibration, settings, progress: createProgress(true), analysisThread: false, analysisBudgetSamples: 2 * 4096 };
+    const fromFile = await run.analyseCapture(path, options);
+    const capture = await openCapture(path, { blockSize: 4096 });
+    const kept = run.keepAnalysedParts(capture.info, options)!;
+    // Kept from a pass that saw the samples halved: the figures must follow what was kept, not the file.
+    for await (const block of capture.blocks()) {
+      block.x.forEach((value, i) => (block.x[i] = Math.round(value / 2)));
+      kept.add(block);
+    }
+    const fromKept = await run.analyseCapture(path, options, kept);
+    expect(fromKept.residual).not.toEqual(fromFile.residual);
+    kept.reset();
+    expect(await run.analyseCapture(path, options, kept)).toEqual(fromFile);
+    // Kept from the fit's pass over every sample, as calibrate does: the file's figures to the bit.
+    const fitted = await fit.fitCapture(path, {}, {}, createProgress(true), (info) => run.keepAnalysedParts(info, options));
+    expect(fitted.kept?.complete).toBe(true);
+    expect(await run.analyseCapture(path, options, fitted.kept)).toEqual(fromFile);
   });
 
   it('runs the whole capture when every block is analysed', async () => {

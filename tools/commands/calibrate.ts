@@ -1,7 +1,7 @@
 // `fringetally calibrate`: fits the Heydemann correction to a capture and writes the calibration file.
-import { writeFileAtomically } from '../../src/io/capture/index.js';
+import { writeFileAtomically, type CaptureInfo } from '../../src/io/capture/index.js';
 import { checkFiles, fileHash, parseCommandLine, numberOption, say, UsageError, type Command } from '../cli-kit.js';
-import { analyseCapture, runCapture, type CaptureAnalysis } from '../capture-run.js';
+import { analyseCapture, keepAnalysedParts, runCapture, type CaptureAnalysis } from '../capture-run.js';
 import { fitCapture } from '../fit-capture.js';
 import { calibrationFileOf, HARMONIC_ASSUMPTION } from '../calibration-file.js';
 import {
@@ -100,7 +100,11 @@ async function run(argv: readonly string[]): Promise<number> {
   const report = values.report;
   await checkFiles([{ option: 'the capture', path }], [{ option: '--out', path: values.out }, ...(report === undefined ? [] : [{ option: '--report', path: report }])]);
 
-  const { fit, info, totalSamples, channels } = await fitCapture(path, open, fitOptions, progress);
+  // Without a report or harmonics only the analyses' figures are wanted: a long WAV capture is then read only where
+  // they look (analyseCapture), not run through whole, and those parts are kept from the fit's pass over it.
+  const analysesOnly = report === undefined && harmonicOrders === undefined;
+  const keep = analysesOnly ? (captured: CaptureInfo) => (captured.channels.length === 2 ? keepAnalysedParts(captured, {}) : null) : undefined;
+  const { fit, info, totalSamples, channels, kept } = await fitCapture(path, open, fitOptions, progress, keep);
   if (!fit.ok) {
     process.stderr.write(`fringetally calibrate: ${path}: calibration refused: ${fit.message}${refusalHint(fit, fitOptions)}\n`);
     return 1;
@@ -110,16 +114,13 @@ async function run(argv: readonly string[]): Promise<number> {
   const settings = { ...scale, refractiveIndex: scale.refractiveIndex ?? 1 };
   const notes = [...scale.notes, ...(scale.refractiveIndex === undefined ? ['periodic error in nm at n = 1 (vacuum wavelength)'] : [])];
   const runOptions = { analysisThread, open, calibration: fit.calibration, ...(channels === undefined ? {} : { channels }), settings, progress };
-  // Without a report or harmonics only the analyses' figures are wanted: a long WAV capture is then read only where
-  // they look (analyseCapture), not run through whole.
-  const run =
-    report !== undefined || harmonicOrders !== undefined
-      ? await runCapture(path, {
-          ...runOptions,
-          ...(harmonicOrders === undefined ? {} : { estimateHarmonics: { orders: harmonicOrders, totalSamples: Math.max(16, totalSamples) } }),
-        })
-      : null;
-  const result: CaptureAnalysis = run ?? (await analyseCapture(path, runOptions));
+  const run = analysesOnly
+    ? null
+    : await runCapture(path, {
+        ...runOptions,
+        ...(harmonicOrders === undefined ? {} : { estimateHarmonics: { orders: harmonicOrders, totalSamples: Math.max(16, totalSamples) } }),
+      });
+  const result: CaptureAnalysis = run ?? (await analyseCapture(path, runOptions, kept));
   const estimate = run?.harmonicEstimate ?? null;
   if (estimate !== null && !estimate.ok) {
     process.stderr.write(`fringetally calibrate: ${path}: harmonic correction refused: ${estimate.message}; calibrate without --harmonics for the ellipse alone\n`);

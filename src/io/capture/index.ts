@@ -1,5 +1,6 @@
 // Capture files: streaming CSV and WAV readers, constant-memory writers, and their error type.
 export { openCapture, openCaptureParts } from './open-capture.js';
+export { keepCaptureParts, type KeptParts } from './kept-parts.js';
 export { createCaptureWriter, type CaptureWriter, type CaptureWriterOptions } from './capture-writer.js';
 export { CaptureFormatError, type CaptureFormatErrorDetails } from './errors.js';
 export { parseChannelSelector } from './options.js';
