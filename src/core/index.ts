@@ -63,6 +63,7 @@ export {
   type PeriodicErrorSummary,
   type PhaseDomainEstimator,
   type PhaseDomainOptions,
+  type PhaseDomainSums,
   type WindowDetrender,
   type WindowDetrenderOptions,
 } from './periodic-error.js';

@@ -2,7 +2,7 @@
 // harmonics, peak-to-peak and RMS. Also a trend remover that separates the periodic error from smooth motion
 // (constant-velocity assumption: a low-bandwidth tracking loop follows the motion, not the fringe-rate error).
 
-import { integerInRange, numberInRange, positiveFinite } from './options.js';
+import { integerInRange, numberInRange, OptionError, positiveFinite } from './options.js';
 import { TWO_PI } from './phase.js';
 import { choleskyInPlace } from './fit/numerics.js';
 
@@ -236,7 +236,21 @@ export interface PhaseDomainOptions {
    * window cut by its length counts what the cubic alone leaves.
    */
   readonly maxMisfitRad?: number;
+  /**
+   * The windows' per-sample sums (see PhaseDomainSums). Default: this module's loops; src/accel's
+   * createPhaseDomainSums gives the same doubles faster.
+   */
+  readonly sums?: PhaseDomainSums;
 }
+
+/**
+ * The per-sample sums of a window of `size` phases (rad) for `orders` harmonic orders, written into `out`: p0-p3 (the
+ * offsets d = φ − φ₀ on the basis), Σd², the Σ of squared second differences of φ, then per order k = 1..orders
+ * Σcos kφ, Σsin kφ and the dot products of cos kφ, sin kφ with the basis (w0, q1, q2, q3) and with d, as pairs
+ * [cos, sin], then per order k = orders+1..2·orders Σcos kφ, Σsin kφ; 6 + 12·orders + 4·orders doubles. `basis` holds
+ * centre, a2, a3, w0, w1, w2, w3 (see fitWindow). Each sum runs over the samples in order.
+ */
+export type PhaseDomainSums = (phase: Float64Array, size: number, orders: number, basis: Float64Array, out: Float64Array) => void;
 
 export interface PhaseDomainEstimator {
   /** Unwrapped corrected phase (rad) and a 0/1 mask of trustworthy samples; a masked sample ends its window unused. */
@@ -280,7 +294,12 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
   const capacity = integerInRange('maxWindowSamples', options.maxWindowSamples ?? 4096, MIN_WINDOW_SAMPLES, 65536);
   const bins = integerInRange('bins', options.bins ?? DEFAULT_BINS, 8, 4096);
   const maxMisfitRad = positiveFinite('maxMisfitRad', options.maxMisfitRad ?? 0.003);
+  if (options.sums !== undefined && typeof options.sums !== 'function') throw new OptionError('sums', 'a function', options.sums);
+  const windowSums = options.sums ?? plainSums;
   const m = 2 * orders;
+  // A window's basis constants and per-sample sums (PhaseDomainSums).
+  const basis = new Float64Array(7);
+  const sums = new Float64Array(6 + 16 * orders);
   const phase = new Float64Array(capacity);
   // Per window: Σ cos jφ and Σ sin jφ, j = 0..2·orders.
   const cosSums = new Float64Array(2 * orders + 1);
@@ -295,6 +314,7 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
   const solved = new Float64Array(m);
   const work = new Float64Array(m * m);
   const reached = new Uint8Array(bins);
+  let reachedBins = 0;
   // Per sample of a window: cos φ, sin φ, cos kφ and sin kφ of the order at hand, the basis polynomials 1-3 and the
   // phase less the window's first.
   const cosOne = new Float64Array(capacity);
@@ -317,21 +337,10 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
   const cosOf = (n: number): number => cosSums[n < 0 ? -n : n]!;
   const sinOf = (n: number): number => (n < 0 ? -sinSums[-n]! : sinSums[n]!);
 
-  function fitWindow(size: number, spanned: boolean): void {
-    fitted++;
-    const origin = phase[0]!;
-    // The cubic's orthonormal basis over the window: the discrete orthogonal (Gram) polynomials of degree 0-3 in
-    // x = j − (size − 1)/2, each scaled by 1/‖P_r‖ (Abramowitz & Stegun 22.17; their sums of squares are
-    // N, N(N²−1)/12, N(N²−1)(N²−4)/180, N(N²−1)(N²−4)(N²−9)/2800). With it the least squares on the cubic are
-    // plain dot products, here taken with the harmonics' in one pass.
-    const centre = (size - 1) / 2, n2 = size * size;
-    const a2 = (n2 - 1) / 12, a3 = (3 * n2 - 7) / 20;
-    const w0 = 1 / Math.sqrt(size), w1 = 1 / Math.sqrt(size * a2);
-    const w2 = 1 / Math.sqrt((size * (n2 - 1) * (n2 - 4)) / 180), w3 = 1 / Math.sqrt((size * (n2 - 1) * (n2 - 4) * (n2 - 9)) / 2800);
-    // The phase's and the harmonics' dot products with the basis and with the phase, and Σ cos jφ, Σ sin jφ for j up
-    // to 2·orders, from which the harmonics' products follow (cos a·cos b = ½[cos(a−b) + cos(a+b)] and so on). The
-    // projected products follow from these (Frisch–Waugh–Lovell with an orthonormal Q: ĥ_rᵀĥ_c = h_rᵀh_c −
-    // (Qᵀh_r)·(Qᵀh_c), ĥᵀφ̂ = hᵀφ − (Qᵀh)·(Qᵀφ), φ̂ᵀφ̂ = φᵀφ − |Qᵀφ|²): nothing is projected sample by sample.
+  /** The plain PhaseDomainSums, over this estimator's scratch arrays (windows up to its capacity). */
+  function plainSums(values: Float64Array, size: number, orders: number, constants: Float64Array, out: Float64Array): void {
+    const origin = values[0]!;
+    const centre = constants[0]!, a2 = constants[1]!, a3 = constants[2]!, w0 = constants[3]!, w1 = constants[4]!, w2 = constants[5]!, w3 = constants[6]!;
     // A pass for cos φ, sin φ and the basis, then one pass per order with its sums in locals (each sum still runs
     // over the samples in order): sums kept in arrays cost a load and a store per term and sample.
     let p0 = 0, p1 = 0, p2 = 0, p3 = 0, phaseSquares = 0, curvature = 0;
@@ -342,7 +351,7 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
     // about 10^6 rad) takes the slow exact argument reduction; of d it never does.
     const cosOrigin = Math.cos(origin), sinOrigin = Math.sin(origin);
     for (let j = 0; j < size; j++) {
-      const p = phase[j]!;
+      const p = values[j]!;
       const d = p - origin;
       const cosD = Math.cos(d), sinD = Math.sin(d);
       const c1 = cosOrigin * cosD - sinOrigin * sinD;
@@ -365,6 +374,12 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
       beforeThat = before;
       before = p;
     }
+    out[0] = p0;
+    out[1] = p1;
+    out[2] = p2;
+    out[3] = p3;
+    out[4] = phaseSquares;
+    out[5] = curvature;
     for (let order = 1; order <= orders; order++) {
       let cs = 0, ss = 0, c0 = 0, s0 = 0, c1 = 0, s1 = 0, c2 = 0, s2 = 0, c3 = 0, s3 = 0, cd = 0, sd = 0;
       for (let j = 0; j < size; j++) {
@@ -391,19 +406,19 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
         cd += ck * d;
         sd += sk * d;
       }
-      const k = 2 * order - 2;
-      cosSums[order] = cs;
-      sinSums[order] = ss;
-      onBasis[k] = c0;
-      onBasis[k + 1] = s0;
-      onBasis[m + k] = c1;
-      onBasis[m + k + 1] = s1;
-      onBasis[2 * m + k] = c2;
-      onBasis[2 * m + k + 1] = s2;
-      onBasis[3 * m + k] = c3;
-      onBasis[3 * m + k + 1] = s3;
-      localRhs[k] = cd;
-      localRhs[k + 1] = sd;
+      const at = 12 * order - 6;
+      out[at] = cs;
+      out[at + 1] = ss;
+      out[at + 2] = c0;
+      out[at + 3] = s0;
+      out[at + 4] = c1;
+      out[at + 5] = s1;
+      out[at + 6] = c2;
+      out[at + 7] = s2;
+      out[at + 8] = c3;
+      out[at + 9] = s3;
+      out[at + 10] = cd;
+      out[at + 11] = sd;
     }
     for (let order = orders + 1; order <= 2 * orders; order++) {
       let cs = 0, ss = 0;
@@ -416,8 +431,52 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
         cs += next;
         ss += nextSine;
       }
-      cosSums[order] = cs;
-      sinSums[order] = ss;
+      const at = 6 + 12 * orders + 2 * (order - orders - 1);
+      out[at] = cs;
+      out[at + 1] = ss;
+    }
+  }
+
+  function fitWindow(size: number, spanned: boolean): void {
+    fitted++;
+    // The cubic's orthonormal basis over the window: the discrete orthogonal (Gram) polynomials of degree 0-3 in
+    // x = j − (size − 1)/2, each scaled by 1/‖P_r‖ (Abramowitz & Stegun 22.17; their sums of squares are
+    // N, N(N²−1)/12, N(N²−1)(N²−4)/180, N(N²−1)(N²−4)(N²−9)/2800). With it the least squares on the cubic are
+    // plain dot products, here taken with the harmonics' in one pass.
+    const n2 = size * size;
+    const a2 = (n2 - 1) / 12;
+    basis[0] = (size - 1) / 2;
+    basis[1] = a2;
+    basis[2] = (3 * n2 - 7) / 20;
+    basis[3] = 1 / Math.sqrt(size);
+    basis[4] = 1 / Math.sqrt(size * a2);
+    basis[5] = 1 / Math.sqrt((size * (n2 - 1) * (n2 - 4)) / 180);
+    basis[6] = 1 / Math.sqrt((size * (n2 - 1) * (n2 - 4) * (n2 - 9)) / 2800);
+    // The phase's and the harmonics' dot products with the basis and with the phase, and Σ cos jφ, Σ sin jφ for j up
+    // to 2·orders, from which the harmonics' products follow (cos a·cos b = ½[cos(a−b) + cos(a+b)] and so on). The
+    // projected products follow from these (Frisch–Waugh–Lovell with an orthonormal Q: ĥ_rᵀĥ_c = h_rᵀh_c −
+    // (Qᵀh_r)·(Qᵀh_c), ĥᵀφ̂ = hᵀφ − (Qᵀh)·(Qᵀφ), φ̂ᵀφ̂ = φᵀφ − |Qᵀφ|²): nothing is projected sample by sample.
+    windowSums(phase, size, orders, basis, sums);
+    const p0 = sums[0]!, p1 = sums[1]!, p2 = sums[2]!, p3 = sums[3]!, phaseSquares = sums[4]!, curvature = sums[5]!;
+    for (let order = 1; order <= orders; order++) {
+      const at = 12 * order - 6, k = 2 * order - 2;
+      cosSums[order] = sums[at]!;
+      sinSums[order] = sums[at + 1]!;
+      onBasis[k] = sums[at + 2]!;
+      onBasis[k + 1] = sums[at + 3]!;
+      onBasis[m + k] = sums[at + 4]!;
+      onBasis[m + k + 1] = sums[at + 5]!;
+      onBasis[2 * m + k] = sums[at + 6]!;
+      onBasis[2 * m + k + 1] = sums[at + 7]!;
+      onBasis[3 * m + k] = sums[at + 8]!;
+      onBasis[3 * m + k + 1] = sums[at + 9]!;
+      localRhs[k] = sums[at + 10]!;
+      localRhs[k + 1] = sums[at + 11]!;
+    }
+    for (let order = orders + 1; order <= 2 * orders; order++) {
+      const at = 6 + 12 * orders + 2 * (order - orders - 1);
+      cosSums[order] = sums[at]!;
+      sinSums[order] = sums[at + 1]!;
     }
     cosSums[0] = size;
     for (let r = 0; r < m; r++) {
@@ -462,9 +521,12 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
     const misfitRad = Math.sqrt(Math.max(0, residualRad ** 2 - noiseRad ** 2));
     if (!(misfitRad >= smallestMisfitRad)) smallestMisfitRad = misfitRad;
     if (misfitRad > maxMisfitRad) return;
-    for (let j = 0; j < size; j++) {
+    // Once every bin is reached, the windows that follow need not look (a pass with two floors a sample).
+    for (let j = 0; j < size && reachedBins < bins; j++) {
       const wrapped = phase[j]! - TWO_PI * Math.floor(phase[j]! / TWO_PI);
-      reached[Math.min(bins - 1, Math.floor((wrapped / TWO_PI) * bins))] = 1;
+      const bin = Math.min(bins - 1, Math.floor((wrapped / TWO_PI) * bins));
+      reachedBins += 1 - reached[bin]!;
+      reached[bin] = 1;
     }
     for (let r = 0; r < m; r++) {
       rhs[r] += localRhs[r]!;
@@ -574,6 +636,7 @@ export function createPhaseDomainEstimator(options: PhaseDomainOptions = {}): Ph
       normal.fill(0);
       rhs.fill(0);
       reached.fill(0);
+      reachedBins = 0;
     },
   };
 }

@@ -18,6 +18,6 @@ export type { RadiusOverTime, ResidualAnalyzer, ResidualAnalyzerOptions, Residua
 export { createHarmonicCorrection, createHarmonicEstimator, MAX_HARMONIC_ORDER } from './harmonics.js';
 export type { HarmonicCorrection, HarmonicEstimate, HarmonicEstimator, HarmonicEstimatorOptions, PhaseHarmonics } from './harmonics.js';
 export { createModelWatch, MODEL_WATCH_ALARM, MODEL_WATCH_CHUNK_SAMPLES } from './model-watch.js';
-export type { ModelWatch, ModelWatchEvent, ModelWatchOptions } from './model-watch.js';
+export type { ModelWatch, ModelWatchChunkSums, ModelWatchEvent, ModelWatchOptions } from './model-watch.js';
 export { createDetectorFit, createTwoPassFit, SPREAD_WINDOWS, spreadWindows } from './two-pass.js';
 export type { DetectorFit, DetectorFitResult, TwoPassFit, TwoPassFitOptions } from './two-pass.js';

@@ -8,7 +8,7 @@
 // with a He-Ne at fold 2. A radius harmonic of relative amplitude a can come with a phase error of a rad (ghost-beam
 // model, see residual.ts), and it raises the radius RMS by a/√2.
 
-import { integerInRange, numberInRange } from '../options.js';
+import { integerInRange, numberInRange, OptionError } from '../options.js';
 
 export interface ModelWatchOptions {
   /** Samples the running means remember (exponential forgetting, taken in MODEL_WATCH_CHUNK_SAMPLES at a time). Default 4096; integer 16..2^31. */
@@ -22,7 +22,20 @@ export interface ModelWatchOptions {
   readonly maxRadiusRms?: number;
   /** The calibration fit's residual RMS (relative), which sets the default of maxRadiusRms. */
   readonly fitResidualRms?: number;
+  /**
+   * The chunks' sums where every sample is taken (see ModelWatchChunkSums). Default: this module's loop; src/accel's
+   * createModelWatchChunkSums gives the same doubles faster.
+   */
+  readonly chunkSums?: ModelWatchChunkSums;
 }
+
+/**
+ * Σr and Σr² (each over the chunk's MODEL_WATCH_CHUNK_SAMPLES radii in order) of the chunks of `radius` that start at
+ * `from`, from + chunk … and end by `to`, written to sums[2c], sums[2c + 1] for chunk c, up to sums.length / 2 chunks
+ * and no further than the first chunk with a radius not in (0, ∞). Returns the chunks summed: fewer leaves the rest
+ * to the model watch's own loop, 0 any array it does not take.
+ */
+export type ModelWatchChunkSums = (radius: ArrayLike<number>, from: number, to: number, sums: Float64Array) => number;
 
 export interface ModelWatchEvent {
   readonly sampleIndex: number;
@@ -45,7 +58,7 @@ export interface ModelWatch {
   /** The running mean radius and RMS scatter (relative). */
   readonly meanRadius: number;
   readonly radiusRms: number;
-  readonly options: Readonly<Required<Omit<ModelWatchOptions, 'fitResidualRms'>>>;
+  readonly options: Readonly<Required<Omit<ModelWatchOptions, 'fitResidualRms' | 'chunkSums'>>>;
   reset(): void;
 }
 
@@ -66,6 +79,10 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
   const fitResidual = options.fitResidualRms === undefined ? 0 : numberInRange('fitResidualRms', options.fitResidualRms, 0, 1);
   const maxRadiusRms = numberInRange('maxRadiusRms', options.maxRadiusRms ?? Math.max(0.01, 3 * fitResidual), 0, 1, true);
   const resolved = Object.freeze({ windowSamples, maxRadiusChange, maxRadiusRms });
+  const chunkSums = options.chunkSums;
+  if (chunkSums !== undefined && typeof chunkSums !== 'function') throw new OptionError('chunkSums', 'a function', chunkSums);
+  // What chunkSums hands back: up to 256 chunks (a block of 4096 samples) a call.
+  const sums = new Float64Array(chunkSums === undefined ? 0 : 512);
   const chunk = MODEL_WATCH_CHUNK_SAMPLES;
   // Each sample of the memory decays by 1 − 1/windowSamples per sample that follows it, applied a chunk at a time.
   const decay = (1 - 1 / windowSamples) ** chunk;
@@ -94,7 +111,15 @@ export function createModelWatch(options: ModelWatchOptions = {}): ModelWatch {
     while (i < length) {
       // Between chunks, a run of `chunk` samples that are all taken is a chunk: summed in a loop that neither counts
       // nor branches but to leave at a sample that is not taken (then the run goes sample by sample below). The
-      // same sums in the same order, so the same chunks to the bit.
+      // same sums in the same order, so the same chunks to the bit. With every sample taken, chunkSums may sum them.
+      while (n === 0 && use === undefined && chunkSums !== undefined && i + chunk <= length) {
+        const count = chunkSums(radius, i, length, sums);
+        for (let c = 0; c < count; c++) {
+          i += chunk;
+          takeChunk(sums[2 * c]!, sums[2 * c + 1]!, firstIndex + i - 1, events);
+        }
+        if (2 * count < sums.length) break;
+      }
       while (n === 0 && i + chunk <= length) {
         const end = i + chunk;
         let s = 0, q = 0, k = i;

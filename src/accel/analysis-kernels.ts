@@ -1,0 +1,83 @@
+// The capture analyses' per-sample work in WebAssembly SIMD (analysis-kernels.wat), to the bit of the core's loops,
+// for the tools to hand to the core's analyses (tools/capture-analyses.ts); null where WebAssembly SIMD is missing,
+// and the core's own loops then run.
+
+import { MODEL_WATCH_CHUNK_SAMPLES, type ModelWatchChunkSums } from '../core/fit/model-watch.js';
+import type { PhaseDomainSums } from '../core/periodic-error.js';
+import { ANALYSIS_KERNELS_WASM_BASE64 } from './analysis-kernels-wasm.js';
+import { instantiate } from './wasm.js';
+
+interface KernelExports {
+  readonly memory: WebAssembly.Memory;
+  chunk_pairs(pairs: number, radiusPtr: number, outPtr: number): number;
+  window_sums(n: number, capacity: number, orders: number, origin: number, cosOrigin: number, sinOrigin: number, centre: number, a2: number, a3: number, w0: number, w1: number, w2: number, w3: number): void;
+}
+
+/** Bytes the kernel's memory needs per sample of a window, and beyond them (analysis-kernels.wat). */
+const BYTES_PER_SAMPLE = 104;
+const BYTES_BEYOND = 1024;
+
+/**
+ * The phase-domain estimator's window sums (createPhaseDomainEstimator's `sums`) in WebAssembly SIMD: the same
+ * doubles as the core's loops. cos and sin of the offsets are JavaScript's Math.cos and Math.sin, as in the core.
+ */
+export function createPhaseDomainSums(): PhaseDomainSums | null {
+  const kernel = instantiate<KernelExports>(ANALYSIS_KERNELS_WASM_BASE64);
+  if (kernel === null) return null;
+  let capacity = 0;
+  let phase = new Float64Array(0);
+  let trig = new Float64Array(0);
+  let out = new Float64Array(0);
+  /** Lays the memory out for windows of up to `size` samples (in steps of 4096, so it seldom moves). */
+  function layout(size: number): void {
+    capacity = Math.ceil(size / 4096) * 4096;
+    const pages = Math.ceil((BYTES_PER_SAMPLE * capacity + BYTES_BEYOND) / 65536) - kernel!.memory.buffer.byteLength / 65536;
+    if (pages > 0) kernel!.memory.grow(pages);
+    const buffer = kernel!.memory.buffer;
+    phase = new Float64Array(buffer, 0, capacity);
+    trig = new Float64Array(buffer, 8 * capacity, 2 * capacity);
+    out = new Float64Array(buffer, BYTES_PER_SAMPLE * capacity, BYTES_BEYOND / 8);
+  }
+  return (values, size, orders, basis, sums) => {
+    if (size > capacity) layout(size);
+    const origin = values[0]!;
+    for (let j = 0; j < size; j++) {
+      const p = values[j]!;
+      const d = p - origin;
+      phase[j] = p;
+      trig[2 * j] = Math.cos(d);
+      trig[2 * j + 1] = Math.sin(d);
+    }
+    kernel.window_sums(size, capacity, orders, origin, Math.cos(origin), Math.sin(origin), basis[0]!, basis[1]!, basis[2]!, basis[3]!, basis[4]!, basis[5]!, basis[6]!);
+    const count = 6 + 16 * orders;
+    for (let k = 0; k < count; k++) sums[k] = out[k]!;
+  };
+}
+
+/** Radii a call of the model watch's kernel takes at most (256 chunks: the model watch asks for that many). */
+const WATCH_SAMPLES = 4096;
+
+/**
+ * The model watch's chunk sums (createModelWatch's `chunkSums`) in WebAssembly SIMD for a Float32Array of radii (a
+ * pipeline's level), two chunks side by side: the same doubles as the core's loop. Other arrays, and a last odd
+ * chunk, are left to the core's loop.
+ */
+export function createModelWatchChunkSums(): ModelWatchChunkSums | null {
+  const kernel = instantiate<KernelExports>(ANALYSIS_KERNELS_WASM_BASE64);
+  if (kernel === null) return null;
+  const buffer = kernel.memory.buffer;
+  const radii = new Float32Array(buffer, 0, WATCH_SAMPLES);
+  const out = new Float64Array(buffer, 4 * WATCH_SAMPLES, WATCH_SAMPLES / 8);
+  return (radius, from, to, sums) => {
+    if (!(radius instanceof Float32Array)) return 0;
+    const chunk = MODEL_WATCH_CHUNK_SAMPLES;
+    const pairs = Math.min(Math.floor((to - from) / (2 * chunk)), sums.length >> 2, WATCH_SAMPLES / (2 * chunk));
+    const n = 2 * chunk * pairs;
+    // A whole block from its start (the usual call) is copied without a view of its part: no garbage.
+    if (from === 0 && radius.length <= WATCH_SAMPLES) radii.set(radius);
+    else radii.set(radius.subarray(from, from + n));
+    const count = kernel.chunk_pairs(pairs, 0, 4 * WATCH_SAMPLES);
+    for (let k = 0; k < 2 * count; k++) sums[k] = out[k]!;
+    return count;
+  };
+}

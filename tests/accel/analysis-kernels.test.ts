@@ -1,0 +1,141 @@
+// The capture analyses' WebAssembly kernels (src/accel/analysis-kernels.ts) against the core's own loops: the
+// phase-domain estimator with createPhaseDomainSums, and the model watch with createModelWatchChunkSums, give the
+// core's results bit for bit (each sum is the core's sequential sum; only independent sums share a vector). Motions,
+// noise and radii are invented.
+import { describe, expect, it } from 'vitest';
+import fc from 'fast-check';
+import { createModelWatch, createPhaseDomainEstimator, createRandom, type ModelWatchEvent } from '../../src/core/index.js';
+import { createModelWatchChunkSums, createPhaseDomainSums } from '../../src/accel/index.js';
+import '../support/property-seed.js';
+
+/** The bits of every number in a value (NaN and −0 included), for an exact comparison. */
+function bits(value: unknown): unknown {
+  if (typeof value === 'number') return Buffer.from(Float64Array.of(value).buffer).toString('hex');
+  if (ArrayBuffer.isView(value)) return Array.from(value as Float64Array, bits);
+  if (Array.isArray(value)) return value.map(bits);
+  if (value !== null && typeof value === 'object') return Object.fromEntries(Object.entries(value).map(([key, entry]) => [key, bits(entry)]));
+  return value;
+}
+
+/**
+ * An unwrapped phase (rad): a random walk of the speed (rad/sample) about `speed`, a periodic error of `error` rad at
+ * orders 1 and 2, white noise, from `start` (large values take Math.cos's long argument reduction); `holes` samples
+ * masked or not finite.
+ */
+function motion(seed: number, samples: number, start: number, speed: number, wander: number, error: number, noise: number, holes: number) {
+  const random = createRandom(seed);
+  const phase = new Float64Array(samples);
+  const valid = new Uint8Array(samples).fill(1);
+  let p = start, v = speed;
+  for (let i = 0; i < samples; i++) {
+    v += wander * random.gaussian();
+    p += v;
+    phase[i] = p + error * Math.sin(p + 0.3) + 0.5 * error * Math.cos(2 * p) + noise * random.gaussian();
+  }
+  for (let k = 0; k < holes; k++) {
+    const at = Math.floor(random.uniform() * samples);
+    if (k % 2 === 0) valid[at] = 0;
+    else phase[at] = k % 4 === 1 ? Number.NaN : Infinity;
+  }
+  return { phase, valid };
+}
+
+describe('analysis kernels', () => {
+  it('exist on this engine (WebAssembly SIMD)', () => {
+    expect(createPhaseDomainSums()).not.toBeNull();
+    expect(createModelWatchChunkSums()).not.toBeNull();
+  });
+
+  it('phase-domain estimator: the same summary, binned error and windows as the core loops, for any motion, orders and blocks', () => {
+    fc.assert(
+      fc.property(
+        fc.record({
+          seed: fc.integer({ min: 0, max: 2 ** 32 - 1 }),
+          samples: fc.integer({ min: 100, max: 12_000 }),
+          start: fc.oneof(fc.double({ min: -50, max: 50, noNaN: true }), fc.double({ min: -1e7, max: 1e7, noNaN: true })),
+          speed: fc.double({ min: -0.3, max: 0.3, noNaN: true }),
+          wander: fc.double({ min: 0, max: 1e-3, noNaN: true }),
+          error: fc.double({ min: 0, max: 0.05, noNaN: true }),
+          noise: fc.double({ min: 0, max: 0.01, noNaN: true }),
+          holes: fc.integer({ min: 0, max: 6 }),
+          orders: fc.integer({ min: 1, max: 8 }),
+          // Windows past the kernel's first layout of 4096 samples too.
+          maxWindowSamples: fc.integer({ min: 32, max: 9000 }),
+          maxMisfitRad: fc.constantFrom(0.003, 0.05, 10),
+          block: fc.integer({ min: 1, max: 5000 }),
+        }),
+        ({ seed, samples, start, speed, wander, error, noise, holes, orders, maxWindowSamples, maxMisfitRad, block }) => {
+          const { phase, valid } = motion(seed, samples, start, speed, wander, error, noise, holes);
+          const options = { orders, maxWindowSamples, maxMisfitRad };
+          const core = createPhaseDomainEstimator(options);
+          const fast = createPhaseDomainEstimator({ ...options, sums: createPhaseDomainSums()! });
+          for (let at = 0; at < samples; at += block) {
+            const n = Math.min(block, samples - at);
+            core.process(phase.subarray(at), valid.subarray(at), n);
+            fast.process(phase.subarray(at), valid.subarray(at), n);
+          }
+          expect(bits(fast.windows)).toEqual(bits(core.windows));
+          expect(bits(fast.binnedMeanRad())).toEqual(bits(core.binnedMeanRad()));
+          expect(bits(fast.summary())).toEqual(bits(core.summary()));
+        },
+      ),
+      { numRuns: 120 },
+    );
+  });
+
+  it('model watch: the same events, means and state as the core loop, for any radii, holes, masks and blocks', () => {
+    fc.assert(
+      fc.property(
+        fc.record({
+          seed: fc.integer({ min: 0, max: 2 ** 32 - 1 }),
+          samples: fc.integer({ min: 1, max: 20_000 }),
+          windowSamples: fc.integer({ min: 16, max: 2048 }),
+          // Drifts and scatter about the bounds (in units of them), so the alarm is raised and cleared.
+          drift: fc.double({ min: 0, max: 3, noNaN: true }),
+          scatter: fc.double({ min: 0, max: 3, noNaN: true }),
+          // Radii over decades too, whose sums round differently in another order (radii near 1 sum exactly).
+          spread: fc.constantFrom(0, 0, 3),
+          holeEvery: fc.oneof(fc.constant(0), fc.integer({ min: 1, max: 3000 })),
+          masked: fc.boolean(),
+          blocks: fc.array(fc.integer({ min: 1, max: 5000 }), { minLength: 1, maxLength: 4 }),
+        }),
+        ({ seed, samples, windowSamples, drift, scatter, spread, holeEvery, masked, blocks }) => {
+          const random = createRandom(seed);
+          const maxRadiusChange = 0.05, maxRadiusRms = 0.01;
+          const radius = new Float32Array(samples);
+          const use = new Uint8Array(samples).fill(1);
+          for (let i = 0; i < samples; i++) {
+            const slow = Math.sin((2 * Math.PI * i) / 7000);
+            radius[i] = (1 + drift * maxRadiusChange * slow + scatter * maxRadiusRms * random.gaussian()) * Math.exp(spread * random.gaussian());
+            if (holeEvery > 0 && i % holeEvery === 0) {
+              if (masked) use[i] = 0;
+              else radius[i] = [Number.NaN, 0, -1, Infinity][(i / holeEvery) % 4]!;
+            }
+          }
+          const options = { windowSamples, maxRadiusChange, maxRadiusRms };
+          const core = createModelWatch(options);
+          const fast = createModelWatch({ ...options, chunkSums: createModelWatchChunkSums()! });
+          const coreEvents: ModelWatchEvent[] = [];
+          const fastEvents: ModelWatchEvent[] = [];
+          for (let at = 0, k = 0; at < samples; k++) {
+            const n = Math.min(blocks[k % blocks.length]!, samples - at);
+            // A block of its own (the kernel copies a whole block from its start) or a part of the whole.
+            const part = k % 2 === 0 ? radius.slice(at, at + n) : radius.subarray(at, at + n);
+            const mask = masked ? use.subarray(at, at + n) : undefined;
+            core.processRadius(part, n, at, coreEvents, mask);
+            fast.processRadius(part, n, at, fastEvents, mask);
+            at += n;
+          }
+          expect(bits(fastEvents)).toEqual(bits(coreEvents));
+          expect(bits([fast.meanRadius, fast.radiusRms, fast.active])).toEqual(bits([core.meanRadius, core.radiusRms, core.active]));
+        },
+      ),
+      { numRuns: 200 },
+    );
+  });
+
+  it('check what they are given: a kernel that is not a function is refused', () => {
+    expect(() => createPhaseDomainEstimator({ sums: 3 as never })).toThrow(/sums must be a function/);
+    expect(() => createModelWatch({ chunkSums: {} as never })).toThrow(/chunkSums must be a function/);
+  });
+});
