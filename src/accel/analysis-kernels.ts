@@ -3,6 +3,7 @@
 // and the core's own loops then run.
 
 import { MODEL_WATCH_CHUNK_SAMPLES, type ModelWatchChunkSums } from '../core/fit/model-watch.js';
+import type { ResidualRun } from '../core/fit/residual.js';
 import type { PhaseDomainSums } from '../core/periodic-error.js';
 import { ANALYSIS_KERNELS_WASM_BASE64 } from './analysis-kernels-wasm.js';
 import { instantiate } from './wasm.js';
@@ -10,6 +11,7 @@ import { instantiate } from './wasm.js';
 interface KernelExports {
   readonly memory: WebAssembly.Memory;
   chunk_pairs(pairs: number, radiusPtr: number, outPtr: number): number;
+  residual(n: number, hasUse: number, bins: number, binPerRad: number): void;
   window_sums(n: number, capacity: number, orders: number, origin: number, cosOrigin: number, sinOrigin: number, centre: number, a2: number, a3: number, w0: number, w1: number, w2: number, w3: number): void;
 }
 
@@ -79,5 +81,55 @@ export function createModelWatchChunkSums(): ModelWatchChunkSums | null {
     const count = kernel.chunk_pairs(pairs, 0, 4 * WATCH_SAMPLES);
     for (let k = 0; k < 2 * count; k++) sums[k] = out[k]!;
     return count;
+  };
+}
+
+/** Samples a call of the residual kernel takes (analysis-kernels.wat's layout), and where its sums and state lie. */
+const RESIDUAL_SAMPLES = 4096;
+const RESIDUAL_SUMS_AT = 69632;
+const RESIDUAL_STATE_AT = 69888;
+
+/**
+ * The radius residual's loop (createResidualAnalyzer's `run`) in WebAssembly: sqrt, the divisions and Math.atan2
+ * (ported operation for operation from the fdlibm code V8 runs) give the same doubles, and the eight harmonic orders
+ * run as pairs [cos kφ, sin kφ] in SIMD lanes, so its sums and state are the core's to the bit.
+ */
+export function createResidualRun(): ResidualRun | null {
+  const kernel = instantiate<KernelExports>(ANALYSIS_KERNELS_WASM_BASE64);
+  if (kernel === null) return null;
+  let views: { u: Float64Array; v: Float64Array; use: Uint8Array; sums: Float64Array; state: Float64Array } | null = null;
+  /** The memory for `stateLength` doubles of state (grown once, for the largest number of bins). */
+  function viewsFor(stateLength: number) {
+    if (views === null || views.state.length < stateLength) {
+      const pages = Math.ceil((RESIDUAL_STATE_AT + 8 * stateLength) / 65536) - kernel!.memory.buffer.byteLength / 65536;
+      if (pages > 0) kernel!.memory.grow(pages);
+      const buffer = kernel!.memory.buffer;
+      views = {
+        u: new Float64Array(buffer, 0, RESIDUAL_SAMPLES),
+        v: new Float64Array(buffer, 8 * RESIDUAL_SAMPLES, RESIDUAL_SAMPLES),
+        use: new Uint8Array(buffer, 16 * RESIDUAL_SAMPLES, RESIDUAL_SAMPLES),
+        sums: new Float64Array(buffer, RESIDUAL_SUMS_AT, 19),
+        state: new Float64Array(buffer, RESIDUAL_STATE_AT, stateLength),
+      };
+    }
+    return views;
+  }
+  return (u, v, from, to, use, bins, binPerRad, state, sums) => {
+    const memory = viewsFor(state.length);
+    const kernelState = memory.state;
+    for (let k = 0; k < state.length; k++) kernelState[k] = state[k]!;
+    memory.sums.fill(0);
+    // A part of at most RESIDUAL_SAMPLES a call; the sums run on across the calls.
+    for (let start = from; start < to; start += RESIDUAL_SAMPLES) {
+      const n = Math.min(RESIDUAL_SAMPLES, to - start);
+      for (let i = 0; i < n; i++) {
+        memory.u[i] = u[start + i]!;
+        memory.v[i] = v[start + i]!;
+      }
+      if (use !== undefined) for (let i = 0; i < n; i++) memory.use[i] = use[start + i]! ? 1 : 0;
+      kernel.residual(n, use === undefined ? 0 : 1, bins, binPerRad);
+    }
+    for (let k = 0; k < state.length; k++) state[k] = kernelState[k]!;
+    for (let k = 0; k < sums.length; k++) sums[k] = memory.sums[k]!;
   };
 }

@@ -198,4 +198,228 @@
         (if (v128.any_true (local.get $badB)) (then (return (i32.add (i32.shl (local.get $p) (i32.const 1)) (i32.const 1)))))
         (local.set $p (i32.add (local.get $p) (i32.const 1)))
         (br $pair)))
-    (i32.shl (local.get $pairs) (i32.const 1))))
+    (i32.shl (local.get $pairs) (i32.const 1)))
+  ;; atan(x) and atan2(y, x) as V8's Math.atan and Math.atan2 compute them (base/ieee754.cc, from fdlibm's s_atan.c
+  ;; and e_atan2.c): the same reduction, polynomial and constants, operation for operation, so the same doubles.
+  (func $atan (param $x f64) (result f64)
+    (local $hx i32) (local $ix i32) (local $id i32) (local $z f64) (local $w f64) (local $s f64) (local $hi f64) (local $lo f64)
+    (local.set $hx (i32.wrap_i64 (i64.shr_u (i64.reinterpret_f64 (local.get $x)) (i64.const 32))))
+    (local.set $ix (i32.and (local.get $hx) (i32.const 0x7fffffff)))
+    (if (i32.ge_u (local.get $ix) (i32.const 0x44100000)) ;; |x| >= 2^66, or NaN
+      (then
+        (if (f64.ne (local.get $x) (local.get $x)) (then (return (f64.add (local.get $x) (local.get $x)))))
+        (local.set $z (f64.add (f64.const 1.57079632679489655800e+00) (f64.const 6.12323399573676603587e-17)))
+        (return (select (local.get $z) (f64.neg (local.get $z)) (i32.gt_s (local.get $hx) (i32.const 0))))))
+    (if (i32.lt_u (local.get $ix) (i32.const 0x3fdc0000)) ;; |x| < 0.4375
+      (then
+        (if (i32.lt_u (local.get $ix) (i32.const 0x3e400000)) (then (return (local.get $x)))) ;; |x| < 2^-27
+        (local.set $id (i32.const -1)))
+      (else
+        (local.set $x (f64.abs (local.get $x)))
+        (if (i32.lt_u (local.get $ix) (i32.const 0x3ff30000)) ;; |x| < 1.1875
+          (then
+            (if (i32.lt_u (local.get $ix) (i32.const 0x3fe60000)) ;; 7/16 <= |x| < 11/16
+              (then
+                (local.set $id (i32.const 0))
+                (local.set $x (f64.div (f64.sub (f64.mul (f64.const 2) (local.get $x)) (f64.const 1)) (f64.add (f64.const 2) (local.get $x)))))
+              (else ;; 11/16 <= |x| < 19/16
+                (local.set $id (i32.const 1))
+                (local.set $x (f64.div (f64.sub (local.get $x) (f64.const 1)) (f64.add (local.get $x) (f64.const 1)))))))
+          (else
+            (if (i32.lt_u (local.get $ix) (i32.const 0x40038000)) ;; |x| < 2.4375
+              (then
+                (local.set $id (i32.const 2))
+                (local.set $x (f64.div (f64.sub (local.get $x) (f64.const 1.5)) (f64.add (f64.const 1) (f64.mul (f64.const 1.5) (local.get $x))))))
+              (else ;; 2.4375 <= |x| < 2^66
+                (local.set $id (i32.const 3))
+                (local.set $x (f64.div (f64.const -1) (local.get $x)))))))))
+    (local.set $z (f64.mul (local.get $x) (local.get $x)))
+    (local.set $w (f64.mul (local.get $z) (local.get $z)))
+    ;; s1 + s2: z·(aT0 + w·(aT2 + w·(aT4 + …))) + w·(aT1 + w·(aT3 + …))
+    (local.set $s (f64.add
+      (f64.mul (local.get $z)
+        (f64.add (f64.const 3.33333333333329318027e-01) (f64.mul (local.get $w) (f64.add (f64.const 1.42857142725034663711e-01) (f64.mul (local.get $w) (f64.add (f64.const 9.09088713343650656196e-02) (f64.mul (local.get $w) (f64.add (f64.const 6.66107313738753120669e-02) (f64.mul (local.get $w) (f64.add (f64.const 4.97687799461593236017e-02) (f64.mul (local.get $w) (f64.const 1.62858201153657823623e-02))))))))))))
+      (f64.mul (local.get $w)
+        (f64.add (f64.const -1.99999999998764832476e-01) (f64.mul (local.get $w) (f64.add (f64.const -1.11111104054623557880e-01) (f64.mul (local.get $w) (f64.add (f64.const -7.69187620504482999495e-02) (f64.mul (local.get $w) (f64.add (f64.const -5.83357013379057348645e-02) (f64.mul (local.get $w) (f64.const -3.65315727442169155270e-02))))))))))))
+    (if (i32.lt_s (local.get $id) (i32.const 0)) (then (return (f64.sub (local.get $x) (f64.mul (local.get $x) (local.get $s))))))
+    (local.set $hi (select (f64.const 4.63647609000806093515e-01)
+      (select (f64.const 7.85398163397448278999e-01) (select (f64.const 9.82793723247329054082e-01) (f64.const 1.57079632679489655800e+00) (i32.eq (local.get $id) (i32.const 2))) (i32.eq (local.get $id) (i32.const 1)))
+      (i32.eqz (local.get $id))))
+    (local.set $lo (select (f64.const 2.26987774529616870924e-17)
+      (select (f64.const 3.06161699786838301793e-17) (select (f64.const 1.39033110312309984516e-17) (f64.const 6.12323399573676603587e-17) (i32.eq (local.get $id) (i32.const 2))) (i32.eq (local.get $id) (i32.const 1)))
+      (i32.eqz (local.get $id))))
+    (local.set $z (f64.sub (local.get $hi) (f64.sub (f64.sub (f64.mul (local.get $x) (local.get $s)) (local.get $lo)) (local.get $x))))
+    (select (f64.neg (local.get $z)) (local.get $z) (i32.lt_s (local.get $hx) (i32.const 0))))
+
+  (func $atan2 (export "atan2") (param $y f64) (param $x f64) (result f64)
+    (local $bx i64) (local $by i64) (local $hx i32) (local $hy i32) (local $ix i32) (local $iy i32) (local $lx i32) (local $ly i32)
+    (local $m i32) (local $k i32) (local $z f64)
+    (if (i32.or (f64.ne (local.get $x) (local.get $x)) (f64.ne (local.get $y) (local.get $y))) (then (return (f64.add (local.get $x) (local.get $y)))))
+    (local.set $bx (i64.reinterpret_f64 (local.get $x)))
+    (local.set $by (i64.reinterpret_f64 (local.get $y)))
+    (local.set $hx (i32.wrap_i64 (i64.shr_u (local.get $bx) (i64.const 32))))
+    (local.set $hy (i32.wrap_i64 (i64.shr_u (local.get $by) (i64.const 32))))
+    (local.set $lx (i32.wrap_i64 (local.get $bx)))
+    (local.set $ly (i32.wrap_i64 (local.get $by)))
+    (local.set $ix (i32.and (local.get $hx) (i32.const 0x7fffffff)))
+    (local.set $iy (i32.and (local.get $hy) (i32.const 0x7fffffff)))
+    (if (i32.eqz (i32.or (i32.sub (local.get $hx) (i32.const 0x3ff00000)) (local.get $lx))) (then (return (call $atan (local.get $y))))) ;; x = 1
+    ;; 2·sign(x) + sign(y)
+    (local.set $m (i32.or (i32.and (i32.shr_s (local.get $hy) (i32.const 31)) (i32.const 1)) (i32.and (i32.shr_s (local.get $hx) (i32.const 30)) (i32.const 2))))
+    (if (i32.eqz (i32.or (local.get $iy) (local.get $ly))) ;; y = ±0
+      (then
+        (if (i32.lt_u (local.get $m) (i32.const 2)) (then (return (local.get $y))))
+        (return (select (f64.const 3.1415926535897931160E+00) (f64.const -3.1415926535897931160E+00) (i32.eq (local.get $m) (i32.const 2))))))
+    (if (i32.eqz (i32.or (local.get $ix) (local.get $lx))) ;; x = ±0
+      (then (return (select (f64.const -1.5707963267948965580E+00) (f64.const 1.5707963267948965580E+00) (i32.lt_s (local.get $hy) (i32.const 0))))))
+    (if (i32.eq (local.get $ix) (i32.const 0x7ff00000)) ;; x = ±∞
+      (then
+        (if (i32.eq (local.get $iy) (i32.const 0x7ff00000))
+          (then
+            (local.set $z (select (f64.mul (f64.const 3) (f64.const 7.8539816339744827900E-01)) (f64.const 7.8539816339744827900E-01) (i32.ge_u (local.get $m) (i32.const 2))))
+            (return (select (f64.neg (local.get $z)) (local.get $z) (i32.and (local.get $m) (i32.const 1))))))
+        (local.set $z (select (f64.const 3.1415926535897931160E+00) (f64.const 0) (i32.ge_u (local.get $m) (i32.const 2))))
+        (return (select (f64.neg (local.get $z)) (local.get $z) (i32.and (local.get $m) (i32.const 1))))))
+    (if (i32.eq (local.get $iy) (i32.const 0x7ff00000)) ;; y = ±∞
+      (then (return (select (f64.const -1.5707963267948965580E+00) (f64.const 1.5707963267948965580E+00) (i32.lt_s (local.get $hy) (i32.const 0))))))
+    (local.set $k (i32.shr_s (i32.sub (local.get $iy) (local.get $ix)) (i32.const 20)))
+    (if (i32.gt_s (local.get $k) (i32.const 60)) ;; |y/x| > 2^60
+      (then
+        (local.set $z (f64.add (f64.const 1.5707963267948965580E+00) (f64.mul (f64.const 0.5) (f64.const 1.2246467991473531772E-16))))
+        (local.set $m (i32.and (local.get $m) (i32.const 1))))
+      (else
+        (if (i32.and (i32.lt_s (local.get $hx) (i32.const 0)) (i32.lt_s (local.get $k) (i32.const -60)))
+          (then (local.set $z (f64.const 0)))
+          (else (local.set $z (call $atan (f64.abs (f64.div (local.get $y) (local.get $x)))))))))
+    (if (i32.eqz (local.get $m)) (then (return (local.get $z))))
+    (if (i32.eq (local.get $m) (i32.const 1)) (then (return (f64.neg (local.get $z)))))
+    (if (i32.eq (local.get $m) (i32.const 2))
+      (then (return (f64.sub (f64.const 3.1415926535897931160E+00) (f64.sub (local.get $z) (f64.const 1.2246467991473531772E-16))))))
+    (f64.sub (f64.sub (local.get $z) (f64.const 1.2246467991473531772E-16)) (f64.const 3.1415926535897931160E+00)))
+
+  ;; residual(n, hasUse, bins, binPerRad): the radius residual's loop (src/core/fit/residual.ts, run) over samples
+  ;; 0..n−1 of u at 0 and v at 32768 (f64, n <= 4096), use at 65536 (bytes, read when hasUse is not 0), updating
+  ;; the state at 69888 (ResidualRun's layout: per bin Σ(r − 1) and count, then the noise cascade) and the sums at
+  ;; 69632 (Σ(r − 1), count, [Σcos kφ Σsin kφ] for k = 1..8, Σr), each in the core's order of operations.
+  (global $SUMS i32 (i32.const 69632))
+  (global $STATE i32 (i32.const 69888))
+  (func (export "residual") (param $n i32) (param $hasUse i32) (param $bins i32) (param $binPerRad f64)
+    (local $i i32) (local $o8 i32) (local $counts i32) (local $noise i32) (local $level i32) (local $at i32)
+    (local $bin i32) (local $low i32) (local $high i32)
+    (local $u f64) (local $v f64) (local $r f64) (local $res f64) (local $c f64) (local $s f64) (local $pos f64)
+    (local $below f64) (local $lc f64) (local $hc f64) (local $locked f64) (local $t f64) (local $value f64) (local $d f64)
+    (local $binsF f64) (local $sum f64) (local $count f64) (local $radiusSum f64)
+    (local $k v128) (local $cc v128) (local $ss v128) (local $sign v128)
+    (local $a1 v128) (local $a2 v128) (local $a3 v128) (local $a4 v128) (local $a5 v128) (local $a6 v128) (local $a7 v128) (local $a8 v128)
+    (local.set $counts (i32.add (global.get $STATE) (i32.shl (local.get $bins) (i32.const 3))))
+    (local.set $noise (i32.add (global.get $STATE) (i32.shl (local.get $bins) (i32.const 4))))
+    (local.set $binsF (f64.convert_i32_u (local.get $bins)))
+    (local.set $sign (v128.const f64x2 -1 1))
+    (local.set $sum (f64.load (global.get $SUMS)))
+    (local.set $count (f64.load offset=8 (global.get $SUMS)))
+    (local.set $a1 (v128.load offset=16 (global.get $SUMS)))
+    (local.set $a2 (v128.load offset=32 (global.get $SUMS)))
+    (local.set $a3 (v128.load offset=48 (global.get $SUMS)))
+    (local.set $a4 (v128.load offset=64 (global.get $SUMS)))
+    (local.set $a5 (v128.load offset=80 (global.get $SUMS)))
+    (local.set $a6 (v128.load offset=96 (global.get $SUMS)))
+    (local.set $a7 (v128.load offset=112 (global.get $SUMS)))
+    (local.set $a8 (v128.load offset=128 (global.get $SUMS)))
+    (local.set $radiusSum (f64.load offset=144 (global.get $SUMS)))
+    (block $done
+      (loop $next
+        (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
+        (local.set $o8 (i32.shl (local.get $i) (i32.const 3)))
+        (local.set $u (f64.load (local.get $o8)))
+        (local.set $v (f64.load offset=32768 (local.get $o8)))
+        (local.set $r (f64.sqrt (f64.add (f64.mul (local.get $u) (local.get $u)) (f64.mul (local.get $v) (local.get $v)))))
+        (local.set $i (i32.add (local.get $i) (i32.const 1)))
+        (if (i32.and (local.get $hasUse) (i32.eqz (i32.load8_u offset=65535 (local.get $i)))) (then (br $next)))
+        (br_if $next (i32.eqz (i32.and (f64.gt (local.get $r) (f64.const 0)) (f64.lt (local.get $r) (f64.const inf)))))
+        (local.set $res (f64.sub (local.get $r) (f64.const 1)))
+        (local.set $c (f64.div (local.get $u) (local.get $r)))
+        (local.set $s (f64.div (local.get $v) (local.get $r)))
+        (local.set $pos (f64.mul (f64.add (call $atan2 (local.get $s) (local.get $c)) (f64.const 3.141592653589793)) (local.get $binPerRad)))
+        (local.set $bin (i32.trunc_f64_u (f64.min (f64.sub (local.get $binsF) (f64.const 1)) (f64.floor (local.get $pos)))))
+        ;; lockedAt(position): the binned means so far, between the nearest filled bin centres.
+        (local.set $below (f64.floor (f64.sub (local.get $pos) (f64.const 0.5))))
+        (local.set $low (i32.rem_u (i32.trunc_f64_u (f64.add (local.get $below) (local.get $binsF))) (local.get $bins)))
+        (local.set $high (i32.rem_u (i32.trunc_f64_u (f64.add (local.get $below) (f64.const 1))) (local.get $bins)))
+        (local.set $lc (f64.load (i32.add (local.get $counts) (i32.shl (local.get $low) (i32.const 3)))))
+        (local.set $hc (f64.load (i32.add (local.get $counts) (i32.shl (local.get $high) (i32.const 3)))))
+        (if (i32.or (f64.eq (local.get $lc) (f64.const 0)) (f64.eq (local.get $hc) (f64.const 0)))
+          (then
+            (local.set $locked
+              (if (result f64) (f64.gt (local.get $lc) (f64.const 0))
+                (then (f64.div (f64.load (i32.add (global.get $STATE) (i32.shl (local.get $low) (i32.const 3)))) (local.get $lc)))
+                (else
+                  (if (result f64) (f64.gt (local.get $hc) (f64.const 0))
+                    (then (f64.div (f64.load (i32.add (global.get $STATE) (i32.shl (local.get $high) (i32.const 3)))) (local.get $hc)))
+                    (else (f64.const 0)))))))
+          (else
+            (local.set $t (f64.sub (f64.sub (local.get $pos) (f64.const 0.5)) (local.get $below)))
+            (local.set $locked (f64.add
+              (f64.mul (f64.sub (f64.const 1) (local.get $t)) (f64.div (f64.load (i32.add (global.get $STATE) (i32.shl (local.get $low) (i32.const 3)))) (local.get $lc)))
+              (f64.mul (local.get $t) (f64.div (f64.load (i32.add (global.get $STATE) (i32.shl (local.get $high) (i32.const 3)))) (local.get $hc)))))))
+        ;; pushNoise(residual − locked): previous at +0, has-previous +40, half +80, has-half +120, squares +160,
+        ;; differences +200 of the noise state.
+        (local.set $value (f64.sub (local.get $res) (local.get $locked)))
+        (local.set $level (i32.const 0))
+        (block $pushed
+          (loop $cascade
+            (br_if $pushed (i32.ge_u (local.get $level) (i32.const 5)))
+            (local.set $at (i32.add (local.get $noise) (i32.shl (local.get $level) (i32.const 3))))
+            (if (f64.ne (f64.load offset=40 (local.get $at)) (f64.const 0))
+              (then
+                (local.set $d (f64.sub (local.get $value) (f64.load (local.get $at))))
+                (f64.store offset=160 (local.get $at) (f64.add (f64.load offset=160 (local.get $at)) (f64.mul (local.get $d) (local.get $d))))
+                (f64.store offset=200 (local.get $at) (f64.add (f64.load offset=200 (local.get $at)) (f64.const 1)))))
+            (f64.store (local.get $at) (local.get $value))
+            (f64.store offset=40 (local.get $at) (f64.const 1))
+            (if (f64.eq (f64.load offset=120 (local.get $at)) (f64.const 0))
+              (then
+                (f64.store offset=80 (local.get $at) (local.get $value))
+                (f64.store offset=120 (local.get $at) (f64.const 1))
+                (br $pushed)))
+            (local.set $value (f64.mul (f64.const 0.5) (f64.add (f64.load offset=80 (local.get $at)) (local.get $value))))
+            (f64.store offset=120 (local.get $at) (f64.const 0))
+            (local.set $level (i32.add (local.get $level) (i32.const 1)))
+            (br $cascade)))
+        (local.set $at (i32.shl (local.get $bin) (i32.const 3)))
+        (f64.store (i32.add (global.get $STATE) (local.get $at)) (f64.add (f64.load (i32.add (global.get $STATE) (local.get $at))) (local.get $res)))
+        (f64.store (i32.add (local.get $counts) (local.get $at)) (f64.add (f64.load (i32.add (local.get $counts) (local.get $at))) (f64.const 1)))
+        (local.set $sum (f64.add (local.get $sum) (local.get $res)))
+        ;; [cos kφ, sin kφ] for k = 1..8 by angle addition, as in the core.
+        (local.set $cc (f64x2.splat (local.get $c)))
+        (local.set $ss (f64x2.mul (local.get $sign) (f64x2.splat (local.get $s))))
+        (local.set $k (f64x2.replace_lane 1 (local.get $cc) (local.get $s)))
+        (local.set $a1 (f64x2.add (local.get $a1) (local.get $k)))
+        (local.set $k (f64x2.add (f64x2.mul (local.get $k) (local.get $cc)) (f64x2.mul (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $k) (local.get $k)) (local.get $ss))))
+        (local.set $a2 (f64x2.add (local.get $a2) (local.get $k)))
+        (local.set $k (f64x2.add (f64x2.mul (local.get $k) (local.get $cc)) (f64x2.mul (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $k) (local.get $k)) (local.get $ss))))
+        (local.set $a3 (f64x2.add (local.get $a3) (local.get $k)))
+        (local.set $k (f64x2.add (f64x2.mul (local.get $k) (local.get $cc)) (f64x2.mul (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $k) (local.get $k)) (local.get $ss))))
+        (local.set $a4 (f64x2.add (local.get $a4) (local.get $k)))
+        (local.set $k (f64x2.add (f64x2.mul (local.get $k) (local.get $cc)) (f64x2.mul (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $k) (local.get $k)) (local.get $ss))))
+        (local.set $a5 (f64x2.add (local.get $a5) (local.get $k)))
+        (local.set $k (f64x2.add (f64x2.mul (local.get $k) (local.get $cc)) (f64x2.mul (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $k) (local.get $k)) (local.get $ss))))
+        (local.set $a6 (f64x2.add (local.get $a6) (local.get $k)))
+        (local.set $k (f64x2.add (f64x2.mul (local.get $k) (local.get $cc)) (f64x2.mul (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $k) (local.get $k)) (local.get $ss))))
+        (local.set $a7 (f64x2.add (local.get $a7) (local.get $k)))
+        (local.set $k (f64x2.add (f64x2.mul (local.get $k) (local.get $cc)) (f64x2.mul (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $k) (local.get $k)) (local.get $ss))))
+        (local.set $a8 (f64x2.add (local.get $a8) (local.get $k)))
+        (local.set $count (f64.add (local.get $count) (f64.const 1)))
+        (local.set $radiusSum (f64.add (local.get $radiusSum) (local.get $r)))
+        (br $next)))
+    (f64.store (global.get $SUMS) (local.get $sum))
+    (f64.store offset=8 (global.get $SUMS) (local.get $count))
+    (v128.store offset=16 (global.get $SUMS) (local.get $a1))
+    (v128.store offset=32 (global.get $SUMS) (local.get $a2))
+    (v128.store offset=48 (global.get $SUMS) (local.get $a3))
+    (v128.store offset=64 (global.get $SUMS) (local.get $a4))
+    (v128.store offset=80 (global.get $SUMS) (local.get $a5))
+    (v128.store offset=96 (global.get $SUMS) (local.get $a6))
+    (v128.store offset=112 (global.get $SUMS) (local.get $a7))
+    (v128.store offset=128 (global.get $SUMS) (local.get $a8))
+    (f64.store offset=144 (global.get $SUMS) (local.get $radiusSum)))
+)

@@ -1,11 +1,14 @@
 // The capture analyses' WebAssembly kernels (src/accel/analysis-kernels.ts) against the core's own loops: the
-// phase-domain estimator with createPhaseDomainSums, and the model watch with createModelWatchChunkSums, give the
-// core's results bit for bit (each sum is the core's sequential sum; only independent sums share a vector). Motions,
-// noise and radii are invented.
+// phase-domain estimator with createPhaseDomainSums, the radius residual with createResidualRun and the model watch
+// with createModelWatchChunkSums give the core's results bit for bit (each sum is the core's sequential sum; only
+// independent sums share a vector), and the kernels' atan2 is Math.atan2's to the bit. Motions, noise and radii are
+// invented.
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { createModelWatch, createPhaseDomainEstimator, createRandom, type ModelWatchEvent } from '../../src/core/index.js';
-import { createModelWatchChunkSums, createPhaseDomainSums } from '../../src/accel/index.js';
+import { createModelWatch, createPhaseDomainEstimator, createRandom, createResidualAnalyzer, type ModelWatchEvent } from '../../src/core/index.js';
+import { createModelWatchChunkSums, createPhaseDomainSums, createResidualRun } from '../../src/accel/index.js';
+import { ANALYSIS_KERNELS_WASM_BASE64 } from '../../src/accel/analysis-kernels-wasm.js';
+import { instantiate } from '../../src/accel/wasm.js';
 import '../support/property-seed.js';
 
 /** The bits of every number in a value (NaN and −0 included), for an exact comparison. */
@@ -44,6 +47,75 @@ describe('analysis kernels', () => {
   it('exist on this engine (WebAssembly SIMD)', () => {
     expect(createPhaseDomainSums()).not.toBeNull();
     expect(createModelWatchChunkSums()).not.toBeNull();
+    expect(createResidualRun()).not.toBeNull();
+  });
+
+  it('atan2: Math.atan2 to the bit, for any doubles, points on and near the unit circle and the special values', () => {
+    const kernel = instantiate<{ atan2(y: number, x: number): number }>(ANALYSIS_KERNELS_WASM_BASE64)!;
+    const special = [0, -0, 1, -1, 0.5, 1.5, 2 ** -27, 2 ** -29, 0.4375, 0.6875, 1.1875, 2.4375, 2 ** 60, 2 ** 66, 5e-324, 1e-300, 1e300, Infinity, -Infinity, Number.NaN];
+    const values = [...special, ...special.map((value) => -value)];
+    for (const y of values) for (const x of values) expect(bits(kernel.atan2(y, x))).toBe(bits(Math.atan2(y, x)));
+    const anyDouble = fc.double({ noDefaultInfinity: false });
+    const onCircle = fc.tuple(fc.double({ min: -Math.PI, max: Math.PI, noNaN: true }), fc.double({ min: 0.5, max: 2, noNaN: true })).map(([angle, r]) => [r * Math.sin(angle), r * Math.cos(angle)] as const);
+    fc.assert(
+      fc.property(fc.oneof(fc.tuple(anyDouble, anyDouble), onCircle), ([y, x]) => {
+        expect(bits(kernel.atan2(y, x))).toBe(bits(Math.atan2(y, x)));
+      }),
+      { numRuns: 20_000 },
+    );
+  });
+
+  it('radius residual: the same summary, binned radius and radius over time as the core loop, for any samples, masks and blocks', () => {
+    fc.assert(
+      fc.property(
+        fc.record({
+          seed: fc.integer({ min: 0, max: 2 ** 32 - 1 }),
+          samples: fc.integer({ min: 1, max: 12_000 }),
+          bins: fc.integer({ min: 32, max: 4096 }),
+          segments: fc.integer({ min: 8, max: 64 }),
+          // A radius harmonic, drift and noise (relative), a phase step a sample (rad).
+          harmonic: fc.double({ min: 0, max: 0.05, noNaN: true }),
+          noise: fc.double({ min: 0, max: 0.02, noNaN: true }),
+          step: fc.double({ min: -1, max: 1, noNaN: true }),
+          holeEvery: fc.oneof(fc.constant(0), fc.integer({ min: 1, max: 500 })),
+          masked: fc.boolean(),
+          block: fc.integer({ min: 1, max: 9000 }),
+          skip: fc.integer({ min: 0, max: 5000 }),
+        }),
+        ({ seed, samples, bins, segments, harmonic, noise, step, holeEvery, masked, block, skip }) => {
+          const random = createRandom(seed);
+          const u = new Float64Array(samples);
+          const v = new Float64Array(samples);
+          const use = new Uint8Array(samples).fill(1);
+          for (let i = 0; i < samples; i++) {
+            const phase = step * i + 0.3 * random.gaussian();
+            const r = 1 + harmonic * Math.cos(3 * phase + 0.4) + 1e-3 * Math.sin(i / 900) + noise * random.gaussian();
+            u[i] = r * Math.cos(phase);
+            v[i] = r * Math.sin(phase);
+            if (holeEvery > 0 && i % holeEvery === 0) {
+              if (masked) use[i] = 0;
+              else u[i] = [Number.NaN, 0, Infinity, 1e300][(i / holeEvery) % 4]!;
+              if (!masked && (i / holeEvery) % 4 === 1) v[i] = 0;
+            }
+          }
+          const core = createResidualAnalyzer({ bins, segments });
+          const fast = createResidualAnalyzer({ bins, segments, run: createResidualRun()! });
+          for (const analyzer of [core, fast]) {
+            for (let at = 0, k = 0; at < samples; k++) {
+              const n = Math.min(block, samples - at);
+              // Blocks left out between analysed ones, as a long capture's schedule does.
+              if (k % 3 === 2) analyzer.skip(skip);
+              analyzer.add(u.subarray(at), v.subarray(at), n, masked ? use.subarray(at) : undefined);
+              at += n;
+            }
+          }
+          expect(bits(fast.summary())).toEqual(bits(core.summary()));
+          expect(bits(fast.radiusByPhase())).toEqual(bits(core.radiusByPhase()));
+          expect(bits(fast.radiusOverTime())).toEqual(bits(core.radiusOverTime()));
+        },
+      ),
+      { numRuns: 80 },
+    );
   });
 
   it('phase-domain estimator: the same summary, binned error and windows as the core loops, for any motion, orders and blocks', () => {
@@ -137,5 +209,6 @@ describe('analysis kernels', () => {
   it('check what they are given: a kernel that is not a function is refused', () => {
     expect(() => createPhaseDomainEstimator({ sums: 3 as never })).toThrow(/sums must be a function/);
     expect(() => createModelWatch({ chunkSums: {} as never })).toThrow(/chunkSums must be a function/);
+    expect(() => createResidualAnalyzer({ run: 'fast' as never })).toThrow(/run must be a function/);
   });
 });

@@ -14,7 +14,7 @@ export type { EllipseFit, EllipseFitMethodOptions } from './methods.js';
 export { createOnlineCorrection } from './online.js';
 export type { OnlineCorrection, OnlineCorrectionOptions, OnlineCorrectionStatus } from './online.js';
 export { createResidualAnalyzer, RESIDUAL_ORDERS, residualMeaning } from './residual.js';
-export type { RadiusOverTime, ResidualAnalyzer, ResidualAnalyzerOptions, ResidualMeaning, ResidualSummary } from './residual.js';
+export type { RadiusOverTime, ResidualAnalyzer, ResidualAnalyzerOptions, ResidualMeaning, ResidualRun, ResidualSummary } from './residual.js';
 export { createHarmonicCorrection, createHarmonicEstimator, MAX_HARMONIC_ORDER } from './harmonics.js';
 export type { HarmonicCorrection, HarmonicEstimate, HarmonicEstimator, HarmonicEstimatorOptions, PhaseHarmonics } from './harmonics.js';
 export { createModelWatch, MODEL_WATCH_ALARM, MODEL_WATCH_CHUNK_SAMPLES } from './model-watch.js';

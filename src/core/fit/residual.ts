@@ -8,7 +8,7 @@
 // of position. The radius is seen directly; the phase error is not (it hides in the motion), which is why the
 // radius is the witness.
 
-import { integerInRange } from '../options.js';
+import { integerInRange, OptionError } from '../options.js';
 import { TWO_PI } from '../phase.js';
 
 /** Radius harmonics reported: orders 1..RESIDUAL_ORDERS of the corrected phase (the analyzer's loop is written out for 8). */
@@ -25,7 +25,31 @@ export interface ResidualAnalyzerOptions {
   readonly bins?: number;
   /** Time segments of the radius-over-time series; pairs merge when the capture outgrows them. Default 128; integer 8..4096. */
   readonly segments?: number;
+  /**
+   * The analysis of a segment's samples (see ResidualRun). Default: this module's loop; src/accel's createResidualRun
+   * gives the same doubles faster.
+   */
+  readonly run?: ResidualRun;
 }
+
+/**
+ * Analyses samples from..to−1 of (u, v) (those with `use[i]` 0 or a radius not in (0, ∞) left out) as the analyzer's
+ * own loop does, sample by sample in order: `state` holds, and is updated in place, the Σ(r − 1) and count per phase
+ * bin (bins each), then the noise cascade's previous, has-previous, half, has-half, Σ of squares and differences
+ * (NOISE_LEVELS each, has-… as 0 or 1); `sums` receives Σ(r − 1), the samples analysed, Σcos kφ and Σsin kφ for
+ * k = 1..RESIDUAL_ORDERS in pairs, and Σr.
+ */
+export type ResidualRun = (
+  u: ArrayLike<number>,
+  v: ArrayLike<number>,
+  from: number,
+  to: number,
+  use: ArrayLike<number> | undefined,
+  bins: number,
+  binPerRad: number,
+  state: Float64Array,
+  sums: Float64Array,
+) => void;
 
 export interface ResidualSummary {
   /** Samples analysed. */
@@ -80,18 +104,20 @@ export function createResidualAnalyzer(options: ResidualAnalyzerOptions = {}): R
   const bins = integerInRange('bins', options.bins ?? 64, 32, 4096);
   const segments = integerInRange('segments', options.segments ?? 128, 8, 4096);
   const binPerRad = bins / TWO_PI;
-  const binSums = new Float64Array(bins);
-  const binCounts = new Float64Array(bins);
+  const runKernel = options.run;
+  if (runKernel !== undefined && typeof runKernel !== 'function') throw new OptionError('run', 'a function', runKernel);
+  // The state a ResidualRun updates, in one array: per bin Σ(r − 1) and count, then the noise cascade.
+  const state = new Float64Array(2 * bins + 6 * NOISE_LEVELS);
+  const binSums = state.subarray(0, bins);
+  const binCounts = state.subarray(bins, 2 * bins);
+  const kernelSums = new Float64Array(3 + 2 * RESIDUAL_ORDERS);
   // Per segment: Σ(r − 1), count, then Σcos kφ and Σsin kφ for k = 1..ORDERS (to remove the phase-locked part later).
   const stride = 2 + 2 * RESIDUAL_ORDERS;
   const segmentSums = new Float64Array(segments * stride);
   // Noise colour: a cascade of pairwise averages; per level the previous average, a pending half and Σ of squared differences.
-  const previous = new Float64Array(NOISE_LEVELS);
-  const hasPrevious = new Uint8Array(NOISE_LEVELS);
-  const half = new Float64Array(NOISE_LEVELS);
-  const hasHalf = new Uint8Array(NOISE_LEVELS);
-  const squares = new Float64Array(NOISE_LEVELS);
-  const differences = new Float64Array(NOISE_LEVELS);
+  const [previous, hasPrevious, half, hasHalf, squares, differences] = [0, 1, 2, 3, 4, 5].map((k) =>
+    state.subarray(2 * bins + k * NOISE_LEVELS, 2 * bins + (k + 1) * NOISE_LEVELS),
+  ) as [Float64Array, Float64Array, Float64Array, Float64Array, Float64Array, Float64Array];
   let segmentSamples = 1; // samples per segment, doubling as the capture grows
   // Sample index, samples analysed and Σ radius, in a typed array: the loop keeps closure numbers boxed and
   // allocated a heap number per sample.
@@ -149,7 +175,17 @@ export function createResidualAnalyzer(options: ResidualAnalyzerOptions = {}): R
         continue;
       }
       const segment = Math.floor((first + i) / segmentSamples);
-      i = run(u, v, i, Math.min(length, (segment + 1) * segmentSamples - first), use, segment * stride);
+      const to = Math.min(length, (segment + 1) * segmentSamples - first);
+      if (runKernel === undefined) i = run(u, v, i, to, use, segment * stride);
+      else {
+        runKernel(u, v, i, to, use, bins, binPerRad, state, kernelSums);
+        // Added as run adds its own sums, in the same order.
+        const base = segment * stride;
+        for (let k = 0; k < stride; k++) segmentSums[base + k] += kernelSums[k]!;
+        totals[1] += kernelSums[1]!;
+        totals[2] += kernelSums[stride]!;
+        i = to;
+      }
     }
     totals[0] = first + length;
   }
