@@ -1,4 +1,4 @@
-// `npm run bench [-- --json] [-- --reference] [-- --tools] [-- --capture] [-- --replay] [-- --stream] [-- --live] [-- --accuracy] [-- --all]`:
+// `npm run bench [-- --json] [-- --reference] [-- --tools] [-- --analyses] [-- --capture] [-- --replay] [-- --stream] [-- --live] [-- --accuracy] [-- --all]`:
 // measures the core stages, the whole pipeline (plain and with the WebAssembly front ends) and the decoder (always), and on request the capture readers,
 // replay from files, the stream API and the WebSocket feed, live tracking through a pseudo-terminal (needs socat) and the accuracy of
 // the ellipse fits; prints a table or one JSON document.
@@ -7,6 +7,7 @@ import { runAccuracyBenchmark, formatAccuracyTable } from './accuracy.js';
 import { execFileSync } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
 import { ACCEL_CASE_NAMES, accelCases } from './cases/accel.js';
+import { analysesCases } from './cases/analyses.js';
 import { captureCases } from './cases/capture.js';
 import { coreCases, heapGrowth } from './cases/core.js';
 import { decoderCases, type DecoderBenchCase } from './cases/decoder.js';
@@ -29,6 +30,7 @@ const { values } = parseArgs({
     stream: { type: 'boolean', default: false },
     reference: { type: 'boolean', default: false },
     tools: { type: 'boolean', default: false },
+    analyses: { type: 'boolean', default: false },
     'tools-samples': { type: 'string', default: String(3e7) },
     'tools-memory-samples': { type: 'string', default: `${1e7},${1e8}` },
     'listen-memory-samples': { type: 'string', default: `${1e7},${1e8}` },
@@ -109,6 +111,10 @@ if (values.reference || values.all) {
     bestOverVectorisedC: best / rate('reference/c-vectorised-poly'),
   };
   log(`fastest pipeline variant: ${fastest}`);
+}
+if (values.analyses || values.all) {
+  results.push(...analysesCases());
+  log('measured the capture analyses, core and accelerated');
 }
 if (values.capture || values.all) {
   results.push(...(await captureCases()));
