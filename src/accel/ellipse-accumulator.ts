@@ -26,8 +26,31 @@ const GATE_BYTE = 2304;
 const X_BYTE = 4096;
 const Y_BYTE = X_BYTE + 8 * CHUNK;
 const CELLS_BYTE = Y_BYTE + 8 * CHUNK;
+/** The grid bits the last flush took from the cell bytes. */
+const FLUSHED_BYTE = CELLS_BYTE + GRID * GRID;
 /** Where the kernel's running sum of each moment (`momentIndex` order) is, from Σ u on; Σ 1 is the count summed. */
 const RUNNING = [0, 1, 2, 3, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14];
+
+/**
+ * What another WebAssembly accumulator's fused `addWithin` (its `all`) needs of this one. The grid marks of the
+ * chunks summed for both stay in the other's cell bytes until one of the two needs its grid (`owe`, `settle`): the
+ * bytes are flushed once for both, not once a chunk.
+ */
+interface Partner {
+  /**
+   * True when this accumulator sums about (shiftX, shiftY) on a grid of that half-width (the caller's, whose kernel
+   * summed every pair itself, so its half-width is not 0 and this one, reset, would have another).
+   */
+  inFrame(shiftX: number, shiftY: number, gridHalfWidth: number): boolean;
+  /** Adds the moments `add` of `count` finite pairs inside the grid adds (their running sums). */
+  absorb(running: Float64Array, count: number): void;
+  /** The other holds grid marks of this one's: `flush` (which settles them here) before this grid is read or changed. */
+  owe(flush: () => void): void;
+  /** ORs the marks owed into the grid. */
+  settle(bits: Uint32Array): void;
+}
+
+const partners = new WeakMap<EllipseAccumulator, Partner>();
 
 /**
  * An `EllipseAccumulator` whose `add` runs in WebAssembly SIMD, with the same state after any sequence of calls
@@ -56,9 +79,13 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   const moments = new Float64Array(MOMENT_COUNT);
   const scratch = new Float64Array(MOMENT_COUNT);
   const cells = new Uint8Array(memory, CELLS_BYTE, GRID * GRID);
+  const flushed = new Uint32Array(memory, FLUSHED_BYTE, occupancy.length);
   const zoomed = new Uint32Array(occupancy.length);
-  // The kernel marks cells as bytes; `marked` says some may not be in the bits yet.
+  // The kernel marks cells as bytes; `marked` says some may not be in the bits yet. `sharedWith`: all the bytes are
+  // also the marks of that accumulator (fused addWithin), `owedBy`: another's bytes hold marks of this grid.
   let marked = false;
+  let sharedWith: Partner | null = null;
+  let owedBy: (() => void) | null = null;
   let shiftX = 0;
   let shiftY = 0;
   let hasShift = false;
@@ -67,8 +94,13 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
 
   // mark and zoomOut are the core's (zoomOut after a flush) (accumulator.ts), over the grid in the kernel's memory.
   function flush(): void {
+    if (owedBy !== null) owedBy();
     if (marked) kernel!.flush();
     marked = false;
+    if (sharedWith !== null) {
+      sharedWith.settle(flushed);
+      sharedWith = null;
+    }
   }
 
   function zoomOut(): void {
@@ -111,16 +143,22 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
     }
   }
 
-  /** Adds the chunk's first n pairs to the running sums. */
-  function sumChunk(n: number): void {
+  /**
+   * Adds the chunk's first n pairs to the running sums, marking the cell bytes for this accumulator and `shared`. True
+   * when the shift was set before and the kernel summed and marked every pair itself (all finite, on the grid as it was).
+   */
+  function sumChunk(n: number, shared: Partner | null = null): boolean {
+    // Bytes marked for others than these are settled first; a zoom out (in mark) settles them too.
+    if (sharedWith !== shared) flush();
     let i = 0;
+    let clean = hasShift;
     if (!hasShift) {
       // The first finite pair sets the shift; the kernel then sums it (u = v = 0) and skips those before it.
       let first = 0;
       while (first < n && !(Number.isFinite(chunkX[first]!) && Number.isFinite(chunkY[first]!))) first++;
       if (first === n) {
         skippedWord[0] += n;
-        return;
+        return false;
       }
       shiftX = chunkX[first]!;
       shiftY = chunkY[first]!;
@@ -131,8 +169,10 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
       const at = kernel!.sums(i, n, shiftX, shiftY, gridHalfWidth, GRID / (2 * gridHalfWidth));
       if (at >= 0) break;
       i = -at;
+      clean = false;
       mark(chunkX[i - 1]! - shiftX, chunkY[i - 1]! - shiftY);
     }
+    return clean && skippedWord[0] === 0;
   }
 
   /** Adds the running sums of `count` pairs to the moments, as the core's add does at its end. */
@@ -169,7 +209,15 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
     highRadius: number,
     band: number,
     near: Float64Array,
+    all?: EllipseAccumulator,
   ): void {
+    // A block of one chunk is summed once for both accumulators while the gate keeps all of it and both sum about the
+    // same shift on the same grid; any other `all` gets its own add, as if it came first.
+    let partner = all === undefined ? undefined : partners.get(all);
+    if (all !== undefined && (partner === undefined || all === accumulator || length > CHUNK)) {
+      all.add(x, y, length);
+      partner = undefined;
+    }
     // keepWithin's constants, computed as it computes them.
     const low2 = lowRadius * lowRadius, high2 = highRadius * highRadius;
     const surelyAbove = low2 * (1 + 1e-6), surelyUnder = high2 * (1 - 1e-6);
@@ -201,7 +249,22 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
       }
       near[0] += gateCounts[1]!;
       const kept = gateCounts[0]!;
-      sumChunk(kept);
+      if (partner === undefined) {
+        sumChunk(kept);
+      } else if (kept === n && partner.inFrame(shiftX, shiftY, gridHalfWidth)) {
+        // The chunk is still the block as it came (the gate moved no pair), and both grids mark the same cells.
+        if (sumChunk(kept, partner)) {
+          partner.absorb(running, kept);
+          if (sharedWith === null) partner.owe(flush);
+          sharedWith = partner;
+        } else {
+          // A zoom out settled the bytes; the partner sums the block itself (marking again the cells settled).
+          all!.add(x, y, length);
+        }
+      } else {
+        sumChunk(kept);
+        all!.add(x, y, length);
+      }
       endAdd(kept);
     }
   }
@@ -236,6 +299,7 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   }
 
   function reset(): void {
+    flush(); // settles the marks shared with another accumulator, or owed by one
     moments.fill(0);
     occupancy.fill(0);
     cells.fill(0);
@@ -263,5 +327,21 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
       return state();
     },
   };
+  partners.set(accumulator, {
+    inFrame: (otherX, otherY, otherHalfWidth) =>
+      Object.is(otherX, shiftX) && Object.is(otherY, shiftY) && otherHalfWidth === gridHalfWidth,
+    absorb(sums, count) {
+      moments[0] += count;
+      for (let k = 1; k < MOMENT_COUNT; k++) moments[k] += sums[RUNNING[k - 1]!]!;
+    },
+    owe(settleThem) {
+      if (owedBy !== null && owedBy !== settleThem) owedBy();
+      owedBy = settleThem;
+    },
+    settle(bits) {
+      owedBy = null;
+      for (let w = 0; w < occupancy.length; w++) occupancy[w] |= bits[w]!;
+    },
+  });
   return accumulator;
 }

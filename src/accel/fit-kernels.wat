@@ -8,7 +8,8 @@
 ;; [s10 s01] [s20 s11] [- s02] [s30 s21] [s12 s03] [s40 s31] [s22 s13] [s04 -]), the count of skipped non-finite
 ;; pairs at 2176 (i32), x at 4096 and y at 36864 (4096 f64 each), and a byte per grid cell at 69632 (128×128):
 ;; the loop marks a cell with a store (128), and `flush` ORs the bytes into the bits, so that no marking waits on
-;; the previous one's read of the same word.
+;; the previous one's read of the same word; `flush` also writes the bits it took from the bytes at 86016 (128×128
+;; bits), which the caller ORs into a second grid that the same pairs mark (the two-pass fit's fused second pass).
 ;; The gate (`gate`): the count of pairs kept at 2180 and of those near the bounds at 2184 (i32), its constants at
 ;; 2304, each in both lanes (15 f64x2: the correction's kux ku0 kvx kvy kv0, then keepWithin's squared bounds
 ;; surelyAbove surelyUnder surelyBelow surelyOver lowIn lowOut highIn highOut, then max(surelyAbove, lowOut) and
@@ -96,13 +97,14 @@
     (i32.store offset=2176 (i32.const 0) (local.get $skipped))
     (local.get $result))
 
-  ;; flush(): ORs the marked cell bytes into the grid's bits and clears them.
+  ;; flush(): ORs the marked cell bytes into the grid's bits, writes those bits at 86016 too, and clears the bytes.
   (func (export "flush")
     (local $w i32) (local $bits i32)
     (loop $word
       (local.set $bits (i32.or
         (i8x16.bitmask (v128.load offset=69632 (i32.shl (local.get $w) (i32.const 5))))
         (i32.shl (i8x16.bitmask (v128.load offset=69648 (i32.shl (local.get $w) (i32.const 5)))) (i32.const 16))))
+      (i32.store offset=86016 (i32.shl (local.get $w) (i32.const 2)) (local.get $bits))
       (if (local.get $bits)
         (then
           (i32.store (i32.shl (local.get $w) (i32.const 2)) (i32.or (i32.load (i32.shl (local.get $w) (i32.const 2))) (local.get $bits)))

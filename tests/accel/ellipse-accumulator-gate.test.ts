@@ -82,3 +82,107 @@ describe('WebAssembly ellipse accumulator, gated add', () => {
     );
   });
 });
+
+// Blocks mostly kept whole by the gate (radii within it), so that the fused second pass sums most of them once for
+// both accumulators; some with pairs dropped, glitches that zoom the grid out, and blocks longer than a chunk.
+const keptSamples = ellipseRuns(ellipse, {
+  radius: fc.oneof(
+    { weight: 6, arbitrary: fc.double({ min: 0.6, max: 1.4, noNaN: true }) },
+    { weight: 1, arbitrary: fc.constantFrom(0, 0.3, 1.6, 2.5) },
+  ),
+  glitches: [Number.NaN, Infinity, 3e5, -1e6],
+  maxRepeat: 1500,
+  maxRuns: 4,
+});
+
+type PairStep =
+  | { kind: 'within'; x: Float64Array; y: Float64Array }
+  | { kind: 'add' | 'merge'; to: 'all' | 'gated'; x: Float64Array; y: Float64Array }
+  | { kind: 'reset' | 'read'; to: 'all' | 'gated' };
+const to = fc.constantFrom<'all' | 'gated'>('all', 'gated');
+const pairSteps = fc.array(
+  fc.oneof(
+    { weight: 12, arbitrary: keptSamples.map((p): PairStep => ({ kind: 'within', ...p })) },
+    { weight: 1, arbitrary: fc.tuple(fc.constantFrom<'add' | 'merge'>('add', 'merge'), to, keptSamples).map(([kind, which, p]): PairStep => ({ kind, to: which, ...p })) },
+    { weight: 1, arbitrary: fc.tuple(fc.constantFrom<'reset' | 'read'>('reset', 'read'), to).map(([kind, which]): PairStep => ({ kind, to: which })) },
+  ),
+  { minLength: 1, maxLength: 14 },
+);
+
+describe('WebAssembly ellipse accumulator, gated add with every pair also added to another (the fused second pass)', () => {
+  it('leaves both as all.add then addWithin would, after any steps on either (their grids read only now and then)', () => {
+    const { coefficients } = createCorrection({ calibration: ellipse });
+    fc.assert(
+      fc.property(pairSteps, (steps) => {
+        const fast = { all: createWasmEllipseAccumulator()!, gated: createWasmEllipseAccumulator()! };
+        const core = { all: createEllipseAccumulator(), gated: createEllipseAccumulator() };
+        const fastNear = new Float64Array(1);
+        const coreNear = new Float64Array(1);
+        for (const step of steps) {
+          if (step.kind === 'within') {
+            fast.gated.addWithin!(step.x, step.y, step.x.length, coefficients, 0.5, 1.5, 0.02, fastNear, fast.all);
+            core.all.add(step.x, step.y, step.x.length);
+            plainWithin(core.gated, step.x, step.y, coefficients, coreNear);
+          } else if (step.kind === 'add') {
+            fast[step.to].add(step.x, step.y, step.x.length);
+            core[step.to].add(step.x, step.y, step.x.length);
+          } else if (step.kind === 'merge') {
+            const other = createEllipseAccumulator();
+            other.add(step.x, step.y, step.x.length);
+            fast[step.to].merge(other);
+            core[step.to].merge(other);
+          } else if (step.kind === 'reset') {
+            fast[step.to].reset();
+            core[step.to].reset();
+          } else {
+            expectSameState(fast[step.to], core[step.to]);
+          }
+        }
+        expectSameState(fast.all, core.all);
+        expectSameState(fast.gated, core.gated);
+        expect(fastNear[0]).toBe(coreNear[0]);
+      }),
+      { numRuns: 150 },
+    );
+  });
+});
+
+describe('WebAssembly ellipse accumulator, fused second pass, examples', () => {
+  const { coefficients } = createCorrection({ calibration: ellipse });
+  // Points of the invented ellipse at phase p (radius 1, kept by the gate).
+  const at = (p: number): [number, number] => [ellipse.offsetX + ellipse.amplitudeX * Math.cos(p), ellipse.offsetY + ellipse.amplitudeY * Math.sin(p + ellipse.phaseErrorRad)];
+  const arc = (from: number, count: number) => {
+    const x = new Float64Array(count), y = new Float64Array(count);
+    for (let i = 0; i < count; i++) [x[i], y[i]] = at(from + i * 0.001);
+    return { x, y };
+  };
+
+  function both(blocks: readonly { x: Float64Array; y: Float64Array; gatedOnly?: boolean }[]): void {
+    const fastAll = createWasmEllipseAccumulator()!, fastGated = createWasmEllipseAccumulator()!;
+    const coreAll = createEllipseAccumulator(), coreGated = createEllipseAccumulator();
+    const near = new Float64Array(1);
+    for (const { x, y, gatedOnly } of blocks) {
+      if (gatedOnly === true) {
+        fastGated.add(x, y, x.length);
+        coreGated.add(x, y, x.length);
+      } else {
+        fastGated.addWithin!(x, y, x.length, coefficients, 0.5, 1.5, 0.02, near, fastAll);
+        coreAll.add(x, y, x.length);
+        plainWithin(coreGated, x, y, coefficients, new Float64Array(1));
+      }
+    }
+    expectSameState(fastAll, coreAll);
+    expectSameState(fastGated, coreGated);
+  }
+
+  it('sums apart when the two shifts differ on grids of the same size', () => {
+    // The first pair (the ellipse's centre) is dropped by the gate: the shifts differ, the grids are both 18000 wide
+    // (9000 from either shift to the farthest pair of the first block).
+    const first = { x: Float64Array.of(ellipse.offsetX, ellipse.offsetX + 9000, ellipse.offsetX), y: Float64Array.of(ellipse.offsetY, ellipse.offsetY, at(Math.PI / 2)[1]) };
+    both([first, arc(0.5, 1000), arc(1.5, 4096)]);
+  });
+
+  it('keeps the marks of a pair added to the gated accumulator alone out of the other grid', () => {
+    both([arc(0, 4096), arc(0.2, 300), { ...arc(5, 1), gatedOnly: true }, arc(0.4, 300)]);
+  });
+});

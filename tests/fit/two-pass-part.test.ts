@@ -5,7 +5,8 @@
 // glitches, standing still with motion the part misses, too little motion.
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { createQuadratureSynthesizer, createTwoPassFit, spreadWindows, type EllipseFitResult } from '../../src/core/index.js';
+import { createQuadratureSynthesizer, createTwoPassFit, spreadWindows, type EllipseAccumulator, type EllipseFitResult } from '../../src/core/index.js';
+import { createWasmEllipseAccumulator } from '../../src/accel/index.js';
 import '../support/property-seed.js';
 
 const ellipse = { offsetX: 120, offsetY: -80, amplitudeX: 9000, amplitudeY: 8200, phaseErrorRad: 0.07 };
@@ -45,8 +46,11 @@ function feed(fit: ReturnType<typeof createTwoPassFit>, x: Float64Array, y: Floa
   }
 }
 
-/** The plain two-pass fit over every sample, and the fit with a spread part first; and how many passes over every sample it made. */
-function both(x: Float64Array, y: Float64Array, samples: number): { plain: EllipseFitResult; withPart: EllipseFitResult; passes: number } {
+/**
+ * The plain two-pass fit over every sample, and the fit with a spread part first (its sums in `createAccumulator`'s,
+ * default the core's); and how many passes over every sample it made.
+ */
+function both(x: Float64Array, y: Float64Array, samples: number, createAccumulator?: () => EllipseAccumulator): { plain: EllipseFitResult; withPart: EllipseFitResult; passes: number } {
   const all = [[0, N]] as const;
   const plainFit = createTwoPassFit();
   let plain: EllipseFitResult | null = null;
@@ -54,7 +58,7 @@ function both(x: Float64Array, y: Float64Array, samples: number): { plain: Ellip
     feed(plainFit, x, y, all);
     plain = plainFit.endPass();
   }
-  const fit = createTwoPassFit();
+  const fit = createTwoPassFit(createAccumulator === undefined ? {} : { createAccumulator });
   feed(fit, x, y, spreadWindows(N, samples)!);
   expect(fit.endPass(true)).toBeNull();
   let withPart: EllipseFitResult | null = null;
@@ -76,6 +80,16 @@ describe('two-pass fit with a first pass over a part', () => {
         expect(passes).toBeLessThanOrEqual(3);
       }),
       { numRuns: 60 },
+    );
+  });
+
+  it('gives it too with the accumulator of src/accel (its second pass sums for both fits at once)', () => {
+    fc.assert(
+      fc.property(captures, fc.constantFrom(640, 2048, 8192), ({ x, y }, samples) => {
+        const { plain, withPart } = both(x, y, samples, () => createWasmEllipseAccumulator()!);
+        expect(withPart).toEqual(plain);
+      }),
+      { numRuns: 30 },
     );
   });
 

@@ -14,7 +14,9 @@ export interface EllipseAccumulator {
   /**
    * Optional (src/accel's accumulator has it; the core's does not, to stay small): the two-pass fit's second pass,
    * the same as `keepWithin` (src/core/fit/two-pass.ts) over each successive 4096 of the `length` pairs, each followed
-   * by `add` of the pairs it keeps, to the bit (kept pairs, sums and `near`).
+   * by `add` of the pairs it keeps, to the bit (kept pairs, sums and `near`). With `all`, every pair is also added to
+   * `all` as `all.add(x, y, length)` would add it: src/accel's accumulator sums a block once for both while the gate
+   * keeps all of it and both sum about the same shift on the same grid (the two-pass fit's provisional second pass).
    */
   addWithin?(
     x: ArrayLike<number>,
@@ -25,6 +27,7 @@ export interface EllipseAccumulator {
     highRadius: number,
     band: number,
     near: Float64Array,
+    all?: EllipseAccumulator,
   ): void;
   /** Adds another accumulator's samples, as if they had been added here. */
   merge(other: EllipseAccumulator): void;

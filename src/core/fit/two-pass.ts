@@ -134,11 +134,11 @@ export function createTwoPassFit(options: TwoPassFitOptions = {}): TwoPassFit {
       accumulator.add(x, y, length);
       return;
     }
-    if (provisional) whole.add(x, y, length);
     if (accumulator.addWithin !== undefined) {
-      accumulator.addWithin(x, y, length, correction.coefficients, 1 - GATE, 1 + GATE, BAND, near);
+      accumulator.addWithin(x, y, length, correction.coefficients, 1 - GATE, 1 + GATE, BAND, near, provisional ? whole : undefined);
       return;
     }
+    if (provisional) whole.add(x, y, length);
     for (let start = 0; start < length; start += CHUNK) {
       const kept = keepWithin(x, y, start, Math.min(length, start + CHUNK), correction.coefficients, 1 - GATE, 1 + GATE, keptX, keptY, BAND, near);
       accumulator.add(keptX, keptY, kept);
