@@ -1,4 +1,4 @@
-// Assembles the WebAssembly text (SIMD) of src/accel — front-end.wat, axis-kernels.wat (twice), fit-kernels.wat, csv-rows.wat, steady-kernel.wat, wire-crc.wat and analysis-kernels.wat — into
+// Assembles the WebAssembly text (SIMD) of src/accel — front-end.wat, axis-kernels.wat (twice), fit-kernels.wat, csv-rows.wat, steady-kernel.wat, wire-crc.wat, analysis-kernels.wat and int16-widen.wat — into
 // src/accel/<name>-wasm.ts (the module's bytes, base64), so the package needs no assembler at run time. Run after
 // editing a .wat: node scripts/build-accel.mjs
 import { readFileSync, writeFileSync } from 'node:fs';
@@ -18,6 +18,7 @@ for (const [name, constant, target = name, shared = false] of [
   ['steady-kernel', 'STEADY_KERNEL_WASM_BASE64'],
   ['wire-crc', 'WIRE_CRC_WASM_BASE64'],
   ['analysis-kernels', 'ANALYSIS_KERNELS_WASM_BASE64'],
+  ['int16-widen', 'INT16_WIDEN_WASM_BASE64'],
 ]) {
   const source = new URL(`../src/accel/${name}.wat`, import.meta.url);
   const output = new URL(`../src/accel/${target}-wasm.ts`, import.meta.url);

@@ -4,7 +4,7 @@
 // (wFormatTag, nChannels, nSamplesPerSec, nAvgBytesPerSec, nBlockAlign, wBitsPerSample); WAVE_FORMAT_PCM = 1,
 // WAVE_FORMAT_IEEE_FLOAT = 3 (mmreg.h); WAVE_FORMAT_EXTENSIBLE = 0xFFFE with cbSize 22, wValidBitsPerSample,
 // dwChannelMask and the SubFormat GUID KSDATAFORMAT_SUBTYPE_PCM 00000001-0000-0010-8000-00AA00389B71 (ksmedia.h).
-import { afterAll, describe, expect, it } from 'vitest';
+import { afterAll, describe, expect, it, vi } from 'vitest';
 import fc from 'fast-check';
 import '../support/property-seed.js';
 import { writeFileSync } from 'node:fs';
@@ -180,7 +180,8 @@ describe('WAV capture errors', () => {
 
 describe('WAV reader properties', () => {
   it('delivers each frame\'s x and y channels for any channel count and pick, read chunk size and block size', async () => {
-    // Adjacent x and y (channels 1 and 2, 2 and 3 …) take the WebAssembly split; others the plain loop.
+    // Adjacent x and y (channels 1 and 2, 2 and 3 …) take the WebAssembly kernel (int16-widen.wat: eight two-channel
+    // frames at a time, other frames one at a time); others, and every pick without WebAssembly, the plain loops.
     await fc.assert(
       fc.asyncProperty(
         fc.integer({ min: 2, max: 4 }).chain((channels) =>
@@ -191,10 +192,18 @@ describe('WAV reader properties', () => {
           }),
         ),
         fc.record({ readChunkBytes: fc.integer({ min: 1, max: 300 }), blockSize: fc.integer({ min: 1, max: 40 }) }),
-        async ({ channels, pick, samples }, sizes) => {
+        fc.boolean(),
+        async ({ channels, pick, samples }, sizes, withWebAssembly) => {
           const data = samples.flatMap((value) => u16(value & 0xffff));
           const path = wavFile('property.wav', riff([chunk('fmt ', fmtBody(1, channels, 1000, 16)), chunk('data', data)]));
-          const got = await collect(path, { ...sizes, xChannel: pick[0]!, yChannel: pick[1]! });
+          // The kernel is made when the capture opens.
+          if (!withWebAssembly) vi.stubGlobal('WebAssembly', undefined);
+          let got;
+          try {
+            got = await collect(path, { ...sizes, xChannel: pick[0]!, yChannel: pick[1]! });
+          } finally {
+            vi.unstubAllGlobals();
+          }
           expect(got.error).toBeNull();
           expect(got.contiguous).toBe(true);
           expect(got.x).toEqual(samples.filter((_, i) => i % channels === pick[0]! - 1));
@@ -202,6 +211,24 @@ describe('WAV reader properties', () => {
         },
       ),
       { numRuns: 150 },
+    );
+  });
+
+  it('delivers two-channel frames through the eight-frame steps of the kernel, their rest and partial frames across reads', async () => {
+    await fc.assert(
+      fc.asyncProperty(
+        fc.array(fc.integer({ min: -32768, max: 32767 }), { maxLength: 3000, size: 'max' }).map((values) => values.slice(0, values.length & ~1)),
+        fc.record({ readChunkBytes: fc.integer({ min: 1, max: 2000 }), blockSize: fc.integer({ min: 1, max: 700 }), xChannel: fc.constantFrom(1, 2) }),
+        async (samples, options) => {
+          const path = wavFile('two.wav', riff([chunk('fmt ', fmtBody(1, 2, 1000, 16)), chunk('data', samples.flatMap((value) => u16(value & 0xffff)))]));
+          const got = await collect(path, { ...options, yChannel: 3 - options.xChannel });
+          expect(got.error).toBeNull();
+          expect(got.blockLengths.every((length, k) => length === options.blockSize || k === got.blockLengths.length - 1)).toBe(true);
+          expect(got.x).toEqual(samples.filter((_, i) => i % 2 === options.xChannel - 1));
+          expect(got.y).toEqual(samples.filter((_, i) => i % 2 === 2 - options.xChannel));
+        },
+      ),
+      { numRuns: 100 },
     );
   });
 });

@@ -9,7 +9,7 @@ import { OptionError } from '../../core/options.js';
 import type { AdcFormat } from '../../core/index.js';
 import type { Capture, CaptureInfo, ChannelSelector } from './types.js';
 import { readWavLayout, type WavLayout } from './wav-header.js';
-import { createWasmAxisKernels } from '../../accel/axis-kernels.js';
+import { createInt16Widener } from '../../accel/int16-widen.js';
 
 export async function openWavCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions): Promise<Capture> {
   const layout = await readWavLayout(file, handle);
@@ -52,50 +52,55 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
   const bytesPerSample = blockAlign / layout.channels;
   const xByte = xChannel * bytesPerSample;
   const yByte = yChannel * bytesPerSample;
-  // Own ArrayBuffer (not the shared pool) so that frames, which always start at a multiple of blockAlign from 0,
-  // are aligned for the Int16Array/Float32Array views on little-endian machines.
-  const storage = new ArrayBuffer(options.readChunkBytes + blockAlign);
-  const buffer = Buffer.from(storage);
+  const blockSize = options.blockSize;
   const littleEndian = endianness() === 'LE';
-  const int16View = littleEndian && layout.encoding === 'int16' ? new Int16Array(storage, 0, storage.byteLength >> 1) : null;
-  const float32View = littleEndian && layout.encoding === 'float32' ? new Float32Array(storage, 0, storage.byteLength >> 2) : null;
+  // Two frame buffers, each with room for a chunk after a partial frame carried over: the next chunk is read into
+  // one (on libuv's thread pool) while the other is decoded, right after the bytes of the partial frame that decoding
+  // will leave (known when the read starts), so no chunk is copied. Frames start at a buffer's first byte, aligned
+  // for the Int16Array/Float32Array views on little-endian machines.
+  const bufferBytes = Math.ceil((options.readChunkBytes + blockAlign) / 16) * 16;
+  // Adjacent int16 x and y: the frame buffers and the blocks in the memory of a WebAssembly SIMD kernel that
+  // decodes the one into the other in a pass (null without WebAssembly SIMD: the views and loops below).
+  const widener = littleEndian && layout.encoding === 'int16' && yChannel === xChannel + 1 ? createInt16Widener(2 * bufferBytes + 16 * blockSize) : null;
+  const storage = widener?.memory ?? new ArrayBuffer(2 * bufferBytes);
+  const frameBuffers = [0, bufferBytes].map((at) => ({
+    at,
+    bytes: Buffer.from(storage, at, bufferBytes),
+    int16: littleEndian && layout.encoding === 'int16' ? new Int16Array(storage, at, bufferBytes >> 1) : null,
+    float32: littleEndian && layout.encoding === 'float32' ? new Float32Array(storage, at, bufferBytes >> 2) : null,
+  }));
+  let current = 0;
   let bufferStart = 0;
   let bufferEnd = 0;
   let filePosition = dataOffset + firstFrame * blockAlign;
   let reachedEnd = false;
 
-  const blockSize = options.blockSize;
-  const xBuffer = new Float64Array(blockSize);
-  const yBuffer = new Float64Array(blockSize);
+  const xBuffer = widener === null ? new Float64Array(blockSize) : new Float64Array(storage, 2 * bufferBytes, blockSize);
+  const yBuffer = widener === null ? new Float64Array(blockSize) : new Float64Array(storage, 2 * bufferBytes + 8 * blockSize, blockSize);
   const extraBuffers = extraChannels.map(() => new Float64Array(blockSize));
-  const channelCount = layout.channels;
-  // Null without WebAssembly SIMD: the loop then.
-  const splitter = int16View !== null && yChannel === xChannel + 1 ? createWasmAxisKernels([2], blockSize) : null;
   let pendingError: Error | null = null;
-
-  // The next chunk is read while this one is decoded (the read runs on libuv's thread pool), then copied in.
-  const staging = Buffer.allocUnsafe(options.readChunkBytes);
   let ahead: Promise<number> | null = null;
 
-  function readAhead(): void {
+  /** Starts reading the next chunk into the frame buffer not being decoded, after `carried` bytes. */
+  function readAhead(carried: number): void {
     const wanted = Math.min(options.readChunkBytes, dataEnd - filePosition);
-    ahead = wanted === 0 ? Promise.resolve(0) : handle.read(staging, 0, wanted, filePosition).then((result) => result.bytesRead);
+    ahead = wanted === 0 ? Promise.resolve(0) : handle.read(frameBuffers[1 - current]!.bytes, carried, wanted, filePosition).then((result) => result.bytesRead);
     // Awaited (and so thrown) by the next refill; this only keeps a pass that ends early from leaving it unhandled.
     ahead.catch(() => undefined);
   }
 
-  /** Keeps a partial frame, takes the next chunk after it; false when the data chunk is used up. */
+  /** Takes the chunk read ahead, after the partial frame left here; false when the data chunk is used up. */
   async function refill(): Promise<boolean> {
     if (reachedEnd) return false;
     const carried = bufferEnd - bufferStart;
-    buffer.copy(buffer, 0, bufferStart, bufferEnd);
-    bufferStart = 0;
-    bufferEnd = carried;
-    if (ahead === null) readAhead();
+    if (ahead === null) readAhead(carried);
     const bytesRead = await ahead!;
     ahead = null;
-    staging.copy(buffer, bufferEnd, 0, bytesRead);
-    bufferEnd += bytesRead;
+    const left = frameBuffers[current]!.bytes;
+    current = 1 - current;
+    left.copy(frameBuffers[current]!.bytes, 0, bufferStart, bufferEnd);
+    bufferStart = 0;
+    bufferEnd = carried + bytesRead;
     filePosition += bytesRead;
     if (bytesRead === 0) {
       reachedEnd = true;
@@ -115,11 +120,12 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
       }
       return false;
     }
-    readAhead();
+    readAhead(bufferEnd % blockAlign);
     return true;
   }
 
   function decode(count: number, frames: number): void {
+    const { at: bufferAt, bytes: buffer, int16: int16View, float32: float32View } = frameBuffers[current]!;
     // Outputs 3 and 4 of three- and four-output detectors: a plain per-sample read, off the two-channel fast paths.
     extraBuffers.forEach((target, index) => {
       const offset = extraChannels[index]! * bytesPerSample;
@@ -128,15 +134,9 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
       }
     });
     let at = bufferStart;
-    if (splitter !== null) {
-      // Adjacent int16 channels: split in WebAssembly SIMD, then widened by typed-array copies (~1 ns a sample
-      // against ~7 for the loop below).
-      const first = at >> 1;
-      splitter.load(int16View!.subarray(first, first + frames * channelCount), frames, channelCount);
-      splitter.split(0, xChannel);
-      const [xs, ys] = splitter.regions[0]!.inputs as [Int16Array, Int16Array];
-      xBuffer.set(xs.subarray(0, frames), count);
-      yBuffer.set(ys.subarray(0, frames), count);
+    if (widener !== null) {
+      // Adjacent int16 channels, from the frame buffer into the blocks in one pass of the kernel.
+      widener.widen(bufferAt + at + xByte, blockAlign, frames, xBuffer.byteOffset + 8 * count, yBuffer.byteOffset + 8 * count);
       at += frames * blockAlign;
     } else if (int16View !== null) {
       deinterleave(int16View, (at + xByte) >> 1, (at + yByte) >> 1, blockAlign >> 1, xBuffer, yBuffer, count, frames);
