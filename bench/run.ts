@@ -13,7 +13,7 @@ import { coreCases, heapGrowth } from './cases/core.js';
 import { decoderCases, type DecoderBenchCase } from './cases/decoder.js';
 import { feedBenchmarks } from './cases/feed.js';
 import { liveBenchmarks } from './cases/live.js';
-import { cCases, JS_MINIMAL_CASE, jsMinimalCase, machine } from './cases/reference.js';
+import { compileReference, JS_MINIMAL_CASE, jsMinimalCase, machine } from './cases/reference.js';
 import { replayCases } from './cases/replay.js';
 import { toolCases } from './cases/tools.js';
 import { listenCases, listenMemoryCases } from './cases/listen.js';
@@ -96,15 +96,39 @@ for (const name of decoderCases().map((benchCase) => benchCase.name)) {
 // Ratios to C and to a minimal JavaScript loop, all in process CPU time and in this run (figures from
 // different runs move by 10–30 % on this kind of machine; ratios within one run move much less).
 let reference: Record<string, number> | null = null;
+/** Rounds of the default pipeline and the plain C case measured one right after the other (see --reference). */
+const PAIRED_ROUNDS = 5;
+const median = (values: readonly number[]) => {
+  const sorted = [...values].sort((a, b) => a - b);
+  const middle = sorted.length >> 1;
+  return sorted.length % 2 === 1 ? sorted[middle]! : (sorted[middle - 1]! + sorted[middle]!) / 2;
+};
 if (values.reference || values.all) {
   results.push(...isolated(JS_MINIMAL_CASE));
-  results.push(...(await cCases()));
-  log('measured the reference implementations');
+  const compiled = await compileReference();
+  // The plain C case moves by up to 2x from one run to the next, and a run measures it a minute after the
+  // pipeline: PAIRED_ROUNDS rounds then measure the default pipeline and the plain C case right after each other,
+  // and their median ratio is the figure least moved by when each ran.
+  const pairedRatios: number[] = [];
+  try {
+    for (const name of compiled.names) results.push(compiled.run(name));
+    log('measured the reference implementations');
+    for (let round = 0; round < PAIRED_ROUNDS; round++) {
+      const ours = isolated('pipeline/int16/block4096/default')[0]!;
+      const plain = compiled.run('reference/c-plain-libm');
+      pairedRatios.push(ours.samplesPerSecond / plain.samplesPerSecond);
+      results.push({ ...ours, name: `reference/paired-${round + 1}/default` }, { ...plain, name: `reference/paired-${round + 1}/c-plain-libm` });
+    }
+    log(`measured ${PAIRED_ROUNDS} paired rounds`);
+  } finally {
+    await compiled.dispose();
+  }
   const rate = (name: string) => results.find((result) => result.name === name)?.samplesPerSecond ?? Number.NaN;
   const best = Math.max(...results.filter((result) => result.name.startsWith('pipeline/int16/block4096/')).map((result) => result.samplesPerSecond));
   const fastest = results.find((result) => result.samplesPerSecond === best)!.name;
   reference = {
     defaultOverPlainC: rate('pipeline/int16/block4096/default') / rate('reference/c-plain-libm'),
+    pairedDefaultOverPlainC: median(pairedRatios),
     defaultOverPlainCNative: rate('pipeline/int16/block4096/default') / rate('reference/c-plain-libm-native'),
     defaultOverMinimalJs: rate('pipeline/int16/block4096/default') / rate(JS_MINIMAL_CASE),
     defaultOverVectorisedC: rate('pipeline/int16/block4096/default') / rate('reference/c-vectorised-poly'),

@@ -73,8 +73,16 @@ export function gccVersion(): string | null {
   }
 }
 
-/** Compiles and runs the C variants on benchSignal's samples; throws when gcc is missing. */
-export async function cCases(): Promise<BenchResult[]> {
+/** The C variants compiled, with benchSignal's samples written for them: each `run` is a fresh measurement. */
+export interface CompiledReference {
+  readonly names: readonly string[];
+  /** Runs the named variant once (median of 15 passes after 5 warm-up passes, process CPU time). */
+  run(name: string): BenchResult;
+  dispose(): Promise<void>;
+}
+
+/** Compiles the C variants; throws when gcc is missing. */
+export async function compileReference(): Promise<CompiledReference> {
   const dir = await mkdtemp(join(tmpdir(), 'fringetally-reference-'));
   try {
     const { x, y } = benchSignal(TOTAL_SAMPLES);
@@ -92,21 +100,19 @@ export async function cCases(): Promise<BenchResult[]> {
       ...correction.coefficients, monitor.options.lowSignalLevel, monitor.limits.low, monitor.limits.high,
       Math.SQRT2 * omegaT, omegaT * omegaT, perFringe, perFringe / (2 * Math.PI), (perFringe / (2 * Math.PI)) * RATE_HZ,
     ].map((value) => value.toPrecision(17));
-    const results: BenchResult[] = [];
-    for (const { name, variant, flags } of C_VARIANTS) {
-      const binary = join(dir, variant);
-      execFileSync('gcc', [...flags, '-o', binary, SOURCE, '-lm'], { stdio: ['ignore', 'ignore', 'inherit'] });
-      const output = JSON.parse(execFileSync(binary, [variant, signal, String(TOTAL_SAMPLES), ...parameters], { encoding: 'utf8' })) as { secondsPerPass: number };
-      results.push({
-        name,
-        samplesPerSecond: TOTAL_SAMPLES / output.secondsPerPass,
-        nsPerSample: (output.secondsPerPass * 1e9) / TOTAL_SAMPLES,
-        passes: 15,
-      });
-    }
-    return results;
-  } finally {
+    for (const { name, flags } of C_VARIANTS) execFileSync('gcc', [...flags, '-o', join(dir, name.replace('/', '-')), SOURCE, '-lm'], { stdio: ['ignore', 'ignore', 'inherit'] });
+    return {
+      names: C_VARIANTS.map(({ name }) => name),
+      run(name) {
+        const { variant } = C_VARIANTS.find((entry) => entry.name === name)!;
+        const output = JSON.parse(execFileSync(join(dir, name.replace('/', '-')), [variant, signal, String(TOTAL_SAMPLES), ...parameters], { encoding: 'utf8' })) as { secondsPerPass: number };
+        return { name, samplesPerSecond: TOTAL_SAMPLES / output.secondsPerPass, nsPerSample: (output.secondsPerPass * 1e9) / TOTAL_SAMPLES, passes: 15 };
+      },
+      dispose: () => rm(dir, { recursive: true, force: true }),
+    };
+  } catch (error) {
     await rm(dir, { recursive: true, force: true });
+    throw error;
   }
 }
 
