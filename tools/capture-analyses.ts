@@ -283,6 +283,20 @@ export interface AnalysisConfig {
   readonly totalSamples: number | null;
   readonly modelWatch?: ModelWatchOptions;
   readonly estimateHarmonics?: { readonly orders: number; readonly totalSamples: number };
+  /** Which of the analyses this instance runs (see AnalysisPart); default 'all'. */
+  readonly part?: AnalysisPart;
+}
+
+/**
+ * The analyses shared by two threads, each over the same blocks: 'phase-domain' runs the phase-domain estimate of
+ * the periodic error alone (`after`, `afterNotMeasured`), 'rest' every other analysis; `joinAnalyses` puts their
+ * results together, the same as one instance of 'all' gives.
+ */
+export type AnalysisPart = 'all' | 'phase-domain' | 'rest';
+
+/** The results of the 'rest' and 'phase-domain' parts of the same blocks, as 'all' gives them. */
+export function joinAnalyses(rest: AnalysisResults, phaseDomain: AnalysisResults): AnalysisResults {
+  return { ...rest, after: phaseDomain.after, afterNotMeasured: phaseDomain.afterNotMeasured };
 }
 
 /** The pipeline's output of one block, as the analyses read it. */
@@ -410,9 +424,17 @@ export function createCaptureAnalyses(config: AnalysisConfig, inPlace: SharedBlo
     residual.skip(length);
   }
 
+  const part = config.part ?? 'all';
   return {
     add(block) {
       const { x, y, output, firstIndex, length: n, analysed } = block;
+      if (part === 'phase-domain') {
+        if (analysed) {
+          validOf(output.flags, n, valid);
+          after.process(output.unwrappedPhaseRad, valid, n);
+        } else after.skip(n);
+        return;
+      }
       // The radius analysis runs on the corrected pair: two outputs through the ellipse correction, three or four
       // power-normalised, taken before the harmonic correction moves the phase (the pair as the chain saw it).
       if (analysed) {
@@ -443,7 +465,7 @@ export function createCaptureAnalyses(config: AnalysisConfig, inPlace: SharedBlo
         const raw = rawPhases(rawKernel, x!, y!, n, mid, rawLevel, identity);
         beforeError(x!, y!, n, raw, output.unwrappedPhaseRad, errorBefore, mid);
         before.add(output.unwrappedPhaseRad, errorBefore, n, valid);
-        after.process(output.unwrappedPhaseRad, valid, n);
+        if (part === 'all') after.process(output.unwrappedPhaseRad, valid, n);
         residual.add(correctedU, correctedV, n, valid);
       } else skip(n);
       const already = watchEvents.length;

@@ -26,7 +26,9 @@ import {
   MAX_SPANS,
   PART_READ_BYTES,
   createBlockOutput,
+  createCaptureAnalyses,
   createFigureSampler,
+  joinAnalyses,
   type AnalysisConfig,
   type AnalysisResults,
   type BlockOutput,
@@ -365,8 +367,11 @@ export async function analyseCapture(
   // The settling samples' output.
   const scratch = createBlockOutput();
   const events: AlarmEvent[] = [];
-  // As runCapture: on a second thread for a long capture, which reads and runs the next parts meanwhile.
-  const analyses = startAnalyses(config, options.analysisThread, total);
+  // On a second thread for a long capture, as runCapture, where they share the analyses with this thread, which
+  // would only wait for them otherwise: the worker takes the phase-domain estimate, this thread every other one.
+  const threaded = useAnalysisThread(options.analysisThread ?? 'auto', total);
+  const analyses = threaded ? startAnalysisThread({ ...config, part: 'phase-domain' }) : analysesInLine(config);
+  const rest = threaded ? createCaptureAnalyses({ ...config, part: 'rest' }) : null;
   let results: AnalysisResults;
   progress.start(`analyse ${path} (one block in ${read.every})`, total);
   // Each analysed block as a part of its own, after SETTLE_SAMPLES: kept, or read (the next part opens while one is read).
@@ -378,6 +383,7 @@ export async function analyseCapture(
       if (skipped === 0) return;
       await analyses.next();
       analyses.skip(skipped);
+      rest?.skip(skipped);
       skipped = 0;
     };
     let passedTo = 0; // samples before this point are analysed or passed
@@ -397,8 +403,12 @@ export async function analyseCapture(
           continue;
         }
         // The output arrays are a block long; the analyses read the first `length` (as in runCapture).
-        pipeline.process(block.x, block.y, block.length, await analyses.next(), events);
-        analyses.add({ firstIndex: first, length: block.length, t: null, analysed: true, x: block.x, y: block.y, phaseBeforeHarmonics: null });
+        const output = await analyses.next();
+        pipeline.process(block.x, block.y, block.length, output, events);
+        const handed = { firstIndex: first, length: block.length, t: null, analysed: true, x: block.x, y: block.y, phaseBeforeHarmonics: null };
+        analyses.add(handed);
+        // The slot is the worker's now, but not written by either side until `next` hands it out again.
+        rest?.add({ ...handed, output });
         analysed = true;
       }
       if (!analysed) throw new Error(`${path}: samples ${first}..${first + n - 1} could not be read`);
@@ -406,7 +416,8 @@ export async function analyseCapture(
     }
     skipped += total - passedTo;
     await passSkipped();
-    results = await analyses.finish();
+    const phaseDomain = await analyses.finish();
+    results = rest === null ? phaseDomain : joinAnalyses(rest.finish(), phaseDomain);
   } catch (error) {
     await analyses.terminate();
     throw error;

@@ -123,6 +123,43 @@ describe('analyses on a worker thread', () => {
     expect(withEstimate.poisoned.harmonicEstimate).not.toEqual(withEstimate.plain.harmonicEstimate);
   });
 
+  it('the phase-domain part and the rest, joined, give what all the analyses give, flagged samples in analysed blocks too', async () => {
+    // analyseCapture shares the analyses between two threads this way; the check value is the analyses run whole.
+    type Analyses = typeof import('../../tools/capture-analyses.js');
+    const { createCaptureAnalyses, createBlockOutput, joinAnalyses, CAPTURE_BLOCK_SAMPLES: n } = (await import(pathToFileURL(resolve('dist/tools/capture-analyses.js')).href)) as Analyses;
+    const { createPipeline } = await import('../../src/accel/index.js');
+    const blocks = 9;
+    const phase = wanderingPhase(blocks * n, 60);
+    const x = phase.map((p) => 1000 * Math.cos(p));
+    const y = phase.map((p) => 1000 * Math.sin(p) + 3 * Math.sin(2 * p));
+    // Bad samples (NaN) and a dip of the signal in analysed blocks: flagged, so the analyses leave them out.
+    for (const at of [5, 3 * n + 100, 3 * n + 2000, 6 * n + 7]) x[at] = Number.NaN;
+    for (let i = 3 * n + 3000; i < 3 * n + 3100; i++) (x[i] = 0.1 * x[i]!), (y[i] = 0.1 * y[i]!);
+    const calibration = { offsetX: 0, offsetY: 0, amplitudeX: 1000, amplitudeY: 1000, phaseErrorRad: 0 };
+    const config = { calibration, layout: null, mid: 0, rateHz: 1e5, metresPerRad: 5e-8, maxPlotPoints: 64, totalSamples: blocks * n };
+    const all = createCaptureAnalyses(config);
+    const phaseDomain = createCaptureAnalyses({ ...config, part: 'phase-domain' });
+    const rest = createCaptureAnalyses({ ...config, part: 'rest' });
+    const pipeline = createPipeline({ rateHz: 1e5, wavelengthM: 632.9908e-9, fold: 2, calibration, adc: { kind: 'float', fullScale: 1e4 } });
+    const output = createBlockOutput();
+    let flagged = 0;
+    for (let b = 0; b < blocks; b++) {
+      const xs = x.subarray(b * n, (b + 1) * n);
+      const ys = y.subarray(b * n, (b + 1) * n);
+      pipeline.process(xs, ys, n, output, []);
+      const analysed = b % 3 === 0;
+      if (analysed) flagged += output.flags.filter((flag) => flag !== 0).length;
+      const block = { firstIndex: b * n, length: n, t: null, analysed, x: analysed ? xs : null, y: analysed ? ys : null, phaseBeforeHarmonics: null, output };
+      for (const analyses of [all, phaseDomain, rest]) analyses.add(block);
+    }
+    expect(flagged).toBeGreaterThan(100);
+    const whole = all.finish();
+    expect(whole.after.summary.samples).toBeGreaterThan(0);
+    const others = rest.finish();
+    expect(joinAnalyses(others, phaseDomain.finish())).toEqual(whole);
+    expect(others.after.summary.samples).toBe(0); // the phase-domain estimate is the other thread's work alone
+  });
+
   it('a worker started ahead takes the next run, with the same results; one never taken does not keep the process alive', async () => {
     type Start = typeof import('../../tools/analysis-worker-start.js');
     const start = (await import(pathToFileURL(resolve('dist/tools/analysis-worker-start.js')).href)) as Start;
