@@ -51,8 +51,7 @@ export function createPhaseDomainSums(): PhaseDomainSums | null {
       trig[2 * j + 1] = Math.sin(d);
     }
     kernel.window_sums(size, capacity, orders, origin, Math.cos(origin), Math.sin(origin), basis[0]!, basis[1]!, basis[2]!, basis[3]!, basis[4]!, basis[5]!, basis[6]!);
-    const count = 6 + 16 * orders;
-    for (let k = 0; k < count; k++) sums[k] = out[k]!;
+    sums.set(out.subarray(0, 6 + 16 * orders));
   };
 }
 
@@ -79,29 +78,34 @@ export function createModelWatchChunkSums(): ModelWatchChunkSums | null {
     if (from === 0 && radius.length <= WATCH_SAMPLES) radii.set(radius);
     else radii.set(radius.subarray(from, from + n));
     const count = kernel.chunk_pairs(pairs, 0, 4 * WATCH_SAMPLES);
-    for (let k = 0; k < 2 * count; k++) sums[k] = out[k]!;
+    sums.set(out.subarray(0, 2 * count));
     return count;
   };
 }
 
-/** Samples a call of the residual kernel takes (analysis-kernels.wat's layout), and where its sums and state lie. */
+/**
+ * Samples a call of the residual kernel takes (analysis-kernels.wat's layout), where its sums and state lie, and the
+ * bytes it uses (up to the end of its per-sample arrays).
+ */
 const RESIDUAL_SAMPLES = 4096;
 const RESIDUAL_SUMS_AT = 69632;
 const RESIDUAL_STATE_AT = 69888;
+const RESIDUAL_BYTES = 266752;
 
 /**
- * The radius residual's loop (createResidualAnalyzer's `run`) in WebAssembly: sqrt, the divisions and Math.atan2
- * (ported operation for operation from the fdlibm code V8 runs) give the same doubles, and the eight harmonic orders
- * run as pairs [cos kφ, sin kφ] in SIMD lanes, so its sums and state are the core's to the bit.
+ * The radius residual's loop (createResidualAnalyzer's `run`) in WebAssembly SIMD: sqrt, the divisions and
+ * Math.atan2 (ported operation for operation from the fdlibm code V8 runs) two samples at a time, then what depends on
+ * the samples before sample by sample, the eight harmonic orders as pairs [cos kφ, sin kφ] in SIMD lanes: its sums and
+ * state are the core's to the bit.
  */
 export function createResidualRun(): ResidualRun | null {
   const kernel = instantiate<KernelExports>(ANALYSIS_KERNELS_WASM_BASE64);
   if (kernel === null) return null;
   let views: { u: Float64Array; v: Float64Array; use: Uint8Array; sums: Float64Array; state: Float64Array } | null = null;
-  /** The memory for `stateLength` doubles of state (grown once, for the largest number of bins). */
+  /** Views of the memory, for `stateLength` doubles of state (at most 2·4096 + 30, which the layout leaves room for). */
   function viewsFor(stateLength: number) {
     if (views === null || views.state.length < stateLength) {
-      const pages = Math.ceil((RESIDUAL_STATE_AT + 8 * stateLength) / 65536) - kernel!.memory.buffer.byteLength / 65536;
+      const pages = Math.ceil(RESIDUAL_BYTES / 65536) - kernel!.memory.buffer.byteLength / 65536;
       if (pages > 0) kernel!.memory.grow(pages);
       const buffer = kernel!.memory.buffer;
       views = {
@@ -114,22 +118,26 @@ export function createResidualRun(): ResidualRun | null {
     }
     return views;
   }
+  /** Copies values start..start+n−1 of `from` to the start of `to`: typed arrays by a copy of their memory. */
+  function copy(from: ArrayLike<number>, start: number, n: number, to: Float64Array | Uint8Array): void {
+    // A typed array's own copy needs no warm-up: element loops run interpreted for the first blocks of a run.
+    if (from instanceof Float64Array || (from instanceof Uint8Array && to instanceof Uint8Array)) to.set(from.subarray(start, start + n));
+    else if (to instanceof Uint8Array) for (let i = 0; i < n; i++) to[i] = from[start + i]! ? 1 : 0;
+    else for (let i = 0; i < n; i++) to[i] = from[start + i]!;
+  }
   return (u, v, from, to, use, bins, binPerRad, state, sums) => {
     const memory = viewsFor(state.length);
-    const kernelState = memory.state;
-    for (let k = 0; k < state.length; k++) kernelState[k] = state[k]!;
+    memory.state.set(state);
     memory.sums.fill(0);
     // A part of at most RESIDUAL_SAMPLES a call; the sums run on across the calls.
     for (let start = from; start < to; start += RESIDUAL_SAMPLES) {
       const n = Math.min(RESIDUAL_SAMPLES, to - start);
-      for (let i = 0; i < n; i++) {
-        memory.u[i] = u[start + i]!;
-        memory.v[i] = v[start + i]!;
-      }
-      if (use !== undefined) for (let i = 0; i < n; i++) memory.use[i] = use[start + i]! ? 1 : 0;
+      copy(u, start, n, memory.u);
+      copy(v, start, n, memory.v);
+      if (use !== undefined) copy(use, start, n, memory.use);
       kernel.residual(n, use === undefined ? 0 : 1, bins, binPerRad);
     }
-    for (let k = 0; k < state.length; k++) state[k] = kernelState[k]!;
-    for (let k = 0; k < sums.length; k++) sums[k] = memory.sums[k]!;
+    state.set(memory.state.subarray(0, state.length));
+    sums.set(memory.sums);
   };
 }

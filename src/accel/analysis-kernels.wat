@@ -297,16 +297,112 @@
       (then (return (f64.sub (f64.const 3.1415926535897931160E+00) (f64.sub (local.get $z) (f64.const 1.2246467991473531772E-16))))))
     (f64.sub (f64.sub (local.get $z) (f64.const 1.2246467991473531772E-16)) (f64.const 3.1415926535897931160E+00)))
 
+  ;; prepare(n, binPerRad): what the residual's loop computes of each sample alone, two samples at a time: the
+  ;; radius r = √(u² + v²) at 135680, [c s] = [u/r v/r] at 168448 and the phase bin position
+  ;; (atan2(s, c) + π)·binPerRad at 233984 (f64 each, pairs for [c s]), for samples 0..n−1 (one beyond when n is odd).
+  ;; atan2 of the general case (finite, non-zero c and s, c ≠ 1, |s/c| between 2^−60 and 2^60) runs in both lanes
+  ;; at once, every branch of $atan computed and the lane's own picked, so each lane does exactly $atan's
+  ;; operations; a pair with any other case goes through $atan2 lane by lane.
+  (func $prepare (param $n i32) (param $binPerRad f64)
+    (local $i i32) (local $o8 i32)
+    (local $u v128) (local $v v128) (local $r v128) (local $c v128) (local $s v128) (local $t v128) (local $x v128)
+    (local $z v128) (local $w v128) (local $sum v128) (local $hi v128) (local $lo v128) (local $k v128)
+    (local $idNeg v128) (local $id0 v128) (local $id1 v128) (local $id2 v128) (local $tiny v128) (local $pos v128)
+    (local $kbin v128) (local $pi v128)
+    (local.set $kbin (f64x2.splat (local.get $binPerRad)))
+    (local.set $pi (f64x2.splat (f64.const 3.141592653589793)))
+    (block $done
+      (loop $next
+        (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
+        (local.set $o8 (i32.shl (local.get $i) (i32.const 3)))
+        (local.set $u (v128.load (local.get $o8)))
+        (local.set $v (v128.load offset=32768 (local.get $o8)))
+        (local.set $r (f64x2.sqrt (f64x2.add (f64x2.mul (local.get $u) (local.get $u)) (f64x2.mul (local.get $v) (local.get $v)))))
+        (local.set $c (f64x2.div (local.get $u) (local.get $r)))
+        (local.set $s (f64x2.div (local.get $v) (local.get $r)))
+        (v128.store offset=135680 (local.get $o8) (local.get $r))
+        (v128.store offset=168448 (i32.shl (local.get $o8) (i32.const 1)) (i8x16.shuffle 0 1 2 3 4 5 6 7 16 17 18 19 20 21 22 23 (local.get $c) (local.get $s)))
+        (v128.store offset=168464 (i32.shl (local.get $o8) (i32.const 1)) (i8x16.shuffle 8 9 10 11 12 13 14 15 24 25 26 27 28 29 30 31 (local.get $c) (local.get $s)))
+        ;; k = (iy − ix) >> 20 of the high words without sign bits, per lane.
+        (local.set $k (i64x2.shr_s (i64x2.sub
+          (v128.and (i64x2.shr_u (local.get $s) (i32.const 32)) (v128.const i64x2 0x7fffffff 0x7fffffff))
+          (v128.and (i64x2.shr_u (local.get $c) (i32.const 32)) (v128.const i64x2 0x7fffffff 0x7fffffff))) (i32.const 20)))
+        (if (i32.and
+              ;; both lanes: c, s finite and not 0 (|·| in (0, ∞)), c ≠ 1, −60 <= k <= 60
+              (i64x2.all_true (v128.and
+                (v128.and (f64x2.gt (f64x2.abs (local.get $c)) (v128.const f64x2 0 0)) (f64x2.lt (f64x2.abs (local.get $c)) (v128.const f64x2 inf inf)))
+                (v128.and (f64x2.gt (f64x2.abs (local.get $s)) (v128.const f64x2 0 0)) (f64x2.lt (f64x2.abs (local.get $s)) (v128.const f64x2 inf inf)))))
+              (i32.and
+                (i64x2.all_true (f64x2.ne (local.get $c) (v128.const f64x2 1 1)))
+                (i64x2.all_true (v128.and (i64x2.le_s (local.get $k) (v128.const i64x2 60 60)) (i64x2.ge_s (local.get $k) (v128.const i64x2 -60 -60))))))
+          (then
+            ;; $atan(t), t = |s/c|: the argument's reduction by its range (t >= 0, so no sign to restore).
+            (local.set $t (f64x2.abs (f64x2.div (local.get $s) (local.get $c))))
+            (local.set $tiny (f64x2.lt (local.get $t) (v128.const f64x2 7.450580596923828e-9 7.450580596923828e-9))) ;; 2^-27
+            (local.set $idNeg (f64x2.lt (local.get $t) (v128.const f64x2 0.4375 0.4375)))
+            (local.set $id0 (f64x2.lt (local.get $t) (v128.const f64x2 0.6875 0.6875)))
+            (local.set $id1 (f64x2.lt (local.get $t) (v128.const f64x2 1.1875 1.1875)))
+            (local.set $id2 (f64x2.lt (local.get $t) (v128.const f64x2 2.4375 2.4375)))
+            ;; id 0: (2t − 1)/(2 + t); 1: (t − 1)/(t + 1); 2: (t − 1.5)/(1 + 1.5t); 3: −1/t; −1: t itself.
+            (local.set $x (f64x2.div
+              (v128.bitselect (f64x2.sub (f64x2.mul (v128.const f64x2 2 2) (local.get $t)) (v128.const f64x2 1 1))
+                (v128.bitselect (f64x2.sub (local.get $t) (v128.const f64x2 1 1))
+                  (v128.bitselect (f64x2.sub (local.get $t) (v128.const f64x2 1.5 1.5)) (v128.const f64x2 -1 -1) (local.get $id2))
+                  (local.get $id1))
+                (local.get $id0))
+              (v128.bitselect (f64x2.add (v128.const f64x2 2 2) (local.get $t))
+                (v128.bitselect (f64x2.add (local.get $t) (v128.const f64x2 1 1))
+                  (v128.bitselect (f64x2.add (v128.const f64x2 1 1) (f64x2.mul (v128.const f64x2 1.5 1.5) (local.get $t))) (local.get $t) (local.get $id2))
+                  (local.get $id1))
+                (local.get $id0))))
+            (local.set $x (v128.bitselect (local.get $t) (local.get $x) (local.get $idNeg)))
+            (local.set $z (f64x2.mul (local.get $x) (local.get $x)))
+            (local.set $w (f64x2.mul (local.get $z) (local.get $z)))
+            (local.set $sum (f64x2.add
+              (f64x2.mul (local.get $z)
+                (f64x2.add (v128.const f64x2 3.33333333333329318027e-01 3.33333333333329318027e-01) (f64x2.mul (local.get $w) (f64x2.add (v128.const f64x2 1.42857142725034663711e-01 1.42857142725034663711e-01) (f64x2.mul (local.get $w) (f64x2.add (v128.const f64x2 9.09088713343650656196e-02 9.09088713343650656196e-02) (f64x2.mul (local.get $w) (f64x2.add (v128.const f64x2 6.66107313738753120669e-02 6.66107313738753120669e-02) (f64x2.mul (local.get $w) (f64x2.add (v128.const f64x2 4.97687799461593236017e-02 4.97687799461593236017e-02) (f64x2.mul (local.get $w) (v128.const f64x2 1.62858201153657823623e-02 1.62858201153657823623e-02))))))))))))
+              (f64x2.mul (local.get $w)
+                (f64x2.add (v128.const f64x2 -1.99999999998764832476e-01 -1.99999999998764832476e-01) (f64x2.mul (local.get $w) (f64x2.add (v128.const f64x2 -1.11111104054623557880e-01 -1.11111104054623557880e-01) (f64x2.mul (local.get $w) (f64x2.add (v128.const f64x2 -7.69187620504482999495e-02 -7.69187620504482999495e-02) (f64x2.mul (local.get $w) (f64x2.add (v128.const f64x2 -5.83357013379057348645e-02 -5.83357013379057348645e-02) (f64x2.mul (local.get $w) (v128.const f64x2 -3.65315727442169155270e-02 -3.65315727442169155270e-02))))))))))))
+            (local.set $hi (v128.bitselect (v128.const f64x2 4.63647609000806093515e-01 4.63647609000806093515e-01)
+              (v128.bitselect (v128.const f64x2 7.85398163397448278999e-01 7.85398163397448278999e-01)
+                (v128.bitselect (v128.const f64x2 9.82793723247329054082e-01 9.82793723247329054082e-01) (v128.const f64x2 1.57079632679489655800e+00 1.57079632679489655800e+00) (local.get $id2))
+                (local.get $id1))
+              (local.get $id0)))
+            (local.set $lo (v128.bitselect (v128.const f64x2 2.26987774529616870924e-17 2.26987774529616870924e-17)
+              (v128.bitselect (v128.const f64x2 3.06161699786838301793e-17 3.06161699786838301793e-17)
+                (v128.bitselect (v128.const f64x2 1.39033110312309984516e-17 1.39033110312309984516e-17) (v128.const f64x2 6.12323399573676603587e-17 6.12323399573676603587e-17) (local.get $id2))
+                (local.get $id1))
+              (local.get $id0)))
+            ;; id −1: x − x·(s1 + s2); else hi − ((x·(s1 + s2) − lo) − x); t < 2^−27: t.
+            (local.set $z (v128.bitselect
+              (v128.bitselect (local.get $t) (f64x2.sub (local.get $x) (f64x2.mul (local.get $x) (local.get $sum))) (local.get $tiny))
+              (f64x2.sub (local.get $hi) (f64x2.sub (f64x2.sub (f64x2.mul (local.get $x) (local.get $sum)) (local.get $lo)) (local.get $x)))
+              (local.get $idNeg)))
+            ;; $atan2's quadrants: c < 0 gives π − (z − π_lo), s < 0 the negative.
+            (local.set $z (v128.bitselect
+              (f64x2.sub (local.get $pi) (f64x2.sub (local.get $z) (v128.const f64x2 1.2246467991473531772E-16 1.2246467991473531772E-16)))
+              (local.get $z)
+              (f64x2.lt (local.get $c) (v128.const f64x2 0 0))))
+            (local.set $z (v128.bitselect (f64x2.neg (local.get $z)) (local.get $z) (f64x2.lt (local.get $s) (v128.const f64x2 0 0)))))
+          (else
+            (local.set $z (f64x2.replace_lane 1
+              (f64x2.splat (call $atan2 (f64x2.extract_lane 0 (local.get $s)) (f64x2.extract_lane 0 (local.get $c))))
+              (call $atan2 (f64x2.extract_lane 1 (local.get $s)) (f64x2.extract_lane 1 (local.get $c)))))))
+        (v128.store offset=233984 (local.get $o8) (f64x2.mul (f64x2.add (local.get $z) (local.get $pi)) (local.get $kbin)))
+        (local.set $i (i32.add (local.get $i) (i32.const 2)))
+        (br $next))))
+
   ;; residual(n, hasUse, bins, binPerRad): the radius residual's loop (src/core/fit/residual.ts, run) over samples
   ;; 0..n−1 of u at 0 and v at 32768 (f64, n <= 4096), use at 65536 (bytes, read when hasUse is not 0), updating
   ;; the state at 69888 (ResidualRun's layout: per bin Σ(r − 1) and count, then the noise cascade) and the sums at
-  ;; 69632 (Σ(r − 1), count, [Σcos kφ Σsin kφ] for k = 1..8, Σr), each in the core's order of operations.
+  ;; 69632 (Σ(r − 1), count, [Σcos kφ Σsin kφ] for k = 1..8, Σr), each in the core's order of operations: `prepare`
+  ;; first, then sample by sample what depends on the samples before.
   (global $SUMS i32 (i32.const 69632))
   (global $STATE i32 (i32.const 69888))
   (func (export "residual") (param $n i32) (param $hasUse i32) (param $bins i32) (param $binPerRad f64)
     (local $i i32) (local $o8 i32) (local $counts i32) (local $noise i32) (local $level i32) (local $at i32)
     (local $bin i32) (local $low i32) (local $high i32)
-    (local $u f64) (local $v f64) (local $r f64) (local $res f64) (local $c f64) (local $s f64) (local $pos f64)
+    (local $r f64) (local $res f64) (local $pos f64)
     (local $below f64) (local $lc f64) (local $hc f64) (local $locked f64) (local $t f64) (local $value f64) (local $d f64)
     (local $binsF f64) (local $sum f64) (local $count f64) (local $radiusSum f64)
     (local $k v128) (local $cc v128) (local $ss v128) (local $sign v128)
@@ -326,20 +422,18 @@
     (local.set $a7 (v128.load offset=112 (global.get $SUMS)))
     (local.set $a8 (v128.load offset=128 (global.get $SUMS)))
     (local.set $radiusSum (f64.load offset=144 (global.get $SUMS)))
+    (call $prepare (local.get $n) (local.get $binPerRad))
     (block $done
       (loop $next
         (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
         (local.set $o8 (i32.shl (local.get $i) (i32.const 3)))
-        (local.set $u (f64.load (local.get $o8)))
-        (local.set $v (f64.load offset=32768 (local.get $o8)))
-        (local.set $r (f64.sqrt (f64.add (f64.mul (local.get $u) (local.get $u)) (f64.mul (local.get $v) (local.get $v)))))
+        (local.set $r (f64.load offset=135680 (local.get $o8)))
         (local.set $i (i32.add (local.get $i) (i32.const 1)))
         (if (i32.and (local.get $hasUse) (i32.eqz (i32.load8_u offset=65535 (local.get $i)))) (then (br $next)))
         (br_if $next (i32.eqz (i32.and (f64.gt (local.get $r) (f64.const 0)) (f64.lt (local.get $r) (f64.const inf)))))
         (local.set $res (f64.sub (local.get $r) (f64.const 1)))
-        (local.set $c (f64.div (local.get $u) (local.get $r)))
-        (local.set $s (f64.div (local.get $v) (local.get $r)))
-        (local.set $pos (f64.mul (f64.add (call $atan2 (local.get $s) (local.get $c)) (f64.const 3.141592653589793)) (local.get $binPerRad)))
+        (local.set $k (v128.load offset=168448 (i32.shl (local.get $o8) (i32.const 1))))
+        (local.set $pos (f64.load offset=233984 (local.get $o8)))
         (local.set $bin (i32.trunc_f64_u (f64.min (f64.sub (local.get $binsF) (f64.const 1)) (f64.floor (local.get $pos)))))
         ;; lockedAt(position): the binned means so far, between the nearest filled bin centres.
         (local.set $below (f64.floor (f64.sub (local.get $pos) (f64.const 0.5))))
@@ -390,9 +484,8 @@
         (f64.store (i32.add (local.get $counts) (local.get $at)) (f64.add (f64.load (i32.add (local.get $counts) (local.get $at))) (f64.const 1)))
         (local.set $sum (f64.add (local.get $sum) (local.get $res)))
         ;; [cos kφ, sin kφ] for k = 1..8 by angle addition, as in the core.
-        (local.set $cc (f64x2.splat (local.get $c)))
-        (local.set $ss (f64x2.mul (local.get $sign) (f64x2.splat (local.get $s))))
-        (local.set $k (f64x2.replace_lane 1 (local.get $cc) (local.get $s)))
+        (local.set $cc (i8x16.shuffle 0 1 2 3 4 5 6 7 0 1 2 3 4 5 6 7 (local.get $k) (local.get $k)))
+        (local.set $ss (f64x2.mul (local.get $sign) (i8x16.shuffle 8 9 10 11 12 13 14 15 8 9 10 11 12 13 14 15 (local.get $k) (local.get $k))))
         (local.set $a1 (f64x2.add (local.get $a1) (local.get $k)))
         (local.set $k (f64x2.add (f64x2.mul (local.get $k) (local.get $cc)) (f64x2.mul (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $k) (local.get $k)) (local.get $ss))))
         (local.set $a2 (f64x2.add (local.get $a2) (local.get $k)))
