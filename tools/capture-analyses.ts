@@ -15,7 +15,7 @@ import { fastAtan2, wrapPhase } from '../src/core/phase.js';
 import type { ChannelParameters, EllipseCalibration } from '../src/core/index.js';
 import { createWasmFrontEnd, type WasmFrontEnd } from '../src/accel/front-end.js';
 import { createAxisKernels, type BlockExtremes, type SharedBlockSummary } from '../src/accel/axis-kernels.js';
-import { createModelWatchChunkSums, createPhaseDomainSums, createResidualRun } from '../src/accel/analysis-kernels.js';
+import { createModelWatchChunkSums, createPeriodicErrorBinning, createPhaseDomainSums, createResidualRun } from '../src/accel/analysis-kernels.js';
 
 /** Samples per block read from a capture (the analyses' schedule counts these blocks). */
 export const CAPTURE_BLOCK_SAMPLES = 4096;
@@ -393,9 +393,11 @@ export function createCaptureAnalyses(config: AnalysisConfig, inPlace: SharedBlo
   const power: PowerState = { min: Infinity, max: -Infinity, sum: 0, count: 0 };
   const errorBefore = new Float64Array(CAPTURE_BLOCK_SAMPLES);
   const valid = new Uint8Array(CAPTURE_BLOCK_SAMPLES);
-  const before = createPeriodicErrorAnalyzer();
-  // The per-sample work of the phase-domain windows, the radius residual and the model watch's chunks in
-  // WebAssembly SIMD where it exists (src/accel/analysis-kernels.ts): the same results as the core's loops, to the bit.
+  const binning = createPeriodicErrorBinning();
+  const before = createPeriodicErrorAnalyzer(binning === null ? {} : { binning });
+  // The per-sample work of the periodic-error bins, the phase-domain windows, the radius residual and the model
+  // watch's chunks in WebAssembly (SIMD) where it exists (src/accel/analysis-kernels.ts): the same results as the
+  // core's loops, to the bit.
   const windowSums = createPhaseDomainSums();
   const after = createPhaseDomainEstimator(windowSums === null ? {} : { sums: windowSums });
   const residualRun = createResidualRun();

@@ -4,7 +4,7 @@
 
 import { MODEL_WATCH_CHUNK_SAMPLES, type ModelWatchChunkSums } from '../core/fit/model-watch.js';
 import type { ResidualRun } from '../core/fit/residual.js';
-import type { PhaseDomainSums } from '../core/periodic-error.js';
+import type { PeriodicErrorBinning, PhaseDomainSums } from '../core/periodic-error.js';
 import { ANALYSIS_KERNELS_WASM_BASE64 } from './analysis-kernels-wasm.js';
 import { instantiate } from './wasm.js';
 
@@ -12,6 +12,7 @@ interface KernelExports {
   readonly memory: WebAssembly.Memory;
   chunk_pairs(pairs: number, radiusPtr: number, outPtr: number): number;
   residual(n: number, hasUse: number, bins: number, binPerRad: number): void;
+  bin_errors(n: number, hasUse: number, bins: number, binPerRad: number): void;
   window_sums(n: number, capacity: number, orders: number, origin: number, cosOrigin: number, sinOrigin: number, centre: number, a2: number, a3: number, w0: number, w1: number, w2: number, w3: number): void;
 }
 
@@ -84,6 +85,16 @@ export function createModelWatchChunkSums(): ModelWatchChunkSums | null {
 }
 
 /**
+ * Copies values start..start+n−1 of `from` to the start of `to` (a mask as 0 or 1): typed arrays by a copy of their
+ * memory, which needs no warm-up (element loops run interpreted for the first blocks of a run).
+ */
+function copy(from: ArrayLike<number>, start: number, n: number, to: Float64Array | Uint8Array): void {
+  if (from instanceof Float64Array || (from instanceof Uint8Array && to instanceof Uint8Array)) to.set(from.subarray(start, start + n));
+  else if (to instanceof Uint8Array) for (let i = 0; i < n; i++) to[i] = from[start + i]! ? 1 : 0;
+  else for (let i = 0; i < n; i++) to[i] = from[start + i]!;
+}
+
+/**
  * Samples a call of the residual kernel takes (analysis-kernels.wat's layout), where its sums and state lie, and the
  * bytes it uses (up to the end of its per-sample arrays).
  */
@@ -118,13 +129,6 @@ export function createResidualRun(): ResidualRun | null {
     }
     return views;
   }
-  /** Copies values start..start+n−1 of `from` to the start of `to`: typed arrays by a copy of their memory. */
-  function copy(from: ArrayLike<number>, start: number, n: number, to: Float64Array | Uint8Array): void {
-    // A typed array's own copy needs no warm-up: element loops run interpreted for the first blocks of a run.
-    if (from instanceof Float64Array || (from instanceof Uint8Array && to instanceof Uint8Array)) to.set(from.subarray(start, start + n));
-    else if (to instanceof Uint8Array) for (let i = 0; i < n; i++) to[i] = from[start + i]! ? 1 : 0;
-    else for (let i = 0; i < n; i++) to[i] = from[start + i]!;
-  }
   return (u, v, from, to, use, bins, binPerRad, state, sums) => {
     const memory = viewsFor(state.length);
     memory.state.set(state);
@@ -139,5 +143,47 @@ export function createResidualRun(): ResidualRun | null {
     }
     state.set(memory.state.subarray(0, state.length));
     sums.set(memory.sums);
+  };
+}
+
+/** Samples a call of the binning kernel takes, where its bins' sums and counts lie, and the bytes it uses. */
+const BINNING_SAMPLES = 4096;
+const BINNING_SUMS_AT = 69632;
+const BINNING_COUNTS_AT = 102400;
+const BINNING_BYTES = 135168;
+
+/**
+ * The periodic-error analyzer's binning (createPeriodicErrorAnalyzer's `binning`) in WebAssembly: the same floors,
+ * products and sums in the same order, so the same bins to the bit.
+ */
+export function createPeriodicErrorBinning(): PeriodicErrorBinning | null {
+  const kernel = instantiate<KernelExports>(ANALYSIS_KERNELS_WASM_BASE64);
+  if (kernel === null) return null;
+  const pages = Math.ceil(BINNING_BYTES / 65536) - kernel.memory.buffer.byteLength / 65536;
+  if (pages > 0) kernel.memory.grow(pages);
+  const buffer = kernel.memory.buffer;
+  const phase = new Float64Array(buffer, 0, BINNING_SAMPLES);
+  const error = new Float64Array(buffer, 8 * BINNING_SAMPLES, BINNING_SAMPLES);
+  const mask = new Uint8Array(buffer, 16 * BINNING_SAMPLES, BINNING_SAMPLES);
+  // The bins' views, for the analyzer's number of bins (made again only when it changes).
+  let binSums = new Float64Array(0);
+  let binCounts = new Float64Array(0);
+  return (phaseRad, errorRad, length, use, binPerRad, sums, counts) => {
+    const bins = sums.length;
+    if (binSums.length !== bins) {
+      binSums = new Float64Array(buffer, BINNING_SUMS_AT, bins);
+      binCounts = new Float64Array(buffer, BINNING_COUNTS_AT, bins);
+    }
+    binSums.set(sums);
+    binCounts.set(counts);
+    for (let start = 0; start < length; start += BINNING_SAMPLES) {
+      const n = Math.min(BINNING_SAMPLES, length - start);
+      copy(phaseRad, start, n, phase);
+      copy(errorRad, start, n, error);
+      if (use !== undefined) copy(use, start, n, mask);
+      kernel.bin_errors(n, use === undefined ? 0 : 1, bins, binPerRad);
+    }
+    sums.set(binSums);
+    counts.set(binCounts);
   };
 }

@@ -515,4 +515,31 @@
     (v128.store offset=112 (global.get $SUMS) (local.get $a7))
     (v128.store offset=128 (global.get $SUMS) (local.get $a8))
     (f64.store offset=144 (global.get $SUMS) (local.get $radiusSum)))
+;; bin_errors(n, hasUse, bins, binPerRad): the periodic-error analyzer's binning (src/core/periodic-error.ts,
+  ;; createPeriodicErrorAnalyzer's add) of samples 0..n−1: phase at 0 and error at 32768 (f64, n <= 4096), use at
+  ;; 65536 (bytes, read when hasUse is not 0), the bins' sums at 69632 and counts at 102400 (f64, bins <= 4096).
+  (func (export "bin_errors") (param $n i32) (param $hasUse i32) (param $bins i32) (param $binPerRad f64)
+    (local $i i32) (local $o8 i32) (local $at i32) (local $phase f64) (local $error f64) (local $bin f64) (local $last f64)
+    (local.set $last (f64.convert_i32_u (i32.sub (local.get $bins) (i32.const 1))))
+    (block $done
+      (loop $next
+        (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
+        (local.set $o8 (i32.shl (local.get $i) (i32.const 3)))
+        (local.set $phase (f64.load (local.get $o8)))
+        (local.set $error (f64.load offset=32768 (local.get $o8)))
+        (local.set $i (i32.add (local.get $i) (i32.const 1)))
+        (if (i32.and (local.get $hasUse) (i32.eqz (i32.load8_u offset=65535 (local.get $i)))) (then (br $next)))
+        ;; Finite: x − x is 0 (NaN for ±∞ and NaN).
+        (br_if $next (i32.eqz (i32.and
+          (f64.eq (f64.sub (local.get $phase) (local.get $phase)) (f64.const 0))
+          (f64.eq (f64.sub (local.get $error) (local.get $error)) (f64.const 0)))))
+        (local.set $bin (f64.min (local.get $last) (f64.floor (f64.mul
+          (f64.sub (local.get $phase) (f64.mul (f64.const 6.283185307179586) (f64.floor (f64.div (local.get $phase) (f64.const 6.283185307179586)))))
+          (local.get $binPerRad)))))
+        ;; A bin below 0 (a phase a rounding below a whole turn): a typed array's store there does nothing.
+        (br_if $next (f64.lt (local.get $bin) (f64.const 0)))
+        (local.set $at (i32.shl (i32.trunc_f64_u (local.get $bin)) (i32.const 3)))
+        (f64.store offset=69632 (local.get $at) (f64.add (f64.load offset=69632 (local.get $at)) (local.get $error)))
+        (f64.store offset=102400 (local.get $at) (f64.add (f64.load offset=102400 (local.get $at)) (f64.const 1)))
+        (br $next))))
 )

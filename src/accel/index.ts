@@ -12,4 +12,4 @@ export { createFusedFrontEnd, type FusedFrontEndOptions } from './fused-front-en
 export { createExactFrontEnd, createPipeline, type ExactFrontEnd, type ExactFrontEndKind } from './pipeline.js';
 export { createWasmSteadyKernel, type WasmSteadyKernel, type WasmSteadyKernelOptions } from './steady-kernel.js';
 export { createFastEllipseAccumulator, createWasmEllipseAccumulator } from './ellipse-accumulator.js';
-export { createModelWatchChunkSums, createPhaseDomainSums, createResidualRun } from './analysis-kernels.js';
+export { createModelWatchChunkSums, createPeriodicErrorBinning, createPhaseDomainSums, createResidualRun } from './analysis-kernels.js';

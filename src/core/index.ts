@@ -60,6 +60,8 @@ export {
   createPhaseDomainEstimator,
   createWindowDetrender,
   type PeriodicErrorAnalyzer,
+  type PeriodicErrorAnalyzerOptions,
+  type PeriodicErrorBinning,
   type PeriodicErrorSummary,
   type PhaseDomainEstimator,
   type PhaseDomainOptions,

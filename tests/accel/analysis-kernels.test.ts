@@ -1,12 +1,13 @@
 // The capture analyses' WebAssembly kernels (src/accel/analysis-kernels.ts) against the core's own loops: the
-// phase-domain estimator with createPhaseDomainSums, the radius residual with createResidualRun and the model watch
-// with createModelWatchChunkSums give the core's results bit for bit (each sum is the core's sequential sum; only
+// periodic-error bins with createPeriodicErrorBinning, the phase-domain estimator with createPhaseDomainSums, the
+// radius residual with createResidualRun and the model watch with createModelWatchChunkSums give the core's results
+// bit for bit (each sum is the core's sequential sum; only
 // independent sums share a vector), and the kernels' atan2 is Math.atan2's to the bit. Motions, noise and radii are
 // invented.
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { createModelWatch, createPhaseDomainEstimator, createRandom, createResidualAnalyzer, type ModelWatchEvent } from '../../src/core/index.js';
-import { createModelWatchChunkSums, createPhaseDomainSums, createResidualRun } from '../../src/accel/index.js';
+import { createModelWatch, createPeriodicErrorAnalyzer, createPhaseDomainEstimator, createRandom, createResidualAnalyzer, type ModelWatchEvent } from '../../src/core/index.js';
+import { createModelWatchChunkSums, createPeriodicErrorBinning, createPhaseDomainSums, createResidualRun } from '../../src/accel/index.js';
 import { ANALYSIS_KERNELS_WASM_BASE64 } from '../../src/accel/analysis-kernels-wasm.js';
 import { instantiate } from '../../src/accel/wasm.js';
 import '../support/property-seed.js';
@@ -48,6 +49,40 @@ describe('analysis kernels', () => {
     expect(createPhaseDomainSums()).not.toBeNull();
     expect(createModelWatchChunkSums()).not.toBeNull();
     expect(createResidualRun()).not.toBeNull();
+    expect(createPeriodicErrorBinning()).not.toBeNull();
+  });
+
+  it('periodic-error bins: the same sums, counts and summary as the core loop, for any phases, errors, masks and blocks', () => {
+    const phase = fc.oneof(
+      fc.double({ noDefaultInfinity: false }),
+      fc.double({ min: -1e4, max: 1e4, noNaN: true }),
+      // Whole turns and a rounding either side: the wrap's edge cases.
+      fc.tuple(fc.integer({ min: -1e6, max: 1e6 }), fc.constantFrom(-1, 0, 1)).map(([turns, ulps]) => turns * 2 * Math.PI * (1 + ulps * Number.EPSILON)),
+    );
+    fc.assert(
+      fc.property(
+        fc.integer({ min: 8, max: 4096 }),
+        fc.array(fc.tuple(phase, fc.oneof(fc.double({ min: -0.1, max: 0.1, noNaN: true }), fc.double({ noDefaultInfinity: false })), fc.integer({ min: 0, max: 3 })), { minLength: 1, maxLength: 6000 }),
+        fc.boolean(),
+        fc.integer({ min: 1, max: 5000 }),
+        (bins, samples, masked, block) => {
+          const phases = Float64Array.from(samples, ([p]) => p);
+          const errors = Float64Array.from(samples, ([, e]) => e);
+          const use = Uint8Array.from(samples, ([, , u]) => u);
+          const core = createPeriodicErrorAnalyzer({ bins });
+          const fast = createPeriodicErrorAnalyzer({ bins, binning: createPeriodicErrorBinning()! });
+          for (const analyzer of [core, fast]) {
+            for (let at = 0; at < samples.length; at += block) {
+              const n = Math.min(block, samples.length - at);
+              analyzer.add(phases.subarray(at), errors.subarray(at), n, masked ? use.subarray(at) : undefined);
+            }
+          }
+          expect(bits(fast.binnedMeanRad())).toEqual(bits(core.binnedMeanRad()));
+          expect(bits(fast.summary())).toEqual(bits(core.summary()));
+        },
+      ),
+      { numRuns: 150 },
+    );
   });
 
   it('atan2: Math.atan2 to the bit, for any doubles, points on and near the unit circle and the special values', () => {
@@ -210,5 +245,6 @@ describe('analysis kernels', () => {
     expect(() => createPhaseDomainEstimator({ sums: 3 as never })).toThrow(/sums must be a function/);
     expect(() => createModelWatch({ chunkSums: {} as never })).toThrow(/chunkSums must be a function/);
     expect(() => createResidualAnalyzer({ run: 'fast' as never })).toThrow(/run must be a function/);
+    expect(() => createPeriodicErrorAnalyzer({ binning: 1 as never })).toThrow(/binning must be a function/);
   });
 });
