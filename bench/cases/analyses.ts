@@ -1,10 +1,19 @@
 // Benchmark of the capture analyses' per-sample work (the analysis worker's share of calibrate and replay): the
-// phase-domain estimator, the radius residual and the model watch, each with the core's own loops and with the
+// periodic-error bins, the phase-domain estimator, the radius residual and the model watch, each with the core's own loops and with the
 // WebAssembly kernels of src/accel/analysis-kernels.ts, in alternating passes of one process, timed in process CPU
 // time. The signal is invented: the capture benchmark's (bench/cases/capture.ts), 100 samples a fringe and slowly
 // faster, with noise, through the default pipeline in blocks of 4096 as replay runs it.
-import { createCorrection, createModelWatch, createPhaseDomainEstimator, createRandom, createResidualAnalyzer, type AlarmEvent, type EllipseCalibration } from '../../src/core/index.js';
-import { createModelWatchChunkSums, createPhaseDomainSums, createPipeline, createResidualRun } from '../../src/accel/index.js';
+import {
+  createCorrection,
+  createModelWatch,
+  createPeriodicErrorAnalyzer,
+  createPhaseDomainEstimator,
+  createRandom,
+  createResidualAnalyzer,
+  type AlarmEvent,
+  type EllipseCalibration,
+} from '../../src/core/index.js';
+import { createModelWatchChunkSums, createPeriodicErrorBinning, createPhaseDomainSums, createPipeline, createResidualRun } from '../../src/accel/index.js';
 import { median, type BenchResult } from '../harness.js';
 
 const BLOCK = 4096;
@@ -63,6 +72,13 @@ type Analysis = (data: readonly Block[], valid: Uint8Array, accelerated: boolean
 
 /** Each analysis a pass, new each pass (as a run creates them), over all blocks; returns a figure it found. */
 const analyses: Record<string, Analysis> = {
+  // The bins of the uncorrected phase's error (any finite values serve: the corrected u as the error).
+  'periodic-error-bins': (data, valid, accelerated) => {
+    const binning = accelerated ? createPeriodicErrorBinning() : null;
+    const analyzer = createPeriodicErrorAnalyzer(binning === null ? {} : { binning });
+    for (const block of data) analyzer.add(block.unwrappedPhaseRad, block.u, BLOCK, valid);
+    return analyzer.summary().samples;
+  },
   'phase-domain': (data, valid, accelerated) => {
     const sums = accelerated ? createPhaseDomainSums() : null;
     const estimator = createPhaseDomainEstimator(sums === null ? {} : { sums });
@@ -86,7 +102,7 @@ const analyses: Record<string, Analysis> = {
 
 /**
  * Per analysis, the core's loops and the kernels in alternating passes (so both see the same load), medians of
- * their CPU time a pass, and their ratio (`acceleratedOverCore`, below 1 is faster); then all three together.
+ * their CPU time a pass, and their ratio (`acceleratedOverCore`, below 1 is faster); then all of them together.
  */
 export function analysesCases(): BenchResult[] {
   const data = blocks();
