@@ -96,13 +96,14 @@ const keptSamples = ellipseRuns(ellipse, {
 });
 
 type PairStep =
-  | { kind: 'within'; x: Float64Array; y: Float64Array }
+  | { kind: 'within'; to: 'all' | 'gated'; x: Float64Array; y: Float64Array }
   | { kind: 'add' | 'merge'; to: 'all' | 'gated'; x: Float64Array; y: Float64Array }
   | { kind: 'reset' | 'read'; to: 'all' | 'gated' };
 const to = fc.constantFrom<'all' | 'gated'>('all', 'gated');
 const pairSteps = fc.array(
   fc.oneof(
-    { weight: 12, arbitrary: keptSamples.map((p): PairStep => ({ kind: 'within', ...p })) },
+    // Mostly the gated one's addWithin with the other as `all`, now and then the other way round.
+    { weight: 12, arbitrary: fc.tuple(fc.constantFrom<'all' | 'gated'>('gated', 'gated', 'gated', 'all'), keptSamples).map(([which, p]): PairStep => ({ kind: 'within', to: which, ...p })) },
     { weight: 1, arbitrary: fc.tuple(fc.constantFrom<'add' | 'merge'>('add', 'merge'), to, keptSamples).map(([kind, which, p]): PairStep => ({ kind, to: which, ...p })) },
     { weight: 1, arbitrary: fc.tuple(fc.constantFrom<'reset' | 'read'>('reset', 'read'), to).map(([kind, which]): PairStep => ({ kind, to: which })) },
   ),
@@ -120,9 +121,10 @@ describe('WebAssembly ellipse accumulator, gated add with every pair also added 
         const coreNear = new Float64Array(1);
         for (const step of steps) {
           if (step.kind === 'within') {
-            fast.gated.addWithin!(step.x, step.y, step.x.length, coefficients, 0.5, 1.5, 0.02, fastNear, fast.all);
-            core.all.add(step.x, step.y, step.x.length);
-            plainWithin(core.gated, step.x, step.y, coefficients, coreNear);
+            const other = step.to === 'gated' ? 'all' : 'gated';
+            fast[step.to].addWithin!(step.x, step.y, step.x.length, coefficients, 0.5, 1.5, 0.02, fastNear, fast[other]);
+            core[other].add(step.x, step.y, step.x.length);
+            plainWithin(core[step.to], step.x, step.y, coefficients, coreNear);
           } else if (step.kind === 'add') {
             fast[step.to].add(step.x, step.y, step.x.length);
             core[step.to].add(step.x, step.y, step.x.length);
