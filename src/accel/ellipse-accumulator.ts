@@ -92,7 +92,8 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   let skippedNonFinite = 0;
   let gridHalfWidth = 0;
 
-  // mark and zoomOut are the core's (zoomOut after a flush) (accumulator.ts), over the grid in the kernel's memory.
+  // mark and zoomOut are the core's (accumulator.ts), over the grid in the kernel's memory; zoomOut flushes first and
+  // visits the occupied cells word by word (the grid is mostly empty when it zooms, early in a pass).
   function flush(): void {
     if (owedBy !== null) owedBy();
     if (marked) kernel!.flush();
@@ -106,8 +107,9 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   function zoomOut(): void {
     flush();
     zoomed.fill(0);
-    for (let index = 0; index < GRID * GRID; index++) {
-      if (isOccupied(occupancy, index)) {
+    for (let word = 0; word < occupancy.length; word++) {
+      for (let bits = occupancy[word]! | 0; bits !== 0; bits &= bits - 1) {
+        const index = (word << 5) | (31 - Math.clz32(bits & -bits));
         occupy(zoomed, (GRID / 4 + ((index >> GRID_BITS) >> 1)) * GRID + GRID / 4 + ((index & (GRID - 1)) >> 1));
       }
     }
