@@ -307,6 +307,9 @@ export type CaptureAnalysis = Pick<
  */
 export const SETTLE_SAMPLES = CAPTURE_BLOCK_SAMPLES;
 
+/** Samples of the settling run passed on their own, through which the chain starts (see analyseCapture). */
+const START_SAMPLES = 1;
+
 /** What analyseCapture's options decide about which samples it reads. */
 type AnalysedRead = Pick<RunOptions, 'channels' | 'analysisBudgetSamples'>;
 
@@ -399,7 +402,12 @@ export async function analyseCapture(
       for await (const block of part.blocks()) {
         events.length = 0;
         if (block.firstIndex < first) {
-          pipeline.process(block.x, block.y, block.length, scratch, events);
+          // After a reset the chain starts on its first sample in the JavaScript stages, and takes a block that starts
+          // there whole; the rest of the block then takes the steady path (the same output: the chain does not
+          // depend on where blocks begin).
+          const head = Math.min(START_SAMPLES, block.length);
+          pipeline.process(block.x.subarray(0, head), block.y.subarray(0, head), head, scratch, events);
+          pipeline.process(block.x.subarray(head), block.y.subarray(head), block.length - head, scratch, events);
           continue;
         }
         // The output arrays are a block long; the analyses read the first `length` (as in runCapture).
