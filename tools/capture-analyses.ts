@@ -147,7 +147,7 @@ export function createFigureSampler(maxPoints: number, calibration: EllipseCalib
   return {
     raw: () => ({ x: slice(rawX), y: slice(rawY) }),
     corrected: () => ({ x: slice(corrU), y: slice(corrV) }),
-    add(xs: Float64Array, ys: Float64Array, n: number, combined: { level: Float32Array; unwrappedPhaseRad: Float64Array } | null): void {
+    add(xs: ArrayLike<number>, ys: ArrayLike<number>, n: number, combined: { level: Float32Array; unwrappedPhaseRad: Float64Array } | null): void {
       let i = skip;
       for (; i < n; i += stride) {
         const x = xs[i]!;

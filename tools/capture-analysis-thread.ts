@@ -14,6 +14,7 @@ import {
   type AnalysisResults,
   type BlockOutput,
 } from './capture-analyses.js';
+import type { BlockSamples } from '../src/io/capture/index.js';
 
 /**
  * Blocks in flight between the two threads: enough to hold what the pipeline runs while the worker analyses one
@@ -112,6 +113,9 @@ export const WORKER_CONTROL = { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_
  * The pipeline's side of the analyses: the ring to the worker (startAnalysisThread), or the same calls on this
  * thread (analysesInLine), so a run is written once for both.
  */
+/** A block as the run hands it over: its samples may be the capture's int16 as stored (the analyses take them as doubles). */
+export type HandedBlock = Omit<AnalysedBlock, 'output' | 'x' | 'y'> & { readonly x: BlockSamples | null; readonly y: BlockSamples | null };
+
 export interface AnalysisThread {
   /** The arrays the pipeline writes the next block's output into, once the worker is done with their slot. */
   next(): Promise<BlockOutput>;
@@ -121,7 +125,7 @@ export interface AnalysisThread {
    * Hands the block over: its times and, for an analysed block, its samples are copied into the slot of `next`'s
    * arrays (the phase before harmonics is already there, see phaseSlot).
    */
-  add(block: Omit<AnalysedBlock, 'output'>): void;
+  add(block: HandedBlock): void;
   /**
    * Hands over a block left out of the analyses (CaptureAnalyses.skip) in the slot of `next`'s arrays, which it
    * leaves unread: only its length counts.
@@ -160,10 +164,13 @@ export function analysesInLine(config: AnalysisConfig): AnalysisThread {
   const output = createBlockOutput();
   const ready = Promise.resolve(output);
   const phase = new Float64Array(CAPTURE_BLOCK_SAMPLES);
+  const x = new Float64Array(CAPTURE_BLOCK_SAMPLES);
+  const y = new Float64Array(CAPTURE_BLOCK_SAMPLES);
+  const asDoubles = (samples: BlockSamples | null, into: Float64Array) => (samples === null || samples instanceof Float64Array ? samples : (into.set(samples), into.subarray(0, samples.length)));
   return {
     next: () => ready,
     phaseSlot: () => phase,
-    add: (block) => analyses.add({ ...block, output }),
+    add: (block) => analyses.add({ ...block, x: asDoubles(block.x, x), y: asDoubles(block.y, y), output }),
     skip: (length) => analyses.skip(length),
     finish: async () => analyses.finish(),
     terminate: async () => undefined,

@@ -183,7 +183,8 @@ function chainOf(info: CaptureInfo, options: RunOptions) {
 
 export async function runCapture(path: string, options: RunOptions): Promise<RunResult> {
   const { calibration, writer, progress } = options;
-  const capture = await openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES });
+  // An int16 capture's blocks as stored: the pipeline takes int16 blocks as they are.
+  const capture = await openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES, int16Blocks: true });
   const info = capture.info;
   const { chain, adc, adcStated } = chainOf(info, options);
   const layout = options.channels;

@@ -5,6 +5,7 @@ import { instantiate } from './wasm.js';
 interface KernelExports {
   readonly memory: WebAssembly.Memory;
   widen(source: number, stride: number, frames: number, xAt: number, yAt: number): void;
+  split(source: number, stride: number, frames: number, xAt: number, yAt: number): void;
 }
 
 export interface Int16Widener {
@@ -15,6 +16,8 @@ export interface Int16Widener {
    * its y the next two bytes) into the f64 arrays at bytes `xAt` and `yAt`.
    */
   widen(source: number, stride: number, frames: number, xAt: number, yAt: number): void;
+  /** The same frames into int16 arrays at bytes `xAt` and `yAt`, as stored. */
+  split(source: number, stride: number, frames: number, xAt: number, yAt: number): void;
 }
 
 /** The kernel over a memory of at least `bytes`, or null without WebAssembly SIMD (or that much memory). */
@@ -27,5 +30,5 @@ export function createInt16Widener(bytes: number): Int16Widener | null {
   } catch {
     return null;
   }
-  return { memory: kernel.memory.buffer, widen: kernel.widen };
+  return { memory: kernel.memory.buffer, widen: kernel.widen, split: kernel.split };
 }

@@ -176,4 +176,50 @@ describe('reading part of a capture', () => {
     expect(() => keepCaptureParts([[10, 5], [12, 5]], 64, 'int16')).toThrow(/parts\[1\] must be a part starting at an integer from 15/);
     expect(() => keepCaptureParts([[10, 0]], 64, 'int16')).toThrow(/parts\[0\] must be/);
   });
+
+  it('int16Blocks: an int16 capture\'s x and y as stored, in Int16Array, the values of the Float64Array blocks, for any part and block size', async () => {
+    await fc.assert(
+      fc.asyncProperty(
+        fc.integer({ min: 0, max: N }),
+        fc.integer({ min: 1, max: 5000 }),
+        fc.integer({ min: 4, max: 70_000 }),
+        fc.boolean(),
+        async (startSample, blockSize, readChunkBytes, swapped) => {
+          // Swapped channels are not adjacent in x-then-y order: the reader's loop, not the kernel's pass.
+          const channels = swapped ? { xChannel: 2, yChannel: 1 } : {};
+          const capture = await openCapture(wav, { startSample, blockSize, readChunkBytes, int16Blocks: true, ...channels });
+          const x: number[] = [], y: number[] = [];
+          for await (const block of capture.blocks()) {
+            expect(block.x).toBeInstanceOf(Int16Array);
+            expect(block.channels).toEqual([block.x, block.y]);
+            x.push(...block.x);
+            y.push(...block.y);
+          }
+          expect(x).toEqual((swapped ? whole.y : whole.x).slice(startSample));
+          expect(y).toEqual((swapped ? whole.x : whole.y).slice(startSample));
+        },
+      ),
+      { numRuns: 40 },
+    );
+  });
+
+  it('int16Blocks: Float64Array where there are more than two outputs or the samples are not int16; a non-boolean is refused', async () => {
+    const outputs = await openCapture(three, { channels: [1, 2, 3], int16Blocks: true });
+    for await (const block of outputs.blocks()) expect(block.x).toBeInstanceOf(Float64Array);
+    // Two adjacent outputs of three (6-byte frames): Int16Array, through the kernel's one-at-a-time path.
+    const pair = await openCapture(three, { xChannel: 2, yChannel: 3, int16Blocks: true, blockSize: 333 });
+    const second: number[] = [];
+    for await (const block of pair.blocks()) {
+      expect(block.y).toBeInstanceOf(Int16Array);
+      second.push(...block.y);
+    }
+    expect(second).toEqual(whole.x.map((v) => 0 - v)); // 0 - v: no -0, as int16 has none
+    const float = dir.file('float.wav');
+    const writer = await createCaptureWriter(float, { format: 'wav', rateHz: 1000, encoding: 'float32' });
+    await writer.write([0.5, -0.25], [0.125, 1], 2);
+    await writer.close();
+    const floats = await openCapture(float, { int16Blocks: true });
+    for await (const block of floats.blocks()) expect([block.x instanceof Float64Array, ...block.x]).toEqual([true, 0.5, -0.25]);
+    await expect(openCapture(wav, { int16Blocks: 'yes' } as never)).rejects.toThrow(/int16Blocks must be true or false \(got "yes"\)/);
+  });
 });

@@ -10,11 +10,13 @@ export { openTruthFile, type TruthReader } from './truth-reader.js';
 export { DEFAULT_BLOCK_SIZE, DEFAULT_READ_CHUNK_BYTES, MAX_BLOCK_SIZE, MAX_READ_CHUNK_BYTES } from './resolved-options.js';
 export { MAX_CSV_LINE_BYTES } from './csv-reader.js';
 export type {
+  BlockSamples,
   Capture,
   CaptureBlock,
   CaptureFormat,
   CaptureInfo,
   ChannelSelector,
+  Int16BlockOptions,
   OpenCaptureOptions,
   RateSource,
   SampleEncoding,

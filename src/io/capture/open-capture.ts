@@ -5,7 +5,7 @@ import { openCsvCapture } from './csv-reader.js';
 import { CaptureFormatError } from './errors.js';
 import { resolveCaptureOptions } from './resolved-options.js';
 import { OptionError } from '../../core/options.js';
-import type { Capture, CaptureFormat, OpenCaptureOptions } from './types.js';
+import type { BlockSamples, Capture, CaptureFormat, Int16BlockOptions, OpenCaptureOptions } from './types.js';
 import { openWavCapture } from './wav-reader.js';
 
 const SNIFF_BYTES = 4096;
@@ -14,7 +14,9 @@ const SNIFF_BYTES = 4096;
  * Opens `path` and reads its header (and, for CSV, a look at the first rows) so that `info` is complete; samples
  * follow from `blocks()`. Option errors throw RangeError; file content errors reject with CaptureFormatError.
  */
-export async function openCapture(path: string, options: OpenCaptureOptions = {}): Promise<Capture> {
+export async function openCapture(path: string, options: Int16BlockOptions): Promise<Capture<BlockSamples>>;
+export async function openCapture(path: string, options?: OpenCaptureOptions): Promise<Capture>;
+export async function openCapture(path: string, options: OpenCaptureOptions = {}): Promise<Capture<BlockSamples>> {
   const resolved = resolveCaptureOptions(options);
   let handle;
   try {

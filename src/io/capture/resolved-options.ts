@@ -21,6 +21,7 @@ export interface ResolvedCaptureOptions {
   readonly startSample: number;
   /** null: to the end. */
   readonly sampleCount: number | null;
+  readonly int16Blocks: boolean;
 }
 
 export function resolveCaptureOptions(options: OpenCaptureOptions): ResolvedCaptureOptions {
@@ -47,7 +48,13 @@ export function resolveCaptureOptions(options: OpenCaptureOptions): ResolvedCapt
     readChunkBytes: integerInRange('readChunkBytes', options.readChunkBytes ?? DEFAULT_READ_CHUNK_BYTES, 1, MAX_READ_CHUNK_BYTES),
     startSample: integerInRange('startSample', options.startSample ?? 0, 0, MAX_COUNT),
     sampleCount: options.sampleCount === undefined ? null : integerInRange('sampleCount', options.sampleCount, 0, MAX_COUNT),
+    int16Blocks: booleanOption('int16Blocks', (options as { int16Blocks?: unknown }).int16Blocks ?? false),
   });
+}
+
+function booleanOption(name: string, value: unknown): boolean {
+  if (typeof value !== 'boolean') throw new OptionError(name, 'true or false', value);
+  return value;
 }
 
 function checkSelector(name: string, value: ChannelSelector | undefined): ChannelSelector | null {

@@ -1,12 +1,12 @@
 // The one-pass Capture both readers hand out: a reader fills its reused buffers, this turns that into blocks.
 import type { FileHandle } from 'node:fs/promises';
-import type { Capture, CaptureBlock, CaptureInfo } from './types.js';
+import type { BlockSamples, Capture, CaptureBlock, CaptureInfo } from './types.js';
 
-export interface BlockBuffers {
-  readonly x: Float64Array;
-  readonly y: Float64Array;
+export interface BlockBuffers<Samples extends BlockSamples = Float64Array> {
+  readonly x: Samples;
+  readonly y: Samples;
   /** Outputs 3 and 4 when the capture was opened with them. */
-  readonly extra: readonly Float64Array[];
+  readonly extra: readonly Samples[];
   /** Times in seconds, or null when the file has no time column. */
   readonly t: Float64Array | null;
 }
@@ -16,9 +16,15 @@ export interface BlockBuffers {
  * count (0 at the end; it rejects at the first bad place, after the good samples before it were delivered).
  * The file closes when the pass ends, early or not. `firstIndex`: the absolute index of the first sample filled.
  */
-export function singlePassCapture(info: CaptureInfo, handle: FileHandle, buffers: BlockBuffers, fill: () => Promise<number>, firstIndex = 0): Capture {
+export function singlePassCapture<Samples extends BlockSamples>(
+  info: CaptureInfo,
+  handle: FileHandle,
+  buffers: BlockBuffers<Samples>,
+  fill: () => Promise<number>,
+  firstIndex = 0,
+): Capture<Samples> {
   const blockSize = buffers.x.length;
-  const block: { -readonly [K in keyof CaptureBlock]: CaptureBlock[K] } = {
+  const block: { -readonly [K in keyof CaptureBlock<Samples>]: CaptureBlock<Samples>[K] } = {
     x: buffers.x,
     y: buffers.y,
     channels: [buffers.x, buffers.y, ...buffers.extra],
@@ -36,17 +42,17 @@ export function singlePassCapture(info: CaptureInfo, handle: FileHandle, buffers
     await handle.close();
   }
 
-  async function* blocks(): AsyncGenerator<CaptureBlock> {
+  async function* blocks(): AsyncGenerator<CaptureBlock<Samples>> {
     try {
       for (;;) {
         const count = await fill();
         if (count === 0) return;
         if (count < blockSize) {
           // Only the last block is shorter: views of the reused buffers.
-          block.x = buffers.x.subarray(0, count);
-          block.y = buffers.y.subarray(0, count);
+          block.x = buffers.x.subarray(0, count) as Samples;
+          block.y = buffers.y.subarray(0, count) as Samples;
           block.t = buffers.t === null ? null : buffers.t.subarray(0, count);
-          block.channels = [block.x, block.y, ...buffers.extra.map((channel) => channel.subarray(0, count))];
+          block.channels = [block.x, block.y, ...buffers.extra.map((channel) => channel.subarray(0, count) as Samples)];
         }
         block.length = count;
         block.firstIndex = samplesDelivered;
@@ -58,7 +64,7 @@ export function singlePassCapture(info: CaptureInfo, handle: FileHandle, buffers
     }
   }
 
-  const capture: Capture = {
+  const capture: Capture<Samples> = {
     info,
     blocks() {
       if (started) throw new Error(`${info.file}: blocks() can be called once per openCapture`);

@@ -41,16 +41,19 @@ export interface CaptureInfo {
   readonly warnings: readonly string[];
 }
 
+/** The arrays a block's samples come in: Float64Array, or Int16Array as stored (see `OpenCaptureOptions.int16Blocks`). */
+export type BlockSamples = Float64Array | Int16Array;
+
 /**
  * One block of samples. The reader reuses the same block object and arrays for every block: copy what you keep
  * before asking for the next one. `x.length === y.length === length` always (the last, shorter block is a view).
  */
-export interface CaptureBlock {
+export interface CaptureBlock<Samples extends BlockSamples = Float64Array> {
   /** Channel values: ADC counts for integer encodings, stored values for float and text. */
-  readonly x: Float64Array;
-  readonly y: Float64Array;
+  readonly x: Samples;
+  readonly y: Samples;
   /** Every channel delivered (see `OpenCaptureOptions.channels`): `channels[0]` is `x`, `channels[1]` is `y`. */
-  readonly channels: readonly Float64Array[];
+  readonly channels: readonly Samples[];
   /** Times in seconds from the CSV `t` column, or null when the file has none (then t = index / rateHz). */
   readonly t: Float64Array | null;
   readonly length: number;
@@ -87,14 +90,23 @@ export interface OpenCaptureOptions {
   sampleCount?: number;
 }
 
+/**
+ * `openCapture`'s options for blocks of x and y as Int16Array, the samples as stored, where the file stores int16
+ * samples and two channels are delivered (an int16 WAV capture): no widening to Float64Array, for a chain that takes
+ * int16 blocks as they are. Other captures deliver Float64Array as without it.
+ */
+export interface Int16BlockOptions extends OpenCaptureOptions {
+  readonly int16Blocks: true;
+}
+
 /** An open capture: its description and a single pass over its samples. */
-export interface Capture extends AsyncIterable<CaptureBlock> {
+export interface Capture<Samples extends BlockSamples = Float64Array> extends AsyncIterable<CaptureBlock<Samples>> {
   readonly info: CaptureInfo;
   /**
    * The blocks in file order. Callable once. A CaptureFormatError rejects the iteration at the bad place, after every
    * good block before it. Ending the loop early (break/return) or reaching the end closes the file.
    */
-  blocks(): AsyncIterableIterator<CaptureBlock>;
+  blocks(): AsyncIterableIterator<CaptureBlock<Samples>>;
   /** Releases the file; safe to call more than once, and after the iteration has ended. */
   close(): Promise<void>;
 }

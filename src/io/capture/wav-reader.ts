@@ -7,11 +7,11 @@ import type { ResolvedCaptureOptions } from './resolved-options.js';
 import { singlePassCapture } from './single-pass.js';
 import { OptionError } from '../../core/options.js';
 import type { AdcFormat } from '../../core/index.js';
-import type { Capture, CaptureInfo, ChannelSelector } from './types.js';
+import type { BlockSamples, Capture, CaptureInfo, ChannelSelector } from './types.js';
 import { readWavLayout, type WavLayout } from './wav-header.js';
 import { createInt16Widener } from '../../accel/int16-widen.js';
 
-export async function openWavCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions): Promise<Capture> {
+export async function openWavCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions): Promise<Capture<BlockSamples>> {
   const layout = await readWavLayout(file, handle);
   if (options.timeColumn !== undefined && options.timeColumn !== null) {
     throw new OptionError('timeColumn', `left out: ${file} is WAV, its times follow from the header's sample rate`, options.timeColumn);
@@ -75,8 +75,11 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
   let filePosition = dataOffset + firstFrame * blockAlign;
   let reachedEnd = false;
 
-  const xBuffer = widener === null ? new Float64Array(blockSize) : new Float64Array(storage, 2 * bufferBytes, blockSize);
-  const yBuffer = widener === null ? new Float64Array(blockSize) : new Float64Array(storage, 2 * bufferBytes + 8 * blockSize, blockSize);
+  // int16Blocks: x and y as stored, for two int16 channels (else Float64Array as without it).
+  const asStored = options.int16Blocks && layout.encoding === 'int16' && extraChannels.length === 0;
+  const Samples = asStored ? Int16Array : Float64Array;
+  const xBuffer: BlockSamples = widener === null ? new Samples(blockSize) : new Samples(storage, 2 * bufferBytes, blockSize);
+  const yBuffer: BlockSamples = widener === null ? new Samples(blockSize) : new Samples(storage, 2 * bufferBytes + 8 * blockSize, blockSize);
   const extraBuffers = extraChannels.map(() => new Float64Array(blockSize));
   let pendingError: Error | null = null;
   let ahead: Promise<number> | null = null;
@@ -136,7 +139,8 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
     let at = bufferStart;
     if (widener !== null) {
       // Adjacent int16 channels, from the frame buffer into the blocks in one pass of the kernel.
-      widener.widen(bufferAt + at + xByte, blockAlign, frames, xBuffer.byteOffset + 8 * count, yBuffer.byteOffset + 8 * count);
+      const bytes = xBuffer.BYTES_PER_ELEMENT;
+      (asStored ? widener.split : widener.widen)(bufferAt + at + xByte, blockAlign, frames, xBuffer.byteOffset + bytes * count, yBuffer.byteOffset + bytes * count);
       at += frames * blockAlign;
     } else if (int16View !== null) {
       deinterleave(int16View, (at + xByte) >> 1, (at + yByte) >> 1, blockAlign >> 1, xBuffer, yBuffer, count, frames);
@@ -193,7 +197,7 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
  * `stride` elements a frame) into the blocks from `count`. A plain function of its arguments: as a closure over the
  * reader's state, V8 kept the loop at about 8 ns a sample.
  */
-function deinterleave(view: Int16Array | Float32Array, xAt: number, yAt: number, stride: number, x: Float64Array, y: Float64Array, count: number, frames: number): void {
+function deinterleave(view: Int16Array | Float32Array, xAt: number, yAt: number, stride: number, x: BlockSamples, y: BlockSamples, count: number, frames: number): void {
   const end = count + frames;
   for (let i = count; i < end; i++, xAt += stride, yAt += stride) {
     x[i] = view[xAt]!;
