@@ -131,6 +131,13 @@ export interface RunOptions {
   readonly analysisThread?: boolean | 'auto';
 }
 
+/**
+ * Read size (bytes) of a run through a whole capture: each read costs the pipeline's thread a round trip to the
+ * thread pool, and with 1 MiB instead of the default 256 KiB a replay of 3·10^7 int16 pairs took about 6 % less of
+ * that thread's time (two buffers of it: 2 MiB, whatever the capture's length).
+ */
+export const RUN_READ_BYTES = 1 << 20;
+
 /** Shorter captures are analysed in line: starting a worker costs about as much as analysing them. */
 export const ANALYSIS_THREAD_MIN_SAMPLES = 2 ** 22;
 
@@ -184,7 +191,7 @@ function chainOf(info: CaptureInfo, options: RunOptions) {
 export async function runCapture(path: string, options: RunOptions): Promise<RunResult> {
   const { calibration, writer, progress } = options;
   // An int16 capture's blocks as stored: the pipeline takes int16 blocks as they are.
-  const capture = await openCapture(path, { ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES, int16Blocks: true });
+  const capture = await openCapture(path, { readChunkBytes: RUN_READ_BYTES, ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES, int16Blocks: true });
   const info = capture.info;
   const { chain, adc, adcStated } = chainOf(info, options);
   const layout = options.channels;
