@@ -1,5 +1,5 @@
 // Opens a capture file, CSV or WAV, told apart by its first bytes (then its extension), for one streaming pass.
-import { open } from 'node:fs/promises';
+import { open, type FileHandle } from 'node:fs/promises';
 import { extname } from 'node:path';
 import { openCsvCapture } from './csv-reader.js';
 import { CaptureFormatError } from './errors.js';
@@ -7,6 +7,7 @@ import { resolveCaptureOptions } from './resolved-options.js';
 import { OptionError } from '../../core/options.js';
 import type { BlockSamples, Capture, CaptureFormat, Int16BlockOptions, OpenCaptureOptions } from './types.js';
 import { openWavCapture } from './wav-reader.js';
+import { readWavLayout } from './wav-header.js';
 
 const SNIFF_BYTES = 4096;
 
@@ -18,15 +19,8 @@ export async function openCapture(path: string, options: Int16BlockOptions): Pro
 export async function openCapture(path: string, options?: OpenCaptureOptions): Promise<Capture>;
 export async function openCapture(path: string, options: OpenCaptureOptions = {}): Promise<Capture<BlockSamples>> {
   const resolved = resolveCaptureOptions(options);
-  let handle;
+  const handle = await openHandle(path);
   try {
-    handle = await open(path, 'r');
-  } catch (error) {
-    throw fileOpenError(path, error);
-  }
-  try {
-    // Opening a folder succeeds; reading it fails with EISDIR and no path in the message.
-    if ((await handle.stat()).isDirectory()) throw fileOpenError(path, Object.assign(new Error('is a directory'), { code: 'EISDIR' }));
     const format = resolved.format ?? (await sniffFormat(path, handle));
     if (format === 'csv' && (resolved.startSample !== 0 || resolved.sampleCount !== null)) {
       const [option, value] = resolved.startSample !== 0 ? ['startSample', resolved.startSample] : ['sampleCount', resolved.sampleCount];
@@ -39,32 +33,65 @@ export async function openCapture(path: string, options: OpenCaptureOptions = {}
   }
 }
 
+/** The file opened for reading, refused with the path in the message when it cannot be read (or is a folder). */
+async function openHandle(path: string): Promise<FileHandle> {
+  let handle;
+  try {
+    handle = await open(path, 'r');
+  } catch (error) {
+    throw fileOpenError(path, error);
+  }
+  try {
+    // Opening a folder succeeds; reading it fails with EISDIR and no path in the message.
+    if ((await handle.stat()).isDirectory()) throw fileOpenError(path, Object.assign(new Error('is a directory'), { code: 'EISDIR' }));
+    return handle;
+  } catch (error) {
+    await handle.close();
+    throw error;
+  }
+}
+
 /**
- * Opens the parts of a WAV capture given as [startSample, sampleCount] one after another, each while the one before
- * is read: a part's opening is a few file-system calls, each a round trip to the thread pool (about a millisecond a
- * part on a busy machine), which then overlap the reading. Read each part's blocks before taking the next; a part
- * opened ahead and not taken (the loop left early) is closed. `options` as openCapture's, without the range.
+ * Opens the parts of a WAV capture given as [startSample, sampleCount] one after another, over one file handle and
+ * one reading of its header: a part's first read starts as the part before it is taken, so that it overlaps that
+ * part's reading (each read is a round trip to the thread pool; opening the file for each part took four or five
+ * more). Read each part's blocks before taking the next; the file closes when the loop ends, early or not.
+ * `options` as openCapture's, without the range; a part of a CSV capture is refused as openCapture refuses it.
  */
 export async function* openCaptureParts(
   path: string,
   options: Omit<OpenCaptureOptions, 'startSample' | 'sampleCount'>,
   parts: readonly (readonly [startSample: number, sampleCount: number])[],
 ): AsyncGenerator<Capture, void, undefined> {
-  const opening = (k: number): Promise<Capture> => {
-    const [startSample, sampleCount] = parts[k]!;
-    const part = openCapture(path, { ...options, startSample, sampleCount });
-    part.catch(() => undefined); // thrown where it is awaited, below
-    return part;
-  };
-  let ahead = parts.length > 0 ? opening(0) : null;
+  if (parts.length === 0) return;
+  const resolvedParts = parts.map(([startSample, sampleCount]) => resolveCaptureOptions({ ...options, startSample, sampleCount }));
+  const handle = await openHandle(path);
+  let ahead: Promise<Capture> | null = null;
   try {
+    const first = resolvedParts[0]!;
+    if ((first.format ?? (await sniffFormat(path, handle))) === 'csv') {
+      await handle.close();
+      // openCapture's refusal of a range of a CSV capture.
+      yield await openCapture(path, { ...options, startSample: parts[0]![0], sampleCount: parts[0]![1] });
+      return;
+    }
+    const shared = { layout: await readWavLayout(path, handle), release: async () => undefined, readAtOnce: true };
+    // Float64Array blocks: the options have no int16Blocks.
+    const opening = (k: number) => {
+      const part = openWavCapture(path, handle, resolvedParts[k]!, shared) as Promise<Capture>;
+      part.catch(() => undefined); // thrown where it is awaited, below
+      return part;
+    };
+    ahead = opening(0);
     for (let k = 0; k < parts.length; k++) {
-      const part = await ahead!;
+      const part: Capture = await ahead!;
       ahead = k + 1 < parts.length ? opening(k + 1) : null;
       yield part;
     }
   } finally {
-    await ahead?.then((part) => part.close(), () => undefined);
+    // A part opened ahead has its first read in flight: closing the handle waits for it.
+    await ahead?.catch(() => undefined);
+    await handle.close();
   }
 }
 

@@ -14,7 +14,8 @@ export interface BlockBuffers<Samples extends BlockSamples = Float64Array> {
 /**
  * A Capture over `fill`, which writes up to `buffers.x.length` samples into the buffers and resolves with the
  * count (0 at the end; it rejects at the first bad place, after the good samples before it were delivered).
- * The file closes when the pass ends, early or not. `firstIndex`: the absolute index of the first sample filled.
+ * The file closes when the pass ends, early or not (`release`: by default the handle closes). `firstIndex`: the
+ * absolute index of the first sample filled.
  */
 export function singlePassCapture<Samples extends BlockSamples>(
   info: CaptureInfo,
@@ -22,6 +23,7 @@ export function singlePassCapture<Samples extends BlockSamples>(
   buffers: BlockBuffers<Samples>,
   fill: () => Promise<number>,
   firstIndex = 0,
+  release: () => Promise<void> = () => handle.close(),
 ): Capture<Samples> {
   const blockSize = buffers.x.length;
   const block: { -readonly [K in keyof CaptureBlock<Samples>]: CaptureBlock<Samples>[K] } = {
@@ -39,7 +41,7 @@ export function singlePassCapture<Samples extends BlockSamples>(
   async function close(): Promise<void> {
     if (closed) return;
     closed = true;
-    await handle.close();
+    await release();
   }
 
   async function* blocks(): AsyncGenerator<CaptureBlock<Samples>> {

@@ -11,8 +11,19 @@ import type { BlockSamples, Capture, CaptureInfo, ChannelSelector } from './type
 import { readWavLayout, type WavLayout } from './wav-header.js';
 import { createInt16Widener } from '../../accel/int16-widen.js';
 
-export async function openWavCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions): Promise<Capture<BlockSamples>> {
-  const layout = await readWavLayout(file, handle);
+/**
+ * A part of a file whose handle and header are shared by several parts (openCaptureParts): its layout as read
+ * once, what ending the part does in place of closing the handle, and whether its first read starts at once (so that
+ * it overlaps the part before it).
+ */
+export interface SharedWavHandle {
+  readonly layout: WavLayout;
+  readonly release: () => Promise<void>;
+  readonly readAtOnce: boolean;
+}
+
+export async function openWavCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions, shared?: SharedWavHandle): Promise<Capture<BlockSamples>> {
+  const layout = shared?.layout ?? (await readWavLayout(file, handle));
   if (options.timeColumn !== undefined && options.timeColumn !== null) {
     throw new OptionError('timeColumn', `left out: ${file} is WAV, its times follow from the header's sample rate`, options.timeColumn);
   }
@@ -189,7 +200,8 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
     return count;
   }
 
-  return singlePassCapture(info, handle, { x: xBuffer, y: yBuffer, extra: extraBuffers, t: null }, fillBlock, firstFrame);
+  if (shared?.readAtOnce === true) readAhead(0);
+  return singlePassCapture(info, handle, { x: xBuffer, y: yBuffer, extra: extraBuffers, t: null }, fillBlock, firstFrame, shared?.release);
 }
 
 /**
