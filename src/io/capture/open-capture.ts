@@ -13,7 +13,8 @@ const SNIFF_BYTES = 4096;
 
 /**
  * Opens `path` and reads its header (and, for CSV, a look at the first rows) so that `info` is complete; samples
- * follow from `blocks()`. Option errors throw RangeError; file content errors reject with CaptureFormatError.
+ * follow from `blocks()`. Option errors throw RangeError; file content errors reject with CaptureFormatError. With
+ * `int16Blocks: true` (Int16BlockOptions), an int16 capture's x and y come as Int16Array, as stored.
  */
 export async function openCapture(path: string, options: Int16BlockOptions): Promise<Capture<BlockSamples>>;
 export async function openCapture(path: string, options?: OpenCaptureOptions): Promise<Capture>;
