@@ -170,7 +170,7 @@ export async function listenMemoryCases(lengths: readonly [number, number] = [1e
  * `pipeline/int16/block4096`), to alternate with the chain's: on a shared machine the speed of both moves between
  * runs, their ratio within one process much less. Returns one pass's process CPU time, s.
  */
-function barePipeline(): () => number {
+export function barePipeline(): () => number {
   const { x, y } = benchSignal(TOTAL_SAMPLES);
   const pipeline = createPipeline({ rateHz: 10_000_000, wavelengthM: 632.9908e-9, fold: 2, calibration: ellipse, adc: { kind: 'int16' } });
   const output = { positionM: new Float64Array(BLOCK), velocityMS: new Float64Array(BLOCK), level: new Float32Array(BLOCK), flags: new Uint8Array(BLOCK) };

@@ -13,6 +13,8 @@ import { fileURLToPath } from 'node:url';
 import type { BenchResult } from '../harness.js';
 import { openCapture } from '../../src/io/capture/index.js';
 import { generate } from './capture.js';
+import { TOTAL_SAMPLES } from './core.js';
+import { barePipeline } from './listen.js';
 
 const here = dirname(fileURLToPath(import.meta.url));
 const TOOL = resolve(here, '../../tools/fringetally.js');
@@ -31,6 +33,31 @@ function runTool(args: readonly string[]): ToolRun {
   if (child.status !== 0) throw new Error(`fringetally ${args.join(' ')} exited with ${child.status}: ${child.stderr}`);
   const usage = JSON.parse(String(child.output[3])) as { cpuSeconds: number; maxRssKiB: number };
   return { wallSeconds, ...usage };
+}
+
+/**
+ * `passes` runs, each right after a pass of the bare default pipeline in this process (`barePipeline`): the median
+ * run by wall time, and the median of the pairs' ratios (the run's samples per second, wall clock with its start-up,
+ * over the bare pipeline's, in CPU time). On a shared machine both speeds move between minutes; a pair's ratio much
+ * less.
+ */
+function pairedRuns(args: readonly string[], samples: number, passes: number, bare: () => number): { run: ToolRun; overBarePipeline: number; barePipelineSamplesPerSecond: number } {
+  const runs: ToolRun[] = [];
+  const ratios: number[] = [];
+  const bareRates: number[] = [];
+  for (let pass = 0; pass < passes; pass++) {
+    const bareRate = TOTAL_SAMPLES / bare();
+    const run = runTool(args);
+    runs.push(run);
+    bareRates.push(bareRate);
+    ratios.push(samples / run.wallSeconds / bareRate);
+  }
+  const middle = (values: number[]) => [...values].sort((a, b) => a - b)[values.length >> 1]!;
+  return { run: [...runs].sort((a, b) => a.wallSeconds - b.wallSeconds)[runs.length >> 1]!, overBarePipeline: middle(ratios), barePipelineSamplesPerSecond: middle(bareRates) };
+}
+
+function pairedResult(name: string, samples: number, paired: ReturnType<typeof pairedRuns>): BenchResult {
+  return result(name, samples, paired.run, { overBarePipeline: paired.overBarePipeline, barePipelineSamplesPerSecond: paired.barePipelineSamplesPerSecond });
 }
 
 /** The median run by wall time of `passes` runs. */
@@ -56,12 +83,16 @@ export interface ToolBenchOptions {
   readonly memorySamples?: readonly [number, number];
   /** Runs per case (median by wall time); default 3. */
   readonly passes?: number;
+  /** Runs of calibrate and replay, each right after a pass of the bare pipeline (see pairedRuns); default 5. */
+  readonly pairedPasses?: number;
 }
 
 export async function toolCases(options: ToolBenchOptions = {}): Promise<BenchResult[]> {
   const samples = options.samples ?? 3e7;
   const [short, long] = options.memorySamples ?? [1e7, 1e8];
   const passes = options.passes ?? 3;
+  // Runs of calibrate and replay, each paired with a pass of the bare pipeline.
+  const pairedPasses = options.pairedPasses ?? 5;
   const directory = await mkdtemp(join(tmpdir(), 'fringetally-bench-tools-'));
   const measure = ['--wavelength-nm', '632.9908', '--fold', '2', '--quiet'];
   const results: BenchResult[] = [];
@@ -84,10 +115,12 @@ export async function toolCases(options: ToolBenchOptions = {}): Promise<BenchRe
     const readSeconds = reads.sort((a, b) => a - b)[reads.length >> 1]!;
     results.push({ name: `capture/wav/int16/${samples}/read-alone`, samplesPerSecond: samples / readSeconds, nsPerSample: (readSeconds * 1e9) / samples, passes, extra: { wallSeconds: readSeconds } });
     const calibration = join(directory, 'calibration.json');
-    const calibrate = medianRun(['calibrate', capture, '--out', calibration, '--quiet'], passes);
-    results.push(result(`calibrate/wav/int16/${samples}/end-to-end`, samples, calibrate));
+    const bare = barePipeline();
+    bare(); // warm-up
+    const calibrate = pairedRuns(['calibrate', capture, '--out', calibration, '--quiet'], samples, pairedPasses, bare);
+    results.push(pairedResult(`calibrate/wav/int16/${samples}/end-to-end`, samples, calibrate));
     const replayArgs = (file: string) => ['replay', file, '--calibration', calibration, '--every', '10000', '--out', join(directory, 'result.csv'), ...measure];
-    results.push(result(`replay/wav/int16/${samples}/every10000/end-to-end`, samples, medianRun(replayArgs(capture), passes)));
+    results.push(pairedResult(`replay/wav/int16/${samples}/every10000/end-to-end`, samples, pairedRuns(replayArgs(capture), samples, pairedPasses, bare)));
     // The same with the analyses in line (one thread): what the analysis thread buys on this machine.
     results.push(result(`replay/wav/int16/${samples}/every10000/end-to-end/analyses-inline`, samples, medianRun([...replayArgs(capture), '--analysis-thread', 'off'], passes)));
     await rm(capture);
