@@ -52,3 +52,12 @@ export function measure(benchCase: BenchCase, options: MeasureOptions = defaultM
     passes: options.passes,
   };
 }
+
+/** The positive integer after `name` in a case file's own command line (run directly), else undefined. */
+export function positiveIntegerFlag(argv: readonly string[], name: string): number | undefined {
+  const index = argv.indexOf(name);
+  if (index === -1) return undefined;
+  const value = Number(argv[index + 1]);
+  if (!Number.isSafeInteger(value) || value < 1) throw new RangeError(`${name} must be a positive integer (got ${argv[index + 1]})`);
+  return value;
+}

@@ -18,7 +18,7 @@ import { replayCases } from './cases/replay.js';
 import { toolCases } from './cases/tools.js';
 import { listenCases, listenMemoryCases } from './cases/listen.js';
 import { streamCase, streamCaseNames } from './cases/stream.js';
-import { measure, type BenchResult } from './harness.js';
+import { measure, median, type BenchResult } from './harness.js';
 
 const { values } = parseArgs({
   options: {
@@ -98,11 +98,6 @@ for (const name of decoderCases().map((benchCase) => benchCase.name)) {
 let reference: Record<string, number> | null = null;
 /** Rounds of the default pipeline and the plain C case measured one right after the other (see --reference). */
 const PAIRED_ROUNDS = 5;
-const median = (values: readonly number[]) => {
-  const sorted = [...values].sort((a, b) => a - b);
-  const middle = sorted.length >> 1;
-  return sorted.length % 2 === 1 ? sorted[middle]! : (sorted[middle - 1]! + sorted[middle]!) / 2;
-};
 if (values.reference || values.all) {
   results.push(...isolated(JS_MINIMAL_CASE));
   const compiled = await compileReference();

@@ -10,7 +10,7 @@ import { createInterface } from 'node:readline';
 import { pathToFileURL } from 'node:url';
 import { createCaptureWriter, openCapture, type SampleEncoding } from '../../src/io/capture/index.js';
 import { createResultWriter, type ResultFormat } from '../../src/io/results/index.js';
-import { median, type BenchResult } from '../harness.js';
+import { median, positiveIntegerFlag, type BenchResult } from '../harness.js';
 
 export interface CaptureBenchOptions {
   /** Samples per file for the throughput cases; default 1e6. */
@@ -285,18 +285,10 @@ export async function captureCases(options: CaptureBenchOptions = {}): Promise<B
   return results;
 }
 
-function flag(argv: readonly string[], name: string): number | undefined {
-  const index = argv.indexOf(name);
-  if (index === -1) return undefined;
-  const value = Number(argv[index + 1]);
-  if (!Number.isSafeInteger(value) || value < 1) throw new RangeError(`${name} must be a positive integer (got ${argv[index + 1]})`);
-  return value;
-}
-
 if (process.argv[1] !== undefined && import.meta.url === pathToFileURL(process.argv[1]).href) {
   const argv = process.argv.slice(2);
-  const samples = flag(argv, '--samples');
-  const memorySamples = flag(argv, '--memory-samples');
+  const samples = positiveIntegerFlag(argv, '--samples');
+  const memorySamples = positiveIntegerFlag(argv, '--memory-samples');
   const results = await captureCases({ ...(samples === undefined ? {} : { samples }), ...(memorySamples === undefined ? {} : { memorySamples }) });
   process.stdout.write(JSON.stringify(results, null, 2) + '\n');
 }

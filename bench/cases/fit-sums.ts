@@ -11,7 +11,7 @@ import { pathToFileURL } from 'node:url';
 import { createFastEllipseAccumulator } from '../../src/accel/index.js';
 import { correctionCoefficients } from '../../src/core/correction.js';
 import { openCapture } from '../../src/io/capture/index.js';
-import { median, type BenchResult } from '../harness.js';
+import { median, positiveIntegerFlag, type BenchResult } from '../harness.js';
 import { generate } from './capture.js';
 
 export interface FitSumsBenchOptions {
@@ -129,18 +129,10 @@ export async function fitSumsCases(options: FitSumsBenchOptions = {}): Promise<B
   }
 }
 
-function flag(argv: readonly string[], name: string): number | undefined {
-  const index = argv.indexOf(name);
-  if (index === -1) return undefined;
-  const value = Number(argv[index + 1]);
-  if (!Number.isSafeInteger(value) || value < 1) throw new RangeError(`${name} must be a positive integer (got ${argv[index + 1]})`);
-  return value;
-}
-
 if (process.argv[1] !== undefined && import.meta.url === pathToFileURL(process.argv[1]).href) {
   const argv = process.argv.slice(2);
-  const samples = flag(argv, '--samples');
-  const rounds = flag(argv, '--rounds');
+  const samples = positiveIntegerFlag(argv, '--samples');
+  const rounds = positiveIntegerFlag(argv, '--rounds');
   const results = await fitSumsCases({ ...(samples === undefined ? {} : { samples }), ...(rounds === undefined ? {} : { rounds }) });
   for (const result of results) {
     const extra = result.extra === undefined ? '' : '  ' + Object.entries(result.extra).map(([key, value]) => `${key} ${value.toFixed(3)}`).join(' ');

@@ -10,7 +10,7 @@ import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import type { BenchResult } from '../harness.js';
+import { median, type BenchResult } from '../harness.js';
 import { openCapture } from '../../src/io/capture/index.js';
 import { generate } from './capture.js';
 import { TOTAL_SAMPLES } from './core.js';
@@ -52,8 +52,7 @@ function pairedRuns(args: readonly string[], samples: number, passes: number, ba
     bareRates.push(bareRate);
     ratios.push(samples / run.wallSeconds / bareRate);
   }
-  const middle = (values: number[]) => [...values].sort((a, b) => a - b)[values.length >> 1]!;
-  return { run: [...runs].sort((a, b) => a.wallSeconds - b.wallSeconds)[runs.length >> 1]!, overBarePipeline: middle(ratios), barePipelineSamplesPerSecond: middle(bareRates) };
+  return { run: [...runs].sort((a, b) => a.wallSeconds - b.wallSeconds)[runs.length >> 1]!, overBarePipeline: median(ratios), barePipelineSamplesPerSecond: median(bareRates) };
 }
 
 function pairedResult(name: string, samples: number, paired: ReturnType<typeof pairedRuns>): BenchResult {
