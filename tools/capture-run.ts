@@ -385,7 +385,7 @@ export async function analyseCapture(
   const rest = threaded ? createCaptureAnalyses({ ...config, part: 'rest' }) : null;
   let results: AnalysisResults;
   progress.start(`analyse ${path} (one block in ${read.every})`, total);
-  // Each analysed block as a part of its own, after SETTLE_SAMPLES: kept, or read (the next part opens while one is read).
+  // Each analysed block as a part of its own, after SETTLE_SAMPLES: kept, or read (openCaptureParts).
   const partsRead = kept?.complete === true ? kept.parts() : openCaptureParts(path, { readChunkBytes: PART_READ_BYTES, ...options.open, blockSize: CAPTURE_BLOCK_SAMPLES }, parts);
   try {
     // Blocks left out pass as one length each run of them (skip(a) then skip(b) is skip(a + b)).

@@ -101,7 +101,8 @@ async function run(argv: readonly string[]): Promise<number> {
   await checkFiles([{ option: 'the capture', path }], [{ option: '--out', path: values.out }, ...(report === undefined ? [] : [{ option: '--report', path: report }])]);
 
   // Without a report or harmonics only the analyses' figures are wanted: a long WAV capture is then read only where
-  // they look (analyseCapture), not run through whole, and those parts are kept from the fit's pass over it.
+  // they look (analyseCapture), not run through whole, and those parts are kept from the fit's pass over it (two
+  // outputs: three or four are run through whole).
   const analysesOnly = report === undefined && harmonicOrders === undefined;
   const keep = analysesOnly ? (captured: CaptureInfo) => (captured.channels.length === 2 ? keepAnalysedParts(captured, {}) : null) : undefined;
   const { fit, info, totalSamples, channels, kept } = await fitCapture(path, open, fitOptions, progress, keep);

@@ -71,12 +71,11 @@ export async function* openCaptureParts(
   try {
     const first = resolvedParts[0]!;
     if ((first.format ?? (await sniffFormat(path, handle))) === 'csv') {
-      await handle.close();
-      // openCapture's refusal of a range of a CSV capture.
+      // openCapture's refusal of a range of a CSV capture (the handle closes below).
       yield await openCapture(path, { ...options, startSample: parts[0]![0], sampleCount: parts[0]![1] });
       return;
     }
-    const shared = { layout: await readWavLayout(path, handle), release: async () => undefined, readAtOnce: true };
+    const shared = { layout: await readWavLayout(path, handle), release: async () => undefined };
     // Float64Array blocks: the options have no int16Blocks.
     const opening = (k: number) => {
       const part = openWavCapture(path, handle, resolvedParts[k]!, shared) as Promise<Capture>;

@@ -13,13 +13,12 @@ import { createInt16Widener } from '../../accel/int16-widen.js';
 
 /**
  * A part of a file whose handle and header are shared by several parts (openCaptureParts): its layout as read
- * once, what ending the part does in place of closing the handle, and whether its first read starts at once (so that
- * it overlaps the part before it).
+ * once, and what ending the part does in place of closing the handle. Such a part starts its first read at once,
+ * so that the read overlaps the part before it.
  */
 export interface SharedWavHandle {
   readonly layout: WavLayout;
   readonly release: () => Promise<void>;
-  readonly readAtOnce: boolean;
 }
 
 export async function openWavCapture(file: string, handle: FileHandle, options: ResolvedCaptureOptions, shared?: SharedWavHandle): Promise<Capture<BlockSamples>> {
@@ -200,7 +199,7 @@ export async function openWavCapture(file: string, handle: FileHandle, options: 
     return count;
   }
 
-  if (shared?.readAtOnce === true) readAhead(0);
+  if (shared !== undefined) readAhead(0);
   return singlePassCapture(info, handle, { x: xBuffer, y: yBuffer, extra: extraBuffers, t: null }, fillBlock, firstFrame, shared?.release);
 }
 
