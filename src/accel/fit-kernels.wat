@@ -14,12 +14,12 @@
 ;; 2304, each in both lanes (15 f64x2: the correction's kux ku0 kvx kvy kv0, then keepWithin's squared bounds
 ;; surelyAbove surelyUnder surelyBelow surelyOver lowIn lowOut highIn highOut, then max(surelyAbove, lowOut) and
 ;; min(surelyUnder, highIn): between them a pair is surely kept and not near a bound). The sums' vector constants at 2560:
-;; [shiftX shiftY], half and cellsPerUnit in both lanes (stored by each call), then 2^52 twice, 127 four times (i32)
+;; [shiftX shiftY], half and cellsPerUnit in both lanes (stored by each call), then 2^52 twice, 127 twice (f64)
 ;; and the |·| mask (the data segment). The loop reads them from memory: V8 then uses them as operands, where in
 ;; locals it spilled or rebuilt them every iteration (about 8 % fewer cycles).
 (module
   (memory (export "memory") 2)
-  (data (i32.const 2608) "\00\00\00\00\00\00\30\43\00\00\00\00\00\00\30\43\7f\00\00\00\7f\00\00\00\7f\00\00\00\7f\00\00\00\ff\ff\ff\ff\ff\ff\ff\7f\ff\ff\ff\ff\ff\ff\ff\7f")
+  (data (i32.const 2608) "\00\00\00\00\00\00\30\43\00\00\00\00\00\00\30\43\00\00\00\00\00\c0\5f\40\00\00\00\00\00\c0\5f\40\ff\ff\ff\ff\ff\ff\ff\7f\ff\ff\ff\ff\ff\ff\ff\7f")
 
   ;; sums(i, n, shiftX, shiftY, half, cellsPerUnit): adds pairs i.. of the loaded n to the running sums and marks
   ;; their grid cells' bytes, skipping (and counting) non-finite pairs. Returns n at the end, or −(k + 1) after
@@ -76,11 +76,12 @@
         (local.set $a7 (f64x2.add (local.get $a7) (f64x2.mul (local.get $svv) (local.get $svv))))
         (if (local.get $inside)
           (then
-            ;; The grid cell, as the core's mark: min(127, floor((u + half)·cellsPerUnit)); the floor's double
-            ;; + 2^52 holds it in its low 32 bits, where the min is taken.
-            (local.set $cells (i32x4.min_s (f64x2.add (f64x2.floor (f64x2.mul (f64x2.add (local.get $w) (v128.load offset=2576 (i32.const 0))) (v128.load offset=2592 (i32.const 0))))
-                                                      (v128.load offset=2608 (i32.const 0)))
-                                           (v128.load offset=2624 (i32.const 0))))
+            ;; The grid cell, as the core's mark: min(127, floor((u + half)·cellsPerUnit)), the min taken on the
+            ;; doubles (an infinite product, from a grid narrower than 128/MAX_VALUE, is cell 127 as in the core);
+            ;; + 2^52 then holds the cell in the low 32 bits.
+            (local.set $cells (f64x2.add (f64x2.min (f64x2.floor (f64x2.mul (f64x2.add (local.get $w) (v128.load offset=2576 (i32.const 0))) (v128.load offset=2592 (i32.const 0))))
+                                                    (v128.load offset=2624 (i32.const 0)))
+                                         (v128.load offset=2608 (i32.const 0))))
             (i32.store8 offset=69632
               (i32.or (i32.shl (i32x4.extract_lane 2 (local.get $cells)) (i32.const 7)) (i32x4.extract_lane 0 (local.get $cells)))
               (i32.const 128))

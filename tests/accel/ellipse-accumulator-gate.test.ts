@@ -81,6 +81,16 @@ describe('WebAssembly ellipse accumulator, gated add', () => {
       { numRuns: 20 },
     );
   });
+
+  it('marks the grid as the core when it is narrower than 128/MAX_VALUE (a pair a subnormal apart from the first)', () => {
+    // Found by the property above (seed -351892347): the cell's product was infinite and the kernel took cell 0
+    // where the core's Math.min takes 127.
+    const unit: EllipseCalibration = { offsetX: 0, offsetY: 0, amplitudeX: 1, amplitudeY: 1, phaseErrorRad: 0 };
+    checkSequence(unit, [
+      { x: Float64Array.from([0.5, 0.5]), y: Float64Array.from([5e-324, 0]), gated: true },
+      { x: Float64Array.from([0.5]), y: Float64Array.from([0]), gated: true },
+    ]);
+  });
 });
 
 // Blocks mostly kept whole by the gate (radii within it), so that the fused second pass sums most of them once for
