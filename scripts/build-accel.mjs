@@ -1,12 +1,13 @@
-// Assembles the WebAssembly text (SIMD) of src/accel — front-end.wat, axis-kernels.wat (twice), fit-kernels.wat, csv-rows.wat, steady-kernel.wat, wire-crc.wat, analysis-kernels.wat and int16-widen.wat — into
+// Assembles the WebAssembly text (SIMD) of src/accel — front-end.wat, axis-kernels.wat (twice), fit-kernels.wat, csv-rows.wat, steady-kernel.wat (twice), wire-crc.wat, analysis-kernels.wat and int16-widen.wat — into
 // src/accel/<name>-wasm.ts (the module's bytes, base64), so the package needs no assembler at run time. Run after
 // editing a .wat: node scripts/build-accel.mjs
 import { readFileSync, writeFileSync } from 'node:fs';
 import wabtModule from 'wabt';
 
 const wabt = await wabtModule();
-// The axis kernels once more over a shared memory they import (the same code): the capture analyses' worker runs
-// the block summary in place over the ring the pipeline's thread writes (tools/capture-analysis-thread.ts).
+// The axis kernels and the steady kernel once more over a shared memory they import (the same code): the capture
+// analyses' worker runs the block summary in place over the ring (tools/capture-analysis-thread.ts), into which the
+// pipeline's steady kernel writes its outputs in place.
 const OWN_MEMORY = '(memory (export "memory") 1)';
 const SHARED_MEMORY = '(import "env" "memory" (memory 1 65536 shared))';
 for (const [name, constant, target = name, shared = false] of [
@@ -16,6 +17,7 @@ for (const [name, constant, target = name, shared = false] of [
   ['fit-kernels', 'FIT_KERNELS_WASM_BASE64'],
   ['csv-rows', 'CSV_ROWS_WASM_BASE64'],
   ['steady-kernel', 'STEADY_KERNEL_WASM_BASE64'],
+  ['steady-kernel', 'STEADY_KERNEL_SHARED_WASM_BASE64', 'steady-kernel-shared', true],
   ['wire-crc', 'WIRE_CRC_WASM_BASE64'],
   ['analysis-kernels', 'ANALYSIS_KERNELS_WASM_BASE64'],
   ['int16-widen', 'INT16_WIDEN_WASM_BASE64'],

@@ -14,6 +14,7 @@ import {
   type AnalysisResults,
   type BlockOutput,
 } from './capture-analyses.js';
+import { steadyKernelBytes } from '../src/accel/index.js';
 import type { BlockSamples } from '../src/io/capture/index.js';
 
 /**
@@ -43,7 +44,7 @@ const FINISH = 2;
 const WORKER_WAITING = 3;
 const PIPELINE_WAITING = 4;
 const CONTROL_BYTES = 24;
-/** Where the worker's in-place block summary keeps its lanes (createSharedBlockSummary: 176 bytes, 16-aligned). */
+/** Where the worker's in-place block summary keeps its lanes, from the ring's base (createSharedBlockSummary: 176 bytes, 16-aligned). */
 export const SUMMARY_LANES_AT = 32;
 /** Bytes before the first slot: the control words, then the summary's lanes. */
 const HEAD_BYTES = SUMMARY_LANES_AT + 176;
@@ -71,10 +72,11 @@ export interface AnalysisRing {
   readonly slots: readonly RingSlot[];
 }
 
-export function ringOf(buffer: SharedArrayBuffer): AnalysisRing {
+/** The ring in `buffer` from byte `base` (the bytes before it are the pipeline's kernel's, see createRingMemory). */
+export function ringOf(buffer: SharedArrayBuffer, base: number): AnalysisRing {
   const slots: RingSlot[] = [];
   for (let k = 0; k < RING_SLOTS; k++) {
-    const at = HEAD_BYTES + k * SLOT_BYTES;
+    const at = base + HEAD_BYTES + k * SLOT_BYTES;
     const samples = (index: number) => new Float64Array(buffer, at + BLOCK_OUTPUT_BYTES + index * SAMPLES_BYTES, CAPTURE_BLOCK_SAMPLES);
     slots.push({
       output: createBlockOutput(buffer, at),
@@ -85,7 +87,7 @@ export function ringOf(buffer: SharedArrayBuffer): AnalysisRing {
       header: new Float64Array(buffer, at + BLOCK_OUTPUT_BYTES + 4 * SAMPLES_BYTES, 6),
     });
   }
-  return { control: new Int32Array(buffer, 0, CONTROL_BYTES / 4), slots };
+  return { control: new Int32Array(buffer, base, CONTROL_BYTES / 4), slots };
 }
 
 /** The block in a slot, as the analyses take it (views of the slot's arrays, `length` long). */
@@ -140,18 +142,32 @@ export interface AnalysisThread {
 type WaitAsync = (array: Int32Array, index: number, value: number, timeoutMs: number) => { async: false; value: string } | { async: true; value: Promise<string> };
 const waitAsync = (Atomics as unknown as { waitAsync: WaitAsync }).waitAsync;
 
+/** The ring's shared bytes, and where in them the ring starts. */
+export interface RingMemory {
+  /** Null without shared WebAssembly memory: `buffer` is then plain shared bytes. */
+  readonly memory: WebAssembly.Memory | null;
+  readonly buffer: SharedArrayBuffer;
+  readonly base: number;
+}
+
 /**
  * The ring's shared bytes: a shared WebAssembly memory where the engine has one, so that the worker's block summary
- * reads the slots in place (createSharedBlockSummary), else a plain SharedArrayBuffer (the worker then copies).
+ * reads the slots in place (createSharedBlockSummary) and the pipeline's steady kernel, which takes the bytes before
+ * the ring (AcceleratedPipelineOptions.kernelMemory), writes its outputs into the slots in place: copies into shared
+ * memory go element by element, at about twice the cost of the kernel's own stores. Else plain shared bytes (the
+ * worker then copies, and so does the pipeline).
  */
-function ringMemory(bytes: number): { memory: WebAssembly.Memory | null; buffer: SharedArrayBuffer } {
+export function createRingMemory(): RingMemory {
+  const base = steadyKernelBytes();
+  const bytes = base + HEAD_BYTES + RING_SLOTS * SLOT_BYTES;
+  // Room for the kernel to grow into for a block longer than CAPTURE_BLOCK_SAMPLES (none in a run, see steadyKernelBytes).
   const pages = Math.ceil(bytes / 65536);
   try {
-    const memory = new WebAssembly.Memory({ initial: pages, maximum: pages, shared: true });
-    return { memory, buffer: memory.buffer as unknown as SharedArrayBuffer };
+    const memory = new WebAssembly.Memory({ initial: pages, maximum: 2 * pages, shared: true });
+    return { memory, buffer: memory.buffer as unknown as SharedArrayBuffer, base };
   } catch {
     // No WebAssembly, or no shared memory in it: the same ring over plain shared bytes.
-    return { memory: null, buffer: new SharedArrayBuffer(bytes) };
+    return { memory: null, buffer: new SharedArrayBuffer(bytes), base };
   }
 }
 
@@ -178,14 +194,14 @@ export function analysesInLine(config: AnalysisConfig): AnalysisThread {
 }
 
 /** Starts the worker (the compiled capture-analysis-worker.js beside this file), or takes the one prepared. */
-export function startAnalysisThread(config: AnalysisConfig): AnalysisThread {
-  const { memory, buffer } = ringMemory(HEAD_BYTES + RING_SLOTS * SLOT_BYTES);
-  const ring = ringOf(buffer);
+export function startAnalysisThread(config: AnalysisConfig, ringMemory: RingMemory = createRingMemory()): AnalysisThread {
+  const { memory, buffer, base } = ringMemory;
+  const ring = ringOf(buffer, base);
   const { control, slots } = ring;
   const ahead = takePreparedWorker();
   const worker = ahead?.worker ?? createAnalysisWorker();
   worker.ref();
-  worker.postMessage({ config, buffer, memory });
+  worker.postMessage({ config, buffer, memory, base });
   let failure: Error | null = ahead?.failure ?? null;
   let settled = false;
   const results = new Promise<AnalysisResults>((resolve, reject) => {

@@ -8,13 +8,13 @@ import { createSharedBlockSummary } from '../src/accel/axis-kernels.js';
 
 const { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING, WORKER_POLL_MS } = WORKER_CONTROL;
 // The run comes as the first message: the worker may have been started ahead of it (prepareAnalysisThread).
-type Run = { config: AnalysisConfig; buffer: SharedArrayBuffer; memory: WebAssembly.Memory | null };
-const { config, buffer, memory } = await new Promise<Run>((resolve) => parentPort!.once('message', resolve));
-const { control, slots } = ringOf(buffer);
+type Run = { config: AnalysisConfig; buffer: SharedArrayBuffer; memory: WebAssembly.Memory | null; base: number };
+const { config, buffer, memory, base } = await new Promise<Run>((resolve) => parentPort!.once('message', resolve));
+const { control, slots } = ringOf(buffer, base);
 
 try {
   // The block summary in place over the ring where its memory allows, else over copies.
-  const analyses = createCaptureAnalyses(config, memory === null ? null : createSharedBlockSummary(memory, SUMMARY_LANES_AT));
+  const analyses = createCaptureAnalyses(config, memory === null ? null : createSharedBlockSummary(memory, base + SUMMARY_LANES_AT));
   let read = 0;
   for (;;) {
     const written = Atomics.load(control, WRITTEN);

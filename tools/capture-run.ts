@@ -33,7 +33,7 @@ import {
   type AnalysisResults,
   type BlockOutput,
 } from './capture-analyses.js';
-import { analysesInLine, analysisThreadAvailable, startAnalysisThread, type AnalysisThread } from './capture-analysis-thread.js';
+import { analysesInLine, analysisThreadAvailable, createRingMemory, startAnalysisThread, type AnalysisThread } from './capture-analysis-thread.js';
 import type { Progress } from './progress.js';
 
 export { CAPTURE_BLOCK_SAMPLES, type Envelope, type PeriodicErrorResult } from './capture-analyses.js';
@@ -141,11 +141,6 @@ export const RUN_READ_BYTES = 1 << 20;
 /** Shorter captures are analysed in line: starting a worker costs about as much as analysing them. */
 export const ANALYSIS_THREAD_MIN_SAMPLES = 2 ** 22;
 
-/** The run's analyses: on a worker thread or in line (see RunOptions.analysisThread). */
-function startAnalyses(config: AnalysisConfig, choice: boolean | 'auto' | undefined, totalSamples: number | null): AnalysisThread {
-  return useAnalysisThread(choice ?? 'auto', totalSamples) ? startAnalysisThread(config) : analysesInLine(config);
-}
-
 /** Whether runCapture runs the analyses on a worker thread (see RunOptions.analysisThread). */
 function useAnalysisThread(choice: boolean | 'auto', totalSamples: number | null): boolean {
   if (choice === true) {
@@ -199,7 +194,17 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
     await capture.close();
     throw new Error(`${path}: the calibration has ${layout.length} detector outputs, the capture was opened with ${info.channels.length} (${info.channels.join(',')})`);
   }
-  const pipeline = createPipeline({ ...chain, calibration });
+  let threaded: boolean;
+  try {
+    threaded = useAnalysisThread(options.analysisThread ?? 'auto', info.totalSamples);
+  } catch (error) {
+    await capture.close();
+    throw error;
+  }
+  // On a worker thread the analyses take the blocks' outputs from a ring in shared memory, which the pipeline's
+  // kernel writes in place.
+  const ring = threaded ? createRingMemory() : null;
+  const pipeline = createPipeline({ ...chain, calibration, ...(ring?.memory ? { kernelMemory: ring.memory } : {}) });
   const combined = layout === undefined ? null : createChannelPipeline({ ...chain, channels: layout });
   const harmonicCorrection = options.harmonics === undefined ? null : createHarmonicCorrection(options.harmonics);
   const metresPerRad = pipeline.stages.displacement.metresPerFringe / (2 * Math.PI);
@@ -236,7 +241,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   progress.start(`replay ${path}`, info.totalSamples);
   try {
     // Inside the try: analyses refused (an option, a worker that cannot start) still close the capture.
-    analyses = startAnalyses(config, options.analysisThread, info.totalSamples);
+    analyses = ring === null ? analysesInLine(config) : startAnalysisThread(config, ring);
     for await (const block of capture.blocks()) {
       const n = block.length;
       events.length = 0;

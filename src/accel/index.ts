@@ -9,7 +9,7 @@ export {
   type WasmFrontEndPrecision,
 } from './front-end.js';
 export { createFusedFrontEnd, type FusedFrontEndOptions } from './fused-front-end.js';
-export { createExactFrontEnd, createPipeline, type ExactFrontEnd, type ExactFrontEndKind } from './pipeline.js';
-export { createWasmSteadyKernel, type WasmSteadyKernel, type WasmSteadyKernelOptions } from './steady-kernel.js';
+export { createExactFrontEnd, createPipeline, type AcceleratedPipelineOptions, type ExactFrontEnd, type ExactFrontEndKind } from './pipeline.js';
+export { createWasmSteadyKernel, steadyKernelBytes, type WasmSteadyKernel, type WasmSteadyKernelOptions } from './steady-kernel.js';
 export { createFastEllipseAccumulator, createWasmEllipseAccumulator } from './ellipse-accumulator.js';
 export { createModelWatchChunkSums, createPeriodicErrorBinning, createPhaseDomainSums, createResidualRun } from './analysis-kernels.js';

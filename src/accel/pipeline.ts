@@ -31,15 +31,24 @@ export function createExactFrontEnd(): ExactFrontEnd {
   };
 }
 
+export interface AcceleratedPipelineOptions extends PipelineOptions {
+  /**
+   * A shared WebAssembly memory for the steady-path kernel (WasmSteadyKernelOptions.memory): its first
+   * `steadyKernelBytes()` bytes are the kernel's, and output arrays in the rest are written in place.
+   */
+  readonly kernelMemory?: WebAssembly.Memory;
+}
+
 /**
  * `createPipeline` of the core with the fastest exact path by default: where WebAssembly SIMD exists the steady-path
  * kernel (`createWasmSteadyKernel`: front end, tracker steady loop and displacement in one pass) as `frontEnd` and
  * `kernel`, else `createExactFrontEnd()`. Same outputs and events, faster. Given `frontEnd` or `kernel` (`null`
  * asks for the plain stages), it is the core's `createPipeline` with those.
  */
-export function createPipeline(options: PipelineOptions): Pipeline {
-  if (options.frontEnd !== undefined || options.kernel !== undefined) return createPlainPipeline(options);
-  const steady = createWasmSteadyKernel();
-  if (steady === null) return createPlainPipeline({ ...options, frontEnd: createExactFrontEnd() });
-  return createPlainPipeline({ ...options, frontEnd: steady, kernel: steady });
+export function createPipeline(options: AcceleratedPipelineOptions): Pipeline {
+  const { kernelMemory, ...plain } = options;
+  if (plain.frontEnd !== undefined || plain.kernel !== undefined) return createPlainPipeline(plain);
+  const steady = createWasmSteadyKernel(kernelMemory === undefined ? {} : { memory: kernelMemory });
+  if (steady === null) return createPlainPipeline({ ...plain, frontEnd: createExactFrontEnd() });
+  return createPlainPipeline({ ...plain, frontEnd: steady, kernel: steady });
 }

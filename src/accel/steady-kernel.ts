@@ -7,6 +7,7 @@
 import type { FrontEnd, SampleArray, SteadyKernel } from '../core/index.js';
 import { createRecentViews } from '../core/recent-views.js';
 import { createFusedFrontEnd } from './fused-front-end.js';
+import { STEADY_KERNEL_SHARED_WASM_BASE64 } from './steady-kernel-shared-wasm.js';
 import { STEADY_KERNEL_WASM_BASE64 } from './steady-kernel-wasm.js';
 import { instantiate } from './wasm.js';
 
@@ -25,10 +26,17 @@ interface BlockViews {
 export interface WasmSteadyKernelOptions {
   /** Samples per block to reserve memory for at once; it grows to the largest block seen. Default 4096. */
   readonly capacity?: number;
+  /**
+   * A shared WebAssembly memory to run in, whose first `steadyKernelBytes(capacity)` bytes the kernel takes for
+   * itself (a larger block grows the memory and takes bytes at its end). The pipeline's level, position, velocity
+   * and unwrapped-phase arrays that lie in the rest of it are then written in place, not copied: a ring of blocks
+   * shared with another thread (tools/capture-analysis-thread.ts), where a typed-array copy goes element by element.
+   * Without it the kernel has a memory of its own.
+   */
+  readonly memory?: WebAssembly.Memory;
 }
 
 interface KernelExports {
-  readonly memory: WebAssembly.Memory;
   fused(n: number, wide: number, xp: number, yp: number, lp: number, pp: number, tp: number, sp: number, posp: number, velp: number): number;
   track(n: number, lp: number, pp: number, tp: number, sp: number): number;
   place(n: number, tp: number, pp: number, sp: number, posp: number, velp: number): void;
@@ -46,6 +54,14 @@ const MAX_STEP = 16;
 const REFERENCE = 17; // reference turns and phase, metres per fringe, per rad, velocity per step
 const AFTER = 24; // last phase, turns, w, lag, noise, recent step after the block
 const REGIONS_AT = 1024;
+/** Bytes a region takes past its samples, so that the regions' equal indices never lie 4 KiB apart (see reserve). */
+const REGION_SPACING = 448;
+const REGION_COUNT = 9;
+
+/** Bytes at the start of a shared memory a kernel of this capacity takes (WasmSteadyKernelOptions.memory), a multiple of 64. */
+export function steadyKernelBytes(capacity = 4096): number {
+  return Math.ceil((REGIONS_AT + REGION_COUNT * (8 * (Math.ceil(capacity / 8) * 8) + REGION_SPACING)) / 64) * 64;
+}
 
 /**
  * The steady-path kernel, or null when this engine lacks WebAssembly or its SIMD extension. Int16Array and
@@ -53,11 +69,21 @@ const REGIONS_AT = 1024;
  * tracker and displacement loops still run here.
  */
 export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): WasmSteadyKernel | null {
-  const instance = instantiate<KernelExports>(STEADY_KERNEL_WASM_BASE64);
+  const shared = options.memory;
+  const instance =
+    shared === undefined
+      ? instantiate<KernelExports & { readonly memory: WebAssembly.Memory }>(STEADY_KERNEL_WASM_BASE64)
+      : instantiate<KernelExports & { readonly memory?: undefined }>(STEADY_KERNEL_SHARED_WASM_BASE64, { env: { memory: shared } });
   if (instance === null) return null;
   const kernel: KernelExports = instance;
+  const memory = shared ?? instance.memory!;
+  // The caller's arrays in this buffer are written in place (the buffer object of a shared memory stays the same
+  // until it grows; arrays made before a growth keep the one they were made on).
+  const home = shared?.buffer ?? null;
+  const inPlace = (array: Float32Array | Float64Array, length: number, step: number) =>
+    home !== null && length % step === 0 && array.length >= length && (array.buffer === home || array.buffer === memory.buffer);
   const fallback = createFusedFrontEnd();
-  let params = new Float64Array(kernel.memory.buffer, 0, 32);
+  let params = new Float64Array(memory.buffer, 0, 32);
   // What the next block's pass assumes the tracker and the displacement start from (indices as in `params`):
   // the state the last tracked block ended in and the last reference and scale.
   const assumed = new Float64Array(22);
@@ -67,7 +93,7 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
   // phase (f64). Each is 448 bytes longer than its samples need (nine multiples of 448 are distinct modulo 4096), so
   // that in 4096-sample blocks equal indices of two regions never lie a multiple of 4 KiB apart (the CPU then takes
   // a load for a store to the same address and waits: twice as slow).
-  const at = new Int32Array(9);
+  const at = new Int32Array(REGION_COUNT);
   let xs = new Int16Array(0);
   let ys = xs;
   let xsWide = new Float64Array(0);
@@ -92,13 +118,16 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
   );
 
   function reserve(samples: number): void {
+    const first = capacity === 0;
     capacity = Math.ceil(samples / 8) * 8;
-    const region = 8 * capacity + 448;
-    const bytes = REGIONS_AT + at.length * region;
-    const pages = Math.ceil(bytes / 65536) - kernel.memory.buffer.byteLength / 65536;
-    if (pages > 0) kernel.memory.grow(pages);
-    const buffer = kernel.memory.buffer;
-    for (let k = 0; k < at.length; k++) at[k] = REGIONS_AT + k * region;
+    const region = 8 * capacity + REGION_SPACING;
+    // In a shared memory the bytes after the kernel's are the caller's: a capacity beyond the first takes new ones
+    // at the memory's end.
+    const regionsAt = shared === undefined || first ? REGIONS_AT : memory.buffer.byteLength;
+    const pages = Math.ceil((regionsAt + REGION_COUNT * region) / 65536) - memory.buffer.byteLength / 65536;
+    if (pages > 0) memory.grow(pages);
+    const buffer = memory.buffer;
+    for (let k = 0; k < REGION_COUNT; k++) at[k] = regionsAt + k * region;
     params = new Float64Array(buffer, 0, 32);
     xs = new Int16Array(buffer, at[0]!, capacity);
     ys = new Int16Array(buffer, at[1]!, capacity);
@@ -120,6 +149,7 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
   let passLevel: Float32Array | null = null;
   let passTracked = false; // every step of the block within the max step, from the assumed state
   let passFresh = false; // no tracker loop asked for since the pass
+  let passPlaced = false; // the pass wrote position and velocity too
   // The last tracker loop: its outputs (also in the turns and step regions) for the displacement after it.
   let trackedTurns: Float64Array | null = null;
   let trackedSteps: Float64Array | null = null;
@@ -170,13 +200,18 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
     p[6] = high;
     p[MIN_LEVEL] = minLevel;
     p[LAST] = lastPhaseRad;
-    const result = kernel.fused(length, wide ? 1 : 0, at[0]!, at[1]!, at[2]!, at[3]!, at[4]!, at[5]!, at[6]!, at[7]!);
+    // A level array in the shared memory takes the pass's levels in place (the pass writes `padded` of them); its
+    // block's position and velocity then most likely lie there too, and `place` writes them in place: the pass
+    // leaves them out (posp 0).
+    const direct = inPlace(level, length, 4);
+    const result = kernel.fused(length, wide ? 1 : 0, at[0]!, at[1]!, direct ? level.byteOffset : at[2]!, at[3]!, at[4]!, at[5]!, direct ? 0 : at[6]!, at[7]!);
     if ((result & 1) === 0) return null;
     passLength = length;
     passLevel = level;
     passTracked = (result & 2) !== 0;
+    passPlaced = !direct;
     passFresh = true;
-    level.set(views.get(length).level);
+    if (!direct) level.set(views.get(length).level);
     return phases;
   }
 
@@ -233,7 +268,7 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
     trackedSteps = stepOut;
     trackedPhases = phaseRad;
     trackedLength = length;
-    trackedFromPass = same;
+    trackedFromPass = same && passPlaced;
     return true;
   }
 
@@ -251,7 +286,9 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
     const same =
       fromPass && Object.is(refTurns, p[REFERENCE]) && Object.is(refPhase, p[REFERENCE + 1]) &&
       Object.is(perFringe, p[REFERENCE + 2]) && Object.is(perRad, p[REFERENCE + 3]) && Object.is(perStep, p[REFERENCE + 4]);
-    if (!same) {
+    // Arrays in the shared memory are written in place (the kernel writes an even count of samples).
+    const direct = inPlace(positionM, length, 2) && inPlace(velocityMS, length, 2);
+    if (!same || direct) {
       // The tracker's outputs are in the regions already when it ran here just before on these arrays.
       if (!tracked) {
         copyIn(turnsAll, turns, length);
@@ -263,15 +300,18 @@ export function createWasmSteadyKernel(options: WasmSteadyKernelOptions = {}): W
       p[REFERENCE + 2] = perFringe;
       p[REFERENCE + 3] = perRad;
       p[REFERENCE + 4] = perStep;
-      kernel.place(length, at[4]!, at[3]!, at[5]!, at[6]!, at[7]!);
+      kernel.place(length, at[4]!, at[3]!, at[5]!, direct ? positionM.byteOffset : at[6]!, direct ? velocityMS.byteOffset : at[7]!);
     }
     const view = views.get(length);
-    positionM.set(view.position);
-    velocityMS.set(view.velocity);
+    if (!direct) {
+      positionM.set(view.position);
+      velocityMS.set(view.velocity);
+    }
     if (unwrappedPhaseRad) {
       // The turns and phase regions hold this block's now, whichever way it came.
-      kernel.unwrap(length, at[4]!, at[3]!, at[8]!);
-      unwrappedPhaseRad.set(view.unwrapped);
+      const unwrappedInPlace = inPlace(unwrappedPhaseRad, length, 2);
+      kernel.unwrap(length, at[4]!, at[3]!, unwrappedInPlace ? unwrappedPhaseRad.byteOffset : at[8]!);
+      if (!unwrappedInPlace) unwrappedPhaseRad.set(view.unwrapped);
     }
     assumed[REFERENCE] = refTurns;
     assumed[REFERENCE + 1] = refPhase;

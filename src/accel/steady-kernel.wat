@@ -23,7 +23,7 @@
   ;; (low, high), level >= minLevel); bit 1: every step within the max step (the tracker's steady path holds).
   ;; Samples are int16, or f64 when wide is not 0; x and y are padded to a multiple of 4 samples (the front end
   ;; runs on the padding, the tracker and the displacement stop at n). Writes level (f32), phase, turns, step,
-  ;; position and velocity (f64), and the state after the block.
+  ;; position and velocity (f64; not when posp is 0), and the state after the block.
   ;; Each pass of the loop runs the front end on four samples (two groups of two, A and B, interleaved) and,
   ;; spread among its steps, the tracker on the four before them, whose phases and steps are ready, so that the
   ;; tracker's dependency chain (about 12 cycles a sample through residual, lag and w) can run beside the front
@@ -278,7 +278,8 @@
     (f64.store offset=192 (i32.const 0) (local.get $last)) (f64.store offset=200 (i32.const 0) (local.get $turns))
     (f64.store offset=208 (i32.const 0) (local.get $w)) (f64.store offset=216 (i32.const 0) (local.get $lag))
     (f64.store offset=224 (i32.const 0) (local.get $noise)) (f64.store offset=232 (i32.const 0) (local.get $recent))
-    (call $place (local.get $n) (local.get $tp) (local.get $pp) (local.get $sp) (local.get $posp) (local.get $velp))
+    ;; posp 0 (the parameters' address, never an output): the caller places the block itself, into its own arrays.
+    (if (local.get $posp) (then (call $place (local.get $n) (local.get $tp) (local.get $pp) (local.get $sp) (local.get $posp) (local.get $velp))))
     (i32.or (i32.eqz (v128.any_true (local.get $bad))) (i32.shl (i32.eqz (v128.any_true (local.get $farV))) (i32.const 1))))
 
   ;; track(n, lp, pp, tp, sp) -> 1 when every level (f32) is at least minLevel and every step within the max

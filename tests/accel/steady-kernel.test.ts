@@ -17,7 +17,7 @@ import {
   type PipelineOptions,
   type SampleArray,
 } from '../../src/core/index.js';
-import { createPipeline as createDefaultPipeline, createWasmSteadyKernel, type WasmSteadyKernel } from '../../src/accel/index.js';
+import { createPipeline as createDefaultPipeline, createWasmSteadyKernel, steadyKernelBytes, type WasmSteadyKernel } from '../../src/accel/index.js';
 
 const HE_NE_M = 632.9908e-9;
 const ellipse: EllipseCalibration = { offsetX: 700, offsetY: -450, amplitudeX: 12000, amplitudeY: 10800, phaseErrorRad: 0.06 };
@@ -90,17 +90,27 @@ const stepArbitrary: fc.Arbitrary<Step> = fc.oneof(
   { weight: 1, arbitrary: fc.constant<Step>({ kind: 'reset' }) },
 );
 
+interface Outputs {
+  positionM: Float64Array;
+  velocityMS: Float64Array;
+  level: Float32Array;
+  flags: Uint8Array;
+  unwrappedPhaseRad: Float64Array;
+}
+
+const plainOutputs = (total: number): Outputs => ({
+  positionM: new Float64Array(total),
+  velocityMS: new Float64Array(total),
+  level: new Float32Array(total),
+  flags: new Uint8Array(total),
+  unwrappedPhaseRad: new Float64Array(total),
+});
+
 /** Runs `steps` over the signal (blocks wrap around it) and returns every output and event. */
-function runSteps(create: typeof createPipeline, options: PipelineOptions, x: SampleArray, y: SampleArray, steps: readonly Step[]) {
-  const pipeline = create(options);
+function runSteps(create: typeof createPipeline, options: PipelineOptions, x: SampleArray, y: SampleArray, steps: readonly Step[], outputs = plainOutputs) {
   const total = steps.reduce((sum, step) => sum + (step.kind === 'block' ? step.length : 0), 0);
-  const out = {
-    positionM: new Float64Array(total),
-    velocityMS: new Float64Array(total),
-    level: new Float32Array(total),
-    flags: new Uint8Array(total),
-    unwrappedPhaseRad: new Float64Array(total),
-  };
+  const out = outputs(total);
+  const pipeline = create(options);
   const events: AlarmEvent[] = [];
   let written = 0;
   let read = 0;
@@ -185,6 +195,87 @@ describe('default pipeline with the steady-path kernel', () => {
     steps.push({ kind: 'reset' });
     for (let k = 0; k < 16; k++) steps.push({ kind: 'block', length: 4096 });
     expectSame(runSteps(createDefaultPipeline, baseOptions, x, y, steps), runSteps(createPipeline, baseOptions, x, y, steps));
+  });
+});
+
+/** Bytes past each output array in the shared memory, which the pipeline must leave as they are. */
+const GUARD_BYTES = 64;
+const GUARD = 0xab;
+
+/**
+ * Output arrays of `total` samples in a shared WebAssembly memory, after the kernel's bytes, each followed by a
+ * guard; `guardsIntact` tells whether anything wrote past an array.
+ */
+function sharedOutputs(total: number) {
+  const base = steadyKernelBytes();
+  const bytesOf = [8, 8, 4, 1, 8].map((size) => Math.ceil((size * total + GUARD_BYTES) / 8) * 8);
+  const pages = Math.ceil((base + bytesOf.reduce((a, b) => a + b, 0)) / 65536) + 1;
+  // Room to grow: a block longer than the kernel's 4096 samples takes new bytes at the memory's end.
+  const memory = new WebAssembly.Memory({ initial: pages, maximum: pages + 64, shared: true });
+  const buffer = memory.buffer as unknown as SharedArrayBuffer;
+  new Uint8Array(buffer, base).fill(GUARD);
+  let at = base;
+  const next = (index: number) => {
+    const start = at;
+    at += bytesOf[index]!;
+    return start;
+  };
+  const out: Outputs = {
+    positionM: new Float64Array(buffer, next(0), total),
+    velocityMS: new Float64Array(buffer, next(1), total),
+    level: new Float32Array(buffer, next(2), total),
+    flags: new Uint8Array(buffer, next(3), total),
+    unwrappedPhaseRad: new Float64Array(buffer, next(4), total),
+  };
+  const guardsIntact = () =>
+    Object.values(out).every((array: Outputs[keyof Outputs]) => new Uint8Array(buffer, array.byteOffset + array.byteLength, GUARD_BYTES).every((byte) => byte === GUARD));
+  return { memory, out, guardsIntact };
+}
+
+describe('the steady-path kernel in a shared memory (kernelMemory), writing outputs there in place', () => {
+  it('gives the plain pipeline\'s outputs and events to the bit, and writes nothing past the output arrays', () => {
+    const ints = signal(60_000, 8, false);
+    const floats = signal(60_000, 9, true);
+    fc.assert(
+      fc.property(fc.array(stepArbitrary, { minLength: 1, maxLength: 16 }), fc.boolean(), (steps, float) => {
+        const { x, y } = float ? floats : ints;
+        const options: PipelineOptions = float ? { ...baseOptions, adc: { kind: 'float', fullScale: 32768 } } : baseOptions;
+        let shared: ReturnType<typeof sharedOutputs> | null = null;
+        const inMemory = (total: number) => (shared = sharedOutputs(total)).out;
+        const actual = runSteps((o) => createDefaultPipeline({ ...o, kernelMemory: shared!.memory }), options, x, y, steps, inMemory);
+        expectSame(actual, runSteps(createPipeline, options, x, y, steps));
+        expect(shared!.guardsIntact()).toBe(true);
+      }),
+      { numRuns: 30 },
+    );
+  });
+
+  it('steady 4096-sample blocks: no typed-array copy into the shared memory (the kernel writes level, position, velocity and phase there)', () => {
+    // An invented steady motion: every block after the first takes the kernel's path.
+    const n = 8 * 4096;
+    const phase = Float64Array.from({ length: n }, (_, i) => 0.02 * i + 0.3 * Math.sin(i / 300));
+    const x = new Int16Array(n);
+    const y = new Int16Array(n);
+    createQuadratureSynthesizer({ ellipse, noiseRms: 25, adc: { kind: 'int16' }, seed: 10 }).process(phase, x, y, n);
+    const steps: Step[] = Array.from({ length: 8 }, (): Step => ({ kind: 'block', length: 4096 }));
+    let shared: ReturnType<typeof sharedOutputs> | null = null;
+    const inMemory = (total: number) => (shared = sharedOutputs(total)).out;
+    const copiesIn: string[] = [];
+    const spies = [Float64Array, Float32Array].map((type) => {
+      const original = type.prototype.set;
+      return vi.spyOn(type.prototype, 'set').mockImplementation(function (this: Float64Array | Float32Array, ...args: Parameters<typeof original>) {
+        // The kernel's own bytes (its parameters and regions) come first; the outputs after them.
+        if (shared !== null && this.buffer === shared.memory.buffer && this.byteOffset >= steadyKernelBytes()) copiesIn.push(type.name);
+        return original.apply(this, args as never);
+      });
+    });
+    try {
+      const actual = runSteps((o) => createDefaultPipeline({ ...o, kernelMemory: shared!.memory }), baseOptions, x, y, steps, inMemory);
+      expectSame(actual, runSteps(createPipeline, baseOptions, x, y, steps));
+    } finally {
+      for (const spy of spies) spy.mockRestore();
+    }
+    expect(copiesIn).toEqual([]);
   });
 });
 
