@@ -342,7 +342,7 @@ const SIGNAL_TROUBLE = AlarmBit.lowSignal | AlarmBit.saturation | AlarmBit.badSa
 /** The pipeline's phase through the harmonic correction (positions too), and the level into the model watch. */
 function beyondEllipse(stage: AxisStage, beyond: BeyondEllipse, out: { positionM: Float64Array; level: Float32Array; flags: Uint8Array }, length: number): void {
   const summary = stage.summary;
-  summary.modelEvents.length = 0;
+  if (summary.modelEvents.length !== 0) summary.modelEvents.length = 0;
   beyond.harmonics?.process(beyond.phase, length, out.positionM, (stage.plain ?? stage.combined)!.stages.displacement.metresPerFringe / (2 * Math.PI));
   if (beyond.watch !== null) {
     const use = beyond.use;
@@ -469,7 +469,8 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     const stage = stages[k]!;
     const { pipeline, summary } = stage;
     if (gapBefore > 0) pipeline.markGap(gapBefore);
-    summary.events.length = 0;
+    // Only when not empty: setting an array's length is a call into the runtime (~0.1 µs), even to the same value.
+    if (summary.events.length !== 0) summary.events.length = 0;
     summary.firstSampleIndex = pipeline.nextSampleIndex;
     const region = kernels.regions[k]!;
     const beyond = stage.beyond;
