@@ -283,20 +283,27 @@ export interface AnalysisConfig {
   readonly totalSamples: number | null;
   readonly modelWatch?: ModelWatchOptions;
   readonly estimateHarmonics?: { readonly orders: number; readonly totalSamples: number };
-  /** Which of the analyses this instance runs (see AnalysisPart); default 'all'. */
-  readonly part?: AnalysisPart;
+  /** Which analyses this instance runs (see AnalysisName); default all of them. */
+  readonly analyses?: readonly AnalysisName[];
 }
 
 /**
- * The analyses shared by two threads, each over the same blocks: 'phase-domain' runs the phase-domain estimate of
- * the periodic error alone (`after`, `afterNotMeasured`), 'rest' every other analysis; `joinAnalyses` puts their
- * results together, the same as one instance of 'all' gives.
+ * The analyses, which two threads may share, each instance over the same blocks: 'before' the periodic error of the
+ * uncorrected signals, 'after' its phase-domain estimate (and `afterNotMeasured`), 'residual' the radius residual,
+ * 'series' what only a whole run needs (the source power, the harmonics' estimate, calibration_stale and the
+ * report's series). An instance's results for the analyses it does not run are those of no samples; `joinAnalyses`
+ * puts two instances' results together, the same as one instance of them all gives.
  */
-export type AnalysisPart = 'all' | 'phase-domain' | 'rest';
+export type AnalysisName = 'before' | 'after' | 'residual' | 'series';
 
-/** The results of the 'rest' and 'phase-domain' parts of the same blocks, as 'all' gives them. */
-export function joinAnalyses(rest: AnalysisResults, phaseDomain: AnalysisResults): AnalysisResults {
-  return { ...rest, after: phaseDomain.after, afterNotMeasured: phaseDomain.afterNotMeasured };
+export const ANALYSIS_NAMES: readonly AnalysisName[] = ['before', 'after', 'residual', 'series'];
+
+/** The results of the instance that ran `ran` joined with those of one that ran the others, over the same blocks. */
+export function joinAnalyses(mine: AnalysisResults, ran: readonly AnalysisName[], others: AnalysisResults): AnalysisResults {
+  const from = (name: AnalysisName) => (ran.includes(name) ? mine : others);
+  const { power, harmonicEstimate, modelWatch, report } = from('series');
+  const { after, afterNotMeasured } = from('after');
+  return { power, before: from('before').before, after, afterNotMeasured, harmonicEstimate, modelWatch, residual: from('residual').residual, report };
 }
 
 /** The pipeline's output of one block, as the analyses read it. */
@@ -393,89 +400,90 @@ export function createCaptureAnalyses(config: AnalysisConfig, inPlace: SharedBlo
   const power: PowerState = { min: Infinity, max: -Infinity, sum: 0, count: 0 };
   const errorBefore = new Float64Array(CAPTURE_BLOCK_SAMPLES);
   const valid = new Uint8Array(CAPTURE_BLOCK_SAMPLES);
-  const binning = createPeriodicErrorBinning();
-  const before = createPeriodicErrorAnalyzer(binning === null ? {} : { binning });
+  const runs = new Set(config.analyses ?? ANALYSIS_NAMES);
+  const runsBefore = runs.has('before'), runsAfter = runs.has('after'), runsResidual = runs.has('residual'), runsSeries = runs.has('series');
   // The per-sample work of the periodic-error bins, the phase-domain windows, the radius residual and the model
   // watch's chunks in WebAssembly (SIMD) where it exists (src/accel/analysis-kernels.ts): the same results as the
-  // core's loops, to the bit.
-  const windowSums = createPhaseDomainSums();
+  // core's loops, to the bit. Only the analyses this instance runs get their kernels (the others stay empty).
+  const binning = runsBefore ? createPeriodicErrorBinning() : null;
+  const before = createPeriodicErrorAnalyzer(binning === null ? {} : { binning });
+  const windowSums = runsAfter ? createPhaseDomainSums() : null;
   const after = createPhaseDomainEstimator(windowSums === null ? {} : { sums: windowSums });
-  const residualRun = createResidualRun();
+  const residualRun = runsResidual ? createResidualRun() : null;
   const residual = createResidualAnalyzer(residualRun === null ? {} : { run: residualRun });
   const correction = createCorrection({ calibration });
   const correctedU = new Float64Array(CAPTURE_BLOCK_SAMPLES);
   const correctedV = new Float64Array(CAPTURE_BLOCK_SAMPLES);
   const estimator = config.estimateHarmonics === undefined ? null : createHarmonicEstimator(config.estimateHarmonics);
-  const chunkSums = createModelWatchChunkSums();
+  const chunkSums = runsSeries ? createModelWatchChunkSums() : null;
   const watch = createModelWatch(chunkSums === null ? config.modelWatch : { ...config.modelWatch, chunkSums });
   const watchEvents: ModelWatchEvent[] = [];
   let watchRaised = 0;
   const position = createEnvelope(config.maxPlotPoints, config.totalSamples);
   const velocity = createEnvelope(config.maxPlotPoints, config.totalSamples);
   const powerSeries = createEnvelope(config.maxPlotPoints, config.totalSamples);
-  const rawKernel = createWasmFrontEnd({ precision: 'f64-exact' });
+  const rawKernel = runsBefore ? createWasmFrontEnd({ precision: 'f64-exact' }) : null;
   const rawLevel = new Float32Array(CAPTURE_BLOCK_SAMPLES);
   const identity = Float64Array.of(1, 0, 0, 1, 0);
-  const summaries = createAxisKernels([2], CAPTURE_BLOCK_SAMPLES);
+  const summaries = runsSeries ? createAxisKernels([2], CAPTURE_BLOCK_SAMPLES) : null;
   const extremes: BlockExtremes = { positionMinM: NaN, positionMaxM: NaN, velocityMinMS: NaN, velocityMaxMS: NaN, levelMin: NaN, flagsSeen: 0 };
   const secondsPerSample = 1 / rateHz;
 
   /** A block left out of the periodic-error and radius analyses: they count its samples in time only. */
   function skip(length: number): void {
-    after.skip(length);
-    residual.skip(length);
+    if (runsAfter) after.skip(length);
+    if (runsResidual) residual.skip(length);
   }
 
-  const part = config.part ?? 'all';
   return {
     add(block) {
       const { x, y, output, firstIndex, length: n, analysed } = block;
-      if (part === 'phase-domain') {
-        if (analysed) {
-          validOf(output.flags, n, valid);
-          after.process(output.unwrappedPhaseRad, valid, n);
-        } else after.skip(n);
-        return;
-      }
       // The radius analysis runs on the corrected pair: two outputs through the ellipse correction, three or four
       // power-normalised, taken before the harmonic correction moves the phase (the pair as the chain saw it).
-      if (analysed) {
+      if (analysed && runsResidual) {
         if (!combined) correction.process(x!, y!, correctedU, correctedV, n);
         else normalisedPair(output.level, block.phaseBeforeHarmonics ?? output.unwrappedPhaseRad, n, correctedU, correctedV);
       }
-      // The block's extremes and flags in one pass (WebAssembly SIMD where it exists), in place or over copies.
-      if (inPlace !== null && inPlace.holds(output)) inPlace.summarise(output, n, extremes);
-      else {
-        const region = summaries.regions[0]!;
-        region.positionM.set(output.positionM.subarray(0, n));
-        region.velocityMS.set(output.velocityMS.subarray(0, n));
-        region.level.set(output.level.subarray(0, n));
-        region.flags.set(output.flags.subarray(0, n));
-        summaries.summarise(0, n, extremes);
-      }
-      const allValid = (extremes.flagsSeen & SIGNAL_TROUBLE) === 0;
-      if (allValid) valid.fill(1, 0, n);
-      else validOf(output.flags, n, valid);
-      if (combined) {
-        powerFigures(output, n, power);
-        powerSeries.add(output.power, n, block.t, firstIndex, secondsPerSample);
-      }
-      position.add(output.positionM, n, block.t, firstIndex, secondsPerSample, extremes.positionMinM, extremes.positionMaxM);
-      velocity.add(output.velocityMS, n, block.t, firstIndex, secondsPerSample, extremes.velocityMinMS, extremes.velocityMaxMS);
-      estimator?.add(output.unwrappedPhaseRad, n, valid);
+      let allValid = false;
+      if (runsSeries) {
+        // The block's extremes and flags in one pass (WebAssembly SIMD where it exists), in place or over copies.
+        if (inPlace !== null && inPlace.holds(output)) inPlace.summarise(output, n, extremes);
+        else {
+          const region = summaries!.regions[0]!;
+          region.positionM.set(output.positionM.subarray(0, n));
+          region.velocityMS.set(output.velocityMS.subarray(0, n));
+          region.level.set(output.level.subarray(0, n));
+          region.flags.set(output.flags.subarray(0, n));
+          summaries!.summarise(0, n, extremes);
+        }
+        allValid = (extremes.flagsSeen & SIGNAL_TROUBLE) === 0;
+        if (allValid) valid.fill(1, 0, n);
+        else validOf(output.flags, n, valid);
+        if (combined) {
+          powerFigures(output, n, power);
+          powerSeries.add(output.power, n, block.t, firstIndex, secondsPerSample);
+        }
+        position.add(output.positionM, n, block.t, firstIndex, secondsPerSample, extremes.positionMinM, extremes.positionMaxM);
+        velocity.add(output.velocityMS, n, block.t, firstIndex, secondsPerSample, extremes.velocityMinMS, extremes.velocityMaxMS);
+        estimator?.add(output.unwrappedPhaseRad, n, valid);
+      } else if (analysed) validOf(output.flags, n, valid);
       if (analysed) {
-        const raw = rawPhases(rawKernel, x!, y!, n, mid, rawLevel, identity);
-        beforeError(x!, y!, n, raw, output.unwrappedPhaseRad, errorBefore, mid);
-        before.add(output.unwrappedPhaseRad, errorBefore, n, valid);
-        if (part === 'all') after.process(output.unwrappedPhaseRad, valid, n);
-        residual.add(correctedU, correctedV, n, valid);
+        if (runsBefore) {
+          const raw = rawPhases(rawKernel, x!, y!, n, mid, rawLevel, identity);
+          beforeError(x!, y!, n, raw, output.unwrappedPhaseRad, errorBefore, mid);
+          before.add(output.unwrappedPhaseRad, errorBefore, n, valid);
+        }
+        if (runsAfter) after.process(output.unwrappedPhaseRad, valid, n);
+        if (runsResidual) residual.add(correctedU, correctedV, n, valid);
       } else skip(n);
-      const already = watchEvents.length;
-      // On the chain's level (the corrected radius; for 3-4 outputs the power-normalised one), as the live chain.
-      // Without a mask when every sample is valid: the same, and the watch's loop is then twice as fast.
-      watch.processRadius(output.level, n, firstIndex, watchEvents, allValid ? undefined : valid);
-      for (let k = already; k < watchEvents.length; k++) if (watchEvents[k]!.state === 'raised') watchRaised++;
-      if (watchEvents.length > MAX_SPANS) watchEvents.length = MAX_SPANS;
+      if (runsSeries) {
+        const already = watchEvents.length;
+        // On the chain's level (the corrected radius; for 3-4 outputs the power-normalised one), as the live chain.
+        // Without a mask when every sample is valid: the same, and the watch's loop is then twice as fast.
+        watch.processRadius(output.level, n, firstIndex, watchEvents, allValid ? undefined : valid);
+        for (let k = already; k < watchEvents.length; k++) if (watchEvents[k]!.state === 'raised') watchRaised++;
+        if (watchEvents.length > MAX_SPANS) watchEvents.length = MAX_SPANS;
+      }
     },
     skip,
     finish() {

@@ -11,6 +11,7 @@ import {
 import { createFastEllipseAccumulator } from '../src/accel/index.js';
 import { openCapture, openCaptureParts, type CaptureBlock, type CaptureInfo, type KeptParts, type OpenCaptureOptions } from '../src/io/capture/index.js';
 import { CAPTURE_BLOCK_SAMPLES, PART_READ_BYTES } from './capture-analyses.js';
+import { RUN_READ_BYTES } from './capture-run.js';
 import type { Progress } from './progress.js';
 
 /** Samples of the fit's first (gate-finding) pass over a long WAV capture, spread over it (`spreadWindows`). */
@@ -40,7 +41,8 @@ export async function fitCapture(
   let spreadTried = false;
   let kept: KeptParts | null | undefined;
   for (;;) {
-    const capture = await openCapture(path, { ...open, blockSize: CAPTURE_BLOCK_SAMPLES });
+    // A pass over every sample reads as much at a time as the pipeline's run (RUN_READ_BYTES: fewer round trips).
+    const capture = await openCapture(path, { readChunkBytes: RUN_READ_BYTES, ...open, blockSize: CAPTURE_BLOCK_SAMPLES });
     const windows = fit.pass === 1 && !spreadTried ? spreadWindows(capture.info.totalSamples, GATE_SAMPLES) : null;
     if (windows !== null) {
       spreadTried = true;

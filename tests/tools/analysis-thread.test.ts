@@ -123,10 +123,10 @@ describe('analyses on a worker thread', () => {
     expect(withEstimate.poisoned.harmonicEstimate).not.toEqual(withEstimate.plain.harmonicEstimate);
   });
 
-  it('the phase-domain part and the rest, joined, give what all the analyses give, flagged samples in analysed blocks too', async () => {
+  it('the analyses shared between two instances, joined, give what all the analyses give, flagged samples in analysed blocks too', async () => {
     // analyseCapture shares the analyses between two threads this way; the check value is the analyses run whole.
     type Analyses = typeof import('../../tools/capture-analyses.js');
-    const { createCaptureAnalyses, createBlockOutput, joinAnalyses, CAPTURE_BLOCK_SAMPLES: n } = (await import(pathToFileURL(resolve('dist/tools/capture-analyses.js')).href)) as Analyses;
+    const { createCaptureAnalyses, createBlockOutput, joinAnalyses, ANALYSIS_NAMES, CAPTURE_BLOCK_SAMPLES: n } = (await import(pathToFileURL(resolve('dist/tools/capture-analyses.js')).href)) as Analyses;
     const { createPipeline } = await import('../../src/accel/index.js');
     const blocks = 9;
     const phase = wanderingPhase(blocks * n, 60);
@@ -138,8 +138,13 @@ describe('analyses on a worker thread', () => {
     const calibration = { offsetX: 0, offsetY: 0, amplitudeX: 1000, amplitudeY: 1000, phaseErrorRad: 0 };
     const config = { calibration, layout: null, mid: 0, rateHz: 1e5, metresPerRad: 5e-8, maxPlotPoints: 64, totalSamples: blocks * n };
     const all = createCaptureAnalyses(config);
-    const phaseDomain = createCaptureAnalyses({ ...config, part: 'phase-domain' });
-    const rest = createCaptureAnalyses({ ...config, part: 'rest' });
+    // Every way to share the four between two instances (the first takes the names of the mask's bits).
+    const splits = Array.from({ length: 16 }, (_, mask) => ANALYSIS_NAMES.filter((_, k) => (mask >> k) & 1));
+    const pairs = splits.map((mine) => ({
+      mine,
+      ours: createCaptureAnalyses({ ...config, analyses: mine }),
+      theirs: createCaptureAnalyses({ ...config, analyses: ANALYSIS_NAMES.filter((name) => !mine.includes(name)) }),
+    }));
     const pipeline = createPipeline({ rateHz: 1e5, wavelengthM: 632.9908e-9, fold: 2, calibration, adc: { kind: 'float', fullScale: 1e4 } });
     const output = createBlockOutput();
     let flagged = 0;
@@ -150,14 +155,27 @@ describe('analyses on a worker thread', () => {
       const analysed = b % 3 === 0;
       if (analysed) flagged += output.flags.filter((flag) => flag !== 0).length;
       const block = { firstIndex: b * n, length: n, t: null, analysed, x: analysed ? xs : null, y: analysed ? ys : null, phaseBeforeHarmonics: null, output };
-      for (const analyses of [all, phaseDomain, rest]) analyses.add(block);
+      all.add(block);
+      for (const { ours, theirs } of pairs) {
+        ours.add(block);
+        theirs.add(block);
+      }
     }
     expect(flagged).toBeGreaterThan(100);
     const whole = all.finish();
     expect(whole.after.summary.samples).toBeGreaterThan(0);
-    const others = rest.finish();
-    expect(joinAnalyses(others, phaseDomain.finish())).toEqual(whole);
-    expect(others.after.summary.samples).toBe(0); // the phase-domain estimate is the other thread's work alone
+    expect(whole.before.summary.samples).toBeGreaterThan(0);
+    expect(whole.residual.summary.samples).toBeGreaterThan(0);
+    expect(whole.report.position.t.length).toBeGreaterThan(0);
+    for (const { mine, ours, theirs } of pairs) {
+      const results = ours.finish();
+      expect(joinAnalyses(results, mine, theirs.finish())).toEqual(whole);
+      // An analysis an instance does not run is the other's work alone.
+      if (!mine.includes('after')) expect(results.after.summary.samples).toBe(0);
+      if (!mine.includes('before')) expect(results.before.summary.samples).toBe(0);
+      if (!mine.includes('residual')) expect(results.residual.summary.samples).toBe(0);
+      if (!mine.includes('series')) expect(results.report.position.t.length).toBe(0);
+    }
   });
 
   it('a worker started ahead takes the next run, with the same results; one never taken does not keep the process alive', async () => {
