@@ -509,20 +509,24 @@ export function createAxesRunner(options: AxesRunnerOptions): AxesRunner {
     if (tracePoints > 0 && length > 0) {
       const count = Math.min(tracePerBlock, length);
       const step = length / count;
+      const { x: pickX, y: pickY, u: pickU, v: pickV } = pick;
       for (let j = 0; j < count; j++) {
         const i = Math.floor(j * step);
-        pick.x[j] = x[i]!;
-        pick.y[j] = y[i]!;
+        pickX[j] = x[i]!;
+        pickY[j] = y[i]!;
       }
-      stage.correction.process(pick.x, pick.y, pick.u, pick.v, count);
+      stage.correction.process(pickX, pickY, pickU, pickV, count);
+      // The ring in locals, its place wrapped by a compare (a remainder is an integer division a point).
+      const { traceX, traceY, traceU, traceV } = summary;
+      let at = summary.traceNext;
       for (let j = 0; j < count; j++) {
-        const at = summary.traceNext;
-        summary.traceX[at] = pick.x[j]!;
-        summary.traceY[at] = pick.y[j]!;
-        summary.traceU[at] = pick.u[j]!;
-        summary.traceV[at] = pick.v[j]!;
-        summary.traceNext = (at + 1) % tracePoints;
+        traceX[at] = pickX[j]!;
+        traceY[at] = pickY[j]!;
+        traceU[at] = pickU[j]!;
+        traceV[at] = pickV[j]!;
+        at = at + 1 === tracePoints ? 0 : at + 1;
       }
+      summary.traceNext = at;
       summary.traceFilled = Math.min(tracePoints, summary.traceFilled + count);
     }
   }
