@@ -4,8 +4,9 @@
 // as `listen` runs them: one session for all passes of a case, as one listen process keeps one chain. A pass is the
 // signal's 2^22 samples (forwards, then backwards, so that the motion goes on without a jump; the frame counter goes
 // on too), timed from its first chunk until the session has made its last position. Passes of the bare default
-// pipeline alternate with the chain's in the same process, and `overBarePipeline` is the median ratio of their
-// speeds (process CPU time). `…/every10000/session-per-pass` and every1 run a new session for each pass instead:
+// pipeline alternate with the chain's in the same process (one before each and one after the last), and
+// `overBarePipeline` is the median over the chain's passes of its speed over the mean of the two bare passes around
+// it (process CPU time): the machine's speed drifts between passes, and a drift cancels in that mean. `…/every10000/session-per-pass` and every1 run a new session for each pass instead:
 // the chain's set-up and the warm-up of its new closures in every pass (a major GC between two sessions drops their
 // optimised code, and the next pass then runs partly unoptimised while about 20 functions are optimised again).
 // Memory: the same chain over 10^7 and 10^8 samples (frames encoded as they are fed, --every 10000), each in a
@@ -269,7 +270,7 @@ export async function listenCases(passes = 7, only?: string): Promise<BenchResul
       const name = `listen/in-memory/2ch/${SAMPLES_PER_FRAME}spf/every${every}${paced ? '/chunk-at-a-time' : ''}${perPass && every !== 1 ? '/session-per-pass' : ''}`;
       if (only !== undefined && !name.endsWith(only)) continue;
       // Warm-up, then passes of the chain and of the bare pipeline alternating; medians, and the median of the
-      // pairs' ratios (the chain's samples per second over the bare pipeline's, both in process CPU time).
+      // ratios of each chain pass's samples per second to the bare passes' around it (process CPU time).
       bare();
       let runs: { wall: number; cpu: number }[] = [];
       let bareSeconds: number[] = [];
@@ -283,7 +284,8 @@ export async function listenCases(passes = 7, only?: string): Promise<BenchResul
       } else {
         ({ runs, bareSeconds } = await listenPasses(join(directory, 'rows.csv'), every, paced, passes, bare));
       }
-      const ratios = runs.map((run, pass) => bareSeconds[pass]! / run.cpu);
+      bareSeconds.push(bare());
+      const ratios = runs.map((run, pass) => (bareSeconds[pass]! + bareSeconds[pass + 1]!) / 2 / run.cpu);
       const run = [...runs].sort((a, b) => a.cpu - b.cpu)[runs.length >> 1]!;
       results.push({
         name,
