@@ -9,7 +9,7 @@ import {
   type EllipseFitResult,
 } from '../src/core/index.js';
 import { createFastEllipseAccumulator } from '../src/accel/index.js';
-import { openCapture, openCaptureParts, type CaptureBlock, type CaptureInfo, type KeptParts, type OpenCaptureOptions } from '../src/io/capture/index.js';
+import { openCapture, openCaptureParts, type BlockSamples, type CaptureBlock, type CaptureInfo, type KeptParts, type OpenCaptureOptions } from '../src/io/capture/index.js';
 import { CAPTURE_BLOCK_SAMPLES, PART_READ_BYTES } from './capture-analyses.js';
 import { RUN_READ_BYTES } from './capture-run.js';
 import type { Progress } from './progress.js';
@@ -36,13 +36,14 @@ export async function fitCapture(
 ): Promise<{ fit: EllipseFitResult; info: CaptureInfo; totalSamples: number; channels?: readonly ChannelParameters[]; kept: KeptParts | null }> {
   const fit = createDetectorFit({ ...fitOptions, channelCount: open.channels?.length ?? 2, createAccumulator: createFastEllipseAccumulator });
   const labels = [' (source power)', '', ' (refined)'];
-  const feed = (block: CaptureBlock) => fit.add(fit.channelCount === 2 ? [block.x, block.y] : block.channels, block.length);
+  const feed = (block: CaptureBlock<BlockSamples>) => fit.add(fit.channelCount === 2 ? [block.x, block.y] : block.channels, block.length);
   let totalSamples = 0;
   let spreadTried = false;
   let kept: KeptParts | null | undefined;
   for (;;) {
-    // A pass over every sample reads as much at a time as the pipeline's run (RUN_READ_BYTES: fewer round trips).
-    const capture = await openCapture(path, { readChunkBytes: RUN_READ_BYTES, ...open, blockSize: CAPTURE_BLOCK_SAMPLES });
+    // A pass over every sample reads as much at a time as the pipeline's run (RUN_READ_BYTES: fewer round trips), and
+    // an int16 capture's blocks as stored: the accumulator sums int16 pairs as they are (the same sums).
+    const capture = await openCapture(path, { readChunkBytes: RUN_READ_BYTES, ...open, blockSize: CAPTURE_BLOCK_SAMPLES, int16Blocks: true });
     const windows = fit.pass === 1 && !spreadTried ? spreadWindows(capture.info.totalSamples, GATE_SAMPLES) : null;
     if (windows !== null) {
       spreadTried = true;

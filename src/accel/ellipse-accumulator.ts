@@ -1,7 +1,9 @@
 // The ellipse fit's accumulator (src/core/fit/accumulator.ts) with its per-sample loop in WebAssembly SIMD
 // (fit-kernels.wat): the same moment sums, coverage grid and shift to the bit, in about a third of the time. The
 // first sample of a pass and the grid's zooming out stay in JavaScript, as the core does them. The two-pass fit's
-// gate (keepWithin) runs there too (`addWithin`), apart from the pairs it hands to Math.hypot.
+// gate (keepWithin) runs there too (`addWithin`), apart from the pairs it hands to Math.hypot. Int16Array pairs (a
+// capture's int16 blocks as stored) are copied as they are, a quarter of the bytes, and their grid cells come from
+// tables of the 65536 values, which the kernel makes anew when the shift or the grid changes.
 import { createEllipseAccumulator, createEllipseFit, type EllipseAccumulator, type EllipseFitOptions } from '../core/index.js';
 import { GRID, GRID_BITS, isOccupied, occupy, type AccumulatorState } from '../core/fit/coverage.js';
 import { MOMENT_COUNT, shiftMoments } from '../core/fit/moments.js';
@@ -14,6 +16,9 @@ interface KernelExports {
   sums(start: number, count: number, shiftX: number, shiftY: number, half: number, cellsPerUnit: number): number;
   flush(): void;
   gate(start: number, count: number): number;
+  sums16(start: number, count: number, shiftX: number, shiftY: number, offGrid: number): number;
+  tables(shiftX: number, shiftY: number, half: number, cellsPerUnit: number): void;
+  gate16(start: number, count: number): number;
 }
 
 /** Pairs the kernel's memory holds at a time; the sums run on across chunks, so chunking changes nothing. */
@@ -28,6 +33,9 @@ const Y_BYTE = X_BYTE + 8 * CHUNK;
 const CELLS_BYTE = Y_BYTE + 8 * CHUNK;
 /** The grid bits the last flush took from the cell bytes. */
 const FLUSHED_BYTE = CELLS_BYTE + GRID * GRID;
+/** int16 pairs (Int16Array x and y), summed by sums16 with the cells from the kernel's tables (see fit-kernels.wat). */
+const X16_BYTE = 90112;
+const Y16_BYTE = X16_BYTE + 2 * CHUNK;
 /** Where the kernel's running sum of each moment (`momentIndex` order) is, from Σ u on; Σ 1 is the count summed. */
 const RUNNING = [0, 1, 2, 3, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14];
 
@@ -76,6 +84,8 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   const oneY = new Float64Array(1);
   const chunkX = new Float64Array(memory, X_BYTE, CHUNK);
   const chunkY = new Float64Array(memory, Y_BYTE, CHUNK);
+  const chunkX16 = new Int16Array(memory, X16_BYTE, CHUNK);
+  const chunkY16 = new Int16Array(memory, Y16_BYTE, CHUNK);
   const moments = new Float64Array(MOMENT_COUNT);
   const scratch = new Float64Array(MOMENT_COUNT);
   const cells = new Uint8Array(memory, CELLS_BYTE, GRID * GRID);
@@ -91,6 +101,10 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   let hasShift = false;
   let skippedNonFinite = 0;
   let gridHalfWidth = 0;
+  // The shift and grid the kernel's cell tables were made for (sums16).
+  let tablesShiftX = NaN;
+  let tablesShiftY = NaN;
+  let tablesHalfWidth = NaN;
 
   // mark and zoomOut are the core's (accumulator.ts), over the grid in the kernel's memory; zoomOut flushes first and
   // visits the occupied cells word by word (the grid is mostly empty when it zooms, early in a pass).
@@ -131,8 +145,23 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
     occupy(occupancy, Math.min(GRID - 1, row) * GRID + Math.min(GRID - 1, col));
   }
 
-  /** Copies pairs [start, start + n) of x, y to the kernel's chunk. */
-  function load(x: ArrayLike<number>, y: ArrayLike<number>, start: number, n: number): void {
+  /**
+   * Copies pairs [start, start + n) of x, y to the kernel's chunk: int16 arrays to its int16 chunk (true), anything
+   * else as doubles.
+   */
+  function load(x: ArrayLike<number>, y: ArrayLike<number>, start: number, n: number): boolean {
+    if (x instanceof Int16Array && y instanceof Int16Array) {
+      if (start === 0 && x.length === n && y.length === n) {
+        chunkX16.set(x);
+        chunkY16.set(y);
+      } else {
+        for (let i = 0; i < n; i++) {
+          chunkX16[i] = x[start + i]!;
+          chunkY16[i] = y[start + i]!;
+        }
+      }
+      return true;
+    }
     if (x instanceof Float64Array && y instanceof Float64Array && start === 0 && x.length === n && y.length === n) {
       // A whole block of at most CHUNK pairs (a capture's blocks): copied as memory.
       chunkX.set(x);
@@ -143,36 +172,50 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
         chunkY[i] = y[start + i]!;
       }
     }
+    return false;
   }
 
   /**
    * Adds the chunk's first n pairs to the running sums, marking the cell bytes for this accumulator and `shared`. True
    * when the shift was set before and the kernel summed and marked every pair itself (all finite, on the grid as it was).
    */
-  function sumChunk(n: number, shared: Partner | null = null): boolean {
+  function sumChunk(n: number, shared: Partner | null, int16: boolean): boolean {
     // Bytes marked for others than these are settled first; a zoom out (in mark) settles them too.
     if (sharedWith !== shared) flush();
+    const xs = int16 ? chunkX16 : chunkX;
+    const ys = int16 ? chunkY16 : chunkY;
     let i = 0;
     let clean = hasShift;
     if (!hasShift) {
       // The first finite pair sets the shift; the kernel then sums it (u = v = 0) and skips those before it.
       let first = 0;
-      while (first < n && !(Number.isFinite(chunkX[first]!) && Number.isFinite(chunkY[first]!))) first++;
+      while (first < n && !(Number.isFinite(xs[first]!) && Number.isFinite(ys[first]!))) first++;
       if (first === n) {
         skippedWord[0] += n;
         return false;
       }
-      shiftX = chunkX[first]!;
-      shiftY = chunkY[first]!;
+      shiftX = xs[first]!;
+      shiftY = ys[first]!;
       hasShift = true;
     }
     while (i < n) {
       marked = true;
-      const at = kernel!.sums(i, n, shiftX, shiftY, gridHalfWidth, GRID / (2 * gridHalfWidth));
+      let at: number;
+      if (int16) {
+        // Without a grid yet every pair is off it (sums' test against a half-width of 0): no tables needed.
+        const gridless = gridHalfWidth === 0;
+        if (!gridless && !(Object.is(tablesShiftX, shiftX) && Object.is(tablesShiftY, shiftY) && tablesHalfWidth === gridHalfWidth)) {
+          kernel!.tables(shiftX, shiftY, gridHalfWidth, GRID / (2 * gridHalfWidth));
+          tablesShiftX = shiftX;
+          tablesShiftY = shiftY;
+          tablesHalfWidth = gridHalfWidth;
+        }
+        at = kernel!.sums16(i, n, shiftX, shiftY, gridless ? 0x8000 : 0);
+      } else at = kernel!.sums(i, n, shiftX, shiftY, gridHalfWidth, GRID / (2 * gridHalfWidth));
       if (at >= 0) break;
       i = -at;
       clean = false;
-      mark(chunkX[i - 1]! - shiftX, chunkY[i - 1]! - shiftY);
+      mark(xs[i - 1]! - shiftX, ys[i - 1]! - shiftY);
     }
     return clean && skippedWord[0] === 0;
   }
@@ -190,8 +233,7 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
   function add(x: ArrayLike<number>, y: ArrayLike<number>, length: number): void {
     for (let start = 0; start < length; start += CHUNK) {
       const n = Math.min(CHUNK, length - start);
-      load(x, y, start, n);
-      sumChunk(n);
+      sumChunk(n, null, load(x, y, start, n));
     }
     endAdd(length);
   }
@@ -238,24 +280,26 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
     setGateConstant(14, Math.min(surelyUnder, highIn));
     for (let start = 0; start < length; start += CHUNK) {
       const n = Math.min(CHUNK, length - start);
-      load(x, y, start, n);
+      const int16 = load(x, y, start, n);
+      const xs = int16 ? chunkX16 : chunkX;
+      const ys = int16 ? chunkY16 : chunkY;
       gateCounts.fill(0);
-      for (let i = 0; (i = kernel!.gate(i, n)) < n; i++) {
+      for (let i = 0; (i = int16 ? kernel!.gate16(i, n) : kernel!.gate(i, n)) < n; i++) {
         // A pair near a bound (or the last of an odd count): keepWithin's own decision.
-        if (keepWithin(chunkX, chunkY, i, i + 1, coefficients, lowRadius, highRadius, oneX, oneY, band, near) === 1) {
+        if (keepWithin(xs, ys, i, i + 1, coefficients, lowRadius, highRadius, oneX, oneY, band, near) === 1) {
           const kept = gateCounts[0]!;
-          chunkX[kept] = oneX[0]!;
-          chunkY[kept] = oneY[0]!;
+          xs[kept] = oneX[0]!;
+          ys[kept] = oneY[0]!;
           gateCounts[0] = kept + 1;
         }
       }
       near[0] += gateCounts[1]!;
       const kept = gateCounts[0]!;
       if (partner === undefined) {
-        sumChunk(kept);
+        sumChunk(kept, null, int16);
       } else if (kept === n && partner.inFrame(shiftX, shiftY, gridHalfWidth)) {
         // The chunk is still the block as it came (the gate moved no pair), and both grids mark the same cells.
-        if (sumChunk(kept, partner)) {
+        if (sumChunk(kept, partner, int16)) {
           partner.absorb(running, kept);
           if (sharedWith === null) partner.owe(flush);
           sharedWith = partner;
@@ -264,7 +308,7 @@ export function createWasmEllipseAccumulator(options: EllipseFitOptions = {}): E
           all!.add(x, y, length);
         }
       } else {
-        sumChunk(kept);
+        sumChunk(kept, null, int16);
         all!.add(x, y, length);
       }
       endAdd(kept);

@@ -9,13 +9,16 @@ import { createCorrection, createEllipseAccumulator, type EllipseAccumulator, ty
 import { keepWithin } from '../../src/core/fit/two-pass.js';
 import { createWasmEllipseAccumulator } from '../../src/accel/index.js';
 import '../support/property-seed.js';
-import { ellipseRuns, huggingTheGate, expectSameState } from '../support/fit-accumulators.js';
+import { ellipseRuns, huggingTheGate, expectSameState, sometimesInt16 } from '../support/fit-accumulators.js';
 
 const ellipse: EllipseCalibration = { offsetX: 37, offsetY: -21, amplitudeX: 9000, amplitudeY: 7600, phaseErrorRad: 0.3 };
 const CHUNK = 4096;
 
-/** Runs of pairs of the invented ellipse at drawn radii (on the gate's bounds, within an ulp of them, anywhere), with glitches. */
-const ellipseSamples = ellipseRuns(ellipse, {
+/**
+ * Runs of pairs of the invented ellipse at drawn radii (on the gate's bounds, within an ulp of them, anywhere), with
+ * glitches; half the time as int16 arrays.
+ */
+const ellipseSamples = sometimesInt16(ellipseRuns(ellipse, {
   radius: fc.oneof(
     fc.constantFrom(0, 0.5, 1.5, 0.5 * (1 + 2 ** -52), 0.5 * (1 - 2 ** -52), 1.5 * (1 + 2 ** -52), 1.5 * (1 - 2 ** -52), 0.48, 0.52, 1.48, 1.52),
     fc.double({ min: 0, max: 3, noNaN: true }),
@@ -24,7 +27,7 @@ const ellipseSamples = ellipseRuns(ellipse, {
   glitches: [Number.NaN, Infinity, -Infinity, 3e5, -1e9],
   maxRepeat: 2000,
   maxRuns: 12,
-});
+}));
 
 const hugging = huggingTheGate(1, 3000);
 
@@ -37,18 +40,21 @@ function plainWithin(accumulator: EllipseAccumulator, x: Float64Array, y: Float6
   }
 }
 
-function checkSequence(calibration: EllipseCalibration, blocks: readonly { x: Float64Array; y: Float64Array; gated: boolean }[]): void {
+/** x, y to the reference; fx, fy (the same values, perhaps as int16) to the accumulator tested. */
+type Samples = { x: Float64Array; y: Float64Array; fx?: Float64Array | Int16Array; fy?: Float64Array | Int16Array };
+
+function checkSequence(calibration: EllipseCalibration, blocks: readonly (Samples & { gated: boolean })[]): void {
   const { coefficients } = createCorrection({ calibration });
   const fast = createWasmEllipseAccumulator()!;
   const core = createEllipseAccumulator();
   const fastNear = new Float64Array([5]);
   const coreNear = new Float64Array([5]);
-  for (const { x, y, gated } of blocks) {
+  for (const { x, y, fx = x, fy = y, gated } of blocks) {
     if (gated) {
-      fast.addWithin!(x, y, x.length, coefficients, 0.5, 1.5, 0.02, fastNear);
+      fast.addWithin!(fx, fy, x.length, coefficients, 0.5, 1.5, 0.02, fastNear);
       plainWithin(core, x, y, coefficients, coreNear);
     } else {
-      fast.add(x, y, x.length);
+      fast.add(fx, fy, x.length);
       core.add(x, y, x.length);
     }
     expectSameState(fast, core);
@@ -94,8 +100,9 @@ describe('WebAssembly ellipse accumulator, gated add', () => {
 });
 
 // Blocks mostly kept whole by the gate (radii within it), so that the fused second pass sums most of them once for
-// both accumulators; some with pairs dropped, glitches that zoom the grid out, and blocks longer than a chunk.
-const keptSamples = ellipseRuns(ellipse, {
+// both accumulators; some with pairs dropped, glitches that zoom the grid out, and blocks longer than a chunk; half
+// the time as int16 arrays.
+const keptSamples = sometimesInt16(ellipseRuns(ellipse, {
   radius: fc.oneof(
     { weight: 6, arbitrary: fc.double({ min: 0.6, max: 1.4, noNaN: true }) },
     { weight: 1, arbitrary: fc.constantFrom(0, 0.3, 1.6, 2.5) },
@@ -103,11 +110,11 @@ const keptSamples = ellipseRuns(ellipse, {
   glitches: [Number.NaN, Infinity, 3e5, -1e6],
   maxRepeat: 1500,
   maxRuns: 4,
-});
+}));
 
 type PairStep =
-  | { kind: 'within'; to: 'all' | 'gated'; x: Float64Array; y: Float64Array }
-  | { kind: 'add' | 'merge'; to: 'all' | 'gated'; x: Float64Array; y: Float64Array }
+  | ({ kind: 'within'; to: 'all' | 'gated' } & Required<Samples>)
+  | ({ kind: 'add' | 'merge'; to: 'all' | 'gated' } & Required<Samples>)
   | { kind: 'reset' | 'read'; to: 'all' | 'gated' };
 const to = fc.constantFrom<'all' | 'gated'>('all', 'gated');
 const pairSteps = fc.array(
@@ -132,11 +139,11 @@ describe('WebAssembly ellipse accumulator, gated add with every pair also added 
         for (const step of steps) {
           if (step.kind === 'within') {
             const other = step.to === 'gated' ? 'all' : 'gated';
-            fast[step.to].addWithin!(step.x, step.y, step.x.length, coefficients, 0.5, 1.5, 0.02, fastNear, fast[other]);
+            fast[step.to].addWithin!(step.fx, step.fy, step.x.length, coefficients, 0.5, 1.5, 0.02, fastNear, fast[other]);
             core[other].add(step.x, step.y, step.x.length);
             plainWithin(core[step.to], step.x, step.y, coefficients, coreNear);
           } else if (step.kind === 'add') {
-            fast[step.to].add(step.x, step.y, step.x.length);
+            fast[step.to].add(step.fx, step.fy, step.x.length);
             core[step.to].add(step.x, step.y, step.x.length);
           } else if (step.kind === 'merge') {
             const other = createEllipseAccumulator();

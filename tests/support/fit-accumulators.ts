@@ -61,6 +61,24 @@ export function huggingTheGate(minLength: number, maxLength: number): fc.Arbitra
     });
 }
 
+const toInt16 = (value: number) => (Number.isNaN(value) ? 0 : Math.max(-32768, Math.min(32767, Math.round(value))));
+
+/**
+ * The samples as the reference accumulator takes them (x, y) and as the one tested takes them (fx, fy): half the
+ * time the same arrays, half the time rounded and clamped to int16 (non-finite values as 0 or the bounds), given to
+ * the one tested as Int16Array and to the reference as the same values in Float64Array.
+ */
+export function sometimesInt16(
+  samples: fc.Arbitrary<{ x: Float64Array; y: Float64Array }>,
+): fc.Arbitrary<{ x: Float64Array; y: Float64Array; fx: Float64Array | Int16Array; fy: Float64Array | Int16Array }> {
+  return fc.tuple(samples, fc.boolean()).map(([{ x, y }, int16]) => {
+    if (!int16) return { x, y, fx: x, fy: y };
+    const fx = Int16Array.from(x, toInt16);
+    const fy = Int16Array.from(y, toInt16);
+    return { x: Float64Array.from(fx), y: Float64Array.from(fy), fx, fy };
+  });
+}
+
 /** The same sums, grid, shift and counts, bit for bit. */
 export function expectSameState(actual: EllipseAccumulator, expected: EllipseAccumulator): void {
   const [a, e] = [actual.state, expected.state];

@@ -2,12 +2,12 @@
 // open and read each part again (calibrate's analyses after the fit's pass: 256 parts, each a few file-system round
 // trips to open, then a read).
 import { OptionError } from '../../core/options.js';
-import type { CaptureBlock, SampleEncoding } from './types.js';
+import type { BlockSamples, CaptureBlock, SampleEncoding } from './types.js';
 
 /** Parts of a capture kept in memory as a pass over the whole of it goes by (keepCaptureParts). */
 export interface KeptParts {
   /** Copies x and y of the samples of `block` that fall in a part. Blocks come in file order, each once a pass. */
-  add(block: CaptureBlock): void;
+  add(block: CaptureBlock<BlockSamples>): void;
   /** Whether every sample of every part went by since the last reset. */
   readonly complete: boolean;
   /**
@@ -44,7 +44,7 @@ export function keepCaptureParts(parts: readonly (readonly [startSample: number,
   // The first part not yet wholly gone by.
   let cursor = 0;
 
-  function add(block: CaptureBlock): void {
+  function add(block: CaptureBlock<BlockSamples>): void {
     const from = block.firstIndex, to = from + block.length;
     while (cursor < parts.length && parts[cursor]![0] + parts[cursor]![1] <= from) cursor++;
     for (let k = cursor; k < parts.length && parts[k]![0] < to; k++) {
