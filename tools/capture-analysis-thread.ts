@@ -46,8 +46,10 @@ const PIPELINE_WAITING = 4;
 const CONTROL_BYTES = 24;
 /** Where the worker's in-place block summary keeps its lanes, from the ring's base (createSharedBlockSummary: 176 bytes, 16-aligned). */
 export const SUMMARY_LANES_AT = 32;
-/** Bytes before the first slot: the control words, then the summary's lanes. */
-const HEAD_BYTES = SUMMARY_LANES_AT + 176;
+/** Where the slot of each block handed over is noted (an int32 for each of the last RING_SLOTS blocks), from the base. */
+const ORDER_AT = SUMMARY_LANES_AT + 176;
+/** Bytes before the first slot: the control words, the summary's lanes, the order of the slots. */
+const HEAD_BYTES = ORDER_AT + 4 * RING_SLOTS;
 /** A slot: the pipeline's output, then x, y, times and the phase before harmonics (f64 each), then its header. */
 const SAMPLES_BYTES = 8 * CAPTURE_BLOCK_SAMPLES;
 const HEADER_BYTES = 48;
@@ -69,6 +71,8 @@ export interface RingSlot {
 
 export interface AnalysisRing {
   readonly control: Int32Array;
+  /** The slot of block k (in the order handed over) is order[k % RING_SLOTS]. */
+  readonly order: Int32Array;
   readonly slots: readonly RingSlot[];
 }
 
@@ -87,7 +91,7 @@ export function ringOf(buffer: SharedArrayBuffer, base: number): AnalysisRing {
       header: new Float64Array(buffer, at + BLOCK_OUTPUT_BYTES + 4 * SAMPLES_BYTES, 6),
     });
   }
-  return { control: new Int32Array(buffer, base, CONTROL_BYTES / 4), slots };
+  return { control: new Int32Array(buffer, base, CONTROL_BYTES / 4), order: new Int32Array(buffer, base + ORDER_AT, RING_SLOTS), slots };
 }
 
 /** The block in a slot, as the analyses take it (views of the slot's arrays, `length` long). */
@@ -119,7 +123,10 @@ export const WORKER_CONTROL = { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_
 export type HandedBlock = Omit<AnalysedBlock, 'output' | 'x' | 'y'> & { readonly x: BlockSamples | null; readonly y: BlockSamples | null };
 
 export interface AnalysisThread {
-  /** The arrays the pipeline writes the next block's output into, once the worker is done with their slot. */
+  /**
+   * The arrays the pipeline writes the next block's output into, once the worker is done with their slot; the same
+   * until `add` or `skip` hands the block over (which each need a `next` before them).
+   */
   next(): Promise<BlockOutput>;
   /** The array to keep the phase in before a harmonic correction (three or four outputs), in the same slot. */
   phaseSlot(): Float64Array;
@@ -193,11 +200,47 @@ export function analysesInLine(config: AnalysisConfig): AnalysisThread {
   };
 }
 
+export interface SlotPicker {
+  /**
+   * The slot for the next block once the worker has read `read` blocks (fewer than `order.length` in flight), the
+   * same until handOver.
+   */
+  take(read: number): number;
+  /** Notes the slot taken as block `block`'s, where the worker looks (order[block % order.length]). */
+  handOver(block: number): void;
+}
+
+/**
+ * Which slot of the ring each block takes: the one freed last. While the worker keeps up, the next block then takes
+ * the slot it has just freed, still in cache, rather than the next of all RING_SLOTS (17 MiB, cold by the time the
+ * ring comes round): in a single-thread check the kernel wrote its positions and velocities into 16 slots taken in
+ * turn at 2.1 ns a sample, into 64 at 4.1.
+ */
+export function createSlotPicker(order: Int32Array): SlotPicker {
+  const slots = order.length;
+  const free = Int32Array.from({ length: slots }, (_, k) => slots - 1 - k);
+  let freeCount = slots;
+  let freedUpTo = 0; // blocks whose slots are back among the free
+  let current = -1;
+  return {
+    take(read) {
+      if (current >= 0) return current;
+      for (; freedUpTo < read; freedUpTo++) free[freeCount++] = order[freedUpTo % slots]!;
+      current = free[--freeCount]!;
+      return current;
+    },
+    handOver(block) {
+      order[block % slots] = current;
+      current = -1;
+    },
+  };
+}
+
 /** Starts the worker (the compiled capture-analysis-worker.js beside this file), or takes the one prepared. */
 export function startAnalysisThread(config: AnalysisConfig, ringMemory: RingMemory = createRingMemory()): AnalysisThread {
   const { memory, buffer, base } = ringMemory;
   const ring = ringOf(buffer, base);
-  const { control, slots } = ring;
+  const { control, order, slots } = ring;
   const ahead = takePreparedWorker();
   const worker = ahead?.worker ?? createAnalysisWorker();
   worker.ref();
@@ -228,9 +271,13 @@ export function startAnalysisThread(config: AnalysisConfig, ringMemory: RingMemo
   // Until finish() awaits it, a failure is seen through `failure`.
   results.catch(() => undefined);
   let written = 0;
+  const picker = createSlotPicker(order);
+  let current = -1;
 
   /** The slot of `next` to the worker. */
   function handOver(): void {
+    picker.handOver(written);
+    current = -1;
     written++;
     Atomics.store(control, WRITTEN, written);
     // Only a nearly full ring wakes the worker (it looks by itself every WORKER_POLL_MS), once a sleep: the flag is
@@ -240,6 +287,7 @@ export function startAnalysisThread(config: AnalysisConfig, ringMemory: RingMemo
 
   return {
     async next() {
+      if (current >= 0) return slots[current]!.output;
       while (written - Atomics.load(control, READ) >= RING_SLOTS) {
         if (failure !== null) throw failure;
         // A full ring waits for WAKE_BATCH free slots, not one: woken for every block, the two threads would take
@@ -256,19 +304,20 @@ export function startAnalysisThread(config: AnalysisConfig, ringMemory: RingMemo
         Atomics.store(control, PIPELINE_WAITING, 0);
       }
       if (failure !== null) throw failure;
-      return slots[written % RING_SLOTS]!.output;
+      current = picker.take(Atomics.load(control, READ));
+      return slots[current]!.output;
     },
     phaseSlot() {
-      return slots[written % RING_SLOTS]!.phaseBeforeHarmonics;
+      return slots[current]!.phaseBeforeHarmonics;
     },
     skip(length) {
-      const slot = slots[written % RING_SLOTS]!;
+      const slot = slots[current]!;
       slot.header[1] = length;
       slot.header[5] = 1;
       handOver();
     },
     add(block) {
-      const slot = slots[written % RING_SLOTS]!;
+      const slot = slots[current]!;
       if (block.analysed) {
         slot.x.set(block.x!.subarray(0, block.length));
         slot.y.set(block.y!.subarray(0, block.length));

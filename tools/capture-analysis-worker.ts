@@ -10,7 +10,7 @@ const { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING, WORKER_POLL_MS 
 // The run comes as the first message: the worker may have been started ahead of it (prepareAnalysisThread).
 type Run = { config: AnalysisConfig; buffer: SharedArrayBuffer; memory: WebAssembly.Memory | null; base: number };
 const { config, buffer, memory, base } = await new Promise<Run>((resolve) => parentPort!.once('message', resolve));
-const { control, slots } = ringOf(buffer, base);
+const { control, order, slots } = ringOf(buffer, base);
 
 try {
   // The block summary in place over the ring where its memory allows, else over copies.
@@ -19,7 +19,7 @@ try {
   for (;;) {
     const written = Atomics.load(control, WRITTEN);
     if (read < written) {
-      const slot = slots[read % slots.length]!;
+      const slot = slots[order[read % slots.length]!]!;
       if (slot.header[5] === 1) analyses.skip(slot.header[1]!);
       else analyses.add(blockInSlot(slot));
       read++;
