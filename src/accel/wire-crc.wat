@@ -38,42 +38,29 @@
     (block $done
       (loop $sixteen
         (br_if $done (i32.gt_u (i32.add (local.get $p) (i32.const 16)) (local.get $end)))
-        (local.set $a (i32.xor (local.get $crc) (i32.load (local.get $p))))
         (local.set $b (i32.load offset=4 (local.get $p)))
         (local.set $c (i32.load offset=8 (local.get $p)))
         (local.set $d (i32.load offset=12 (local.get $p)))
+        (local.set $a (i32.xor (local.get $crc) (i32.load (local.get $p))))
+        ;; One chain of xors, the twelve entries that do not depend on the running CRC first: fewer values live at once
+        ;; than in a tree (V8 kept one in memory instead of seven), about a tenth faster.
         (local.set $crc
-          (i32.xor
-            (i32.xor
-              (i32.xor
-                (i32.xor
-                  (i32.load offset=15360 (i32.and (i32.shl (local.get $a) (i32.const 2)) (i32.const 1020)))
-                  (i32.load offset=14336 (i32.and (i32.shr_u (local.get $a) (i32.const 6)) (i32.const 1020))))
-                (i32.xor
-                  (i32.load offset=13312 (i32.and (i32.shr_u (local.get $a) (i32.const 14)) (i32.const 1020)))
-                  (i32.load offset=12288 (i32.and (i32.shr_u (local.get $a) (i32.const 22)) (i32.const 1020)))))
-              (i32.xor
-                (i32.xor
-                  (i32.load offset=11264 (i32.and (i32.shl (local.get $b) (i32.const 2)) (i32.const 1020)))
-                  (i32.load offset=10240 (i32.and (i32.shr_u (local.get $b) (i32.const 6)) (i32.const 1020))))
-                (i32.xor
-                  (i32.load offset=9216 (i32.and (i32.shr_u (local.get $b) (i32.const 14)) (i32.const 1020)))
-                  (i32.load offset=8192 (i32.and (i32.shr_u (local.get $b) (i32.const 22)) (i32.const 1020))))))
-            (i32.xor
-              (i32.xor
-                (i32.xor
-                  (i32.load offset=7168 (i32.and (i32.shl (local.get $c) (i32.const 2)) (i32.const 1020)))
-                  (i32.load offset=6144 (i32.and (i32.shr_u (local.get $c) (i32.const 6)) (i32.const 1020))))
-                (i32.xor
-                  (i32.load offset=5120 (i32.and (i32.shr_u (local.get $c) (i32.const 14)) (i32.const 1020)))
-                  (i32.load offset=4096 (i32.and (i32.shr_u (local.get $c) (i32.const 22)) (i32.const 1020)))))
-              (i32.xor
-                (i32.xor
-                  (i32.load offset=3072 (i32.and (i32.shl (local.get $d) (i32.const 2)) (i32.const 1020)))
-                  (i32.load offset=2048 (i32.and (i32.shr_u (local.get $d) (i32.const 6)) (i32.const 1020))))
-                (i32.xor
-                  (i32.load offset=1024 (i32.and (i32.shr_u (local.get $d) (i32.const 14)) (i32.const 1020)))
-                  (i32.load offset=0 (i32.and (i32.shr_u (local.get $d) (i32.const 22)) (i32.const 1020))))))))
+          (i32.xor (i32.xor (i32.xor (i32.xor (i32.xor (i32.xor (i32.xor (i32.xor (i32.xor (i32.xor (i32.xor (i32.xor (i32.xor (i32.xor (i32.xor (i32.load offset=11264 (i32.and (i32.shl (local.get $b) (i32.const 2)) (i32.const 1020)))
+          (i32.load offset=10240 (i32.and (i32.shr_u (local.get $b) (i32.const 6)) (i32.const 1020))))
+          (i32.load offset=9216 (i32.and (i32.shr_u (local.get $b) (i32.const 14)) (i32.const 1020))))
+          (i32.load offset=8192 (i32.and (i32.shr_u (local.get $b) (i32.const 22)) (i32.const 1020))))
+          (i32.load offset=7168 (i32.and (i32.shl (local.get $c) (i32.const 2)) (i32.const 1020))))
+          (i32.load offset=6144 (i32.and (i32.shr_u (local.get $c) (i32.const 6)) (i32.const 1020))))
+          (i32.load offset=5120 (i32.and (i32.shr_u (local.get $c) (i32.const 14)) (i32.const 1020))))
+          (i32.load offset=4096 (i32.and (i32.shr_u (local.get $c) (i32.const 22)) (i32.const 1020))))
+          (i32.load offset=3072 (i32.and (i32.shl (local.get $d) (i32.const 2)) (i32.const 1020))))
+          (i32.load offset=2048 (i32.and (i32.shr_u (local.get $d) (i32.const 6)) (i32.const 1020))))
+          (i32.load offset=1024 (i32.and (i32.shr_u (local.get $d) (i32.const 14)) (i32.const 1020))))
+          (i32.load offset=0 (i32.and (i32.shr_u (local.get $d) (i32.const 22)) (i32.const 1020))))
+          (i32.load offset=15360 (i32.and (i32.shl (local.get $a) (i32.const 2)) (i32.const 1020))))
+          (i32.load offset=14336 (i32.and (i32.shr_u (local.get $a) (i32.const 6)) (i32.const 1020))))
+          (i32.load offset=13312 (i32.and (i32.shr_u (local.get $a) (i32.const 14)) (i32.const 1020))))
+          (i32.load offset=12288 (i32.and (i32.shr_u (local.get $a) (i32.const 22)) (i32.const 1020)))))
         (local.set $p (i32.add (local.get $p) (i32.const 16)))
         (br $sixteen)))
     (block $tail
