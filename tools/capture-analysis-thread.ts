@@ -18,11 +18,11 @@ import { steadyKernelBytes } from '../src/accel/index.js';
 import type { BlockSamples } from '../src/io/capture/index.js';
 
 /**
- * Blocks in flight between the two threads: enough to hold what the pipeline runs while the worker analyses one
- * block the periodic-error and radius analyses take (about 30 of the pipeline's blocks), so neither side waits for
- * the other's burst. 17 MiB, whatever the run's length.
+ * Blocks in flight between the two threads by default: enough to hold what the pipeline runs while the worker
+ * analyses one block the periodic-error and radius analyses take (about 30 of the pipeline's blocks), so neither
+ * side waits for the other's burst. 17 MiB, whatever the run's length.
  */
-const RING_SLOTS = 64;
+export const RING_SLOTS = 64;
 /**
  * A waiting pipeline is woken once this many slots are free, not for each: a wake-up is a system call and a thread
  * switch, which cost as much as copying a block's samples, more on a busy machine.
@@ -46,10 +46,10 @@ const PIPELINE_WAITING = 4;
 const CONTROL_BYTES = 24;
 /** Where the worker's in-place block summary keeps its lanes, from the ring's base (createSharedBlockSummary: 176 bytes, 16-aligned). */
 export const SUMMARY_LANES_AT = 32;
-/** Where the slot of each block handed over is noted (an int32 for each of the last RING_SLOTS blocks), from the base. */
+/** Where the slot of each block handed over is noted (an int32 for each of the last `slots` blocks), from the base. */
 const ORDER_AT = SUMMARY_LANES_AT + 176;
-/** Bytes before the first slot: the control words, the summary's lanes, the order of the slots. */
-const HEAD_BYTES = ORDER_AT + 4 * RING_SLOTS;
+/** Bytes before the first slot: the control words, the summary's lanes, the order of the slots (16-aligned). */
+const headBytes = (slots: number) => ORDER_AT + Math.ceil(slots / 4) * 16;
 /** A slot: the pipeline's output, then x, y, times and the phase before harmonics (f64 each), then its header. */
 const SAMPLES_BYTES = 8 * CAPTURE_BLOCK_SAMPLES;
 const HEADER_BYTES = 48;
@@ -71,16 +71,16 @@ export interface RingSlot {
 
 export interface AnalysisRing {
   readonly control: Int32Array;
-  /** The slot of block k (in the order handed over) is order[k % RING_SLOTS]. */
+  /** The slot of block k (in the order handed over) is order[k % slots.length]. */
   readonly order: Int32Array;
   readonly slots: readonly RingSlot[];
 }
 
-/** The ring in `buffer` from byte `base` (the bytes before it are the pipeline's kernel's, see createRingMemory). */
-export function ringOf(buffer: SharedArrayBuffer, base: number): AnalysisRing {
+/** The ring of `count` slots in `buffer` from byte `base` (the bytes before it are the pipeline's kernel's, see createRingMemory). */
+export function ringOf(buffer: SharedArrayBuffer, base: number, count: number): AnalysisRing {
   const slots: RingSlot[] = [];
-  for (let k = 0; k < RING_SLOTS; k++) {
-    const at = base + HEAD_BYTES + k * SLOT_BYTES;
+  for (let k = 0; k < count; k++) {
+    const at = base + headBytes(count) + k * SLOT_BYTES;
     const samples = (index: number) => new Float64Array(buffer, at + BLOCK_OUTPUT_BYTES + index * SAMPLES_BYTES, CAPTURE_BLOCK_SAMPLES);
     slots.push({
       output: createBlockOutput(buffer, at),
@@ -91,7 +91,7 @@ export function ringOf(buffer: SharedArrayBuffer, base: number): AnalysisRing {
       header: new Float64Array(buffer, at + BLOCK_OUTPUT_BYTES + 4 * SAMPLES_BYTES, 6),
     });
   }
-  return { control: new Int32Array(buffer, base, CONTROL_BYTES / 4), order: new Int32Array(buffer, base + ORDER_AT, RING_SLOTS), slots };
+  return { control: new Int32Array(buffer, base, CONTROL_BYTES / 4), order: new Int32Array(buffer, base + ORDER_AT, count), slots };
 }
 
 /** The block in a slot, as the analyses take it (views of the slot's arrays, `length` long). */
@@ -155,6 +155,7 @@ export interface RingMemory {
   readonly memory: WebAssembly.Memory | null;
   readonly buffer: SharedArrayBuffer;
   readonly base: number;
+  readonly slots: number;
 }
 
 /**
@@ -164,17 +165,17 @@ export interface RingMemory {
  * memory go element by element, at about twice the cost of the kernel's own stores. Else plain shared bytes (the
  * worker then copies, and so does the pipeline).
  */
-export function createRingMemory(): RingMemory {
+export function createRingMemory(slots = RING_SLOTS): RingMemory {
   const base = steadyKernelBytes();
-  const bytes = base + HEAD_BYTES + RING_SLOTS * SLOT_BYTES;
+  const bytes = base + headBytes(slots) + slots * SLOT_BYTES;
   // Room for the kernel to grow into for a block longer than CAPTURE_BLOCK_SAMPLES (none in a run, see steadyKernelBytes).
   const pages = Math.ceil(bytes / 65536);
   try {
     const memory = new WebAssembly.Memory({ initial: pages, maximum: 2 * pages, shared: true });
-    return { memory, buffer: memory.buffer as unknown as SharedArrayBuffer, base };
+    return { memory, buffer: memory.buffer as unknown as SharedArrayBuffer, base, slots };
   } catch {
     // No WebAssembly, or no shared memory in it: the same ring over plain shared bytes.
-    return { memory: null, buffer: new SharedArrayBuffer(bytes), base };
+    return { memory: null, buffer: new SharedArrayBuffer(bytes), base, slots };
   }
 }
 
@@ -212,7 +213,7 @@ export interface SlotPicker {
 
 /**
  * Which slot of the ring each block takes: the one freed last. While the worker keeps up, the next block then takes
- * the slot it has just freed, still in cache, rather than the next of all RING_SLOTS (17 MiB, cold by the time the
+ * the slot it has just freed, still in cache, rather than the next of all slots (17 MiB for 64, cold by the time the
  * ring comes round): in a single-thread check the kernel wrote its positions and velocities into 16 slots taken in
  * turn at 2.1 ns a sample, into 64 at 4.1.
  */
@@ -238,13 +239,13 @@ export function createSlotPicker(order: Int32Array): SlotPicker {
 
 /** Starts the worker (the compiled capture-analysis-worker.js beside this file), or takes the one prepared. */
 export function startAnalysisThread(config: AnalysisConfig, ringMemory: RingMemory = createRingMemory()): AnalysisThread {
-  const { memory, buffer, base } = ringMemory;
-  const ring = ringOf(buffer, base);
+  const { memory, buffer, base, slots: count } = ringMemory;
+  const ring = ringOf(buffer, base, count);
   const { control, order, slots } = ring;
   const ahead = takePreparedWorker();
   const worker = ahead?.worker ?? createAnalysisWorker();
   worker.ref();
-  worker.postMessage({ config, buffer, memory, base });
+  worker.postMessage({ config, buffer, memory, base, slots: count });
   let failure: Error | null = ahead?.failure ?? null;
   let settled = false;
   const results = new Promise<AnalysisResults>((resolve, reject) => {
@@ -282,17 +283,17 @@ export function startAnalysisThread(config: AnalysisConfig, ringMemory: RingMemo
     Atomics.store(control, WRITTEN, written);
     // Only a nearly full ring wakes the worker (it looks by itself every WORKER_POLL_MS), once a sleep: the flag is
     // taken down here.
-    if (written - Atomics.load(control, READ) >= RING_SLOTS - WAKE_BATCH && Atomics.compareExchange(control, WORKER_WAITING, 1, 0) === 1) Atomics.notify(control, WRITTEN);
+    if (written - Atomics.load(control, READ) >= count - WAKE_BATCH && Atomics.compareExchange(control, WORKER_WAITING, 1, 0) === 1) Atomics.notify(control, WRITTEN);
   }
 
   return {
     async next() {
       if (current >= 0) return slots[current]!.output;
-      while (written - Atomics.load(control, READ) >= RING_SLOTS) {
+      while (written - Atomics.load(control, READ) >= count) {
         if (failure !== null) throw failure;
         // A full ring waits for WAKE_BATCH free slots, not one: woken for every block, the two threads would take
         // turns a block at a time, a wake-up each. The worker wakes this side once it has read `target` blocks.
-        const target = written - RING_SLOTS + WAKE_BATCH;
+        const target = written - count + WAKE_BATCH;
         Atomics.store(control, PIPELINE_WAITING, target);
         // Read after the target is up, so blocks read in between are not waited for (the timeout only re-checks
         // for a failure of the worker).

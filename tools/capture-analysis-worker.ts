@@ -8,9 +8,9 @@ import { createSharedBlockSummary } from '../src/accel/axis-kernels.js';
 
 const { WRITTEN, READ, FINISH, WORKER_WAITING, PIPELINE_WAITING, WORKER_POLL_MS } = WORKER_CONTROL;
 // The run comes as the first message: the worker may have been started ahead of it (prepareAnalysisThread).
-type Run = { config: AnalysisConfig; buffer: SharedArrayBuffer; memory: WebAssembly.Memory | null; base: number };
-const { config, buffer, memory, base } = await new Promise<Run>((resolve) => parentPort!.once('message', resolve));
-const { control, order, slots } = ringOf(buffer, base);
+type Run = { config: AnalysisConfig; buffer: SharedArrayBuffer; memory: WebAssembly.Memory | null; base: number; slots: number };
+const { config, buffer, memory, base, slots: count } = await new Promise<Run>((resolve) => parentPort!.once('message', resolve));
+const { control, order, slots } = ringOf(buffer, base, count);
 
 try {
   // The block summary in place over the ring where its memory allows, else over copies.

@@ -139,6 +139,14 @@ export interface RunOptions {
  */
 export const RUN_READ_BYTES = 1 << 20;
 
+/**
+ * Slots of a whole run's ring (createRingMemory): the worker's first blocks run cold, and while it warms up, or
+ * starts late on a busy machine, the pipeline ran 64 blocks ahead within a few ms and then waited, 60–130 ms in
+ * all in a 3·10^7-sample replay (load 4); with 256, a few ms. Each block takes the slot freed last, so only as many
+ * slots as the worker falls behind are ever written: about 10 MB more peak memory, flat with the run's length.
+ */
+const RUN_RING_SLOTS = 256;
+
 /** Shorter captures are analysed in line: starting a worker costs about as much as analysing them. */
 export const ANALYSIS_THREAD_MIN_SAMPLES = 2 ** 22;
 
@@ -204,7 +212,7 @@ export async function runCapture(path: string, options: RunOptions): Promise<Run
   }
   // On a worker thread the analyses take the blocks' outputs from a ring in shared memory, which the pipeline's
   // kernel writes in place.
-  const ring = threaded ? createRingMemory() : null;
+  const ring = threaded ? createRingMemory(RUN_RING_SLOTS) : null;
   const pipeline = createPipeline({ ...chain, calibration, ...(ring?.memory ? { kernelMemory: ring.memory } : {}) });
   const combined = layout === undefined ? null : createChannelPipeline({ ...chain, channels: layout });
   const harmonicCorrection = options.harmonics === undefined ? null : createHarmonicCorrection(options.harmonics);

@@ -178,6 +178,45 @@ describe('analyses on a worker thread', () => {
     }
   });
 
+  it('a ring of few slots, filled and emptied many times over, with the kernel writing into it in place: the results in line', async () => {
+    // The ring's order words, its waits when full and the slots freed last taken again, with the real worker.
+    type Thread = typeof import('../../tools/capture-analysis-thread.js');
+    type Analyses = typeof import('../../tools/capture-analyses.js');
+    const { createRingMemory, startAnalysisThread, analysesInLine } = (await import(pathToFileURL(resolve('dist/tools/capture-analysis-thread.js')).href)) as Thread;
+    const { CAPTURE_BLOCK_SAMPLES: n } = (await import(pathToFileURL(resolve('dist/tools/capture-analyses.js')).href)) as Analyses;
+    const { createPipeline } = await import('../../src/accel/index.js');
+    const blocks = 40;
+    const phase = wanderingPhase(blocks * n, 80);
+    const x = Int16Array.from(phase, (p) => 1000 * Math.cos(p));
+    const y = Int16Array.from(phase, (p) => 1000 * Math.sin(p) + 3 * Math.sin(2 * p));
+    const calibration = { offsetX: 0, offsetY: 0, amplitudeX: 1000, amplitudeY: 1000, phaseErrorRad: 0 };
+    const config = { calibration, layout: null, mid: 0, rateHz: 1e5, metresPerRad: 5e-8, maxPlotPoints: 64, totalSamples: blocks * n };
+    const chain = { rateHz: 1e5, wavelengthM: 632.9908e-9, fold: 2, calibration, adc: { kind: 'int16' } } as const;
+    const ring = createRingMemory(3);
+    expect(ring.memory).not.toBeNull();
+    const runs = [
+      { thread: startAnalysisThread(config, ring), pipeline: createPipeline({ ...chain, kernelMemory: ring.memory! }) },
+      { thread: analysesInLine(config), pipeline: createPipeline(chain) },
+    ];
+    const results = [];
+    for (const { thread, pipeline } of runs) {
+      for (let b = 0; b < blocks; b++) {
+        const output = await thread.next();
+        const xs = x.subarray(b * n, (b + 1) * n);
+        const ys = y.subarray(b * n, (b + 1) * n);
+        const analysed = b % 4 === 1;
+        pipeline.process(xs, ys, n, output, []);
+        if (b % 7 === 3) thread.skip(n);
+        else thread.add({ firstIndex: b * n, length: n, t: null, analysed, x: analysed ? xs : null, y: analysed ? ys : null, phaseBeforeHarmonics: null });
+      }
+      results.push(await thread.finish());
+    }
+    const [threaded, inline] = results;
+    expect(inline!.after.summary.samples).toBeGreaterThan(0);
+    expect(inline!.report.position.t.length).toBeGreaterThan(0);
+    expect(threaded).toEqual(inline);
+  });
+
   it('a worker started ahead takes the next run, with the same results; one never taken does not keep the process alive', async () => {
     type Start = typeof import('../../tools/analysis-worker-start.js');
     const start = (await import(pathToFileURL(resolve('dist/tools/analysis-worker-start.js')).href)) as Start;
